@@ -1,0 +1,172 @@
+"""Result objects shared by the layers: loaded measurements and the evaluation.
+
+Data flows one way: spec + measurements -> :func:`verify.evaluate.evaluate` -> :class:`Evaluation`
+-> report (workbook, JSON), audit, CLI. The report layer reads these objects and never calls a
+statistics function.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Literal
+
+if TYPE_CHECKING:  # pandas is heavy; only needed for annotations here
+    import pandas as pd
+
+    from .spec_model import Characteristic, Spec
+
+Decision = Literal["PASS", "HOLD", "PENDING"]
+DECISION_ORDER = {"PASS": 0, "PENDING": 1, "HOLD": 2}
+
+# Columns of the tidy measurements table, in this order.
+MEASUREMENT_COLUMNS = (
+    "source_file",  # str: the data file's path as written in the spec
+    "source_row",  # int: row number as a spreadsheet user counts it (header row = 1)
+    "order",  # int: production order within the file (0-based, from data.order or row order)
+    "lot",  # str
+    "process",  # str: "old", "new" or "" (neither: a lot in neither list, an ignored value)
+    "pair",  # str or "" when no pair key
+    "characteristic",  # str: the characteristic's name from the spec
+    "value",  # float; NaN only where the cell was a declared missing text (then excluded)
+    "excluded",  # bool
+    "exclusion_reason",  # str, "" when used
+)
+
+
+@dataclass(frozen=True)
+class DataFileInfo:
+    path: str  # as written in the spec
+    resolved_path: str
+    sha256: str
+    size: int  # bytes
+    encoding: str  # "utf-8", "utf-8-sig", "latin-1" or "xlsx"
+    rows_read: int  # data rows in the file (excluding the header)
+    rows_used: int  # rows with at least one used measurement
+    rows_excluded: int
+    exclusions: tuple[tuple[str, int], ...] = ()  # (reason, number of measurements)
+    sheet: str | None = None
+
+
+@dataclass(frozen=True)
+class Measurements:
+    """One tidy table with a row per measurement, plus what loading found."""
+
+    table: pd.DataFrame  # columns MEASUREMENT_COLUMNS
+    files: tuple[DataFileInfo, ...]
+    unassigned_lots: tuple[str, ...] = ()  # lots matching neither lots.old nor lots.new
+    notes: tuple[str, ...] = ()  # e.g. "read as Latin-1 (not UTF-8)"
+
+    def values(self, characteristic: str, process: str):
+        """Used values of one characteristic and process, in production order (numpy array)."""
+        t = self.table
+        sel = t[(t["characteristic"] == characteristic) & (t["process"] == process) & ~t["excluded"]]
+        return sel.sort_values("order", kind="stable")["value"].to_numpy(dtype=float)
+
+
+@dataclass(frozen=True)
+class ProcessSummary:
+    process: str  # "old" | "new"
+    n: int  # units analysed (parts, or lots when unit_of_analysis is lot)
+    mean: float | None
+    sd: float | None
+    lots: tuple[str, ...]
+    n_parts: int  # measurements used, whatever the unit
+    minimum: float | None = None
+    maximum: float | None = None
+
+
+@dataclass(frozen=True)
+class CheckResult:
+    """One check of one characteristic, with its outcome and reason in words."""
+
+    check: str  # "target" | "shift" | "spread" | "capability"
+    method: str  # e.g. "TOST (Welch)", "one-sample t-test", "F-test, one-sided"
+    hypothesis: str  # what is being shown, in words
+    alternative: str | None
+    margin: tuple[float, float] | None
+    outcome: Decision
+    reason: str
+    estimate: float | None = None
+    standard_error: float | None = None
+    statistic: float | None = None
+    df: float | None = None
+    p_value: float | None = None
+    p_adjusted: float | None = None  # after holm/bonferroni, difference tests only
+    ci_low: float | None = None
+    ci_high: float | None = None
+    ci_level: float | None = None
+    critical_value: float | None = None
+    # TOST only
+    p_lower: float | None = None
+    p_upper: float | None = None
+    statistic_lower: float | None = None
+    statistic_upper: float | None = None
+    # planning
+    power: float | None = None  # achieved power where it applies
+    power_note: str | None = None  # what the power is the power *of*
+    detectable_shift: float | None = None  # smallest shift detected with 80% power
+    planned_n: int | None = None  # n per process the plan asks for (target power)
+    design: str | None = None  # one-sample | welch | pooled | paired
+    extra: Mapping[str, float | int | str | None] = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class DiagnosticResult:
+    name: str  # "normality", "outliers", "lot effect", "lot count", "stability", "resolution", ...
+    method: str
+    group: str  # "old", "new", "differences", "all"
+    flag: bool
+    note: str
+    statistic: float | None = None
+    p_value: float | None = None
+    extra: Mapping[str, float | int | str | None] = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class CharacteristicResult:
+    name: str
+    unit: str
+    decision: Decision
+    reasons: tuple[str, ...]  # the reasons for the decision, in words
+    review: tuple[str, ...]  # "review: ..." notes from diagnostics
+    processes: Mapping[str, ProcessSummary]  # "old", "new" (old may be absent)
+    checks: tuple[CheckResult, ...]
+    diagnostics: tuple[DiagnosticResult, ...]
+    spec: Characteristic
+    pairs: int | None = None  # matched pairs, paired designs
+    unmatched_pairs: tuple[str, ...] = ()  # pair keys with one side only
+
+
+@dataclass(frozen=True)
+class RunInfo:
+    run_id: str
+    started: str  # ISO 8601 UTC
+    finished: str
+    user: str
+    host: str
+    command: str
+    tool_version: str
+    git_commit: str | None
+    versions: Mapping[str, str]  # python, numpy, scipy, pandas, openpyxl
+
+
+@dataclass(frozen=True)
+class Evaluation:
+    spec: Spec
+    measurements: Measurements
+    characteristics: tuple[CharacteristicResult, ...]
+    decision: Decision
+    reasons: tuple[str, ...]  # overall, one line per characteristic not PASS
+    review: tuple[str, ...]
+    rules: tuple[str, ...]  # the decision rules in words, generated from the rule objects
+    caution: str
+    final: bool
+    run: RunInfo
+    monitoring: str | None = None  # set by nightly after a decision of record is locked
+
+    def characteristic(self, name: str) -> CharacteristicResult:
+        for c in self.characteristics:
+            if c.name == name:
+                return c
+        raise KeyError(name)

@@ -1,0 +1,161 @@
+"""The validated, immutable spec model (format ``verify/1``).
+
+:func:`verify.spec.load_spec` builds these objects from YAML with every default made explicit.
+Nothing downstream reads YAML; everything reads these frozen dataclasses.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+DESIGNS = ("welch", "pooled", "paired")
+SIDES = ("two-sided", "lower", "upper")
+UNITS = ("part", "lot")
+MULTIPLICITY = ("none", "holm", "bonferroni")
+SPREAD_METHODS = ("f", "brown-forsythe")
+
+
+@dataclass(frozen=True)
+class Margin:
+    """An equivalence margin [low, high] around 0 (low < 0 < high), in the data's unit.
+
+    ``text`` is the margin as written in the spec ("0.02", "[-0.01, 0.03]", "0.5%").
+    """
+
+    low: float
+    high: float
+    text: str
+
+
+@dataclass(frozen=True)
+class TargetCheck:
+    margin: Margin | None = None
+    detect: float | None = None  # planning: the departure that must not go unseen
+
+
+@dataclass(frozen=True)
+class ShiftCheck:
+    design: str = "welch"  # welch | pooled | paired
+    margin: Margin | None = None
+    detect: float | None = None
+
+
+@dataclass(frozen=True)
+class SpreadCheck:
+    method: str = "f"  # f | brown-forsythe: which one-sided test decides
+
+
+@dataclass(frozen=True)
+class CapabilityCheck:
+    min_cpk: float = 1.33
+    subgroup: str | None = None  # "lot": within sigma from lot subgroup ranges; None: moving range
+
+
+@dataclass(frozen=True)
+class Checks:
+    """The checks that run for one characteristic; None means the check does not run."""
+
+    target: TargetCheck | None = None
+    shift: ShiftCheck | None = None
+    spread: SpreadCheck | None = None
+    capability: CapabilityCheck | None = None
+
+
+@dataclass(frozen=True)
+class Characteristic:
+    name: str
+    unit: str
+    column: str | None  # wide layout
+    match: str | None  # long layout: the value of data.characteristic for this characteristic
+    target: float | None
+    limits: tuple[float | None, float | None] | None
+    side: str  # two-sided | lower | upper: which departure is harmful
+    checks: Checks
+    line: int | None = None  # line in the spec, for messages
+
+    @property
+    def lower(self) -> float | None:
+        return None if self.limits is None else self.limits[0]
+
+    @property
+    def upper(self) -> float | None:
+        return None if self.limits is None else self.limits[1]
+
+
+@dataclass(frozen=True)
+class DataSpec:
+    file: Path  # resolved against the spec's folder
+    file_text: str  # as written in the spec
+    lot: str
+    sheet: str | None = None
+    process: str | None = None
+    old: tuple[str, ...] = ()
+    new: tuple[str, ...] = ()
+    pair: str | None = None
+    characteristic: str | None = None  # long layout
+    value: str | None = None  # long layout
+    order: str | None = None  # optional production-order column; default: source row order
+    decimal: str = "."
+    missing: tuple[str, ...] = ("", "NA")
+    ignore_other: bool = False
+
+    @property
+    def layout(self) -> str:
+        return "long" if self.characteristic is not None else "wide"
+
+
+@dataclass(frozen=True)
+class LotLists:
+    old: tuple[str, ...]
+    new: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class Exclusion:
+    reason: str
+    by: str
+    lot: str | None = None
+    row: int | None = None
+    line: int | None = None  # line in the spec, for messages
+
+
+@dataclass(frozen=True)
+class PlanSettings:
+    """Planning inputs recorded in the spec (used by ``verify plan`` and achieved power)."""
+
+    power: float = 0.9
+    true_shift: float = 0.0
+    pair_correlation: float | None = None
+
+
+@dataclass(frozen=True)
+class Spec:
+    path: Path
+    text: str  # the spec file's text, verbatim
+    sha256: str
+    title: str
+    data: DataSpec
+    characteristics: tuple[Characteristic, ...]
+    format: str = "verify/1"
+    change_id: str | None = None
+    alpha: float = 0.05
+    lots: LotLists | None = None
+    unit_of_analysis: str = "part"
+    min_n: int | None = None
+    multiplicity: str = "none"
+    exclude: tuple[Exclusion, ...] = ()
+    plan: PlanSettings = field(default_factory=PlanSettings)
+    supersedes_reason: str | None = None
+    # key path -> (value, came_from_default); for the workbook's and the audit's parameter list
+    resolved: tuple[tuple[str, str, bool], ...] = ()
+
+    @property
+    def stem(self) -> str:
+        return self.path.stem
+
+    def characteristic(self, name: str) -> Characteristic:
+        for c in self.characteristics:
+            if c.name == name:
+                return c
+        raise KeyError(name)

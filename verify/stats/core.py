@@ -1,0 +1,211 @@
+"""The generic t core: everything from (estimate, standard error, df).
+
+Every t-based test in :mod:`verify.stats` computes only its estimate, its standard error and its
+degrees of freedom, then hands them to :func:`t_test_from_estimate` (or, for equivalence, to
+:func:`verify.stats.equivalence.tost_from_estimate`). p-values come from ``scipy.special.stdtr``
+on our own statistic, which matches ``scipy.stats`` to about 1e-15 at a fraction of the cost.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Literal
+
+import numpy as np
+from scipy import special
+
+from .errors import DegenerateDataError
+
+Alternative = Literal["two-sided", "less", "greater"]
+ALTERNATIVES: tuple[str, ...] = ("two-sided", "less", "greater")
+
+
+def check_alternative(alternative: str) -> str:
+    if alternative not in ALTERNATIVES:
+        raise ValueError(f"alternative must be one of {ALTERNATIVES}, not {alternative!r}")
+    return alternative
+
+
+@dataclass(frozen=True)
+class Interval:
+    """A confidence interval or bound. One-sided bounds have an infinite other end."""
+
+    low: float
+    high: float
+    level: float
+
+    def contains(self, value: float) -> bool:
+        return self.low <= value <= self.high
+
+
+def t_cdf(t: float, df: float) -> float:
+    """P(T <= t) for Student's t with ``df`` degrees of freedom (df may be fractional)."""
+    if math.isinf(df):
+        return float(special.ndtr(t))
+    return float(special.stdtr(df, t))
+
+
+def t_sf(t: float, df: float) -> float:
+    """P(T > t), computed without cancellation as P(T <= -t)."""
+    return t_cdf(-t, df)
+
+
+def t_quantile(p: float, df: float) -> float:
+    """The p-quantile of Student's t."""
+    if not 0.0 < p < 1.0:
+        raise ValueError(f"quantile probability must lie in (0, 1), not {p}")
+    if math.isinf(df):
+        return float(special.ndtri(p))
+    return float(special.stdtrit(df, p))
+
+
+def p_value(statistic: float, df: float, alternative: str) -> float:
+    """p-value of a t statistic for the given alternative."""
+    check_alternative(alternative)
+    if alternative == "less":
+        return t_cdf(statistic, df)
+    if alternative == "greater":
+        return t_sf(statistic, df)
+    return min(1.0, 2.0 * t_cdf(-abs(statistic), df))
+
+
+@dataclass(frozen=True)
+class TTestResult:
+    """Result of a t-test, whatever the design.
+
+    Attributes
+    ----------
+    method : str
+        e.g. ``"one-sample t-test"``, ``"Welch two-sample t-test"``.
+    estimate : float
+        The estimated effect: mean minus target (one-sample), or new minus old.
+    null_value : float
+        The hypothesised value of the effect (0 for a difference; the statistic is
+        ``(estimate - null_value) / standard_error``).
+    standard_error, df, statistic, pvalue : float
+    alternative : str
+        ``"two-sided"``, ``"less"`` (effect below the null) or ``"greater"``.
+    """
+
+    method: str
+    estimate: float
+    standard_error: float
+    df: float
+    statistic: float
+    pvalue: float
+    alternative: str
+    null_value: float = 0.0
+
+    def confidence_interval(self, level: float = 0.95) -> Interval:
+        """Interval for the effect matching the alternative.
+
+        Two-sided: the usual two-sided interval. ``"less"``: (-inf, upper bound].
+        ``"greater"``: [lower bound, +inf).
+        """
+        return confidence_interval(
+            self.estimate, self.standard_error, self.df, level=level, alternative=self.alternative
+        )
+
+    def critical_value(self, alpha: float) -> float:
+        """The positive critical |t| at significance ``alpha`` for this alternative."""
+        return critical_value(self.df, alpha, self.alternative)
+
+
+def critical_value(df: float, alpha: float, alternative: str = "two-sided") -> float:
+    """Positive critical value: t(1 - alpha/2) two-sided, t(1 - alpha) one-sided."""
+    check_alternative(alternative)
+    tail = alpha / 2.0 if alternative == "two-sided" else alpha
+    return t_quantile(1.0 - tail, df)
+
+
+def confidence_interval(
+    estimate: float, se: float, df: float, *, level: float = 0.95, alternative: str = "two-sided"
+) -> Interval:
+    """Confidence interval (or one-sided bound) for ``estimate`` with standard error ``se``."""
+    if not 0.0 < level < 1.0:
+        raise ValueError(f"confidence level must lie in (0, 1), not {level}")
+    check_alternative(alternative)
+    if alternative == "two-sided":
+        half = t_quantile(0.5 + level / 2.0, df) * se
+        return Interval(estimate - half, estimate + half, level)
+    q = t_quantile(level, df) * se
+    if alternative == "less":
+        return Interval(-math.inf, estimate + q, level)
+    return Interval(estimate - q, math.inf, level)
+
+
+def check_se_df(se: float, df: float) -> None:
+    if not (math.isfinite(se) and se > 0.0):
+        raise DegenerateDataError(
+            "the standard error is zero: all values are identical, so no t statistic exists"
+            if se == 0.0
+            else f"the standard error is not a positive finite number ({se})"
+        )
+    if not (df > 0.0) or math.isnan(df):
+        raise DegenerateDataError(f"degrees of freedom must be positive, got {df}")
+
+
+def t_test_from_estimate(
+    estimate: float,
+    se: float,
+    df: float,
+    *,
+    null_value: float = 0.0,
+    alternative: str = "two-sided",
+    method: str = "t-test",
+) -> TTestResult:
+    """The generic t-test: statistic ``(estimate - null_value) / se`` on ``df`` df.
+
+    Examples
+    --------
+    >>> r = t_test_from_estimate(1.0, 0.5, 10)
+    >>> round(r.statistic, 6), round(r.pvalue, 6)
+    (2.0, 0.073388)
+    """
+    check_alternative(alternative)
+    check_se_df(se, df)
+    stat = (estimate - null_value) / se
+    return TTestResult(
+        method=method,
+        estimate=float(estimate),
+        standard_error=float(se),
+        df=float(df),
+        statistic=float(stat),
+        pvalue=p_value(stat, df, alternative),
+        alternative=alternative,
+        null_value=float(null_value),
+    )
+
+
+# --- numerics -------------------------------------------------------------------------------
+
+
+def mean_sd(x: np.ndarray) -> tuple[int, float, float]:
+    """n, mean and sample sd (n - 1) by a two-pass method with a correction term.
+
+    The corrected two-pass algorithm (Chan, Golub and LeVeque, 1983) reaches the NIST StRD
+    certified digits where the naive sum of squares fails.
+    """
+    x = np.asarray(x, dtype=float)
+    n = int(x.size)
+    if n == 0:
+        raise DegenerateDataError("no values")
+    if not np.all(np.isfinite(x)):
+        raise DegenerateDataError("values must be finite numbers")
+    m = float(np.mean(x))
+    d = x - m
+    m = m + float(np.mean(d))  # second-pass correction of the mean
+    d = x - m
+    if n < 2:
+        return n, m, math.nan
+    ss = float(np.dot(d, d)) - float(np.sum(d)) ** 2 / n
+    return n, m, math.sqrt(max(ss, 0.0) / (n - 1))
+
+
+def require_spread(n: int, sd: float, what: str = "values") -> None:
+    """Raise DegenerateDataError when n < 2 or the spread is zero."""
+    if n < 2:
+        raise DegenerateDataError(f"{n} {what}: at least 2 are needed to estimate the spread")
+    if not math.isfinite(sd) or sd <= 0.0:
+        raise DegenerateDataError(f"the {what} have zero spread (all identical)")
