@@ -1,0 +1,293 @@
+"""Process capability against specification limits: Cp, Cpk, Cpm (within sigma), Pp, Ppk.
+
+Within-process sigma comes from the average moving range of consecutive values (values in
+production order) or, when subgroup labels are given (for example lots), from the subgroup
+ranges; the overall sigma is the sample standard deviation (n - 1) and gives Pp and Ppk.
+
+Interval forms (all two-sided at ``level`` unless a bound is asked for):
+
+* Cp, Pp: chi-square on n - 1 df, index * sqrt(chi2_q(n - 1) / (n - 1)), with n the number of
+  values whatever the sigma estimate (common practice; it treats sigma as if from the sample sd).
+* Cpk, Ppk: Bissell (1990), "How reliable is your capability index?", Applied Statistics 39,
+  index +/- z * sqrt(1 / (9 n) + index^2 / (2 (n - 1))), which is the usual
+  index * (1 -/+ z sqrt(1 / (9 n index^2) + 1 / (2 (n - 1)))) for a positive index and stays
+  defined at or below zero.
+* Cpm: Boyles (1991), "The Taguchi capability index", Journal of Quality Technology 23: the
+  sum of squares about the target, scaled by sigma^2, is a noncentral chi-square with n df and
+  noncentrality n a^2, a = (mean - target) / sigma; matching its mean n (1 + a^2) and variance
+  2 n (1 + 2 a^2) to c chi2(nu) (Patnaik) gives nu = n (1 + a^2)^2 / (1 + 2 a^2) and the interval
+  Cpm * sqrt(chi2_q(nu) / nu). (Formula derived here; the citation is from memory.)
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Hashable, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import special
+
+from .core import Interval, mean_sd
+from .diagnostics import D2_TABLE, d2, finite_values, group_codes
+from .errors import DegenerateDataError, NotApplicableError
+
+ArrayLike = Sequence[float] | np.ndarray
+
+
+def _check_level(level: float) -> None:
+    if not 0.0 < level < 1.0:
+        raise ValueError(f"confidence level must lie in (0, 1), not {level}")
+
+
+def _chi2_quantile(p: float, df: float) -> float:
+    return float(special.chdtri(df, 1.0 - p))  # chdtri takes the upper-tail probability
+
+
+def chi2_interval(index: float, df: float, level: float) -> Interval:
+    """index * sqrt(chi2_q(df) / df) at q = (1 -/+ level) / 2 (Cp, Pp; Cpm with df = nu)."""
+    _check_level(level)
+    lo = index * math.sqrt(_chi2_quantile(0.5 - level / 2.0, df) / df)
+    hi = index * math.sqrt(_chi2_quantile(0.5 + level / 2.0, df) / df)
+    return Interval(lo, hi, level)
+
+
+def bissell_se(index: float, n: int) -> float:
+    """Approximate standard error of Cpk (or Ppk): sqrt(1 / (9 n) + Cpk^2 / (2 (n - 1)))."""
+    return math.sqrt(1.0 / (9.0 * n) + index * index / (2.0 * (n - 1)))
+
+
+def bissell_interval(index: float, n: int, level: float) -> Interval:
+    """Bissell's normal-approximation interval for Cpk (or Ppk)."""
+    _check_level(level)
+    half = float(special.ndtri(0.5 + level / 2.0)) * bissell_se(index, n)
+    return Interval(index - half, index + half, level)
+
+
+def bissell_lower_bound(index: float, n: int, level: float = 0.95) -> float:
+    """One-sided lower confidence bound for Cpk (or Ppk): index - z_level * se."""
+    _check_level(level)
+    return index - float(special.ndtri(level)) * bissell_se(index, n)
+
+
+def boyles_df(n: int, a: float) -> float:
+    """Boyles' (1991) approximate chi-square df for Cpm: n (1 + a^2)^2 / (1 + 2 a^2)."""
+    a2 = a * a
+    return n * (1.0 + a2) ** 2 / (1.0 + 2.0 * a2)
+
+
+@dataclass(frozen=True)
+class CapabilityResult:
+    """Capability indices with confidence intervals.
+
+    Attributes
+    ----------
+    n : int
+    mean : float
+    sigma_within : float
+        From the average moving range (mr_bar / 1.128) or from subgroup ranges; see
+        ``sigma_method``.
+    sigma_overall : float
+        The sample standard deviation (n - 1).
+    sigma_method : str
+        How sigma_within was estimated, in words.
+    n_subgroups : int or None
+        Subgroups that contributed a range; None for the moving-range estimate.
+    lower, upper, target : float or None
+    level : float
+        Confidence level of the ``*_interval`` fields.
+    cp, pp : float or None
+        (upper - lower) / (6 sigma); None unless both limits are given.
+    cpl, cpu : float or None
+        (mean - lower) / (3 sigma_within), (upper - mean) / (3 sigma_within); None without
+        that limit. ``ppl``, ``ppu`` likewise with the overall sigma.
+    cpk, ppk : float
+        The smaller of the one-sided indices present (the only one with a single limit).
+    cpm : float or None
+        (upper - lower) / (6 sqrt(sigma_within^2 + (mean - target)^2)); None unless both limits
+        and a target are given.
+    cp_interval, cpk_interval, cpm_interval, pp_interval, ppk_interval : Interval or None
+        Two-sided intervals at ``level`` (forms in the module docstring); None where the index
+        is None.
+    """
+
+    n: int
+    mean: float
+    sigma_within: float
+    sigma_overall: float
+    sigma_method: str
+    n_subgroups: int | None
+    lower: float | None
+    upper: float | None
+    target: float | None
+    level: float
+    cp: float | None
+    cpk: float
+    cpl: float | None
+    cpu: float | None
+    pp: float | None
+    ppk: float
+    ppl: float | None
+    ppu: float | None
+    cpm: float | None
+    cp_interval: Interval | None
+    cpk_interval: Interval
+    cpm_interval: Interval | None
+    pp_interval: Interval | None
+    ppk_interval: Interval
+
+    def cpk_lower_bound(self, level: float = 0.95) -> float:
+        """One-sided lower confidence bound for Cpk (Bissell form)."""
+        return bissell_lower_bound(self.cpk, self.n, level)
+
+    def ppk_lower_bound(self, level: float = 0.95) -> float:
+        """One-sided lower confidence bound for Ppk (Bissell form)."""
+        return bissell_lower_bound(self.ppk, self.n, level)
+
+
+def _limit(value: float | None, name: str) -> float | None:
+    if value is None:
+        return None
+    v = float(value)
+    if not math.isfinite(v):
+        raise ValueError(f"{name} must be a finite number or None, not {value}")
+    return v
+
+
+def within_sigma(
+    x: np.ndarray, subgroups: Sequence[Hashable] | None
+) -> tuple[float, str, int | None]:
+    """sigma_within, the method in words, and the number of subgroups used (None: moving range).
+
+    Moving range: mr_bar / d2(2), d2(2) = 1.128, from consecutive values in the order given.
+    Subgroups: Rbar / d2(n) for equal sizes; for unequal sizes the mean of R_i / d2(n_i)
+    (each range scaled by its own constant, which reduces to Rbar / d2(n) when the sizes are
+    equal). Subgroups of one value carry no range and are left out.
+    """
+    if subgroups is None:
+        if x.size < 2:
+            raise DegenerateDataError(f"{x.size} value: a moving range needs at least 2")
+        mr_bar = float(np.mean(np.abs(np.diff(x))))
+        if not mr_bar > 0.0:
+            raise DegenerateDataError("all values are identical: the moving range is zero")
+        return mr_bar / D2_TABLE[2], "average moving range / d2(2) = 1.128", None
+    _, codes = group_codes(subgroups, x.size, "subgroup labels")
+    k = int(codes.max()) + 1
+    sizes = np.bincount(codes, minlength=k)
+    hi = np.full(k, -np.inf)
+    lo = np.full(k, np.inf)
+    np.maximum.at(hi, codes, x)
+    np.minimum.at(lo, codes, x)
+    use = sizes >= 2
+    if not np.any(use):
+        raise NotApplicableError("no subgroup has 2 or more values, so no range exists")
+    ranges, used_sizes = (hi - lo)[use], sizes[use]
+    constants = np.array([d2(int(s)) for s in used_sizes])
+    left_out = int(np.count_nonzero(~use))
+    note = f"; {left_out} subgroup(s) of one value left out" if left_out else ""
+    if np.all(used_sizes == used_sizes[0]):
+        sigma = float(np.mean(ranges)) / float(constants[0])
+        method = f"mean subgroup range / d2({int(used_sizes[0])}) = {constants[0]:.4g}{note}"
+    else:
+        sigma = float(np.mean(ranges / constants))
+        method = f"mean of subgroup range / d2(subgroup size), unequal sizes{note}"
+    if not sigma > 0.0:
+        raise DegenerateDataError(
+            "every subgroup's values are identical: the within-subgroup range is zero"
+        )
+    return sigma, method, int(ranges.size)
+
+
+def capability(
+    x: ArrayLike,
+    *,
+    lower: float | None = None,
+    upper: float | None = None,
+    target: float | None = None,
+    subgroups: Sequence[Hashable] | None = None,
+    level: float = 0.95,
+) -> CapabilityResult:
+    """Capability indices of ``x`` against ``lower`` and/or ``upper`` specification limits.
+
+    Parameters
+    ----------
+    x : array_like
+        Values in production order (the moving range depends on the order).
+    lower, upper : float, optional
+        Specification limits; at least one.
+    target : float, optional
+        Needed for Cpm (with both limits).
+    subgroups : sequence, optional
+        One label per value (for example the lot); then sigma_within comes from subgroup
+        ranges instead of the moving range.
+    level : float
+        Confidence level of the two-sided intervals.
+
+    Raises
+    ------
+    NotApplicableError
+        No specification limit given; no subgroup with 2 or more values.
+    DegenerateDataError
+        Fewer than 2 values, non-finite values, zero spread.
+
+    Examples
+    --------
+    >>> r = capability([9.9, 10.1, 10.0, 10.2, 9.8, 10.0, 10.1, 9.9], lower=9.4, upper=10.6)
+    >>> round(r.cp, 3), round(r.cpk, 3)
+    (1.128, 1.128)
+    """
+    _check_level(level)
+    lsl, usl, tgt = _limit(lower, "lower"), _limit(upper, "upper"), _limit(target, "target")
+    if lsl is None and usl is None:
+        raise NotApplicableError("capability needs at least one specification limit")
+    if lsl is not None and usl is not None and not lsl < usl:
+        raise ValueError(f"the lower limit ({lsl}) must be below the upper limit ({usl})")
+    a = finite_values(x)
+    n, m, s_overall = mean_sd(a)
+    if n < 2:
+        raise DegenerateDataError(f"{n} value: capability needs at least 2")
+    if not s_overall > 0.0:
+        raise DegenerateDataError("all values are identical: zero spread, capability undefined")
+    s_within, how, n_sub = within_sigma(a, subgroups)
+
+    def indices(sigma: float) -> tuple[float | None, float, float | None, float | None]:
+        lo = None if lsl is None else (m - lsl) / (3.0 * sigma)
+        hi = None if usl is None else (usl - m) / (3.0 * sigma)
+        both = None if lsl is None or usl is None else (usl - lsl) / (6.0 * sigma)
+        k = min(v for v in (lo, hi) if v is not None)
+        return both, k, lo, hi
+
+    cp, cpk, cpl, cpu = indices(s_within)
+    pp, ppk, ppl, ppu = indices(s_overall)
+    cpm = cpm_interval = None
+    if tgt is not None and lsl is not None and usl is not None:
+        tau = math.hypot(s_within, m - tgt)
+        cpm = (usl - lsl) / (6.0 * tau)
+        nu = boyles_df(n, (m - tgt) / s_within)
+        cpm_interval = chi2_interval(cpm, nu, level)
+    return CapabilityResult(
+        n=int(n),
+        mean=float(m),
+        sigma_within=float(s_within),
+        sigma_overall=float(s_overall),
+        sigma_method=how,
+        n_subgroups=n_sub,
+        lower=lsl,
+        upper=usl,
+        target=tgt,
+        level=float(level),
+        cp=cp,
+        cpk=cpk,
+        cpl=cpl,
+        cpu=cpu,
+        pp=pp,
+        ppk=ppk,
+        ppl=ppl,
+        ppu=ppu,
+        cpm=cpm,
+        cp_interval=None if cp is None else chi2_interval(cp, n - 1, level),
+        cpk_interval=bissell_interval(cpk, n, level),
+        cpm_interval=cpm_interval,
+        pp_interval=None if pp is None else chi2_interval(pp, n - 1, level),
+        ppk_interval=bissell_interval(ppk, n, level),
+    )

@@ -1,0 +1,379 @@
+"""Has the spread changed? F-test on the variance ratio, and the Brown-Forsythe test.
+
+Conventions: "old" and "new" process; ratios are new over old; the ``"greater"`` alternative
+means the new process spreads more (the harmful direction for a process change).
+
+The F-test is exact for normal data and sensitive to non-normality; Brown-Forsythe (Levene's test
+with the group medians as centres) is robust to it at some cost in power.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import special
+
+from .core import Interval, check_alternative, confidence_interval, mean_sd, p_value, require_spread
+from .diagnostics import finite_values
+from .errors import DegenerateDataError, NotApplicableError
+
+ArrayLike = Sequence[float] | np.ndarray
+
+
+def _check_level(level: float) -> None:
+    if not 0.0 < level < 1.0:
+        raise ValueError(f"confidence level must lie in (0, 1), not {level}")
+
+
+def _f_quantile(p: float, dfn: float, dfd: float) -> float:
+    return float(special.fdtri(dfn, dfd, p))
+
+
+@dataclass(frozen=True)
+class VarianceRatioResult:
+    """F-test for the ratio of two variances, new over old.
+
+    Attributes
+    ----------
+    method : str
+    statistic : float
+        F = var_new / var_old.
+    df_num, df_den : int
+        n_new - 1 and n_old - 1.
+    pvalue : float
+        ``"greater"``: P(F' >= F), the new process spreads more; ``"less"``: P(F' <= F);
+        ``"two-sided"``: twice the smaller tail, capped at 1.
+    alternative : str
+    estimate : float
+        The sd ratio sd_new / sd_old.
+    n_old, n_new : int
+    sd_old, sd_new : float
+    """
+
+    method: str
+    statistic: float
+    df_num: int
+    df_den: int
+    pvalue: float
+    alternative: str
+    estimate: float
+    n_old: int
+    n_new: int
+    sd_old: float
+    sd_new: float
+
+    @property
+    def df(self) -> tuple[int, int]:
+        return (self.df_num, self.df_den)
+
+    def confidence_interval(self, level: float = 0.95) -> Interval:
+        """Interval for the sd ratio sigma_new / sigma_old matching the alternative.
+
+        From F / ratio^2 ~ F(df_num, df_den): two-sided
+        [sqrt(F / F_(1+level)/2), sqrt(F / F_(1-level)/2)]; ``"greater"``: a lower bound
+        [sqrt(F / F_level), +inf); ``"less"``: an upper bound [0, sqrt(F / F_(1-level))].
+        """
+        _check_level(level)
+        f, a, b = self.statistic, self.df_num, self.df_den
+        if self.alternative == "two-sided":
+            lo = math.sqrt(f / _f_quantile(0.5 + level / 2.0, a, b))
+            hi = math.sqrt(f / _f_quantile(0.5 - level / 2.0, a, b))
+            return Interval(lo, hi, level)
+        if self.alternative == "greater":
+            return Interval(math.sqrt(f / _f_quantile(level, a, b)), math.inf, level)
+        return Interval(0.0, math.sqrt(f / _f_quantile(1.0 - level, a, b)), level)
+
+    def critical_values(self, alpha: float = 0.05) -> tuple[float, float]:
+        """Rejection limits for F: (lower, upper); a one-sided test has 0 or +inf on the other.
+
+        Two-sided: (F_(alpha/2), F_(1-alpha/2)); ``"greater"``: (0, F_(1-alpha));
+        ``"less"``: (F_alpha, +inf).
+        """
+        if not 0.0 < alpha < 1.0:
+            raise ValueError(f"alpha must lie in (0, 1), not {alpha}")
+        a, b = self.df_num, self.df_den
+        if self.alternative == "two-sided":
+            return _f_quantile(alpha / 2.0, a, b), _f_quantile(1.0 - alpha / 2.0, a, b)
+        if self.alternative == "greater":
+            return 0.0, _f_quantile(1.0 - alpha, a, b)
+        return _f_quantile(alpha, a, b), math.inf
+
+
+def _f_pvalue(f: float, dfn: int, dfd: int, alternative: str) -> float:
+    lower = float(special.fdtr(dfn, dfd, f))
+    upper = float(special.fdtrc(dfn, dfd, f))
+    if alternative == "greater":
+        p = upper
+    elif alternative == "less":
+        p = lower
+    else:
+        p = 2.0 * min(lower, upper)
+    return min(1.0, max(0.0, p))
+
+
+def f_test_from_stats(
+    n_old: int,
+    sd_old: float,
+    n_new: int,
+    sd_new: float,
+    *,
+    alternative: str = "two-sided",
+) -> VarianceRatioResult:
+    """F-test for the variance ratio from sample sizes and standard deviations (n - 1).
+
+    Examples
+    --------
+    >>> r = f_test_from_stats(240, 61.85425, 240, 65.54909)
+    >>> round(r.statistic, 6), r.df
+    (1.123037, (239, 239))
+    """
+    check_alternative(alternative)
+    for name, n in (("n_old", n_old), ("n_new", n_new)):
+        if int(n) != n:
+            raise ValueError(f"{name} must be a whole number, not {n}")
+    n_old, n_new = int(n_old), int(n_new)
+    require_spread(n_old, float(sd_old), "old values")
+    require_spread(n_new, float(sd_new), "new values")
+    ratio = float(sd_new) / float(sd_old)
+    f = ratio * ratio
+    if not (math.isfinite(f) and f > 0.0):
+        raise DegenerateDataError(f"the variance ratio is not a positive finite number ({f})")
+    dfn, dfd = n_new - 1, n_old - 1
+    return VarianceRatioResult(
+        method="F-test for the ratio of variances (new / old)",
+        statistic=f,
+        df_num=dfn,
+        df_den=dfd,
+        pvalue=_f_pvalue(f, dfn, dfd, alternative),
+        alternative=alternative,
+        estimate=ratio,
+        n_old=n_old,
+        n_new=n_new,
+        sd_old=float(sd_old),
+        sd_new=float(sd_new),
+    )
+
+
+def f_test(
+    old: ArrayLike, new: ArrayLike, *, alternative: str = "two-sided"
+) -> VarianceRatioResult:
+    """F-test for the ratio of variances, new over old, from raw values.
+
+    Examples
+    --------
+    >>> r = f_test([1.0, 2.0, 3.0, 4.0], [1.0, 3.0, 5.0, 7.0], alternative="greater")
+    >>> r.statistic, r.estimate
+    (4.0, 2.0)
+    """
+    n_old, _, sd_old = mean_sd(finite_values(old, "old values"))
+    n_new, _, sd_new = mean_sd(finite_values(new, "new values"))
+    return f_test_from_stats(n_old, sd_old, n_new, sd_new, alternative=alternative)
+
+
+# --- Brown-Forsythe -------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class BrownForsytheResult:
+    """Brown-Forsythe test (median-centred Levene) for two groups, old and new.
+
+    The test is a t-test (pooled, N - 2 df) on the absolute deviations z = |x - group median|.
+    Two-sided, W = t^2 is the Levene statistic with (1, N - 2) df and equals
+    ``scipy.stats.levene(old, new, center="median")``. One-sided, ``"greater"`` means the new
+    process spreads more (its mean absolute deviation is larger).
+
+    Attributes
+    ----------
+    method : str
+    statistic : float
+        W = t^2, the F statistic with (df_num, df_den) = (1, N - 2) df (same for every
+        alternative).
+    df_num, df_den : int
+    pvalue : float
+        From t for the chosen alternative; the two-sided p equals the F p-value of W, and a
+        one-sided p is half of it when the sign agrees.
+    alternative : str
+    t_statistic : float
+        Signed t = estimate / standard_error on df_den df.
+    estimate : float
+        Difference of mean absolute deviations from the median, new minus old.
+    standard_error : float
+    mad_old, mad_new : float
+        Mean absolute deviation from the group median, per process.
+    n_old, n_new : int
+    """
+
+    method: str
+    statistic: float
+    df_num: int
+    df_den: int
+    pvalue: float
+    alternative: str
+    t_statistic: float
+    estimate: float
+    standard_error: float
+    mad_old: float
+    mad_new: float
+    n_old: int
+    n_new: int
+
+    @property
+    def df(self) -> tuple[int, int]:
+        return (self.df_num, self.df_den)
+
+    def confidence_interval(self, level: float = 0.95) -> Interval:
+        """Interval for the difference of mean absolute deviations (new - old), t on N - 2 df,
+        matching the alternative."""
+        return confidence_interval(
+            self.estimate,
+            self.standard_error,
+            self.df_den,
+            level=level,
+            alternative=self.alternative,
+        )
+
+
+def _abs_dev_from_median(x: np.ndarray) -> np.ndarray:
+    return np.abs(x - np.median(x))
+
+
+def brown_forsythe(
+    old: ArrayLike, new: ArrayLike, *, alternative: str = "two-sided"
+) -> BrownForsytheResult:
+    """Brown-Forsythe test of equal spread for old and new, with a one-sided form.
+
+    Raises
+    ------
+    DegenerateDataError
+        A group with fewer than 2 values, non-finite values, or absolute deviations that do not
+        vary within the groups (for example, each group holds only 2 values).
+
+    Examples
+    --------
+    >>> r = brown_forsythe([1.0, 2.0, 3.0, 4.0, 5.0], [0.0, 2.0, 4.0, 6.0, 9.0])
+    >>> round(r.statistic, 4), r.df
+    (2.1778, (1, 8))
+    """
+    check_alternative(alternative)
+    a = finite_values(old, "old values")
+    b = finite_values(new, "new values")
+    for what, g in (("old", a), ("new", b)):
+        if g.size < 2:
+            raise DegenerateDataError(
+                f"{g.size} {what} value: at least 2 are needed to estimate the spread"
+            )
+    za, zb = _abs_dev_from_median(a), _abs_dev_from_median(b)
+    n1, n2 = za.size, zb.size
+    df = n1 + n2 - 2
+    ma, mb = float(np.mean(za)), float(np.mean(zb))
+    ss = float(np.sum((za - ma) ** 2) + np.sum((zb - mb) ** 2))
+    if not ss > 0.0:
+        raise DegenerateDataError(
+            "the absolute deviations from the medians do not vary within the groups (as "
+            "happens with 2 values per group), so the Brown-Forsythe test has no error term"
+        )
+    se = math.sqrt(ss / df * (1.0 / n1 + 1.0 / n2))
+    est = mb - ma
+    t = est / se
+    return BrownForsytheResult(
+        method="Brown-Forsythe test (Levene, median-centred)",
+        statistic=float(t * t),
+        df_num=1,
+        df_den=int(df),
+        pvalue=p_value(t, df, alternative),
+        alternative=alternative,
+        t_statistic=float(t),
+        estimate=float(est),
+        standard_error=float(se),
+        mad_old=ma,
+        mad_new=mb,
+        n_old=int(n1),
+        n_new=int(n2),
+    )
+
+
+@dataclass(frozen=True)
+class BrownForsytheGroupsResult:
+    """Brown-Forsythe test of equal spread across k groups (two-sided only).
+
+    Attributes
+    ----------
+    method : str
+    statistic : float
+        W, the one-way ANOVA F on z = |x - group median|, with (k - 1, N - k) df.
+    df_num, df_den : int
+    pvalue : float
+    n_groups : int
+    group_sizes : tuple of int
+    group_mads : tuple of float
+        Mean absolute deviation from the median in each group, in input order.
+    alternative : str
+        Always ``"two-sided"``.
+    """
+
+    method: str
+    statistic: float
+    df_num: int
+    df_den: int
+    pvalue: float
+    n_groups: int
+    group_sizes: tuple[int, ...]
+    group_mads: tuple[float, ...]
+    alternative: str = "two-sided"
+
+    @property
+    def df(self) -> tuple[int, int]:
+        return (self.df_num, self.df_den)
+
+    def critical_value(self, alpha: float = 0.05) -> float:
+        """The upper alpha point of F(df_num, df_den): W beyond it rejects equal spread."""
+        if not 0.0 < alpha < 1.0:
+            raise ValueError(f"alpha must lie in (0, 1), not {alpha}")
+        return _f_quantile(1.0 - alpha, self.df_num, self.df_den)
+
+
+def brown_forsythe_groups(groups: Sequence[ArrayLike]) -> BrownForsytheGroupsResult:
+    """Brown-Forsythe (median-centred Levene) test across two or more groups.
+
+    Examples
+    --------
+    >>> r = brown_forsythe_groups([[1.0, 2.0, 3.0], [2.0, 4.0, 7.0], [1.0, 1.5, 2.5]])
+    >>> r.df
+    (2, 6)
+    """
+    arrays = [finite_values(g, f"values of group {i + 1}") for i, g in enumerate(groups)]
+    k = len(arrays)
+    if k < 2:
+        raise NotApplicableError(f"the test compares at least 2 groups, got {k}")
+    for i, g in enumerate(arrays):
+        if g.size < 2:
+            raise DegenerateDataError(
+                f"group {i + 1} has {g.size} value: each group needs at least 2"
+            )
+    zs = [_abs_dev_from_median(g) for g in arrays]
+    sizes = np.array([z.size for z in zs])
+    n_total = int(sizes.sum())
+    means = np.array([float(np.mean(z)) for z in zs])
+    grand = float(np.sum(sizes * means) / n_total)
+    ss_b = float(np.sum(sizes * (means - grand) ** 2))
+    ss_w = float(sum(np.sum((z - m) ** 2) for z, m in zip(zs, means, strict=True)))
+    dfn, dfd = k - 1, n_total - k
+    if not ss_w > 0.0:
+        raise DegenerateDataError(
+            "the absolute deviations from the medians do not vary within the groups, so the "
+            "Brown-Forsythe test has no error term"
+        )
+    w = (ss_b / dfn) / (ss_w / dfd)
+    return BrownForsytheGroupsResult(
+        method="Brown-Forsythe test (Levene, median-centred)",
+        statistic=float(w),
+        df_num=int(dfn),
+        df_den=int(dfd),
+        pvalue=min(1.0, max(0.0, float(special.fdtrc(dfn, dfd, w)))),
+        n_groups=int(k),
+        group_sizes=tuple(int(s) for s in sizes),
+        group_mads=tuple(float(m) for m in means),
+    )
