@@ -1,0 +1,116 @@
+"""Decision-table tests for every rule in verify.decide, with the borderline at alpha.
+
+The rules are the project's own (issue 4's decision rules); the comparisons they make are the
+usual significance conventions (common practice: reject when p < alpha, so p == alpha does not
+reject).
+"""
+
+import pytest
+
+from verify import decide
+
+ALPHA = 0.05
+
+
+@pytest.mark.parametrize("rule", [decide.TARGET_MARGIN, decide.SHIFT_MARGIN])
+@pytest.mark.parametrize("side", ["two-sided", "lower", "upper"])
+@pytest.mark.parametrize(
+    "p, expected",
+    [(0.001, "PASS"), (0.0499999, "PASS"), (ALPHA, "HOLD"), (0.0500001, "HOLD"), (0.7, "HOLD")],
+)
+def test_margin_rule_passes_only_below_alpha(rule, side, p, expected):
+    v = rule.decide(pvalue=p, alpha=ALPHA, low=-0.5, high=0.5, ci=(-0.1, 0.2), unit="mm",
+                    side=side)
+    assert v.outcome == expected
+    assert "90% interval -0.1..0.2" in v.reason
+    if expected == "HOLD":
+        assert v.reason.startswith("not shown within")
+
+
+def test_margin_rule_words_name_the_margin_and_side():
+    v = decide.TARGET_MARGIN.decide(pvalue=0.2, alpha=ALPHA, low=-0.02, high=0.02,
+                                    ci=(-0.01, 0.03), unit="mm", side="two-sided")
+    assert v.reason.startswith("not shown within ±0.02 mm of target (90% interval -0.01..0.03")
+    v = decide.SHIFT_MARGIN.decide(pvalue=0.2, alpha=ALPHA, low=-1.0, high=2.0,
+                                   ci=(-0.5, 2.5), unit="N", side="lower")
+    assert "no lower than -1 N of the old process" in v.reason
+
+
+@pytest.mark.parametrize("rule", [decide.TARGET_DIFFERENCE, decide.SHIFT_DIFFERENCE])
+@pytest.mark.parametrize("p, expected", [(0.0001, "HOLD"), (0.0499, "HOLD"), (ALPHA, "PASS"),
+                                         (0.051, "PASS"), (0.9, "PASS")])
+def test_difference_rule_holds_only_below_alpha(rule, p, expected):
+    v = rule.decide(pvalue=p, alpha=ALPHA, estimate=0.3, unit="g", detectable=0.41,
+                    adjusted=False)
+    assert v.outcome == expected
+    if expected == "PASS":
+        assert "80% power is 0.41 g" in v.reason
+    else:
+        assert "detected in the harmful direction" in v.reason
+
+
+def test_difference_rule_says_when_p_was_adjusted():
+    v = decide.SHIFT_DIFFERENCE.decide(pvalue=0.2, alpha=ALPHA, estimate=0.3, unit="",
+                                       detectable=None, adjusted=True)
+    assert "adjusted p = 0.2000" in v.reason
+
+
+@pytest.mark.parametrize("p, expected", [(0.01, "HOLD"), (ALPHA, "PASS"), (0.3, "PASS")])
+def test_spread_rule(p, expected):
+    v = decide.SPREAD.decide(pvalue=p, alpha=ALPHA, ratio=1.4, ci=(1.05, 1.9), level=0.9,
+                             method="F-test")
+    assert v.outcome == expected
+    assert "sd ratio new/old 1.4, 90% interval 1.05..1.9" in v.reason
+
+
+@pytest.mark.parametrize("cpk, expected", [(1.2, "HOLD"), (1.3299, "HOLD"), (1.33, "PASS"),
+                                           (2.0, "PASS")])
+def test_capability_rule_at_the_border(cpk, expected):
+    v = decide.CAPABILITY.decide(cpk=cpk, lower_bound=1.1, min_cpk=1.33)
+    assert v.outcome == expected
+    assert "lower 95% bound 1.1" in v.reason
+
+
+def test_sufficiency_shortfall_words_and_final():
+    rule = decide.SUFFICIENCY
+    assert rule.shortfall({"old": 40, "new": 12}, 30, final=False) == "new: 12 of 30 planned"
+    assert rule.shortfall({"old": 40, "new": 12}, 30, final=True) is None
+    assert rule.shortfall({"old": 40, "new": 30}, 30, final=False) is None
+    assert rule.shortfall({"old": 4, "new": 12}, None, final=False) is None
+
+
+def test_while_pending_keeps_harm_and_withholds_pass():
+    short = "new: 12 of 30 planned"
+    harm = decide.while_pending(decide.Verdict("HOLD", "shift detected"), harm_shown=True,
+                                shortfall=short)
+    assert harm.outcome == "HOLD"
+    early_pass = decide.while_pending(decide.Verdict("PASS", "shown within"), harm_shown=False,
+                                      shortfall=short)
+    assert early_pass.outcome == "PENDING"
+    assert early_pass.reason.startswith(short)
+    not_yet = decide.while_pending(decide.Verdict("HOLD", "not shown within"), harm_shown=False,
+                                   shortfall=short)
+    assert not_yet.outcome == "PENDING"
+
+
+@pytest.mark.parametrize(
+    "outcomes, expected",
+    [(["PASS", "PASS"], "PASS"), (["PASS", "PENDING"], "PENDING"), (["PENDING", "HOLD"], "HOLD"),
+     (["HOLD", "PASS"], "HOLD"), ([], "PASS")],
+)
+def test_combination(outcomes, expected):
+    assert decide.combine(outcomes) == expected
+
+
+def test_rules_in_words_come_from_the_rule_objects():
+    words = decide.rules_in_words(0.05, "holm")
+    assert words[0] == decide.TARGET_MARGIN.describe(0.05)
+    assert any("Holm" in w for w in words)
+    assert any("intersection-union" in w for w in words)
+    assert "alpha = 0.05" in words[0]
+    assert len(words) == 10
+
+
+def test_caution_names_the_sign_off():
+    assert "never replace" in decide.CAUTION
+    assert "sign-off" in decide.CAUTION

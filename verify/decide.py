@@ -1,0 +1,273 @@
+"""The decision rules: statistics results + spec -> PASS / HOLD / PENDING with reasons in words.
+
+Every rule is an object with a ``describe(alpha)`` method (the sentence printed in the workbook,
+the JSON and the audit trail) and a ``decide(...)`` method (the logic). Both live side by side
+in one class, so the text and the logic cannot drift apart. Nothing here computes a statistic;
+the rules only compare results with alpha, margins and limits.
+
+Outcomes are combined by :func:`combine`: HOLD if any part is HOLD, else PENDING if any part is
+PENDING, else PASS.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+from .model import DECISION_ORDER
+
+CAUTION = (
+    "These statistical results support, and never replace, the engineering and quality review "
+    "and sign-off that the change-control procedure, the customer's requirements and local "
+    "regulations call for. verify approves nothing: a PASS means only that the declared "
+    "statistical criteria were met by the data listed here; release is decided by the people "
+    "who sign below."
+)
+
+
+def combine(outcomes) -> str:
+    """HOLD if any outcome is HOLD, else PENDING if any is PENDING, else PASS."""
+    worst = "PASS"
+    for o in outcomes:
+        if DECISION_ORDER[o] > DECISION_ORDER[worst]:
+            worst = o
+    return worst
+
+
+def fmt(x: float | None, digits: int = 4) -> str:
+    """A number for a sentence: 4 significant digits, no trailing noise."""
+    if x is None:
+        return "n/a"
+    if math.isinf(x):
+        return "inf" if x > 0 else "-inf"
+    if x == 0:
+        return "0"
+    return f"{x:.{digits}g}"
+
+
+def fmt_p(p: float | None) -> str:
+    if p is None:
+        return "n/a"
+    return "< 0.0001" if p < 1e-4 else f"{p:.4f}"
+
+
+def margin_words(low: float, high: float, unit: str = "") -> str:
+    u = f" {unit}" if unit else ""
+    if math.isclose(-low, high, rel_tol=1e-12):
+        return f"±{fmt(high)}{u}"
+    return f"{fmt(low)}..+{fmt(high)}{u}"
+
+
+@dataclass(frozen=True)
+class Verdict:
+    outcome: str
+    reason: str
+
+
+# --- the rules ------------------------------------------------------------------------------
+
+
+class MarginRule:
+    """Target or shift with a margin: equivalence (or non-inferiority) must be shown."""
+
+    def __init__(self, check: str):
+        self.check = check
+        self.key = f"{check}-margin"
+        self.subject = (
+            "the new-process mean minus the target" if check == "target" else
+            "the new-process mean minus the old-process mean"
+        )
+
+    def describe(self, alpha: float) -> str:
+        what = "target" if self.check == "target" else "shift"
+        return (
+            f"{what.capitalize()} with a margin: PASS when the two one-sided tests (TOST) show "
+            f"{self.subject} inside the margin, both one-sided p-values below alpha = {alpha} "
+            f"(equivalently, the {fmt(100 * (1 - 2 * alpha))}% interval lies inside the margin); "
+            "where the spec declares only one side harmful (side: lower or upper), only that "
+            "side's one-sided test must pass (non-inferiority). Otherwise HOLD."
+        )
+
+    def decide(self, *, pvalue: float, alpha: float, low: float, high: float,
+               ci: tuple[float, float], unit: str, side: str) -> Verdict:
+        level = fmt(100 * (1 - 2 * alpha))
+        where = "of target" if self.check == "target" else "of the old process"
+        interval = f"{level}% interval {fmt(ci[0])}..{fmt(ci[1])}"
+        if side == "two-sided":
+            bounds = margin_words(low, high, unit)
+        elif side == "lower":
+            bounds = f"no lower than {fmt(low)} {unit}".rstrip()
+        else:
+            bounds = f"no higher than +{fmt(high)} {unit}".rstrip()
+        detail = f"({interval}, p = {fmt_p(pvalue)})"
+        if pvalue < alpha:
+            return Verdict("PASS", f"shown within {bounds} {where} {detail}")
+        return Verdict("HOLD", f"not shown within {bounds} {where} {detail}")
+
+
+class DifferenceRule:
+    """Target or shift without a margin: HOLD on a significant harmful departure."""
+
+    def __init__(self, check: str):
+        self.check = check
+        self.key = f"{check}-difference"
+
+    def describe(self, alpha: float) -> str:
+        subject = ("the new-process mean differs from the target" if self.check == "target"
+                   else "the new-process mean differs from the old-process mean")
+        test = ("the one-sample t-test" if self.check == "target"
+                else "the difference test (paired, Welch or pooled t-test as the spec declares)")
+        return (
+            f"{self.check.capitalize()} without a margin: HOLD when {test} finds that {subject} "
+            f"in the harmful direction at alpha = {alpha} (two-sided unless the spec's side says "
+            "lower or upper; p-values adjusted across characteristics when the spec asks for "
+            "holm or bonferroni); otherwise PASS with a note of the smallest departure these "
+            "data would detect with 80% power. Not detecting a difference is not evidence that "
+            "nothing changed."
+        )
+
+    def decide(self, *, pvalue: float, alpha: float, estimate: float, unit: str,
+               detectable: float | None, adjusted: bool) -> Verdict:
+        which = "adjusted p" if adjusted else "p"
+        noun = "departure from target" if self.check == "target" else "shift"
+        u = f" {unit}" if unit else ""
+        if pvalue < alpha:
+            return Verdict(
+                "HOLD", f"{noun} of {fmt(estimate)}{u} detected in the harmful direction "
+                f"({which} = {fmt_p(pvalue)} < {alpha})")
+        note = (f"; the smallest {noun} these data detect with 80% power is {fmt(detectable)}{u}"
+                if detectable is not None else "")
+        return Verdict("PASS", f"no {noun} detected ({which} = {fmt_p(pvalue)}){note}")
+
+
+class SpreadRule:
+    key = "spread"
+
+    def describe(self, alpha: float) -> str:
+        return (
+            "Spread: HOLD when the one-sided test shows the new process's standard deviation "
+            f"larger than the old one's at alpha = {alpha}; the ratio of standard deviations "
+            "(new / old) and its interval are reported. Otherwise PASS."
+        )
+
+    def decide(self, *, pvalue: float, alpha: float, ratio: float,
+               ci: tuple[float, float], level: float, method: str) -> Verdict:
+        detail = (f"sd ratio new/old {fmt(ratio)}, {fmt(100 * level)}% interval "
+                  f"{fmt(ci[0])}..{fmt(ci[1])}, {method} p = {fmt_p(pvalue)}")
+        if pvalue < alpha:
+            return Verdict("HOLD", f"new spread larger than old ({detail})")
+        return Verdict("PASS", f"no increase in spread shown ({detail})")
+
+
+class CapabilityRule:
+    key = "capability"
+
+    def describe(self, alpha: float) -> str:
+        return (
+            "Capability: HOLD when the new process's Cpk (within-process sigma) is below the "
+            "spec's min_cpk; its lower 95% confidence bound is reported beside it. Otherwise PASS."
+        )
+
+    def decide(self, *, cpk: float, lower_bound: float | None, min_cpk: float) -> Verdict:
+        lb = f", lower 95% bound {fmt(lower_bound, 3)}" if lower_bound is not None else ""
+        if cpk < min_cpk:
+            return Verdict("HOLD", f"new Cpk {fmt(cpk, 3)} is below {fmt(min_cpk)}{lb}")
+        return Verdict("PASS", f"new Cpk {fmt(cpk, 3)} meets {fmt(min_cpk)}{lb}")
+
+
+class SufficiencyRule:
+    key = "sufficiency"
+
+    def describe(self, alpha: float) -> str:
+        return (
+            "Sufficiency: while either process has fewer than min_n units (parts, pairs or lots, "
+            "as the spec's unit of analysis says) the characteristic is PENDING, unless the run "
+            "is final (--final); checks that already show harm (a significant harmful shift or a "
+            "larger spread) still HOLD, and no check can PASS before the plan is complete. With "
+            "fewer than 2 units or zero spread a check cannot be computed: HOLD with the reason "
+            "(PENDING while planned data are still arriving)."
+        )
+
+    def shortfall(self, counts: dict[str, int], min_n: int | None, final: bool) -> str | None:
+        """The PENDING reason ("new: 12 of 30 planned") or None when the plan is complete."""
+        if min_n is None or final:
+            return None
+        short = [f"{p}: {n} of {min_n} planned" for p, n in counts.items() if n < min_n]
+        return "; ".join(short) if short else None
+
+
+class DiagnosticsRule:
+    key = "diagnostics"
+
+    def describe(self, alpha: float) -> str:
+        return (
+            "Diagnostics never decide alone: a flagged diagnostic (non-normal values, a possible "
+            "outlier, a lot effect while the unit is the part, fewer than 3 lots in a process, "
+            "instability, coarse measurement resolution) adds a 'review:' note to the "
+            "characteristic and to the summary. Outliers are never removed automatically; only "
+            "the spec's exclusions, each with its reason and name, remove data."
+        )
+
+
+class MultiplicityRule:
+    key = "multiplicity"
+
+    def describe(self, alpha: float, method: str = "none") -> str:
+        adj = {"none": "are not adjusted", "holm": "are adjusted by Holm's step-down method",
+               "bonferroni": "are adjusted by the Bonferroni method"}[method]
+        return (
+            f"Multiplicity: the p-values of difference tests (checks without a margin) {adj} "
+            "across characteristics. Equivalence tests need no adjustment, because every one of "
+            "them must pass for an overall PASS (intersection-union)."
+        )
+
+
+class CombinationRule:
+    key = "combination"
+
+    def describe(self, alpha: float) -> str:
+        return (
+            "Combination: a characteristic is HOLD if any of its checks is HOLD, else PENDING if "
+            "any is PENDING, else PASS; the overall decision is formed the same way from the "
+            "characteristics."
+        )
+
+
+TARGET_MARGIN = MarginRule("target")
+SHIFT_MARGIN = MarginRule("shift")
+TARGET_DIFFERENCE = DifferenceRule("target")
+SHIFT_DIFFERENCE = DifferenceRule("shift")
+SPREAD = SpreadRule()
+CAPABILITY = CapabilityRule()
+SUFFICIENCY = SufficiencyRule()
+DIAGNOSTICS = DiagnosticsRule()
+MULTIPLICITY = MultiplicityRule()
+COMBINATION = CombinationRule()
+
+
+def rules_in_words(alpha: float, multiplicity: str) -> tuple[str, ...]:
+    """Every rule's sentence, in the order the workbook prints them."""
+    return (
+        TARGET_MARGIN.describe(alpha),
+        TARGET_DIFFERENCE.describe(alpha),
+        SHIFT_MARGIN.describe(alpha),
+        SHIFT_DIFFERENCE.describe(alpha),
+        SPREAD.describe(alpha),
+        CAPABILITY.describe(alpha),
+        SUFFICIENCY.describe(alpha),
+        MULTIPLICITY.describe(alpha, multiplicity),
+        DIAGNOSTICS.describe(alpha),
+        COMBINATION.describe(alpha),
+    )
+
+
+def while_pending(verdict: Verdict, *, harm_shown: bool, shortfall: str) -> Verdict:
+    """Apply the sufficiency rule to one check's verdict while planned data are arriving.
+
+    A PASS cannot stand before the plan is complete (releasing on the first night a p-value
+    happens to fall inflates the false-pass rate); a HOLD for lack of evidence waits; a HOLD on
+    positive evidence of harm stays.
+    """
+    if verdict.outcome == "HOLD" and harm_shown:
+        return verdict
+    return Verdict("PENDING", f"{shortfall}; so far: {verdict.reason}")
