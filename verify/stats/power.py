@@ -1,0 +1,702 @@
+"""Power, detectable shift and sample size for the t-tests, TOST and non-inferiority.
+
+Planning quantities for the designs of :mod:`verify.stats.ttests`. ``sd`` is the true
+(planning) standard deviation of one measurement, or of one paired difference for the paired
+design; the estimate then has standard deviation ``tau = sd * sqrt(k)`` with ``k = 1/n``
+(one-sample, paired; ``n_new`` is the number of values or pairs) or ``k = 1/n_new + 1/n_old``
+(welch, pooled). Degrees of freedom are ``n - 1`` and ``n_new + n_old - 2``.
+
+Welch: the power of the Welch test has no closed form. We use the usual approximation: the
+Welch statistic is taken as noncentral t with noncentrality ``shift / tau`` and the
+Welch-Satterthwaite df computed from the planning sds, ``tau^2 = sd^2/n_new + sd_old^2/n_old``
+(``sd_old`` defaults to ``sd``). With equal sds and equal lot sizes this is exactly the pooled
+calculation.
+
+Numerics: the noncentral t CDF comes from ``scipy.special.nctdtr``, which returns NaN in parts
+of the far tails (with scipy 1.17 e.g. at x = -1.96, df = 50, noncentrality 20; other versions
+at x = -1.9647, df = 499, noncentrality 11.18; statsmodels passes such NaNs on as powers,
+e.g. for d = 1, n = 72, alpha = 0.01 one-sample). Where it does, we use
+the reflection ``P(T <= x; d) = 1 - P(T <= -x; -d)`` and, if that fails too, integrate the
+normal CDF over the distribution of the sample sd. A NaN never leaves this module.
+
+The exact TOST power integrates over the distribution of the sample sd ``S`` (``S^2 / sd^2``
+is chi-square on df divided by df): given ``S = s`` the estimate must fall in
+``(low + c tau s, high - c tau s)``, ``c = t(1 - alpha, df)``, which has normal probability.
+"""
+
+from __future__ import annotations
+
+import math
+import numbers
+from collections.abc import Callable, Iterable
+from dataclasses import dataclass
+
+from scipy import integrate, optimize, special
+
+from .core import check_alternative, critical_value, t_cdf
+from .errors import NotApplicableError
+from .ttests import DESIGNS, check_design
+
+#: The largest lot size a sample-size search will propose.
+MAX_N = 100_000
+
+_LOG_SQRT_2PI = 0.5 * math.log(2.0 * math.pi)
+
+
+# --- validation -----------------------------------------------------------------------------
+
+
+def _count(n: object, what: str) -> int:
+    if isinstance(n, float) and n.is_integer():
+        n = int(n)
+    if isinstance(n, bool) or not isinstance(n, numbers.Integral):
+        raise ValueError(f"{what} must be a whole number, not {n!r}")
+    if n < 2:
+        raise ValueError(f"{what} must be at least 2, got {n}")
+    return int(n)
+
+
+def _number(v: object, what: str) -> float:
+    try:
+        return float(v)  # type: ignore[arg-type]
+    except (TypeError, ValueError):
+        raise ValueError(f"{what} must be a number, not {v!r}") from None
+
+
+def _positive(v: float, what: str) -> float:
+    f = _number(v, what)
+    if not (math.isfinite(f) and f > 0.0):
+        raise ValueError(f"{what} must be a positive finite number, not {v!r}")
+    return f
+
+
+def _finite(v: float, what: str) -> float:
+    f = _number(v, what)
+    if not math.isfinite(f):
+        raise ValueError(f"{what} must be a finite number, not {v!r}")
+    return f
+
+
+def _alpha(alpha: float, upper: float = 1.0) -> float:
+    a = _number(alpha, "alpha")
+    if not 0.0 < a < upper:
+        raise ValueError(f"alpha must lie in (0, {upper:g}), not {alpha!r}")
+    return a
+
+
+def _target_power(power: float) -> float:
+    p = _number(power, "the target power")
+    if not 0.0 < p < 1.0:
+        raise ValueError(f"the target power must lie in (0, 1), not {power!r}")
+    return p
+
+
+def _plan(
+    design: str, sd: float, n_new: object, n_old: object | None, sd_old: float | None
+) -> tuple[float, float]:
+    """(tau, df): the sd of the estimate and the degrees of freedom of the test."""
+    check_design(design)
+    s1 = _positive(sd, "sd")
+    n1 = _count(n_new, "n_new")
+    if design in ("one-sample", "paired"):
+        if sd_old is not None:
+            raise ValueError(f"sd_old applies only to the welch design, not {design!r}")
+        if n_old is not None:
+            if design == "one-sample":
+                raise ValueError("the one-sample design has no old lot: leave n_old out")
+            if _count(n_old, "n_old") != n1:
+                raise ValueError("for paired data n_old must equal n_new (the number of pairs)")
+        return s1 / math.sqrt(n1), float(n1 - 1)
+    if n_old is None:
+        raise ValueError(f"the {design} design needs n_old")
+    n2 = _count(n_old, "n_old")
+    if design == "pooled":
+        if sd_old is not None:
+            raise ValueError("the pooled design assumes one common sd: leave sd_old out")
+        return s1 * math.sqrt(1.0 / n1 + 1.0 / n2), float(n1 + n2 - 2)
+    s2 = s1 if sd_old is None else _positive(sd_old, "sd_old")
+    a = s1 / math.sqrt(n1)
+    b = s2 / math.sqrt(n2)
+    tau = math.hypot(a, b)
+    r = (a / tau) ** 2
+    # Welch-Satterthwaite df from the planning sds
+    df = 1.0 / (r * r / (n1 - 1) + (1.0 - r) * (1.0 - r) / (n2 - 1))
+    return tau, df
+
+
+# --- the distribution of the sample sd and the noncentral t ---------------------------------
+
+
+def _log_gamma_correction(h: float) -> float:
+    """gammaln(h) - ((h - 1/2) log h - h + log sqrt(2 pi)), without cancellation for large h."""
+    if h < 20.0:
+        return float(special.gammaln(h)) - ((h - 0.5) * math.log(h) - h + _LOG_SQRT_2PI)
+    # Stirling series (Abramowitz and Stegun 6.1.41); the next term is below 1e-17 for h >= 20
+    r = 1.0 / (h * h)
+    return (1 / 12 - r * (1 / 360 - r * (1 / 1260 - r * (1 / 1680 - r / 1188)))) / h
+
+
+def _sd_ratio_logpdf(df: float) -> Callable[[float], float]:
+    """Log density of S = sqrt(V / df), V chi-square on df (the sample sd over the true sd).
+
+    The density is ``2 h^h s^(df-1) exp(-h s^2) / Gamma(h)`` with ``h = df / 2``. With
+    Stirling's form of Gamma(h) and ``e = s - 1`` the large terms cancel analytically, so the
+    log density keeps its accuracy for large df.
+    """
+    h = 0.5 * df
+    # log(2 h^h / Gamma(h)) - h
+    k0 = math.log(2.0) + 0.5 * math.log(h) - _LOG_SQRT_2PI - _log_gamma_correction(h)
+
+    def logpdf(s: float) -> float:
+        e = s - 1.0
+        # (df - 1) log s - h s^2 + h  with  h - h s^2 = -h e (2 + e)
+        return k0 - h * e * (2.0 + e) + (df - 1.0) * math.log1p(e)
+
+    return logpdf
+
+
+def _sd_ratio_quantile(p: float, df: float, *, upper_tail: bool = False) -> float:
+    """Quantile of S = sqrt(V / df): ``P(S <= s) = p``, or ``P(S > s) = p`` if upper_tail.
+
+    Both tails are inverted directly, so tiny tail probabilities keep their accuracy.
+    """
+    h = 0.5 * df
+    inv = special.gammainccinv if upper_tail else special.gammaincinv
+    return math.sqrt(2.0 * float(inv(h, p)) / df)
+
+
+def _expect_over_sd(
+    g: Callable[[float], float],
+    df: float,
+    *,
+    upper: float = math.inf,
+    points: Iterable[float] = (),
+) -> float:
+    """E[g(S) ; S < upper] for S = sqrt(V / df), V chi-square on df, by adaptive quadrature.
+
+    The range is cut to the central 1 - 2e-20 of S's distribution (the rest cannot matter
+    for a probability) and split at its quartiles and at ``points`` so that steep parts of
+    ``g`` are not missed.
+    """
+    logpdf = _sd_ratio_logpdf(df)
+    s_lo = _sd_ratio_quantile(1e-20, df)
+    s_hi = min(_sd_ratio_quantile(1e-20, df, upper_tail=True), upper)
+    if not s_hi > s_lo:
+        return 0.0
+    cuts = {_sd_ratio_quantile(q, df) for q in (1e-9, 0.25, 0.5)}
+    cuts.update(_sd_ratio_quantile(q, df, upper_tail=True) for q in (0.25, 1e-9))
+    cuts.update(float(p) for p in points)
+    inner = sorted(c for c in cuts if s_lo < c < s_hi)
+
+    def integrand(s: float) -> float:
+        return g(s) * math.exp(logpdf(s))
+
+    edges = [s_lo, *inner, s_hi]
+    total = 0.0
+    for a, b in zip(edges[:-1], edges[1:], strict=True):
+        value, _ = integrate.quad(integrand, a, b, epsabs=1e-14, epsrel=1e-11, limit=200)
+        total += value
+    return total
+
+
+def _clip01(p: float) -> float:
+    return min(1.0, max(0.0, p))
+
+
+def _nct_cdf_by_integration(x: float, df: float, nc: float) -> float:
+    """P(T <= x) for noncentral t as E[Phi(x S - nc)] over the sample sd ratio S."""
+    if x == 0.0:
+        return float(special.ndtr(-nc))
+    points = []
+    s_star = nc / x  # where x s - nc changes sign; the integrand is steep around it
+    if s_star > 0.0:
+        w = 1.0 / abs(x)
+        points = [s_star - 8 * w, s_star - 2 * w, s_star, s_star + 2 * w, s_star + 8 * w]
+    return _clip01(_expect_over_sd(lambda s: float(special.ndtr(x * s - nc)), df, points=points))
+
+
+def nct_cdf(x: float, df: float, nc: float) -> float:
+    """P(T <= x) for the noncentral t distribution, never NaN.
+
+    Uses ``scipy.special.nctdtr``; where it fails (NaN far in the tails), the reflection
+    ``1 - P(T <= -x; -nc)``, and failing that numerical integration.
+    """
+    v = float(special.nctdtr(df, nc, x))
+    if math.isfinite(v) and 0.0 <= v <= 1.0:
+        return v
+    r = float(special.nctdtr(df, -nc, -x))
+    if math.isfinite(r) and 0.0 <= r <= 1.0:
+        return 1.0 - r
+    return _nct_cdf_by_integration(x, df, nc)
+
+
+def nct_sf(x: float, df: float, nc: float) -> float:
+    """P(T > x) for the noncentral t distribution, as P(T <= -x) with noncentrality -nc."""
+    return nct_cdf(-x, df, -nc)
+
+
+# --- power ----------------------------------------------------------------------------------
+
+
+def power_t(
+    shift: float,
+    sd: float,
+    n_new: int,
+    n_old: int | None = None,
+    *,
+    design: str,
+    alpha: float = 0.05,
+    alternative: str = "two-sided",
+    sd_old: float | None = None,
+) -> float:
+    """Power of the t-test at level ``alpha`` when the true effect is ``shift``.
+
+    Parameters
+    ----------
+    shift : float
+        True effect (new minus old, or mean minus target), in measurement units.
+    sd : float
+        True sd of one measurement (paired: of one difference). For welch, the sd of the new
+        lot, with ``sd_old`` that of the old lot (default: the same).
+    n_new, n_old : int
+        Lot sizes; one-sample and paired use ``n_new`` only (number of values or pairs).
+    design : {"one-sample", "paired", "welch", "pooled"}
+    alternative : {"two-sided", "less", "greater"}
+        Two-sided power counts both rejection tails.
+
+    Returns
+    -------
+    float
+        Probability of rejecting H0 (effect 0). Welch uses the noncentral t with
+        Welch-Satterthwaite df (see the module notes).
+
+    Examples
+    --------
+    >>> round(power_t(1.0, 1.0, 30, design="one-sample"), 6)
+    0.999564
+    """
+    check_alternative(alternative)
+    a = _alpha(alpha)
+    delta = _finite(shift, "shift")
+    tau, df = _plan(design, sd, n_new, n_old, sd_old)
+    nc = delta / tau
+    c = critical_value(df, a, alternative)
+    if alternative == "greater":
+        return nct_sf(c, df, nc)
+    if alternative == "less":
+        return nct_cdf(-c, df, nc)
+    return _clip01(nct_sf(c, df, nc) + nct_cdf(-c, df, nc))
+
+
+def _check_margins(low: float, high: float) -> tuple[float, float]:
+    lo = _finite(low, "low")
+    hi = _finite(high, "high")
+    if not lo < hi:
+        raise ValueError(f"the equivalence margins must satisfy low < high, got ({lo}, {hi})")
+    return lo, hi
+
+
+def power_tost(
+    true_shift: float,
+    sd: float,
+    n_new: int,
+    n_old: int | None = None,
+    *,
+    design: str,
+    alpha: float = 0.05,
+    low: float,
+    high: float,
+    sd_old: float | None = None,
+) -> float:
+    """Exact power of the TOST equivalence test with margins ``(low, high)``.
+
+    The probability that both one-sided tests reject at ``alpha`` when the true effect is
+    ``true_shift``, integrating over the distribution of the sample sd (exact for
+    one-sample, paired and pooled; for welch, the sd of the estimate is taken as scaled
+    chi on the Welch-Satterthwaite df, the same approximation as in :func:`power_t`).
+
+    Examples
+    --------
+    >>> p = power_tost(0.0, 1.0, 20, 20, design="pooled", low=-1.0, high=1.0)
+    >>> 0.85 < p < 0.9
+    True
+    """
+    a = _alpha(alpha, 0.5)
+    delta = _finite(true_shift, "true_shift")
+    lo, hi = _check_margins(low, high)
+    tau, df = _plan(design, sd, n_new, n_old, sd_old)
+    c = critical_value(df, a, "greater")
+    upper_z = (hi - delta) / tau
+    lower_z = (lo - delta) / tau
+    s_max = (upper_z - lower_z) / (2.0 * c)  # beyond this the acceptance region is empty
+
+    def g(s: float) -> float:
+        return float(special.ndtr(upper_z - c * s) - special.ndtr(lower_z + c * s))
+
+    # the two normal CDFs are steep where their arguments cross 0
+    w = 1.0 / c
+    points = [z / c + k * w for z in (upper_z, -lower_z) for k in (-3.0, 0.0, 3.0)]
+    return _clip01(_expect_over_sd(g, df, upper=s_max, points=points))
+
+
+def power_tost_shifted_t(
+    true_shift: float,
+    sd: float,
+    n_new: int,
+    n_old: int | None = None,
+    *,
+    design: str,
+    alpha: float = 0.05,
+    low: float,
+    high: float,
+    sd_old: float | None = None,
+) -> float:
+    """Approximate TOST power by shifted central t distributions.
+
+    ``F((high - shift)/tau - c) - F((low - shift)/tau + c)`` with F the central t CDF on df:
+    the sample sd is treated as if it equalled the true sd in the acceptance limits. Quick,
+    and close for large n, but it can be far off for small lots; :func:`power_tost` is exact.
+    """
+    a = _alpha(alpha, 0.5)
+    delta = _finite(true_shift, "true_shift")
+    lo, hi = _check_margins(low, high)
+    tau, df = _plan(design, sd, n_new, n_old, sd_old)
+    c = critical_value(df, a, "greater")
+    p = t_cdf((hi - delta) / tau - c, df) - t_cdf((lo - delta) / tau + c, df)
+    return _clip01(p)
+
+
+def _check_harmful(harmful: str) -> str:
+    if harmful not in ("lower", "upper"):
+        raise ValueError(f"harmful must be 'lower' or 'upper', not {harmful!r}")
+    return harmful
+
+
+def power_noninferiority(
+    true_shift: float,
+    sd: float,
+    n_new: int,
+    n_old: int | None = None,
+    *,
+    design: str,
+    alpha: float = 0.05,
+    bound: float,
+    harmful: str,
+    sd_old: float | None = None,
+) -> float:
+    """Power of the one-sided non-inferiority test against ``bound``.
+
+    ``harmful="lower"``: H0 effect <= bound is rejected when ``(est - bound)/se > t(1-alpha)``;
+    ``harmful="upper"``: H0 effect >= bound is rejected when ``(est - bound)/se < -t(1-alpha)``.
+    Exact (noncentral t) except for welch (see the module notes).
+
+    Examples
+    --------
+    >>> p = power_noninferiority(0.0, 1.0, 20, 20, design="pooled", bound=-1.0, harmful="lower")
+    >>> round(p, 4)
+    0.9279
+    """
+    a = _alpha(alpha)
+    delta = _finite(true_shift, "true_shift")
+    b = _finite(bound, "bound")
+    _check_harmful(harmful)
+    tau, df = _plan(design, sd, n_new, n_old, sd_old)
+    nc = (delta - b) / tau
+    c = critical_value(df, a, "greater")
+    if harmful == "lower":
+        return nct_sf(c, df, nc)
+    return nct_cdf(-c, df, nc)
+
+
+def detectable_shift(
+    sd: float,
+    n_new: int,
+    n_old: int | None = None,
+    *,
+    design: str,
+    alpha: float = 0.05,
+    alternative: str = "two-sided",
+    power: float = 0.8,
+    sd_old: float | None = None,
+) -> float:
+    """Smallest true shift the t-test detects with probability ``power``.
+
+    Returned as a positive size: for ``alternative="less"`` it is the size of a downward
+    shift, for ``"greater"`` and ``"two-sided"`` of an upward one (two-sided power is
+    symmetric in the sign of the shift).
+
+    Examples
+    --------
+    >>> d = detectable_shift(1.0, 30, design="one-sample")
+    >>> round(power_t(d, 1.0, 30, design="one-sample"), 6)
+    0.8
+    """
+    check_alternative(alternative)
+    a = _alpha(alpha)
+    target = _target_power(power)
+    tau, _ = _plan(design, sd, n_new, n_old, sd_old)  # validates the inputs once
+    sign = -1.0 if alternative == "less" else 1.0
+    if target <= a:
+        raise ValueError(
+            f"the target power {target} must exceed alpha ({a}): a zero shift already has it"
+        )
+
+    def gap(size: float) -> float:
+        return (
+            power_t(
+                sign * size,
+                sd,
+                n_new,
+                n_old,
+                design=design,
+                alpha=a,
+                alternative=alternative,
+                sd_old=sd_old,
+            )
+            - target
+        )
+
+    hi = 4.0 * tau
+    while gap(hi) < 0.0:
+        hi *= 2.0
+        if hi > 1e6 * tau:  # cannot happen for a proper t-test; guard the loop anyway
+            raise NotApplicableError("no shift reaches the target power")
+    return float(optimize.brentq(gap, 0.0, hi, xtol=1e-14 * tau, rtol=1e-12))
+
+
+# --- sample size ----------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class SampleSize:
+    """Smallest lot sizes that reach a target power.
+
+    Attributes
+    ----------
+    n_new : int
+        Size of the new lot (one-sample: the lot; paired: the number of pairs).
+    n_old : int or None
+        Size of the old lot: ``max(2, ceil(n_new / ratio))`` for two-sample designs, equal
+        to ``n_new`` for paired, ``None`` for one-sample.
+    power : float
+        Power achieved at these sizes (at least ``target_power``; at ``n_new - 1`` it is
+        below).
+    target_power : float
+    """
+
+    n_new: int
+    n_old: int | None
+    power: float
+    target_power: float
+
+
+def _old_size(design: str, n_new: int, ratio: float) -> int | None:
+    if design == "one-sample":
+        return None
+    if design == "paired":
+        return n_new
+    return max(2, math.ceil(n_new / ratio - 1e-9))
+
+
+def _check_ratio(design: str, ratio: float) -> float:
+    r = _positive(ratio, "ratio")
+    if design in ("one-sample", "paired") and r != 1.0:
+        raise ValueError(f"ratio (n_new / n_old) applies only to two-sample designs, not {design}")
+    return r
+
+
+def _smallest_n(
+    power_at: Callable[[int, int | None], float], design: str, ratio: float, target: float
+) -> SampleSize:
+    """Smallest n_new (n_old following by ratio) with power >= target.
+
+    Doubling then bisection (power rises with n), then a check that n_new - 1 falls short.
+    """
+    if design in ("one-sample", "paired"):
+        n_max = MAX_N
+    else:  # both n_new and n_old = ceil(n_new / ratio) must stay within MAX_N
+        n_max = max(2, min(MAX_N, math.floor(MAX_N * ratio + 1e-9)))
+
+    def pw(n: int) -> float:
+        return power_at(n, _old_size(design, n, ratio))
+
+    lo, hi = 1, 2  # lo falls short (or is below the minimum of 2); hi is the candidate
+    p_hi = pw(hi)
+    while p_hi < target:
+        if hi >= n_max:
+            raise NotApplicableError(
+                f"more than {MAX_N} units per lot would be needed to reach power {target:g}"
+            )
+        lo, hi = hi, min(2 * hi, n_max)
+        p_hi = pw(hi)
+    while hi - lo > 1:
+        mid = (lo + hi) // 2
+        p_mid = pw(mid)
+        if p_mid >= target:
+            hi, p_hi = mid, p_mid
+        else:
+            lo = mid
+    # guard against a non-monotone step: make sure one fewer does not already suffice
+    while hi > 2:
+        p_prev = pw(hi - 1)
+        if p_prev < target:
+            break
+        hi, p_hi = hi - 1, p_prev
+    return SampleSize(n_new=hi, n_old=_old_size(design, hi, ratio), power=p_hi, target_power=target)
+
+
+def sample_size_t(
+    shift: float,
+    sd: float,
+    *,
+    design: str,
+    alpha: float = 0.05,
+    alternative: str = "two-sided",
+    power: float = 0.8,
+    ratio: float = 1.0,
+    sd_old: float | None = None,
+) -> SampleSize:
+    """Smallest lot size at which the t-test detects ``shift`` with the target power.
+
+    ``ratio = n_new / n_old`` for two-sample designs: the search runs over ``n_new`` and
+    sets ``n_old = max(2, ceil(n_new / ratio))``.
+
+    Raises
+    ------
+    NotApplicableError
+        The shift is zero or points away from a one-sided alternative (no n reaches the
+        power), or more than :data:`MAX_N` units per lot would be needed.
+
+    Examples
+    --------
+    >>> s = sample_size_t(1.0, 1.0, design="pooled")
+    >>> s.n_new, s.n_old
+    (17, 17)
+    """
+    check_design(design)
+    check_alternative(alternative)
+    a = _alpha(alpha)
+    target = _target_power(power)
+    delta = _finite(shift, "shift")
+    r = _check_ratio(design, ratio)
+    _positive(sd, "sd")
+    if delta == 0.0:
+        raise NotApplicableError("a zero shift cannot be detected at any sample size")
+    if (alternative == "greater" and delta < 0.0) or (alternative == "less" and delta > 0.0):
+        raise NotApplicableError(
+            f"a shift of {delta:g} lies on the other side of the alternative {alternative!r}:"
+            " no sample size detects it"
+        )
+
+    def power_at(n_new: int, n_old: int | None) -> float:
+        return power_t(
+            delta, sd, n_new, n_old, design=design, alpha=a, alternative=alternative, sd_old=sd_old
+        )
+
+    return _smallest_n(power_at, design, r, target)
+
+
+def sample_size_tost(
+    true_shift: float,
+    sd: float,
+    *,
+    design: str,
+    alpha: float = 0.05,
+    low: float,
+    high: float,
+    power: float = 0.9,
+    ratio: float = 1.0,
+    sd_old: float | None = None,
+) -> SampleSize:
+    """Smallest lot size at which TOST shows equivalence with the target (exact) power.
+
+    Raises
+    ------
+    NotApplicableError
+        ``true_shift`` is not strictly inside ``(low, high)`` (equivalence cannot then be
+        shown with power above alpha), or more than :data:`MAX_N` units would be needed.
+
+    Examples
+    --------
+    >>> s = sample_size_tost(0.0, 1.0, design="pooled", low=-1.0, high=1.0)
+    >>> s.n_new, s.power >= 0.9
+    (23, True)
+    """
+    check_design(design)
+    a = _alpha(alpha, 0.5)
+    target = _target_power(power)
+    delta = _finite(true_shift, "true_shift")
+    lo, hi = _check_margins(low, high)
+    r = _check_ratio(design, ratio)
+    _positive(sd, "sd")
+    if not lo < delta < hi:
+        raise NotApplicableError(
+            f"the true shift {delta:g} is not inside the equivalence margins ({lo:g}, {hi:g}):"
+            " equivalence cannot be shown at any sample size"
+        )
+
+    def power_at(n_new: int, n_old: int | None) -> float:
+        return power_tost(
+            delta, sd, n_new, n_old, design=design, alpha=a, low=lo, high=hi, sd_old=sd_old
+        )
+
+    return _smallest_n(power_at, design, r, target)
+
+
+def sample_size_noninferiority(
+    true_shift: float,
+    sd: float,
+    *,
+    design: str,
+    alpha: float = 0.05,
+    bound: float,
+    harmful: str,
+    power: float = 0.8,
+    ratio: float = 1.0,
+    sd_old: float | None = None,
+) -> SampleSize:
+    """Smallest lot size at which the non-inferiority test rejects with the target power.
+
+    Raises
+    ------
+    NotApplicableError
+        ``true_shift`` is on the harmful side of ``bound`` or on it, or more than
+        :data:`MAX_N` units would be needed.
+    """
+    check_design(design)
+    a = _alpha(alpha)
+    target = _target_power(power)
+    delta = _finite(true_shift, "true_shift")
+    b = _finite(bound, "bound")
+    _check_harmful(harmful)
+    r = _check_ratio(design, ratio)
+    _positive(sd, "sd")
+    if (harmful == "lower" and not delta > b) or (harmful == "upper" and not delta < b):
+        raise NotApplicableError(
+            f"the true shift {delta:g} is not on the safe side of the bound {b:g}:"
+            " non-inferiority cannot be shown at any sample size"
+        )
+
+    def power_at(n_new: int, n_old: int | None) -> float:
+        return power_noninferiority(
+            delta, sd, n_new, n_old, design=design, alpha=a, bound=b, harmful=harmful, sd_old=sd_old
+        )
+
+    return _smallest_n(power_at, design, r, target)
+
+
+__all__ = [
+    "DESIGNS",
+    "MAX_N",
+    "SampleSize",
+    "detectable_shift",
+    "nct_cdf",
+    "nct_sf",
+    "power_noninferiority",
+    "power_t",
+    "power_tost",
+    "power_tost_shifted_t",
+    "sample_size_noninferiority",
+    "sample_size_t",
+    "sample_size_tost",
+]
