@@ -45,6 +45,13 @@ def fmt(x: float | None, digits: int = 4) -> str:
     return f"{x:.{digits}g}"
 
 
+def p_eq(p: float | None, name: str = "p") -> str:
+    """"p = 0.0123", or "p < 0.0001" for a tiny p-value."""
+    if p is not None and p < 1e-4:
+        return f"{name} < 0.0001"
+    return f"{name} = {fmt_p(p)}"
+
+
 def fmt_p(p: float | None) -> str:
     if p is None:
         return "n/a"
@@ -91,18 +98,20 @@ class MarginRule:
     def decide(self, *, pvalue: float, alpha: float, low: float, high: float,
                ci: tuple[float, float], unit: str, side: str) -> Verdict:
         level = fmt(100 * (1 - 2 * alpha))
-        where = "of target" if self.check == "target" else "of the old process"
-        interval = f"{level}% interval {fmt(ci[0])}..{fmt(ci[1])}"
+        ref = "target" if self.check == "target" else "the old process"
+        detail = f"({level}% interval {fmt(ci[0])}..{fmt(ci[1])}, {p_eq(pvalue)})"
+        u = f" {unit}" if unit else ""
         if side == "two-sided":
-            bounds = margin_words(low, high, unit)
+            claim = f"within {margin_words(low, high, unit)} of {ref}"
         elif side == "lower":
-            bounds = f"no lower than {fmt(low)} {unit}".rstrip()
+            claim = f"at most {fmt(-low)}{u} below {ref}"
         else:
-            bounds = f"no higher than +{fmt(high)} {unit}".rstrip()
-        detail = f"({interval}, p = {fmt_p(pvalue)})"
+            claim = f"at most {fmt(high)}{u} above {ref}"
         if pvalue < alpha:
-            return Verdict("PASS", f"shown within {bounds} {where} {detail}")
-        return Verdict("HOLD", f"not shown within {bounds} {where} {detail}")
+            return Verdict("PASS", f"shown {claim} {detail}")
+        if side == "two-sided":
+            return Verdict("HOLD", f"not shown {claim} {detail}")
+        return Verdict("HOLD", f"not shown to be {claim} {detail}")
 
 
 class DifferenceRule:
@@ -134,10 +143,10 @@ class DifferenceRule:
         if pvalue < alpha:
             return Verdict(
                 "HOLD", f"{noun} of {fmt(estimate)}{u} detected in the harmful direction "
-                f"({which} = {fmt_p(pvalue)} < {alpha})")
+                f"({p_eq(pvalue, which)}, alpha {alpha})")
         note = (f"; the smallest {noun} these data detect with 80% power is {fmt(detectable)}{u}"
                 if detectable is not None else "")
-        return Verdict("PASS", f"no {noun} detected ({which} = {fmt_p(pvalue)}){note}")
+        return Verdict("PASS", f"no {noun} detected ({p_eq(pvalue, which)}){note}")
 
 
 class SpreadRule:
@@ -153,7 +162,7 @@ class SpreadRule:
     def decide(self, *, pvalue: float, alpha: float, ratio: float,
                ci: tuple[float, float], level: float, method: str) -> Verdict:
         detail = (f"sd ratio new/old {fmt(ratio)}, {fmt(100 * level)}% interval "
-                  f"{fmt(ci[0])}..{fmt(ci[1])}, {method} p = {fmt_p(pvalue)}")
+                  f"{fmt(ci[0])}..{fmt(ci[1])}, {method} {p_eq(pvalue)}")
         if pvalue < alpha:
             return Verdict("HOLD", f"new spread larger than old ({detail})")
         return Verdict("PASS", f"no increase in spread shown ({detail})")

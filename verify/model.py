@@ -60,7 +60,9 @@ class Measurements:
     def values(self, characteristic: str, process: str):
         """Used values of one characteristic and process, in production order (numpy array)."""
         t = self.table
-        sel = t[(t["characteristic"] == characteristic) & (t["process"] == process) & ~t["excluded"]]
+        sel = t[
+            (t["characteristic"] == characteristic) & (t["process"] == process) & ~t["excluded"]
+        ]
         return sel.sort_values("order", kind="stable")["value"].to_numpy(dtype=float)
 
 

@@ -1,0 +1,122 @@
+"""``verify run`` and ``verify replay``: argument parsing and exit statuses only."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+from .errors import VerifyError
+
+EXIT_PASS, EXIT_HOLD, EXIT_INVALID, EXIT_PENDING = 0, 1, 2, 3
+
+
+def decision_exit(decisions) -> int:
+    """0 all PASS, 1 any HOLD, 3 any PENDING and no HOLD."""
+    decisions = list(decisions)
+    if "HOLD" in decisions:
+        return EXIT_HOLD
+    if "PENDING" in decisions:
+        return EXIT_PENDING
+    return EXIT_PASS
+
+
+def add_run(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
+    p = sub.add_parser(
+        "run",
+        help="evaluate specs and write the workbook and JSON result of each",
+        description=(
+            "Evaluate each spec on its data and write <out>/<spec-stem>.xlsx and "
+            "<out>/<spec-stem>.json. Every spec is validated first: if any is invalid, all "
+            "problems are printed and nothing is written. Outputs are written to temporary "
+            "files and renamed, so a failed run never leaves half a file nor destroys the "
+            "previous one.\n\nexit status: 0 all PASS, 1 any HOLD, 3 any PENDING and no HOLD, "
+            "2 invalid input (nothing written)."
+        ),
+        epilog=("example:\n  verify run specs/ --out reports/\n"
+                "  verify run specs/housing-resin.yaml --final"),
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    p.add_argument("paths", nargs="+", metavar="SPEC|DIR",
+                   help="spec files, or folders searched for *.yaml and *.yml")
+    p.add_argument("--out", default="reports", metavar="DIR",
+                   help="folder for the workbooks and JSON results (default: reports/)")
+    p.add_argument("--final", action="store_true",
+                   help="the trial is complete: a shortfall against min_n no longer gives "
+                        "PENDING (checks decide on the data there are)")
+    return p
+
+
+def summary_line(ev, target: Path | None = None) -> str:
+    chars = ", ".join(f"{c.name} {c.decision}" for c in ev.characteristics)
+    where = f"  -> {target}" if target is not None else ""
+    return f"{ev.spec.stem}: {ev.decision} ({chars}){where}"
+
+
+def cmd_run(args: argparse.Namespace) -> int:
+    from .audit import command_line
+    from .runner import prepare, write_outputs
+    from .spec import find_specs
+
+    paths = find_specs(args.paths)
+    stems: dict[str, Path] = {}
+    for p in paths:
+        if p.stem in stems:
+            raise VerifyError(
+                f"{p}: another spec ({stems[p.stem]}) has the same file name stem '{p.stem}'; "
+                "both would write the same report: rename one, or run them separately")
+        stems[p.stem] = p
+    command = command_line()
+    evaluations, failed = [], []
+    for p in paths:  # validate and evaluate every spec before writing anything
+        try:
+            evaluations.append(prepare(p, final=args.final, command=command))
+        except VerifyError as exc:
+            failed.append((p, exc))
+    if failed:
+        for p, exc in failed:
+            print(f"{p}: invalid\n" + "\n".join("  " + ln for ln in exc.report().splitlines()),
+                  file=sys.stderr)
+        print(f"{len(failed)} of {len(paths)} specs invalid: nothing written", file=sys.stderr)
+        return EXIT_INVALID
+    out = Path(args.out)
+    for ev in evaluations:
+        o = write_outputs(ev, out / f"{ev.spec.stem}.xlsx", out / f"{ev.spec.stem}.json")
+        print(summary_line(ev, o.workbook))
+    return decision_exit(ev.decision for ev in evaluations)
+
+
+def add_replay(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
+    p = sub.add_parser(
+        "replay",
+        help="re-run a recorded result and compare every decision and number",
+        description=(
+            "Read the spec text and hashes recorded in a report (the .json, or the .xlsx, "
+            "which carries the same record), check that each data file still has its recorded "
+            "sha256, re-run with the recorded spec text and compare every decision and number "
+            "(relative tolerance 1e-12). Prints 'reproduced' (exit 0) or the differences "
+            "(exit 1); says when tool or library versions differ from the recorded ones."
+        ),
+        epilog="example:\n  verify replay reports/bushing-supplier.json",
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    p.add_argument("report", metavar="REPORT.xlsx|REPORT.json")
+    return p
+
+
+def cmd_replay(args: argparse.Namespace) -> int:
+    from .replay import replay
+
+    res = replay(args.report)
+    for n in res.notes:
+        print(f"note: {n}")
+    if res.reproduced:
+        print(f"{args.report}: reproduced")
+        return 0
+    for m in res.integrity:
+        print(f"integrity: {m}")
+    for d in res.differences:
+        print(f"differs: {d}")
+    print(f"{args.report}: NOT reproduced ({len(res.integrity)} integrity problem(s), "
+          f"{len(res.differences)} difference(s))")
+    return 1

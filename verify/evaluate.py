@@ -1,0 +1,676 @@
+"""spec + measurements -> statistics -> decisions -> one :class:`~verify.model.Evaluation`.
+
+This module wires the layers together and holds no statistics and no rules of its own: the
+numbers come from :mod:`verify.stats`, the outcomes and their words from :mod:`verify.decide`.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from . import decide
+from .data import analysis_values, paired_values
+from .model import (
+    CharacteristicResult,
+    CheckResult,
+    DiagnosticResult,
+    Evaluation,
+    Measurements,
+    ProcessSummary,
+    RunInfo,
+)
+from .spec_model import Characteristic, Spec
+from .stats import capability as cap
+from .stats import diagnostics as diag
+from .stats import equivalence, multiplicity, nonparametric, power, spread, ttests
+from .stats.core import confidence_interval, mean_sd, t_test_from_estimate
+from .stats.errors import DegenerateDataError, StatsError
+from .stats.paired_spread import pitman_morgan
+
+DETECT_POWER = 0.8  # the power at which the "smallest detectable shift" note is stated
+RUN_LENGTH_FLAG = 8  # common practice: eight points in a row on one side of the centre line
+
+
+def _finite(x) -> float | None:
+    if x is None:
+        return None
+    x = float(x)
+    return x if math.isfinite(x) else None
+
+
+def _alternative(side: str) -> str:
+    """The direction of harm as a t-test alternative: a harmful lower value tests 'less'."""
+    return {"two-sided": "two-sided", "lower": "less", "upper": "greater"}[side]
+
+
+@dataclass
+class _Data:
+    """The values one characteristic is analysed on."""
+
+    old: np.ndarray | None  # analysis units (parts or lot means), production order
+    new: np.ndarray
+    old_parts: np.ndarray | None  # part-level values, production order
+    new_parts: np.ndarray
+    old_lots: tuple = ()
+    new_lots: tuple = ()
+    pairs: object = None  # PairedValues for a paired design
+
+
+@dataclass
+class _Draft:
+    """A check computed but not yet decided (difference tests wait for multiplicity)."""
+
+    result: CheckResult
+    family_p: float | None = None  # p-value entering the multiplicity adjustment
+    harm_shown: bool = False
+    finish: object = None  # callable(p_adjusted) -> (outcome, reason)
+
+
+@dataclass
+class _CharDraft:
+    ch: Characteristic
+    data: _Data
+    processes: dict
+    checks: list[_Draft] = field(default_factory=list)
+    diagnostics: list[DiagnosticResult] = field(default_factory=list)
+    shortfall: str | None = None
+    pairs: int | None = None
+    unmatched: tuple = ()
+
+
+def evaluate(
+    spec: Spec, measurements: Measurements, *, final: bool = False, run: RunInfo | None = None
+) -> Evaluation:
+    """Evaluate every characteristic of ``spec`` on ``measurements``.
+
+    Parameters
+    ----------
+    spec : Spec
+        The validated spec from :func:`verify.spec.load_spec`.
+    measurements : Measurements
+        The tidy table from :func:`verify.data.load_measurements`.
+    final : bool
+        True when the trial is declared complete (``--final``): a shortfall against ``min_n``
+        no longer makes a characteristic PENDING.
+    run : RunInfo, optional
+        Who ran it, when and with which software (see :mod:`verify.audit`).
+    """
+    if run is None:
+        from .audit import run_info
+
+        run = run_info(spec, measurements, command="(library call)")
+    drafts = [_draft_characteristic(spec, measurements, ch, final) for ch in spec.characteristics]
+    _adjust(drafts, spec.multiplicity)
+    results = tuple(_finish(spec, d) for d in drafts)
+    decision = decide.combine(r.decision for r in results)
+    reasons = tuple(
+        f"{r.name}: {r.decision} - {'; '.join(r.reasons)}" for r in results if r.decision != "PASS"
+    )
+    review = tuple(note for r in results for note in r.review)
+    return Evaluation(
+        spec=spec,
+        measurements=measurements,
+        characteristics=results,
+        decision=decision,
+        reasons=reasons,
+        review=review,
+        rules=decide.rules_in_words(spec.alpha, spec.multiplicity),
+        caution=decide.CAUTION,
+        final=final,
+        run=run,
+    )
+
+
+# --- gathering data ---------------------------------------------------------------------------
+
+
+def _summary(process: str, values: np.ndarray, lots, n_parts: int) -> ProcessSummary:
+    n = int(values.size)
+    mean = sd = None
+    if n:
+        _, m, s = mean_sd(values)
+        mean = m
+        sd = s if n >= 2 else None
+    return ProcessSummary(
+        process=process,
+        n=n,
+        mean=mean,
+        sd=sd,
+        lots=tuple(dict.fromkeys(str(x) for x in lots)),
+        n_parts=n_parts,
+        minimum=float(values.min()) if n else None,
+        maximum=float(values.max()) if n else None,
+    )
+
+
+def _gather(spec: Spec, meas: Measurements, ch: Characteristic) -> tuple[_Data, dict]:
+    new = analysis_values(meas, spec, ch.name, "new")
+    old = analysis_values(meas, spec, ch.name, "old")
+    if spec.unit_of_analysis == "lot":
+        from dataclasses import replace
+
+        part_spec = replace(spec, unit_of_analysis="part")
+        new_p = analysis_values(meas, part_spec, ch.name, "new")
+        old_p = analysis_values(meas, part_spec, ch.name, "old")
+    else:
+        new_p, old_p = new, old
+    data = _Data(
+        old=old.values if old.values.size else None,
+        new=new.values,
+        old_parts=old_p.values if old_p.values.size else None,
+        new_parts=new_p.values,
+        old_lots=tuple(old_p.lots),
+        new_lots=tuple(new_p.lots),
+    )
+    processes = {}
+    if old.values.size or ch.checks.shift is not None:
+        processes["old"] = _summary("old", old.values, old_p.lots, int(old_p.values.size))
+    processes["new"] = _summary("new", new.values, new_p.lots, int(new_p.values.size))
+    shift = ch.checks.shift
+    if shift is not None and shift.design == "paired":
+        data.pairs = paired_values(meas, spec, ch.name)
+    return data, processes
+
+
+# --- drafting checks ----------------------------------------------------------------------------
+
+
+def _draft_characteristic(spec: Spec, meas: Measurements, ch: Characteristic, final: bool):
+    data, processes = _gather(spec, meas, ch)
+    d = _CharDraft(ch=ch, data=data, processes=processes)
+    counts = {p: s.n for p, s in processes.items()}
+    if data.pairs is not None:
+        d.pairs = len(data.pairs.keys)
+        d.unmatched = tuple(data.pairs.unmatched)
+        counts = {"pairs": d.pairs}
+    d.shortfall = decide.SUFFICIENCY.shortfall(counts, spec.min_n, final)
+    checks = ch.checks
+    if checks.target is not None:
+        d.checks.append(_draft_location(spec, ch, d, "target"))
+    if checks.shift is not None:
+        d.checks.append(_draft_location(spec, ch, d, "shift"))
+    if checks.spread is not None:
+        d.checks.append(_draft_spread(spec, ch, d))
+    if checks.capability is not None:
+        d.checks.append(_draft_capability(spec, ch, d))
+    d.diagnostics = _diagnostics(spec, ch, d)
+    return d
+
+
+def _degenerate(check: str, method: str, hypothesis: str, err: Exception, **kw) -> _Draft:
+    res = CheckResult(
+        check=check, method=method, hypothesis=hypothesis, alternative=None, margin=None,
+        outcome="HOLD", reason=f"cannot be computed: {err}", **kw,
+    )
+    return _Draft(result=res)
+
+
+def _effect(design: str, ch: Characteristic, data: _Data):
+    if design == "one-sample":
+        return ttests.effect("one-sample", data.new, target=ch.target)
+    if design == "paired":
+        pv = data.pairs
+        return ttests.effect("paired", pv.new, pv.old)
+    if data.old is None:
+        raise DegenerateDataError("no old-process values")
+    return ttests.effect(design, data.new, data.old)
+
+
+def _common_sd(e) -> float:
+    """The sd that power calculations assume for this effect (common sd of one unit)."""
+    return float(e.sd)
+
+
+def _draft_location(spec: Spec, ch: Characteristic, d: _CharDraft, check: str) -> _Draft:
+    alpha = spec.alpha
+    if check == "target":
+        conf = ch.checks.target
+        design = "one-sample"
+        subject = f"the new-process mean of {ch.name} minus its target {decide.fmt(ch.target)}"
+    else:
+        conf = ch.checks.shift
+        design = conf.design
+        subject = f"the new-process mean of {ch.name} minus the old-process mean"
+    margin = conf.margin
+    unit = ch.unit
+    noun = "departure" if check == "target" else "shift"
+    try:
+        e = _effect(design, ch, d.data)
+    except (StatsError, ValueError) as err:
+        what = "TOST" if margin is not None else "t-test"
+        return _degenerate(check, f"{what} ({design})", subject, err, design=design)
+    n_new = e.n_new
+    n_old = e.n_old
+    sd = _common_sd(e)
+    common = dict(
+        estimate=e.estimate, standard_error=e.standard_error, df=e.df, design=design,
+        extra={"n_new": n_new, "n_old": n_old, "sd": sd},
+    )
+    if margin is not None:
+        low, high = margin.low, margin.high
+        level = 1 - 2 * alpha
+        ci = confidence_interval(e.estimate, e.standard_error, e.df, level=level)
+        if ch.side == "two-sided":
+            r = equivalence.tost_from_estimate(
+                e.estimate, e.standard_error, e.df, low=low, high=high,
+                method=f"TOST ({e.method})")
+            pval = r.pvalue
+            tost_fields = dict(p_lower=r.p_lower, p_upper=r.p_upper,
+                               statistic_lower=r.statistic_lower,
+                               statistic_upper=r.statistic_upper)
+            statistic = (r.statistic_lower if r.p_lower >= r.p_upper else r.statistic_upper)
+            hyp = f"{subject} lies inside {decide.margin_words(low, high, unit)}"
+            alternative = "equivalence"
+            method = r.method
+            try:
+                pw = power.power_tost(spec.plan.true_shift, sd, n_new, n_old, design=design,
+                                      alpha=alpha, low=low, high=high)
+                planned = power.sample_size_tost(
+                    spec.plan.true_shift, sd, design=design, alpha=alpha, low=low, high=high,
+                    power=spec.plan.power, ratio=_ratio(n_new, n_old)).n_new
+            except StatsError:
+                pw, planned = None, None
+        else:
+            harmful = ch.side
+            bound = low if harmful == "lower" else high
+            r = equivalence.noninferiority_from_estimate(
+                e.estimate, e.standard_error, e.df, bound=bound, harmful=harmful,
+                method=f"non-inferiority ({e.method})")
+            pval = r.pvalue
+            statistic = r.statistic
+            tost_fields = {}
+            if harmful == "lower":
+                tost_fields = dict(p_lower=r.pvalue, statistic_lower=r.statistic)
+                hyp = f"{subject} is no lower than {decide.fmt(bound)} {unit}".rstrip()
+            else:
+                tost_fields = dict(p_upper=r.pvalue, statistic_upper=r.statistic)
+                hyp = f"{subject} is no higher than +{decide.fmt(bound)} {unit}".rstrip()
+            alternative = r.alternative
+            method = r.method
+            try:
+                pw = power.power_noninferiority(spec.plan.true_shift, sd, n_new, n_old,
+                                                design=design, alpha=alpha, bound=bound,
+                                                harmful=harmful)
+                planned = power.sample_size_noninferiority(
+                    spec.plan.true_shift, sd, design=design, alpha=alpha, bound=bound,
+                    harmful=harmful, power=spec.plan.power, ratio=_ratio(n_new, n_old)).n_new
+            except StatsError:
+                pw, planned = None, None
+        rule = decide.TARGET_MARGIN if check == "target" else decide.SHIFT_MARGIN
+        verdict = rule.decide(pvalue=pval, alpha=alpha, low=low, high=high,
+                              ci=(ci.low, ci.high), unit=unit, side=ch.side)
+        res = CheckResult(
+            check=check, method=method, hypothesis=hyp, alternative=alternative,
+            margin=(low, high), outcome=verdict.outcome, reason=verdict.reason,
+            statistic=statistic, p_value=pval, ci_low=ci.low, ci_high=ci.high, ci_level=level,
+            critical_value=_crit(e.df, alpha, "greater"), power=_finite(pw),
+            power_note=(f"power of this test if the true {noun} is "
+                        f"{decide.fmt(spec.plan.true_shift)} and the sd is as observed"),
+            planned_n=planned, **tost_fields, **common,
+        )
+        return _Draft(result=res, harm_shown=False)
+
+    # no margin: a difference test in the harmful direction
+    alternative = _alternative(ch.side)
+    r = t_test_from_estimate(e.estimate, e.standard_error, e.df, alternative=alternative,
+                             method=e.method)
+    ci = r.confidence_interval(1 - alpha)
+    try:
+        detectable = power.detectable_shift(sd, n_new, n_old, design=design, alpha=alpha,
+                                            alternative=alternative, power=DETECT_POWER)
+    except StatsError:
+        detectable = None
+    pw = planned = None
+    note = None
+    if conf.detect is not None:
+        try:
+            pw = power.power_t(conf.detect, sd, n_new, n_old, design=design, alpha=alpha,
+                               alternative=alternative)
+            planned = power.sample_size_t(conf.detect, sd, design=design, alpha=alpha,
+                                          alternative=alternative, power=spec.plan.power,
+                                          ratio=_ratio(n_new, n_old)).n_new
+        except StatsError:
+            pw = planned = None
+        note = f"power to detect a shift of {decide.fmt(conf.detect)} {unit}".rstrip()
+    else:
+        note = (f"no detect value declared; the shift detected with {DETECT_POWER:.0%} power is "
+                f"{decide.fmt(detectable)} {unit}".rstrip())
+    direction = {"two-sided": "differs from", "less": "is below", "greater": "is above"}
+    hyp = f"{subject} {direction[alternative]} 0"
+    rule = decide.TARGET_DIFFERENCE if check == "target" else decide.SHIFT_DIFFERENCE
+    res = CheckResult(
+        check=check, method=r.method, hypothesis=hyp, alternative=alternative, margin=None,
+        outcome="PASS", reason="", statistic=r.statistic, p_value=r.pvalue,
+        ci_low=ci.low, ci_high=ci.high, ci_level=1 - alpha,
+        critical_value=r.critical_value(alpha), power=_finite(pw), power_note=note,
+        detectable_shift=_finite(detectable), planned_n=planned, **common,
+    )
+
+    def finish(p_adj, adjusted, _rule=rule, _e=e, _unit=unit, _det=detectable):
+        v = _rule.decide(pvalue=p_adj, alpha=alpha, estimate=_e.estimate, unit=_unit,
+                         detectable=_finite(_det), adjusted=adjusted)
+        return v
+
+    return _Draft(result=res, family_p=r.pvalue, finish=finish)
+
+
+def _ratio(n_new: int, n_old: int | None) -> float:
+    return 1.0 if not n_old else n_new / n_old
+
+
+def _crit(df: float, alpha: float, alternative: str) -> float:
+    from .stats.core import critical_value
+
+    return critical_value(df, alpha, alternative)
+
+
+def _draft_spread(spec: Spec, ch: Characteristic, d: _CharDraft) -> _Draft:
+    alpha = spec.alpha
+    level = 1 - 2 * alpha
+    hyp = f"the new process's standard deviation of {ch.name} is larger than the old one's"
+    paired = d.data.pairs is not None
+    try:
+        if paired:
+            pv = d.data.pairs
+            r = pitman_morgan(pv.old, pv.new, alternative="greater")
+            ci = r.confidence_interval(level)
+            # two-sided (1 - 2 alpha) interval: its lower end is the one-sided bound
+            ci = pitman_morgan(pv.old, pv.new, alternative="two-sided").confidence_interval(level)
+            method, stat, df, ratio, p = r.method, r.statistic, r.df, r.estimate, r.pvalue
+            extra = {"correlation": r.correlation}
+        else:
+            if d.data.old is None:
+                raise DegenerateDataError("no old-process values")
+            f = spread.f_test(d.data.old, d.data.new, alternative="greater")
+            ci = spread.f_test(d.data.old, d.data.new,
+                               alternative="two-sided").confidence_interval(level)
+            ratio = f.estimate
+            extra = {"df_num": f.df_num, "df_den": f.df_den, "F": f.statistic}
+            if ch.checks.spread.method == "brown-forsythe":
+                b = spread.brown_forsythe(d.data.old, d.data.new, alternative="greater")
+                method, stat, p = b.method, b.statistic, b.pvalue
+                df = None
+            else:
+                method, stat, df, p = f.method, f.statistic, float(f.df_num), f.pvalue
+    except (StatsError, ValueError) as err:
+        return _degenerate("spread", "spread test", hyp, err)
+    v = decide.SPREAD.decide(pvalue=p, alpha=alpha, ratio=ratio, ci=(ci.low, ci.high),
+                             level=level, method=method)
+    res = CheckResult(
+        check="spread", method=method, hypothesis=hyp, alternative="greater", margin=None,
+        outcome=v.outcome, reason=v.reason, estimate=ratio, statistic=stat, df=df,
+        p_value=p, ci_low=ci.low, ci_high=_finite(ci.high), ci_level=level,
+        design="paired" if paired else "two-sample", extra=extra,
+    )
+    return _Draft(result=res, harm_shown=v.outcome == "HOLD")
+
+
+def _draft_capability(spec: Spec, ch: Characteristic, d: _CharDraft) -> _Draft:
+    conf = ch.checks.capability
+    lower, upper = ch.lower, ch.upper
+    hyp = f"the new process's Cpk for {ch.name} is at least {decide.fmt(conf.min_cpk)}"
+    subgroups = None
+    if conf.subgroup == "lot":
+        subgroups = np.asarray(d.data.new_lots, dtype=object)
+    try:
+        r = cap.capability(d.data.new_parts, lower=lower, upper=upper, target=ch.target,
+                           subgroups=subgroups)
+        lb = r.cpk_lower_bound(0.95)
+    except (StatsError, ValueError) as err:
+        return _degenerate("capability", "process capability", hyp, err)
+    v = decide.CAPABILITY.decide(cpk=r.cpk, lower_bound=_finite(lb), min_cpk=conf.min_cpk)
+    extra = {
+        "cp": _finite(r.cp), "cpk": r.cpk, "cpl": _finite(r.cpl), "cpu": _finite(r.cpu),
+        "pp": _finite(r.pp), "ppk": _finite(r.ppk), "cpm": _finite(r.cpm),
+        "sigma_within": r.sigma_within, "sigma_overall": r.sigma_overall,
+        "sigma_method": r.sigma_method, "mean": r.mean, "n": r.n, "min_cpk": conf.min_cpk,
+        "cpk_lower_95": _finite(lb),
+    }
+    res = CheckResult(
+        check="capability", method=f"Cpk ({r.sigma_method})", hypothesis=hyp,
+        alternative=None, margin=None, outcome=v.outcome, reason=v.reason, estimate=r.cpk,
+        ci_low=_finite(lb), ci_high=None, ci_level=0.95, extra=extra,
+    )
+    return _Draft(result=res)
+
+
+# --- diagnostics --------------------------------------------------------------------------------
+
+
+def _diag_na(name, method, group, err) -> DiagnosticResult:
+    return DiagnosticResult(name=name, method=method, group=group, flag=False,
+                            note=f"not applicable: {err}")
+
+
+def _diagnostics(spec: Spec, ch: Characteristic, d: _CharDraft) -> list[DiagnosticResult]:
+    alpha = spec.alpha
+    out: list[DiagnosticResult] = []
+    groups = []
+    if d.data.pairs is not None:
+        pv = d.data.pairs
+        groups.append(("differences", pv.new - pv.old))
+    else:
+        if d.data.old is not None:
+            groups.append(("old", d.data.old))
+        groups.append(("new", d.data.new))
+    for group, x in groups:
+        try:
+            sw = diag.shapiro_wilk(x)
+            flag = sw.pvalue < alpha
+            out.append(DiagnosticResult(
+                "normality", sw.method, group, flag,
+                (f"{group} values depart from a normal distribution ({decide.p_eq(sw.pvalue)})"
+                 "; compare with the rank-test companion" if flag else
+                 f"no departure from normality detected ({decide.p_eq(sw.pvalue)})"),
+                statistic=sw.statistic, p_value=sw.pvalue))
+        except StatsError as err:
+            out.append(_diag_na("normality", "Shapiro-Wilk", group, err))
+        sw_applies = out[-1].p_value is not None
+        try:
+            ad = diag.anderson_darling(x)
+            # a companion to Shapiro-Wilk: it flags only where Shapiro-Wilk does not apply
+            out.append(DiagnosticResult(
+                "normality", ad.method, group, ad.pvalue < alpha and not sw_applies,
+                f"Anderson-Darling {decide.p_eq(ad.pvalue)}",
+                statistic=ad.statistic, p_value=ad.pvalue))
+        except StatsError as err:
+            out.append(_diag_na("normality", "Anderson-Darling", group, err))
+    part_groups = [("new", d.data.new_parts, d.data.new_lots)]
+    if d.data.old_parts is not None:
+        part_groups.insert(0, ("old", d.data.old_parts, d.data.old_lots))
+    for group, x, lots in part_groups:
+        try:
+            g = diag.grubbs(x, alternative="two-sided")
+            flag = g.pvalue < alpha
+            lot = lots[g.index] if g.index < len(lots) else "?"
+            out.append(DiagnosticResult(
+                "outliers", g.method, group, flag,
+                (f"possible outlier {decide.fmt(g.value)} in lot {lot} "
+                 f"(G = {decide.fmt(g.statistic)}, {decide.p_eq(g.pvalue)}); "
+                 "not removed: check the part and the record"
+                 if flag else f"no outlier detected ({decide.p_eq(g.pvalue)})"),
+                statistic=g.statistic, p_value=g.pvalue,
+                extra={"value": g.value, "lot": str(lot)}))
+        except StatsError as err:
+            out.append(_diag_na("outliers", "Grubbs", group, err))
+        n_lots = len(set(lots))
+        out.append(DiagnosticResult(
+            "lot count", "count of lots", group, n_lots < 3,
+            (f"only {n_lots} lot(s): lot-to-lot variation is barely represented" if n_lots < 3
+             else f"{n_lots} lots"), statistic=float(n_lots)))
+        if spec.unit_of_analysis == "part":
+            try:
+                le = diag.lot_effect(x, np.asarray(lots, dtype=object))
+                flag = le.pvalue < alpha
+                out.append(DiagnosticResult(
+                    "lot effect", le.method, group, flag,
+                    (f"lots differ ({decide.p_eq(le.pvalue)}, intraclass correlation "
+                     f"{decide.fmt(le.icc, 3)}): parts of one lot are not independent; "
+                     "unit_of_analysis: lot would be the safer analysis" if flag else
+                     f"no lot effect detected ({decide.p_eq(le.pvalue)})"),
+                    statistic=le.statistic, p_value=le.pvalue,
+                    extra={"icc": le.icc, "n_lots": le.n_lots}))
+            except StatsError as err:
+                out.append(_diag_na("lot effect", "one-way ANOVA across lots", group, err))
+        try:
+            st = diag.individuals_chart(x)
+            flag = bool(st.beyond) or st.longest_run >= RUN_LENGTH_FLAG
+            parts = []
+            if st.beyond:
+                parts.append(f"{len(st.beyond)} point(s) beyond the limits")
+            if st.longest_run >= RUN_LENGTH_FLAG:
+                parts.append(f"a run of {st.longest_run} on one side of the centre line")
+            out.append(DiagnosticResult(
+                "stability", "individuals chart (moving-range limits)", group, flag,
+                ("not stable: " + ", ".join(parts)) if flag else
+                f"in control (longest run {st.longest_run})",
+                statistic=float(len(st.beyond)),
+                extra={"centre": st.centre, "lcl": st.lcl, "ucl": st.ucl,
+                       "longest_run": st.longest_run}))
+        except StatsError as err:
+            out.append(_diag_na("stability", "individuals chart", group, err))
+    try:
+        allv = d.data.new_parts if d.data.old_parts is None else np.concatenate(
+            [d.data.old_parts, d.data.new_parts])
+        tol = (ch.upper - ch.lower) if (ch.lower is not None and ch.upper is not None) else None
+        rs = diag.resolution(allv, tolerance=tol)
+        coarse = rs.step_over_tenth_tolerance is not None and rs.step_over_tenth_tolerance > 1.0
+        out.append(DiagnosticResult(
+            "resolution", "measurement resolution", "all", coarse,
+            (f"coarse: the smallest step {decide.fmt(rs.step)} exceeds a tenth of the tolerance"
+             if coarse else f"{rs.distinct} distinct values, smallest step {decide.fmt(rs.step)}"),
+            statistic=_finite(rs.step),
+            extra={"distinct": rs.distinct, "step_over_tenth_tolerance":
+                   _finite(rs.step_over_tenth_tolerance)}))
+    except StatsError as err:
+        out.append(_diag_na("resolution", "measurement resolution", "all", err))
+    out.extend(_companions(spec, ch, d))
+    return out
+
+
+def _companions(spec: Spec, ch: Characteristic, d: _CharDraft) -> list[DiagnosticResult]:
+    """Rank-test companions of the t-tests, for sensitivity; flagged when they disagree."""
+    alpha = spec.alpha
+    out = []
+    drafts = {dr.result.check: dr for dr in d.checks}
+    for check in ("target", "shift"):
+        dr = drafts.get(check)
+        if dr is None or dr.result.p_value is None:
+            continue
+        res = dr.result
+        alt = res.alternative if res.margin is None else "two-sided"
+        try:
+            if check == "target":
+                rt = nonparametric.wilcoxon_signed_rank(d.data.new - ch.target, alternative=alt)
+                group = "new"
+            elif d.data.pairs is not None:
+                pv = d.data.pairs
+                rt = nonparametric.wilcoxon_signed_rank(pv.new - pv.old, alternative=alt)
+                group = "differences"
+            else:
+                if d.data.old is None:
+                    continue
+                rt = nonparametric.mann_whitney(d.data.old, d.data.new, alternative=alt)
+                group = "old vs new"
+        except (StatsError, ValueError) as err:
+            out.append(_diag_na("rank companion", f"rank test for the {check}", check, err))
+            continue
+        disagree = False
+        if res.margin is None:
+            disagree = (rt.pvalue < alpha) != (res.p_value < alpha)
+        ties = f", {rt.n_zero} zero difference(s)" if getattr(rt, "n_zero", 0) else ""
+        out.append(DiagnosticResult(
+            "rank companion", rt.method, group, disagree,
+            (f"{check}: the rank test disagrees with the t-test ({decide.p_eq(rt.pvalue)})"
+             if disagree else f"{check}: rank test {decide.p_eq(rt.pvalue)}{ties}"),
+            statistic=rt.statistic, p_value=rt.pvalue))
+    dr = drafts.get("spread")
+    usable = d.data.pairs is None and d.data.old is not None
+    if dr is not None and usable and dr.result.p_value is not None:
+        try:
+            other_bf = ch.checks.spread.method != "brown-forsythe"
+            o = (spread.brown_forsythe(d.data.old, d.data.new, alternative="greater") if other_bf
+                 else spread.f_test(d.data.old, d.data.new, alternative="greater"))
+            disagree = (o.pvalue < alpha) != (dr.result.p_value < alpha)
+            out.append(DiagnosticResult(
+                "spread companion", o.method, "old vs new", disagree,
+                (f"the {o.method} disagrees with the deciding spread test "
+                 f"({decide.p_eq(o.pvalue)})" if disagree else
+                 f"{o.method} {decide.p_eq(o.pvalue)}"),
+                statistic=o.statistic, p_value=o.pvalue))
+        except StatsError as err:
+            out.append(_diag_na("spread companion", "spread companion", "old vs new", err))
+    return out
+
+
+# --- multiplicity and finishing ---------------------------------------------------------------
+
+
+def _adjust(drafts: list[_CharDraft], method: str) -> None:
+    family = [dr for d in drafts for dr in d.checks if dr.finish is not None]
+    if not family:
+        return
+    ps = np.array([dr.family_p for dr in family])
+    adj = multiplicity.adjust(ps, method) if method != "none" else ps
+    for dr, pa in zip(family, adj, strict=True):
+        v = dr.finish(float(pa), method != "none")
+        dr.harm_shown = v.outcome == "HOLD"
+        from dataclasses import replace
+
+        dr.result = replace(dr.result, outcome=v.outcome, reason=v.reason,
+                            p_adjusted=float(pa) if method != "none" else None)
+        dr.finish = None
+
+
+def _finish(spec: Spec, d: _CharDraft) -> CharacteristicResult:
+    from dataclasses import replace
+
+    checks = []
+    so_far = []
+    for dr in d.checks:
+        res = dr.result
+        if d.shortfall is not None:
+            so_far.append(f"{res.check} so far: {res.reason}")
+            v = decide.while_pending(decide.Verdict(res.outcome, res.reason),
+                                     harm_shown=dr.harm_shown, shortfall=d.shortfall)
+            res = replace(res, outcome=v.outcome, reason=v.reason)
+        checks.append(res)
+    if d.shortfall is not None and not checks:
+        checks.append(CheckResult(check="sufficiency", method="count against min_n",
+                                  hypothesis="the planned sample size is reached",
+                                  alternative=None, margin=None, outcome="PENDING",
+                                  reason=d.shortfall))
+    review = []
+    for dg in d.diagnostics:
+        if dg.flag:
+            review.append(f"review: {d.ch.name} ({dg.group}): {dg.note}")
+    for res in checks:
+        if (res.outcome == "PASS" and res.planned_n is not None and res.extra
+                and res.extra.get("n_new") is not None and res.extra["n_new"] < res.planned_n):
+            review.append(
+                f"review: {d.ch.name}: the {res.check} PASS rests on n = {res.extra['n_new']} "
+                f"per process, fewer than the {res.planned_n} the plan's power of "
+                f"{spec.plan.power:g} asks for")
+        if res.check == "capability" and res.outcome == "PASS":
+            lb = res.extra.get("cpk_lower_95")
+            if lb is not None and lb < res.extra["min_cpk"]:
+                review.append(
+                    f"review: {d.ch.name}: Cpk meets {decide.fmt(res.extra['min_cpk'])} but its "
+                    f"lower 95% bound {decide.fmt(lb, 3)} does not")
+    if d.unmatched:
+        review.append(f"review: {d.ch.name}: {len(d.unmatched)} pair key(s) with one side only "
+                      f"left out of the paired analysis: {', '.join(map(str, d.unmatched[:10]))}")
+    outcome = decide.combine(c.outcome for c in checks)
+    if outcome == "PENDING" and d.shortfall is not None:
+        reasons = (d.shortfall, *so_far)
+    else:
+        reasons = tuple(f"{c.check}: {c.reason}" for c in checks if c.outcome == outcome) or (
+            "no checks",)
+    return CharacteristicResult(
+        name=d.ch.name, unit=d.ch.unit, decision=outcome, reasons=reasons,
+        review=tuple(review), processes=d.processes, checks=tuple(checks),
+        diagnostics=tuple(d.diagnostics), spec=d.ch, pairs=d.pairs, unmatched_pairs=d.unmatched,
+    )

@@ -1,0 +1,148 @@
+"""Evaluation -> the JSON result (``format: verify-result/1``).
+
+Floats are written at full precision (Python's shortest round-trip repr). JSON has no infinity:
+an unbounded end of a one-sided interval is written as null. The document is documented in the
+README ("The JSON result").
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import numbers
+from collections.abc import Mapping
+from pathlib import Path
+
+import numpy as np
+
+from ..model import CheckResult, DiagnosticResult, Evaluation
+
+FORMAT = "verify-result/1"
+
+
+def _num(x):
+    if x is None or isinstance(x, (bool, np.bool_)):
+        return None if x is None else bool(x)
+    if isinstance(x, numbers.Integral):
+        return int(x)
+    if isinstance(x, numbers.Real):
+        f = float(x)
+        return f if math.isfinite(f) else None
+    return str(x)
+
+
+def _clean(obj):
+    if isinstance(obj, Mapping):
+        return {str(k): _clean(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_clean(v) for v in obj]
+    if isinstance(obj, str) or obj is None:
+        return obj
+    return _num(obj)
+
+
+def _check(c: CheckResult) -> dict:
+    d = {
+        "check": c.check,
+        "method": c.method,
+        "hypothesis": c.hypothesis,
+        "design": c.design,
+        "alternative": c.alternative,
+        "margin": list(c.margin) if c.margin is not None else None,
+        "estimate": c.estimate,
+        "standard_error": c.standard_error,
+        "statistic": c.statistic,
+        "df": c.df,
+        "p_value": c.p_value,
+        "p_adjusted": c.p_adjusted,
+        "ci_low": c.ci_low,
+        "ci_high": c.ci_high,
+        "ci_level": c.ci_level,
+        "critical_value": c.critical_value,
+        "outcome": c.outcome,
+        "reason": c.reason,
+    }
+    if c.margin is not None:
+        d.update(p_lower=c.p_lower, p_upper=c.p_upper, statistic_lower=c.statistic_lower,
+                 statistic_upper=c.statistic_upper)
+    d.update(power=c.power, power_note=c.power_note, detectable_shift=c.detectable_shift,
+             planned_n=c.planned_n, extra=dict(c.extra))
+    return d
+
+
+def _diag(g: DiagnosticResult) -> dict:
+    return {
+        "name": g.name, "method": g.method, "group": g.group, "statistic": g.statistic,
+        "p_value": g.p_value, "flag": g.flag, "note": g.note, "extra": dict(g.extra),
+    }
+
+
+def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
+    """The JSON result as a dict. ``workbook`` adds {path, sha256} of the workbook written."""
+    spec = ev.spec
+    run = ev.run
+    doc = {
+        "format": FORMAT,
+        "title": spec.title,
+        "change_id": spec.change_id,
+        "decision": ev.decision,
+        "final": ev.final,
+        "monitoring": ev.monitoring,
+        "reasons": list(ev.reasons),
+        "review": list(ev.review),
+        "spec": {"path": str(spec.path), "resolved_path": str(Path(spec.path).resolve()),
+                 "sha256": spec.sha256, "text": spec.text},
+        "data_files": [
+            {
+                "path": f.path, "resolved_path": f.resolved_path, "sha256": f.sha256,
+                "size": f.size, "encoding": f.encoding, "sheet": f.sheet,
+                "rows_read": f.rows_read, "rows_used": f.rows_used,
+                "rows_excluded": f.rows_excluded,
+                "exclusions": [{"reason": r, "count": n} for r, n in f.exclusions],
+            }
+            for f in ev.measurements.files
+        ],
+        "unassigned_lots": list(ev.measurements.unassigned_lots),
+        "data_notes": list(ev.measurements.notes),
+        "tool": {"name": "verify", "version": run.tool_version, "git_commit": run.git_commit},
+        "versions": dict(run.versions),
+        "run": {
+            "id": run.run_id, "started": run.started, "finished": run.finished,
+            "user": run.user, "host": run.host, "command": run.command,
+        },
+        "parameters": [
+            {"key": k, "value": v, "default": bool(dflt)} for k, v, dflt in spec.resolved
+        ],
+        "rules": list(ev.rules),
+        "caution": ev.caution,
+        "characteristics": [
+            {
+                "name": c.name,
+                "unit": c.unit,
+                "decision": c.decision,
+                "reasons": list(c.reasons),
+                "review": list(c.review),
+                "target": c.spec.target,
+                "limits": list(c.spec.limits) if c.spec.limits is not None else None,
+                "side": c.spec.side,
+                "processes": {
+                    p: {"n": s.n, "n_parts": s.n_parts, "mean": s.mean, "sd": s.sd,
+                        "min": s.minimum, "max": s.maximum, "lots": list(s.lots)}
+                    for p, s in c.processes.items()
+                },
+                "pairs": c.pairs,
+                "unmatched_pairs": list(c.unmatched_pairs),
+                "checks": [_check(k) for k in c.checks],
+                "diagnostics": [_diag(g) for g in c.diagnostics],
+            }
+            for c in ev.characteristics
+        ],
+    }
+    if workbook is not None:
+        doc["workbook"] = dict(workbook)
+    return _clean(doc)
+
+
+def dumps(doc: dict) -> str:
+    """Serialise with full-precision floats; refuses NaN (a NaN must never reach a report)."""
+    return json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) + "\n"

@@ -1,0 +1,140 @@
+"""Where things sit in the workbook: sheet names and the measurements sheet's row blocks.
+
+The measurements sheet and the recheck sheet's live formulas must agree on which rows hold
+which values, so both read the layout from here. Rows are 1-based Excel row numbers; the header
+is row 1 of each measurements sheet.
+
+Ordering of the measurements sheet: by characteristic (spec order), then process (old, new,
+then rows in neither process), then used rows before excluded ones; within used rows of a paired
+characteristic, matched pairs first sorted by pair key (so the old and new blocks align row by
+row), then unmatched ones; otherwise production order.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from ..model import Evaluation
+
+SUMMARY_SHEET = "Decision"
+MEASUREMENTS_SHEET = "Measurements"
+SPEC_SHEET = "Spec text"
+AUDIT_SHEET = "Audit trail"
+RECHECK_SHEET = "Recheck"
+EXCEL_MAX_ROWS = 1_048_576
+
+# Column order of the measurements sheet (header texts) and their table keys.
+MEASUREMENT_HEADERS = (
+    ("characteristic", "Characteristic"),
+    ("process", "Process"),
+    ("lot", "Lot"),
+    ("pair", "Pair key"),
+    ("value", "Value"),
+    ("used", "Used"),
+    ("exclusion_reason", "Exclusion reason"),
+    ("source_file", "Source file"),
+    ("source_row", "Source row"),
+    ("order", "Production order"),
+)
+VALUE_COLUMN = "E"  # the column letter of "Value" in MEASUREMENT_HEADERS
+LOT_COLUMN = "C"
+
+
+@dataclass(frozen=True)
+class Block:
+    """A contiguous run of rows on one measurements sheet."""
+
+    sheet: str
+    first: int
+    last: int
+
+    @property
+    def count(self) -> int:
+        return self.last - self.first + 1
+
+    def ref(self, column: str = VALUE_COLUMN) -> str:
+        """An absolute reference such as ``'Measurements'!$E$2:$E$41``."""
+        return f"'{self.sheet}'!${column}${self.first}:${column}${self.last}"
+
+
+@dataclass(frozen=True)
+class MeasurementLayout:
+    table: pd.DataFrame  # the rows in sheet order, with a "used" column and "sheet"/"row" columns
+    sheets: tuple[str, ...]  # the measurements sheet(s), in order
+    used: dict  # (characteristic, process) -> Block of used rows (None when they span sheets)
+    paired: dict  # characteristic -> (Block old, Block new) of matched pairs, aligned by key
+
+
+def _sheet_name(i: int) -> str:
+    return MEASUREMENTS_SHEET if i == 0 else f"{MEASUREMENTS_SHEET} ({i + 1})"
+
+
+def measurement_layout(evaluation: Evaluation, *, rows_per_sheet: int = EXCEL_MAX_ROWS - 1):
+    """Order the tidy table for the sheet and find the blocks the recheck formulas use.
+
+    ``rows_per_sheet`` data rows go on each sheet (Excel's limit less the header); beyond it the
+    table continues on ``Measurements (2)`` and so on, never silently cut.
+    """
+    t = evaluation.measurements.table.copy()
+    t["used"] = ~t["excluded"].astype(bool)
+    char_rank = {c.name: i for i, c in enumerate(evaluation.spec.characteristics)}
+    proc_rank = {"old": 0, "new": 1}
+    t["_c"] = t["characteristic"].map(char_rank).fillna(len(char_rank)).astype(int)
+    t["_p"] = t["process"].map(proc_rank).fillna(2).astype(int)
+    t["_u"] = (~t["used"]).astype(int)
+    # matched-pair rank: 0 for matched pairs (sorted by key), 1 otherwise
+    t["_m"] = 1
+    t["_k"] = ""
+    for c in evaluation.characteristics:
+        shift = c.spec.checks.shift
+        if shift is None or shift.design != "paired":
+            continue
+        sel = (t["characteristic"] == c.name) & t["used"] & t["process"].isin(["old", "new"])
+        sub = t.loc[sel]
+        counts = sub.groupby("pair")["process"].nunique()
+        matched = set(counts.index[counts == 2])
+        is_matched = sel & t["pair"].isin(matched)
+        t.loc[is_matched, "_m"] = 0
+        t.loc[is_matched, "_k"] = t.loc[is_matched, "pair"].astype(str)
+    t = t.sort_values(["_c", "_p", "_u", "_m", "_k", "order", "source_row"], kind="stable")
+    t = t.drop(columns=["_c", "_p", "_u", "_m", "_k"]).reset_index(drop=True)
+
+    n = len(t)
+    idx = np.arange(n)
+    sheet_no = idx // rows_per_sheet
+    t["sheet"] = [_sheet_name(i) for i in sheet_no] if n else []
+    t["row"] = idx % rows_per_sheet + 2
+    sheets = tuple(_sheet_name(i) for i in range(int(sheet_no[-1]) + 1)) if n else (
+        MEASUREMENTS_SHEET,
+    )
+
+    def block(mask) -> Block | None:
+        rows = t.loc[mask]
+        if rows.empty or rows["sheet"].nunique() != 1:
+            return None
+        first, last = int(rows["row"].iloc[0]), int(rows["row"].iloc[-1])
+        if last - first + 1 != len(rows):
+            return None
+        return Block(rows["sheet"].iloc[0], first, last)
+
+    used: dict = {}
+    paired: dict = {}
+    for c in evaluation.characteristics:
+        for p in ("old", "new"):
+            used[(c.name, p)] = block(
+                (t["characteristic"] == c.name) & (t["process"] == p) & t["used"]
+            )
+        shift = c.spec.checks.shift
+        if shift is not None and shift.design == "paired":
+            sel = (t["characteristic"] == c.name) & t["used"]
+            keys = t.loc[sel & (t["process"] == "old"), "pair"]
+            keys_new = t.loc[sel & (t["process"] == "new"), "pair"]
+            matched = set(keys) & set(keys_new)
+            bo = block(sel & (t["process"] == "old") & t["pair"].isin(matched))
+            bn = block(sel & (t["process"] == "new") & t["pair"].isin(matched))
+            if bo is not None and bn is not None and bo.count == bn.count:
+                paired[c.name] = (bo, bn)
+    return MeasurementLayout(table=t, sheets=sheets, used=used, paired=paired)

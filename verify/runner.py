@@ -1,0 +1,99 @@
+"""One run of one spec: load, evaluate, write the workbook and the JSON result atomically.
+
+Every output is written to a temporary file in the destination folder and renamed over the
+target (``os.replace`` is atomic on one file system), so a failed or killed run never leaves half
+a file and never destroys the previous result.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import hashlib
+import os
+import tempfile
+import zipfile
+from dataclasses import dataclass
+from pathlib import Path
+
+from .model import Evaluation
+
+
+@dataclass(frozen=True)
+class Outputs:
+    workbook: Path
+    result: Path
+    workbook_sha256: str
+
+
+def prepare(spec_path: str | Path, *, final: bool = False, command: str | None = None,
+            text: str | None = None) -> Evaluation:
+    """Load the spec and its data and evaluate them; raises VerifyError on bad input."""
+    from .audit import run_info, utc_now
+    from .data import load_measurements
+    from .evaluate import evaluate
+    from .spec import load_spec
+
+    started = utc_now()
+    spec = load_spec(spec_path, text=text)
+    measurements = load_measurements(spec)
+    run = run_info(spec, measurements, command=command, started=started)
+    return evaluate(spec, measurements, final=final, run=run)
+
+
+@contextlib.contextmanager
+def atomic_path(target: Path):
+    """Yield a temporary path beside ``target``; rename it over ``target`` on success only."""
+    target.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".part", dir=target.parent)
+    os.close(fd)
+    tmp_path = Path(tmp)
+    try:
+        yield tmp_path
+        with open(tmp_path, "rb") as f:
+            os.fsync(f.fileno())
+        os.replace(tmp_path, target)
+    finally:
+        with contextlib.suppress(FileNotFoundError):
+            tmp_path.unlink()
+
+
+def write_text_atomic(target: Path, text: str) -> None:
+    with atomic_path(target) as tmp:
+        tmp.write_text(text, encoding="utf-8")
+
+
+def _normalise_zip(path: Path, epoch: int) -> None:
+    """Give every zip member the same timestamp so that reruns are byte-identical."""
+    import time
+
+    stamp = time.gmtime(max(epoch, 315532800))[:6]  # zip cannot store dates before 1980
+    tmp = path.with_suffix(path.suffix + ".norm")
+    with zipfile.ZipFile(path) as src, zipfile.ZipFile(tmp, "w", zipfile.ZIP_DEFLATED) as dst:
+        for info in src.infolist():
+            zi = zipfile.ZipInfo(info.filename, date_time=stamp)
+            zi.compress_type = zipfile.ZIP_DEFLATED
+            zi.external_attr = 0o600 << 16
+            dst.writestr(zi, src.read(info.filename))
+    os.replace(tmp, path)
+
+
+def write_outputs(ev: Evaluation, workbook: Path, result: Path) -> Outputs:
+    """Write the workbook and the JSON result (which records the workbook's sha256)."""
+    from .audit import sha256_file, source_date_epoch
+    from .report.json_result import dumps, result_dict
+    from .report.workbook import write_workbook
+
+    record = dumps(result_dict(ev))
+    with atomic_path(workbook) as tmp:
+        write_workbook(ev, tmp, record_json=record)
+        epoch = source_date_epoch()
+        if epoch is not None:
+            _normalise_zip(tmp, epoch)
+        digest = sha256_file(tmp)
+    doc = result_dict(ev, workbook={"path": str(workbook), "sha256": digest})
+    write_text_atomic(result, dumps(doc))
+    return Outputs(workbook=workbook, result=result, workbook_sha256=digest)
+
+
+def sha256_text(text: str) -> str:
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()
