@@ -46,6 +46,9 @@ def atomic_path(target: Path):
     target.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".part", dir=target.parent)
     os.close(fd)
+    umask = os.umask(0)
+    os.umask(umask)
+    os.chmod(tmp, 0o666 & ~umask)  # mkstemp creates 0600; a report is as readable as any file
     tmp_path = Path(tmp)
     try:
         yield tmp_path

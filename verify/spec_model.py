@@ -118,6 +118,7 @@ class Exclusion:
     lot: str | None = None
     row: int | None = None
     line: int | None = None  # line in the spec, for messages
+    characteristic: str | None = None  # only this characteristic's measurements; None: all
 
 
 @dataclass(frozen=True)

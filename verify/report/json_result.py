@@ -63,17 +63,32 @@ def _check(c: CheckResult) -> dict:
         "reason": c.reason,
     }
     if c.margin is not None:
-        d.update(p_lower=c.p_lower, p_upper=c.p_upper, statistic_lower=c.statistic_lower,
-                 statistic_upper=c.statistic_upper)
-    d.update(power=c.power, power_note=c.power_note, detectable_shift=c.detectable_shift,
-             planned_n=c.planned_n, extra=dict(c.extra))
+        d.update(
+            p_lower=c.p_lower,
+            p_upper=c.p_upper,
+            statistic_lower=c.statistic_lower,
+            statistic_upper=c.statistic_upper,
+        )
+    d.update(
+        power=c.power,
+        power_note=c.power_note,
+        detectable_shift=c.detectable_shift,
+        planned_n=c.planned_n,
+        extra=dict(c.extra),
+    )
     return d
 
 
 def _diag(g: DiagnosticResult) -> dict:
     return {
-        "name": g.name, "method": g.method, "group": g.group, "statistic": g.statistic,
-        "p_value": g.p_value, "flag": g.flag, "note": g.note, "extra": dict(g.extra),
+        "name": g.name,
+        "method": g.method,
+        "group": g.group,
+        "statistic": g.statistic,
+        "p_value": g.p_value,
+        "flag": g.flag,
+        "note": g.note,
+        "extra": dict(g.extra),
     }
 
 
@@ -90,13 +105,22 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
         "monitoring": ev.monitoring,
         "reasons": list(ev.reasons),
         "review": list(ev.review),
-        "spec": {"path": str(spec.path), "resolved_path": str(Path(spec.path).resolve()),
-                 "sha256": spec.sha256, "text": spec.text},
+        "spec": {
+            "path": str(spec.path),
+            "resolved_path": str(Path(spec.path).resolve()),
+            "sha256": spec.sha256,
+            "text": spec.text,
+        },
         "data_files": [
             {
-                "path": f.path, "resolved_path": f.resolved_path, "sha256": f.sha256,
-                "size": f.size, "encoding": f.encoding, "sheet": f.sheet,
-                "rows_read": f.rows_read, "rows_used": f.rows_used,
+                "path": f.path,
+                "resolved_path": f.resolved_path,
+                "sha256": f.sha256,
+                "size": f.size,
+                "encoding": f.encoding,
+                "sheet": f.sheet,
+                "rows_read": f.rows_read,
+                "rows_used": f.rows_used,
                 "rows_excluded": f.rows_excluded,
                 "exclusions": [{"reason": r, "count": n} for r, n in f.exclusions],
             }
@@ -107,8 +131,12 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
         "tool": {"name": "verify", "version": run.tool_version, "git_commit": run.git_commit},
         "versions": dict(run.versions),
         "run": {
-            "id": run.run_id, "started": run.started, "finished": run.finished,
-            "user": run.user, "host": run.host, "command": run.command,
+            "id": run.run_id,
+            "started": run.started,
+            "finished": run.finished,
+            "user": run.user,
+            "host": run.host,
+            "command": run.command,
         },
         "parameters": [
             {"key": k, "value": v, "default": bool(dflt)} for k, v, dflt in spec.resolved
@@ -126,8 +154,15 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
                 "limits": list(c.spec.limits) if c.spec.limits is not None else None,
                 "side": c.spec.side,
                 "processes": {
-                    p: {"n": s.n, "n_parts": s.n_parts, "mean": s.mean, "sd": s.sd,
-                        "min": s.minimum, "max": s.maximum, "lots": list(s.lots)}
+                    p: {
+                        "n": s.n,
+                        "n_parts": s.n_parts,
+                        "mean": s.mean,
+                        "sd": s.sd,
+                        "min": s.minimum,
+                        "max": s.maximum,
+                        "lots": list(s.lots),
+                    }
                     for p, s in c.processes.items()
                 },
                 "pairs": c.pairs,

@@ -1,0 +1,254 @@
+"""Command line: parse arguments, call the library, map errors to exit statuses.
+
+Each subcommand is one ``add_<name>`` function (its arguments and help, ending with an example)
+and one ``cmd_<name>`` function (the work); :data:`COMMANDS` lists them for the dispatcher.
+Heavy libraries (numpy, scipy, pandas, openpyxl) are imported inside the command functions,
+so ``verify --help`` and argument errors stay fast.
+
+Exit statuses: 0 success; 2 invalid input (any :class:`~verify.errors.VerifyError`, reported
+on stderr; argparse's own usage errors are 2 as well).
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from collections.abc import Callable, Sequence
+
+from . import __version__
+from .cli_run import add_replay, add_run, cmd_replay, cmd_run
+from .errors import VerifyError
+
+EXIT_OK = 0
+EXIT_INVALID = 2
+
+
+# -- verify check -----------------------------------------------------------------------------
+
+
+def add_check(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
+    p = sub.add_parser(
+        "check",
+        help="validate specs and their data; print what would run",
+        description=(
+            "Validate each spec and its data file, and print per characteristic what would "
+            "run: the checks, design and margins, n and lots per process, pairs, exclusions. "
+            "Every spec is checked; all problems are printed together. Nothing is written."
+        ),
+        epilog="example:\n  verify check specs/\n  verify check specs/bushing-supplier.yaml",
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    p.add_argument("paths", nargs="+", metavar="SPEC|DIR",
+                   help="spec files, or folders searched for *.yaml and *.yml")
+    return p
+
+
+def cmd_check(args: argparse.Namespace) -> int:
+    from .data import load_measurements
+    from .spec import find_specs, load_spec
+
+    paths = find_specs(args.paths)
+    failed: list[tuple[str, VerifyError]] = []
+    for n, path in enumerate(paths):
+        try:
+            spec = load_spec(path)
+            measurements = load_measurements(spec)
+        except VerifyError as exc:
+            failed.append((str(path), exc))
+            continue
+        if n:
+            print()
+        print("\n".join(describe_plan(spec, measurements)))
+    if failed:
+        for path, exc in failed:
+            print(f"{path}: invalid\n{_indent(exc.report())}", file=sys.stderr)
+        valid = len(paths) - len(failed)
+        print(f"{len(failed)} of {len(paths)} specs invalid ({valid} valid)", file=sys.stderr)
+        return EXIT_INVALID
+    print(f"\n{len(paths)} spec{'s' if len(paths) != 1 else ''} valid")
+    return EXIT_OK
+
+
+def _indent(text: str) -> str:
+    return "\n".join("  " + line for line in text.splitlines())
+
+
+def describe_plan(spec, measurements) -> list[str]:
+    """What ``verify run`` would do with a valid spec and its data, as lines of text."""
+    from .data import analysis_values, paired_values
+
+    lines = [f"{spec.path}: valid", f"  {spec.title}"
+             + (f"  [{spec.change_id}]" if spec.change_id else "")]
+    ds = spec.data
+    for f in measurements.files:
+        kind = f"sheet {f.sheet!r}" if f.sheet else f.encoding
+        lines.append(f"  data: {f.path} ({ds.layout} layout, {kind}): {f.rows_read} rows read, "
+                     f"{f.rows_used} used, {f.rows_excluded} without a used measurement")
+    if ds.process is not None:
+        lines.append(f"  old/new by column {ds.process!r}: old = {_names(ds.old)}, "
+                     f"new = {_names(ds.new)}")
+    else:
+        lines.append(f"  old/new by lot: old = {_names(spec.lots.old)}, "
+                     f"new = {_names(spec.lots.new)}")
+    settings = [f"alpha {spec.alpha:g}", f"unit of analysis: {spec.unit_of_analysis}",
+                f"multiplicity: {spec.multiplicity}"]
+    if spec.min_n is not None:
+        settings.append(f"min_n {spec.min_n}")
+    lines.append("  " + ", ".join(settings))
+    counts = {r: n for f in measurements.files for r, n in f.exclusions}
+    for e in spec.exclude:
+        what = f"row {e.row}" if e.row is not None else f"lot {e.lot}"
+        if e.characteristic:
+            what += f" ({e.characteristic} only)"
+        n = counts.get(f"excluded by spec: {e.reason} (by {e.by})", 0)
+        lines.append(f"  exclude {what}: {e.reason} (by {e.by}); {_count(n, 'measurement')}")
+    for reason, n in counts.items():
+        if not reason.startswith("excluded by spec: "):
+            lines.append(f"  left out: {_count(n, 'measurement')}, {reason}")
+    for note in measurements.notes:
+        lines.append(f"  note: {note}")
+    for c in spec.characteristics:
+        head = f"  {c.name} [{c.unit}]"
+        facts = []
+        if c.target is not None:
+            facts.append(f"target {_num(c.target)}")
+        if c.limits is not None:
+            facts.append(f"limits [{_num(c.lower)}, {_num(c.upper)}]")
+        facts.append(f"side {c.side}")
+        lines.append(head + ": " + ", ".join(facts))
+        for proc in ("old", "new"):
+            av = analysis_values(measurements, spec, c.name, proc)
+            lots = list(dict.fromkeys(av.lots))
+            n = (f"n {len(av.values)} lots ({av.n_parts} parts)" if av.unit == "lot"
+                 else f"n {len(av.values)}")
+            short = (f"; fewer than min_n {spec.min_n}" if spec.min_n is not None
+                     and len(av.values) < spec.min_n else "")
+            lines.append(f"    {proc}: {n} in {len(lots)} lot{'s' if len(lots) != 1 else ''} "
+                         f"({_names(lots, 6, quote=False)}){short}")
+        ch = c.checks
+        if ch.shift is not None and ch.shift.design == "paired":
+            pv = paired_values(measurements, spec, c.name)
+            extra = f" ({_names(pv.unmatched, 5, quote=False)})" if pv.unmatched else ""
+            lines.append(f"    pairs: {len(pv.keys)} matched, {len(pv.unmatched)} unmatched"
+                         f"{extra}")
+        for text in _check_words(c):
+            lines.append(f"    check {text}")
+    return lines
+
+
+def _check_words(c) -> list[str]:
+    ch, out = c.checks, []
+    if ch.target is not None:
+        m = ch.target.margin
+        out.append(f"target: new mean within {_margin(m)} {c.unit} of {_num(c.target)} "
+                   "(equivalence, TOST)" if m else
+                   f"target: new mean against {_num(c.target)} (one-sample t-test, {c.side})")
+    if ch.shift is not None:
+        m = ch.shift.margin
+        out.append(f"shift: new minus old within {_margin(m)} {c.unit} (equivalence, TOST, "
+                   f"{ch.shift.design})" if m else
+                   f"shift: new against old (difference test, {ch.shift.design}, {c.side})")
+    if ch.spread is not None:
+        method = "F-test" if ch.spread.method == "f" else "Brown-Forsythe"
+        out.append(f"spread: new spread not larger than old ({method}, one-sided)")
+    if ch.capability is not None:
+        how = ("within-lot sigma" if ch.capability.subgroup == "lot"
+               else "moving-range sigma")
+        out.append(f"capability: new Cpk at least {ch.capability.min_cpk} ({how})")
+    if not out:
+        out.append("none")
+    return out
+
+
+def _margin(m) -> str:
+    core = f"{_num(m.low)}..+{_num(m.high)}"
+    return core if m.text.startswith("[") or "%" not in m.text else f"{core} ({m.text})"
+
+
+def _num(v) -> str:
+    from .spec import _fmt
+
+    return "none" if v is None else _fmt(v)
+
+
+def _count(n: int, word: str) -> str:
+    return f"{n} {word}{'s' if n != 1 else ''}"
+
+
+def _names(items, limit: int = 10, *, quote: bool = True) -> str:
+    items = list(items)
+    shown = [repr(x) if quote else str(x) for x in items[:limit]]
+    more = f", ... ({len(items)} in all)" if len(items) > limit else ""
+    return ", ".join(shown) + more if items else "none"
+
+
+# -- verify schema ----------------------------------------------------------------------------
+
+
+def add_schema(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
+    return sub.add_parser(
+        "schema",
+        help="print the JSON Schema of the spec format",
+        description=(
+            "Print the JSON Schema of the spec format verify/1. Editors use it to complete and "
+            "check spec files: the sample specs start with the line "
+            "'# yaml-language-server: $schema=verify-spec.schema.json'."
+        ),
+        epilog="example:\n  verify schema > specs/verify-spec.schema.json",
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+
+
+def cmd_schema(args: argparse.Namespace) -> int:
+    from .schema import schema_text
+
+    sys.stdout.write(schema_text())
+    return EXIT_OK
+
+
+# -- dispatcher -------------------------------------------------------------------------------
+
+# name -> (add the subparser, run the command); further commands register here
+COMMANDS: dict[str, tuple[Callable, Callable[[argparse.Namespace], int]]] = {
+    "check": (add_check, cmd_check),
+    "schema": (add_schema, cmd_schema),
+    "run": (add_run, cmd_run),
+    "replay": (add_replay, cmd_replay),
+}
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="verify",
+        description=(
+            "Evidence for a manufacturing process change: from lot measurements, show that "
+            "each characteristic is still on target and has not shifted or spread. The "
+            "results support, and never replace, the engineering and quality sign-off."
+        ),
+        epilog="example:\n  verify check specs/",
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    parser.add_argument("--version", action="version", version=f"verify {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
+    for add, run in COMMANDS.values():
+        p = add(sub)
+        p.set_defaults(func=run)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run ``verify`` with ``argv`` (default ``sys.argv[1:]``); return the exit status."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        return args.func(args)
+    except VerifyError as exc:
+        print(exc.report(), file=sys.stderr)
+        return exc.exit_code
+    except KeyboardInterrupt:
+        print("interrupted", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":  # pragma: no cover
+    raise SystemExit(main())

@@ -1,0 +1,846 @@
+"""Read a spec's data file into one tidy table of measurements, strictly.
+
+:func:`load_measurements` reads CSV/TSV (delimiter sniffed from the header line among comma,
+semicolon and tab; UTF-8 with or without BOM, UTF-16 with BOM, Latin-1 as a reported fallback)
+or xlsx (the named sheet, else the first), in the wide layout (one column per characteristic)
+or the long layout (``data.characteristic`` + ``data.value``), and returns a
+:class:`~verify.model.Measurements` with a row per measurement.
+
+Nothing is guessed: a cell that is neither a number (with the declared decimal separator) nor a
+declared missing text, an infinite value, a missing column, a process value that is neither old
+nor new, a lot in both lots lists, a duplicate pair key or an exclusion that matches nothing is
+a :class:`~verify.errors.DataError` naming file, row and column; all such problems of a file are
+reported together. Missing cells are excluded ("not measured") and counted, never read as zero.
+Cells in rows that are left out anyway (excluded by the spec, a lot in neither list, a process
+value ignored by ``data.ignore_other``) are not checked; their value is kept where it reads as
+a number, else NaN.
+
+Source rows are counted as a spreadsheet user counts them: the header is row 1, the first data
+row is row 2 (blank rows count but give no measurements).
+"""
+
+from __future__ import annotations
+
+import codecs
+import csv
+import datetime as _dt
+import difflib
+import hashlib
+import io
+import os
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from fnmatch import fnmatchcase
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from .errors import DataError, DataIssue
+from .model import MEASUREMENT_COLUMNS, DataFileInfo, Measurements
+from .spec_model import Spec
+
+MAX_REPORTED = 20  # cells reported per kind of problem before "and N more"
+NOT_MEASURED = "not measured"
+NEITHER_LIST = "lot in neither list"
+DELIMITERS = (",", ";", "\t")
+
+
+@dataclass(frozen=True)
+class AnalysisValues:
+    """The values one check analyses for one characteristic and process.
+
+    ``values`` are in production order; for ``unit_of_analysis: lot`` they are lot means, one
+    per lot in order of the lot's first measurement. ``lots`` gives the lot of each value,
+    ``unit`` is "part" or "lot", ``n_parts`` the measurements behind the values.
+    """
+
+    values: np.ndarray
+    lots: tuple[str, ...]
+    unit: str
+    n_parts: int
+
+
+@dataclass(frozen=True)
+class PairedValues:
+    """Old and new values aligned by pair key (used measurements only).
+
+    ``unmatched`` holds the pair keys with a used measurement on one side only; they are left
+    out of the paired analysis.
+    """
+
+    keys: tuple[str, ...]
+    old: np.ndarray
+    new: np.ndarray
+    unmatched: tuple[str, ...]
+
+
+@dataclass
+class _Sheet:
+    """A data file read into cells: one row per non-blank data row."""
+
+    header: list[str]
+    cells: pd.DataFrame  # columns 0..k-1; str (text files) or python objects (xlsx)
+    rows: np.ndarray  # source row number of each row of ``cells``
+    rows_read: int
+    encoding: str
+    typed: bool  # xlsx: cells hold numbers, dates, booleans, text or None
+    sheet: str | None = None
+    notes: list[str] = field(default_factory=list)
+
+
+# -- public API -------------------------------------------------------------------------------
+
+
+def load_measurements(spec: Spec) -> Measurements:
+    """Read the spec's data file into the tidy measurements table.
+
+    Parameters
+    ----------
+    spec
+        A spec from :func:`verify.spec.load_spec`.
+
+    Returns
+    -------
+    Measurements
+        ``table`` with exactly :data:`~verify.model.MEASUREMENT_COLUMNS`, ordered by
+        characteristic (spec order) then production order; per-file information; the lots in
+        neither lots list; and notes (e.g. the file was read as Latin-1).
+
+    Raises
+    ------
+    DataError
+        Every problem found in the file, each naming file, row and column.
+
+    Examples
+    --------
+    >>> from verify.spec import load_spec
+    >>> m = load_measurements(load_spec("specs/bushing-supplier.yaml"))  # doctest: +SKIP
+    >>> m.table.columns.tolist() == list(MEASUREMENT_COLUMNS)  # doctest: +SKIP
+    True
+    """
+    ds = spec.data
+    shown = display_path(ds.file)
+    raw = _read_bytes(ds.file, shown, spec)
+    suffix = ds.file.suffix.lower()
+    if suffix == ".xlsx":
+        sheet = _read_xlsx(raw, shown, ds.sheet)
+    else:
+        sheet = _read_text(raw, shown, tab=suffix == ".tsv")
+    table, notes, unassigned = _Tidy(spec, sheet, shown).run()
+    info = _file_info(spec, table, sheet, raw)
+    return Measurements(table=table, files=(info,), unassigned_lots=unassigned,
+                        notes=tuple(sheet.notes + notes))
+
+
+def analysis_values(measurements: Measurements, spec: Spec, characteristic_name: str,
+                    process: str) -> AnalysisValues:
+    """The used values of one characteristic and process, as the analysis sees them.
+
+    Parameters
+    ----------
+    measurements, spec
+        From :func:`load_measurements` and :func:`verify.spec.load_spec`.
+    characteristic_name
+        A characteristic of the spec.
+    process
+        "old" or "new".
+
+    Returns
+    -------
+    AnalysisValues
+        Values in production order; lot means when the spec's unit of analysis is lot.
+
+    Examples
+    --------
+    >>> av = analysis_values(m, spec, "bore_diameter", "new")  # doctest: +SKIP
+    >>> av.unit, len(av.values) == len(av.lots)  # doctest: +SKIP
+    ('part', True)
+    """
+    _check_args(spec, characteristic_name, process)
+    t = measurements.table
+    sel = t[(t["characteristic"] == characteristic_name) & (t["process"] == process)
+            & ~t["excluded"]]
+    sel = sel.sort_values(["order", "source_row"], kind="stable")
+    if spec.unit_of_analysis == "lot":
+        means = sel.groupby("lot", sort=False)["value"].mean()
+        return AnalysisValues(values=means.to_numpy(dtype=float),
+                              lots=tuple(str(x) for x in means.index), unit="lot",
+                              n_parts=len(sel))
+    return AnalysisValues(values=sel["value"].to_numpy(dtype=float),
+                          lots=tuple(sel["lot"].astype(str)), unit="part", n_parts=len(sel))
+
+
+def paired_values(measurements: Measurements, spec: Spec,
+                  characteristic_name: str) -> PairedValues:
+    """Old and new measurements of one characteristic aligned by the pair key.
+
+    Keys are ordered by the production order of their earlier measurement. A key with a used
+    measurement on one side only (the other excluded, not measured or absent) is listed in
+    ``unmatched``.
+
+    Raises
+    ------
+    ValueError
+        The spec has no ``data.pair`` or no such characteristic.
+
+    Examples
+    --------
+    >>> pv = paired_values(m, spec, "seal_strength")  # doctest: +SKIP
+    >>> len(pv.keys) == len(pv.old) == len(pv.new)  # doctest: +SKIP
+    True
+    """
+    _check_args(spec, characteristic_name, "old")
+    if spec.data.pair is None:
+        raise ValueError("the spec has no data.pair: there are no pairs")
+    t = measurements.table
+    sel = t[(t["characteristic"] == characteristic_name) & t["process"].isin(["old", "new"])
+            & (t["pair"] != "") & ~t["excluded"]]
+    sel = sel.sort_values(["order", "source_row"], kind="stable")
+    old = sel[sel["process"] == "old"].drop_duplicates("pair").set_index("pair")
+    new = sel[sel["process"] == "new"].drop_duplicates("pair").set_index("pair")
+    first = sel.drop_duplicates("pair")["pair"].tolist()  # keys by earlier measurement
+    both = old.index.intersection(new.index)
+    keys = [k for k in first if k in both]
+    unmatched = tuple(str(k) for k in first if k not in both)
+    return PairedValues(keys=tuple(str(k) for k in keys),
+                        old=old.loc[keys, "value"].to_numpy(dtype=float) if keys
+                        else np.array([], dtype=float),
+                        new=new.loc[keys, "value"].to_numpy(dtype=float) if keys
+                        else np.array([], dtype=float),
+                        unmatched=unmatched)
+
+
+def display_path(path: Path) -> str:
+    """``path`` relative to the working folder when it lies below it, else absolute."""
+    try:
+        return str(Path(os.path.abspath(path)).relative_to(Path.cwd()))
+    except ValueError:
+        return str(path)
+
+
+def _check_args(spec: Spec, name: str, process: str) -> None:
+    if all(c.name != name for c in spec.characteristics):
+        raise ValueError(f"the spec has no characteristic named {name!r}")
+    if process not in ("old", "new"):
+        raise ValueError(f"process must be 'old' or 'new', not {process!r}")
+
+
+# -- reading files ----------------------------------------------------------------------------
+
+
+def _read_bytes(path: Path, shown: str, spec: Spec) -> bytes:
+    why = (f"data.file {spec.data.file_text!r} in {spec.path} is read relative to the spec's "
+           "folder")
+    try:
+        return path.read_bytes()
+    except FileNotFoundError:
+        raise DataError([DataIssue(shown, f"data file not found ({why})")]) from None
+    except IsADirectoryError:
+        raise DataError([DataIssue(shown, f"is a folder, not a data file ({why})")]) from None
+    except OSError as exc:
+        raise DataError([DataIssue(shown, f"cannot read the data file: {exc.strerror}")]) from None
+
+
+def _decode(raw: bytes, shown: str) -> tuple[str, str, list[str]]:
+    for bom, enc in ((codecs.BOM_UTF8, "utf-8-sig"), (codecs.BOM_UTF16_LE, "utf-16"),
+                     (codecs.BOM_UTF16_BE, "utf-16")):
+        if raw.startswith(bom):
+            try:
+                return raw.decode(enc), enc, []
+            except UnicodeDecodeError:
+                if enc == "utf-16":
+                    raise DataError([DataIssue(shown, "starts with a UTF-16 mark but is not "
+                                               "valid UTF-16 text")]) from None
+                break
+    try:
+        return raw.decode("utf-8"), "utf-8", []
+    except UnicodeDecodeError:
+        text = raw.decode("latin-1")
+        if text.startswith("\u00ef\u00bb\u00bf"):
+            text = text[3:]
+        return text, "latin-1", [f"{shown}: read as Latin-1 (the file is not valid UTF-8); "
+                                 "check that accented characters read right"]
+
+
+def sniff_delimiter(header_line: str) -> str:
+    """The delimiter of a text table: the most frequent of comma, semicolon, tab in the header.
+
+    Examples
+    --------
+    >>> sniff_delimiter("lot;supplier;bore")
+    ';'
+    """
+    counts = {d: header_line.count(d) for d in DELIMITERS}
+    best = max(DELIMITERS[::-1], key=lambda d: counts[d])  # ties prefer tab, then semicolon
+    return best if counts[best] else ","
+
+
+def _read_text(raw: bytes, shown: str, *, tab: bool) -> _Sheet:
+    text, encoding, notes = _decode(raw, shown)
+    if "\x00" in text:
+        raise DataError([DataIssue(shown, "contains NUL bytes: this is not a text table (an "
+                                   ".xlsx saved as .csv?)")])
+    first_line = text.split("\n", 1)[0]
+    delimiter = "\t" if tab else sniff_delimiter(first_line)
+    if not text.strip():
+        raise DataError([DataIssue(shown, "the file is empty: it needs a header row", row=1)])
+    try:
+        frame = pd.read_csv(io.StringIO(text), sep=delimiter, header=None, dtype=str,
+                            keep_default_na=False, na_filter=False, skip_blank_lines=False,
+                            quotechar='"', engine="c")
+    except pd.errors.EmptyDataError:
+        raise DataError([DataIssue(shown, "the file is empty: it needs a header row",
+                                   row=1)]) from None
+    except (pd.errors.ParserError, ValueError) as exc:
+        raise DataError(_ragged_rows(text, delimiter, shown, str(exc))) from None
+    frame = frame.fillna("")
+    for col in frame.columns:
+        frame[col] = frame[col].astype(str).str.strip()
+    header = frame.iloc[0].tolist() if len(frame) else []
+    body = frame.iloc[1:].reset_index(drop=True)
+    body.columns = range(body.shape[1])
+    rows = np.arange(2, len(body) + 2)
+    blank = (body == "").all(axis=1).to_numpy() if body.shape[1] else np.ones(len(body), bool)
+    notes = list(notes)
+    if delimiter != "," and not tab:
+        notes.append(f"{shown}: columns separated by {_delim_name(delimiter)}")
+    return _Sheet(header=header, cells=body[~blank].reset_index(drop=True), rows=rows[~blank],
+                  rows_read=int((~blank).sum()), encoding=encoding, typed=False, notes=notes)
+
+
+def _delim_name(d: str) -> str:
+    return {",": "commas", ";": "semicolons", "\t": "tabs"}[d]
+
+
+def _ragged_rows(text: str, delimiter: str, shown: str, message: str) -> list[DataIssue]:
+    """Locate rows with more cells than the header (the error path only)."""
+    issues: list[DataIssue] = []
+    try:
+        records = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)
+        width = None
+        bad = []
+        for i, rec in enumerate(records, start=1):
+            if width is None:
+                width = len(rec)
+            elif len(rec) > width:
+                bad.append((i, len(rec)))
+        for i, n in bad[:MAX_REPORTED]:
+            issues.append(DataIssue(shown, f"has {n} cells but the header has {width} columns "
+                                    f"(a stray {_delim_name(delimiter)[:-1]}? a decimal comma "
+                                    "in a comma-separated file? text that needs quotes?)",
+                                    row=i))
+        if len(bad) > MAX_REPORTED:
+            issues.append(DataIssue(shown, f"and {len(bad) - MAX_REPORTED} more rows like these"))
+    except csv.Error as exc:
+        issues.append(DataIssue(shown, f"cannot be read as a table: {exc}"))
+    if not issues:
+        issues.append(DataIssue(shown, f"cannot be read as a table: {message}"))
+    return issues
+
+
+def _read_xlsx(raw: bytes, shown: str, sheet_name: str | None) -> _Sheet:
+    import openpyxl  # heavy: imported where it is used
+
+    try:
+        wb = openpyxl.load_workbook(io.BytesIO(raw), read_only=True, data_only=True)
+    except Exception as exc:  # openpyxl raises many kinds on a damaged file
+        raise DataError([DataIssue(shown, f"cannot be read as an .xlsx workbook "
+                                   f"({type(exc).__name__}: {exc})")]) from None
+    try:
+        names = wb.sheetnames
+        if sheet_name is None:
+            if not names:
+                raise DataError([DataIssue(shown, "the workbook has no sheets")])
+            sheet_name = names[0]
+        elif sheet_name not in names:
+            msg = f"has no sheet {sheet_name!r}; the sheets are: {', '.join(names)}"
+            near = difflib.get_close_matches(sheet_name, names, n=1, cutoff=0.6)
+            if near:
+                msg += f"; did you mean {near[0]!r}?"
+            raise DataError([DataIssue(shown, msg)])
+        ws = wb[sheet_name]
+        if not hasattr(ws, "iter_rows"):
+            raise DataError([DataIssue(shown, f"sheet {sheet_name!r} is a chart, not a table")])
+        try:
+            values = list(ws.iter_rows(values_only=True))
+        except Exception as exc:  # damaged sheet XML
+            raise DataError([DataIssue(shown, f"sheet {sheet_name!r} cannot be read "
+                                       f"({type(exc).__name__}: {exc})")]) from None
+    finally:
+        wb.close()
+    if not values:
+        raise DataError([DataIssue(shown, f"sheet {sheet_name!r} is empty: it needs a header "
+                                   "row", row=1)])
+    width = max(len(r) for r in values)
+    header = [_cell_text(v) for v in values[0]] + [""] * (width - len(values[0]))
+    body_rows = [tuple(r) + (None,) * (width - len(r)) for r in values[1:]]
+    body = pd.DataFrame(body_rows, columns=range(width), dtype=object)
+    rows = np.arange(2, len(body) + 2)
+    if len(body):
+        blank = body.map(_is_blank).all(axis=1).to_numpy()
+    else:
+        blank = np.zeros(0, bool)
+    return _Sheet(header=header, cells=body[~blank].reset_index(drop=True), rows=rows[~blank],
+                  rows_read=int((~blank).sum()), encoding="xlsx", typed=True, sheet=sheet_name)
+
+
+def _is_blank(v: object) -> bool:
+    return v is None or (isinstance(v, str) and not v.strip())
+
+
+def _cell_text(v: object) -> str:
+    """A spreadsheet cell as the text a user sees (numbers without a spurious '.0')."""
+    if v is None:
+        return ""
+    if isinstance(v, str):
+        return v.strip()
+    if isinstance(v, bool):
+        return "TRUE" if v else "FALSE"
+    if isinstance(v, int):
+        return str(v)
+    if isinstance(v, float):
+        return str(int(v)) if v.is_integer() and abs(v) < 1e15 else repr(v)
+    if isinstance(v, _dt.datetime):
+        return v.isoformat(sep=" ")
+    if isinstance(v, _dt.date | _dt.time):
+        return v.isoformat()
+    return str(v).strip()
+
+
+# -- cells -> tidy table ----------------------------------------------------------------------
+
+
+class _Tidy:
+    """Turns a :class:`_Sheet` into the tidy table, collecting every problem of the file."""
+
+    def __init__(self, spec: Spec, sheet: _Sheet, shown: str):
+        self.spec = spec
+        self.ds = spec.data
+        self.sheet = sheet
+        self.file = shown
+        self.issues: list[DataIssue] = []
+        self.notes: list[str] = []
+        self.n = len(sheet.cells)
+        self.unassigned: tuple[str, ...] = ()
+
+    # helpers
+    def issue(self, message: str, row: int | None = None, column: str | None = None) -> None:
+        self.issues.append(DataIssue(self.file, message, row=row, column=column))
+
+    def fail_if_issues(self) -> None:
+        if self.issues:
+            raise DataError(self.issues)
+
+    def text(self, idx: int) -> np.ndarray:
+        col = self.sheet.cells[idx] if idx < self.sheet.cells.shape[1] else pd.Series(
+            [""] * self.n, dtype=object)
+        if self.sheet.typed:
+            return np.array([_cell_text(v) for v in col], dtype=object)
+        return col.to_numpy(dtype=object)
+
+    def report_cells(self, mask: np.ndarray, column: str, message, rows: np.ndarray,
+                     cells: np.ndarray) -> None:
+        hits = np.flatnonzero(mask)
+        for i in hits[:MAX_REPORTED]:
+            self.issue(message(cells[i]), row=int(rows[i]), column=column)
+        if len(hits) > MAX_REPORTED:
+            self.issue(f"and {len(hits) - MAX_REPORTED} more cells like these", column=column)
+
+    # steps
+    def run(self) -> tuple[pd.DataFrame, list[str], tuple[str, ...]]:
+        cols = self.columns()
+        rows = self.sheet.rows
+        lot = self.text(cols["data.lot"])
+        empty_lot = lot == ""
+        self.report_cells(empty_lot, self.ds.lot, lambda v: "empty lot id: every row needs "
+                          "its lot", rows, lot)
+        process, scope = self.processes(cols, lot)
+        pair = self.text(cols["data.pair"]) if self.ds.pair is not None else np.full(
+            self.n, "", dtype=object)
+        order = self.production_order(cols, scope)
+        spec_reason, char_reasons = self.exclusions(lot)
+        in_scope = (scope == "") & ~empty_lot
+        if self.ds.pair is not None:
+            self.report_cells(in_scope & (spec_reason == "") & (pair == ""), self.ds.pair,
+                              lambda v: "empty pair key: a paired row needs its key (or "
+                              "exclude the row in the spec)", rows, pair)
+        pos, char_idx, cells = self.measurement_cells(cols)
+        # cell problems are collected too before failing: all of a file's problems at once
+        return self.assemble(rows, lot, process, pair, order, scope, spec_reason,
+                             char_reasons, pos, char_idx, cells)
+
+    def columns(self) -> dict[str, int]:
+        header = self.sheet.header
+        index: dict[str, list[int]] = {}
+        for i, h in enumerate(header):
+            index.setdefault(h, []).append(i)
+        wanted: list[tuple[str, str]] = [("data.lot", self.ds.lot)]
+        for key in ("process", "pair", "order", "characteristic", "value"):
+            name = getattr(self.ds, key)
+            if name is not None:
+                wanted.append((f"data.{key}", name))
+        if self.ds.layout == "wide":
+            for i, c in enumerate(self.spec.characteristics):
+                wanted.append((f"char:{i}", c.column))
+        found: dict[str, int] = {}
+        shown_cols = ", ".join(repr(h) for h in header if h) or "(none)"
+        for role, name in wanted:
+            where = (f"characteristics[{role[5:]}].column" if role.startswith("char:")
+                     else role)
+            hits = index.get(name, [])
+            if len(hits) > 1:
+                self.issue(f"column {name!r} ({where} in the spec) appears "
+                           f"{len(hits)} times in the header (columns "
+                           f"{', '.join(_column_letter(h) for h in hits)}): rename one",
+                           row=1, column=name)
+            elif not hits:
+                msg = f"no column {name!r} ({where} in the spec); the columns are: {shown_cols}"
+                near = _near(name, [h for h in header if h])
+                if near:
+                    msg += f"; did you mean {near!r}?"
+                self.issue(msg, row=1, column=name)
+            else:
+                found[role] = hits[0]
+        self.fail_if_issues()
+        return found
+
+    def processes(self, cols: dict[str, int], lot: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        ds, rows = self.ds, self.sheet.rows
+        process = np.full(self.n, "", dtype=object)
+        scope = np.full(self.n, "", dtype=object)
+        if ds.process is not None:
+            ptext = pd.Series(self.text(cols["data.process"]), dtype=object)
+            # cells are compared trimmed, like every text cell
+            is_old = ptext.isin([v.strip() for v in ds.old]).to_numpy()
+            is_new = ptext.isin([v.strip() for v in ds.new]).to_numpy()
+            process[is_old] = "old"
+            process[is_new] = "new"
+            other = ~(is_old | is_new) & (lot != "")
+            if other.any():
+                values = ptext[other]
+                if ds.ignore_other:
+                    reasons = {v: f"process value {v!r} is neither old nor new "
+                                  "(data.ignore_other)" for v in values.unique()}
+                    scope[other] = values.map(reasons).to_numpy(dtype=object)
+                    counts = values.value_counts(sort=False)
+                    self.notes.append("left out, process neither old nor new: " + ", ".join(
+                        f"{v!r} ({n} rows)" for v, n in counts.items()))
+                else:
+                    self.other_process_issues(values, rows[other])
+        else:
+            lots = self.spec.lots
+            uniq, first, inverse = np.unique(lot, return_index=True, return_inverse=True)
+            proc_u = np.full(len(uniq), "", dtype=object)
+            scope_u = np.full(len(uniq), "", dtype=object)
+            for j in np.argsort(first, kind="stable"):  # in order of first appearance
+                lot_id = uniq[j]
+                if lot_id == "":
+                    continue
+                hit_old = [p for p in lots.old if fnmatchcase(lot_id, p)]
+                hit_new = [p for p in lots.new if fnmatchcase(lot_id, p)]
+                if hit_old and hit_new:
+                    self.issue(f"lot {lot_id!r} matches lots.old ({hit_old[0]!r}) and lots.new "
+                               f"({hit_new[0]!r}): make the lists exclusive",
+                               row=int(rows[first[j]]), column=self.ds.lot)
+                elif hit_old:
+                    proc_u[j] = "old"
+                elif hit_new:
+                    proc_u[j] = "new"
+                else:
+                    scope_u[j] = NEITHER_LIST
+            process = proc_u[inverse]
+            scope = scope_u[inverse]
+            counts = np.bincount(inverse, minlength=len(uniq))
+            left_out = [(str(uniq[j]), int(counts[j]))
+                        for j in np.argsort(first, kind="stable") if scope_u[j]]
+            self.unassigned = tuple(name for name, _ in left_out)
+            if left_out:
+                self.notes.append("lots in neither lots list, left out: " + ", ".join(
+                    f"{k} ({n} rows)" for k, n in left_out))
+        return process, scope
+
+    def other_process_issues(self, values: pd.Series, rows: np.ndarray) -> None:
+        ds = self.ds
+        groups: dict[str, list[int]] = {}
+        for v, r in zip(values.tolist(), rows.tolist(), strict=True):
+            groups.setdefault(v, []).append(r)
+        for v, rs in list(groups.items())[:MAX_REPORTED]:
+            shown = ", ".join(str(r) for r in rs[:5]) + (", ..." if len(rs) > 5 else "")
+            what = "an empty process value" if v == "" else f"process value {v!r}"
+            count = f"{len(rs)} rows (rows {shown})" if len(rs) > 1 else f"1 row (row {shown})"
+            self.issue(f"{what} is neither old ({_list(ds.old)}) nor new ({_list(ds.new)}); "
+                       f"{count}. Add it to data.old or data.new, or set data.ignore_other: "
+                       "true to leave such rows out", row=rs[0], column=ds.process)
+        if len(groups) > MAX_REPORTED:
+            self.issue(f"and {len(groups) - MAX_REPORTED} more process values like these",
+                       column=ds.process)
+
+    def production_order(self, cols: dict[str, int], scope: np.ndarray) -> np.ndarray:
+        if self.ds.order is None:
+            return np.arange(self.n, dtype=np.int64)
+        cells = self.text(cols["data.order"])
+        s = pd.Series(cells, dtype=object)
+        numbers = pd.to_numeric(s, errors="coerce").to_numpy(dtype=float)
+        if np.isfinite(numbers).all():
+            keys = numbers
+        else:
+            times = pd.to_datetime(s, errors="coerce", format="ISO8601")
+            ok = times.notna().to_numpy()
+            if ok.all():
+                keys = times.to_numpy(dtype="datetime64[ns]").astype(np.int64).astype(float)
+            else:
+                use_numbers = np.isfinite(numbers).sum() >= ok.sum()
+                bad = ~np.isfinite(numbers) if use_numbers else ~ok
+                self.report_cells(bad & (scope == ""), self.ds.order,
+                                  lambda v: f"{v!r} in the order column is neither a number nor "
+                                  "a date-time (such as 2024-03-05 14:20)", self.sheet.rows,
+                                  cells)
+                keys = np.where(bad, np.inf, numbers if use_numbers else
+                                times.to_numpy(dtype="datetime64[ns]").astype(np.int64))
+        ranked = np.lexsort((self.sheet.rows, keys))
+        order = np.empty(self.n, dtype=np.int64)
+        order[ranked] = np.arange(self.n)
+        return order
+
+    def exclusions(self, lot: np.ndarray) -> tuple[np.ndarray, dict[str, np.ndarray]]:
+        rows = self.sheet.rows
+        spec_reason = np.full(self.n, "", dtype=object)
+        per_char: dict[str, np.ndarray] = {}
+        lots_present = [x for x in dict.fromkeys(lot.tolist()) if x]
+        for i, e in enumerate(self.spec.exclude):
+            reason = f"excluded by spec: {e.reason} (by {e.by})"
+            line = f" (line {e.line})" if e.line else ""
+            if e.row is not None:
+                mask = rows == e.row
+                if not mask.any():
+                    last = int(rows.max()) if len(rows) else 1
+                    why = (f"the last data row is {last}" if e.row > last
+                           else "that row is blank")
+                    self.issue(f"exclude[{i}]{line} names row {e.row}, which holds no data: "
+                               f"{why}", row=e.row)
+                    continue
+            else:
+                pattern = str(e.lot)
+                hit = {x for x in lots_present if fnmatchcase(x, pattern)}
+                if not hit:
+                    msg = (f"exclude[{i}]{line} names lot {pattern!r}, which is not in the "
+                           f"file")
+                    near = _near(pattern, lots_present)
+                    msg += f"; did you mean {near!r}?" if near else (
+                        f"; lots present: {', '.join(lots_present[:15])}"
+                        + (", ..." if len(lots_present) > 15 else ""))
+                    self.issue(msg, column=self.ds.lot)
+                    continue
+                mask = pd.Series(lot, dtype=object).isin(hit).to_numpy()
+            target = spec_reason if e.characteristic is None else per_char.setdefault(
+                e.characteristic, np.full(self.n, "", dtype=object))
+            target[mask & (target == "")] = reason
+        return spec_reason, per_char
+
+    def measurement_cells(self, cols: dict[str, int]) -> tuple[np.ndarray, np.ndarray, list]:
+        """Row positions, characteristic indices and the raw cells of every measurement."""
+        chars = self.spec.characteristics
+        cells = self.sheet.cells
+        positions, indices, parts = [], [], []
+        if self.ds.layout == "wide":
+            for i in range(len(chars)):
+                positions.append(np.arange(self.n))
+                indices.append(np.full(self.n, i))
+                parts.append(cells[cols[f"char:{i}"]].to_numpy(dtype=object))
+        else:
+            ctext = self.text(cols["data.characteristic"])
+            values = cells[cols["data.value"]].to_numpy(dtype=object)
+            matched = np.zeros(self.n, bool)
+            present = [x for x in dict.fromkeys(ctext.tolist())]
+            for i, c in enumerate(chars):
+                mask = ctext == c.match
+                matched |= mask
+                if not mask.any():
+                    shown = ", ".join(repr(x) for x in present[:15]) or "(none)"
+                    msg = (f"no rows for characteristic {c.name!r}: column "
+                           f"{self.ds.characteristic!r} has no value {c.match!r}; its values "
+                           f"are: {shown}")
+                    near = _near(c.match, [x for x in present if x])
+                    if near:
+                        msg += f"; did you mean {near!r}? (set match: in the spec)"
+                    self.issue(msg, column=self.ds.characteristic)
+                    continue
+                where = np.flatnonzero(mask)
+                positions.append(where)
+                indices.append(np.full(len(where), i))
+                parts.append(values[where])
+            other = ~matched
+            if other.any():
+                names = list(dict.fromkeys(ctext[other].tolist()))
+                shown = ", ".join(repr(x) if x else "(empty)" for x in names[:10])
+                self.notes.append(f"{int(other.sum())} rows measure characteristics the spec "
+                                  f"does not name ({shown}{', ...' if len(names) > 10 else ''})"
+                                  ": not used")
+        if not positions:
+            return np.zeros(0, np.int64), np.zeros(0, np.int64), []
+        return np.concatenate(positions), np.concatenate(indices), parts
+
+    def parse(self, parts: list, char_idx: np.ndarray) -> tuple[np.ndarray, np.ndarray,
+                                                                 np.ndarray, np.ndarray]:
+        """Values, missing mask, bad-cell mask and cell texts, vectorised."""
+        cells = np.concatenate(parts) if parts else np.zeros(0, dtype=object)
+        values = np.full(len(cells), np.nan)
+        numeric = np.zeros(len(cells), bool)
+        if self.sheet.typed:
+            kinds = pd.Series(cells, dtype=object).map(type)
+            numeric = kinds.isin([int, float]).to_numpy()
+            values[numeric] = cells[numeric].astype(float)
+            text = np.array([_cell_text(v) for v in cells], dtype=object)
+        else:
+            text = cells
+        missing_texts = {m.strip() for m in self.ds.missing}
+        s = pd.Series(text, dtype=object)
+        missing = s.isin(missing_texts).to_numpy()
+        is_text = ~numeric & ~missing
+        wrong_sep = np.zeros(len(cells), bool)
+        if is_text.any():
+            t = s[is_text].astype(str)
+            if self.ds.decimal == ",":
+                wrong_sep[is_text] = t.str.contains(".", regex=False).to_numpy()
+                t = t.str.replace(",", ".", regex=False)
+            else:
+                wrong_sep[is_text] = t.str.contains(",", regex=False).to_numpy()
+            parsed = pd.to_numeric(t, errors="coerce").to_numpy(dtype=float)
+            values[is_text] = np.where(wrong_sep[is_text], np.nan, parsed)
+        values[missing] = np.nan  # a declared missing text, even a number such as -999
+        bad = is_text & np.isnan(values)
+        infinite = np.isinf(values)
+        self.wrong_sep = wrong_sep
+        self.infinite = infinite
+        return values, missing, bad | infinite, text
+
+    def assemble(self, rows, lot, process, pair, order, scope, spec_reason, char_reasons, pos,
+                 char_idx, parts):
+        chars = self.spec.characteristics
+        values, missing, bad, text = self.parse(parts, char_idx)
+        names = np.array([c.name for c in chars], dtype=object)
+        char_names = names[char_idx] if len(char_idx) else np.zeros(0, dtype=object)
+        reason = scope[pos].copy() if len(pos) else np.zeros(0, dtype=object)
+        spec_r = spec_reason[pos]
+        reason = np.where(reason == "", spec_r, reason)
+        for name, per_row in char_reasons.items():
+            sel = char_names == name
+            r = per_row[pos]
+            reason = np.where(sel & (reason == ""), r, reason)
+        checkable = (reason == "") & (lot[pos] != "")
+        self.bad_cell_issues(checkable & bad, rows[pos], char_idx, text, values)
+        reason = np.where((reason == "") & missing, NOT_MEASURED, reason)
+        values = np.where(bad, np.nan, values)
+        self.duplicate_pairs(pos, char_names, process, pair, scope, spec_r, rows)
+        self.fail_if_issues()
+
+        table = pd.DataFrame({
+            "source_file": np.full(len(pos), self.ds.file_text, dtype=object),
+            "source_row": rows[pos].astype(np.int64),
+            "order": order[pos].astype(np.int64),
+            "lot": lot[pos],
+            "process": process[pos],
+            "pair": pair[pos],
+            "characteristic": char_names,
+            "value": values.astype(float),
+            "excluded": reason != "",
+            "exclusion_reason": reason,
+        }, columns=list(MEASUREMENT_COLUMNS))
+        for col in ("source_file", "lot", "process", "pair", "characteristic",
+                    "exclusion_reason"):
+            table[col] = table[col].astype(str)
+        if self.ds.order is not None:
+            table = table.assign(_c=char_idx).sort_values(["_c", "order"], kind="stable")
+            table = table.drop(columns="_c")
+        table = table.reset_index(drop=True)
+        for proc in ("old", "new"):
+            if not (table["process"] == proc).any():
+                self.notes.append(f"no rows for the {proc} process yet")
+        return table, self.notes, self.unassigned
+
+    def bad_cell_issues(self, mask, rows, char_idx, text, values) -> None:
+        chars = self.spec.characteristics
+        hits = np.flatnonzero(mask)
+        decimal = self.ds.decimal
+        declared = list(self.ds.missing)
+        for i in hits[:MAX_REPORTED]:
+            c = chars[int(char_idx[i])]
+            column = c.column if self.ds.layout == "wide" else self.ds.value
+            v = text[i]
+            if np.isinf(values[i]):
+                msg = (f"{v!r} is an infinite value ({c.name}): a measurement must be a finite "
+                       "number")
+            elif self.wrong_sep[i]:
+                other = "," if decimal == "." else "."
+                msg = (f"{v!r} is not a number with the decimal separator {decimal!r} "
+                       f"({c.name}): correct the cell, or set data.decimal: {other!r} if the "
+                       f"whole file writes {other!r} for decimals")
+            elif v == "":
+                msg = (f"empty cell ({c.name}), and '' is not one of the declared missing texts "
+                       f"{declared}: add '' to data.missing or fill in the cell")
+            else:
+                msg = (f"{v!r} is not a number and not one of the declared missing texts "
+                       f"{declared} ({c.name}): add it to data.missing or correct the cell")
+            self.issue(msg, row=int(rows[i]), column=column)
+        if len(hits) > MAX_REPORTED:
+            self.issue(f"and {len(hits) - MAX_REPORTED} more cells that are not numbers")
+
+    def duplicate_pairs(self, pos, char_names, process, pair, scope, spec_r, rows) -> None:
+        if self.ds.pair is None or not len(pos):
+            return
+        frame = pd.DataFrame({"c": char_names, "p": process[pos], "k": pair[pos],
+                              "r": rows[pos]})
+        live = (scope[pos] == "") & (spec_r == "") & (frame["k"] != "").to_numpy()
+        frame = frame[live]
+        dup = frame[frame.duplicated(["c", "p", "k"], keep=False)]
+        if dup.empty:
+            return
+        groups = dup.groupby(["p", "k"], sort=False)
+        long = self.ds.layout == "long"
+        for n, ((proc, key), g) in enumerate(groups):
+            if n == MAX_REPORTED:
+                self.issue(f"and {groups.ngroups - MAX_REPORTED} more duplicate pair keys",
+                           column=self.ds.pair)
+                break
+            rs = sorted(set(g["r"].tolist()))
+            what = f" ({', '.join(dict.fromkeys(g['c']))})" if long else ""
+            self.issue(f"pair key {key!r} appears more than once for the {proc} process{what}"
+                       f" (rows {', '.join(str(r) for r in rs)}): a key pairs one old row with "
+                       "one new row", row=rs[0], column=self.ds.pair)
+
+
+def _file_info(spec: Spec, table: pd.DataFrame, sheet: _Sheet, raw: bytes) -> DataFileInfo:
+    used = table.loc[~table["excluded"], "source_row"]
+    rows_used = int(used.nunique())
+    reasons = table.loc[table["excluded"], "exclusion_reason"].value_counts()
+    exclusions = tuple(sorted(((str(r), int(n)) for r, n in reasons.items()),
+                              key=lambda x: (-x[1], x[0])))
+    return DataFileInfo(
+        path=spec.data.file_text, resolved_path=str(spec.data.file),
+        sha256=hashlib.sha256(raw).hexdigest(), size=len(raw), encoding=sheet.encoding,
+        rows_read=sheet.rows_read, rows_used=rows_used,
+        rows_excluded=sheet.rows_read - rows_used, exclusions=exclusions, sheet=sheet.sheet,
+    )
+
+
+def _near(word: str, options: Sequence[str]) -> str | None:
+    lowered = {o.lower(): o for o in options}
+    if word.lower() in lowered:
+        return lowered[word.lower()]
+    near = difflib.get_close_matches(word, list(options), n=1, cutoff=0.6)
+    return near[0] if near else None
+
+
+def _list(values: Sequence[str]) -> str:
+    return ", ".join(repr(v) for v in values)
+
+
+def _column_letter(index: int) -> str:
+    letters = ""
+    index += 1
+    while index:
+        index, rem = divmod(index - 1, 26)
+        letters = chr(65 + rem) + letters
+    return letters
+

@@ -1,0 +1,656 @@
+"""Load a spec file (format ``verify/1``) into the frozen model of :mod:`verify.spec_model`.
+
+Loading runs in three steps, and every problem of every step is reported together in one
+:class:`~verify.errors.SpecError`, each naming the file, line, column and key path:
+
+1. YAML is composed with a safe loader (no object tags; syntax errors carry their position).
+2. The node tree is checked against the JSON Schema (:mod:`verify.schema`).
+3. Rules the schema cannot express are checked here: margins around 0, inverted limits, a
+   target outside its limits, a paired design without ``data.pair``, a capability check
+   without limits, a percent margin without a target, duplicate names, old/new declared
+   twice or not at all, and so on.
+
+Defaults are then made explicit and recorded in :attr:`Spec.resolved`.
+
+Default checks, when a characteristic has no ``checks:`` key:
+
+- ``target`` (no margin: a one-sample t-test) when a target is given;
+- ``shift`` (no margin), design ``paired`` when ``data.pair`` is set, else ``welch``;
+- ``spread`` with method ``f``;
+- ``capability`` with ``min_cpk: 1.33`` when limits are given.
+
+When ``checks:`` is given, exactly the listed checks run; an empty entry (``spread:`` or
+``spread: {}``) runs that check with its defaults.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import os
+import re
+from collections.abc import Iterable
+from pathlib import Path
+from typing import Any
+
+import yaml
+
+from .errors import SpecError, SpecIssue, UsageError
+from .schema import Document, child_path, validate
+from .spec_model import (
+    CapabilityCheck,
+    Characteristic,
+    Checks,
+    DataSpec,
+    Exclusion,
+    LotLists,
+    Margin,
+    PlanSettings,
+    ShiftCheck,
+    Spec,
+    SpreadCheck,
+    TargetCheck,
+)
+
+DATA_SUFFIXES = (".csv", ".tsv", ".xlsx")
+SPEC_SUFFIXES = (".yaml", ".yml")
+CHECK_NAMES = ("target", "shift", "spread", "capability")
+DEFAULT_MISSING = ("", "NA")
+DEFAULT_MIN_CPK = 1.33
+_PERCENT = re.compile(r"^\s*([0-9]+(?:\.[0-9]+)?)\s*%\s*$")
+_GLOB_CHARS = frozenset("*?[")
+
+
+# -- finding spec files ---------------------------------------------------------------------
+
+
+def find_specs(paths: Iterable[str | os.PathLike]) -> list[Path]:
+    """The spec files named by ``paths``: files as given, ``*.yaml``/``*.yml`` under folders.
+
+    Folders are searched recursively (hidden folders skipped) and their files sorted; a file
+    named twice is listed once.
+
+    Raises
+    ------
+    UsageError
+        A path does not exist, or no spec file was found at all.
+
+    Examples
+    --------
+    >>> find_specs(["specs/bushing-supplier.yaml"])  # doctest: +SKIP
+    [PosixPath('specs/bushing-supplier.yaml')]
+    """
+    found: list[Path] = []
+    problems: list[str] = []
+    given = [Path(p) for p in paths]
+    for p in given:
+        if p.is_dir():
+            hits = sorted(
+                f for f in p.rglob("*")
+                if f.suffix.lower() in SPEC_SUFFIXES and f.is_file()
+                and not any(part.startswith(".") for part in f.relative_to(p).parts)
+            )
+            found.extend(hits)
+        elif p.is_file():
+            found.append(p)
+        else:
+            problems.append(f"{p}: no such file or folder")
+    if problems:
+        raise UsageError(problems)
+    unique = list(dict.fromkeys(found))
+    if not unique:
+        names = ", ".join(str(p) for p in given) or "(no paths given)"
+        raise UsageError(f"no spec files (*.yaml, *.yml) found in {names}")
+    return unique
+
+
+# -- load_spec ------------------------------------------------------------------------------
+
+
+def load_spec(path: str | os.PathLike, *, text: str | None = None) -> Spec:
+    """Read, validate and resolve one spec file.
+
+    Parameters
+    ----------
+    path
+        The spec file. ``data.file`` is resolved against its folder.
+    text
+        The spec's text, used instead of reading ``path`` (replaying a recorded run).
+
+    Returns
+    -------
+    Spec
+        The frozen spec with every default explicit; ``sha256`` is that of the text's UTF-8
+        bytes (for a UTF-8 file, the same as the file's).
+
+    Raises
+    ------
+    SpecError
+        With every problem found, each naming file, line, column and key path.
+
+    Examples
+    --------
+    >>> spec = load_spec("specs/bushing-supplier.yaml")  # doctest: +SKIP
+    >>> spec.alpha  # doctest: +SKIP
+    0.05
+    """
+    path = Path(path)
+    file = str(path)
+    if text is None:
+        text = _read_text(path)
+    body = text[1:] if text.startswith("\ufeff") else text
+    root = _compose(body, file)
+    if root is None:
+        raise SpecError([SpecIssue(file, "", "the spec is empty", 1, 1)])
+    doc = validate(root)
+    checker = _Checker(file, doc)
+    checker.problems_from_schema()
+    if isinstance(doc.value, dict):
+        checker.semantics(doc.value)
+    if checker.issues:
+        raise SpecError(sorted(checker.issues, key=_issue_order))
+    return _build(path, text, doc)
+
+
+def _issue_order(issue: SpecIssue) -> tuple:
+    return (issue.line or 0, issue.column or 0, issue.path)
+
+
+def _read_text(path: Path) -> str:
+    file = str(path)
+    try:
+        raw = path.read_bytes()
+    except FileNotFoundError:
+        raise SpecError([SpecIssue(file, "", "spec file not found")]) from None
+    except IsADirectoryError:
+        raise SpecError([SpecIssue(file, "", "is a folder, not a spec file")]) from None
+    except OSError as exc:
+        raise SpecError([SpecIssue(file, "", f"cannot read the spec: {exc.strerror}")]) from None
+    try:
+        return raw.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        line = raw[: exc.start].count(b"\n") + 1
+        raise SpecError([SpecIssue(
+            file, "", f"is not UTF-8 text (byte 0x{raw[exc.start]:02x}): save the spec as UTF-8",
+            line, None)]) from None
+
+
+def _compose(text: str, file: str) -> yaml.Node | None:
+    try:
+        return yaml.compose(text, Loader=yaml.SafeLoader)
+    except yaml.MarkedYAMLError as exc:
+        mark = exc.problem_mark or exc.context_mark
+        problem = exc.problem or "invalid YAML"
+        if exc.context:
+            problem = f"{exc.context}, {problem}"
+        line, col = (mark.line + 1, mark.column + 1) if mark else (None, None)
+        raise SpecError([SpecIssue(file, "", f"YAML syntax error: {problem}", line, col)]) from None
+    except yaml.reader.ReaderError as exc:
+        line = text[: exc.position].count("\n") + 1
+        raise SpecError([SpecIssue(
+            file, "", f"YAML cannot contain the character {exc.character!r} "
+            "(a control character)", line, None)]) from None
+    except yaml.YAMLError as exc:
+        raise SpecError([SpecIssue(file, "", f"YAML error: {exc}")]) from None
+    except RecursionError:
+        raise SpecError([SpecIssue(file, "", "the YAML is nested too deeply")]) from None
+
+
+# -- semantic checks --------------------------------------------------------------------------
+
+
+class _Checker:
+    """Rules beyond the schema; reads only values that passed the schema (``doc.clean``)."""
+
+    def __init__(self, file: str, doc: Document):
+        self.file = file
+        self.doc = doc
+        self.issues: list[SpecIssue] = []
+
+    def add(self, path: str, message: str, *, key: bool = False) -> None:
+        line, col = self.doc.where(path, key=key)
+        self.issues.append(SpecIssue(self.file, path, message, line, col))
+
+    def problems_from_schema(self) -> None:
+        for p in self.doc.problems:
+            self.issues.append(SpecIssue(self.file, p.path, p.message, p.line, p.column))
+
+    def ok(self, mapping: Any, key: str, path: str) -> bool:
+        return isinstance(mapping, dict) and key in mapping and self.doc.clean(path)
+
+    def semantics(self, spec: dict) -> None:
+        data = spec.get("data") if isinstance(spec.get("data"), dict) else None
+        if data is not None:
+            self.check_data(spec, data)
+        self.check_lots(spec)
+        chars = spec.get("characteristics")
+        names: dict[str, int] = {}
+        if isinstance(chars, list):
+            for i, c in enumerate(chars):
+                if isinstance(c, dict):
+                    self.check_characteristic(spec, data, c, f"characteristics[{i}]", names)
+        self.check_exclusions(spec, names)
+
+    def check_data(self, spec: dict, data: dict) -> None:
+        has = {k: k in data for k in ("process", "old", "new")}
+        given_lots = "lots" in spec
+        if has["process"] or has["old"] or has["new"]:
+            for k in ("process", "old", "new"):
+                if not has[k]:
+                    self.add(f"data.{k}", f"missing key '{k}' in `data`: data.process, "
+                             "data.old and data.new go together")
+            if given_lots:
+                self.add("lots", "give either data.process with data.old/data.new, or lots: "
+                         "not both", key=True)
+        elif not given_lots:
+            self.add("data", "tell old rows from new rows: give data.process with data.old "
+                     "and data.new, or a top-level lots: with old and new lists", key=True)
+        if self.ok(data, "old", "data.old") and self.ok(data, "new", "data.new"):
+            both = set(_text_list(data["old"])) & set(_text_list(data["new"]))
+            if both:
+                self.add("data.new", f"{_quoted(both)} listed both as old and as new")
+        has_char, has_value = "characteristic" in data, "value" in data
+        if has_char != has_value:
+            missing = "data.value" if has_char else "data.characteristic"
+            given = "data.characteristic" if has_char else "data.value"
+            self.add(given, f"the long layout needs data.characteristic and data.value "
+                     f"together: add {missing}", key=True)
+        if self.ok(data, "file", "data.file"):
+            suffix = Path(data["file"]).suffix.lower()
+            if suffix not in DATA_SUFFIXES:
+                self.add("data.file", f"must end in .csv, .tsv or .xlsx, not "
+                         f"{suffix or 'no extension'!r}")
+            elif "sheet" in data and suffix != ".xlsx":
+                self.add("data.sheet", f"applies to .xlsx files only; {data['file']!r} is "
+                         f"{suffix}", key=True)
+        if (self.ok(data, "characteristic", "data.characteristic")
+                and self.ok(data, "value", "data.value")
+                and data["characteristic"] == data["value"]):
+            self.add("data.value", f"data.characteristic and data.value name the same column "
+                     f"{data['value']!r}")
+
+    def check_lots(self, spec: dict) -> None:
+        lots = spec.get("lots")
+        if not isinstance(lots, dict):
+            return
+        if not (self.ok(lots, "old", "lots.old") and self.ok(lots, "new", "lots.new")):
+            return
+        old = _text_list(lots["old"])
+        for i, item in enumerate(_text_list(lots["new"])):
+            if item in old:
+                p = f"lots.new[{i}]" if isinstance(lots["new"], list) else "lots.new"
+                self.add(p, f"lot {item!r} is in both lots.old and lots.new")
+
+    def check_characteristic(self, spec, data, c: dict, path: str, names: dict) -> None:
+        name = c.get("name") if self.doc.clean(f"{path}.name") else None
+        label = f" ({name})" if isinstance(name, str) else ""
+        if isinstance(name, str):
+            if name in names:
+                self.add(f"{path}.name", f"duplicate characteristic name {name!r} (first on "
+                         f"line {names[name]})")
+            else:
+                names[name] = self.doc.where(f"{path}.name")[0] or 0
+        long = isinstance(data, dict) and "characteristic" in data
+        if long and "column" in c:
+            self.add(f"{path}.column", "column is for the wide layout; with "
+                     "data.characteristic (long layout) use match", key=True)
+        if not long and "match" in c:
+            self.add(f"{path}.match", "match is for the long layout (data.characteristic and "
+                     "data.value); in the wide layout use column", key=True)
+
+        target = c.get("target") if self.ok(c, "target", f"{path}.target") else None
+        limits = c.get("limits") if self.ok(c, "limits", f"{path}.limits") else None
+        if limits is not None:
+            lower, upper = limits
+            if lower is None and upper is None:
+                self.add(f"{path}.limits", f"gives neither limit{label}: write at least one "
+                         "number, or leave limits out")
+            elif lower is not None and upper is not None and lower >= upper:
+                self.add(f"{path}.limits", f"inverted limits{label}: lower {lower} must be "
+                         f"below upper {upper}")
+            elif target is not None and (
+                (lower is not None and target < lower) or (upper is not None and target > upper)
+            ):
+                self.add(f"{path}.target", f"target {target} lies outside the limits "
+                         f"[{_fmt(lower)}, {_fmt(upper)}]{label}")
+        if "target" in c and not self.doc.clean(f"{path}.target"):
+            target = _UNKNOWN
+        checks = c.get("checks")
+        if "checks" in c and isinstance(checks, dict):
+            if not checks and self.doc.clean(f"{path}.checks"):
+                self.add(f"{path}.checks", f"lists no check{label}: name at least one of "
+                         "target, shift, spread, capability, or leave checks out for the "
+                         "defaults")
+            self.check_checks(spec, data, c, checks, f"{path}.checks", target, limits, label)
+
+    def check_checks(self, spec, data, c, checks, path, target, limits, label) -> None:
+        has_limits = f"{path[: -len('.checks')]}.limits" in self.doc.key_marks
+        if "target" in checks and target is None:
+            self.add(f"{path}.target", f"a target check needs the characteristic's target"
+                     f"{label}: add target, or remove this check", key=True)
+        if "capability" in checks and not has_limits:
+            self.add(f"{path}.capability", f"a capability check needs limits{label}: add "
+                     "limits: [lower, upper], or remove this check", key=True)
+        for check in ("target", "shift"):
+            entry = checks.get(check)
+            if isinstance(entry, dict) and "margin" in entry:
+                self.check_margin(entry["margin"], f"{path}.{check}.margin", target, label)
+        shift = checks.get("shift")
+        if isinstance(shift, dict) and shift.get("design") == "paired":
+            if not (isinstance(data, dict) and "pair" in data):
+                self.add(f"{path}.shift.design", f"a paired design needs data.pair, the column "
+                         f"that pairs an old row with a new row{label}")
+            if spec.get("unit_of_analysis") == "lot":
+                self.add(f"{path}.shift.design", "a paired design pairs parts; it cannot run "
+                         "with unit_of_analysis: lot (lot means carry no pair key)")
+
+    def check_margin(self, margin, path: str, target, label: str) -> None:
+        if not self.doc.clean(path):
+            return
+        if isinstance(margin, list):
+            low, high = margin
+            if not low < 0 < high:
+                self.add(path, f"margin [{_fmt(low)}, {_fmt(high)}] must have low < 0 < high"
+                         f"{label}")
+        elif isinstance(margin, str):
+            if target is _UNKNOWN:
+                return
+            if target is None:
+                self.add(path, f"a percent margin ({margin.strip()}) is a percentage of the "
+                         f"target, and there is no target{label}: add target or give the "
+                         "margin as a number")
+            elif float(_PERCENT.match(margin).group(1)) / 100.0 * abs(target) == 0:
+                self.add(path, f"a percent margin ({margin.strip()}) of target {target} is 0: "
+                         "give the margin as a number greater than 0")
+
+    def check_exclusions(self, spec: dict, names: dict) -> None:
+        items = spec.get("exclude")
+        if not isinstance(items, list):
+            return
+        rows: dict[int, int] = {}
+        for i, e in enumerate(items):
+            if not isinstance(e, dict):
+                continue
+            p = f"exclude[{i}]"
+            has_lot, has_row = "lot" in e, "row" in e
+            if has_lot == has_row and self.doc.clean(f"{p}.lot") and self.doc.clean(f"{p}.row"):
+                self.add(p, "an exclusion names exactly one of lot or row" if has_lot
+                         else "an exclusion needs lot: <lot id> or row: <source row number>")
+            if "characteristic" in e and self.doc.clean(f"{p}.characteristic") and names:
+                if e["characteristic"] not in names:
+                    self.add(f"{p}.characteristic", f"no characteristic named "
+                             f"{e['characteristic']!r}; the names are {', '.join(names)}")
+            if has_row and not has_lot and self.doc.clean(f"{p}.row"):
+                key = e["row"]
+                if key in rows and "characteristic" not in e:
+                    self.add(f"{p}.row", f"row {key} is already excluded by exclude[{rows[key]}]")
+                rows.setdefault(key, i)
+
+
+class _Unknown:
+    """A value that failed the schema; semantic rules that need it are skipped."""
+
+
+_UNKNOWN = _Unknown()
+
+
+# -- building the model -----------------------------------------------------------------------
+
+
+def _build(path: Path, text: str, doc: Document) -> Spec:
+    v: dict = doc.value
+    given = set(doc.marks)
+    resolved: list[tuple[str, str, bool]] = []
+
+    def rec(key: str, value: Any, *, default: bool | None = None) -> None:
+        is_default = (key not in given) if default is None else default
+        resolved.append((key, _fmt(value), is_default))
+
+    rec("format", v["format"])
+    rec("title", v["title"])
+    if "change_id" in v:
+        rec("change_id", _text(v["change_id"], doc, "change_id"))
+    alpha = float(v.get("alpha", 0.05))
+    rec("alpha", alpha)
+
+    data = v["data"]
+    data_spec = _build_data(path, data, doc, rec)
+    lots = None
+    if "lots" in v:
+        lots = LotLists(old=_texts(v["lots"]["old"], doc, "lots.old"),
+                        new=_texts(v["lots"]["new"], doc, "lots.new"))
+        rec("lots.old", list(lots.old))
+        rec("lots.new", list(lots.new))
+    unit = v.get("unit_of_analysis", "part")
+    rec("unit_of_analysis", unit)
+    min_n = v.get("min_n")
+    if min_n is not None:
+        rec("min_n", min_n)
+    multiplicity = v.get("multiplicity", "none")
+    rec("multiplicity", multiplicity)
+
+    exclusions = []
+    for i, e in enumerate(v.get("exclude", [])):
+        p = f"exclude[{i}]"
+        lot = _text(e["lot"], doc, f"{p}.lot") if "lot" in e else None
+        exclusions.append(Exclusion(reason=e["reason"], by=e["by"], lot=lot, row=e.get("row"),
+                                    characteristic=e.get("characteristic"),
+                                    line=doc.where(p)[0]))
+        for k in ("lot", "row", "characteristic", "reason", "by"):
+            if k in e:
+                rec(f"{p}.{k}", lot if k == "lot" else e[k])
+
+    plan_v = v.get("plan", {})
+    plan = PlanSettings(power=float(plan_v.get("power", 0.9)),
+                        true_shift=float(plan_v.get("true_shift", 0.0)),
+                        pair_correlation=(None if plan_v.get("pair_correlation") is None
+                                          else float(plan_v["pair_correlation"])))
+    rec("plan.power", plan.power)
+    rec("plan.true_shift", plan.true_shift)
+    rec("plan.pair_correlation", plan.pair_correlation)
+    supersedes = v.get("supersedes_reason")
+    if supersedes is not None:
+        rec("supersedes_reason", supersedes)
+
+    chars = tuple(
+        _build_characteristic(c, f"characteristics[{i}]", data_spec, unit, doc, rec)
+        for i, c in enumerate(v["characteristics"])
+    )
+    return Spec(
+        path=path, text=text, sha256=hashlib.sha256(text.encode("utf-8")).hexdigest(),
+        title=v["title"], data=data_spec, characteristics=chars, format=v["format"],
+        change_id=_text(v["change_id"], doc, "change_id") if "change_id" in v else None,
+        alpha=alpha, lots=lots, unit_of_analysis=unit, min_n=min_n, multiplicity=multiplicity,
+        exclude=tuple(exclusions), plan=plan, supersedes_reason=supersedes,
+        resolved=tuple(resolved),
+    )
+
+
+def _build_data(spec_path: Path, d: dict, doc: Document, rec) -> DataSpec:
+    file_text = d["file"]
+    file = Path(os.path.abspath(spec_path.parent / file_text))
+    rec("data.file", file_text)
+    if "sheet" in d:
+        rec("data.sheet", d["sheet"])
+    elif file.suffix.lower() == ".xlsx":
+        rec("data.sheet", "(the first sheet)")
+    rec("data.lot", d["lot"])
+    old = new = ()
+    if "process" in d:
+        old, new = _texts(d["old"], doc, "data.old"), _texts(d["new"], doc, "data.new")
+        rec("data.process", d["process"])
+        rec("data.old", list(old))
+        rec("data.new", list(new))
+    for k in ("pair", "order", "characteristic", "value"):
+        if k in d:
+            rec(f"data.{k}", d[k])
+    decimal = d.get("decimal", ".")
+    rec("data.decimal", decimal)
+    missing = _texts(d["missing"], doc, "data.missing") if "missing" in d else DEFAULT_MISSING
+    rec("data.missing", list(missing))
+    ignore_other = bool(d.get("ignore_other", False))
+    rec("data.ignore_other", ignore_other)
+    return DataSpec(
+        file=file, file_text=file_text, lot=d["lot"], sheet=d.get("sheet"),
+        process=d.get("process"), old=old, new=new, pair=d.get("pair"),
+        characteristic=d.get("characteristic"), value=d.get("value"), order=d.get("order"),
+        decimal=decimal, missing=missing, ignore_other=ignore_other,
+    )
+
+
+def _build_characteristic(c: dict, p: str, data: DataSpec, unit: str, doc: Document,
+                          rec) -> Characteristic:
+    name = c["name"]
+    rec(f"{p}.name", name)
+    column = match = None
+    if data.layout == "wide":
+        column = c.get("column", name)
+        rec(f"{p}.column", column)
+    else:
+        match = _text(c["match"], doc, f"{p}.match") if "match" in c else name
+        rec(f"{p}.match", match)
+    rec(f"{p}.unit", c["unit"])
+    target = float(c["target"]) if "target" in c else None
+    if target is not None:
+        rec(f"{p}.target", target)
+    limits = None
+    if "limits" in c:
+        lo, hi = c["limits"]
+        limits = (None if lo is None else float(lo), None if hi is None else float(hi))
+        rec(f"{p}.limits", list(limits))
+    side = c.get("side", "two-sided")
+    rec(f"{p}.side", side)
+
+    explicit = "checks" in c
+    listed = c.get("checks", {})
+    has_limits = limits is not None
+
+    def wanted(check: str) -> tuple[bool, dict]:
+        if explicit:
+            return check in listed, listed.get(check) or {}
+        default_on = {"target": target is not None, "shift": True, "spread": True,
+                      "capability": has_limits}[check]
+        return default_on, {}
+
+    cp = f"{p}.checks"
+    on, cfg = wanted("target")
+    target_check = None
+    if on:
+        target_check = TargetCheck(margin=_margin(cfg.get("margin"), target),
+                                   detect=_opt_float(cfg.get("detect")))
+        _rec_margin(rec, f"{cp}.target.margin", target_check.margin)
+        if target_check.detect is not None:
+            rec(f"{cp}.target.detect", target_check.detect)
+    else:
+        rec(f"{cp}.target", _off(explicit, "no target"), default=not explicit)
+
+    on, cfg = wanted("shift")
+    shift_check = None
+    if on:
+        design = cfg.get("design", "paired" if data.pair is not None else "welch")
+        shift_check = ShiftCheck(design=design, margin=_margin(cfg.get("margin"), target),
+                                 detect=_opt_float(cfg.get("detect")))
+        rec(f"{cp}.shift.design", design)
+        _rec_margin(rec, f"{cp}.shift.margin", shift_check.margin)
+        if shift_check.detect is not None:
+            rec(f"{cp}.shift.detect", shift_check.detect)
+    else:
+        rec(f"{cp}.shift", _off(explicit, ""), default=False)
+
+    on, cfg = wanted("spread")
+    spread_check = None
+    if on:
+        spread_check = SpreadCheck(method=cfg.get("method", "f"))
+        rec(f"{cp}.spread.method", spread_check.method)
+    else:
+        rec(f"{cp}.spread", _off(explicit, ""), default=False)
+
+    on, cfg = wanted("capability")
+    capability_check = None
+    if on:
+        capability_check = CapabilityCheck(min_cpk=float(cfg.get("min_cpk", DEFAULT_MIN_CPK)),
+                                           subgroup=cfg.get("subgroup"))
+        rec(f"{cp}.capability.min_cpk", capability_check.min_cpk)
+        rec(f"{cp}.capability.subgroup", capability_check.subgroup or "none (moving range)")
+    else:
+        rec(f"{cp}.capability", _off(explicit, "no limits"), default=not explicit)
+
+    return Characteristic(
+        name=name, unit=c["unit"], column=column, match=match, target=target, limits=limits,
+        side=side, checks=Checks(target=target_check, shift=shift_check, spread=spread_check,
+                                 capability=capability_check),
+        line=doc.where(p)[0],
+    )
+
+
+def _off(explicit: bool, why_default: str) -> str:
+    if explicit:
+        return "off (not listed in checks)"
+    return f"off ({why_default})" if why_default else "off"
+
+
+def _margin(raw: Any, target: float | None) -> Margin | None:
+    """Turn a margin as written (number, [low, high] or "p%") into a :class:`Margin`."""
+    if raw is None:
+        return None
+    if isinstance(raw, list):
+        low, high = float(raw[0]), float(raw[1])
+        return Margin(low=low, high=high, text=f"[{_fmt(raw[0])}, {_fmt(raw[1])}]")
+    if isinstance(raw, str):
+        pct = float(_PERCENT.match(raw).group(1))
+        m = pct / 100.0 * abs(float(target))  # target presence checked above
+        return Margin(low=-m, high=m, text=raw.strip())
+    m = float(raw)
+    return Margin(low=-m, high=m, text=_fmt(raw))
+
+
+def _rec_margin(rec, key: str, margin: Margin | None) -> None:
+    if margin is None:
+        rec(key, "none (difference test)", default=False)
+        return
+    shown = f"[{_fmt(margin.low)}, {_fmt(margin.high)}]"
+    rec(key, shown if margin.text == shown else f"{margin.text} = {shown}", default=False)
+
+
+def _opt_float(v: Any) -> float | None:
+    return None if v is None else float(v)
+
+
+def _text(value: Any, doc: Document, path: str) -> str:
+    """A text-or-number value as text (the validator keeps numbers there as written)."""
+    return value if isinstance(value, str) else _fmt(value)
+
+
+def _texts(value: Any, doc: Document, path: str) -> tuple[str, ...]:
+    if isinstance(value, list):
+        return tuple(_text(x, doc, child_path(path, i)) for i, x in enumerate(value))
+    return (_text(value, doc, path),)
+
+
+def _text_list(value: Any) -> list[str]:
+    items = value if isinstance(value, list) else [value]
+    return [x if isinstance(x, str) else _fmt(x) for x in items]
+
+
+def _quoted(items) -> str:
+    return ", ".join(repr(x) for x in sorted(items))
+
+
+def _fmt(value: Any) -> str:
+    """A value as text for messages and :attr:`Spec.resolved` (floats at full precision)."""
+    if value is None:
+        return "null"
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, float):
+        return repr(int(value)) if value.is_integer() and abs(value) < 1e15 else repr(value)
+    if isinstance(value, int):
+        return str(value)
+    if isinstance(value, list | tuple):
+        return "[" + ", ".join(_fmt_item(x) for x in value) + "]"
+    return str(value)
+
+
+def _fmt_item(x: Any) -> str:
+    if isinstance(x, str):
+        return '"' + x.replace("\\", "\\\\").replace('"', '\\"') + '"'
+    return _fmt(x)
