@@ -127,7 +127,7 @@ def _fixed_zip(data: bytes) -> bytes:
 def housing(rng: np.random.Generator) -> str:
     """New resin, lots still accumulating, long layout, European lab export."""
     lines = ["lot;sample;characteristic;value;operator"]
-    operators = ["A. Pemberton", "J. Okonkwo-Hale", "M. Ferreira Lund"]
+    operators = ["OP-07", "OP-12", "OP-19"]
     lots = [(f"R23-{k}", 2.006, 0.021, 46.8, 2.1) for k in range(101, 108)]
     lots += [("QC-TRIAL-07", 2.030, 0.030, 45.0, 3.0)]
     lots += [(f"R24-{k:03d}", 2.003, 0.011, 47.3, 1.9) for k in (1, 2)]

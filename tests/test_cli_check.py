@@ -72,14 +72,14 @@ def test_check_bad_data_exits_2_and_writes_nothing(tmp_path, monkeypatch, capsys
 
 def test_check_prints_the_plan(tmp_path, monkeypatch, capsys):
     monkeypatch.chdir(tmp_path)
-    text = BASE_SPEC + "exclude:\n  - {row: 3, reason: gauge dropped, by: R. Ames}\n"
+    text = BASE_SPEC + "exclude:\n  - {row: 3, reason: gauge dropped, by: QE-11}\n"
     write_case(tmp_path, text)
     assert main(["check", "spec.yaml"]) == 0
     out, err = capsys.readouterr()
     assert err == ""
     assert "spec.yaml: valid" in out
     assert "old/new by column 'supplier': old = 'Old Co', new = 'New Co'" in out
-    assert "exclude row 3: gauge dropped (by R. Ames); 2 measurements" in out
+    assert "exclude row 3: gauge dropped (by QE-11); 2 measurements" in out
     assert "width [mm]: target 10, limits [9.5, 10.5]" in out
     assert "old: n 3 in 2 lots (A1, A2)" in out
     assert "new: n 4 in 2 lots (B1, B2)" in out

@@ -147,13 +147,13 @@ def test_declared_missing_texts(tmp_path):
 
 
 def test_spec_exclusions_mark_rows_with_reason_and_name(tmp_path):
-    spec = BASE_SPEC + ("exclude:\n  - {row: 3, reason: gauge dropped, by: R. Ames}\n"
-                        "  - {lot: B2, reason: wrong tool, by: K. Oduya}\n")
+    spec = BASE_SPEC + ("exclude:\n  - {row: 3, reason: gauge dropped, by: QE-11}\n"
+                        "  - {lot: B2, reason: wrong tool, by: PE-04}\n")
     m = load(write_case(tmp_path, spec))
     t = m.table
     reasons = dict(zip(t["source_row"], t["exclusion_reason"], strict=False))
-    assert reasons[3] == "excluded by spec: gauge dropped (by R. Ames)"
-    assert reasons[8] == reasons[9] == "excluded by spec: wrong tool (by K. Oduya)"
+    assert reasons[3] == "excluded by spec: gauge dropped (by QE-11)"
+    assert reasons[8] == reasons[9] == "excluded by spec: wrong tool (by PE-04)"
     assert t["excluded"].sum() == 6
     assert m.files[0].rows_excluded == 3
 

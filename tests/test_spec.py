@@ -223,7 +223,7 @@ def test_planning_and_other_keys(tmp_path):
         "plan: {power: 0.8, true_shift: 0.01, pair_correlation: 0.5}\n"
         "supersedes_reason: margin corrected after the design review\n"
         "min_n: 30\nmultiplicity: holm\nunit_of_analysis: lot\n"
-        "exclude:\n  - {lot: A1, characteristic: width, reason: gauge drift, by: R. Ames}\n"
+        "exclude:\n  - {lot: A1, characteristic: width, reason: gauge drift, by: QE-11}\n"
     )
     text = edit(text, "shift: {margin: 0.1}", "shift: {margin: 0.1, detect: 0.05}")
     spec = load_spec(write_spec(tmp_path, text))
@@ -233,7 +233,7 @@ def test_planning_and_other_keys(tmp_path):
     assert spec.min_n == 30 and spec.multiplicity == "holm" and spec.unit_of_analysis == "lot"
     assert spec.characteristics[0].checks.shift.detect == 0.05
     (e,) = spec.exclude
-    assert (e.lot, e.row, e.characteristic, e.by) == ("A1", None, "width", "R. Ames")
+    assert (e.lot, e.row, e.characteristic, e.by) == ("A1", None, "width", "QE-11")
     assert e.line == line_of(text, "gauge drift")
 
 

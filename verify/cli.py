@@ -18,6 +18,7 @@ from collections.abc import Callable, Sequence
 from . import __version__
 from .cli_run import add_replay, add_run, cmd_replay, cmd_run
 from .errors import VerifyError
+from .nightly import add_nightly, nightly_main
 
 EXIT_OK = 0
 EXIT_INVALID = 2
@@ -214,6 +215,7 @@ COMMANDS: dict[str, tuple[Callable, Callable[[argparse.Namespace], int]]] = {
     "schema": (add_schema, cmd_schema),
     "run": (add_run, cmd_run),
     "replay": (add_replay, cmd_replay),
+    "nightly": (add_nightly, nightly_main),
 }
 
 

@@ -1,0 +1,85 @@
+"""How many complete characteristic evaluations run per second.
+
+A complete evaluation is every check (target TOST, shift TOST, spread, capability) and every
+diagnostic (normality, outliers, lot count and lot effect, stability, resolution, rank-test
+companions) and the power and sample-size figures, for one characteristic with n = 30 parts per
+process in 3 lots each. Prints the figures; asserts nothing about time.
+
+    python benchmarks/bench_evaluate.py [--characteristics 40] [--repeat 5]
+"""
+
+from __future__ import annotations
+
+import argparse
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+
+
+def make_spec(folder: Path, k: int, n: int = 30, seed: int = 7) -> Path:
+    rng = np.random.default_rng(seed)
+    rows = ["lot,process," + ",".join(f"c{i}" for i in range(k))]
+    for proc, shift in (("old", 0.0), ("new", 0.002)):
+        for j in range(n):
+            lot = f"{proc}-{j // 10}"
+            vals = 10.0 + shift + rng.normal(0, 0.01, k)
+            rows.append(f"{lot},{proc}," + ",".join(f"{v:.4f}" for v in vals))
+    (folder / "bench.csv").write_text("\n".join(rows) + "\n", encoding="utf-8")
+    chars = "\n".join(
+        f"""  - name: c{i}
+    column: c{i}
+    unit: mm
+    target: 10.0
+    limits: [9.95, 10.05]
+    checks:
+      target: {{margin: 0.02}}
+      shift: {{margin: 0.02}}
+      spread: {{}}
+      capability: {{min_cpk: 1.33}}"""
+        for i in range(k)
+    )
+    spec = f"""format: verify/1
+title: evaluation benchmark
+data:
+  file: bench.csv
+  lot: lot
+  process: process
+  old: old
+  new: new
+characteristics:
+{chars}
+"""
+    path = folder / "bench.yaml"
+    path.write_text(spec, encoding="utf-8")
+    return path
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--characteristics", type=int, default=40)
+    ap.add_argument("--repeat", type=int, default=5)
+    args = ap.parse_args()
+    from verify.data import load_measurements
+    from verify.evaluate import evaluate
+    from verify.spec import load_spec
+
+    with tempfile.TemporaryDirectory() as tmp:
+        spec = load_spec(make_spec(Path(tmp), args.characteristics))
+        meas = load_measurements(spec)
+        evaluate(spec, meas)  # warm-up: imports and caches
+        times = []
+        for _ in range(args.repeat):
+            t0 = time.perf_counter()
+            evaluate(spec, meas)
+            times.append(time.perf_counter() - t0)
+    best, med = min(times), float(np.median(times))
+    k = args.characteristics
+    print(f"complete characteristic evaluations (n = 30 per process, every check and "
+          f"diagnostic): {k / med:.1f} per second (median of {args.repeat}; best {k / best:.1f}/s;"
+          f" {1000 * med / k:.1f} ms each)")
+
+
+if __name__ == "__main__":
+    main()

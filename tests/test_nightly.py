@@ -1,0 +1,544 @@
+"""``verify nightly`` end to end: change detection, history, the decision of record, isolation,
+locking, a SIGKILL midway, the digest.
+
+The expectations follow from the rules of issue 6 (which run is skipped, which run locks the
+decision of record, which exit status), not from a statistics reference: the data are built so
+that every decision is far from its borderline (no shift against a margin of 10 sd, or a new
+lot 40 sd off target), so the statistics can only decide one way.
+"""
+
+from __future__ import annotations
+
+import io
+import json
+import os
+import re
+import signal
+import sqlite3
+import subprocess
+import sys
+import time
+import zipfile
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from verify.digest import DigestRow, Progress, summary_line, write_digest
+from verify.ledger import Ledger
+from verify.nightly import add_nightly_arguments, main_for_tests, run_nightly
+
+REPO = Path(__file__).resolve().parents[1]
+HISTORY = re.compile(r"^\d{8}T\d{6}Z-(PASS|HOLD|PENDING)(-\d+)?\.(xlsx|json)$")
+SD = 0.05
+
+
+# --- building specs and lot files --------------------------------------------------------------
+
+
+def _lot_rows(lot: str, line: str, mean: float, parts: int, seed: int) -> list[str]:
+    rng = np.random.default_rng(seed)
+    return [f"{lot},{line},{v:.4f}" for v in rng.normal(mean, SD, parts)]
+
+
+def write_spec(folder: Path, name: str, *, min_n: int | None = None, margin: float = 0.5,
+               new_lots: int = 2, parts: int = 10, extra: str = "") -> Path:
+    """A spec with old lots O1-O3 and new lots N1..N<new_lots>, all on target (10.0 mm)."""
+    folder.mkdir(parents=True, exist_ok=True)
+    rows = ["lot,line,bore"]
+    seed = sum(map(ord, name))
+    for i in range(1, 4):
+        rows += _lot_rows(f"O{i}", "old", 10.0, parts, seed + i)
+    for i in range(1, new_lots + 1):
+        rows += _lot_rows(f"N{i}", "new", 10.0, parts, seed + 100 + i)
+    (folder / f"{name}.csv").write_text("\n".join(rows) + "\n", encoding="utf-8")
+    spec = folder / f"{name}.yaml"
+    spec.write_text(
+        "format: verify/1\n"
+        f"title: Harrowgate Works bore check {name}\n"
+        "alpha: 0.05\n"
+        + (f"min_n: {min_n}\n" if min_n is not None else "")
+        + extra
+        + "data:\n"
+        f"  file: {name}.csv\n"
+        "  lot: lot\n"
+        "  process: line\n"
+        "  old: old\n"
+        "  new: new\n"
+        "characteristics:\n"
+        "  - name: bore\n"
+        "    unit: mm\n"
+        "    target: 10.0\n"
+        "    checks:\n"
+        f"      shift: {{margin: {margin}}}\n",
+        encoding="utf-8")
+    return spec
+
+
+def append_lot(folder: Path, name: str, lot: str, *, mean: float = 10.0, parts: int = 10,
+               line: str = "new") -> None:
+    with open(folder / f"{name}.csv", "a", encoding="utf-8") as f:
+        f.write("\n".join(_lot_rows(lot, line, mean, parts, sum(map(ord, lot)))) + "\n")
+
+
+def nightly(specs: Path, out: Path, *args: str, **kw):
+    """Run one nightly pass in this process; returns (result, stdout lines, stderr text)."""
+    err = io.StringIO()
+    buf = io.StringIO()
+    from contextlib import redirect_stdout
+
+    with redirect_stdout(buf):
+        result = run_nightly([str(specs)], out=out, progress_stream=err, command="test", **kw)
+    return result, buf.getvalue().splitlines(), err.getvalue()
+
+
+def states(result) -> dict[str, tuple[str, str | None]]:
+    return {r.name: (r.state, r.decision) for r in result.rows}
+
+
+def history(out: Path, name: str) -> list[str]:
+    return sorted(p.name for p in (out / name).iterdir() if HISTORY.match(p.name))
+
+
+@pytest.fixture
+def specs(tmp_path: Path) -> Path:
+    folder = tmp_path / "specs"
+    write_spec(folder, "bushing")  # no min_n: the first run locks a PASS
+    write_spec(folder, "housing", min_n=30)  # 20 new parts of 30: PENDING
+    return folder
+
+
+@pytest.fixture
+def out(tmp_path: Path) -> Path:
+    return tmp_path / "nightly"
+
+
+# --- change detection, history and the ledger --------------------------------------------------
+
+
+def test_first_run_writes_history_latest_digest_and_ledger(specs, out):
+    result, lines, err = nightly(specs, out)
+    assert states(result) == {"bushing": ("RUN", "PASS"), "housing": ("RUN", "PENDING")}
+    assert result.exit_status == 3  # a PENDING, no HOLD or error
+    for name, decision in (("bushing", "PASS"), ("housing", "PENDING")):
+        files = history(out, name)
+        assert len(files) == 2 and all(f"-{decision}." in f for f in files)
+        js, xlsx = (out / name / f for f in files)  # sorted: .json before .xlsx
+        doc = json.loads(js.read_text(encoding="utf-8"))
+        assert doc["decision"] == decision
+        assert doc["workbook"] == {"path": str(xlsx), "sha256": doc["workbook"]["sha256"]}
+        assert (out / name / "latest.json").read_text(encoding="utf-8") == js.read_text(
+            encoding="utf-8")
+        with zipfile.ZipFile(xlsx) as z:
+            assert z.testzip() is None
+    assert "first result" in lines[0] and lines[0].startswith("PASS")
+    assert "no decision of record yet" in lines[1]
+    assert lines[-1].startswith(f"nightly {result.run_id}: 2 spec(s): 2 ran, 0 unchanged")
+    assert result.digest.exists() and result.digest.name.startswith("digest-")
+    assert "nightly: [2/2]" in err  # plain log lines: the stream is not a terminal
+    with Ledger.open(out / "ledger.sqlite") as led:
+        entries = led.entries(run_id=result.run_id)
+        assert [e.state for e in entries] == ["RUN", "RUN"]
+        bushing = next(e for e in entries if e.spec_path.endswith("bushing.yaml"))
+        assert bushing.standing == "RECORD"
+        assert bushing.workbook_sha256 and Path(bushing.workbook_path).exists()
+        assert bushing.lots == {"new": ("N1", "N2"), "old": ("O1", "O2", "O3")}
+        assert [r.decision for r in led.records()] == ["PASS"]
+        assert led.runs()[0].exit_status == 3
+        assert led.integrity() == "ok"
+
+
+def test_second_run_skips_everything(specs, out):
+    first, _, _ = nightly(specs, out)
+    before = {n: history(out, n) for n in ("bushing", "housing")}
+    second, lines, _ = nightly(specs, out)
+    assert states(second) == {"bushing": ("UNCHANGED", "PASS"),
+                              "housing": ("UNCHANGED", "PENDING")}
+    assert second.exit_status == first.exit_status == 3  # unchanged specs carry their result
+    assert {n: history(out, n) for n in before} == before  # nothing rewritten
+    assert all("no change since the last run" in line for line in lines[:2])
+    with Ledger.open(out / "ledger.sqlite") as led:
+        runs = led.runs()
+        assert [r.unchanged for r in runs] == [0, 2]
+        for e in led.entries(run_id=second.run_id):
+            based = led.entry(e.based_on)
+            assert based.run_id == first.run_id and based.decision == e.decision
+
+
+def test_the_unchanged_path_imports_no_scipy_or_pandas(specs, out):
+    nightly(specs, out)
+    code = ("import sys\nfrom verify.nightly import main_for_tests\n"
+            f"rc = main_for_tests([{str(specs)!r}, '--out', {str(out)!r}])\n"
+            "print('heavy:', sorted(m for m in ('scipy', 'pandas', 'verify.evaluate') "
+            "if m in sys.modules))\nsys.exit(rc)\n")
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                          cwd=REPO, timeout=120)
+    assert proc.returncode == 3, proc.stderr
+    assert "heavy: []" in proc.stdout
+    assert proc.stdout.count("unchanged") >= 2
+
+
+def test_appending_a_lot_reruns_only_its_spec(specs, out):
+    nightly(specs, out)
+    append_lot(specs, "housing", "N3")
+    result, lines, _ = nightly(specs, out)
+    assert states(result) == {"bushing": ("UNCHANGED", "PASS"), "housing": ("RUN", "PASS")}
+    housing = next(line for line in lines if "housing" in line)
+    assert "1 new lot (N3)" in housing
+    assert "decision PENDING -> PASS" in housing
+    assert "decision of record locked: PASS" in housing  # 30 of 30 planned: the plan is done
+    assert result.exit_status == 0
+    assert len(history(out, "housing")) == 4 and len(history(out, "bushing")) == 2
+
+
+def test_a_changed_tool_version_reruns(specs, out, monkeypatch):
+    nightly(specs, out)
+    import verify.nightly as vn
+
+    monkeypatch.setattr(vn, "__version__", "99.0")
+    result, _, _ = nightly(specs, out)
+    assert {s for s, _ in states(result).values()} == {"RUN"}
+
+
+# --- the decision of record ------------------------------------------------------------------
+
+
+def test_pending_is_provisional_until_min_n_then_the_record_locks(specs, out):
+    first, _, _ = nightly(specs, out)
+    with Ledger.open(out / "ledger.sqlite") as led:
+        key = str((specs / "housing.yaml").resolve())
+        assert led.last_entry(key).standing == "PROVISIONAL"
+        assert led.record(key, led.last_entry(key).spec_sha256) is None
+    append_lot(specs, "housing", "N3")
+    nightly(specs, out)
+    with Ledger.open(out / "ledger.sqlite") as led:
+        rec = led.latest_record(key)
+        assert rec.decision == "PASS" and rec.basis == "every process reached min_n"
+        latest = json.loads((out / "housing" / "latest.json").read_text(encoding="utf-8"))
+        assert latest["monitoring"].startswith("decision of record: PASS, locked by this run")
+        assert rec.result_path == led.last_entry(key).result_path
+
+
+def test_drift_is_flagged_and_the_decision_of_record_stays(specs, out):
+    nightly(specs, out)  # bushing: PASS locked (no min_n)
+    append_lot(specs, "bushing", "N3", mean=12.0)  # 40 sd off: the shift is now beyond 0.5
+    result, lines, _ = nightly(specs, out)
+    assert states(result)["bushing"] == ("RUN", "HOLD")
+    assert result.exit_status == 1  # drift (and a HOLD)
+    line = next(line for line in lines if "bushing" in line)
+    assert "DRIFT: overall PASS -> HOLD; bore PASS -> HOLD" in line
+    latest = json.loads((out / "bushing" / "latest.json").read_text(encoding="utf-8"))
+    assert latest["decision"] == "HOLD"
+    assert latest["monitoring"].startswith("monitoring; decision of record: PASS on ")
+    assert "drift: these data would decide HOLD" in latest["monitoring"]
+    key = str((specs / "bushing.yaml").resolve())
+    with Ledger.open(out / "ledger.sqlite") as led:
+        records = [r for r in led.records() if r.spec_path == key]
+        assert [r.decision for r in records] == ["PASS"]  # the record stands
+        e = led.last_entry(key)
+        assert e.drift and e.standing == "MONITORING" and e.record_id == records[0].id
+    again, _, _ = nightly(specs, out)  # nothing new: the drift is carried, still exit 1
+    assert states(again)["bushing"] == ("UNCHANGED", "HOLD")
+    assert again.exit_status == 1
+    assert any(r.drift for r in again.rows)
+
+
+def test_final_locks_a_pending_spec(specs, out):
+    nightly(specs, out)
+    result, _, _ = nightly(specs, out, final=True)
+    # bushing has its record already and is unchanged; housing runs again to lock one
+    assert states(result) == {"bushing": ("UNCHANGED", "PASS"), "housing": ("RUN", "PASS")}
+    with Ledger.open(out / "ledger.sqlite") as led:
+        key = str((specs / "housing.yaml").resolve())
+        rec = led.latest_record(key)
+        assert rec.final and rec.basis.startswith("--final")
+    later, _, _ = nightly(specs, out)  # without --final: unchanged, the final record stands
+    assert states(later)["housing"] == ("UNCHANGED", "PASS")
+    append_lot(specs, "housing", "N3")
+    monitored, _, _ = nightly(specs, out)  # evaluated as final, as its record was
+    assert states(monitored)["housing"] == ("RUN", "PASS")
+    assert not any(r.drift for r in monitored.rows)
+
+
+def test_an_edited_spec_starts_a_record_that_supersedes_the_old_one(specs, out):
+    nightly(specs, out)
+    write_spec(specs, "bushing", margin=0.4,
+               extra="supersedes_reason: margin tightened to 0.4 mm after the design review\n")
+    result, lines, _ = nightly(specs, out)
+    assert states(result)["bushing"] == ("RUN", "PASS")
+    key = str((specs / "bushing.yaml").resolve())
+    with Ledger.open(out / "ledger.sqlite") as led:
+        old, new = [r for r in led.records() if r.spec_path == key]
+        assert old.spec_sha256 != new.spec_sha256
+        assert new.supersedes == old.id
+        assert new.supersedes_reason == "margin tightened to 0.4 mm after the design review"
+    latest = json.loads((out / "bushing" / "latest.json").read_text(encoding="utf-8"))
+    assert "supersedes the record of the earlier spec version, PASS on" in latest["monitoring"]
+
+
+# --- isolation -------------------------------------------------------------------------------
+
+
+def test_an_error_spec_is_recorded_and_the_others_results_stay_intact(specs, out):
+    nightly(specs, out)
+    kept = {n: {f: (out / n / f).read_bytes() for f in history(out, n) + ["latest.json"]}
+            for n in ("bushing", "housing")}
+    with open(specs / "housing.csv", "a", encoding="utf-8") as f:
+        f.write("N3,new,n/a-ish\n")  # a cell that is not a number
+    (specs / "broken.yaml").write_text("format: verify/1\ntitle: [unclosed\n", encoding="utf-8")
+    write_spec(specs, "fresh")
+    result, lines, _ = nightly(specs, out)
+    assert states(result) == {"broken": ("ERROR", None), "bushing": ("UNCHANGED", "PASS"),
+                              "fresh": ("RUN", "PASS"), "housing": ("ERROR", None)}
+    assert result.exit_status == 2
+    by_name = {r.name: r for r in result.rows}
+    assert "housing.csv" in by_name["housing"].error and "row 52" in by_name["housing"].error
+    assert "YAML" in by_name["broken"].error
+    assert any(line.startswith("-        ERROR") and "housing" in line for line in lines)
+    for n, files in kept.items():  # the earlier results, latest.json included, are untouched
+        for f, content in files.items():
+            assert (out / n / f).read_bytes() == content
+    with Ledger.open(out / "ledger.sqlite") as led:
+        errors = [e for e in led.entries(run_id=result.run_id) if e.state == "ERROR"]
+        assert len(errors) == 2 and all(e.error for e in errors)
+    again, _, _ = nightly(specs, out)  # an error is never skipped as unchanged
+    assert states(again)["housing"] == ("ERROR", None)
+    assert states(again)["fresh"] == ("UNCHANGED", "PASS")
+
+
+def test_data_outside_the_data_root_is_refused(tmp_path, out):
+    inside = tmp_path / "lots"
+    write_spec(inside, "ok")
+    elsewhere = tmp_path / "elsewhere"
+    write_spec(elsewhere, "stray")
+    spec = (elsewhere / "stray.yaml").read_text(encoding="utf-8")
+    folder = tmp_path / "specs"
+    folder.mkdir()
+    (folder / "ok.yaml").write_text(
+        (inside / "ok.yaml").read_text(encoding="utf-8").replace("file: ok.csv",
+                                                                  "file: ../lots/ok.csv"),
+        encoding="utf-8")
+    (folder / "stray.yaml").write_text(spec.replace("file: stray.csv",
+                                                    "file: ../elsewhere/stray.csv"),
+                                       encoding="utf-8")
+    result, _, _ = nightly(folder, out, data_root=inside)
+    assert states(result) == {"ok": ("RUN", "PASS"), "stray": ("ERROR", None)}
+    stray = next(r for r in result.rows if r.name == "stray")
+    assert "outside --data-root" in stray.error
+    assert not (out / "stray").exists()  # nothing written for a refused spec
+
+
+def test_jobs_two_gives_the_same_results(specs, out, tmp_path):
+    write_spec(specs, "third", margin=0.5)
+    one, _, _ = nightly(specs, out)
+    two, _, _ = nightly(specs, tmp_path / "two", jobs=2)
+    assert states(one) == states(two)
+
+
+def test_history_is_never_overwritten_within_one_second(specs, out, monkeypatch):
+    monkeypatch.setenv("SOURCE_DATE_EPOCH", "1735790400")  # every run at 2025-01-02 04:00:00
+    nightly(specs, out)
+    append_lot(specs, "bushing", "N3")
+    nightly(specs, out)
+    assert history(out, "bushing") == [
+        "20250102T040000Z-PASS-2.json", "20250102T040000Z-PASS-2.xlsx",
+        "20250102T040000Z-PASS.json", "20250102T040000Z-PASS.xlsx"]
+    assert sorted(p.name for p in out.glob("digest-*")) == [
+        "digest-2025-01-02-2.xlsx", "digest-2025-01-02.xlsx"]
+
+
+# --- two processes, and a SIGKILL -------------------------------------------------------------
+
+
+def _start(specs: Path, out: Path, *args: str) -> subprocess.Popen:
+    return subprocess.Popen(
+        [sys.executable, "-m", "verify.nightly", str(specs), "--out", str(out), *args],
+        cwd=REPO, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+        start_new_session=True)
+
+
+def _wait_for(predicate, timeout: float = 60.0) -> None:
+    deadline = time.monotonic() + timeout
+    while not predicate():
+        if time.monotonic() > deadline:
+            raise TimeoutError("condition not reached")
+        time.sleep(0.05)
+
+
+def _lock_held(out: Path) -> bool:
+    lock = out / "ledger.sqlite.lock"
+    return lock.exists() and lock.stat().st_size > 0
+
+
+@pytest.mark.slow
+def test_two_concurrent_runs_leave_the_ledger_consistent(tmp_path, out):
+    folder = tmp_path / "specs"
+    for i in range(6):
+        write_spec(folder, f"spec{i}")
+    first = _start(folder, out)
+    try:
+        _wait_for(lambda: _lock_held(out))
+        impatient = _start(folder, out, "--lock-timeout", "0.2")
+        patient = _start(folder, out, "--lock-timeout", "120")
+        _, err = impatient.communicate(timeout=60)
+        assert impatient.returncode == 2
+        assert "another nightly run (pid" in err and "holds the ledger lock since" in err
+        assert "try again later" in err
+        first_out, _ = first.communicate(timeout=120)
+        patient_out, _ = patient.communicate(timeout=120)
+    finally:
+        for p in (first,):
+            if p.poll() is None:
+                os.killpg(p.pid, signal.SIGKILL)
+    assert first.returncode == 0 and patient.returncode == 0
+    assert first_out.count(" ran ") == 6 and patient_out.count(" unchanged ") == 6
+    with Ledger.open(out / "ledger.sqlite") as led:
+        assert led.integrity() == "ok"
+        runs = led.runs()
+        assert [(r.ran, r.unchanged) for r in runs] == [(6, 0), (0, 6)]
+        for r in runs:
+            assert len(led.entries(run_id=r.run_id)) == 6
+        assert len(led.records()) == 6
+
+
+@pytest.mark.slow
+def test_sigkill_midway_leaves_no_partial_output_and_the_next_run_continues(tmp_path, out):
+    folder = tmp_path / "specs"
+    n = 16
+    for i in range(n):
+        write_spec(folder, f"spec{i:02d}")
+    proc = _start(folder, out)
+    ledger = out / "ledger.sqlite"
+
+    def written() -> int:
+        if not ledger.exists():
+            return 0
+        con = sqlite3.connect(f"file:{ledger}?mode=ro", uri=True, timeout=5)
+        try:
+            return con.execute("SELECT COUNT(*) FROM entries").fetchone()[0]
+        except sqlite3.OperationalError:
+            return 0
+        finally:
+            con.close()
+
+    try:
+        _wait_for(lambda: written() >= 3)
+        time.sleep(0.15)  # land inside the next spec's writing, most likely
+    finally:
+        os.killpg(proc.pid, signal.SIGKILL)  # the run and its worker, as a crash would
+        proc.communicate(timeout=30)
+    assert proc.returncode == -signal.SIGKILL
+
+    # Every file a reader could take for a result is complete; temporary files are hidden.
+    visible = [p for p in out.rglob("*") if p.is_file() and not p.name.startswith(".")]
+    for p in visible:
+        if p.suffix == ".xlsx":
+            with zipfile.ZipFile(p) as z:
+                assert z.testzip() is None
+        elif p.suffix == ".json":
+            assert json.loads(p.read_text(encoding="utf-8"))["format"] == "verify-result/1"
+    assert all(p.name.startswith(".") for p in out.rglob("*.part*"))
+
+    with Ledger.open(ledger) as led:
+        assert led.integrity() == "ok"
+        assert led.runs() == []  # the killed run never completed
+        done = {e.spec_path for e in led.entries()}
+    assert 3 <= len(done) < n
+
+    result, _, _ = nightly(folder, out)
+    ran = {r.name for r in result.rows if r.state == "RUN"}
+    unchanged = {r.name for r in result.rows if r.state == "UNCHANGED"}
+    assert len(unchanged) == len(done) and len(ran) == n - len(done)
+    assert result.exit_status == 0
+    assert list(out.rglob("*.part*")) == []  # the next run cleared the leftovers
+    for r in result.rows:
+        latest = json.loads((out / r.name / "latest.json").read_text(encoding="utf-8"))
+        assert latest["decision"] == "PASS"
+
+
+# --- the command, the digest, progress ----------------------------------------------------------
+
+
+def test_command_line_usage_errors(tmp_path, capsys):
+    empty = tmp_path / "empty"
+    empty.mkdir()
+    assert main_for_tests([str(empty), "--out", str(tmp_path / "o")]) == 2
+    assert "no spec files" in capsys.readouterr().err
+    assert main_for_tests([str(empty), "--jobs", "0"]) == 2
+    assert "must be at least 1" in capsys.readouterr().err
+    assert main_for_tests([str(tmp_path), "--data-root", str(tmp_path / "nope")]) == 2
+    assert "no such folder" in capsys.readouterr().err
+    assert not (tmp_path / "o").exists()
+
+
+def test_the_sub_command_hooks_into_a_verify_parser(tmp_path, specs, capsys):
+    import argparse
+
+    from verify.nightly import add_nightly, nightly_main
+
+    parser = argparse.ArgumentParser(prog="verify")
+    sub = parser.add_subparsers(dest="command", required=True)
+    add_nightly(sub).set_defaults(func=nightly_main)
+    args = parser.parse_args(["nightly", str(specs), "--out", str(tmp_path / "o"), "--jobs", "2"])
+    assert args.func(args) == 3
+    assert "2 ran, 0 unchanged" in capsys.readouterr().out
+
+
+def test_parser_defaults():
+    import argparse
+
+    args = add_nightly_arguments(argparse.ArgumentParser()).parse_args(["specs"])
+    assert (args.out, args.ledger, args.jobs, args.data_root, args.final, args.lock_timeout) == (
+        "reports/nightly", None, 1, None, False, 60.0)
+
+
+def test_digest_workbook_has_a_row_per_spec_and_keeps_text_as_text(tmp_path):
+    from openpyxl import load_workbook
+
+    rows = [
+        DigestRow("bushing", "specs/bushing.yaml", "RUN", decision="HOLD",
+                  previous_decision="PASS", standing="MONITORING",
+                  record="PASS on 2025-01-02, run r1", drift=True,
+                  drift_note="overall PASS -> HOLD", new_lots=('=HYPERLINK("x")', "+1")),
+        DigestRow("housing", "specs/housing.yaml", "ERROR", error="housing.csv, row 3: bad"),
+    ]
+    path = tmp_path / "digest.xlsx"
+    write_digest(path, rows, run=[("run", "r2"), ("started", "s"), ("finished", "f")])
+    ws = load_workbook(path)["Digest"]
+    header = [c.value for c in ws[4]]
+    assert header[:3] == ["Spec", "State", "Decision"]
+    first = {h: c for h, c in zip(header, ws[5], strict=True)}
+    assert first["Spec"].value == "bushing" and first["Drift"].value == "yes"
+    assert first["New lots"].value == 2
+    assert first["New lot ids"].value == '=HYPERLINK("x"), +1'
+    assert first["New lot ids"].data_type == "s"  # text, never a formula
+    second = {h: c.value for h, c in zip(header, ws[6], strict=True)}
+    assert second["State"] == "ERROR" and second["Error"] == "housing.csv, row 3: bad"
+
+
+def test_summary_lines_say_what_changed():
+    row = DigestRow("housing", "s", "RUN", decision="PASS", previous_decision="PENDING",
+                    standing="RECORD", new_lots=("N3", "N4"))
+    assert summary_line(row) == ("PASS     ran        housing: 2 new lots (N3, N4); decision "
+                                 "PENDING -> PASS; decision of record locked: PASS")
+    err = DigestRow("broken", "s", "ERROR", error="broken.yaml:2: YAML syntax error\nmore")
+    assert summary_line(err) == ("-        ERROR      broken: error: broken.yaml:2: YAML syntax "
+                                 "error (+1 more lines)")
+
+
+class _Terminal(io.StringIO):
+    def isatty(self) -> bool:
+        return True
+
+
+def test_progress_is_a_bar_on_a_terminal_and_log_lines_otherwise():
+    rows = [DigestRow(f"s{i}", "p", "UNCHANGED", decision="PASS") for i in range(3)]
+    tty, plain = _Terminal(), io.StringIO()
+    for stream in (tty, plain):
+        p = Progress(total=3, stream=stream)
+        for r in rows:
+            p.step(r)
+    assert tty.getvalue().count("\r") == 3 and "[" + "#" * 30 + "] 3/3" in tty.getvalue()
+    assert plain.getvalue().splitlines() == [
+        "nightly: [1/3] s0: unchanged PASS", "nightly: [2/3] s1: unchanged PASS",
+        "nightly: [3/3] s2: unchanged PASS"]

@@ -1,0 +1,209 @@
+"""The morning digest of a nightly run: a small workbook, one text line per spec, progress.
+
+The digest says, for every spec, its state on this run (ran, unchanged, error) and what changed
+since its previous result: new lots and their count, a changed decision, drift from the decision
+of record, and errors. :func:`write_digest` writes ``<out>/digest-<date>.xlsx`` (openpyxl, a row
+per spec); :func:`summary_line` gives the plain-text line printed on stdout.
+"""
+
+from __future__ import annotations
+
+import sys
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import TextIO
+
+EXIT_MEANINGS = (
+    (0, "every spec PASS (or unchanged since a PASS), no drift, no error"),
+    (1, "some spec HOLD, or drift from a decision of record; no error"),
+    (2, "some spec ERROR (bad spec or data, data outside --data-root), or the ledger is locked "
+        "by another nightly run, or invalid arguments"),
+    (3, "some spec PENDING (planned data still arriving); no HOLD, drift or error"),
+)
+
+
+@dataclass(frozen=True)
+class DigestRow:
+    """One spec's line of the digest."""
+
+    name: str  # the spec's stem (its output folder's name)
+    spec_path: str
+    state: str  # RUN | UNCHANGED | ERROR
+    decision: str | None = None
+    previous_decision: str | None = None  # of the previous result, if any
+    standing: str | None = None  # PROVISIONAL | RECORD | MONITORING
+    record: str | None = None  # "PASS on 2025-01-02, run <id>"
+    drift: bool = False
+    drift_note: str | None = None
+    new_lots: tuple[str, ...] = ()
+    first_result: bool = False  # no previous result to compare with
+    error: str | None = None
+    workbook: str | None = None
+
+    def changes(self) -> list[str]:
+        """What changed since the previous result, in words (empty: nothing)."""
+        if self.state == "ERROR":
+            return [f"error: {_first_line(self.error)}"]
+        if self.state == "UNCHANGED":
+            out = ["no change since the last run"]
+        elif self.first_result:
+            out = ["first result"]
+        else:
+            out = []
+            if self.new_lots:
+                out.append(f"{len(self.new_lots)} new lot{'s' if len(self.new_lots) > 1 else ''}"
+                           f" ({_short_list(self.new_lots)})")
+            if self.decision != self.previous_decision:
+                out.append(f"decision {self.previous_decision} -> {self.decision}")
+            if not out:
+                out.append("inputs changed, same decision")
+        if self.standing == "RECORD" and self.state == "RUN":
+            out.append(f"decision of record locked: {self.decision}")
+        elif self.record:
+            out.append(f"decision of record {self.record}")
+        elif self.standing == "PROVISIONAL":
+            out.append("no decision of record yet")
+        if self.drift:
+            out.append(f"DRIFT: {self.drift_note}")
+        return out
+
+
+def _first_line(text: str | None) -> str:
+    lines = [ln.strip() for ln in (text or "").splitlines() if ln.strip()]
+    if not lines:
+        return "(no message)"
+    return lines[0] + (f" (+{len(lines) - 1} more lines)" if len(lines) > 1 else "")
+
+
+def _short_list(items: Sequence[str], limit: int = 5) -> str:
+    shown = ", ".join(items[:limit])
+    return shown + (f", ... {len(items) - limit} more" if len(items) > limit else "")
+
+
+_STATE_WORD = {"RUN": "ran", "UNCHANGED": "unchanged", "ERROR": "ERROR"}
+
+
+def summary_line(row: DigestRow, width: int = 0) -> str:
+    """The plain-text line of one spec: decision, state, name and what changed.
+
+    Examples
+    --------
+    >>> summary_line(DigestRow("bushing", "specs/bushing.yaml", "UNCHANGED", decision="PASS"))
+    'PASS     unchanged  bushing: no change since the last run'
+    """
+    decision = row.decision if row.state != "ERROR" else "-"
+    label = f"{row.name}:"
+    return (f"{decision or '-':<8} {_STATE_WORD[row.state]:<10} {label:<{width + 1}} "
+            + "; ".join(row.changes()))
+
+
+@dataclass
+class Progress:
+    """Progress on stderr: a bar redrawn in place on a terminal, plain log lines otherwise."""
+
+    total: int
+    stream: TextIO = field(default_factory=lambda: sys.stderr)
+    done: int = 0
+
+    @property
+    def tty(self) -> bool:
+        isatty = getattr(self.stream, "isatty", None)
+        return bool(isatty and isatty())
+
+    def step(self, row: DigestRow) -> None:
+        self.done += 1
+        if self.tty:
+            width = 30
+            filled = int(width * self.done / max(self.total, 1))
+            self.stream.write(f"\rnightly [{'#' * filled}{'.' * (width - filled)}] "
+                              f"{self.done}/{self.total} {row.name[:30]:<30}")
+            if self.done >= self.total:
+                self.stream.write("\n")
+        else:
+            self.stream.write(f"nightly: [{self.done}/{self.total}] {row.name}: "
+                              f"{_STATE_WORD[row.state]} {row.decision or ''}".rstrip() + "\n")
+        self.stream.flush()
+
+    def note(self, text: str) -> None:
+        if self.tty and 0 < self.done < self.total:
+            self.stream.write("\n")
+        self.stream.write(f"nightly: {text}\n")
+        self.stream.flush()
+
+
+_FILL = {"PASS": "C6EFCE", "HOLD": "FFC7CE", "PENDING": "FFEB9C", "ERROR": "FFC7CE"}
+_HEADERS = ("Spec", "State", "Decision", "Previous decision", "Standing", "Decision of record",
+            "Drift", "Drift detail", "New lots", "New lot ids", "What changed", "Error",
+            "Workbook", "Spec file")
+_WIDTHS = (24, 11, 10, 11, 13, 40, 7, 40, 9, 30, 50, 50, 40, 40)
+
+
+def write_digest(path: Path, rows: Sequence[DigestRow], *, run: Sequence[tuple[str, str]],
+                 ) -> None:
+    """Write the digest workbook to ``path`` (the caller renames it into place).
+
+    Every text cell is stored as text: a spec name or a lot id such as ``=HYPERLINK("x")``
+    never becomes a formula.
+    """
+    from openpyxl import Workbook
+    from openpyxl.styles import Alignment, Font, PatternFill
+
+    wb = Workbook()
+    ws = wb.active
+    ws.title = "Digest"
+
+    def put(r: int, c: int, value, **style):
+        cell = ws.cell(row=r, column=c, value=value)
+        if isinstance(value, str):
+            cell.data_type = "s"  # text from input files is never a formula
+        for k, v in style.items():
+            setattr(cell, k, v)
+        return cell
+
+    put(1, 1, "Nightly digest", font=Font(bold=True, size=14))
+    put(2, 1, "; ".join(f"{k}: {v}" for k, v in run[:3]))
+    header_row = 4
+    for c, h in enumerate(_HEADERS, start=1):
+        put(header_row, c, h, font=Font(bold=True),
+            fill=PatternFill("solid", fgColor="D9D9D9"),
+            alignment=Alignment(wrap_text=True, vertical="top"))
+    for i, row in enumerate(rows, start=header_row + 1):
+        values = (row.name, _STATE_WORD[row.state], row.decision or "",
+                  row.previous_decision or "", row.standing or "", row.record or "",
+                  "yes" if row.drift else "no", row.drift_note or "", len(row.new_lots),
+                  ", ".join(row.new_lots), "; ".join(row.changes()), row.error or "",
+                  row.workbook or "", row.spec_path)
+        for c, v in enumerate(values, start=1):
+            put(i, c, v, alignment=Alignment(vertical="top", wrap_text=c in (8, 11, 12)))
+        key = "ERROR" if row.state == "ERROR" else row.decision
+        if key in _FILL:
+            fill = PatternFill("solid", fgColor=_FILL[key])
+            ws.cell(row=i, column=2 if row.state == "ERROR" else 3).fill = fill
+        if row.drift:
+            ws.cell(row=i, column=7).fill = PatternFill("solid", fgColor=_FILL["HOLD"])
+    for c, w in enumerate(_WIDTHS, start=1):
+        ws.column_dimensions[ws.cell(row=header_row, column=c).column_letter].width = w
+    last = header_row + max(len(rows), 1)
+    ws.auto_filter.ref = f"A{header_row}:{ws.cell(row=last, column=len(_HEADERS)).coordinate}"
+    ws.freeze_panes = ws.cell(row=header_row + 1, column=2)
+    ws.page_setup.orientation = "landscape"
+    ws.page_setup.fitToWidth = 1
+    ws.page_setup.fitToHeight = 0
+    ws.sheet_properties.pageSetUpPr.fitToPage = True
+
+    info = wb.create_sheet("Run")
+    for r, (k, v) in enumerate(run, start=1):
+        info.cell(row=r, column=1, value=k).font = Font(bold=True)
+        cell = info.cell(row=r, column=2, value=v)
+        if isinstance(v, str):
+            cell.data_type = "s"
+    r = len(run) + 2
+    info.cell(row=r, column=1, value="Exit status").font = Font(bold=True)
+    for code, meaning in EXIT_MEANINGS:
+        r += 1
+        info.cell(row=r, column=1, value=code)
+        info.cell(row=r, column=2, value=meaning)
+    info.column_dimensions["A"].width = 18
+    info.column_dimensions["B"].width = 100
+    wb.save(path)
