@@ -51,15 +51,28 @@ def read_record(path: Path) -> tuple[dict, str]:
             raise ReportError(f"{path}: not a verify result (format is not verify-result/1)")
         return doc, doc["spec"]["text"]
     if suffix == ".xlsx":
-        from .report.workbook import read_record_sheet, read_spec_sheet
+        import zipfile
+
+        from openpyxl import load_workbook
+
+        from .report.workbook import read_record, read_spec_text
 
         try:
-            record = read_record_sheet(path)
-            spec_text = read_spec_sheet(path)
-        except (KeyError, ValueError, OSError) as err:
-            raise ReportError(f"{path}: not a verify workbook, or its record is damaged ({err})"
-                              ) from err
-        doc = json.loads(record)
+            wb = load_workbook(path, read_only=True)
+            try:
+                record = read_record(wb)
+                spec_text = read_spec_text(wb)
+            finally:
+                wb.close()
+        except (KeyError, ValueError, TypeError, OSError, zipfile.BadZipFile) as err:
+            raise ReportError(
+                f"{path}: not a verify workbook, or its record is damaged ({err})") from err
+        if record is None:
+            raise ReportError(f"{path}: this workbook carries no verify record; replay its .json")
+        try:
+            doc = json.loads(record)
+        except json.JSONDecodeError as err:
+            raise ReportError(f"{path}: the workbook's record is damaged ({err})") from err
         return doc, spec_text
     raise ReportError(f"{path}: replay reads a .json or .xlsx report, not '{suffix}'")
 

@@ -1,0 +1,203 @@
+"""The audit sheet: which data, which rules and which software produced the decision.
+
+Sections: the run (id, times, user, host, command line), the software (tool version, git
+commit, library versions), the spec (file and sha256), each data file (path, sha256, size,
+rows read, used, excluded with reasons), unmatched pairs and other loading notes, every
+resolved parameter with whether it came from a default, the decision rules in words and the
+caution.
+"""
+
+from __future__ import annotations
+
+from openpyxl.styles import Font
+
+from ..model import Evaluation
+from .cells import (
+    INK,
+    INT_FORMAT,
+    NOTE_FONT,
+    TITLE_FONT,
+    WRAP,
+    fit_rows,
+    header_row,
+    put,
+    section,
+)
+
+_LABEL = Font(bold=True, color=INK)
+
+
+def _pairs(ws, row: int, items) -> int:
+    for label, value in items:
+        put(ws, row, 1, label, font=_LABEL)
+        put(ws, row, 2, value, fmt=INT_FORMAT if isinstance(value, int) else None, align=WRAP)
+        row += 1
+    return row
+
+
+def write_audit(ws, ev: Evaluation) -> None:
+    ws.column_dimensions["A"].width = 34
+    ws.column_dimensions["B"].width = 70
+    for col, w in zip("CDEFGH", (14, 12, 12, 12, 12, 48), strict=True):
+        ws.column_dimensions[col].width = w
+    put(ws, 1, 1, "Audit trail", font=TITLE_FONT)
+    put(ws, 2, 1, "Everything needed to trace this decision and to replay the run.", font=NOTE_FONT)
+    run = ev.run
+    row = 4
+    section(ws, row, "Run")
+    row = _pairs(
+        ws,
+        row + 1,
+        (
+            ("Run id", run.run_id),
+            ("Started (UTC)", run.started),
+            ("Finished (UTC)", run.finished),
+            ("User", run.user),
+            ("Host", run.host),
+            ("Command line", run.command),
+            ("Final run (--final)", "yes" if ev.final else "no"),
+        ),
+    )
+    row += 1
+    section(ws, row, "Software")
+    items = [
+        ("verify version", run.tool_version),
+        ("git commit", run.git_commit or "(not run from a git checkout)"),
+    ]
+    items += [(f"{k} version", v) for k, v in run.versions.items()]
+    row = _pairs(ws, row + 1, items)
+    row += 1
+    section(ws, row, "Spec")
+    row = _pairs(
+        ws,
+        row + 1,
+        (
+            ("Spec file", str(ev.spec.path)),
+            ("Spec sha256", ev.spec.sha256),
+            ("Format", ev.spec.format),
+            ("Title", ev.spec.title),
+            ("Change id", ev.spec.change_id or ""),
+            ("Supersedes reason", ev.spec.supersedes_reason or ""),
+            ("Spec text", "verbatim on the sheet 'Spec text'"),
+        ),
+    )
+    row += 1
+    section(ws, row, "Data files")
+    row += 1
+    header_row(
+        ws,
+        row,
+        1,
+        [
+            "Path (as in the spec)",
+            "sha256",
+            "Size (bytes)",
+            "Rows read",
+            "Rows used",
+            "Rows excluded",
+            "Encoding",
+            "Resolved path / sheet",
+        ],
+    )
+    row += 1
+    for f in ev.measurements.files:
+        where = f.resolved_path + (f" (sheet {f.sheet})" if f.sheet else "")
+        values = [
+            f.path,
+            f.sha256,
+            f.size,
+            f.rows_read,
+            f.rows_used,
+            f.rows_excluded,
+            f.encoding,
+            where,
+        ]
+        for j, v in enumerate(values, start=1):
+            put(ws, row, j, v, fmt=INT_FORMAT if isinstance(v, int) else None, align=WRAP)
+        row += 1
+        for reason, n in f.exclusions:
+            put(ws, row, 1, "  excluded", font=NOTE_FONT)
+            put(ws, row, 2, reason, align=WRAP)
+            put(ws, row, 3, n, fmt=INT_FORMAT)
+            put(ws, row, 4, "measurements", font=NOTE_FONT)
+            row += 1
+    if not ev.measurements.files:
+        put(ws, row, 1, "No data files.", font=NOTE_FONT)
+        row += 1
+
+    row += 1
+    section(ws, row, "Exclusions declared in the spec")
+    row += 1
+    if ev.spec.exclude:
+        header_row(ws, row, 1, ["Reason", "By", "Lot", "Row", "Spec line"])
+        row += 1
+        for e in ev.spec.exclude:
+            for j, v in enumerate((e.reason, e.by, e.lot, e.row, e.line), start=1):
+                put(ws, row, j, v, align=WRAP)
+            row += 1
+    else:
+        put(ws, row, 1, "None.", font=NOTE_FONT)
+        row += 1
+
+    row += 1
+    section(ws, row, "Unmatched pairs and other loading notes")
+    row += 1
+    any_note = False
+    for c in ev.characteristics:
+        if c.unmatched_pairs:
+            any_note = True
+            put(
+                ws,
+                row,
+                1,
+                f"{c.name}: {len(c.unmatched_pairs)} pair keys with one side only",
+                font=_LABEL,
+                align=WRAP,
+            )
+            put(ws, row, 2, ", ".join(c.unmatched_pairs), align=WRAP)
+            row += 1
+    if ev.measurements.unassigned_lots:
+        any_note = True
+        put(ws, row, 1, "Lots in neither lot list", font=_LABEL, align=WRAP)
+        put(ws, row, 2, ", ".join(ev.measurements.unassigned_lots), align=WRAP)
+        row += 1
+    for note in ev.measurements.notes:
+        any_note = True
+        put(ws, row, 1, "Note", font=_LABEL)
+        put(ws, row, 2, note, align=WRAP)
+        row += 1
+    if not any_note:
+        put(ws, row, 1, "None.", font=NOTE_FONT)
+        row += 1
+
+    row += 1
+    section(ws, row, "Resolved parameters")
+    row += 1
+    header_row(ws, row, 1, ["Key path", "Value", "From"])
+    row += 1
+    for key, value, is_default in ev.spec.resolved:
+        put(ws, row, 1, key)
+        put(ws, row, 2, value, align=WRAP)
+        put(ws, row, 3, "default" if is_default else "spec")
+        row += 1
+
+    row += 1
+    section(ws, row, "Decision rules")
+    row += 1
+    for i, rule in enumerate(ev.rules, start=1):
+        put(ws, row, 1, f"Rule {i}", font=_LABEL)
+        put(ws, row, 2, rule, align=WRAP)
+        ws.merge_cells(start_row=row, start_column=2, end_row=row, end_column=8)
+        ws.row_dimensions[row].height = 15 * max(1, -(-len(rule) // 150))
+        row += 1
+    row += 1
+    section(ws, row, "Caution")
+    row += 1
+    put(ws, row, 1, ev.caution, font=Font(bold=True, color=INK), align=WRAP)
+    ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=8)
+    ws.row_dimensions[row].height = 15 * max(2, -(-len(ev.caution) // 170))
+    fit_rows(ws)
+    ws.page_setup.orientation = "landscape"
+    ws.page_setup.fitToWidth = 1
+    ws.page_setup.fitToHeight = 0
+    ws.sheet_properties.pageSetUpPr.fitToPage = True

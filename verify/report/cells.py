@@ -1,0 +1,280 @@
+"""Cell-level helpers for the workbook: safe text, number formats, palette, sheet names.
+
+Two rules hold for every cell the report writes:
+
+* Text from input files (lot ids, pair keys, file names, reasons) is always stored as text. A
+  string such as ``=HYPERLINK("x")``, ``+1``, ``@SUM(A1)`` or ``#N/A`` never becomes a formula
+  or an error value (:func:`put` forces the string type).
+* Stored values are never rounded; only the number format decides what a reader sees. ``None``
+  and NaN leave the cell empty (never the text "nan"); an infinite bound of a one-sided interval
+  is written as the text ``-∞`` or ``+∞``.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from collections.abc import Iterable
+
+import numpy as np
+from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
+
+# Characters XML 1.0 cannot carry at all (not even as character references), plus the
+# non-characters U+FFFE/U+FFFF and lone surrogates. They are dropped from text cells.
+XML_ILLEGAL = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ud800-\udfff\ufffe\uffff]")
+EXCEL_CELL_MAX = 32_767  # characters in one cell
+SHEET_NAME_FORBIDDEN = re.compile(r"[\[\]:*?/\\]")
+SHEET_NAME_MAX = 31
+
+# --- palette (our own) ------------------------------------------------------------------------
+INK = "1F2A33"  # body text
+MUTED = "6B7680"  # excluded rows, notes
+ACCENT = "245E7A"  # section titles
+HEADER_FILL = "DCE6EC"
+BAND_FILL = "F3F6F8"
+CAUTION_FILL = "FBF1D9"
+CAUTION_EDGE = "9A6B12"
+DECISION_COLOURS = {
+    # decision: (fill, text)
+    "PASS": ("2E7D57", "FFFFFF"),
+    "HOLD": ("A3392B", "FFFFFF"),
+    "PENDING": ("E3A72F", "1F2A33"),
+}
+
+THIN = Side(style="thin", color="B7C3CC")
+BOX = Border(left=THIN, right=THIN, top=THIN, bottom=THIN)
+HEADER_FONT = Font(bold=True, color=INK)
+HEADER = PatternFill("solid", fgColor=HEADER_FILL)
+TITLE_FONT = Font(bold=True, size=16, color=ACCENT)
+SECTION_FONT = Font(bold=True, size=12, color=ACCENT)
+NOTE_FONT = Font(italic=True, color=MUTED)
+WRAP = Alignment(wrap_text=True, vertical="top")
+TOP = Alignment(vertical="top")
+
+# --- number formats ---------------------------------------------------------------------------
+P_FORMAT = "[<0.0001]0.00E+00;0.0000"  # p-values: 4 decimals, scientific when tiny
+STAT_FORMAT = "0.000"
+DF_FORMAT = "0.0#"
+POWER_FORMAT = "0.0%"
+INT_FORMAT = "0"
+RATIO_FORMAT = "0.000"
+CPK_FORMAT = "0.00"
+MAX_DECIMALS = 6
+
+
+def fixed(decimals: int | None) -> str:
+    """A fixed-decimals number format; ``None`` (resolution unknown) gives ``General``."""
+    if decimals is None:
+        return "General"
+    decimals = max(0, min(int(decimals), 10))
+    return "0" if decimals == 0 else "0." + "0" * decimals
+
+
+def resolution_decimals(values) -> int | None:
+    """The number of decimals the values were recorded to (0..6), or None when finer.
+
+    A value counts as recorded to ``d`` decimals when rounding it to ``d`` decimals changes it
+    by less than 1e-9 relative (binary floats such as 12.003 are never exact).
+
+    Examples
+    --------
+    >>> resolution_decimals([12.003, 11.998, 12.0])
+    3
+    >>> resolution_decimals([1, 2, 3])
+    0
+    """
+    v = np.asarray(values, dtype=float)
+    v = v[np.isfinite(v)]
+    if v.size == 0:
+        return None
+    tol = 1e-9 * np.maximum(1.0, np.abs(v))
+    for d in range(MAX_DECIMALS + 1):
+        if np.all(np.abs(np.round(v, d) - v) <= tol):
+            return d
+    return None
+
+
+def formats_for(decimals: int | None) -> dict[str, str]:
+    """Number formats for one characteristic, from the resolution of its values."""
+    d = 4 if decimals is None else decimals
+    return {
+        "value": fixed(decimals),
+        "mean": fixed(d + 1),
+        "sd": fixed(d + 2),
+        "shift": fixed(d + 1),
+        "se": fixed(d + 2),
+    }
+
+
+# --- text -------------------------------------------------------------------------------------
+
+
+def clean_text(text: object) -> str:
+    """Text safe for a cell: XML-illegal characters dropped, length within Excel's limit.
+
+    A text longer than a cell holds is cut with a visible marker, never silently.
+    """
+    s = XML_ILLEGAL.sub("", str(text))
+    if len(s) > EXCEL_CELL_MAX:
+        marker = f" ...[cut: {len(s)} characters in full]"
+        s = s[: EXCEL_CELL_MAX - len(marker)] + marker
+    return s
+
+
+def infinity_text(x: float) -> str:
+    return "+∞" if x > 0 else "-∞"
+
+
+def put(
+    ws,
+    row: int,
+    col: int,
+    value,
+    *,
+    fmt: str | None = None,
+    font=None,
+    fill=None,
+    align=None,
+    border=None,
+):
+    """Write one cell by the rules above and return it.
+
+    Strings are forced to the text type (no formulas, no error values). Numbers keep full
+    precision; ``fmt`` sets only how they look.
+    """
+    cell = ws.cell(row=row, column=col)
+    if value is None:
+        pass
+    elif isinstance(value, (bool, np.bool_)):
+        cell.value = bool(value)
+    elif isinstance(value, (int, np.integer)):
+        cell.value = int(value)
+        if fmt:
+            cell.number_format = fmt
+    elif isinstance(value, (float, np.floating)):
+        x = float(value)
+        if math.isnan(x):
+            pass
+        elif math.isinf(x):
+            cell.value = infinity_text(x)
+            cell.data_type = "s"
+            cell.alignment = Alignment(horizontal="right")
+        else:
+            cell.value = x
+            if fmt:
+                cell.number_format = fmt
+    else:
+        cell.value = clean_text(value)
+        cell.data_type = "s"  # never a formula, never an error value
+    if font is not None:
+        cell.font = font
+    if fill is not None:
+        cell.fill = fill
+    if align is not None:
+        cell.alignment = align
+    if border is not None:
+        cell.border = border
+    return cell
+
+
+def put_row(ws, row: int, col: int, values: Iterable, *, fmts=None, **style) -> None:
+    """Write values across a row from ``col``; ``fmts`` is a parallel sequence (or None)."""
+    values = list(values)
+    fmts = list(fmts) if fmts is not None else [None] * len(values)
+    for i, (v, f) in enumerate(zip(values, fmts, strict=True)):
+        put(ws, row, col + i, v, fmt=f, **style)
+
+
+def header_row(ws, row: int, col: int, labels: Iterable[str]) -> None:
+    for i, label in enumerate(labels):
+        put(ws, row, col + i, label, font=HEADER_FONT, fill=HEADER, align=WRAP, border=BOX)
+
+
+def section(ws, row: int, title: str, col: int = 1) -> None:
+    put(ws, row, col, title, font=SECTION_FONT)
+
+
+# --- sheet names ------------------------------------------------------------------------------
+
+# Excel refuses "History" as a sheet name (it keeps it for change tracking): common practice.
+_RESERVED = {"history"}
+
+
+def sheet_name(name: str, taken: set[str], *, fallback: str = "Sheet") -> str:
+    """A sheet name by Excel's rules, unique (case-insensitively) against ``taken``.
+
+    At most 31 characters, none of ``[]:*?/\\``, not starting or ending with an apostrophe,
+    not blank, not "History". A clash gets a suffix " (2)", " (3)" ... within the limit. The
+    chosen name is added to ``taken`` (lower-cased).
+
+    Examples
+    --------
+    >>> sheet_name("Bore Ø [mm] / left: 1*2?", set())
+    'Bore Ø _mm_ _ left_ 1_2_'
+    """
+    s = XML_ILLEGAL.sub("", SHEET_NAME_FORBIDDEN.sub("_", str(name)))
+    s = s.strip().strip("'").strip()
+    if not s:
+        s = fallback
+    base = s[:SHEET_NAME_MAX].rstrip().rstrip("'") or fallback
+    candidate = base
+    k = 2
+    while candidate.lower() in taken or candidate.lower() in _RESERVED:
+        suffix = f" ({k})"
+        candidate = base[: SHEET_NAME_MAX - len(suffix)].rstrip().rstrip("'") + suffix
+        k += 1
+    taken.add(candidate.lower())
+    return candidate
+
+
+def quote_sheet(name: str) -> str:
+    """A sheet name quoted for a formula or a defined range: ``'It''s'``."""
+    return "'" + name.replace("'", "''") + "'"
+
+
+def fit_rows(ws, *, line_height: float = 14.5) -> None:
+    """Give rows with wrapped text the height their text needs.
+
+    Spreadsheet programs do not grow rows on opening a file, so wrapped text would overlap the
+    next row. The estimate counts characters against the column width (merged cells: the
+    widths of the merged columns); a row keeps a larger height set earlier.
+    """
+    from openpyxl.utils import get_column_letter
+
+    def width(col: int) -> float:
+        w = ws.column_dimensions[get_column_letter(col)].width
+        return float(w) if w else 8.43
+
+    spans = {}
+    for rng in ws.merged_cells.ranges:
+        spans[(rng.min_row, rng.min_col)] = (
+            sum(width(c) for c in range(rng.min_col, rng.max_col + 1)),
+            rng.max_row - rng.min_row + 1,
+        )
+    for row in ws.iter_rows():
+        need = 1
+        font_scale = 1.0
+        for cell in row:
+            if not isinstance(cell.value, str) or not cell.alignment.wrap_text:
+                continue
+            cap, n_rows = spans.get((cell.row, cell.column), (width(cell.column), 1))
+            size = (cell.font.sz or 11) / 11
+            lines = sum(
+                max(1, math.ceil(len(part) * size / max(cap * 1.05, 1)))
+                for part in cell.value.split("\n")
+            )
+            lines = math.ceil(lines / n_rows)  # a cell merged down shares the rows
+            if lines > need:
+                need, font_scale = lines, max(1.0, size)
+        if need > 1:
+            r = row[0].row
+            h = need * line_height * font_scale + 2
+            current = ws.row_dimensions[r].height
+            if current is None or current < h:
+                ws.row_dimensions[r].height = h
+            for cell in row:  # in a tall row, everything reads from the top
+                if cell.value is not None and cell.alignment.vertical is None:
+                    a = cell.alignment
+                    cell.alignment = Alignment(
+                        horizontal=a.horizontal, vertical="top", wrap_text=a.wrap_text
+                    )

@@ -1,0 +1,344 @@
+"""One sheet per characteristic: the evidence behind its decision.
+
+Top to bottom: name and decision, the reasons and review notes, what the spec asks, statistics
+by process, the checks (one column per check, one row per quantity, so a check reads down a
+column), the diagnostics, then the charts (drawn from a helper block to the right of the
+printed area).
+"""
+
+from __future__ import annotations
+
+from openpyxl.styles import Alignment, Font
+from openpyxl.utils import get_column_letter
+
+from ..model import CharacteristicResult, CheckResult, Evaluation
+from .cells import (
+    BOX,
+    CPK_FORMAT,
+    DF_FORMAT,
+    INK,
+    INT_FORMAT,
+    NOTE_FONT,
+    P_FORMAT,
+    POWER_FORMAT,
+    RATIO_FORMAT,
+    STAT_FORMAT,
+    TITLE_FONT,
+    WRAP,
+    fit_rows,
+    formats_for,
+    header_row,
+    put,
+    section,
+)
+from .charts import add_charts
+from .summary import decision_style, margin_text
+
+LABEL_WIDTH = 30
+EXTRA_FORMAT = "0.000###"
+CHECK_WIDTH = 24
+MAX_LISTED_LOTS = 40
+SIDE_WORDS = {
+    "two-sided": "either direction (too low or too high)",
+    "lower": "downwards only (a lower value is harmful)",
+    "upper": "upwards only (a higher value is harmful)",
+}
+ALTERNATIVE_WORDS = {
+    "two-sided": "two-sided",
+    "less": "one-sided: below",
+    "greater": "one-sided: above",
+}
+
+
+def _estimate_format(r: CheckResult, fmts: dict) -> str:
+    if r.check == "spread":
+        return RATIO_FORMAT
+    if r.check == "capability":
+        return CPK_FORMAT
+    return fmts["shift"]
+
+
+def _rows_for_checks(checks, fmts):
+    """(label, getter, format) for each quantity shown; rows empty for every check are dropped."""
+    est = [_estimate_format(r, fmts) for r in checks]
+    se = [fmts["se"] if r.check in ("target", "shift") else STAT_FORMAT for r in checks]
+    crit = [CPK_FORMAT if r.check == "capability" else STAT_FORMAT for r in checks]
+    stat = [CPK_FORMAT if r.check == "capability" else STAT_FORMAT for r in checks]
+    spec = [
+        ("What is shown", lambda r: r.hypothesis, None),
+        ("Method", lambda r: r.method, None),
+        ("Design", lambda r: r.design, None),
+        ("Alternative", lambda r: ALTERNATIVE_WORDS.get(r.alternative, r.alternative), None),
+        ("Estimate", lambda r: r.estimate, est),
+        ("Standard error", lambda r: r.standard_error, se),
+        ("Statistic", lambda r: r.statistic, stat),
+        ("Degrees of freedom", lambda r: r.df, DF_FORMAT),
+        ("p-value", lambda r: r.p_value, P_FORMAT),
+        ("p-value, adjusted", lambda r: r.p_adjusted, P_FORMAT),
+        ("TOST: statistic, lower test", lambda r: r.statistic_lower, STAT_FORMAT),
+        ("TOST: p-value, lower test", lambda r: r.p_lower, P_FORMAT),
+        ("TOST: statistic, upper test", lambda r: r.statistic_upper, STAT_FORMAT),
+        ("TOST: p-value, upper test", lambda r: r.p_upper, P_FORMAT),
+        ("Interval: low", lambda r: r.ci_low, est),
+        ("Interval: high", lambda r: r.ci_high, est),
+        ("Interval: confidence", lambda r: r.ci_level, "0%"),
+        ("Critical value", lambda r: r.critical_value, crit),
+        ("Margin: low", lambda r: None if r.margin is None else r.margin[0], fmts["shift"]),
+        ("Margin: high", lambda r: None if r.margin is None else r.margin[1], fmts["shift"]),
+        ("Achieved power", lambda r: r.power, POWER_FORMAT),
+        ("Power of what", lambda r: r.power_note, None),
+        ("Smallest shift seen at 80% power", lambda r: r.detectable_shift, fmts["shift"]),
+        ("Planned n per process", lambda r: r.planned_n, INT_FORMAT),
+    ]
+    extra_keys = []
+    for r in checks:
+        for k in r.extra:
+            if k not in extra_keys:
+                extra_keys.append(k)
+    for k in extra_keys:
+        spec.append((k.replace("_", " ").capitalize(), lambda r, k=k: r.extra.get(k), "General"))
+    rows = []
+    for label, get, fmt in spec:
+        values = [get(r) for r in checks]
+        if all(v is None for v in values):
+            continue
+        fl = fmt if isinstance(fmt, list) else [fmt] * len(checks)
+        # extra quantities have no known scale: whole numbers as such, others 3 to 6 decimals
+        fl = [
+            f
+            if f is not None or not isinstance(v, (int, float)) or isinstance(v, bool)
+            else (INT_FORMAT if isinstance(v, int) else EXTRA_FORMAT)
+            for f, v in zip(fl, values, strict=True)
+        ]
+        rows.append((label, values, fl))
+    return rows
+
+
+def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: int | None):
+    """Fill one characteristic's sheet."""
+    fmts = formats_for(decimals)
+    n_checks = max(1, len(c.checks))
+    last_col = max(8, 1 + n_checks)
+    ws.column_dimensions["A"].width = LABEL_WIDTH
+    for j in range(2, last_col + 1):
+        ws.column_dimensions[get_column_letter(j)].width = CHECK_WIDTH if j <= 6 else 14
+    unit = f" ({c.unit})" if c.unit else ""
+    put(ws, 1, 1, f"{c.name}{unit}", font=TITLE_FONT)
+    fill, font = decision_style(c.decision)
+    put(
+        ws,
+        1,
+        5,
+        c.decision,
+        fill=fill,
+        font=Font(bold=True, size=16, color=font.color),
+        align=Alignment(horizontal="center", vertical="center"),
+    )
+    ws.row_dimensions[1].height = 26
+    row = 2
+    for reason in c.reasons:
+        put(ws, row, 1, reason, align=WRAP)
+        ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=last_col)
+        row += 1
+    for note in c.review:
+        put(ws, row, 1, note, align=WRAP, font=Font(italic=True, color="8A4B00"))
+        ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=last_col)
+        row += 1
+
+    row += 1
+    section(ws, row, "What the spec asks")
+    row += 1
+    s = c.spec
+    lower, upper = s.lower, s.upper
+    asks = [
+        ("Target", s.target, fmts["value"]),
+        ("Lower limit", lower, fmts["value"]),
+        ("Upper limit", upper, fmts["value"]),
+        ("Harmful direction", SIDE_WORDS.get(s.side, s.side), None),
+        ("Unit of analysis", ev.spec.unit_of_analysis, None),
+        ("Alpha", ev.spec.alpha, "General"),
+        (
+            "Values recorded to",
+            "unknown resolution" if decimals is None else f"{decimals} decimals",
+            None,
+        ),
+    ]
+    for label, value, fmt in asks:
+        put(ws, row, 1, label, font=Font(bold=True, color=INK))
+        put(
+            ws,
+            row,
+            2,
+            "none" if value is None else value,
+            fmt=fmt,
+            align=Alignment(horizontal="left"),
+        )
+        row += 1
+
+    row += 1
+    section(ws, row, "Statistics by process")
+    row += 1
+    unit_name = "lots" if ev.spec.unit_of_analysis == "lot" else "parts"
+    header_row(
+        ws,
+        row,
+        1,
+        ["Process", f"n ({unit_name})", "Mean", "SD", "Min", "Max", "Lots", "Measurements used"],
+    )
+    row += 1
+    for key in ("old", "new"):
+        p = c.processes.get(key)
+        if p is None:
+            continue
+        values = [key, p.n, p.mean, p.sd, p.minimum, p.maximum, len(p.lots), p.n_parts]
+        f = [
+            None,
+            INT_FORMAT,
+            fmts["mean"],
+            fmts["sd"],
+            fmts["value"],
+            fmts["value"],
+            INT_FORMAT,
+            INT_FORMAT,
+        ]
+        for j, (v, fm) in enumerate(zip(values, f, strict=True), start=1):
+            put(ws, row, j, v, fmt=fm, border=BOX)
+        row += 1
+    if ev.spec.unit_of_analysis == "lot":
+        put(
+            ws,
+            row,
+            1,
+            "n counts lots; mean and SD are of the lot means; min and max are of "
+            "the single values.",
+            font=NOTE_FONT,
+        )
+        row += 1
+    if c.pairs is not None:
+        put(ws, row, 1, f"Matched pairs: {c.pairs}", font=NOTE_FONT)
+        row += 1
+    if c.unmatched_pairs:
+        put(
+            ws,
+            row,
+            1,
+            f"Pair keys with one side only ({len(c.unmatched_pairs)}): "
+            + ", ".join(c.unmatched_pairs[:MAX_LISTED_LOTS])
+            + (" ..." if len(c.unmatched_pairs) > MAX_LISTED_LOTS else ""),
+            font=NOTE_FONT,
+        )
+        row += 1
+    for key in ("old", "new"):
+        p = c.processes.get(key)
+        if p is None or not p.lots:
+            continue
+        if len(p.lots) <= MAX_LISTED_LOTS:
+            text = f"Lots, {key}: " + ", ".join(p.lots)
+        else:
+            text = (
+                f"Lots, {key}: {len(p.lots)} lots, from {p.lots[0]} to {p.lots[-1]} "
+                "(every one is on the measurements sheet)"
+            )
+        put(ws, row, 1, text, font=NOTE_FONT)
+        row += 1
+
+    row += 1
+    section(ws, row, "Checks")
+    row += 1
+    if c.checks:
+        put(ws, row, 1, "Check", font=Font(bold=True, color=INK), border=BOX)
+        header_row(ws, row, 2, [r.check for r in c.checks])
+        row += 1
+        for label, values, fl in _rows_for_checks(c.checks, fmts):
+            put(ws, row, 1, label, font=Font(bold=True, color=INK), border=BOX, align=WRAP)
+            for j, (v, fm) in enumerate(zip(values, fl, strict=True), start=2):
+                put(ws, row, j, v, fmt=fm, border=BOX, align=WRAP if isinstance(v, str) else None)
+            row += 1
+        put(ws, row, 1, "Margin as written", font=Font(bold=True, color=INK), border=BOX)
+        for j, r in enumerate(c.checks, start=2):
+            put(
+                ws,
+                row,
+                j,
+                margin_text(r.margin) if r.check in ("target", "shift") else None,
+                border=BOX,
+            )
+        row += 1
+        put(ws, row, 1, "Outcome", font=Font(bold=True, color=INK), border=BOX)
+        for j, r in enumerate(c.checks, start=2):
+            f, fo = decision_style(r.outcome)
+            put(
+                ws,
+                row,
+                j,
+                r.outcome,
+                fill=f,
+                font=fo,
+                border=BOX,
+                align=Alignment(horizontal="center"),
+            )
+        row += 1
+        put(ws, row, 1, "Reason", font=Font(bold=True, color=INK), border=BOX)
+        for j, r in enumerate(c.checks, start=2):
+            put(ws, row, j, r.reason, align=WRAP, border=BOX)
+        row += 1
+    else:
+        put(ws, row, 1, "No checks ran for this characteristic.", font=NOTE_FONT)
+        row += 1
+
+    row += 1
+    section(ws, row, "Diagnostics (they never decide alone; a flag asks for review)")
+    row += 1
+    if c.diagnostics:
+        header_row(
+            ws, row, 1, ["Diagnostic", "Method", "Group", "Statistic", "p-value", "Flag", "Note"]
+        )
+        ws.merge_cells(start_row=row, start_column=7, end_row=row, end_column=last_col)
+        row += 1
+        for d in c.diagnostics:
+            values = [
+                d.name,
+                d.method,
+                d.group,
+                d.statistic,
+                d.p_value,
+                "review" if d.flag else "no",
+                d.note,
+            ]
+            whole = d.statistic is not None and float(d.statistic).is_integer()
+            fl = [None, None, None, INT_FORMAT if whole else STAT_FORMAT, P_FORMAT, None, None]
+            for j, (v, fm) in enumerate(zip(values, fl, strict=True), start=1):
+                put(ws, row, j, v, fmt=fm, border=BOX, align=WRAP if j in (2, 7) else None)
+            if d.flag:
+                ws.cell(row, 6).font = Font(bold=True, color="8A4B00")
+            ws.merge_cells(start_row=row, start_column=7, end_row=row, end_column=last_col)
+            row += 1
+    else:
+        put(ws, row, 1, "No diagnostics were run.", font=NOTE_FONT)
+        row += 1
+
+    fit_rows(ws)
+    row += 1
+    section(ws, row, "Charts")
+    row += 1
+    helper_col = last_col + 3
+    chart_rows = add_charts(
+        ws,
+        ev,
+        c,
+        anchor_row=row,
+        helper_col=helper_col,
+        formats=fmts,
+        col_widths=[
+            ws.column_dimensions[get_column_letter(j)].width for j in range(1, last_col + 1)
+        ],
+    )
+    last_row = row + chart_rows
+    ws.print_area = f"A1:{get_column_letter(last_col)}{last_row}"
+    ws.page_setup.orientation = "landscape"
+    ws.page_setup.fitToWidth = 1
+    ws.page_setup.fitToHeight = 0
+    ws.sheet_properties.pageSetUpPr.fitToPage = True
+    ws.oddFooter.left.text = f"{c.name}: verify run {ev.run.run_id}"
+    ws.oddFooter.right.text = "page &P of &N"
+    ws.sheet_view.showGridLines = False

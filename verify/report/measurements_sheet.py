@@ -1,0 +1,235 @@
+"""The measurements sheet(s): every row used or excluded, as an Excel table, streamed.
+
+Rows follow :func:`verify.report.layout.measurement_layout` (the recheck formulas rely on it):
+the header is row 1 of each sheet, data from row 2, columns in ``MEASUREMENT_HEADERS`` order.
+Beyond Excel's row limit the table continues on ``Measurements (2)`` and so on; each sheet
+then says, to the right of its table, which rows it holds and where the rest are.
+
+openpyxl writes each placeholder sheet (widths, frozen header, header row, the table part with
+its filter); :mod:`verify.report.xlsx_fast` streams the data rows into it.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+
+import numpy as np
+import pandas as pd
+from openpyxl.styles import Font
+from openpyxl.utils import get_column_letter
+from openpyxl.worksheet.filters import AutoFilter
+from openpyxl.worksheet.table import Table, TableColumn, TableStyleInfo
+
+from .cells import MUTED, NOTE_FONT, clean_text, fixed, put, resolution_decimals
+from .layout import MEASUREMENT_HEADERS, MeasurementLayout
+from .styles import StyleBook
+from .xlsx_fast import StreamedSheet, t_element
+
+_WIDTHS = {
+    "characteristic": 22,
+    "process": 9,
+    "lot": 16,
+    "pair": 12,
+    "value": 12,
+    "used": 7,
+    "exclusion_reason": 34,
+    "source_file": 30,
+    "source_row": 10,
+    "order": 11,
+}
+NOTE_COLUMN = len(MEASUREMENT_HEADERS) + 2  # one empty column after the table
+CHUNK_ROWS = 20_000
+
+
+def continuation_note(layout: MeasurementLayout, sheet: str) -> str | None:
+    """The note beside a measurements table when the rows fill more than one sheet."""
+    if len(layout.sheets) < 2:
+        return None
+    t = layout.table
+    on = t["sheet"] == sheet
+    n_here = int(on.sum())
+    i = layout.sheets.index(sheet)
+    first = int(np.flatnonzero(on.to_numpy())[0]) + 1 if n_here else 0
+    text = (
+        f"Measurements {first:,} to {first + n_here - 1:,} of {len(t):,}: the rows do not fit "
+        f"one sheet (Excel's limit is 1,048,576 rows), so they continue over "
+        f"{len(layout.sheets)} sheets: {', '.join(layout.sheets)}."
+    )
+    if i > 0:
+        text += f" Continued from '{layout.sheets[i - 1]}'."
+    if i + 1 < len(layout.sheets):
+        text += f" Continues on '{layout.sheets[i + 1]}'."
+    return text
+
+
+def add_placeholders(wb, layout: MeasurementLayout, styles: StyleBook) -> list[StreamedSheet]:
+    """Create the measurements sheet(s) with header, table and filter; return what to stream."""
+    headers = [label for _key, label in MEASUREMENT_HEADERS]
+    ncols = len(headers)
+    last_col = get_column_letter(ncols)
+    streamed = []
+    decimals = decimals_by_characteristic(layout.table)
+    # register every style the streamed rows use before openpyxl saves the style sheet
+    for excluded in (False, True):
+        styles.text(excluded)
+        styles.boolean(excluded)
+        styles.number("0", excluded)
+        for d in set(decimals.values()):
+            styles.number(fixed(d), excluded)
+    for i, title in enumerate(layout.sheets):
+        ws = wb.create_sheet(title)
+        rows = layout.table.loc[layout.table["sheet"] == title]
+        n = len(rows)
+        for j, label in enumerate(headers, start=1):
+            put(ws, 1, j, label, font=Font(bold=True))
+        for j, (key, _label) in enumerate(MEASUREMENT_HEADERS, start=1):
+            ws.column_dimensions[get_column_letter(j)].width = _WIDTHS.get(key, 12)
+        ws.freeze_panes = "A2"
+        ws.print_title_rows = "1:1"  # the header on every printed page
+        ws.page_setup.orientation = "landscape"
+        ws.page_setup.fitToWidth = 1
+        ws.page_setup.fitToHeight = 0
+        ws.sheet_properties.pageSetUpPr.fitToPage = True
+        last_row = max(n + 1, 2)  # a table needs one data row, even an empty one
+        ref = f"A1:{last_col}{last_row}"
+        table = Table(
+            displayName=f"Measurements{'' if i == 0 else f'_{i + 1}'}",
+            ref=ref,
+            tableColumns=[TableColumn(id=j, name=h) for j, h in enumerate(headers, start=1)],
+            tableStyleInfo=TableStyleInfo(name="TableStyleLight1", showRowStripes=True),
+        )
+        # tableColumns are given, so openpyxl does not read the header cells back (and never
+        # touches the 500k rows that are not there yet)
+        table.autoFilter = AutoFilter(ref=ref)
+        ws.add_table(table)
+        note = continuation_note(layout, title)
+        dim_col = last_col
+        if note:
+            put(ws, 1, NOTE_COLUMN, note, font=NOTE_FONT)
+            ws.column_dimensions[get_column_letter(NOTE_COLUMN)].width = 60
+            dim_col = get_column_letter(NOTE_COLUMN)
+        if n == 0:
+            put(ws, 3, 1, "No measurements were read.", font=NOTE_FONT)
+        streamed.append(
+            StreamedSheet(
+                title=title,
+                rows=_row_generator(rows, styles, decimals),
+                dimension=f"A1:{dim_col}{last_row}",
+            )
+        )
+    return streamed
+
+
+def decimals_by_characteristic(table: pd.DataFrame) -> dict[str, int | None]:
+    out = {}
+    for name, values in table.groupby("characteristic", sort=False)["value"]:
+        out[str(name)] = resolution_decimals(values.to_numpy(dtype=float))
+    return out
+
+
+class _TextColumn:
+    """A text column factorised once per sheet: each distinct text is escaped once."""
+
+    def __init__(self, series: pd.Series, style_used: int, style_excl: int):
+        codes, uniques = pd.factorize(series.fillna("").astype(str), sort=False)
+        self.codes = codes
+        frag_u = np.empty(len(uniques) + 1, dtype=object)
+        frag_x = np.empty(len(uniques) + 1, dtype=object)
+        for k, u in enumerate(uniques):
+            if u == "":  # empty text: an empty cell
+                frag_u[k], frag_x[k] = f"{_s(style_used)}/>", f"{_s(style_excl)}/>"
+                continue
+            t = t_element(clean_text(u))  # within a cell's limit, cut visibly if ever longer
+            frag_u[k] = f' t="inlineStr"{_s(style_used)}><is>{t}</is></c>'
+            frag_x[k] = f' t="inlineStr"{_s(style_excl)}><is>{t}</is></c>'
+        frag_u[-1], frag_x[-1] = f"{_s(style_used)}/>", f"{_s(style_excl)}/>"  # code -1
+        self.frag_u, self.frag_x = frag_u, frag_x
+
+    def fragments(self, start: int, stop: int, used: np.ndarray) -> list[str]:
+        codes = self.codes[start:stop]
+        return np.where(used, self.frag_u[codes], self.frag_x[codes]).tolist()
+
+
+def _s(style: int) -> str:
+    return f' s="{style}"' if style else ""
+
+
+def _row_generator(rows: pd.DataFrame, styles: StyleBook, decimals: dict):
+    """A callable yielding the sheet's data rows as XML chunks (row 2 onwards).
+
+    Every row carries all columns; an empty value is an empty cell element (``<c r="D7"/>``),
+    so one template formats a whole row.
+    """
+    keys = [k for k, _ in MEASUREMENT_HEADERS]
+    letters = [get_column_letter(j) for j in range(1, len(keys) + 1)]
+    template = (
+        '<row r="{0}">'
+        + "".join(f'<c r="{letter}{{0}}"{{{i + 1}}}' for i, letter in enumerate(letters))
+        + "</row>"
+    ).format
+
+    def generate() -> Iterator[str]:
+        text_u, text_x = styles.text(False), styles.text(True)
+        text_cols = {
+            k: _TextColumn(rows[k], text_u, text_x)
+            for k in keys
+            if k not in ("value", "used", "source_row", "order")
+        }
+        value_style = {
+            c: (styles.number(fixed(d), False), styles.number(fixed(d), True))
+            for c, d in decimals.items()
+        }
+        for start in range(0, len(rows), CHUNK_ROWS):
+            stop = min(start + CHUNK_ROWS, len(rows))
+            columns = _chunk_columns(
+                rows.iloc[start:stop], start, stop, keys, text_cols, value_style, styles
+            )
+            row_no = rows["row"].to_numpy()[start:stop].tolist()
+            yield "".join([template(r, *cells) for r, *cells in zip(row_no, *columns, strict=True)])
+
+    return generate
+
+
+def _chunk_columns(chunk, start, stop, keys, text_cols, value_style, styles) -> list[list]:
+    used = chunk["used"].to_numpy(dtype=bool)
+    # value: number format from the characteristic's resolution; NaN gives an empty cell
+    chars = chunk["characteristic"]
+    style_u = chars.map({c: _s(s[0]) for c, s in value_style.items()}).to_numpy()
+    style_x = chars.map({c: _s(s[1]) for c, s in value_style.items()}).to_numpy()
+    vstyle = np.where(used, style_u, style_x).tolist()
+    values = chunk["value"].to_numpy(dtype=float)
+    finite = np.isfinite(values).tolist()
+    value_frag = [
+        f"{s}><v>{v!r}</v></c>" if ok else f"{s}/>"
+        for v, s, ok in zip(values.tolist(), vstyle, finite, strict=True)
+    ]
+    bool_u, bool_x = _s(styles.boolean(False)), _s(styles.boolean(True))
+    used_frag = np.where(
+        used, f' t="b"{bool_u}><v>1</v></c>', f' t="b"{bool_x}><v>0</v></c>'
+    ).tolist()
+    int_style = np.where(used, _s(styles.number("0", False)), _s(styles.number("0", True))).tolist()
+
+    def integers(key):
+        data = chunk[key].to_numpy()
+        if data.dtype.kind in "iu":
+            return [f"{s}><v>{x}</v></c>" for x, s in zip(data.tolist(), int_style, strict=True)]
+        out = []
+        for x, s in zip(data.tolist(), int_style, strict=True):
+            ok = x is not None and x == x  # None or NaN: an empty cell
+            out.append(f"{s}><v>{int(x)}</v></c>" if ok else f"{s}/>")
+        return out
+
+    columns = []
+    for key in keys:
+        if key == "value":
+            columns.append(value_frag)
+        elif key == "used":
+            columns.append(used_frag)
+        elif key in ("source_row", "order"):
+            columns.append(integers(key))
+        else:  # text, including any column a later layout adds
+            columns.append(text_cols[key].fragments(start, stop, used))
+    return columns
+
+
+__all__ = ["add_placeholders", "continuation_note", "MUTED"]

@@ -1,0 +1,67 @@
+"""Style ids for streamed cells.
+
+A streamed sheet writes ``s="N"`` itself, where N indexes the workbook's cell formats
+(``cellXfs``). :class:`StyleBook` obtains each N from openpyxl by styling a cell on a scratch
+sheet and asking for its ``style_id``; openpyxl keeps every style it has handed out and writes
+them all, in that order, so the index stays valid after the scratch sheet is removed.
+"""
+
+from __future__ import annotations
+
+from openpyxl.styles import Alignment, Font
+
+from .cells import MUTED
+
+_EXCLUDED_FONT = Font(italic=True, color=MUTED)
+
+
+class StyleBook:
+    """Hands out cellXfs indices for the few styles the streamed sheets use."""
+
+    def __init__(self, wb):
+        self._wb = wb
+        self._ws = wb.create_sheet("_styles_scratch")
+        self._cache: dict[tuple, int] = {}
+        self._next_row = 1
+
+    def _get(self, key: tuple, *, fmt=None, font=None, align=None) -> int:
+        if key in self._cache:
+            return self._cache[key]
+        if self._ws is None:
+            # a style first asked for after the save would point past the saved cellXfs
+            raise RuntimeError(f"style {key} was not registered before the workbook was saved")
+        cell = self._ws.cell(row=self._next_row, column=1)
+        self._next_row += 1
+        if fmt is not None:
+            cell.number_format = fmt
+        if font is not None:
+            cell.font = font
+        if align is not None:
+            cell.alignment = align
+        sid = int(cell.style_id)
+        self._cache[key] = sid
+        return sid
+
+    def text(self, excluded: bool = False) -> int:
+        return self._get(("text", excluded), font=_EXCLUDED_FONT if excluded else None)
+
+    def number(self, fmt: str, excluded: bool = False) -> int:
+        return self._get(
+            ("number", fmt, excluded), fmt=fmt, font=_EXCLUDED_FONT if excluded else None
+        )
+
+    def boolean(self, excluded: bool = False) -> int:
+        return self._get(
+            ("bool", excluded),
+            font=_EXCLUDED_FONT if excluded else None,
+            align=Alignment(horizontal="center"),
+        )
+
+    def mono(self) -> int:
+        return self._get(("mono",), font=Font(name="Courier New"))
+
+    def close(self) -> None:
+        """Remove the scratch sheet (the style ids it produced stay valid)."""
+        if self._ws is not None:
+            self._wb.remove(self._ws)
+            self._ws = None

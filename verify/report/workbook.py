@@ -1,0 +1,332 @@
+"""The Excel workbook: :func:`write_workbook` turns an Evaluation into the engineer's deliverable.
+
+Sheets, in order:
+
+1. the decision sheet (:data:`~verify.report.layout.SUMMARY_SHEET`), one landscape page;
+2. one sheet per characteristic, named from the characteristic by Excel's rules;
+3. the measurements sheet(s) (:data:`~verify.report.layout.MEASUREMENTS_SHEET`, then
+   ``Measurements (2)`` ... beyond Excel's row limit), an Excel table with a filter;
+4. the spec text (:data:`~verify.report.layout.SPEC_SHEET`), verbatim;
+5. the audit trail (:data:`~verify.report.layout.AUDIT_SHEET`);
+6. the recheck sheet (:data:`~verify.report.layout.RECHECK_SHEET`) with live formulas;
+7. with ``record_json``, a very hidden sheet ``_record`` holding the JSON result.
+
+Reading back (:func:`read_spec_text`, :func:`read_record`)
+----------------------------------------------------------
+*Spec text*: column A holds the lines of ``Spec.text.split("\\n")`` from A1 down, one per row,
+an empty line as an empty cell; cell :data:`SPEC_LINE_COUNT_CELL` holds their number N. The
+text is ``"\\n".join`` of A1..AN (empty cells as ""). A trailing newline is the empty last
+line; a carriage return stays in its line.
+
+*Record*: column A of ``_record`` holds the JSON in chunks of at most 32,000 characters (UTF-16
+code units) from A1 down; :data:`RECORD_CHUNK_COUNT_CELL` holds their number. The JSON is the
+concatenation.
+
+Determinism: the document's created/modified properties and every zip entry's timestamp come
+from ``Evaluation.run.started``, never the clock, so the same Evaluation gives the same file.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import datetime as dt
+import io
+import math
+from collections.abc import Iterator
+from pathlib import Path
+
+from ..model import Evaluation
+from .audit_sheet import write_audit
+from .cells import EXCEL_CELL_MAX, XML_ILLEGAL, clean_text, put, sheet_name
+from .characteristic_sheet import write_characteristic
+from .layout import (
+    AUDIT_SHEET,
+    EXCEL_MAX_ROWS,
+    MEASUREMENTS_SHEET,
+    RECHECK_SHEET,
+    SPEC_SHEET,
+    SUMMARY_SHEET,
+    MeasurementLayout,
+    measurement_layout,
+)
+from .measurements_sheet import add_placeholders, decimals_by_characteristic
+from .recheck import recheck_rows
+from .styles import StyleBook
+from .summary import DECISION_COLOURS, write_summary
+from .xlsx_fast import StreamedSheet, splice, t_element
+
+RECORD_SHEET = "_record"
+RECORD_CHUNK = 32_000
+RECORD_CHUNK_COUNT_CELL = "B1"
+SPEC_LINE_COUNT_CELL = "C2"
+
+
+def write_workbook(
+    evaluation: Evaluation,
+    path,
+    *,
+    record_json: str | None = None,
+    rows_per_sheet: int = EXCEL_MAX_ROWS - 1,
+) -> None:
+    """Write the workbook for one evaluation.
+
+    Parameters
+    ----------
+    evaluation : Evaluation
+        The only input: every number, word and decision comes from it.
+    path : str or Path
+        Where to write (the caller writes to a temporary name and renames).
+    record_json : str, optional
+        The JSON result to embed on the very hidden sheet ``_record`` (read by replay).
+    rows_per_sheet : int
+        Data rows per measurements sheet; Excel's limit less the header unless a test wants
+        continuation sheets sooner.
+
+    Examples
+    --------
+    >>> from tests.factory import make_evaluation  # doctest: +SKIP
+    >>> write_workbook(make_evaluation("welch"), "cc-2025-0117.xlsx")  # doctest: +SKIP
+    """
+    from openpyxl import Workbook
+
+    ev = evaluation
+    layout = measurement_layout(ev, rows_per_sheet=rows_per_sheet)
+    decimals = decimals_by_characteristic(layout.table)
+    started = _timestamp(ev.run.started)
+
+    wb = Workbook()
+    summary = wb.active
+    summary.title = SUMMARY_SHEET
+    styles = StyleBook(wb)
+
+    taken = {
+        s.lower()
+        for s in (
+            SUMMARY_SHEET,
+            SPEC_SHEET,
+            AUDIT_SHEET,
+            RECHECK_SHEET,
+            RECORD_SHEET,
+            "_styles_scratch",
+            *layout.sheets,
+        )
+    }
+    char_sheets: dict[str, str] = {}
+    for i, c in enumerate(ev.characteristics, start=1):
+        title = sheet_name(c.name, taken, fallback=f"Characteristic {i}")
+        char_sheets[c.name] = title
+        ws = wb.create_sheet(title)
+        ws.sheet_properties.tabColor = DECISION_COLOURS.get(c.decision, ("7F7F7F",))[0]
+        write_characteristic(ws, ev, c, decimals.get(c.name))
+
+    streamed: list[StreamedSheet] = add_placeholders(wb, layout, styles)
+
+    spec_ws = wb.create_sheet(SPEC_SHEET)
+    streamed.append(_spec_placeholder(spec_ws, ev.spec.text, styles))
+
+    write_audit(wb.create_sheet(AUDIT_SHEET), ev)
+    _write_recheck(wb.create_sheet(RECHECK_SHEET), ev, layout)
+
+    if record_json is not None:
+        rec = wb.create_sheet(RECORD_SHEET)
+        rec.sheet_state = "veryHidden"
+        streamed.append(_record_placeholder(rec, record_json))
+
+    summary.sheet_properties.tabColor = DECISION_COLOURS.get(ev.decision, ("7F7F7F",))[0]
+    write_summary(
+        summary, ev, sheet_names=char_sheets, measurement_sheets=layout.sheets, decimals=decimals
+    )
+    styles.close()
+    wb.active = 0
+
+    props = wb.properties
+    props.created = props.modified = started
+    props.creator = props.lastModifiedBy = f"verify {ev.run.tool_version}"
+    props.title = clean_text(ev.spec.title)
+    props.subject = clean_text(ev.spec.change_id or "")
+    props.description = clean_text(f"run {ev.run.run_id}: {ev.decision}")
+    wb.calculation.fullCalcOnLoad = True  # formulas carry no cached values: compute on open
+
+    buf = io.BytesIO()
+    with full_precision_numbers():
+        wb.save(buf)
+    splice(buf.getvalue(), streamed, Path(path), timestamp=started)
+
+
+@contextlib.contextmanager
+def full_precision_numbers():
+    """Make openpyxl store floats with every digit while the workbook is saved.
+
+    openpyxl writes numbers through ``"%.16g" % value``, which drops the 17th significant
+    digit that some doubles need (12.000433333333332 would come back as 12.00043333333333).
+    Stored values must never be rounded, so during the save the cell writer formats floats
+    with ``repr`` (the shortest text that reads back as the same double).
+    """
+    from openpyxl.cell import _writer
+
+    original = _writer.safe_string
+
+    def exact(value):
+        if isinstance(value, float) and math.isfinite(value):
+            return repr(value)
+        return original(value)
+
+    _writer.safe_string = exact
+    try:
+        yield
+    finally:
+        _writer.safe_string = original
+
+
+def _timestamp(text: str) -> dt.datetime:
+    """The run's start as a naive UTC datetime (zip entries cannot predate 1980)."""
+    try:
+        t = dt.datetime.fromisoformat(text.strip().replace("Z", "+00:00"))
+    except ValueError:
+        t = dt.datetime(1980, 1, 1, tzinfo=dt.UTC)
+    if t.tzinfo is None:
+        t = t.replace(tzinfo=dt.UTC)
+    t = t.astimezone(dt.UTC).replace(tzinfo=None, microsecond=0)
+    return max(t, dt.datetime(1980, 1, 1))
+
+
+# --- spec text --------------------------------------------------------------------------------
+
+
+def _spec_placeholder(ws, text: str, styles: StyleBook) -> StreamedSheet:
+    lines = text.split("\n")
+    for i, line in enumerate(lines, start=1):
+        if len(line) > EXCEL_CELL_MAX or XML_ILLEGAL.search(line):
+            # replay needs the text back exactly: refuse rather than store it altered
+            raise ValueError(
+                f"spec line {i} cannot be stored verbatim in a workbook cell (longer than "
+                f"{EXCEL_CELL_MAX:,} characters, or a control character XML cannot carry)"
+            )
+    mono = styles.mono()
+    ws.column_dimensions["A"].width = 100
+    ws.column_dimensions["B"].width = 3
+    ws.column_dimensions["C"].width = 46
+    ws.sheet_view.showGridLines = False
+    n = len(lines)
+    notes = {
+        1: "Number of lines N in column A:",
+        3: "Column A holds the spec text verbatim, one line",
+        4: "per row from A1; an empty cell is an empty line.",
+        5: "The text is A1..AN joined with line feeds.",
+    }
+    last = max(n, max(notes))
+
+    def rows() -> Iterator[str]:
+        buf = []
+        for i in range(1, last + 1):
+            cells = ""
+            line = lines[i - 1] if i <= n else ""
+            if line:
+                cells += f'<c r="A{i}" t="inlineStr" s="{mono}"><is>{t_element(line)}</is></c>'
+            if i in notes:
+                cells += f'<c r="C{i}" t="inlineStr"><is>{t_element(notes[i])}</is></c>'
+            if i == 2:
+                cells += f'<c r="C2"><v>{n}</v></c>'
+            buf.append(f'<row r="{i}">{cells}</row>')
+            if len(buf) >= 4096:
+                yield "".join(buf)
+                buf.clear()
+        yield "".join(buf)
+
+    ws.page_setup.orientation = "landscape"
+    ws.page_setup.fitToWidth = 1
+    ws.page_setup.fitToHeight = 0
+    ws.sheet_properties.pageSetUpPr.fitToPage = True
+    return StreamedSheet(ws.title, rows, f"A1:C{last}")
+
+
+def read_spec_text(wb) -> str:
+    """The spec text from an (openpyxl) workbook written by :func:`write_workbook`."""
+    ws = wb[SPEC_SHEET]
+    n = int(ws[SPEC_LINE_COUNT_CELL].value)
+    lines = []
+    for (value,) in ws.iter_rows(min_row=1, max_row=n, min_col=1, max_col=1, values_only=True):
+        lines.append("" if value is None else str(value))
+    return "\n".join(lines)
+
+
+# --- the embedded record ----------------------------------------------------------------------
+
+
+def record_chunks(text: str, limit: int = RECORD_CHUNK) -> list[str]:
+    """Split text into chunks of at most ``limit`` UTF-16 code units (Excel counts those)."""
+    out = []
+    i = 0
+    n = len(text)
+    while i < n:
+        j = min(n, i + limit)
+        chunk = text[i:j]
+        units = len(chunk.encode("utf-16-le")) // 2
+        while units > limit:  # characters beyond the BMP take two units each
+            j -= max(1, (units - limit + 1) // 2)
+            chunk = text[i:j]
+            units = len(chunk.encode("utf-16-le")) // 2
+        out.append(chunk)
+        i = j
+    return out
+
+
+def _record_placeholder(ws, record_json: str) -> StreamedSheet:
+    if XML_ILLEGAL.search(record_json):  # json.dumps escapes control characters
+        raise ValueError("record_json holds characters a workbook cannot store")
+    chunks = record_chunks(record_json)
+
+    def rows() -> Iterator[str]:
+        for i, chunk in enumerate(chunks, start=1):
+            extra = f'<c r="B1"><v>{len(chunks)}</v></c>' if i == 1 else ""
+            cell = f'<c r="A{i}" t="inlineStr"><is>{t_element(chunk)}</is></c>'
+            yield f'<row r="{i}">{cell}{extra}</row>'
+        if not chunks:
+            yield '<row r="1"><c r="B1"><v>0</v></c></row>'
+
+    return StreamedSheet(ws.title, rows, f"A1:B{max(1, len(chunks))}")
+
+
+def read_record(wb) -> str | None:
+    """The embedded JSON record from an (openpyxl) workbook, or None when there is none."""
+    if RECORD_SHEET not in wb.sheetnames:
+        return None
+    ws = wb[RECORD_SHEET]
+    n = int(ws[RECORD_CHUNK_COUNT_CELL].value or 0)
+    parts = []
+    for (value,) in ws.iter_rows(min_row=1, max_row=n, min_col=1, max_col=1, values_only=True):
+        parts.append("" if value is None else str(value))
+    return "".join(parts)
+
+
+# --- recheck ----------------------------------------------------------------------------------
+
+
+def _write_recheck(ws, ev: Evaluation, layout: MeasurementLayout) -> None:
+    rows = recheck_rows(ev, layout)
+    widths: dict[int, int] = {}
+    for i, values in enumerate(rows, start=1):
+        for j, v in enumerate(values, start=1):
+            if v is None:
+                continue
+            if isinstance(v, str) and v.startswith("=") and len(v) > 1:
+                ws.cell(row=i, column=j).value = v  # a formula, as recheck_rows asks
+                widths[j] = max(widths.get(j, 0), 14)
+                continue
+            put(ws, i, j, v)  # text stays text, numbers keep full precision
+            if isinstance(v, (int, float)) and not isinstance(v, bool):
+                widths[j] = max(widths.get(j, 0), 16)
+            else:
+                widths[j] = max(widths.get(j, 0), min(60, len(str(v)) + 2))
+    from openpyxl.utils import get_column_letter
+
+    for j, w in widths.items():
+        ws.column_dimensions[get_column_letter(j)].width = max(10, w)
+    ws.freeze_panes = "A2"
+    ws.page_setup.orientation = "landscape"
+    ws.page_setup.fitToWidth = 1
+    ws.page_setup.fitToHeight = 0
+    ws.sheet_properties.pageSetUpPr.fitToPage = True
+
+
+__all__ = ["write_workbook", "read_spec_text", "read_record", "RECORD_SHEET", "MEASUREMENTS_SHEET"]
