@@ -11,7 +11,6 @@ import contextlib
 import hashlib
 import os
 import tempfile
-import zipfile
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -65,33 +64,17 @@ def write_text_atomic(target: Path, text: str) -> None:
         tmp.write_text(text, encoding="utf-8")
 
 
-def _normalise_zip(path: Path, epoch: int) -> None:
-    """Give every zip member the same timestamp so that reruns are byte-identical."""
-    import time
-
-    stamp = time.gmtime(max(epoch, 315532800))[:6]  # zip cannot store dates before 1980
-    tmp = path.with_suffix(path.suffix + ".norm")
-    with zipfile.ZipFile(path) as src, zipfile.ZipFile(tmp, "w", zipfile.ZIP_DEFLATED) as dst:
-        for info in src.infolist():
-            zi = zipfile.ZipInfo(info.filename, date_time=stamp)
-            zi.compress_type = zipfile.ZIP_DEFLATED
-            zi.external_attr = 0o600 << 16
-            dst.writestr(zi, src.read(info.filename))
-    os.replace(tmp, path)
-
-
 def write_outputs(ev: Evaluation, workbook: Path, result: Path) -> Outputs:
     """Write the workbook and the JSON result (which records the workbook's sha256)."""
-    from .audit import sha256_file, source_date_epoch
+    from .audit import sha256_file
     from .report.json_result import dumps, result_dict
     from .report.workbook import write_workbook
 
     record = dumps(result_dict(ev))
     with atomic_path(workbook) as tmp:
+        # the workbook's zip and document times come from the run's start, so reruns under
+        # SOURCE_DATE_EPOCH are byte-identical
         write_workbook(ev, tmp, record_json=record)
-        epoch = source_date_epoch()
-        if epoch is not None:
-            _normalise_zip(tmp, epoch)
         digest = sha256_file(tmp)
     doc = result_dict(ev, workbook={"path": str(workbook), "sha256": digest})
     write_text_atomic(result, dumps(doc))

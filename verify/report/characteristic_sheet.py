@@ -260,7 +260,7 @@ def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: 
                 ws,
                 row,
                 j,
-                margin_text(r.margin) if r.check in ("target", "shift") else None,
+                margin_text(r.margin, c.spec.side) if r.check in ("target", "shift") else None,
                 border=BOX,
             )
         row += 1

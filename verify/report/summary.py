@@ -82,10 +82,15 @@ def main_check(c: CharacteristicResult) -> CheckResult | None:
     return c.checks[0] if c.checks else None
 
 
-def margin_text(margin: tuple[float, float] | None) -> str:
+def margin_text(margin: tuple[float, float] | None, side: str = "two-sided") -> str:
+    """The margin as a reader needs it: only the harmful side counts for side lower/upper."""
     if margin is None:
         return "none"
     low, high = margin
+    if side == "lower":
+        return f"not below {low:+g}"
+    if side == "upper":
+        return f"not above {high:+g}"
     if abs(low + high) <= 1e-12 * max(abs(low), abs(high), 1.0):
         return f"±{high:g}"
     return f"{low:+g} to {high:+g}"
@@ -323,7 +328,7 @@ def _characteristic_row(
         shown = r.check + (f", {r.method}" if r.method else "")
         put(ws, row, 7, shown, align=WRAP)
         put(ws, row, 8, r.estimate, fmt=fmts["shift"])
-        put(ws, row, 9, margin_text(r.margin))
+        put(ws, row, 9, margin_text(r.margin, c.spec.side))
         put(ws, row, 10, r.ci_low, fmt=fmts["shift"])
         put(ws, row, 11, r.ci_high, fmt=fmts["shift"])
         p = r.p_adjusted if r.p_adjusted is not None else r.p_value
