@@ -45,6 +45,26 @@ def fmt(x: float | None, digits: int = 4) -> str:
     return f"{x:.{digits}g}"
 
 
+def fmt_like(*values: float | None) -> list[str]:
+    """Numbers that belong together, rounded to one number of decimals (4 significant digits on
+    the largest, trailing zeros dropped), so that an interval reads 0.000011..0.001384 rather
+    than 1.094e-05..0.001384."""
+    finite = [abs(v) for v in values if v is not None and math.isfinite(v) and v != 0]
+    if not finite:
+        return [fmt(v) for v in values]
+    decimals = min(12, max(0, 3 - math.floor(math.log10(max(finite)))))
+    out = []
+    for v in values:
+        if v is None or not math.isfinite(v):
+            out.append(fmt(v))
+        else:
+            text = f"{v:.{decimals}f}"
+            if "." in text:
+                text = text.rstrip("0").rstrip(".")
+            out.append("0" if float(text) == 0 else text)
+    return out
+
+
 def p_eq(p: float | None, name: str = "p") -> str:
     """"p = 0.0123", or "p < 0.0001" for a tiny p-value."""
     if p is not None and p < 1e-4:
@@ -99,7 +119,8 @@ class MarginRule:
                ci: tuple[float, float], unit: str, side: str) -> Verdict:
         level = fmt(100 * (1 - 2 * alpha))
         ref = "target" if self.check == "target" else "the old process"
-        detail = f"({level}% interval {fmt(ci[0])}..{fmt(ci[1])}, {p_eq(pvalue)})"
+        lo, hi = fmt_like(ci[0], ci[1])
+        detail = f"({level}% interval {lo}..{hi}, {p_eq(pvalue)})"
         u = f" {unit}" if unit else ""
         if side == "two-sided":
             claim = f"within {margin_words(low, high, unit)} of {ref}"
@@ -140,11 +161,12 @@ class DifferenceRule:
         which = "adjusted p" if adjusted else "p"
         noun = "departure from target" if self.check == "target" else "shift"
         u = f" {unit}" if unit else ""
+        est, det = fmt_like(estimate, detectable)
         if pvalue < alpha:
             return Verdict(
-                "HOLD", f"{noun} of {fmt(estimate)}{u} detected in the harmful direction "
+                "HOLD", f"{noun} of {est}{u} detected in the harmful direction "
                 f"({p_eq(pvalue, which)}, alpha {alpha})")
-        note = (f"; the smallest {noun} these data detect with 80% power is {fmt(detectable)}{u}"
+        note = (f"; the smallest {noun} these data detect with 80% power is {det}{u}"
                 if detectable is not None else "")
         return Verdict("PASS", f"no {noun} detected ({p_eq(pvalue, which)}){note}")
 

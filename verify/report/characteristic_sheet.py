@@ -96,7 +96,8 @@ def _rows_for_checks(checks, fmts):
             if k not in extra_keys:
                 extra_keys.append(k)
     for k in extra_keys:
-        spec.append((k.replace("_", " ").capitalize(), lambda r, k=k: r.extra.get(k), "General"))
+        label = EXTRA_LABELS.get(k, k.replace("_", " ").capitalize())
+        spec.append((label, lambda r, k=k: r.extra.get(k), None))
     rows = []
     for label, get, fmt in spec:
         values = [get(r) for r in checks]
@@ -112,6 +113,17 @@ def _rows_for_checks(checks, fmts):
         ]
         rows.append((label, values, fl))
     return rows
+
+
+EXTRA_LABELS = {
+    "n_new": "n new", "n_old": "n old", "sd": "sd entering the standard error",
+    "df_num": "df, numerator", "df_den": "df, denominator", "F": "F = var new / var old",
+    "cp": "Cp", "cpk": "Cpk", "cpl": "Cpl", "cpu": "Cpu", "pp": "Pp", "ppk": "Ppk", "cpm": "Cpm",
+    "sigma_within": "sigma, within", "sigma_overall": "sigma, overall",
+    "sigma_method": "sigma, how estimated", "mean": "mean (new)", "n": "n (new parts)",
+    "min_cpk": "Cpk required", "cpk_lower_95": "Cpk, lower 95% bound",
+    "correlation": "correlation old/new",
+}
 
 
 def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: int | None):

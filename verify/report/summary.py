@@ -82,6 +82,16 @@ def main_check(c: CharacteristicResult) -> CheckResult | None:
     return c.checks[0] if c.checks else None
 
 
+def _plan_words(ev: Evaluation) -> str:
+    min_n = ev.spec.min_n
+    unit = {"part": "parts", "lot": "lots"}.get(ev.spec.unit_of_analysis, "units")
+    if min_n is None:
+        return "none declared (min_n): the checks decide on the data there are"
+    if ev.final:
+        return f"{min_n} {unit} per process; final run: the checks decide on the data there are"
+    return f"{min_n} {unit} (or pairs) per process; below it a characteristic is PENDING"
+
+
 def margin_text(margin: tuple[float, float] | None, side: str = "two-sided") -> str:
     """The margin as a reader needs it: only the harmful side counts for side lower/upper."""
     if margin is None:
@@ -170,10 +180,8 @@ def write_summary(
         ("Run (UTC)", f"{ev.run.started} to {ev.run.finished}"),
         ("Run id", ev.run.run_id),
         (
-            "Mode",
-            "final: too few parts or lots decide HOLD, not PENDING"
-            if ev.final
-            else "interim: too few parts or lots give PENDING",
+            "Planned n",
+            _plan_words(ev),
         ),
     )
     for i, (label, value) in enumerate(info, start=2):
