@@ -49,10 +49,7 @@ HEAVY_MODULES = ("numpy", "scipy.stats", "pandas", "openpyxl", "verify.evaluate"
 
 EXAMPLE = """\
 example:
-  verify nightly specs/ --out reports/nightly --jobs 2 --data-root sample_lots/
-
-exit status: 0 all PASS; 1 any HOLD or drift from a decision of record; 2 any ERROR, or the
-ledger is locked by another run; 3 any PENDING (and no HOLD, drift or error)."""
+  verify nightly specs/ --out reports/nightly --jobs 2 --data-root sample_lots/"""
 
 
 DESCRIPTION = textwrap.fill(
@@ -64,7 +61,9 @@ DESCRIPTION = textwrap.fill(
     "the first run given --final) locks the decision of record of that spec version; later "
     "runs monitor it and flag drift. Every spec on every run is a row of an append-only SQLite "
     "ledger; a digest workbook <out>/digest-<date>.xlsx and one line per spec on stdout say "
-    "what changed.", 88)
+    "what changed.", 88) + (
+    "\n\nexit status: 0 all PASS; 1 any HOLD or drift from a decision of record; 2 any ERROR,"
+    "\nor the ledger is locked by another run; 3 any PENDING (and no HOLD, drift or error).")
 
 
 def add_nightly(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
