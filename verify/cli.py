@@ -207,6 +207,23 @@ def cmd_schema(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+# -- verify plan -------------------------------------------------------------------------------
+
+
+def add_plan(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
+    from .plan import DESCRIPTION, EPILOG, HELP, add_plan_arguments
+
+    p = sub.add_parser("plan", help=HELP, description=DESCRIPTION, epilog=EPILOG,
+                       formatter_class=argparse.RawDescriptionHelpFormatter)
+    return add_plan_arguments(p)
+
+
+def cmd_plan(args: argparse.Namespace) -> int:
+    from .plan import plan_main
+
+    return plan_main(args)
+
+
 # -- dispatcher -------------------------------------------------------------------------------
 
 # name -> (add the subparser, run the command); further commands register here
@@ -216,6 +233,7 @@ COMMANDS: dict[str, tuple[Callable, Callable[[argparse.Namespace], int]]] = {
     "run": (add_run, cmd_run),
     "replay": (add_replay, cmd_replay),
     "nightly": (add_nightly, nightly_main),
+    "plan": (add_plan, cmd_plan),
 }
 
 
