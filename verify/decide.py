@@ -130,9 +130,21 @@ class MarginRule:
             claim = f"at most {fmt(high)}{u} above {ref}"
         if pvalue < alpha:
             return Verdict("PASS", f"shown {claim} {detail}")
+        beyond = ("; the whole interval lies beyond the margin"
+                  if self.harm_shown(ci=ci, low=low, high=high, side=side) else "")
         if side == "two-sided":
-            return Verdict("HOLD", f"not shown {claim} {detail}")
-        return Verdict("HOLD", f"not shown to be {claim} {detail}")
+            return Verdict("HOLD", f"not shown {claim} {detail}{beyond}")
+        return Verdict("HOLD", f"not shown to be {claim} {detail}{beyond}")
+
+    @staticmethod
+    def harm_shown(*, ci: tuple[float, float], low: float, high: float, side: str) -> bool:
+        """True when the (1 - 2 alpha) interval lies wholly beyond the harmful end(s) of the
+        margin: the data then show harm, not merely a lack of evidence."""
+        if side == "lower":
+            return ci[1] < low
+        if side == "upper":
+            return ci[0] > high
+        return ci[1] < low or ci[0] > high
 
 
 class DifferenceRule:
@@ -213,9 +225,10 @@ class SufficiencyRule:
         return (
             "Sufficiency: while either process has fewer than min_n units (parts, pairs or lots, "
             "as the spec's unit of analysis says) the characteristic is PENDING, unless the run "
-            "is final (--final); checks that already show harm (a significant harmful shift or a "
-            "larger spread) still HOLD, and no check can PASS before the plan is complete. With "
-            "fewer than 2 units or zero spread a check cannot be computed: HOLD with the reason "
+            "is final (--final); checks that already show harm (a significant harmful shift, a "
+            "larger spread, or an interval wholly beyond the margin) still HOLD, and no check "
+            "can PASS before the plan is complete. With fewer than 2 units or zero spread a "
+            "check cannot be computed: HOLD with the reason "
             "(PENDING while planned data are still arriving)."
         )
 

@@ -26,7 +26,7 @@ from .spec_model import Characteristic, Spec
 from .stats import capability as cap
 from .stats import diagnostics as diag
 from .stats import equivalence, multiplicity, nonparametric, power, spread, ttests
-from .stats.core import confidence_interval, mean_sd, t_test_from_estimate
+from .stats.core import confidence_interval, mean_sd, require_spread, t_test_from_estimate
 from .stats.errors import DegenerateDataError, StatsError
 from .stats.paired_spread import pitman_morgan
 
@@ -77,6 +77,8 @@ class _CharDraft:
     checks: list[_Draft] = field(default_factory=list)
     diagnostics: list[DiagnosticResult] = field(default_factory=list)
     shortfall: str | None = None
+    final_shortfall: str | None = None  # the shortfall a --final run overrode
+    counts: dict = field(default_factory=dict)
     pairs: int | None = None
     unmatched: tuple = ()
 
@@ -102,7 +104,13 @@ def evaluate(
         from .audit import run_info
 
         run = run_info(spec, measurements, command="(library call)")
-    drafts = [_draft_characteristic(spec, measurements, ch, final) for ch in spec.characteristics]
+    # the multiplicity family: every difference test (target or shift check without a margin)
+    family_size = sum(
+        1 for ch in spec.characteristics for conf in (ch.checks.target, ch.checks.shift)
+        if conf is not None and conf.margin is None
+    )
+    drafts = [_draft_characteristic(spec, measurements, ch, final, max(1, family_size))
+              for ch in spec.characteristics]
     _adjust(drafts, spec.multiplicity)
     results = tuple(_finish(spec, d) for d in drafts)
     decision = decide.combine(r.decision for r in results)
@@ -178,7 +186,8 @@ def _gather(spec: Spec, meas: Measurements, ch: Characteristic) -> tuple[_Data, 
 # --- drafting checks ----------------------------------------------------------------------------
 
 
-def _draft_characteristic(spec: Spec, meas: Measurements, ch: Characteristic, final: bool):
+def _draft_characteristic(spec: Spec, meas: Measurements, ch: Characteristic, final: bool,
+                          family_size: int):
     data, processes = _gather(spec, meas, ch)
     d = _CharDraft(ch=ch, data=data, processes=processes)
     counts = {p: s.n for p, s in processes.items()}
@@ -187,11 +196,14 @@ def _draft_characteristic(spec: Spec, meas: Measurements, ch: Characteristic, fi
         d.unmatched = tuple(data.pairs.unmatched)
         counts = {"pairs": d.pairs}
     d.shortfall = decide.SUFFICIENCY.shortfall(counts, spec.min_n, final)
+    if final:
+        d.final_shortfall = decide.SUFFICIENCY.shortfall(counts, spec.min_n, False)
+    d.counts = counts
     checks = ch.checks
     if checks.target is not None:
-        d.checks.append(_draft_location(spec, ch, d, "target"))
+        d.checks.append(_draft_location(spec, ch, d, "target", family_size))
     if checks.shift is not None:
-        d.checks.append(_draft_location(spec, ch, d, "shift"))
+        d.checks.append(_draft_location(spec, ch, d, "shift", family_size))
     if checks.spread is not None:
         d.checks.append(_draft_spread(spec, ch, d))
     if checks.capability is not None:
@@ -216,15 +228,32 @@ def _effect(design: str, ch: Characteristic, data: _Data):
         return ttests.effect("paired", pv.new, pv.old)
     if data.old is None:
         raise DegenerateDataError("no old-process values")
+    # a comparison needs the spread of each process: one process with zero spread (or a single
+    # value) would let the other alone set the standard error
+    n_old, _, sd_old = mean_sd(data.old) if data.old.size else (0, 0.0, math.nan)
+    require_spread(n_old, sd_old, "old values")
+    n_new, _, sd_new = mean_sd(data.new) if data.new.size else (0, 0.0, math.nan)
+    require_spread(n_new, sd_new, "new values")
     return ttests.effect(design, data.new, data.old)
 
 
-def _common_sd(e) -> float:
-    """The sd that power calculations assume for this effect (common sd of one unit)."""
-    return float(e.sd)
+def _power_sds(e) -> dict:
+    """The sds the power functions assume: both process sds for Welch, else the common sd."""
+    if e.design == "welch" and e.sd_new is not None and e.sd_old is not None:
+        return {"sd": float(e.sd_new), "sd_old": float(e.sd_old)}
+    return {"sd": float(e.sd)}
 
 
-def _draft_location(spec: Spec, ch: Characteristic, d: _CharDraft, check: str) -> _Draft:
+def _try(fn, *args, **kwargs):
+    """A planning figure, or None where it does not exist (e.g. a shift outside the margin)."""
+    try:
+        return fn(*args, **kwargs)
+    except (StatsError, ValueError):
+        return None
+
+
+def _draft_location(spec: Spec, ch: Characteristic, d: _CharDraft, check: str,
+                    family_size: int) -> _Draft:
     alpha = spec.alpha
     if check == "target":
         conf = ch.checks.target
@@ -242,17 +271,18 @@ def _draft_location(spec: Spec, ch: Characteristic, d: _CharDraft, check: str) -
     except (StatsError, ValueError) as err:
         what = "TOST" if margin is not None else "t-test"
         return _degenerate(check, f"{what} ({design})", subject, err, design=design)
-    n_new = e.n_new
-    n_old = e.n_old
-    sd = _common_sd(e)
+    n_new, n_old = e.n_new, e.n_old
+    sds = _power_sds(e)
+    ratio = _ratio(n_new, n_old) if design in ("welch", "pooled") else 1.0
     common = dict(
         estimate=e.estimate, standard_error=e.standard_error, df=e.df, design=design,
-        extra={"n_new": n_new, "n_old": n_old, "sd": sd},
+        extra={"n_new": n_new, "n_old": n_old, "sd": float(e.sd)},
     )
     if margin is not None:
         low, high = margin.low, margin.high
         level = 1 - 2 * alpha
         ci = confidence_interval(e.estimate, e.standard_error, e.df, level=level)
+        true_shift = spec.plan.true_shift
         if ch.side == "two-sided":
             r = equivalence.tost_from_estimate(
                 e.estimate, e.standard_error, e.df, low=low, high=high,
@@ -261,18 +291,13 @@ def _draft_location(spec: Spec, ch: Characteristic, d: _CharDraft, check: str) -
             tost_fields = dict(p_lower=r.p_lower, p_upper=r.p_upper,
                                statistic_lower=r.statistic_lower,
                                statistic_upper=r.statistic_upper)
-            statistic = (r.statistic_lower if r.p_lower >= r.p_upper else r.statistic_upper)
+            statistic = r.statistic_lower if r.p_lower >= r.p_upper else r.statistic_upper
             hyp = f"{subject} lies inside {decide.margin_words(low, high, unit)}"
             alternative = "equivalence"
-            method = r.method
-            try:
-                pw = power.power_tost(spec.plan.true_shift, sd, n_new, n_old, design=design,
-                                      alpha=alpha, low=low, high=high)
-                planned = power.sample_size_tost(
-                    spec.plan.true_shift, sd, design=design, alpha=alpha, low=low, high=high,
-                    power=spec.plan.power, ratio=_ratio(n_new, n_old)).n_new
-            except StatsError:
-                pw, planned = None, None
+            pw = _try(power.power_tost, true_shift, n_new=n_new, n_old=n_old, design=design,
+                      alpha=alpha, low=low, high=high, **sds)
+            size = _try(power.sample_size_tost, true_shift, design=design, alpha=alpha,
+                        low=low, high=high, power=spec.plan.power, ratio=ratio, **sds)
         else:
             harmful = ch.side
             bound = low if harmful == "lower" else high
@@ -281,7 +306,6 @@ def _draft_location(spec: Spec, ch: Characteristic, d: _CharDraft, check: str) -
                 method=f"non-inferiority ({e.method})")
             pval = r.pvalue
             statistic = r.statistic
-            tost_fields = {}
             if harmful == "lower":
                 tost_fields = dict(p_lower=r.pvalue, statistic_lower=r.statistic)
                 hyp = f"{subject} is no lower than {decide.fmt(bound)} {unit}".rstrip()
@@ -289,70 +313,64 @@ def _draft_location(spec: Spec, ch: Characteristic, d: _CharDraft, check: str) -
                 tost_fields = dict(p_upper=r.pvalue, statistic_upper=r.statistic)
                 hyp = f"{subject} is no higher than +{decide.fmt(bound)} {unit}".rstrip()
             alternative = r.alternative
-            method = r.method
-            try:
-                pw = power.power_noninferiority(spec.plan.true_shift, sd, n_new, n_old,
-                                                design=design, alpha=alpha, bound=bound,
-                                                harmful=harmful)
-                planned = power.sample_size_noninferiority(
-                    spec.plan.true_shift, sd, design=design, alpha=alpha, bound=bound,
-                    harmful=harmful, power=spec.plan.power, ratio=_ratio(n_new, n_old)).n_new
-            except StatsError:
-                pw, planned = None, None
+            pw = _try(power.power_noninferiority, true_shift, n_new=n_new, n_old=n_old,
+                      design=design, alpha=alpha, bound=bound, harmful=harmful, **sds)
+            size = _try(power.sample_size_noninferiority, true_shift, design=design,
+                        alpha=alpha, bound=bound, harmful=harmful, power=spec.plan.power,
+                        ratio=ratio, **sds)
         rule = decide.TARGET_MARGIN if check == "target" else decide.SHIFT_MARGIN
         verdict = rule.decide(pvalue=pval, alpha=alpha, low=low, high=high,
                               ci=(ci.low, ci.high), unit=unit, side=ch.side)
         res = CheckResult(
-            check=check, method=method, hypothesis=hyp, alternative=alternative,
+            check=check, method=r.method, hypothesis=hyp, alternative=alternative,
             margin=(low, high), outcome=verdict.outcome, reason=verdict.reason,
             statistic=statistic, p_value=pval, ci_low=ci.low, ci_high=ci.high, ci_level=level,
             critical_value=_crit(e.df, alpha, "greater"), power=_finite(pw),
             power_note=(f"power of this test if the true {noun} is "
-                        f"{decide.fmt(spec.plan.true_shift)} and the sd is as observed"),
-            planned_n=planned, **tost_fields, **common,
+                        f"{decide.fmt(true_shift)} and the sd is as observed"),
+            planned_n=size.n_new if size is not None else None, **tost_fields, **common,
         )
-        return _Draft(result=res, harm_shown=False)
+        harm = rule.harm_shown(ci=(ci.low, ci.high), low=low, high=high, side=ch.side)
+        return _Draft(result=res, harm_shown=verdict.outcome == "HOLD" and harm)
 
-    # no margin: a difference test in the harmful direction
+    # no margin: a difference test in the harmful direction. Under holm or bonferroni the
+    # interval, critical value and power figures use the Bonferroni level alpha / m, so that
+    # they agree with the adjusted decision (for Holm they are conservative).
     alternative = _alternative(ch.side)
+    eff_alpha = alpha / family_size if spec.multiplicity != "none" else alpha
     r = t_test_from_estimate(e.estimate, e.standard_error, e.df, alternative=alternative,
                              method=e.method)
-    ci = r.confidence_interval(1 - alpha)
-    try:
-        detectable = power.detectable_shift(sd, n_new, n_old, design=design, alpha=alpha,
-                                            alternative=alternative, power=DETECT_POWER)
-    except StatsError:
-        detectable = None
-    pw = planned = None
-    note = None
+    ci = r.confidence_interval(1 - eff_alpha)
+    detectable = _try(power.detectable_shift, n_new=n_new, n_old=n_old, design=design,
+                      alpha=eff_alpha, alternative=alternative, power=DETECT_POWER, **sds)
+    pw = size = None
+    at = "" if eff_alpha == alpha else f" at the adjusted level alpha/{family_size}"
     if conf.detect is not None:
-        try:
-            pw = power.power_t(conf.detect, sd, n_new, n_old, design=design, alpha=alpha,
-                               alternative=alternative)
-            planned = power.sample_size_t(conf.detect, sd, design=design, alpha=alpha,
-                                          alternative=alternative, power=spec.plan.power,
-                                          ratio=_ratio(n_new, n_old)).n_new
-        except StatsError:
-            pw = planned = None
-        note = f"power to detect a shift of {decide.fmt(conf.detect)} {unit}".rstrip()
+        # detect is a size; a harmful departure downwards is a negative shift
+        shift = -conf.detect if alternative == "less" else conf.detect
+        pw = _try(power.power_t, shift, n_new=n_new, n_old=n_old, design=design,
+                  alpha=eff_alpha, alternative=alternative, **sds)
+        size = _try(power.sample_size_t, shift, design=design, alpha=eff_alpha,
+                    alternative=alternative, power=spec.plan.power, ratio=ratio, **sds)
+        note = f"power to detect a {noun} of {decide.fmt(conf.detect)} {unit}".rstrip() + at
     else:
-        note = (f"no detect value declared; the shift detected with {DETECT_POWER:.0%} power is "
-                f"{decide.fmt(detectable)} {unit}".rstrip())
+        note = (f"no detect value declared; the {noun} detected with {DETECT_POWER:.0%} power "
+                f"is {decide.fmt(detectable)} {unit}".rstrip() + at)
     direction = {"two-sided": "differs from", "less": "is below", "greater": "is above"}
     hyp = f"{subject} {direction[alternative]} 0"
     rule = decide.TARGET_DIFFERENCE if check == "target" else decide.SHIFT_DIFFERENCE
     res = CheckResult(
         check=check, method=r.method, hypothesis=hyp, alternative=alternative, margin=None,
         outcome="PASS", reason="", statistic=r.statistic, p_value=r.pvalue,
-        ci_low=ci.low, ci_high=ci.high, ci_level=1 - alpha,
-        critical_value=r.critical_value(alpha), power=_finite(pw), power_note=note,
-        detectable_shift=_finite(detectable), planned_n=planned, **common,
+        ci_low=ci.low, ci_high=ci.high, ci_level=1 - eff_alpha,
+        critical_value=r.critical_value(eff_alpha), power=_finite(pw), power_note=note,
+        detectable_shift=_finite(detectable),
+        planned_n=size.n_new if size is not None else None, **common,
     )
 
     def finish(p_adj, adjusted, _rule=rule, _e=e, _unit=unit, _det=detectable):
-        v = _rule.decide(pvalue=p_adj, alpha=alpha, estimate=_e.estimate, unit=_unit,
-                         detectable=_finite(_det), adjusted=adjusted)
-        return v
+        return _rule.decide(pvalue=p_adj, alpha=alpha, estimate=_e.estimate, unit=_unit,
+                            detectable=_finite(_det), adjusted=adjusted)
 
     return _Draft(result=res, family_p=r.pvalue, finish=finish)
 
@@ -404,6 +422,7 @@ def _draft_spread(spec: Spec, ch: Characteristic, d: _CharDraft) -> _Draft:
         outcome=v.outcome, reason=v.reason, estimate=ratio, statistic=stat, df=df,
         p_value=p, ci_low=ci.low, ci_high=_finite(ci.high), ci_level=level,
         design="paired" if paired else "two-sample", extra=extra,
+        power_note="no power figure: the spec declares no spread increase that must be seen",
     )
     return _Draft(result=res, harm_shown=v.outcome == "HOLD")
 
@@ -433,11 +452,21 @@ def _draft_capability(spec: Spec, ch: Characteristic, d: _CharDraft) -> _Draft:
         check="capability", method=f"Cpk ({r.sigma_method})", hypothesis=hyp,
         alternative=None, margin=None, outcome=v.outcome, reason=v.reason, estimate=r.cpk,
         ci_low=_finite(lb), ci_high=None, ci_level=0.95, extra=extra,
+        power_note="no power figure: capability is an estimate against min_cpk, not a test",
     )
     return _Draft(result=res)
 
 
 # --- diagnostics --------------------------------------------------------------------------------
+
+
+def _lot_count_words(n_lots: int, n_values: int) -> str:
+    if n_values == 0:
+        return "no values measured"
+    if n_lots < 3:
+        lots = "1 lot" if n_lots == 1 else f"{n_lots} lots"
+        return f"only {lots}: lot-to-lot variation is barely represented"
+    return f"{n_lots} lots"
 
 
 def _diag_na(name, method, group, err) -> DiagnosticResult:
@@ -491,7 +520,8 @@ def _diagnostics(spec: Spec, ch: Characteristic, d: _CharDraft) -> list[Diagnost
                 (f"possible outlier {decide.fmt(g.value)} in lot {lot} "
                  f"(G = {decide.fmt(g.statistic)}, {decide.p_eq(g.pvalue)}); "
                  "not removed: check the part and the record"
-                 if flag else f"no outlier detected ({decide.p_eq(g.pvalue)})"),
+                 if flag else f"no outlier detected (G = {decide.fmt(g.statistic)}, "
+                 f"Bonferroni bound {decide.p_eq(g.pvalue)})"),
                 statistic=g.statistic, p_value=g.pvalue,
                 extra={"value": g.value, "lot": str(lot)}))
         except StatsError as err:
@@ -499,8 +529,7 @@ def _diagnostics(spec: Spec, ch: Characteristic, d: _CharDraft) -> list[Diagnost
         n_lots = len(set(lots))
         out.append(DiagnosticResult(
             "lot count", "count of lots", group, n_lots < 3,
-            (f"only {n_lots} lot(s): lot-to-lot variation is barely represented" if n_lots < 3
-             else f"{n_lots} lots"), statistic=float(n_lots)))
+            _lot_count_words(n_lots, x.size), statistic=float(n_lots)))
         if spec.unit_of_analysis == "part":
             try:
                 le = diag.lot_effect(x, np.asarray(lots, dtype=object))
@@ -660,6 +689,13 @@ def _finish(spec: Spec, d: _CharDraft) -> CharacteristicResult:
                 review.append(
                     f"review: {d.ch.name}: Cpk meets {decide.fmt(res.extra['min_cpk'])} but its "
                     f"lower 95% bound {decide.fmt(lb, 3)} does not")
+    if d.final_shortfall is not None:
+        review.append(f"review: {d.ch.name}: final run with the plan cut short "
+                      f"({d.final_shortfall})")
+    if spec.min_n is None and d.counts:
+        smallest = min(d.counts.values())
+        review.append(f"review: {d.ch.name}: no planned sample size (min_n) declared; the "
+                      f"decision rests on n = {smallest}")
     if d.unmatched:
         review.append(f"review: {d.ch.name}: {len(d.unmatched)} pair key(s) with one side only "
                       f"left out of the paired analysis: {', '.join(map(str, d.unmatched[:10]))}")

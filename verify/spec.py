@@ -546,7 +546,9 @@ def _build_characteristic(c: dict, p: str, data: DataSpec, unit: str, doc: Docum
     on, cfg = wanted("shift")
     shift_check = None
     if on:
-        design = cfg.get("design", "paired" if data.pair is not None else "welch")
+        # lot means carry no pair key: with unit_of_analysis lot the default is welch
+        paired_default = data.pair is not None and unit != "lot"
+        design = cfg.get("design", "paired" if paired_default else "welch")
         shift_check = ShiftCheck(design=design, margin=_margin(cfg.get("margin"), target),
                                  detect=_opt_float(cfg.get("detect")))
         rec(f"{cp}.shift.design", design)

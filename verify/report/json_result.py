@@ -41,6 +41,18 @@ def _clean(obj):
     return _num(obj)
 
 
+def _margin(c: CheckResult) -> list | None:
+    """[low, high]; a one-sided (non-inferiority) check tests one end only, the other is null."""
+    if c.margin is None:
+        return None
+    low, high = c.margin
+    if c.alternative == "greater":  # harmful side lower: only the low end is tested
+        return [low, None]
+    if c.alternative == "less":
+        return [None, high]
+    return [low, high]
+
+
 def _check(c: CheckResult) -> dict:
     d = {
         "check": c.check,
@@ -48,7 +60,7 @@ def _check(c: CheckResult) -> dict:
         "hypothesis": c.hypothesis,
         "design": c.design,
         "alternative": c.alternative,
-        "margin": list(c.margin) if c.margin is not None else None,
+        "margin": _margin(c),
         "estimate": c.estimate,
         "standard_error": c.standard_error,
         "statistic": c.statistic,

@@ -206,6 +206,7 @@ def mean_sd(x: np.ndarray) -> tuple[int, float, float]:
 def require_spread(n: int, sd: float, what: str = "values") -> None:
     """Raise DegenerateDataError when n < 2 or the spread is zero."""
     if n < 2:
-        raise DegenerateDataError(f"{n} {what}: at least 2 are needed to estimate the spread")
+        have = f"no {what}" if n == 0 else f"{what}: only 1"
+        raise DegenerateDataError(f"{have}; at least 2 are needed to estimate the spread")
     if not math.isfinite(sd) or sd <= 0.0:
         raise DegenerateDataError(f"the {what} have zero spread (all identical)")
