@@ -23,14 +23,16 @@ from . import __version__
 
 
 def source_date_epoch() -> int | None:
-    """The SOURCE_DATE_EPOCH value, or None when unset or invalid."""
+    """The SOURCE_DATE_EPOCH value, or None when unset or empty; invalid text is an error."""
     raw = os.environ.get("SOURCE_DATE_EPOCH", "").strip()
     if not raw:
         return None
-    try:
-        return int(raw)
-    except ValueError:
-        return None
+    if not raw.isdigit() or int(raw) > 253402300799:  # 9999-12-31T23:59:59Z
+        from .errors import UsageError
+
+        raise UsageError(f"SOURCE_DATE_EPOCH={raw!r} must be a whole number of seconds since "
+                         "1970-01-01 UTC (0 to 253402300799), or unset")
+    return int(raw)
 
 
 def utc_now() -> str:

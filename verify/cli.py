@@ -12,6 +12,8 @@ on stderr; argparse's own usage errors are 2 as well).
 from __future__ import annotations
 
 import argparse
+import contextlib
+import os
 import sys
 from collections.abc import Callable, Sequence
 
@@ -256,11 +258,28 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _terminate(signum, frame):  # pragma: no cover - exercised through a subprocess
+    # SIGTERM (a scheduler's stop, systemd, timeout) unwinds like an exception, so temporary
+    # files are removed by their finally blocks instead of being left behind
+    raise SystemExit(128 + signum)
+
+
 def main(argv: Sequence[str] | None = None) -> int:
-    """Run ``verify`` with ``argv`` (default ``sys.argv[1:]``); return the exit status."""
+    """Run ``verify`` with ``argv`` (default ``sys.argv[1:]``); return the exit status.
+
+    Exit status 2 covers every failure that is not a decision: invalid input, an output that
+    cannot be written, an internal error. A scheduler never reads such a failure as HOLD.
+    """
+    import signal
+
     parser = build_parser()
     args = parser.parse_args(argv)
+    if threading_main():
+        signal.signal(signal.SIGTERM, _terminate)
     try:
+        from .audit import source_date_epoch
+
+        source_date_epoch()  # refuse a bad value before any library reads it at import
         return args.func(args)
     except VerifyError as exc:
         print(exc.report(), file=sys.stderr)
@@ -268,6 +287,28 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:  # output piped into head and the like
+        with contextlib.suppress(OSError):
+            sys.stderr.close()
+        return EXIT_INVALID
+    except OSError as exc:
+        where = f" {exc.filename}" if getattr(exc, "filename", None) else ""
+        print(f"verify: cannot complete:{where}: {exc.strerror or exc}; nothing was "
+              "half-written (outputs are renamed into place only when complete)", file=sys.stderr)
+        return EXIT_INVALID
+    except Exception as exc:  # a bug: say so plainly, and never exit with a decision status
+        if os.environ.get("VERIFY_DEBUG"):
+            raise
+        print(f"verify: internal error ({type(exc).__name__}: {exc}). This is a bug in verify; "
+              "please report it with this message. Set VERIFY_DEBUG=1 for the traceback.",
+              file=sys.stderr)
+        return EXIT_INVALID
+
+
+def threading_main() -> bool:
+    import threading
+
+    return threading.current_thread() is threading.main_thread()
 
 
 if __name__ == "__main__":  # pragma: no cover

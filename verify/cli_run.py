@@ -3,10 +3,11 @@
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 from pathlib import Path
 
-from .errors import VerifyError
+from .errors import UsageError, VerifyError
 
 EXIT_PASS, EXIT_HOLD, EXIT_INVALID, EXIT_PENDING = 0, 1, 2, 3
 
@@ -55,7 +56,7 @@ def summary_line(ev, target: Path | None = None) -> str:
 
 def cmd_run(args: argparse.Namespace) -> int:
     from .audit import command_line
-    from .runner import prepare, write_outputs
+    from .runner import prepare, stage_outputs
     from .spec import find_specs
 
     paths = find_specs(args.paths)
@@ -80,10 +81,49 @@ def cmd_run(args: argparse.Namespace) -> int:
         print(f"{len(failed)} of {len(paths)} specs invalid: nothing written", file=sys.stderr)
         return EXIT_INVALID
     out = Path(args.out)
-    for ev in evaluations:
-        o = write_outputs(ev, out / f"{ev.spec.stem}.xlsx", out / f"{ev.spec.stem}.json")
-        print(summary_line(ev, o.workbook))
+    check_out_dir(out)
+    targets = [(ev, out / f"{ev.spec.stem}.xlsx", out / f"{ev.spec.stem}.json")
+               for ev in evaluations]
+    refuse_overwriting_inputs(evaluations, [t for _, *pair in targets for t in pair])
+    staged = []
+    try:  # every spec's pair is written before any is renamed into place
+        for ev, wb, res in targets:
+            staged.append(stage_outputs(ev, wb, res))
+    except BaseException:
+        for st in staged:
+            st.discard()
+        raise
+    for ev, st in zip(evaluations, staged, strict=True):
+        st.commit()
+        print(summary_line(ev, st.workbook))
     return decision_exit(ev.decision for ev in evaluations)
+
+
+def check_out_dir(out: Path) -> None:
+    """The output folder must be a writable folder (created when missing)."""
+    if out.exists() and not out.is_dir():
+        raise UsageError(f"--out {out}: this is a file, not a folder: give a folder for the "
+                         "reports")
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as err:
+        raise UsageError(f"--out {out}: cannot create the folder ({err.strerror})") from None
+    if not os.access(out, os.W_OK | os.X_OK):
+        raise UsageError(f"--out {out}: the folder is not writable: choose another --out")
+
+
+def refuse_overwriting_inputs(evaluations, outputs) -> None:
+    """A report must never replace a spec or a data file."""
+    inputs = {}
+    for ev in evaluations:
+        inputs[Path(ev.spec.path).resolve()] = f"the spec {ev.spec.path}"
+        for f in ev.measurements.files:
+            inputs[Path(f.resolved_path).resolve()] = f"the data file of {ev.spec.path}"
+    for target in outputs:
+        what = inputs.get(Path(target).resolve())
+        if what is not None:
+            raise UsageError(f"{target} is {what}: writing the report there would destroy it; "
+                             "choose another --out")
 
 
 def add_replay(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:

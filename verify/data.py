@@ -41,6 +41,7 @@ from .model import MEASUREMENT_COLUMNS, DataFileInfo, Measurements
 from .spec_model import Spec
 
 MAX_REPORTED = 20  # cells reported per kind of problem before "and N more"
+MAX_ABS_VALUE = 1e100  # larger magnitudes overflow in sums of squares
 NOT_MEASURED = "not measured"
 NEITHER_LIST = "lot in neither list"
 DELIMITERS = (",", ";", "\t")
@@ -297,6 +298,9 @@ def _read_text(raw: bytes, shown: str, *, tab: bool) -> _Sheet:
     frame = frame.fillna("")
     for col in frame.columns:
         frame[col] = frame[col].astype(str).str.strip()
+    short = _short_rows(frame, text, delimiter, shown)
+    if short:
+        raise DataError(short)
     header = frame.iloc[0].tolist() if len(frame) else []
     body = frame.iloc[1:].reset_index(drop=True)
     body.columns = range(body.shape[1])
@@ -311,6 +315,29 @@ def _read_text(raw: bytes, shown: str, *, tab: bool) -> _Sheet:
 
 def _delim_name(d: str) -> str:
     return {",": "commas", ";": "semicolons", "\t": "tabs"}[d]
+
+
+def _short_rows(frame, text: str, delimiter: str, shown: str) -> list[DataIssue]:
+    """Rows with fewer cells than the header (pandas pads them silently with empty cells,
+    which would read as "not measured"). The csv module counts the cells only when some row
+    ends in an empty cell, so the common case costs nothing."""
+    if frame.shape[0] < 2 or frame.shape[1] < 2:
+        return []
+    last = frame.iloc[1:, -1].to_numpy() == ""
+    if not last.any():
+        return []
+    width = frame.shape[1]
+    bad = []
+    for i, rec in enumerate(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter),
+                            start=1):
+        if i > 1 and rec and len(rec) < width:
+            bad.append((i, len(rec)))
+    issues = [DataIssue(shown, f"has {n} cells but the header has {width} columns (a missing "
+                        f"{_delim_name(delimiter)[:-1]}? write an empty cell as an explicit "
+                        "empty field)", row=i) for i, n in bad[:MAX_REPORTED]]
+    if len(bad) > MAX_REPORTED:
+        issues.append(DataIssue(shown, f"and {len(bad) - MAX_REPORTED} more rows like these"))
+    return issues
 
 
 def _ragged_rows(text: str, delimiter: str, shown: str, message: str) -> list[DataIssue]:
@@ -381,8 +408,38 @@ def _read_xlsx(raw: bytes, shown: str, sheet_name: str | None) -> _Sheet:
         blank = body.map(_is_blank).all(axis=1).to_numpy()
     else:
         blank = np.zeros(0, bool)
+    empty = body.isna().to_numpy() & ~blank[:, None]
+    if empty.any():
+        _unsaved_formulas(raw, shown, sheet_name, empty, header)
     return _Sheet(header=header, cells=body[~blank].reset_index(drop=True), rows=rows[~blank],
                   rows_read=int((~blank).sum()), encoding="xlsx", typed=True, sheet=sheet_name)
+
+
+def _unsaved_formulas(raw: bytes, shown: str, sheet_name: str, empty, header) -> None:
+    """An empty cell may be a formula whose value was never saved (a file written by a program,
+    not by a spreadsheet): that is no 'not measured'. Read the formulas only when empty cells
+    exist, and refuse such cells."""
+    import openpyxl
+
+    wb = openpyxl.load_workbook(io.BytesIO(raw), read_only=True, data_only=False)
+    try:
+        issues = []
+        for i, row in enumerate(wb[sheet_name].iter_rows(min_row=2, values_only=True)):
+            if i >= empty.shape[0] or not empty[i].any():
+                continue
+            for j in np.flatnonzero(empty[i]):
+                v = row[j] if j < len(row) else None
+                if isinstance(v, str) and v.startswith("="):
+                    issues.append(DataIssue(
+                        shown, f"the cell holds the formula {v[:60]!r} with no saved value: "
+                        "open the file in a spreadsheet program and save it, or paste the "
+                        "values", row=i + 2, column=header[j] or None))
+            if len(issues) > MAX_REPORTED:
+                break
+    finally:
+        wb.close()
+    if issues:
+        raise DataError(issues[:MAX_REPORTED])
 
 
 def _is_blank(v: object) -> bool:
@@ -710,7 +767,9 @@ class _Tidy:
             values[is_text] = np.where(wrong_sep[is_text], np.nan, parsed)
         values[missing] = np.nan  # a declared missing text, even a number such as -999
         bad = is_text & np.isnan(values)
-        infinite = np.isinf(values)
+        with np.errstate(invalid="ignore"):
+            # beyond 1e100 squares and sums overflow; no gauge reads such a number
+            infinite = np.isinf(values) | (np.abs(values) > MAX_ABS_VALUE)
         self.wrong_sep = wrong_sep
         self.infinite = infinite
         return values, missing, bad | infinite, text
@@ -771,6 +830,9 @@ class _Tidy:
             if np.isinf(values[i]):
                 msg = (f"{v!r} is an infinite value ({c.name}): a measurement must be a finite "
                        "number")
+            elif abs(values[i]) > MAX_ABS_VALUE:
+                msg = (f"{v!r} is outside the range verify computes with ({c.name}: |value| "
+                       f"<= {MAX_ABS_VALUE:g}): correct the cell or its unit")
             elif self.wrong_sep[i]:
                 other = "," if decimal == "." else "."
                 msg = (f"{v!r} is not a number with the decimal separator {decimal!r} "

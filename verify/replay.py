@@ -49,6 +49,7 @@ def read_record(path: Path) -> tuple[dict, str]:
             raise ReportError(f"{path}: not a verify JSON result ({err})") from err
         if not isinstance(doc, dict) or doc.get("format") != "verify-result/1":
             raise ReportError(f"{path}: not a verify result (format is not verify-result/1)")
+        _check_record(doc, path)
         return doc, doc["spec"]["text"]
     if suffix == ".xlsx":
         import zipfile
@@ -73,8 +74,32 @@ def read_record(path: Path) -> tuple[dict, str]:
             doc = json.loads(record)
         except json.JSONDecodeError as err:
             raise ReportError(f"{path}: the workbook's record is damaged ({err})") from err
+        if not isinstance(doc, dict):
+            raise ReportError(f"{path}: the workbook's record is damaged (not an object)")
+        _check_record(doc, path)
         return doc, spec_text
     raise ReportError(f"{path}: replay reads a .json or .xlsx report, not '{suffix}'")
+
+
+def _check_record(doc: dict, path: Path) -> None:
+    """The keys replay needs, with their types; a damaged record is a clear error."""
+    spec = doc.get("spec")
+    problems = []
+    if not isinstance(spec, dict):
+        problems.append("spec")
+    else:
+        for key in ("text", "sha256", "path"):
+            if not isinstance(spec.get(key), str):
+                problems.append(f"spec.{key}")
+    files = doc.get("data_files")
+    if not isinstance(files, list) or not all(
+        isinstance(f, dict) and isinstance(f.get("path"), str)
+        and isinstance(f.get("sha256"), str) for f in files
+    ):
+        problems.append("data_files")
+    if problems:
+        raise ReportError(f"{path}: not a complete verify result: missing or invalid "
+                          f"{', '.join(problems)}")
 
 
 def _compare(a, b, where: str, out: list[str]) -> None:

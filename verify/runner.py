@@ -64,21 +64,73 @@ def write_text_atomic(target: Path, text: str) -> None:
         tmp.write_text(text, encoding="utf-8")
 
 
-def write_outputs(ev: Evaluation, workbook: Path, result: Path) -> Outputs:
-    """Write the workbook and the JSON result (which records the workbook's sha256)."""
+@dataclass
+class Staged:
+    """Outputs written to temporary files beside their targets, not yet renamed."""
+
+    workbook: Path
+    result: Path
+    tmp_workbook: Path
+    tmp_result: Path
+    workbook_sha256: str
+
+    def commit(self) -> Outputs:
+        os.replace(self.tmp_workbook, self.workbook)
+        os.replace(self.tmp_result, self.result)
+        return Outputs(self.workbook, self.result, self.workbook_sha256)
+
+    def discard(self) -> None:
+        for p in (self.tmp_workbook, self.tmp_result):
+            with contextlib.suppress(FileNotFoundError):
+                p.unlink()
+
+
+def _temp_beside(target: Path) -> Path:
+    target.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".part", dir=target.parent)
+    os.close(fd)
+    umask = os.umask(0)
+    os.umask(umask)
+    os.chmod(tmp, 0o666 & ~umask)
+    return Path(tmp)
+
+
+def stage_outputs(ev: Evaluation, workbook: Path, result: Path) -> Staged:
+    """Write the workbook and the JSON result (which records the workbook's sha256) to
+    temporary files; :meth:`Staged.commit` renames them into place."""
     from .audit import sha256_file
     from .report.json_result import dumps, result_dict
     from .report.workbook import write_workbook
 
-    record = dumps(result_dict(ev))
-    with atomic_path(workbook) as tmp:
+    tmp_wb = _temp_beside(workbook)
+    tmp_res = None
+    try:
         # the workbook's zip and document times come from the run's start, so reruns under
         # SOURCE_DATE_EPOCH are byte-identical
-        write_workbook(ev, tmp, record_json=record)
-        digest = sha256_file(tmp)
-    doc = result_dict(ev, workbook={"path": str(workbook), "sha256": digest})
-    write_text_atomic(result, dumps(doc))
-    return Outputs(workbook=workbook, result=result, workbook_sha256=digest)
+        write_workbook(ev, tmp_wb, record_json=dumps(result_dict(ev)))
+        _fsync(tmp_wb)
+        digest = sha256_file(tmp_wb)
+        tmp_res = _temp_beside(result)
+        doc = result_dict(ev, workbook={"path": str(workbook), "sha256": digest})
+        tmp_res.write_text(dumps(doc), encoding="utf-8")
+        _fsync(tmp_res)
+    except BaseException:
+        for p in (tmp_wb, tmp_res):
+            if p is not None:
+                with contextlib.suppress(FileNotFoundError):
+                    p.unlink()
+        raise
+    return Staged(workbook, result, tmp_wb, tmp_res, digest)
+
+
+def _fsync(path: Path) -> None:
+    with open(path, "rb") as f:
+        os.fsync(f.fileno())
+
+
+def write_outputs(ev: Evaluation, workbook: Path, result: Path) -> Outputs:
+    """Write the workbook and the JSON result atomically (each renamed into place)."""
+    return stage_outputs(ev, workbook, result).commit()
 
 
 def sha256_text(text: str) -> str:

@@ -138,6 +138,13 @@ def load_spec(path: str | os.PathLike, *, text: str | None = None) -> Spec:
     if text is None:
         text = _read_text(path)
     body = text[1:] if text.startswith("\ufeff") else text
+    long_lines = [i for i, line in enumerate(body.split("\n"), start=1)
+                  if len(line) > MAX_LINE_LENGTH]
+    if long_lines:
+        # the workbook keeps the spec verbatim, a line per cell (at most 32,767 characters)
+        raise SpecError([SpecIssue(file, "", f"line {i} is longer than {MAX_LINE_LENGTH:,} "
+                                   "characters: break it up (a report cell cannot hold it)", i, 1)
+                         for i in long_lines[:20]])
     root = _compose(body, file)
     if root is None:
         raise SpecError([SpecIssue(file, "", "the spec is empty", 1, 1)])
@@ -174,9 +181,24 @@ def _read_text(path: Path) -> str:
             line, None)]) from None
 
 
+MAX_LINE_LENGTH = 32_000
+
+
+class SpecLoader(yaml.SafeLoader):
+    """The safe loader, reading numbers as YAML 1.2 does: PyYAML (YAML 1.1) takes 6e-3 or 1e5,
+    written without a dot or without an exponent sign, for text."""
+
+
+SpecLoader.add_implicit_resolver(
+    "tag:yaml.org,2002:float",
+    re.compile(r"^[-+]?(?:[0-9][0-9_]*(?:\.[0-9_]*)?|\.[0-9_]+)[eE][-+]?[0-9]+$"),
+    list("-+0123456789."),
+)
+
+
 def _compose(text: str, file: str) -> yaml.Node | None:
     try:
-        return yaml.compose(text, Loader=yaml.SafeLoader)
+        return yaml.compose(text, Loader=SpecLoader)
     except yaml.MarkedYAMLError as exc:
         mark = exc.problem_mark or exc.context_mark
         problem = exc.problem or "invalid YAML"

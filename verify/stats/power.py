@@ -525,7 +525,7 @@ def _smallest_n(
     while p_hi < target:
         if hi >= n_max:
             raise NotApplicableError(
-                f"more than {MAX_N} units per lot would be needed to reach power {target:g}"
+                f"more than {MAX_N} units per process would be needed to reach power {target:g}"
             )
         lo, hi = hi, min(2 * hi, n_max)
         p_hi = pw(hi)
@@ -565,7 +565,7 @@ def sample_size_t(
     ------
     NotApplicableError
         The shift is zero or points away from a one-sided alternative (no n reaches the
-        power), or more than :data:`MAX_N` units per lot would be needed.
+        power), or more than :data:`MAX_N` units per process would be needed.
 
     Examples
     --------
