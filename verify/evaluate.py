@@ -114,8 +114,11 @@ def evaluate(
     _adjust(drafts, spec.multiplicity)
     results = tuple(_finish(spec, d) for d in drafts)
     decision = decide.combine(r.decision for r in results)
+    # one line per characteristic not PASS: its leading reason (the full list stays with it)
     reasons = tuple(
-        f"{r.name}: {r.decision} - {'; '.join(r.reasons)}" for r in results if r.decision != "PASS"
+        f"{r.name}: {r.decision} - {r.reasons[0]}"
+        + (f" (and {len(r.reasons) - 1} more)" if len(r.reasons) > 1 else "")
+        for r in results if r.decision != "PASS"
     )
     review = tuple(note for r in results for note in r.review)
     return Evaluation(

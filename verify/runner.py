@@ -8,7 +8,6 @@ a file and never destroys the previous result.
 from __future__ import annotations
 
 import contextlib
-import hashlib
 import os
 import tempfile
 from dataclasses import dataclass
@@ -131,7 +130,3 @@ def _fsync(path: Path) -> None:
 def write_outputs(ev: Evaluation, workbook: Path, result: Path) -> Outputs:
     """Write the workbook and the JSON result atomically (each renamed into place)."""
     return stage_outputs(ev, workbook, result).commit()
-
-
-def sha256_text(text: str) -> str:
-    return hashlib.sha256(text.encode("utf-8")).hexdigest()
