@@ -2,9 +2,12 @@
 
 from __future__ import annotations
 
+import shutil
 from pathlib import Path
 
 import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
 
 # ../shared/reference from the repository root: data sets with published values (see its
 # README.md). A user's clone has no such folder; tests that need it skip.
@@ -19,6 +22,14 @@ def reference_dir() -> Path:
             f"reference data folder ../shared/reference not found (looked at {REFERENCE_DIR})"
         )
     return REFERENCE_DIR
+
+
+@pytest.fixture()
+def demo(tmp_path) -> Path:
+    """A copy of the demo specs and their data (specs refer to ../sample_lots/)."""
+    shutil.copytree(ROOT / "specs", tmp_path / "specs")
+    shutil.copytree(ROOT / "sample_lots", tmp_path / "sample_lots")
+    return tmp_path
 
 
 def pytest_configure(config: pytest.Config) -> None:

@@ -12,15 +12,6 @@ import pytest
 
 from verify.cli import main
 
-ROOT = Path(__file__).resolve().parents[1]
-
-
-@pytest.fixture()
-def demo(tmp_path) -> Path:
-    shutil.copytree(ROOT / "specs", tmp_path / "specs")
-    shutil.copytree(ROOT / "sample_lots", tmp_path / "sample_lots")
-    return tmp_path
-
 
 def _run(args, capsys):
     code = main(args)

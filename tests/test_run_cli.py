@@ -23,14 +23,6 @@ from verify.report import layout as L
 ROOT = Path(__file__).resolve().parents[1]
 
 
-@pytest.fixture()
-def demo(tmp_path) -> Path:
-    """A copy of the demo specs and their data (specs refer to ../sample_lots/)."""
-    shutil.copytree(ROOT / "specs", tmp_path / "specs")
-    shutil.copytree(ROOT / "sample_lots", tmp_path / "sample_lots")
-    return tmp_path
-
-
 @pytest.fixture(scope="module")
 def demo_run(tmp_path_factory):
     base = tmp_path_factory.mktemp("demo")

@@ -32,7 +32,7 @@ from .cells import (
     section,
 )
 from .charts import add_charts
-from .summary import decision_style, margin_text
+from .summary import decision_style, margin_text, put_decision_badge
 
 LABEL_WIDTH = 30
 EXTRA_FORMAT = "0.000###"
@@ -136,16 +136,7 @@ def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: 
         ws.column_dimensions[get_column_letter(j)].width = CHECK_WIDTH if j <= 6 else 14
     unit = f" ({c.unit})" if c.unit else ""
     put(ws, 1, 1, f"{c.name}{unit}", font=TITLE_FONT)
-    fill, font = decision_style(c.decision)
-    put(
-        ws,
-        1,
-        5,
-        c.decision,
-        fill=fill,
-        font=Font(bold=True, size=16, color=font.color),
-        align=Alignment(horizontal="center", vertical="center"),
-    )
+    put_decision_badge(ws, 1, 5, c.decision, size=16)
     ws.row_dimensions[1].height = 26
     row = 2
     for reason in c.reasons:

@@ -190,6 +190,15 @@ def _p_above(t: str, df: str, frac: bool) -> str:
     return f"IF({t}>0,0.5*{b},1-0.5*{b})"
 
 
+def _p_side(t: str, df: str, frac: bool, alternative: str) -> str:
+    """The p-value of ``t`` for ``alternative``: "greater", "less" or two-sided."""
+    if alternative == "greater":
+        return _p_above(t, df, frac)
+    if alternative == "less":
+        return _p_below(t, df, frac)
+    return _p_two(t, df, frac)
+
+
 def _t_quantile(two_tail: str, df: str, frac: bool) -> str:
     """The positive t whose two-sided tail probability is ``two_tail``."""
     if not frac:
@@ -432,6 +441,29 @@ def _pair_rows(
 # --- location tests (target and shift) ---------------------------------------------------------
 
 
+def _one_sided(
+    sh: _Sheet, ch: CheckResult, side: str, bound: str, est: str, se: str, df: str, frac: bool
+) -> tuple[str, str]:
+    """t and p cells of TOST's one-sided test at one margin: "lower" tests H0 effect <= low
+    (p from the upper tail), "upper" tests H0 effect >= high (p from the lower tail)."""
+    lower = side == "lower"
+    word, op, tail = ("low", "<=", ">=") if lower else ("high", ">=", "<=")
+    t_engine, p_engine = (
+        (ch.statistic_lower, ch.p_lower) if lower else (ch.statistic_upper, ch.p_upper)
+    )
+    t = sh.qty(
+        f"t, {side} one-sided test", f"({est}-{bound})/{se}", t_engine, f"(estimate - {word}) / se"
+    )
+    p_formula = (_p_above if lower else _p_below)(t, df, frac)
+    p = sh.qty(
+        f"p, {side} one-sided test (H0: effect {op} {word})",
+        p_formula,
+        p_engine,
+        f"P(T {tail} t): {_HOW_P[frac]}",
+    )
+    return t, p
+
+
 def _location_test(
     sh: _Sheet,
     ch: CheckResult,
@@ -452,33 +484,9 @@ def _location_test(
         high = sh.param("margin: high", ch.margin[1], "the spec's margin (upper end)")
         p_cells = []
         if side in ("two-sided", "lower"):
-            t_lo = sh.qty(
-                "t, lower one-sided test",
-                f"({est}-{low})/{se}",
-                ch.statistic_lower,
-                "(estimate - low) / se",
-            )
-            p_lo = sh.qty(
-                "p, lower one-sided test (H0: effect <= low)",
-                _p_above(t_lo, df, frac),
-                ch.p_lower,
-                f"P(T >= t): {hp}",
-            )
-            p_cells.append((t_lo, p_lo))
+            p_cells.append(_one_sided(sh, ch, "lower", low, est, se, df, frac))
         if side in ("two-sided", "upper"):
-            t_hi = sh.qty(
-                "t, upper one-sided test",
-                f"({est}-{high})/{se}",
-                ch.statistic_upper,
-                "(estimate - high) / se",
-            )
-            p_hi = sh.qty(
-                "p, upper one-sided test (H0: effect >= high)",
-                _p_below(t_hi, df, frac),
-                ch.p_upper,
-                f"P(T <= t): {hp}",
-            )
-            p_cells.append((t_hi, p_hi))
+            p_cells.append(_one_sided(sh, ch, "upper", high, est, se, df, frac))
         if len(p_cells) == 2:
             (t_lo, p_lo), (t_hi, p_hi) = p_cells
             sh.qty(
@@ -746,13 +754,7 @@ def _brown_forsythe(sh: _Sheet, ch: CheckResult, o: _Sample, n: _Sample) -> None
     t = sh.qty("Brown-Forsythe t", f"({mn}-{mo})/{se}", None, "(mean abs dev new - old) / se")
     sh.qty("Brown-Forsythe W = t^2", f"{t}^2", ch.statistic, "t^2")
     alt = ch.alternative or "greater"
-    if alt == "greater":
-        p = _p_above(t, df, False)
-    elif alt == "less":
-        p = _p_below(t, df, False)
-    else:
-        p = _p_two(t, df, False)
-    sh.qty(f"p (Brown-Forsythe, {alt})", p, ch.p_value, _HOW_P[False])
+    sh.qty(f"p (Brown-Forsythe, {alt})", _p_side(t, df, False, alt), ch.p_value, _HOW_P[False])
 
 
 def _pitman_morgan(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult) -> None:
@@ -777,13 +779,7 @@ def _pitman_morgan(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckRes
         "t (Pitman-Morgan)", f"{r}*SQRT({df}/(1-{r}^2))", ch.statistic, "r * SQRT(df / (1 - r^2))"
     )
     alt = ch.alternative or "greater"
-    if alt == "greater":
-        p = _p_above(t, df, False)
-    elif alt == "less":
-        p = _p_below(t, df, False)
-    else:
-        p = _p_two(t, df, False)
-    sh.qty(f"p (Pitman-Morgan, {alt})", p, ch.p_value, _HOW_P[False])
+    sh.qty(f"p (Pitman-Morgan, {alt})", _p_side(t, df, False, alt), ch.p_value, _HOW_P[False])
     if ch.ci_level is not None and _number(ch.ci_low) is not None:
         level = sh.param("confidence level", ch.ci_level, "the level the engine reports")
         q = sh.qty("t quantile", _t_quantile(f"1-{level}", df, False), None, _HOW_Q[False])

@@ -73,6 +73,21 @@ def decision_style(decision: str) -> tuple[PatternFill, Font]:
     return PatternFill("solid", fgColor=fill), Font(bold=True, color=text)
 
 
+def put_decision_badge(ws, row: int, col: int, decision: str, size: int) -> PatternFill:
+    """Write ``decision`` as a large centred cell in its colours; return the fill."""
+    fill, font = decision_style(decision)
+    put(
+        ws,
+        row,
+        col,
+        decision,
+        fill=fill,
+        font=Font(bold=True, size=size, color=font.color),
+        align=Alignment(horizontal="center", vertical="center"),
+    )
+    return fill
+
+
 def main_check(c: CharacteristicResult) -> CheckResult | None:
     """The check the summary row shows: the shift, else the target, else the first."""
     for kind in ("shift", "target"):
@@ -192,16 +207,7 @@ def write_summary(
     # the overall decision: a large coloured cell
     put(ws, 2, 9, "Overall decision", font=Font(bold=True, color=INK))
     ws.merge_cells(start_row=2, start_column=9, end_row=2, end_column=11)
-    fill, font = decision_style(ev.decision)
-    put(
-        ws,
-        3,
-        9,
-        ev.decision,
-        fill=fill,
-        font=Font(bold=True, size=26, color=font.color),
-        align=Alignment(horizontal="center", vertical="center"),
-    )
+    fill = put_decision_badge(ws, 3, 9, ev.decision, size=26)
     ws.merge_cells(start_row=3, start_column=9, end_row=6, end_column=11)
     for r in range(3, 7):
         for col in range(9, 12):

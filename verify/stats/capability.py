@@ -28,16 +28,12 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special
 
+from ._checks import check_level
 from .core import Interval, mean_sd
 from .diagnostics import D2_TABLE, d2, finite_values, group_codes
 from .errors import DegenerateDataError, NotApplicableError
 
 ArrayLike = Sequence[float] | np.ndarray
-
-
-def _check_level(level: float) -> None:
-    if not 0.0 < level < 1.0:
-        raise ValueError(f"confidence level must lie in (0, 1), not {level}")
 
 
 def _chi2_quantile(p: float, df: float) -> float:
@@ -46,7 +42,7 @@ def _chi2_quantile(p: float, df: float) -> float:
 
 def chi2_interval(index: float, df: float, level: float) -> Interval:
     """index * sqrt(chi2_q(df) / df) at q = (1 -/+ level) / 2 (Cp, Pp; Cpm with df = nu)."""
-    _check_level(level)
+    check_level(level)
     lo = index * math.sqrt(_chi2_quantile(0.5 - level / 2.0, df) / df)
     hi = index * math.sqrt(_chi2_quantile(0.5 + level / 2.0, df) / df)
     return Interval(lo, hi, level)
@@ -59,14 +55,14 @@ def bissell_se(index: float, n: int) -> float:
 
 def bissell_interval(index: float, n: int, level: float) -> Interval:
     """Bissell's normal-approximation interval for Cpk (or Ppk)."""
-    _check_level(level)
+    check_level(level)
     half = float(special.ndtri(0.5 + level / 2.0)) * bissell_se(index, n)
     return Interval(index - half, index + half, level)
 
 
 def bissell_lower_bound(index: float, n: int, level: float = 0.95) -> float:
     """One-sided lower confidence bound for Cpk (or Ppk): index - z_level * se."""
-    _check_level(level)
+    check_level(level)
     return index - float(special.ndtri(level)) * bissell_se(index, n)
 
 
@@ -236,7 +232,7 @@ def capability(
     >>> round(r.cp, 3), round(r.cpk, 3)
     (1.128, 1.128)
     """
-    _check_level(level)
+    check_level(level)
     lsl, usl, tgt = _limit(lower, "lower"), _limit(upper, "upper"), _limit(target, "target")
     if lsl is None and usl is None:
         raise NotApplicableError("capability needs at least one specification limit")

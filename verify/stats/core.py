@@ -35,9 +35,6 @@ class Interval:
     high: float
     level: float
 
-    def contains(self, value: float) -> bool:
-        return self.low <= value <= self.high
-
 
 def t_cdf(t: float, df: float) -> float:
     """P(T <= t) for Student's t with ``df`` degrees of freedom (df may be fractional)."""

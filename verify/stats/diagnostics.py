@@ -20,6 +20,7 @@ from functools import lru_cache
 import numpy as np
 from scipy import special
 
+from ._checks import check_alpha
 from .core import ALTERNATIVES, check_alternative, mean_sd, require_spread
 from .errors import DegenerateDataError, NotApplicableError
 
@@ -307,8 +308,7 @@ class GrubbsResult:
     def critical_value(self, alpha: float = 0.05) -> float:
         """Critical G: (n-1)/sqrt(n) sqrt(t^2 / (n - 2 + t^2)), t the upper alpha/(2n) (two-sided)
         or alpha/n (one-sided) point of t on n - 2 df (NIST e-Handbook 1.3.5.17.1)."""
-        if not 0.0 < alpha < 1.0:
-            raise ValueError(f"alpha must lie in (0, 1), not {alpha}")
+        check_alpha(alpha)
         return _grubbs_critical(self.n, alpha, self.alternative)
 
 

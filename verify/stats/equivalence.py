@@ -15,11 +15,11 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+from ._checks import HARMFUL_SIDES as HARMFUL_SIDES  # public here: the sides `harmful` takes
+from ._checks import check_alpha, check_harmful, check_margins, finite
 from .core import Interval, check_se_df, confidence_interval, t_cdf, t_sf
 from .errors import DegenerateDataError
 from .ttests import Effect, effect, effect_from_stats
-
-HARMFUL_SIDES: tuple[str, ...] = ("lower", "upper")
 
 
 def _check_alpha_tost(alpha: float) -> float:
@@ -32,16 +32,6 @@ def _estimate(v: float) -> float:
     f = float(v)
     if not math.isfinite(f):
         raise DegenerateDataError(f"the estimate is not a finite number ({f})")
-    return f
-
-
-def _finite(v: float, what: str) -> float:
-    try:
-        f = float(v)
-    except (TypeError, ValueError):
-        raise ValueError(f"{what} must be a number, not {v!r}") from None
-    if not math.isfinite(f):
-        raise ValueError(f"{what} must be a finite number, not {f}")
     return f
 
 
@@ -120,10 +110,7 @@ def tost_from_estimate(
     """
     est = _estimate(estimate)
     check_se_df(se, df)
-    lo = _finite(low, "low")
-    hi = _finite(high, "high")
-    if not lo < hi:
-        raise ValueError(f"the equivalence margins must satisfy low < high, got ({lo}, {hi})")
+    lo, hi = check_margins(low, high)
     t_lo = (est - lo) / se
     t_hi = (est - hi) / se
     p_lo = t_sf(t_lo, df)  # H0: effect <= low, rejected for large t
@@ -247,8 +234,7 @@ class NoninferiorityResult:
 
         Non-inferiority is shown at level alpha exactly when this bound clears ``bound``.
         """
-        if not 0.0 < alpha < 1.0:
-            raise ValueError(f"alpha must lie in (0, 1), not {alpha}")
+        check_alpha(alpha)
         return confidence_interval(
             self.estimate,
             self.standard_error,
@@ -262,12 +248,6 @@ class NoninferiorityResult:
         return confidence_interval(
             self.estimate, self.standard_error, self.df, level=level, alternative=self.alternative
         )
-
-
-def _check_harmful(harmful: str) -> str:
-    if harmful not in HARMFUL_SIDES:
-        raise ValueError(f"harmful must be one of {HARMFUL_SIDES}, not {harmful!r}")
-    return harmful
 
 
 def noninferiority_from_estimate(
@@ -289,8 +269,8 @@ def noninferiority_from_estimate(
     """
     est = _estimate(estimate)
     check_se_df(se, df)
-    b = _finite(bound, "bound")
-    _check_harmful(harmful)
+    b = finite(bound, "bound")
+    check_harmful(harmful)
     stat = (est - b) / se
     if harmful == "lower":
         alternative, p = "greater", t_sf(stat, df)

@@ -33,6 +33,7 @@ from dataclasses import dataclass
 
 from scipy import integrate, optimize, special
 
+from ._checks import check_harmful, check_margins, finite, number, positive
 from .core import check_alternative, critical_value, t_cdf
 from .errors import NotApplicableError
 from .ttests import DESIGNS, check_design
@@ -56,36 +57,15 @@ def _count(n: object, what: str) -> int:
     return int(n)
 
 
-def _number(v: object, what: str) -> float:
-    try:
-        return float(v)  # type: ignore[arg-type]
-    except (TypeError, ValueError):
-        raise ValueError(f"{what} must be a number, not {v!r}") from None
-
-
-def _positive(v: float, what: str) -> float:
-    f = _number(v, what)
-    if not (math.isfinite(f) and f > 0.0):
-        raise ValueError(f"{what} must be a positive finite number, not {v!r}")
-    return f
-
-
-def _finite(v: float, what: str) -> float:
-    f = _number(v, what)
-    if not math.isfinite(f):
-        raise ValueError(f"{what} must be a finite number, not {v!r}")
-    return f
-
-
 def _alpha(alpha: float, upper: float = 1.0) -> float:
-    a = _number(alpha, "alpha")
+    a = number(alpha, "alpha")
     if not 0.0 < a < upper:
         raise ValueError(f"alpha must lie in (0, {upper:g}), not {alpha!r}")
     return a
 
 
 def _target_power(power: float) -> float:
-    p = _number(power, "the target power")
+    p = number(power, "the target power")
     if not 0.0 < p < 1.0:
         raise ValueError(f"the target power must lie in (0, 1), not {power!r}")
     return p
@@ -96,7 +76,7 @@ def _plan(
 ) -> tuple[float, float]:
     """(tau, df): the sd of the estimate and the degrees of freedom of the test."""
     check_design(design)
-    s1 = _positive(sd, "sd")
+    s1 = positive(sd, "sd")
     n1 = _count(n_new, "n_new")
     if design in ("one-sample", "paired"):
         if sd_old is not None:
@@ -114,7 +94,7 @@ def _plan(
         if sd_old is not None:
             raise ValueError("the pooled design assumes one common sd: leave sd_old out")
         return s1 * math.sqrt(1.0 / n1 + 1.0 / n2), float(n1 + n2 - 2)
-    s2 = s1 if sd_old is None else _positive(sd_old, "sd_old")
+    s2 = s1 if sd_old is None else positive(sd_old, "sd_old")
     a = s1 / math.sqrt(n1)
     b = s2 / math.sqrt(n2)
     tau = math.hypot(a, b)
@@ -277,7 +257,7 @@ def power_t(
     """
     check_alternative(alternative)
     a = _alpha(alpha)
-    delta = _finite(shift, "shift")
+    delta = finite(shift, "shift")
     tau, df = _plan(design, sd, n_new, n_old, sd_old)
     nc = delta / tau
     c = critical_value(df, a, alternative)
@@ -286,14 +266,6 @@ def power_t(
     if alternative == "less":
         return nct_cdf(-c, df, nc)
     return _clip01(nct_sf(c, df, nc) + nct_cdf(-c, df, nc))
-
-
-def _check_margins(low: float, high: float) -> tuple[float, float]:
-    lo = _finite(low, "low")
-    hi = _finite(high, "high")
-    if not lo < hi:
-        raise ValueError(f"the equivalence margins must satisfy low < high, got ({lo}, {hi})")
-    return lo, hi
 
 
 def power_tost(
@@ -322,8 +294,8 @@ def power_tost(
     True
     """
     a = _alpha(alpha, 0.5)
-    delta = _finite(true_shift, "true_shift")
-    lo, hi = _check_margins(low, high)
+    delta = finite(true_shift, "true_shift")
+    lo, hi = check_margins(low, high)
     tau, df = _plan(design, sd, n_new, n_old, sd_old)
     c = critical_value(df, a, "greater")
     upper_z = (hi - delta) / tau
@@ -358,18 +330,12 @@ def power_tost_shifted_t(
     and close for large n, but it can be far off for small lots; :func:`power_tost` is exact.
     """
     a = _alpha(alpha, 0.5)
-    delta = _finite(true_shift, "true_shift")
-    lo, hi = _check_margins(low, high)
+    delta = finite(true_shift, "true_shift")
+    lo, hi = check_margins(low, high)
     tau, df = _plan(design, sd, n_new, n_old, sd_old)
     c = critical_value(df, a, "greater")
     p = t_cdf((hi - delta) / tau - c, df) - t_cdf((lo - delta) / tau + c, df)
     return _clip01(p)
-
-
-def _check_harmful(harmful: str) -> str:
-    if harmful not in ("lower", "upper"):
-        raise ValueError(f"harmful must be 'lower' or 'upper', not {harmful!r}")
-    return harmful
 
 
 def power_noninferiority(
@@ -397,9 +363,9 @@ def power_noninferiority(
     0.9279
     """
     a = _alpha(alpha)
-    delta = _finite(true_shift, "true_shift")
-    b = _finite(bound, "bound")
-    _check_harmful(harmful)
+    delta = finite(true_shift, "true_shift")
+    b = finite(bound, "bound")
+    check_harmful(harmful)
     tau, df = _plan(design, sd, n_new, n_old, sd_old)
     nc = (delta - b) / tau
     c = critical_value(df, a, "greater")
@@ -499,7 +465,7 @@ def _old_size(design: str, n_new: int, ratio: float) -> int | None:
 
 
 def _check_ratio(design: str, ratio: float) -> float:
-    r = _positive(ratio, "ratio")
+    r = positive(ratio, "ratio")
     if design in ("one-sample", "paired") and r != 1.0:
         raise ValueError(f"ratio (n_new / n_old) applies only to two-sample designs, not {design}")
     return r
@@ -577,9 +543,9 @@ def sample_size_t(
     check_alternative(alternative)
     a = _alpha(alpha)
     target = _target_power(power)
-    delta = _finite(shift, "shift")
+    delta = finite(shift, "shift")
     r = _check_ratio(design, ratio)
-    _positive(sd, "sd")
+    positive(sd, "sd")
     if delta == 0.0:
         raise NotApplicableError("a zero shift cannot be detected at any sample size")
     if (alternative == "greater" and delta < 0.0) or (alternative == "less" and delta > 0.0):
@@ -625,10 +591,10 @@ def sample_size_tost(
     check_design(design)
     a = _alpha(alpha, 0.5)
     target = _target_power(power)
-    delta = _finite(true_shift, "true_shift")
-    lo, hi = _check_margins(low, high)
+    delta = finite(true_shift, "true_shift")
+    lo, hi = check_margins(low, high)
     r = _check_ratio(design, ratio)
-    _positive(sd, "sd")
+    positive(sd, "sd")
     if not lo < delta < hi:
         raise NotApplicableError(
             f"the true shift {delta:g} is not inside the equivalence margins ({lo:g}, {hi:g}):"
@@ -666,11 +632,11 @@ def sample_size_noninferiority(
     check_design(design)
     a = _alpha(alpha)
     target = _target_power(power)
-    delta = _finite(true_shift, "true_shift")
-    b = _finite(bound, "bound")
-    _check_harmful(harmful)
+    delta = finite(true_shift, "true_shift")
+    b = finite(bound, "bound")
+    check_harmful(harmful)
     r = _check_ratio(design, ratio)
-    _positive(sd, "sd")
+    positive(sd, "sd")
     if (harmful == "lower" and not delta > b) or (harmful == "upper" and not delta < b):
         raise NotApplicableError(
             f"the true shift {delta:g} is not on the safe side of the bound {b:g}:"

@@ -16,16 +16,12 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special
 
+from ._checks import check_alpha, check_level
 from .core import Interval, check_alternative, confidence_interval, mean_sd, p_value, require_spread
 from .diagnostics import finite_values
 from .errors import DegenerateDataError, NotApplicableError
 
 ArrayLike = Sequence[float] | np.ndarray
-
-
-def _check_level(level: float) -> None:
-    if not 0.0 < level < 1.0:
-        raise ValueError(f"confidence level must lie in (0, 1), not {level}")
 
 
 def _f_quantile(p: float, dfn: float, dfd: float) -> float:
@@ -76,7 +72,7 @@ class VarianceRatioResult:
         [sqrt(F / F_(1+level)/2), sqrt(F / F_(1-level)/2)]; ``"greater"``: a lower bound
         [sqrt(F / F_level), +inf); ``"less"``: an upper bound [0, sqrt(F / F_(1-level))].
         """
-        _check_level(level)
+        check_level(level)
         f, a, b = self.statistic, self.df_num, self.df_den
         if self.alternative == "two-sided":
             lo = math.sqrt(f / _f_quantile(0.5 + level / 2.0, a, b))
@@ -92,8 +88,7 @@ class VarianceRatioResult:
         Two-sided: (F_(alpha/2), F_(1-alpha/2)); ``"greater"``: (0, F_(1-alpha));
         ``"less"``: (F_alpha, +inf).
         """
-        if not 0.0 < alpha < 1.0:
-            raise ValueError(f"alpha must lie in (0, 1), not {alpha}")
+        check_alpha(alpha)
         a, b = self.df_num, self.df_den
         if self.alternative == "two-sided":
             return _f_quantile(alpha / 2.0, a, b), _f_quantile(1.0 - alpha / 2.0, a, b)
@@ -330,8 +325,7 @@ class BrownForsytheGroupsResult:
 
     def critical_value(self, alpha: float = 0.05) -> float:
         """The upper alpha point of F(df_num, df_den): W beyond it rejects equal spread."""
-        if not 0.0 < alpha < 1.0:
-            raise ValueError(f"alpha must lie in (0, 1), not {alpha}")
+        check_alpha(alpha)
         return _f_quantile(1.0 - alpha, self.df_num, self.df_den)
 
 
