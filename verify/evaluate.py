@@ -117,7 +117,7 @@ def evaluate(
     # one line per characteristic not PASS: its leading reason (the full list stays with it)
     reasons = tuple(
         f"{r.name}: {r.decision} - {r.reasons[0]}"
-        + (f" (and {len(r.reasons) - 1} more)" if len(r.reasons) > 1 else "")
+        + (f" (+{len(r.reasons) - 1} more on its sheet)" if len(r.reasons) > 1 else "")
         for r in results if r.decision != "PASS"
     )
     review = tuple(note for r in results for note in r.review)
