@@ -200,3 +200,11 @@ def test_main_help_ends_with_an_example(capsys):
     with pytest.raises(SystemExit):
         build_parser().parse_args(["--help"])
     assert capsys.readouterr().out.rstrip().endswith("verify check specs/")
+
+
+def test_check_names_one_sided_margins(capsys):
+    # the filler demo declares seal_strength side: lower with margin 1.0 (non-inferiority)
+    assert main(["check", str(SPECS / "filler-paired.yaml")]) == 0
+    out = capsys.readouterr().out
+    assert ("shift: new minus old no lower than -1 N/15 mm (non-inferiority, harmful side "
+            "lower, paired)") in out

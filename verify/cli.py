@@ -141,17 +141,32 @@ def describe_plan(spec, measurements) -> list[str]:
 
 def _check_words(c) -> list[str]:
     ch, out = c.checks, []
+    u = f" {c.unit}" if c.unit else ""
+
+    def margin_claim(m, what: str, design: str, of: str = "") -> str:
+        if c.side == "lower":
+            return (f"{what} no lower than {_num(m.low)}{u} (non-inferiority, harmful side "
+                    f"lower{design})")
+        if c.side == "upper":
+            return (f"{what} no higher than +{_num(m.high)}{u} (non-inferiority, harmful side "
+                    f"upper{design})")
+        return f"{what} within {_margin(m)}{u}{of} (equivalence, TOST{design})"
+
     if ch.target is not None:
         m = ch.target.margin
-        out.append(f"target: new mean within {_margin(m)} {c.unit} of {_num(c.target)} "
-                   "(equivalence, TOST)" if m else
-                   f"target: new mean against {_num(c.target)} (one-sample t-test, {c.side})")
+        out.append("target: " + (margin_claim(m, "new mean", "", f" of {_num(c.target)}")
+                                 if c.side == "two-sided" else
+                                 margin_claim(m, f"new mean minus {_num(c.target)}", "")) if m
+                   else f"target: new mean against {_num(c.target)} (one-sample t-test, "
+                   f"{c.side})")
     if ch.shift is not None:
         m = ch.shift.margin
-        out.append(f"shift: new minus old within {_margin(m)} {c.unit} (equivalence, TOST, "
-                   f"{ch.shift.design})" if m else
+        design = f", {ch.shift.design}"
+        out.append("shift: " + margin_claim(m, "new minus old", design) if m else
                    f"shift: new against old (difference test, {ch.shift.design}, {c.side})")
-    if ch.spread is not None:
+    if ch.spread is not None and ch.shift is not None and ch.shift.design == "paired":
+        out.append("spread: new spread not larger than old (Pitman-Morgan, paired, one-sided)")
+    elif ch.spread is not None:
         method = "F-test" if ch.spread.method == "f" else "Brown-Forsythe"
         out.append(f"spread: new spread not larger than old ({method}, one-sided)")
     if ch.capability is not None:
