@@ -159,9 +159,9 @@ def analysis_values(measurements: Measurements, spec: Spec, characteristic_name:
     ('part', True)
     """
     _check_args(spec, characteristic_name, process)
-    t = measurements.table
-    sel = t[(t["characteristic"] == characteristic_name) & (t["process"] == process)
-            & ~t["excluded"]]
+    used, groups = _used_groups(measurements.table)
+    rows = groups.get((characteristic_name, process))
+    sel = used.iloc[rows] if rows is not None else used.iloc[:0]
     sel = sel.sort_values(["order", "source_row"], kind="stable")
     if spec.unit_of_analysis == "lot":
         means = sel.groupby("lot", sort=False)["value"].mean()
@@ -170,6 +170,23 @@ def analysis_values(measurements: Measurements, spec: Spec, characteristic_name:
                               n_parts=len(sel))
     return AnalysisValues(values=sel["value"].to_numpy(dtype=float),
                           lots=tuple(sel["lot"].astype(str)), unit="part", n_parts=len(sel))
+
+
+_GROUP_CACHE: dict[int, tuple] = {}
+
+
+def _used_groups(table: pd.DataFrame):
+    """The used rows and their positions per (characteristic, process), computed once per
+    table: an evaluation asks for every characteristic and process in turn."""
+    hit = _GROUP_CACHE.get(id(table))
+    if hit is not None and hit[0] is table:
+        return hit[1], hit[2]
+    used = table[~table["excluded"]]
+    groups = used.groupby(["characteristic", "process"], sort=False).indices
+    if len(_GROUP_CACHE) >= 8:
+        _GROUP_CACHE.clear()
+    _GROUP_CACHE[id(table)] = (table, used, groups)
+    return used, groups
 
 
 def paired_values(measurements: Measurements, spec: Spec,
