@@ -17,13 +17,18 @@ from verify.spec import load_spec
 from verify.stats import power
 
 
-def _write(tmp_path, rows, spec_body, header="lot,process,pair,x"):
+def _spec(tmp_path, rows, spec_body, header="lot,process,pair,x"):
+    """Write d.csv and s.yaml (spec_body continues the data block, then top-level keys)."""
     (tmp_path / "d.csv").write_text(header + "\n" + "\n".join(rows) + "\n", encoding="utf-8")
     text = ("format: verify/1\ntitle: edge case\ndata:\n  file: d.csv\n  lot: lot\n"
             "  process: process\n  old: old\n  new: new\n" + spec_body)
     p = tmp_path / "s.yaml"
     p.write_text(text, encoding="utf-8")
-    spec = load_spec(p)
+    return load_spec(p)
+
+
+def _write(tmp_path, rows, spec_body, header="lot,process,pair,x"):
+    spec = _spec(tmp_path, rows, spec_body, header)
     return evaluate(spec, load_measurements(spec))
 
 
@@ -59,12 +64,7 @@ def test_unit_lot_with_a_pair_column_defaults_to_welch_on_lot_means(tmp_path):
     rows = _rows(old, new, lots=tuple("ABCDEF"))
     body = ("  pair: pair\nunit_of_analysis: lot\ncharacteristics:\n  - name: x\n"
             "    unit: mm\n    checks:\n      shift: {margin: 0.2}\n")
-    text = ("format: verify/1\ntitle: edge case\ndata:\n  file: d.csv\n  lot: lot\n"
-            "  process: process\n  old: old\n  new: new\n" + body)
-    (tmp_path / "d.csv").write_text("lot,process,pair,x\n" + "\n".join(rows) + "\n",
-                                    encoding="utf-8")
-    (tmp_path / "s.yaml").write_text(text, encoding="utf-8")
-    spec = load_spec(tmp_path / "s.yaml")
+    spec = _spec(tmp_path, rows, body)
     assert spec.characteristics[0].checks.shift.design == "welch"
     ev = evaluate(spec, load_measurements(spec))
     k = _check(ev)
@@ -120,12 +120,7 @@ def test_final_run_with_the_plan_cut_short_says_so(tmp_path):
     new = np.round(25 + rng.normal(0, 0.5, 12), 2)
     body = ("min_n: 30\ncharacteristics:\n  - name: x\n    unit: N\n    checks:\n"
             "      shift: {margin: 1.5}\n")
-    (tmp_path / "d.csv").write_text("lot,process,pair,x\n" + "\n".join(_rows(old, new)) + "\n",
-                                    encoding="utf-8")
-    (tmp_path / "s.yaml").write_text(
-        "format: verify/1\ntitle: t\ndata:\n  file: d.csv\n  lot: lot\n  process: process\n"
-        "  old: old\n  new: new\n" + body, encoding="utf-8")
-    spec = load_spec(tmp_path / "s.yaml")
+    spec = _spec(tmp_path, _rows(old, new), body)
     ev = evaluate(spec, load_measurements(spec), final=True)
     assert ev.decision == "PASS"
     assert any("final run with the plan cut short (new: 12 of 30 planned)" in r
@@ -143,19 +138,15 @@ def test_no_min_n_is_noted_for_review(tmp_path):
 
 def test_multiplicity_figures_use_the_adjusted_level(tmp_path):
     rng = np.random.default_rng(7)
-    rows = ["lot,process,pair,a,b"]
+    rows = []
     for proc in ("old", "new"):
         for i in range(30):
             a, b = 10 + rng.normal(0, 1, 2)
             rows.append(f"L{i % 3},{proc},{i},{a:.3f},{b:.3f}")
-    (tmp_path / "d.csv").write_text("\n".join(rows) + "\n", encoding="utf-8")
     chars = "".join(f"  - name: {c}\n    unit: mm\n    checks:\n      shift: {{}}\n"
                     for c in ("a", "b"))
-    (tmp_path / "s.yaml").write_text(
-        "format: verify/1\ntitle: t\nmultiplicity: bonferroni\ndata:\n  file: d.csv\n"
-        "  lot: lot\n  process: process\n  old: old\n  new: new\ncharacteristics:\n" + chars,
-        encoding="utf-8")
-    spec = load_spec(tmp_path / "s.yaml")
+    spec = _spec(tmp_path, rows, "multiplicity: bonferroni\ncharacteristics:\n" + chars,
+                 header="lot,process,pair,a,b")
     ev = evaluate(spec, load_measurements(spec))
     k = _check(ev, "a")
     assert k.ci_level == pytest.approx(1 - 0.05 / 2)
