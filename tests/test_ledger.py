@@ -152,7 +152,7 @@ def test_direct_sql_cannot_change_or_remove_rows(ledger_path, sql):
                               0))
         before = (led.entries(), led.records(), led.runs())
     con = sqlite3.connect(ledger_path)
-    with pytest.raises(sqlite3.IntegrityError, match="append-only"):
+    with pytest.raises(sqlite3.IntegrityError, match="append-only|hash-chained"):
         con.execute(sql)
     con.close()
     with Ledger.open(ledger_path) as led:

@@ -29,7 +29,7 @@ from verify.ledger import Ledger
 from verify.nightly import add_nightly_arguments, main_for_tests, run_nightly
 
 REPO = Path(__file__).resolve().parents[1]
-HISTORY = re.compile(r"^\d{8}T\d{6}Z-(PASS|HOLD|PENDING)(-\d+)?\.(xlsx|json)$")
+HISTORY = re.compile(r"^\d{8}T\d{6}Z-[0-9a-f]{8}-(PASS|HOLD|PENDING)(-\d+)?\.(xlsx|json)$")
 SD = 0.05
 
 
@@ -337,12 +337,13 @@ def test_jobs_two_gives_the_same_results(specs, out, tmp_path):
 
 def test_history_is_never_overwritten_within_one_second(specs, out, monkeypatch):
     monkeypatch.setenv("SOURCE_DATE_EPOCH", "1735790400")  # every run at 2025-01-02 04:00:00
-    nightly(specs, out)
+    first, _, _ = nightly(specs, out)
     append_lot(specs, "bushing", "N3")
-    nightly(specs, out)
-    assert history(out, "bushing") == [
-        "20250102T040000Z-PASS-2.json", "20250102T040000Z-PASS-2.xlsx",
-        "20250102T040000Z-PASS.json", "20250102T040000Z-PASS.xlsx"]
+    second, _, _ = nightly(specs, out)
+    # issue 13: a history file is named by the run id the ledger cites, so an auditor finds a
+    # run's files from its id; two runs in the same second still never share a name
+    assert history(out, "bushing") == sorted(
+        f"{r.run_id}-PASS.{ext}" for r in (first, second) for ext in ("json", "xlsx"))
     assert sorted(p.name for p in out.glob("digest-*")) == [
         "digest-2025-01-02-2.xlsx", "digest-2025-01-02.xlsx"]
 

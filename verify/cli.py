@@ -18,6 +18,7 @@ import sys
 from collections.abc import Callable, Sequence
 
 from . import __version__
+from .cli_ledger import add_ledger, cmd_ledger
 from .cli_run import add_replay, add_run, cmd_replay, cmd_run
 from .errors import VerifyError
 from .nightly import add_nightly, nightly_main
@@ -251,6 +252,7 @@ COMMANDS: dict[str, tuple[Callable, Callable[[argparse.Namespace], int]]] = {
     "replay": (add_replay, cmd_replay),
     "nightly": (add_nightly, nightly_main),
     "plan": (add_plan, cmd_plan),
+    "ledger": (add_ledger, cmd_ledger),
 }
 
 

@@ -163,6 +163,9 @@ def write_digest(path: Path, rows: Sequence[DigestRow], *, run: Sequence[tuple[s
 
     put(1, 1, "Nightly digest", font=Font(bold=True, size=14))
     put(2, 1, "; ".join(f"{k}: {v}" for k, v in run[:3]))
+    head = dict(run).get("ledger head")
+    if head:  # printed on the page, so a paper digest anchors the ledger's hash chain
+        put(3, 1, f"ledger head after this run: {head}", font=Font(size=9))
     header_row = 4
     for c, h in enumerate(_HEADERS, start=1):
         put(header_row, c, h, font=Font(bold=True),

@@ -18,6 +18,10 @@ One file (default ``<out>/ledger.sqlite``) in WAL mode holds four tables:
 
 Rows are never updated or deleted: ``BEFORE UPDATE`` and ``BEFORE DELETE`` triggers on every
 table abort the statement, so even a hand-typed ``UPDATE`` in the sqlite3 shell is refused.
+Triggers guard against accidents; against someone who drops them, every row of ``entries``,
+``records`` and ``runs`` is a link of one hash chain (``chain_seq``, ``prev_hash``,
+``row_hash``; see :func:`canonical_row`), checked by :func:`check_chain` before anything is
+appended and by ``verify ledger``. A dropped trigger is reported, never recreated.
 Each spec's rows are written in one transaction (``BEGIN IMMEDIATE`` ... ``COMMIT``).
 
 Only one nightly run may write a ledger at a time: :class:`LedgerLock` takes an exclusive
@@ -31,6 +35,7 @@ from __future__ import annotations
 import contextlib
 import errno
 import fcntl
+import hashlib
 import json
 import os
 import socket
@@ -42,7 +47,8 @@ from pathlib import Path
 
 from .errors import VerifyError
 
-SCHEMA_VERSION = "1"
+SCHEMA_VERSION = "2"
+GENESIS = "0" * 64  # prev_hash of the first row of the chain
 STATES = ("RUN", "UNCHANGED", "ERROR")
 STANDINGS = ("PROVISIONAL", "RECORD", "MONITORING")
 
@@ -79,7 +85,10 @@ CREATE TABLE IF NOT EXISTS entries (
     workbook_sha256 TEXT,
     evaluation_id TEXT,
     based_on INTEGER REFERENCES entries(id),
-    error TEXT
+    error TEXT,
+    chain_seq INTEGER NOT NULL UNIQUE,
+    prev_hash TEXT NOT NULL,
+    row_hash TEXT NOT NULL
 );
 CREATE UNIQUE INDEX IF NOT EXISTS entries_one_per_run ON entries (run_id, spec_path);
 CREATE INDEX IF NOT EXISTS entries_by_spec ON entries (spec_path, id);
@@ -96,7 +105,10 @@ CREATE TABLE IF NOT EXISTS records (
     workbook_path TEXT,
     result_path TEXT,
     supersedes INTEGER REFERENCES records(id),
-    supersedes_reason TEXT
+    supersedes_reason TEXT,
+    chain_seq INTEGER NOT NULL UNIQUE,
+    prev_hash TEXT NOT NULL,
+    row_hash TEXT NOT NULL
 );
 CREATE UNIQUE INDEX IF NOT EXISTS records_one_per_version ON records (spec_path, spec_sha256);
 CREATE TABLE IF NOT EXISTS runs (
@@ -111,7 +123,10 @@ CREATE TABLE IF NOT EXISTS runs (
     ran INTEGER NOT NULL,
     unchanged INTEGER NOT NULL,
     errors INTEGER NOT NULL,
-    exit_status INTEGER NOT NULL
+    exit_status INTEGER NOT NULL,
+    chain_seq INTEGER NOT NULL UNIQUE,
+    prev_hash TEXT NOT NULL,
+    row_hash TEXT NOT NULL
 );
 """
 
@@ -126,26 +141,67 @@ _KEYS = {
 }
 
 
-def _triggers() -> str:
-    out = []
+_CHAINED = ("entries", "records", "runs")
+
+
+def _chain_row(seq: str) -> str:
+    """SQL for the row_hash of chain position ``seq`` (NULL when no row holds it)."""
+    return (f"(SELECT row_hash FROM entries WHERE chain_seq = {seq} UNION ALL "
+            f"SELECT row_hash FROM records WHERE chain_seq = {seq} UNION ALL "
+            f"SELECT row_hash FROM runs WHERE chain_seq = {seq})")
+
+
+_HEAD_SEQ = ("(SELECT MAX(s) FROM (SELECT MAX(chain_seq) AS s FROM entries UNION ALL "
+             "SELECT MAX(chain_seq) FROM records UNION ALL SELECT MAX(chain_seq) FROM runs))")
+
+
+def _trigger_statements() -> dict[str, str]:
+    """Every trigger of a ledger, by name: the exact SQL that creates it."""
+    out = {}
     for table, keys in _KEYS.items():
         clash = " OR ".join(
             "EXISTS (SELECT 1 FROM {t} WHERE {c})".format(
                 t=table, c=" AND ".join(f"{k} = NEW.{k}" for k in key))
             for key in keys)
-        out.append(
-            f"CREATE TRIGGER IF NOT EXISTS {table}_no_replace BEFORE INSERT ON {table} "
+        name = f"{table}_no_replace"
+        out[name] = (
+            f"CREATE TRIGGER {name} BEFORE INSERT ON {table} "
             f"WHEN {clash} BEGIN SELECT RAISE(ABORT, 'the verify ledger is append-only: "
-            f"a row of {table} with this key exists'); END;"
-        )
+            f"a row of {table} with this key exists'); END")
     for table in _TABLES:
         for op in ("UPDATE", "DELETE"):
-            out.append(
-                f"CREATE TRIGGER IF NOT EXISTS {table}_no_{op.lower()} BEFORE {op} ON {table} "
+            name = f"{table}_no_{op.lower()}"
+            out[name] = (
+                f"CREATE TRIGGER {name} BEFORE {op} ON {table} "
                 f"BEGIN SELECT RAISE(ABORT, 'the verify ledger is append-only: "
-                f"{op} on {table} refused'); END;"
-            )
-    return "\n".join(out)
+                f"{op} on {table} refused'); END")
+    for table in _CHAINED:
+        # a row must extend the chain: the next position, naming the head's hash
+        name = f"{table}_in_chain"
+        out[name] = (
+            f"CREATE TRIGGER {name} BEFORE INSERT ON {table} "
+            f"WHEN NEW.chain_seq IS NOT COALESCE({_HEAD_SEQ}, 0) + 1 "
+            f"OR NEW.prev_hash IS NOT COALESCE({_chain_row('NEW.chain_seq - 1')}, '{GENESIS}') "
+            f"BEGIN SELECT RAISE(ABORT, 'the verify ledger is hash-chained: a row of {table} "
+            f"must extend the chain'); END")
+    return out
+
+
+def _triggers() -> str:
+    return "\n".join(sql + ";" for sql in _trigger_statements().values())
+
+
+def _table_columns() -> dict[str, tuple[str, ...]]:
+    conn = sqlite3.connect(":memory:")
+    try:
+        conn.executescript(_SCHEMA)
+        return {t: tuple(r[1] for r in conn.execute(f"PRAGMA table_info({t})"))
+                for t in _CHAINED}
+    finally:
+        conn.close()
+
+
+_COLUMNS = _table_columns()  # the columns of each chained table, in schema order
 
 
 class LedgerError(VerifyError):
@@ -154,6 +210,168 @@ class LedgerError(VerifyError):
 
 class LedgerBusyError(VerifyError):
     """Another nightly run holds the ledger lock; exit status 2."""
+
+
+class LedgerBrokenError(LedgerError):
+    """The hash chain or the triggers of the ledger fail their check: nothing is appended."""
+
+
+# --- the hash chain ----------------------------------------------------------------------------
+
+
+def canonical_row(table: str, row: Mapping[str, object]) -> bytes:
+    """The canonical serialisation of one ledger row, the bytes its ``row_hash`` is taken of.
+
+    A JSON object ``{"row": {...}, "table": "<table>"}`` whose ``row`` holds every column of the
+    row except ``row_hash`` (so ``chain_seq`` and ``prev_hash`` are included), with keys sorted,
+    no spaces (separators ``,`` and ``:``), non-ASCII characters escaped as ``\\uXXXX``, SQL NULL
+    as ``null``, integers as JSON integers and text as JSON strings; encoded as UTF-8.
+    ``row_hash`` is the lowercase hex sha256 of these bytes.
+
+    Examples
+    --------
+    >>> canonical_row("runs", {"run_id": "r1", "chain_seq": 1, "prev_hash": "00"})
+    b'{"row":{"chain_seq":1,"prev_hash":"00","run_id":"r1"},"table":"runs"}'
+    """
+    body = {k: (int(v) if isinstance(v, bool) else v) for k, v in row.items() if k != "row_hash"}
+    return json.dumps({"row": body, "table": table}, sort_keys=True, separators=(",", ":"),
+                      ensure_ascii=True, allow_nan=False).encode("utf-8")
+
+
+def row_hash(table: str, row: Mapping[str, object]) -> str:
+    """The sha256 (hex) of :func:`canonical_row`."""
+    return hashlib.sha256(canonical_row(table, row)).hexdigest()
+
+
+@dataclass(frozen=True)
+class ChainCheck:
+    """What :func:`check_chain` found.
+
+    ``rows`` counts the chained rows by table; ``head_seq`` and ``head_hash`` name the last row
+    of the chain; ``problem`` is the first break of the chain in words (None when intact);
+    ``trigger_problems`` lists every missing or altered trigger and ``table_problems`` every
+    table whose columns are not those verify writes.
+    """
+
+    rows: Mapping[str, int]
+    head_seq: int
+    head_hash: str
+    problem: str | None = None
+    trigger_problems: tuple[str, ...] = ()
+    table_problems: tuple[str, ...] = ()
+
+    @property
+    def intact(self) -> bool:
+        return self.problem is None and not self.trigger_problems and not self.table_problems
+
+    @property
+    def entries(self) -> int:
+        return int(self.rows.get("entries", 0))
+
+    def problems(self) -> list[str]:
+        return list(self.table_problems) + ([self.problem] if self.problem else []) + list(
+            self.trigger_problems)
+
+
+def _norm_sql(sql: str | None) -> str:
+    return " ".join((sql or "").replace(";", " ").split()).casefold()
+
+
+def check_chain(conn: sqlite3.Connection) -> ChainCheck:
+    """Check a ledger's hash chain, its triggers and its tables (reads only).
+
+    Every row of ``entries``, ``records`` and ``runs`` holds its place in one chain
+    (``chain_seq`` 1, 2, 3, ... across the three tables), the ``row_hash`` of the row before it
+    (``prev_hash``; 64 zeros for the first) and its own ``row_hash`` (:func:`canonical_row`).
+    A row edited after it was written no longer matches its hash; a row inserted outside verify
+    does not continue the chain; a removed row leaves a gap in the positions.
+    """
+    table_problems = []
+    for table, cols in _COLUMNS.items():
+        have = tuple(r[1] for r in conn.execute(f"PRAGMA table_info({table})"))
+        if have != cols:
+            table_problems.append(f"table {table} does not have the columns verify writes "
+                                  f"(found {', '.join(have) or 'no table'})")
+    if table_problems:
+        return ChainCheck({}, 0, GENESIS, table_problems=tuple(table_problems))
+    found = {name: sql for name, sql in conn.execute(
+        "SELECT name, sql FROM sqlite_master WHERE type = 'trigger'")}
+    trigger_problems = []
+    for name, sql in _trigger_statements().items():
+        if name not in found:
+            trigger_problems.append(f"trigger {name} is missing (dropped outside verify)")
+        elif _norm_sql(found[name]) != _norm_sql(sql):
+            trigger_problems.append(f"trigger {name} was altered outside verify")
+    rows: list[tuple[int, str, dict]] = []
+    counts = {}
+    for table in _CHAINED:
+        cur = conn.execute(f"SELECT * FROM {table}")
+        names = [d[0] for d in cur.description]
+        n = 0
+        for r in cur:
+            d = dict(zip(names, r, strict=True))
+            rows.append((d["chain_seq"], table, d))
+            n += 1
+        counts[table] = n
+    rows.sort(key=lambda x: (x[0] if isinstance(x[0], int) else -1, x[1]))
+    problem = None
+    prev_hash, expected = GENESIS, 1
+    for seq, table, d in rows:
+        label = (f"{table} row {d.get('id', d.get('run_id'))!s}" if table != "runs"
+                 else f"runs row {d.get('run_id')!s}")
+        if not isinstance(seq, int) or seq < expected:
+            problem = (f"{label} (chain position {seq}) is out of chain: position {seq} is "
+                       "held by another row or is not a valid position (inserted outside "
+                       "verify)")
+            break
+        if seq > expected:
+            gap = (f"position {expected}" if seq == expected + 1
+                   else f"positions {expected} to {seq - 1}")
+            problem = (f"chain {gap} missing before {label} (chain position {seq}): "
+                       f"{'a row was' if seq == expected + 1 else 'rows were'} removed")
+            break
+        if d.get("prev_hash") != prev_hash:
+            problem = (f"{label} (chain position {seq}) is out of chain: its prev_hash is not "
+                       f"the hash of chain position {seq - 1} (a row inserted outside verify, "
+                       "or the row before it rewritten with a new hash)")
+            break
+        if row_hash(table, d) != d.get("row_hash"):
+            problem = (f"{label} (chain position {seq}) does not match its row_hash: it was "
+                       "changed after it was written, or inserted outside verify")
+            break
+        prev_hash, expected = d["row_hash"], expected + 1
+    head_seq = expected - 1
+    return ChainCheck(counts, head_seq, prev_hash, problem, tuple(trigger_problems))
+
+
+def _head(conn: sqlite3.Connection) -> tuple[int, str]:
+    seq = conn.execute(f"SELECT COALESCE({_HEAD_SEQ}, 0)").fetchone()[0]
+    if not seq:
+        return 0, GENESIS
+    return seq, conn.execute(f"SELECT {_chain_row('?')}".replace("?", str(int(seq)))).fetchone()[0]
+
+
+def _next_id(conn: sqlite3.Connection, table: str) -> int:
+    seq = conn.execute("SELECT seq FROM sqlite_sequence WHERE name = ?", (table,)).fetchone()
+    top = conn.execute(f"SELECT COALESCE(MAX(id), 0) FROM {table}").fetchone()[0]
+    return max(int(seq[0]) if seq else 0, int(top)) + 1
+
+
+def _insert_chained(conn: sqlite3.Connection, table: str, values: Mapping[str, object]) -> dict:
+    """Insert one row at the head of the chain (inside the caller's transaction)."""
+    seq, prev = _head(conn)
+    row = {k: (int(v) if isinstance(v, bool) else v) for k, v in values.items()}
+    if "id" in _COLUMNS[table] and row.get("id") is None:
+        row["id"] = _next_id(conn, table)
+    row["chain_seq"] = seq + 1
+    row["prev_hash"] = prev
+    row["row_hash"] = row_hash(table, row)
+    if set(row) != set(_COLUMNS[table]):  # internal contract: every column is hashed
+        raise RuntimeError(f"ledger row of {table} does not name every column")
+    names = list(_COLUMNS[table])
+    conn.execute(f"INSERT INTO {table} ({', '.join(names)}) VALUES "
+                 f"({', '.join('?' * len(names))})", [row[n] for n in names])
+    return row
 
 
 # --- rows --------------------------------------------------------------------------------------
@@ -208,6 +426,8 @@ class Record:
     supersedes: int | None = None
     supersedes_reason: str | None = None
     id: int | None = None
+    row_hash: str | None = None  # the row's hash in the ledger's chain, once stored
+    chain_seq: int | None = None
 
     @property
     def date(self) -> str:
@@ -247,6 +467,8 @@ class Entry:
     based_on: int | None = None  # UNCHANGED: the entry whose result still stands
     error: str | None = None
     id: int | None = None
+    row_hash: str | None = None  # the row's hash in the ledger's chain, once stored
+    chain_seq: int | None = None
 
     @property
     def fingerprint(self) -> Fingerprint | None:
@@ -294,7 +516,8 @@ def _entry_from_row(row: sqlite3.Row) -> Entry:
         lots={k: tuple(v) for k, v in json.loads(row["lots"] or "{}").items()},
         workbook_path=row["workbook_path"], result_path=row["result_path"],
         workbook_sha256=row["workbook_sha256"], evaluation_id=row["evaluation_id"],
-        based_on=row["based_on"], error=row["error"],
+        based_on=row["based_on"], error=row["error"], row_hash=row["row_hash"],
+        chain_seq=row["chain_seq"],
     )
 
 
@@ -305,7 +528,8 @@ def _record_from_row(row: sqlite3.Row) -> Record:
         characteristics=json.loads(row["characteristics"]), basis=row["basis"],
         final=bool(row["final"]), workbook_path=row["workbook_path"],
         result_path=row["result_path"], supersedes=row["supersedes"],
-        supersedes_reason=row["supersedes_reason"],
+        supersedes_reason=row["supersedes_reason"], row_hash=row["row_hash"],
+        chain_seq=row["chain_seq"],
     )
 
 
@@ -328,8 +552,16 @@ class Ledger:
         self.path = path
 
     @classmethod
-    def open(cls, path: str | os.PathLike, *, busy_timeout: float = 30.0) -> Ledger:
-        """Open (creating if needed) the ledger at ``path`` in WAL mode with its triggers."""
+    def open(cls, path: str | os.PathLike, *, busy_timeout: float = 30.0,
+             check: bool = True) -> Ledger:
+        """Open the ledger at ``path`` in WAL mode, creating it (with its triggers) if new.
+
+        An existing ledger is checked (:func:`check_chain`) before anything is appended: a
+        broken chain, a missing or altered trigger raises :class:`LedgerBrokenError`, and a
+        dropped trigger is never recreated. A ledger of schema 1 (written before the hash
+        chain) is refused with :class:`LedgerError`: its rows cannot be chained afterwards
+        without rewriting them, which the ledger exists to prevent.
+        """
         path = Path(path)
         path.parent.mkdir(parents=True, exist_ok=True)
         try:
@@ -342,11 +574,14 @@ class Ledger:
             conn.execute("PRAGMA synchronous = NORMAL")
             conn.execute("PRAGMA foreign_keys = ON")
             conn.execute("BEGIN IMMEDIATE")
-            for stmt in _split(_SCHEMA + _triggers()):
-                conn.execute(stmt)
-            conn.execute("INSERT INTO meta (key, value) SELECT 'schema', ? WHERE NOT EXISTS "
-                         "(SELECT 1 FROM meta WHERE key = 'schema')", (SCHEMA_VERSION,))
-            version = conn.execute("SELECT value FROM meta WHERE key = 'schema'").fetchone()[0]
+            tables = {r[0] for r in conn.execute(
+                "SELECT name FROM sqlite_master WHERE type = 'table'")}
+            if not tables & set(_TABLES):  # a new ledger: create everything once
+                for stmt in _split(_SCHEMA + _triggers()):
+                    conn.execute(stmt)
+                conn.execute("INSERT INTO meta (key, value) VALUES ('schema', ?)",
+                             (SCHEMA_VERSION,))
+            version = _schema_version(conn)
             conn.execute("COMMIT")
         except sqlite3.DatabaseError as exc:
             raise LedgerError(f"{path}: cannot open the ledger: {exc}") from None
@@ -355,9 +590,26 @@ class Ledger:
             raise LedgerError(f"{path}: the ledger needs WAL mode; SQLite gave {mode!r}")
         if version != SCHEMA_VERSION:
             conn.close()
-            raise LedgerError(f"{path}: ledger schema {version!r}; this verify writes schema "
-                              f"{SCHEMA_VERSION!r}: use the verify version that wrote it")
-        return cls(conn, path)
+            raise LedgerError(_version_message(path, version))
+        led = cls(conn, path)
+        if check:
+            result = led.check()
+            if not result.intact:
+                conn.close()
+                raise LedgerBrokenError(
+                    f"{path}: the ledger fails its check, so nothing was appended: "
+                    + "; ".join(result.problems())
+                    + f". Run 'verify ledger {path}' for the report; keep this file as "
+                    "evidence and start a new ledger (--ledger) only once the cause is known")
+        return led
+
+    def check(self) -> ChainCheck:
+        """Check the hash chain, the triggers and the tables (:func:`check_chain`)."""
+        return check_chain(self._conn)
+
+    def head(self) -> tuple[int, str]:
+        """The chain position and row_hash of the newest row (0 and 64 zeros when empty)."""
+        return _head(self._conn)
 
     def close(self) -> None:
         self._conn.close()
@@ -460,40 +712,61 @@ class Ledger:
             raise LedgerError(f"unknown entry state {entry.state!r}")
         with self._transaction() as c:
             if record is not None:
-                cur = c.execute(
-                    "INSERT INTO records (spec_path, spec_sha256, run_id, decided, decision, "
-                    "characteristics, basis, final, workbook_path, result_path, supersedes, "
-                    "supersedes_reason) VALUES (?,?,?,?,?,?,?,?,?,?,?,?)",
-                    (record.spec_path, record.spec_sha256, record.run_id, record.decided,
-                     record.decision, json.dumps(dict(record.characteristics)), record.basis,
-                     int(record.final), record.workbook_path, record.result_path,
-                     record.supersedes, record.supersedes_reason))
-                record = _replace(record, id=cur.lastrowid)
+                stored = _insert_chained(c, "records", dict(
+                    id=None, spec_path=record.spec_path, spec_sha256=record.spec_sha256,
+                    run_id=record.run_id, decided=record.decided, decision=record.decision,
+                    characteristics=json.dumps(dict(record.characteristics)),
+                    basis=record.basis, final=int(record.final),
+                    workbook_path=record.workbook_path, result_path=record.result_path,
+                    supersedes=record.supersedes, supersedes_reason=record.supersedes_reason))
+                record = _replace(record, id=stored["id"], row_hash=stored["row_hash"],
+                                  chain_seq=stored["chain_seq"])
                 entry = _replace(entry, record_id=record.id)
-            cur = c.execute(
-                "INSERT INTO entries (run_id, spec_path, spec_sha256, data_files, tool_version, "
-                "started, finished, state, decision, characteristics, final, plan_complete, "
-                "standing, record_id, drift, drift_note, monitoring, lots, workbook_path, "
-                "result_path, workbook_sha256, evaluation_id, based_on, error) "
-                "VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)",
-                (entry.run_id, entry.spec_path, entry.spec_sha256,
-                 _data_files_json(entry.data_files), entry.tool_version, entry.started,
-                 entry.finished, entry.state, entry.decision,
-                 json.dumps(dict(entry.characteristics)), int(entry.final),
-                 None if entry.plan_complete is None else int(entry.plan_complete),
-                 entry.standing, entry.record_id, int(entry.drift), entry.drift_note,
-                 entry.monitoring, json.dumps({k: list(v) for k, v in entry.lots.items()}),
-                 entry.workbook_path, entry.result_path, entry.workbook_sha256,
-                 entry.evaluation_id, entry.based_on, entry.error))
-            entry = _replace(entry, id=cur.lastrowid)
+            stored = _insert_chained(c, "entries", dict(
+                id=None, run_id=entry.run_id, spec_path=entry.spec_path,
+                spec_sha256=entry.spec_sha256, data_files=_data_files_json(entry.data_files),
+                tool_version=entry.tool_version, started=entry.started,
+                finished=entry.finished, state=entry.state, decision=entry.decision,
+                characteristics=json.dumps(dict(entry.characteristics)),
+                final=int(entry.final),
+                plan_complete=None if entry.plan_complete is None else int(entry.plan_complete),
+                standing=entry.standing, record_id=entry.record_id, drift=int(entry.drift),
+                drift_note=entry.drift_note, monitoring=entry.monitoring,
+                lots=json.dumps({k: list(v) for k, v in entry.lots.items()}),
+                workbook_path=entry.workbook_path, result_path=entry.result_path,
+                workbook_sha256=entry.workbook_sha256, evaluation_id=entry.evaluation_id,
+                based_on=entry.based_on, error=entry.error))
+            entry = _replace(entry, id=stored["id"], row_hash=stored["row_hash"],
+                             chain_seq=stored["chain_seq"])
         return entry, record
 
-    def append_run(self, run: RunRow) -> None:
-        """Write the row that marks a nightly run as complete."""
+    def append_run(self, run: RunRow) -> tuple[int, str]:
+        """Write the row that marks a nightly run as complete; return the new chain head."""
         with self._transaction() as c:
-            names = [f.name for f in fields(RunRow)]
-            c.execute(f"INSERT INTO runs ({', '.join(names)}) VALUES "
-                      f"({', '.join('?' * len(names))})", [getattr(run, n) for n in names])
+            stored = _insert_chained(c, "runs", {f.name: getattr(run, f.name)
+                                                 for f in fields(RunRow)})
+        return stored["chain_seq"], stored["row_hash"]
+
+
+def _schema_version(conn: sqlite3.Connection) -> str | None:
+    try:
+        row = conn.execute("SELECT value FROM meta WHERE key = 'schema'").fetchone()
+    except sqlite3.DatabaseError:
+        return None
+    return None if row is None else row[0]
+
+
+def _version_message(path: Path, version: str | None) -> str:
+    if version == "1":
+        return (f"{path}: a ledger of schema 1, written before rows were hash-chained; this "
+                f"verify writes schema {SCHEMA_VERSION} and does not rewrite old rows (that "
+                "would defeat the ledger). Keep this file as the record of the earlier runs "
+                "and give the nightly run a new ledger (--ledger NEW_PATH, or move this one "
+                "aside); note that the decisions of record in it do not carry over")
+    if version is None:
+        return f"{path}: not a verify ledger (no schema version in its meta table)"
+    return (f"{path}: ledger schema {version!r}; this verify writes schema "
+            f"{SCHEMA_VERSION!r}: use the verify version that wrote it")
 
 
 def _replace(obj, **changes):
@@ -687,3 +960,59 @@ def judge(*, spec_path: str, spec_sha256: str, run_id: str, now: str, decision: 
         text += (f"; the spec was edited after the decision of record {previous.describe()}, "
                  "which this version's record will supersede")
     return Standing("PROVISIONAL", text)
+
+
+# --- checking a ledger file --------------------------------------------------------------------
+
+
+def check_ledger_file(path: str | os.PathLike) -> ChainCheck:
+    """Check the ledger at ``path`` without writing to it (``verify ledger``).
+
+    Raises
+    ------
+    LedgerError
+        No such file, not an SQLite file, not a verify ledger, or a schema this verify does
+        not read.
+    """
+    path = Path(path)
+    if not path.is_file():
+        raise LedgerError(f"{path}: no such ledger file; give the ledger.sqlite that "
+                          "'verify nightly' writes (default <out>/ledger.sqlite)")
+    try:
+        # read-only: a check never creates, migrates or repairs anything
+        conn = sqlite3.connect(f"{path.resolve().as_uri()}?mode=ro", uri=True, timeout=30.0)
+    except sqlite3.DatabaseError as exc:
+        raise LedgerError(f"{path}: cannot open the ledger: {exc}") from None
+    try:
+        try:
+            version = _schema_version(conn)
+        except sqlite3.DatabaseError as exc:
+            raise LedgerError(f"{path}: cannot read the ledger: {exc}") from None
+        if version != SCHEMA_VERSION:
+            raise LedgerError(_version_message(path, version))
+        try:
+            return check_chain(conn)
+        except sqlite3.DatabaseError as exc:
+            raise LedgerError(f"{path}: cannot read the ledger: {exc}") from None
+    finally:
+        conn.close()
+
+
+def anchors_missing(path: str | os.PathLike, heads: list[str]) -> list[str]:
+    """The heads (hashes printed earlier) that no row of the ledger carries, in words."""
+    if not heads:
+        return []
+    conn = sqlite3.connect(f"{Path(path).resolve().as_uri()}?mode=ro", uri=True, timeout=30.0)
+    try:
+        out = []
+        for h in heads:
+            hit = conn.execute(
+                "SELECT 1 FROM entries WHERE row_hash = ? UNION ALL SELECT 1 FROM records "
+                "WHERE row_hash = ? UNION ALL SELECT 1 FROM runs WHERE row_hash = ?",
+                (h, h, h)).fetchone()
+            if hit is None:
+                out.append(f"no row carries the head {h}: the rows up to it were removed or "
+                           "rewritten")
+        return out
+    finally:
+        conn.close()

@@ -154,6 +154,24 @@ class RunInfo:
 
 
 @dataclass(frozen=True)
+class RecordStanding:
+    """Where a nightly run's workbook stands against its spec version's decision of record.
+
+    ``kind`` is ``RECORD`` (this run locked the decision of record: its workbook is the one to
+    sign), ``MONITORING`` (a record stands; this workbook shows it, and what these newer data
+    would decide only as drift) or ``PROVISIONAL`` (no record yet). ``decision``, ``decided``
+    (UTC, ISO 8601) and ``run_id`` describe the decision of record (None while provisional);
+    ``drift`` is True when these data would decide differently.
+    """
+
+    kind: str
+    decision: str | None = None
+    decided: str | None = None
+    run_id: str | None = None
+    drift: bool = False
+
+
+@dataclass(frozen=True)
 class Evaluation:
     spec: Spec
     measurements: Measurements
@@ -166,6 +184,7 @@ class Evaluation:
     final: bool
     run: RunInfo
     monitoring: str | None = None  # set by nightly after a decision of record is locked
+    standing: RecordStanding | None = None  # set by nightly; None for ``verify run``
 
     def characteristic(self, name: str) -> CharacteristicResult:
         for c in self.characteristics:

@@ -249,9 +249,13 @@ def _stamp(iso: str) -> str:
     return iso[:19].replace("-", "").replace(":", "") + "Z"
 
 
-def history_paths(out_dir: Path, decision: str, when: str) -> tuple[Path, Path]:
-    """Fresh ``<UTC time>-<DECISION>.xlsx`` and ``.json`` paths; never an existing name."""
-    base = f"{_stamp(when)}-{decision}"
+def history_paths(out_dir: Path, decision: str, run_id: str) -> tuple[Path, Path]:
+    """Fresh ``<run id>-<DECISION>.xlsx`` and ``.json`` paths; never an existing name.
+
+    The run id is the nightly run's (as the ledger and the decision of record cite it), so an
+    auditor finds a run's files from its id.
+    """
+    base = f"{run_id}-{decision}"
     n = 1
     while True:
         name = base if n == 1 else f"{base}-{n}"
@@ -259,6 +263,33 @@ def history_paths(out_dir: Path, decision: str, when: str) -> tuple[Path, Path]:
         if not xlsx.exists() and not js.exists():
             return xlsx, js
         n += 1
+
+
+def anchor_result(result_path: str | None, latest: Path | None, ledger_path: Path,
+                  entry: Entry) -> None:
+    """Add the ledger's chain head after this spec's entry to its result JSON (and latest.json).
+
+    The JSON is written before its ledger entry exists; the parent adds ``ledger`` (the ledger
+    path, the entry id, its chain position and hash) once the entry is stored, so a result
+    anchors the chain up to itself. Replay ignores this key.
+    """
+    import json
+
+    from .runner import write_text_atomic
+
+    if result_path is None or entry.row_hash is None:
+        return
+    path = Path(result_path)
+    try:
+        doc = json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return  # the result stays as written; the ledger still holds the entry
+    doc["ledger"] = {"path": str(ledger_path), "entry_id": entry.id,
+                     "chain_position": entry.chain_seq, "head": entry.row_hash}
+    text = json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    write_text_atomic(path, text)
+    if latest is not None:
+        write_text_atomic(latest, text)
 
 
 def _plan(ev) -> tuple[bool, str | None]:
@@ -283,6 +314,19 @@ def _lots(ev) -> tuple[tuple[str, tuple[str, ...]], ...]:
             for lot in s.lots:
                 bucket[str(lot)] = None
     return tuple((p, tuple(v)) for p, v in sorted(seen.items()))
+
+
+def _record_standing(standing: Standing, now: str, run_id: str):
+    """The workbook's view of the standing: which decision is of record, and drift."""
+    from .model import RecordStanding
+
+    rec = standing.record if standing.kind == "MONITORING" else standing.new_record
+    if standing.kind == "RECORD":
+        return RecordStanding("RECORD", rec.decision, now, run_id)
+    if standing.kind == "MONITORING" and rec is not None:
+        return RecordStanding("MONITORING", rec.decision, rec.decided, rec.run_id,
+                              drift=standing.drift)
+    return RecordStanding("PROVISIONAL")
 
 
 def run_task(task: Task) -> Outcome:
@@ -318,9 +362,12 @@ def run_task(task: Task) -> Outcome:
             decision=ev.decision, characteristics=chars, plan_complete=plan_complete,
             min_n=ev.spec.min_n, shortfall=shortfall, final=task.final, record=task.record,
             previous=task.previous, supersedes_reason=ev.spec.supersedes_reason)
-        ev = replace(ev, monitoring=standing.text)
+        # the workbook and JSON carry the nightly run's id, the id the ledger and the decision
+        # of record cite and the history files are named by
+        ev = replace(ev, monitoring=standing.text, run=replace(ev.run, run_id=task.run_id),
+                     standing=_record_standing(standing, now, task.run_id))
         out_dir = Path(task.out_dir)
-        workbook, result = history_paths(out_dir, ev.decision, now)
+        workbook, result = history_paths(out_dir, ev.decision, task.run_id)
         outs = write_outputs(ev, workbook, result)
         write_text_atomic(out_dir / "latest.json", result.read_text(encoding="utf-8"))
         return Outcome(
@@ -398,6 +445,7 @@ class NightlyResult:
     rows: tuple
     digest: Path | None
     ledger: Path
+    head: str | None = None  # the ledger's chain head after the run
 
 
 def _output_names(specs: Sequence[Path], keys: Sequence[str], known: dict[str, Entry],
@@ -569,6 +617,9 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
             task = by_key[outcome.spec_key]
             entry, record = _entry_from(run_id, task, outcome)
             entry, record = ledger.append(entry, record=record)
+            if entry.state == "RUN":
+                anchor_result(entry.result_path, Path(task.out_dir) / "latest.json",
+                              ledger_path, entry)
             rec_text = record.describe() if record is not None else _record_text(
                 ledger, entry.record_id)
             finish(_row(info[task.spec_key], entry, rec_text))
@@ -576,7 +627,7 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
         rows = [rows_by_name[n] for n in names if n in rows_by_name]
         status = _exit_status(rows)
         finished = _utc()
-        ledger.append_run(RunRow(
+        head_seq, head_hash = ledger.append_run(RunRow(
             run_id=run_id, started=started, finished=finished, tool_version=__version__,
             host=_host(), pid=os.getpid(), command=command, specs=len(rows),
             ran=sum(r.state == "RUN" for r in rows),
@@ -586,7 +637,10 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
         digest = _digest_path(out, started)
         run_facts = [
             ("run", run_id), ("started", started), ("finished", finished),
-            ("specs", str(len(rows))), ("ledger", str(ledger_path)), ("command", command),
+            ("specs", str(len(rows))), ("ledger", str(ledger_path)),
+            ("ledger head", f"{head_hash} (chain position {head_seq}; check with 'verify "
+                            f"ledger {ledger_path} --head {head_hash}')"),
+            ("command", command),
             ("tool version", __version__), ("exit status", str(status)),
             ("elapsed", f"{time.monotonic() - t0:.2f} s"),
         ]
@@ -599,9 +653,9 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
     counts = {s: sum(r.state == s for r in rows) for s in ("RUN", "UNCHANGED", "ERROR")}
     print(f"nightly {run_id}: {len(rows)} spec(s): {counts['RUN']} ran, "
           f"{counts['UNCHANGED']} unchanged, {counts['ERROR']} error(s); digest {digest}; "
-          f"exit {status}")
+          f"ledger head {head_hash}; exit {status}")
     return NightlyResult(run_id=run_id, exit_status=status, rows=tuple(rows), digest=digest,
-                         ledger=ledger_path)
+                         ledger=ledger_path, head=head_hash)
 
 
 def _host() -> str:

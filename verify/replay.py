@@ -18,7 +18,7 @@ from .errors import ReportError
 
 REL_TOL = 1e-12
 # Keys that describe the run, not its result: they are expected to differ.
-_RUN_KEYS = {"run", "tool", "versions", "workbook", "monitoring"}
+_RUN_KEYS = {"run", "tool", "versions", "workbook", "monitoring", "ledger"}
 _FILE_RUN_KEYS = {"resolved_path"}
 
 

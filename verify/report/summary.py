@@ -88,6 +88,66 @@ def put_decision_badge(ws, row: int, col: int, decision: str, size: int) -> Patt
     return fill
 
 
+DRIFT_COLOURS = ("5B4B8A", "FFFFFF")  # drift: neither a decision's colour nor the caution's
+
+
+def sign_off_withheld(ev: Evaluation) -> str | None:
+    """Why this workbook carries no sign-off block, or None when it does.
+
+    Only the workbook of the run that made the decision of record is signed; a monitoring
+    or provisional nightly workbook says where the one to sign is (or will be).
+    """
+    st = ev.standing
+    if st is None or st.kind == "RECORD":
+        return None
+    if st.kind == "MONITORING":
+        return (f"This is a monitoring workbook and is not for sign-off. The decision of record "
+                f"is {st.decision}, made on {(st.decided or '')[:10]} by run {st.run_id}; sign "
+                "the workbook of that run. These newer data are shown for monitoring only"
+                + (" and would decide differently (drift): raise it with the change owner."
+                   if st.drift else "."))
+    return ("This is a provisional workbook and is not for sign-off: no decision of record is "
+            "locked yet (the plan is not complete). The workbook of the run that locks it "
+            "carries the sign-off block.")
+
+
+def _decision_cell(ws, ev: Evaluation) -> None:
+    st = ev.standing
+    if st is None or st.kind != "MONITORING":
+        label = "Overall decision" if st is None else (
+            "Decision of record (this run)" if st.kind == "RECORD"
+            else "Provisional (no record yet)")
+        put(ws, 2, 9, label, font=Font(bold=True, color=INK))
+        ws.merge_cells(start_row=2, start_column=9, end_row=2, end_column=11)
+        fill = put_decision_badge(ws, 3, 9, ev.decision, size=26)
+        ws.merge_cells(start_row=3, start_column=9, end_row=6, end_column=11)
+        for r in range(3, 7):
+            for col in range(9, 12):
+                ws.cell(r, col).fill = fill
+        return
+    put(ws, 2, 9, "Decision of record", font=Font(bold=True, color=INK))
+    ws.merge_cells(start_row=2, start_column=9, end_row=2, end_column=11)
+    fill = put_decision_badge(ws, 3, 9, st.decision or "", size=26)
+    ws.merge_cells(start_row=3, start_column=9, end_row=4, end_column=11)
+    for r in range(3, 5):
+        for col in range(9, 12):
+            ws.cell(r, col).fill = fill
+    put(ws, 5, 9, f"on {(st.decided or '')[:10]}, run {st.run_id}", align=WRAP,
+        font=Font(bold=True, color=INK, size=9))
+    ws.merge_cells(start_row=5, start_column=9, end_row=5, end_column=11)
+    if st.drift:
+        text, fill_hex, ink = (f"DRIFT: these newer data would decide {ev.decision}",
+                               *DRIFT_COLOURS)
+    else:
+        text, fill_hex, ink = (f"no drift: these newer data also decide {ev.decision}",
+                               "FFFFFF", INK)
+    put(ws, 6, 9, text, align=WRAP, fill=PatternFill("solid", fgColor=fill_hex),
+        font=Font(bold=True, color=ink))
+    ws.merge_cells(start_row=6, start_column=9, end_row=6, end_column=11)
+    for col in range(9, 12):
+        ws.cell(6, col).fill = PatternFill("solid", fgColor=fill_hex)
+
+
 def main_check(c: CharacteristicResult) -> CheckResult | None:
     """The check the summary row shows: the shift, else the target, else the first."""
     for kind in ("shift", "target"):
@@ -204,14 +264,9 @@ def write_summary(
         put(ws, i, 2, value)
         ws.merge_cells(start_row=i, start_column=2, end_row=i, end_column=7)
 
-    # the overall decision: a large coloured cell
-    put(ws, 2, 9, "Overall decision", font=Font(bold=True, color=INK))
-    ws.merge_cells(start_row=2, start_column=9, end_row=2, end_column=11)
-    fill = put_decision_badge(ws, 3, 9, ev.decision, size=26)
-    ws.merge_cells(start_row=3, start_column=9, end_row=6, end_column=11)
-    for r in range(3, 7):
-        for col in range(9, 12):
-            ws.cell(r, col).fill = fill
+    # the overall decision: a large coloured cell (on a monitoring workbook, the decision of
+    # record; these data's own outcome shows only as drift, in its own colour)
+    _decision_cell(ws, ev)
     reasons = "\n".join(ev.reasons) if ev.reasons else "Every characteristic passed."
     put(ws, 2, 13, "Why", font=Font(bold=True, color=INK))
     put(ws, 3, 13, reasons, align=WRAP)
@@ -279,6 +334,15 @@ def write_summary(
     ws.row_dimensions[row].height = max(34, _height(ev.caution, 170, 16))
     row += 2
 
+    not_for_signing = sign_off_withheld(ev)
+    if not_for_signing is not None:
+        section(ws, row, "Not for sign-off")
+        row += 1
+        put(ws, row, 1, not_for_signing, align=WRAP, font=Font(bold=True, color=INK))
+        ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=LAST_COL)
+        ws.row_dimensions[row].height = _height(not_for_signing, 200)
+        row += 1
+        return _finish_page(ws, ev, row)
     section(ws, row, "Sign-off (complete by hand or in the change-control system)")
     row += 1
     header_row(ws, row, 1, ["Role", "Name", "", "", "", "", "What this signature means"])
@@ -299,7 +363,10 @@ def write_summary(
             ws.cell(row, col).border = BOX
         ws.row_dimensions[row].height = 44
         row += 1
+    return _finish_page(ws, ev, row)
 
+
+def _finish_page(ws, ev: Evaluation, row: int) -> int:
     last = row - 1
     fit_rows(ws)
     ws.print_area = f"A1:{get_column_letter(LAST_COL)}{last}"
