@@ -45,6 +45,9 @@ def add_run(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
     p.add_argument("--final", action="store_true",
                    help="the trial is complete: a shortfall against min_n no longer gives "
                         "PENDING (checks decide on the data there are)")
+    p.add_argument("--no-snapshot", action="store_true",
+                   help="do not keep compressed copies of the data files in <out>/snapshots/ "
+                        "(the audit trail says so; replay then needs the data unchanged)")
     return p
 
 
@@ -56,7 +59,8 @@ def summary_line(ev, target: Path | None = None) -> str:
 
 def cmd_run(args: argparse.Namespace) -> int:
     from .audit import command_line
-    from .runner import prepare, stage_outputs
+    from .runner import keep_snapshots, prepare, stage_outputs
+    from .snapshots import SNAPSHOT_DIR
     from .spec import find_specs
 
     paths = find_specs(args.paths)
@@ -85,6 +89,9 @@ def cmd_run(args: argparse.Namespace) -> int:
     targets = [(ev, out / f"{ev.spec.stem}.xlsx", out / f"{ev.spec.stem}.json")
                for ev in evaluations]
     refuse_overwriting_inputs(evaluations, [t for _, *pair in targets for t in pair])
+    snaps = None if args.no_snapshot else out / SNAPSHOT_DIR
+    targets = [(keep_snapshots(ev, snaps), wb, res) for ev, wb, res in targets]
+    evaluations = [ev for ev, _, _ in targets]
     staged = []
     try:  # every spec's pair is written before any is renamed into place
         for ev, wb, res in targets:
@@ -135,23 +142,34 @@ def add_replay(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
             "which carries the same record), check that each data file still has its recorded "
             "sha256, re-run with the recorded spec text and compare every decision and number "
             "(relative tolerance 1e-12). Prints 'reproduced' (exit 0) or the differences "
-            "(exit 1); says when tool or library versions differ from the recorded ones."
+            "(exit 1); says when tool or library versions differ from the recorded ones. A data "
+            "file whose sha256 no longer matches (a lot file that grew) is read from the run's "
+            "snapshot (<out>/snapshots/<sha256>.gz) when there is one; the output says which "
+            "was used."
         ),
         epilog="example:\n  verify replay reports/bushing-supplier.json",
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     p.add_argument("report", metavar="REPORT.xlsx|REPORT.json")
+    p.add_argument("--from-sheet", action="store_true",
+                   help="re-run on the values of the workbook's own Measurements sheet instead "
+                        "of the data file (when neither the file nor its snapshot is at hand): "
+                        "a weaker check than the original bytes, and said so")
     return p
 
 
 def cmd_replay(args: argparse.Namespace) -> int:
     from .replay import replay
 
-    res = replay(args.report)
+    res = replay(args.report, from_sheet=args.from_sheet)
+    for s in res.sources:
+        print(f"data: {s}")
     for n in res.notes:
         print(f"note: {n}")
     if res.reproduced:
-        print(f"{args.report}: reproduced")
+        how = " from its Measurements sheet (a weaker check: see the note)" if (
+            args.from_sheet) else ""
+        print(f"{args.report}: reproduced{how}")
         return 0
     for m in res.integrity:
         print(f"integrity: {m}")

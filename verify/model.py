@@ -154,6 +154,24 @@ class RunInfo:
 
 
 @dataclass(frozen=True)
+class SnapshotRecord:
+    """Which data snapshots a run kept (see :mod:`verify.snapshots`).
+
+    ``kept`` is False with ``--no-snapshot`` (or when a file changed while the run read it);
+    ``note`` says so in words for the audit trail; ``files`` maps each data file's sha256 to
+    its snapshot's path.
+    """
+
+    kept: bool
+    note: str
+    folder: str | None = None
+    files: tuple[tuple[str, str], ...] = ()  # (sha256, snapshot path)
+
+    def path_of(self, sha256: str) -> str | None:
+        return dict(self.files).get(sha256)
+
+
+@dataclass(frozen=True)
 class RecordStanding:
     """Where a nightly run's workbook stands against its spec version's decision of record.
 
@@ -185,6 +203,7 @@ class Evaluation:
     run: RunInfo
     monitoring: str | None = None  # set by nightly after a decision of record is locked
     standing: RecordStanding | None = None  # set by nightly; None for ``verify run``
+    snapshots: SnapshotRecord | None = None  # set when outputs are written
 
     def characteristic(self, name: str) -> CharacteristicResult:
         for c in self.characteristics:

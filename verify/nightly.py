@@ -103,6 +103,10 @@ def add_nightly_arguments(parser: argparse.ArgumentParser) -> argparse.ArgumentP
                         default=DEFAULT_LOCK_TIMEOUT,
                         help="how long to wait for another nightly run on the same ledger "
                              f"(default: {DEFAULT_LOCK_TIMEOUT:g})")
+    parser.add_argument("--no-snapshot", action="store_true",
+                        help="do not keep compressed copies of the data files in "
+                             "<out>/snapshots/ (the audit trail says so; replay then needs the "
+                             "data unchanged)")
     if parser.epilog is None:
         parser.epilog = EXAMPLE
         parser.formatter_class = argparse.RawDescriptionHelpFormatter
@@ -147,6 +151,7 @@ class Task:
     record: Record | None  # this version's decision of record
     previous: Record | None  # the newest record of another version of the spec
     data_root: str | None
+    snapshot: bool = True  # keep data snapshots in <out>/snapshots (--no-snapshot: False)
 
 
 @dataclass(frozen=True)
@@ -367,6 +372,10 @@ def run_task(task: Task) -> Outcome:
         ev = replace(ev, monitoring=standing.text, run=replace(ev.run, run_id=task.run_id),
                      standing=_record_standing(standing, now, task.run_id))
         out_dir = Path(task.out_dir)
+        from .runner import keep_snapshots
+        from .snapshots import SNAPSHOT_DIR
+
+        ev = keep_snapshots(ev, out_dir.parent / SNAPSHOT_DIR if task.snapshot else None)
         workbook, result = history_paths(out_dir, ev.decision, task.run_id)
         outs = write_outputs(ev, workbook, result)
         write_text_atomic(out_dir / "latest.json", result.read_text(encoding="utf-8"))
@@ -491,6 +500,7 @@ class _Context:
     command: str
     latest: dict[str, Entry]  # newest entry per spec before this run
     results: dict[str, Entry]  # newest RUN entry per spec before this run
+    snapshot: bool = True
 
 
 def _triage(ledger: Ledger, ctx: _Context, path: Path, key: str, name: str) -> Entry | Task:
@@ -527,7 +537,7 @@ def _triage(ledger: Ledger, ctx: _Context, path: Path, key: str, name: str) -> E
         command=ctx.command, final=ctx.final,
         evaluate_final=ctx.final or bool(record is not None and record.final),
         fingerprint=fp, record=record, previous=previous,
-        data_root=str(ctx.root) if ctx.root is not None else None)
+        data_root=str(ctx.root) if ctx.root is not None else None, snapshot=ctx.snapshot)
 
 
 def _exit_status(rows: Sequence) -> int:
@@ -551,7 +561,7 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
                 ledger_path: str | os.PathLike | None = None, jobs: int = 1,
                 data_root: str | os.PathLike | None = None, final: bool = False,
                 lock_timeout: float = DEFAULT_LOCK_TIMEOUT, command: str | None = None,
-                progress_stream=None) -> NightlyResult:
+                progress_stream=None, snapshot: bool = True) -> NightlyResult:
     """Run one nightly pass (the library behind ``verify nightly``).
 
     Raises
@@ -599,7 +609,7 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
             progress.step(row)
 
         ctx = _Context(run_id=run_id, out=out, root=root, final=final, command=command,
-                       latest=latest, results=results)
+                       latest=latest, results=results, snapshot=snapshot)
         for path, key, name in zip(specs, keys, names, strict=True):
             info[key] = _Spec(key, path, name, results.get(key))
             triaged = _triage(ledger, ctx, path, key, name)
@@ -740,7 +750,8 @@ def nightly_main(args: argparse.Namespace) -> int:
     try:
         result = run_nightly(
             args.spec_dirs, out=args.out, ledger_path=args.ledger, jobs=args.jobs,
-            data_root=args.data_root, final=args.final, lock_timeout=args.lock_timeout)
+            data_root=args.data_root, final=args.final, lock_timeout=args.lock_timeout,
+            snapshot=not args.no_snapshot)
     except VerifyError as exc:
         print(f"verify nightly: {exc.report()}", file=sys.stderr)
         return 2

@@ -18,8 +18,8 @@ from .errors import ReportError
 
 REL_TOL = 1e-12
 # Keys that describe the run, not its result: they are expected to differ.
-_RUN_KEYS = {"run", "tool", "versions", "workbook", "monitoring", "ledger"}
-_FILE_RUN_KEYS = {"resolved_path"}
+_RUN_KEYS = {"run", "tool", "versions", "workbook", "monitoring", "ledger", "snapshots"}
+_FILE_RUN_KEYS = {"resolved_path", "snapshot"}
 
 
 @dataclass
@@ -27,6 +27,7 @@ class ReplayResult:
     differences: list[str] = field(default_factory=list)
     integrity: list[str] = field(default_factory=list)  # hash mismatches, missing files
     notes: list[str] = field(default_factory=list)  # version differences and the like
+    sources: list[str] = field(default_factory=list)  # where each data file was read from
 
     @property
     def reproduced(self) -> bool:
@@ -133,13 +134,59 @@ def _compare(a, b, where: str, out: list[str]) -> None:
         out.append(f"{where}: recorded {a!r}, now {b!r}")
 
 
-def replay(report: str | Path) -> ReplayResult:
-    """Re-run a recorded result; see the module docstring."""
+WEAKER_CHECK = (
+    "replayed from the workbook's own Measurements sheet, not from the data file: a weaker "
+    "check than the original bytes. It shows that the recorded decisions and numbers follow "
+    "from the values and exclusions listed on that sheet; it cannot show that those are the "
+    "values of the data file (the recorded sha256 of the data is not checked)")
+
+
+def _snapshot_folders(doc: dict, f: dict, report: Path) -> list[Path]:
+    """Where a data file's snapshot may be: as recorded, else beside the report."""
+    out = []
+    if isinstance(f.get("snapshot"), str):
+        out.append(Path(f["snapshot"]).parent)
+    snaps = doc.get("snapshots")
+    if isinstance(snaps, dict) and isinstance(snaps.get("folder"), str):
+        out.append(Path(snaps["folder"]))
+    from .snapshots import SNAPSHOT_DIR
+
+    here = report.resolve().parent
+    out += [here / SNAPSHOT_DIR, here.parent / SNAPSHOT_DIR]  # verify run; nightly history
+    return list(dict.fromkeys(out))
+
+
+def _from_snapshot(doc: dict, f: dict, report: Path, res: ReplayResult):
+    """(bytes, where) of the data file's snapshot, or None."""
+    from .snapshots import SnapshotError, load_bytes, snapshot_path
+
+    for folder in _snapshot_folders(doc, f, report):
+        try:
+            data = load_bytes(folder, f["sha256"])
+        except SnapshotError as err:
+            res.notes.append(str(err))
+            continue
+        if data is not None:
+            return data, snapshot_path(folder, f["sha256"])
+    return None
+
+
+def replay(report: str | Path, *, from_sheet: bool = False) -> ReplayResult:
+    """Re-run a recorded result; see the module docstring.
+
+    Each data file is taken from its live path when its sha256 matches the record, else from
+    the run's snapshot (``<out>/snapshots/<sha256>.gz``) when one is found; ``sources`` says
+    which. Only with neither is the file reported missing or changed. With ``from_sheet`` the
+    values come from the workbook's own Measurements sheet (:data:`WEAKER_CHECK`).
+    """
+    import tempfile
+
     from .audit import library_versions, sha256_file
     from .report.json_result import result_dict
-    from .runner import prepare
 
     path = Path(report)
+    if from_sheet:
+        return _replay_from_sheet(path)
     doc, spec_text = read_record(path)
     res = ReplayResult()
     recorded_sha = doc["spec"]["sha256"]
@@ -147,32 +194,139 @@ def replay(report: str | Path) -> ReplayResult:
         res.integrity.append(
             f"spec text in {path.name} does not match its recorded sha256 {recorded_sha} "
             f"(now {_sha(spec_text)}): the spec text was edited after the run")
+    substitutes: dict[str, bytes] = {}
+    missing = False
     for f in doc.get("data_files", []):
         p = Path(f.get("resolved_path") or f["path"])
-        if not p.exists():
-            res.integrity.append(f"data file missing: {f['path']} (recorded sha256 {f['sha256']})")
+        now = sha256_file(p) if p.is_file() else None
+        if now == f["sha256"]:
+            res.sources.append(f"{f['path']}: the live file (its sha256 matches the record)")
             continue
-        now = sha256_file(p)
-        if now != f["sha256"]:
+        snap = _from_snapshot(doc, f, path, res)
+        state = "is missing" if now is None else f"has changed (sha256 now {now})"
+        if snap is not None:
+            substitutes[str(p)] = snap[0]
+            res.sources.append(f"{f['path']}: the snapshot {snap[1]} (the live file {state})")
+            continue
+        if now is None:
+            missing = True
+            res.integrity.append(f"data file missing: {f['path']} (recorded sha256 "
+                                 f"{f['sha256']}), and no snapshot of it was found")
+        else:
             res.integrity.append(
-                f"data file changed: {f['path']} (recorded sha256 {f['sha256']}, now {now})")
-    versions = library_versions()
+                f"data file changed: {f['path']} (recorded sha256 {f['sha256']}, now {now}), "
+                "and no snapshot of it was found")
+    _version_notes(doc, res, library_versions())
+    spec_path = Path(doc["spec"].get("resolved_path") or doc["spec"]["path"])
+    if missing:
+        return res
+    with tempfile.TemporaryDirectory(prefix="verify-replay-") as tmp:
+        files = {}
+        for i, (live, data) in enumerate(substitutes.items()):
+            # the snapshot's bytes under the live file's name (its suffix says how to read it)
+            target = Path(tmp) / str(i) / Path(live).name
+            target.parent.mkdir()
+            target.write_bytes(data)
+            files[live] = target
+        ev = _evaluate(spec_path, spec_text, bool(doc.get("final")), files, "verify replay")
+    now_doc = result_dict(ev)
+    now_doc["spec"]["path"] = doc["spec"]["path"]
+    recorded = {k: v for k, v in doc.items() if k not in _RUN_KEYS}
+    _compare(recorded, {k: v for k, v in now_doc.items() if k not in _RUN_KEYS}, "",
+             res.differences)
+    return res
+
+
+def _version_notes(doc: dict, res: ReplayResult, versions: dict) -> None:
+    from . import __version__
+
     for k, v in doc.get("versions", {}).items():
         if versions.get(k) != v:
             res.notes.append(f"{k} was {v} when recorded, is {versions.get(k)} now")
-    from . import __version__
-
     if doc.get("tool", {}).get("version") != __version__:
         res.notes.append(f"verify was {doc.get('tool', {}).get('version')} when recorded, "
                          f"is {__version__} now")
+
+
+def _evaluate(spec_path: Path, spec_text: str, final: bool, files: dict, command: str,
+              measurements=None):
+    """Evaluate the recorded spec text, reading ``files`` (live path -> copy) in place of the
+    live data files, or on the given ``measurements``."""
+    from dataclasses import replace
+
+    from .audit import run_info, utc_now
+    from .data import load_measurements
+    from .evaluate import evaluate
+    from .spec import load_spec
+
+    started = utc_now()
+    spec = load_spec(spec_path, text=spec_text)
+    copy = files.get(str(spec.data.file))
+    if copy is not None:
+        spec = replace(spec, data=replace(spec.data, file=copy))
+    if measurements is None:
+        measurements = load_measurements(spec)
+        if copy is not None:  # report the data file as the spec names it, not the copy
+            measurements = replace(measurements, files=tuple(
+                replace(f, resolved_path=str(spec_path.parent / f.path)) if i == 0 else f
+                for i, f in enumerate(measurements.files)))
+    run = run_info(spec, measurements, command=command, started=started)
+    return evaluate(spec, measurements, final=final, run=run)
+
+
+def _replay_from_sheet(path: Path) -> ReplayResult:
+    """Replay on the values of the workbook's Measurements sheet (the weaker check)."""
+    import zipfile
+
+    from openpyxl import load_workbook
+
+    from .model import DataFileInfo, Measurements
+    from .report.json_result import result_dict
+    from .report.measurements_sheet import read_measurements
+
+    workbook = path
+    if path.suffix.lower() == ".json":
+        doc, _ = read_record(path)
+        wb_path = (doc.get("workbook") or {}).get("path")
+        if not isinstance(wb_path, str):
+            raise ReportError(f"{path}: the result names no workbook; give the .xlsx")
+        workbook = Path(wb_path)
+        if not workbook.is_absolute() and not workbook.exists():
+            workbook = path.parent / workbook.name
+    if workbook.suffix.lower() != ".xlsx":
+        raise ReportError(f"{path}: --from-sheet replays a workbook (.xlsx)")
+    doc, spec_text = read_record(workbook)
+    try:
+        wb = load_workbook(workbook, read_only=True)
+        try:
+            table = read_measurements(wb)
+        finally:
+            wb.close()
+    except (KeyError, ValueError, TypeError, OSError, zipfile.BadZipFile) as err:
+        raise ReportError(f"{workbook}: its Measurements sheet cannot be read ({err})") from err
+    res = ReplayResult()
+    res.sources.append(f"the Measurements sheet of {workbook}")
+    res.notes.append(WEAKER_CHECK)
+    if _sha(spec_text) != doc["spec"]["sha256"]:
+        res.integrity.append(f"spec text in {workbook.name} does not match its recorded sha256")
+    names = {fld for fld in DataFileInfo.__dataclass_fields__}
+    files = []
+    for f in doc["data_files"]:
+        kw = {k: v for k, v in f.items() if k in names}
+        kw["exclusions"] = tuple((e["reason"], e["count"]) for e in f.get("exclusions", []))
+        files.append(DataFileInfo(**kw))
+    m = Measurements(table=table, files=tuple(files),
+                     unassigned_lots=tuple(doc.get("unassigned_lots", [])),
+                     notes=tuple(doc.get("data_notes", [])))
+    from .audit import library_versions
+
+    _version_notes(doc, res, library_versions())
     spec_path = Path(doc["spec"].get("resolved_path") or doc["spec"]["path"])
-    if any(m.startswith("data file missing") for m in res.integrity):
-        return res
-    ev = prepare(spec_path, final=bool(doc.get("final")), command="verify replay",
-                 text=spec_text)
-    now = result_dict(ev)
-    now["spec"]["path"] = doc["spec"]["path"]
+    ev = _evaluate(spec_path, spec_text, bool(doc.get("final")), {}, "verify replay --from-sheet",
+                   measurements=m)
+    now_doc = result_dict(ev)
+    now_doc["spec"]["path"] = doc["spec"]["path"]
     recorded = {k: v for k, v in doc.items() if k not in _RUN_KEYS}
-    _compare(recorded, {k: v for k, v in now.items() if k not in _RUN_KEYS}, "",
+    _compare(recorded, {k: v for k, v in now_doc.items() if k not in _RUN_KEYS}, "",
              res.differences)
     return res

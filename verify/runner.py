@@ -38,6 +38,36 @@ def prepare(spec_path: str | Path, *, final: bool = False, command: str | None =
     return evaluate(spec, measurements, final=final, run=run)
 
 
+def keep_snapshots(ev: Evaluation, folder: Path | None) -> Evaluation:
+    """Keep a snapshot of each data file the evaluation read in ``folder`` (None: opted out).
+
+    Returns the evaluation with its :class:`~verify.model.SnapshotRecord`, which the audit
+    trail and the JSON result state.
+    """
+    from dataclasses import replace
+
+    from .model import SnapshotRecord
+    from .snapshots import store_file
+
+    if folder is None:
+        return replace(ev, snapshots=SnapshotRecord(
+            False, "not kept: --no-snapshot was given; replay needs the data files unchanged"))
+    kept, missed = [], []
+    for f in ev.measurements.files:
+        path = store_file(folder, f.resolved_path, f.sha256)
+        if path is None:
+            missed.append(f.path)
+        else:
+            kept.append((f.sha256, str(path)))
+    if missed:
+        note = (f"not kept for {', '.join(missed)}: the file changed while the run read it; "
+                "replay needs the data file as it was")
+    else:
+        note = (f"kept in {folder} (gzip, named by the sha256 of the data): replay uses them "
+                "when a data file has changed or gone")
+    return replace(ev, snapshots=SnapshotRecord(not missed, note, str(folder), tuple(kept)))
+
+
 @contextlib.contextmanager
 def atomic_path(target: Path):
     """Yield a temporary path beside ``target``; rename it over ``target`` on success only."""

@@ -56,6 +56,7 @@ def write_audit(ws, ev: Evaluation) -> None:
             ("Host", run.host),
             ("Command line", run.command),
             ("Final run (--final)", "yes" if ev.final else "no"),
+            ("Data snapshots", ev.snapshots.note if ev.snapshots else "not recorded"),
         ),
     )
     row += 1
@@ -115,6 +116,10 @@ def write_audit(ws, ev: Evaluation) -> None:
         for j, v in enumerate(values, start=1):
             put(ws, row, j, v, fmt=INT_FORMAT if isinstance(v, int) else None, align=WRAP)
         row += 1
+        if ev.snapshots is not None:
+            put(ws, row, 1, "  snapshot", font=NOTE_FONT)
+            put(ws, row, 2, ev.snapshots.path_of(f.sha256) or "none kept", align=WRAP)
+            row += 1
         for reason, n in f.exclusions:
             put(ws, row, 1, "  excluded", font=NOTE_FONT)
             put(ws, row, 2, reason, align=WRAP)

@@ -135,9 +135,13 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
                 "rows_used": f.rows_used,
                 "rows_excluded": f.rows_excluded,
                 "exclusions": [{"reason": r, "count": n} for r, n in f.exclusions],
+                "snapshot": ev.snapshots.path_of(f.sha256) if ev.snapshots else None,
             }
             for f in ev.measurements.files
         ],
+        "snapshots": None if ev.snapshots is None else {
+            "kept": ev.snapshots.kept, "folder": ev.snapshots.folder,
+            "note": ev.snapshots.note},
         "unassigned_lots": list(ev.measurements.unassigned_lots),
         "data_notes": list(ev.measurements.notes),
         "tool": {"name": "verify", "version": run.tool_version, "git_commit": run.git_commit},

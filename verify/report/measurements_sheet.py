@@ -232,4 +232,66 @@ def _chunk_columns(chunk, start, stop, keys, text_cols, value_style, styles) -> 
     return columns
 
 
-__all__ = ["add_placeholders", "continuation_note", "MUTED"]
+def read_measurements(wb) -> pd.DataFrame:
+    """The tidy measurements table back from the measurements sheet(s) of a verify workbook.
+
+    For ``verify replay --from-sheet``: the columns of :data:`~verify.model.MEASUREMENT_COLUMNS`
+    rebuilt from the sheet's header labels (``Used`` gives ``excluded``), values as stored.
+    """
+    from ..model import MEASUREMENT_COLUMNS
+    from .layout import MEASUREMENTS_SHEET
+
+    by_label = {label: key for key, label in MEASUREMENT_HEADERS}
+    frames = []
+    i = 0
+    while True:
+        title = MEASUREMENTS_SHEET if i == 0 else f"{MEASUREMENTS_SHEET} ({i + 1})"
+        if title not in wb.sheetnames:
+            break
+        rows = wb[title].iter_rows(values_only=True)
+        header = next(rows, ())
+        keys = [by_label.get(h) for h in header]
+        missing = [label for key, label in MEASUREMENT_HEADERS
+                   if key in ("characteristic", "process", "lot", "value", "used")
+                   and key not in keys]
+        if missing:
+            raise ValueError(f"sheet {title!r} lacks the column(s) {', '.join(missing)}")
+        data = {k: [] for k in keys if k is not None}
+        for r in rows:
+            if r is None or all(v is None for v in r[: len(keys)]):
+                continue
+            if r[0] is not None and r[keys.index("characteristic")] is None:
+                continue  # a note beside or below the table
+            for j, k in enumerate(keys):
+                if k is not None:
+                    data[k].append(r[j] if j < len(r) else None)
+        frames.append(pd.DataFrame(data))
+        i += 1
+    if not frames:
+        raise ValueError(f"no sheet {MEASUREMENTS_SHEET!r}")
+    t = pd.concat(frames, ignore_index=True)
+
+    def text(col: str) -> pd.Series:
+        if col not in t:
+            return pd.Series([""] * len(t), dtype=object)
+        return t[col].map(lambda v: "" if v is None else str(v)).astype(str)
+
+    used = t["used"].map(lambda v: v is True or v == 1 or str(v).upper() == "TRUE")
+    out = pd.DataFrame({
+        "source_file": text("source_file"),
+        "source_row": pd.to_numeric(t.get("source_row"), errors="coerce").fillna(0).astype(
+            np.int64) if "source_row" in t else np.zeros(len(t), np.int64),
+        "order": pd.to_numeric(t["order"], errors="coerce").fillna(0).astype(np.int64)
+        if "order" in t else np.arange(len(t), dtype=np.int64),
+        "lot": text("lot"),
+        "process": text("process"),
+        "pair": text("pair"),
+        "characteristic": text("characteristic"),
+        "value": pd.to_numeric(t["value"], errors="coerce").astype(float),
+        "excluded": ~used.astype(bool),
+        "exclusion_reason": text("exclusion_reason"),
+    }, columns=list(MEASUREMENT_COLUMNS))
+    return out.reset_index(drop=True)
+
+
+__all__ = ["add_placeholders", "continuation_note", "read_measurements", "MUTED"]
