@@ -95,14 +95,14 @@ def test_exit_status_per_decision(demo, capsys):
 def test_invalid_spec_writes_nothing_and_keeps_previous_results(demo, capsys):
     out = demo / "reports"
     assert main(["run", str(demo / "specs" / "bushing-supplier.yaml"), "--out", str(out)]) == 0
-    before = {p.name: p.read_bytes() for p in out.iterdir()}
+    before = {p.name: p.read_bytes() for p in out.rglob("*") if p.is_file()}
     bad = demo / "specs" / "broken.yaml"
     bad.write_text((demo / "specs" / "housing-resin.yaml").read_text(encoding="utf-8")
                    .replace("alpha: 0.05", "alpha: 0.5"), encoding="utf-8")
     assert main(["run", str(demo / "specs"), "--out", str(out)]) == 2
     err = capsys.readouterr().err
     assert "broken.yaml" in err and "alpha" in err and "nothing written" in err
-    assert {p.name: p.read_bytes() for p in out.iterdir()} == before
+    assert {p.name: p.read_bytes() for p in out.rglob("*") if p.is_file()} == before
 
 
 def test_bad_data_cell_is_exit_2_through_the_console_script(demo):
@@ -129,9 +129,9 @@ def test_source_date_epoch_gives_identical_outputs(demo, monkeypatch):
     spec = str(demo / "specs" / "filler-paired.yaml")
     out = demo / "reports"
     main(["run", spec, "--out", str(out)])
-    first = {p.name: p.read_bytes() for p in out.iterdir()}
+    first = {p.name: p.read_bytes() for p in out.rglob("*") if p.is_file()}
     main(["run", spec, "--out", str(out)])
-    second = {p.name: p.read_bytes() for p in out.iterdir()}
+    second = {p.name: p.read_bytes() for p in out.rglob("*") if p.is_file()}
     assert first == second
     assert json.loads(first["filler-paired.json"])["run"]["started"] == "2025-12-01T00:00:00Z"
 
@@ -146,7 +146,9 @@ def test_replay_reproduces_each_demo_output(demo_run, suffix, capsys):
 
 def test_replay_names_an_edited_data_file_and_the_changed_results(demo, capsys):
     out = demo / "reports"
-    main(["run", str(demo / "specs" / "bushing-supplier.yaml"), "--out", str(out)])
+    # without a snapshot (with one, replay would use it: tests/test_snapshots.py)
+    main(["run", str(demo / "specs" / "bushing-supplier.yaml"), "--out", str(out),
+          "--no-snapshot"])
     csv = demo / "sample_lots" / "bushing_lots.csv"
     lines = csv.read_text(encoding="utf-8").splitlines()
     col = lines[0].split(",").index("bore_mm")
