@@ -48,7 +48,27 @@ def add_run(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
     p.add_argument("--no-snapshot", action="store_true",
                    help="do not keep compressed copies of the data files in <out>/snapshots/ "
                         "(the audit trail says so; replay then needs the data unchanged)")
+    add_max_data_mb(p)
     return p
+
+
+def add_max_data_mb(p: argparse.ArgumentParser) -> None:
+    """The ``--max-data-mb`` option (shared by run, check, replay and nightly)."""
+    from .safe_open import DEFAULT_MAX_DATA_MB
+
+    p.add_argument("--max-data-mb", metavar="MB", type=_positive_mb, default=None,
+                   help="refuse a data file larger than this many megabytes (default: "
+                        f"{DEFAULT_MAX_DATA_MB:g}); an .xlsx may expand to 8 times this")
+
+
+def _positive_mb(text: str) -> float:
+    try:
+        x = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number of megabytes, got {text!r}") from None
+    if not (x > 0 and x < 1e7):
+        raise argparse.ArgumentTypeError(f"must be a number of megabytes above 0, got {text!r}")
+    return x
 
 
 def summary_line(ev, target: Path | None = None) -> str:
@@ -59,7 +79,14 @@ def summary_line(ev, target: Path | None = None) -> str:
 
 def cmd_run(args: argparse.Namespace) -> int:
     from .audit import command_line
-    from .runner import keep_snapshots, prepare, stage_outputs
+    from .runner import (
+        CommitError,
+        check_target,
+        commit_all,
+        keep_snapshots,
+        prepare,
+        stage_outputs,
+    )
     from .snapshots import SNAPSHOT_DIR
     from .spec import find_specs
 
@@ -75,7 +102,8 @@ def cmd_run(args: argparse.Namespace) -> int:
     evaluations, failed = [], []
     for p in paths:  # validate and evaluate every spec before writing anything
         try:
-            evaluations.append(prepare(p, final=args.final, command=command))
+            evaluations.append(prepare(p, final=args.final, command=command,
+                                       max_data_mb=args.max_data_mb))
         except VerifyError as exc:
             failed.append((p, exc))
     if failed:
@@ -89,21 +117,54 @@ def cmd_run(args: argparse.Namespace) -> int:
     targets = [(ev, out / f"{ev.spec.stem}.xlsx", out / f"{ev.spec.stem}.json")
                for ev in evaluations]
     refuse_overwriting_inputs(evaluations, [t for _, *pair in targets for t in pair])
+    for _, *pair in targets:  # a folder where a report goes: refuse before writing anything
+        for t in pair:
+            check_target(t)
     snaps = None if args.no_snapshot else out / SNAPSHOT_DIR
-    targets = [(keep_snapshots(ev, snaps), wb, res) for ev, wb, res in targets]
-    evaluations = [ev for ev, _, _ in targets]
+    had = _snapshot_names(snaps)
     staged = []
-    try:  # every spec's pair is written before any is renamed into place
-        for ev, wb, res in targets:
-            staged.append(stage_outputs(ev, wb, res))
+    try:
+        targets = [(keep_snapshots(ev, snaps), wb, res) for ev, wb, res in targets]
+        evaluations = [ev for ev, _, _ in targets]
+        try:  # every spec's pair is written before any is renamed into place
+            for ev, wb, res in targets:
+                staged.append(stage_outputs(ev, wb, res))
+        except BaseException:
+            for st in staged:
+                st.discard()
+            raise
+        try:
+            outputs = commit_all(staged)  # all renamed into place, or none
+        except CommitError as exc:
+            raise VerifyError(f"verify run: {exc}") from None
     except BaseException:
-        for st in staged:
-            st.discard()
+        _drop_new_snapshots(snaps, had)  # nothing of a failed run remains
         raise
-    for ev, st in zip(evaluations, staged, strict=True):
-        st.commit()
-        print(summary_line(ev, st.workbook))
+    for ev, outs in zip(evaluations, outputs, strict=True):
+        print(summary_line(ev, outs.workbook))
     return decision_exit(ev.decision for ev in evaluations)
+
+
+def _snapshot_names(folder: Path | None) -> set[str] | None:
+    """The snapshots already kept (None: no snapshot folder yet, or snapshots opted out)."""
+    if folder is None or not folder.is_dir():
+        return None
+    return {p.name for p in folder.iterdir()}
+
+
+def _drop_new_snapshots(folder: Path | None, had: set[str] | None) -> None:
+    """Remove the snapshots this failed run added (and their folder when it made it)."""
+    import contextlib
+
+    if folder is None or not folder.is_dir():
+        return
+    for p in folder.iterdir():
+        if had is None or p.name not in had:
+            with contextlib.suppress(OSError):
+                p.unlink()
+    if had is None:
+        with contextlib.suppress(OSError):
+            folder.rmdir()
 
 
 def check_out_dir(out: Path) -> None:
@@ -155,13 +216,14 @@ def add_replay(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
                    help="re-run on the values of the workbook's own Measurements sheet instead "
                         "of the data file (when neither the file nor its snapshot is at hand): "
                         "a weaker check than the original bytes, and said so")
+    add_max_data_mb(p)
     return p
 
 
 def cmd_replay(args: argparse.Namespace) -> int:
     from .replay import replay
 
-    res = replay(args.report, from_sheet=args.from_sheet)
+    res = replay(args.report, from_sheet=args.from_sheet, max_data_mb=args.max_data_mb)
     for s in res.sources:
         print(f"data: {s}")
     for n in res.notes:

@@ -72,7 +72,14 @@ def store_bytes(folder: str | os.PathLike, data: bytes, sha256: str | None = Non
         umask = os.umask(0)
         os.umask(umask)
         os.chmod(tmp, 0o444 & ~umask)  # a snapshot is evidence: read-only
-        os.replace(tmp, target)
+        try:
+            # a hard link appears atomically under its final name and never replaces a file:
+            # a snapshot already there (another run, same bytes) is left as it is
+            os.link(tmp, target)
+        except FileExistsError:
+            pass
+        except OSError:  # a file system without hard links: rename instead
+            os.replace(tmp, target)
     finally:
         with contextlib.suppress(FileNotFoundError):
             os.unlink(tmp)
