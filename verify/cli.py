@@ -279,6 +279,23 @@ def _terminate(signum, frame):  # pragma: no cover - exercised through a subproc
     raise SystemExit(128 + signum)
 
 
+BLAS_THREAD_VARIABLES = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")
+
+
+def _single_threaded_blas() -> None:
+    """One BLAS thread unless the user set otherwise, before numpy is first imported.
+
+    verify's arithmetic is on short vectors; a multi-threaded BLAS call on a loaded machine
+    (``np.dot`` on a long vector) can cost thousands of times the arithmetic. The variables
+    are read once when numpy loads, so they must be set here, and nightly's worker processes
+    inherit them.
+    """
+    if "numpy" in sys.modules:
+        return  # too late to matter (a library caller imported numpy first)
+    for name in BLAS_THREAD_VARIABLES:
+        os.environ.setdefault(name, "1")
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Run ``verify`` with ``argv`` (default ``sys.argv[1:]``); return the exit status.
 
@@ -287,6 +304,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     """
     import signal
 
+    _single_threaded_blas()
     parser = build_parser()
     args = parser.parse_args(argv)
     if threading_main():
