@@ -87,6 +87,13 @@ def describe_plan(spec, measurements) -> list[str]:
         kind = f"sheet {f.sheet!r}" if f.sheet else f.encoding
         lines.append(f"  data: {f.path} ({ds.layout} layout, {kind}): {f.rows_read} rows read, "
                      f"{f.rows_used} used, {f.rows_excluded} without a used measurement")
+    table = spec.characteristics_table
+    if table is not None:
+        sheet = f", sheet {table.sheet!r}" if table.sheet else ""
+        from_yaml = len(spec.characteristics) - table.rows
+        lines.append(f"  characteristics: {table.rows} from {table.file_text}{sheet} (sha256 "
+                     f"{table.sha256[:12]}...)" + (f", {from_yaml} more from the spec"
+                                                   if from_yaml > 0 else ""))
     if ds.process is not None:
         lines.append(f"  old/new by column {ds.process!r}: old = {_names(ds.old)}, "
                      f"new = {_names(ds.new)}")

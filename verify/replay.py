@@ -156,6 +156,15 @@ def replay(report: str | Path) -> ReplayResult:
         if now != f["sha256"]:
             res.integrity.append(
                 f"data file changed: {f['path']} (recorded sha256 {f['sha256']}, now {now})")
+    table = doc["spec"].get("characteristics_from")
+    if isinstance(table, dict) and isinstance(table.get("sha256"), str):
+        p = Path(table.get("resolved_path") or table.get("path") or "")
+        if not p.is_file():
+            res.integrity.append(f"characteristics table missing: {table.get('path')} "
+                                 f"(recorded sha256 {table['sha256']})")
+        elif sha256_file(p) != table["sha256"]:
+            res.integrity.append(f"characteristics table changed: {table.get('path')} "
+                                 f"(recorded sha256 {table['sha256']}, now {sha256_file(p)})")
     versions = library_versions()
     for k, v in doc.get("versions", {}).items():
         if versions.get(k) != v:
@@ -166,7 +175,8 @@ def replay(report: str | Path) -> ReplayResult:
         res.notes.append(f"verify was {doc.get('tool', {}).get('version')} when recorded, "
                          f"is {__version__} now")
     spec_path = Path(doc["spec"].get("resolved_path") or doc["spec"]["path"])
-    if any(m.startswith("data file missing") for m in res.integrity):
+    if any(m.startswith(("data file missing", "characteristics table missing"))
+           for m in res.integrity):
         return res
     ev = prepare(spec_path, final=bool(doc.get("final")), command="verify replay",
                  text=spec_text)
