@@ -20,7 +20,6 @@ from collections.abc import Callable, Sequence
 from . import __version__
 from .cli_run import add_replay, add_run, cmd_replay, cmd_run
 from .errors import VerifyError
-from .nightly import add_nightly, nightly_main
 
 EXIT_OK = 0
 EXIT_INVALID = 2
@@ -251,6 +250,18 @@ def cmd_plan(args: argparse.Namespace) -> int:
 # -- dispatcher -------------------------------------------------------------------------------
 
 # name -> (add the subparser, run the command); further commands register here
+def add_nightly(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
+    from .nightly import add_nightly as add  # its ledger (sqlite3) loads only when asked for
+
+    return add(sub)
+
+
+def nightly_main(args: argparse.Namespace) -> int:
+    from .nightly import nightly_main as run
+
+    return run(args)
+
+
 COMMANDS: dict[str, tuple[Callable, Callable[[argparse.Namespace], int]]] = {
     "check": (add_check, cmd_check),
     "schema": (add_schema, cmd_schema),
@@ -261,7 +272,9 @@ COMMANDS: dict[str, tuple[Callable, Callable[[argparse.Namespace], int]]] = {
 }
 
 
-def build_parser() -> argparse.ArgumentParser:
+def build_parser(only: str | None = None) -> argparse.ArgumentParser:
+    """The argument parser; with ``only`` (a command name), with that sub-command alone, so
+    that a run does not import every other command's module to describe it."""
     parser = argparse.ArgumentParser(
         prog="verify",
         description=(
@@ -274,9 +287,10 @@ def build_parser() -> argparse.ArgumentParser:
     )
     parser.add_argument("--version", action="version", version=f"verify {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
-    for add, run in COMMANDS.values():
-        p = add(sub)
-        p.set_defaults(func=run)
+    for name, (add, run) in COMMANDS.items():
+        if only is None or name == only:
+            p = add(sub)
+            p.set_defaults(func=run)
     return parser
 
 
@@ -312,8 +326,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     import signal
 
     _single_threaded_blas()
-    parser = build_parser()
-    args = parser.parse_args(argv)
+    given = list(sys.argv[1:] if argv is None else argv)
+    parser = build_parser(given[0] if given and given[0] in COMMANDS else None)
+    args = parser.parse_args(given)
     if threading_main():
         signal.signal(signal.SIGTERM, _terminate)
     try:
