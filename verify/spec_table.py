@@ -93,18 +93,21 @@ def read_table(path: Path, shown: str) -> tuple[list[str], list[tuple[int, list]
     if suffix not in TABLE_SUFFIXES:
         raise SpecError([_issue(shown, f"characteristics_from must name a .csv or .xlsx file, "
                                        f"not {suffix or 'a file without extension'!r}")])
+    from .safe_open import FileRefused, check_xlsx_archive, read_regular
+
+    if not os.path.lexists(path):
+        raise SpecError([_issue(shown, "characteristics table file not found "
+                                       "(characteristics_from is read relative to the spec's "
+                                       "folder)")])
+    hint = "split the table, or keep only characteristics in it"
     try:
-        if not path.is_file():
-            what = "is a folder, not a table" if path.is_dir() else "file not found"
-            raise SpecError([_issue(shown, f"characteristics table {what} (characteristics_from "
-                                           "is read relative to the spec's folder)")])
-        if path.stat().st_size > MAX_TABLE_BYTES:
-            raise SpecError([_issue(shown, f"the characteristics table is larger than "
-                                           f"{MAX_TABLE_BYTES // (1024 * 1024)} MB")])
-        raw = path.read_bytes()
-    except OSError as exc:
-        raise SpecError([_issue(shown, f"cannot read the characteristics table: "
-                                       f"{exc.strerror or exc}")]) from None
+        raw = read_regular(path, what="characteristics table", shown=shown,
+                           max_bytes=MAX_TABLE_BYTES, limit_hint=hint)
+        if suffix == ".xlsx":
+            check_xlsx_archive(raw, shown, max_bytes=MAX_TABLE_BYTES,
+                               what="characteristics table", limit_hint=hint)
+    except FileRefused as exc:
+        raise SpecError([_issue(shown, exc.reason)]) from None
     sha = hashlib.sha256(raw).hexdigest()
     if suffix == ".csv":
         header, rows = _read_csv(raw, shown)
