@@ -395,6 +395,12 @@ def replay(report: str | Path, *, from_sheet: bool = False,
             res.integrity.append(
                 f"data file changed: {f['path']} (recorded sha256 {f['sha256']}, now {now}), "
                 "and no snapshot of it was found")
+    table = spec.characteristics_table  # read (and hashed) by load_spec, from the spec text
+    recorded_table = doc["spec"].get("characteristics_from") or {}
+    if table is not None and recorded_table.get("sha256") != table.sha256:
+        res.integrity.append(
+            f"characteristics table changed: {table.file_text} (recorded sha256 "
+            f"{recorded_table.get('sha256')}, now {table.sha256})")
     _version_notes(doc, res, library_versions())
     if snapshot is None:
         ev = prepare(spec_path, final=bool(doc.get("final")), command="verify replay",
