@@ -75,7 +75,7 @@ def write_edge_specs(folder: Path) -> None:
             limits: [9, 11]
             checks:
               shift: {design: welch}
-              spread: {method: brown-forsythe}
+              spread: {method: brown-forsythe, design: independent}
               capability: {subgroup: lot}
         """), encoding="utf-8")
     (folder / "edge-lots.yaml").write_text(textwrap.dedent("""\
@@ -467,7 +467,7 @@ def test_adjusted_p_values_are_recomputed_from_the_p_cells(method):
             assert adj[1].startswith("=MIN(1,") and "*$B$" in adj[1]
         else:
             assert "SUMPRODUCT(MAX(" in adj[1]
-    _, m_row = sec["m, the number of difference tests"]
+    _, m_row = sec["m, the number of tests in the family"]
     assert m_row[2] == len(family)
 
 
