@@ -82,6 +82,7 @@ def write_edge_specs(folder: Path) -> None:
         format: verify/1
         title: Edge cases, lot means with awkward lot names
         unit_of_analysis: lot
+        multiplicity: holm
         data: {file: edge.csv, lot: lot, process: process, old: old, new: new}
         characteristics:
           - name: width
@@ -93,6 +94,7 @@ def write_edge_specs(folder: Path) -> None:
               target:
               shift: {design: pooled}
               spread:
+              capability: {index: ppk, min: 0.5, judge: lower_bound, confidence: 0.9}
         """), encoding="utf-8")
 
 

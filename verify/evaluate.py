@@ -457,7 +457,8 @@ def _draft_spread(spec: Spec, ch: Characteristic, d: _CharDraft) -> _Draft:
                 "compared": ("pooled within-lot variances (F on sum(n_i - 1) df); the "
                              "between-lot sds are reported beside it and do not decide"),
             }
-            between = decide.fmt(w.between_ratio) if w.between_ratio is not None else "n/a"
+            between = (decide.fmt(w.between_ratio) if w.between_ratio is not None
+                       else "n/a (the old between-lot sd is 0)")
             note = f"; between-lot sd ratio {between}, reported only"
             design = "lot components"
 
@@ -552,7 +553,8 @@ def _draft_capability(spec: Spec, ch: Characteristic, d: _CharDraft) -> _Draft:
         "cp": _finite(r.cp), "cpk": r.cpk, "cpl": _finite(r.cpl), "cpu": _finite(r.cpu),
         "pp": _finite(r.pp), "ppk": _finite(r.ppk), "cpm": _finite(r.cpm),
         "sigma_within": r.sigma_within, "sigma_overall": r.sigma_overall,
-        "sigma_method": r.sigma_method, "mean": r.mean, "n": r.n, "min_cpk": conf.min,
+        "sigma_method": r.sigma_method, "mean": r.mean, "n": r.n,
+        **({"min_cpk": conf.min} if conf.index == "cpk" else {}),
         "cpk_lower_95": _finite(lb95),
         "index": conf.index, "judge": conf.judge, "min": conf.min, "confidence": level,
         "lower_bound": _finite(bound), "bound_df": bound_df,

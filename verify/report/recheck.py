@@ -558,6 +558,11 @@ def _location_test(
                 sh.qty("upper bound", f"{est}+{q}*{se}", ch.ci_high, "estimate + quantile * se")
             else:
                 sh.qty("lower bound", f"{est}-{q}*{se}", ch.ci_low, "estimate - quantile * se")
+    if ch.p_adjusted is not None and ch.ci_level is not None and ch.margin is None:
+        # a member of an adjusted family: its critical value is at alpha / m, the level of its
+        # interval (1 - alpha / m)
+        crit = ((crit[0].replace("alpha)", "alpha / m)"), f"(1-{level})") if two_sided_ci
+                else (crit[0].replace("alpha)", "alpha / m)"), f"2*(1-{level})"))
     sh.qty(crit[0], _t_quantile(crit[1], df, frac), ch.critical_value, hq)
 
 
@@ -1091,7 +1096,7 @@ def _capability(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult
                 "(upper - lower) / (6 sigma)",
             )
         both = [x for x in (lo, hi) if x is not None]
-        engine = ch.estimate if key == "c" else extra.get("ppk")
+        engine = extra.get("cpk", ch.estimate) if key == "c" else extra.get("ppk")
         idx[key] = sh.qty(
             f"{key.upper()}pk ({label} sigma)",
             f"MIN({','.join(both)})",
