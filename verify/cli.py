@@ -20,7 +20,6 @@ from collections.abc import Callable, Sequence
 from . import __version__
 from .cli_run import add_max_data_mb, add_replay, add_run, cmd_replay, cmd_run
 from .errors import VerifyError
-from .nightly import add_nightly, nightly_main
 
 EXIT_OK = 0
 EXIT_INVALID = 2
@@ -90,6 +89,13 @@ def describe_plan(spec, measurements) -> list[str]:
         kind = f"sheet {f.sheet!r}" if f.sheet else f.encoding
         lines.append(f"  data: {f.path} ({ds.layout} layout, {kind}): {f.rows_read} rows read, "
                      f"{f.rows_used} used, {f.rows_excluded} without a used measurement")
+    table = spec.characteristics_table
+    if table is not None:
+        sheet = f", sheet {table.sheet!r}" if table.sheet else ""
+        from_yaml = len(spec.characteristics) - table.rows
+        lines.append(f"  characteristics: {table.rows} from {table.file_text}{sheet} (sha256 "
+                     f"{table.sha256[:12]}...)" + (f", {from_yaml} more from the spec"
+                                                   if from_yaml > 0 else ""))
     if ds.process is not None:
         lines.append(f"  old/new by column {ds.process!r}: old = {_names(ds.old)}, "
                      f"new = {_names(ds.new)}")
@@ -247,6 +253,18 @@ def cmd_plan(args: argparse.Namespace) -> int:
 # -- dispatcher -------------------------------------------------------------------------------
 
 # name -> (add the subparser, run the command); further commands register here
+def add_nightly(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
+    from .nightly import add_nightly as add  # its ledger (sqlite3) loads only when asked for
+
+    return add(sub)
+
+
+def nightly_main(args: argparse.Namespace) -> int:
+    from .nightly import nightly_main as run
+
+    return run(args)
+
+
 COMMANDS: dict[str, tuple[Callable, Callable[[argparse.Namespace], int]]] = {
     "check": (add_check, cmd_check),
     "schema": (add_schema, cmd_schema),
@@ -257,7 +275,9 @@ COMMANDS: dict[str, tuple[Callable, Callable[[argparse.Namespace], int]]] = {
 }
 
 
-def build_parser() -> argparse.ArgumentParser:
+def build_parser(only: str | None = None) -> argparse.ArgumentParser:
+    """The argument parser; with ``only`` (a command name), with that sub-command alone, so
+    that a run does not import every other command's module to describe it."""
     parser = argparse.ArgumentParser(
         prog="verify",
         description=(
@@ -270,9 +290,10 @@ def build_parser() -> argparse.ArgumentParser:
     )
     parser.add_argument("--version", action="version", version=f"verify {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
-    for add, run in COMMANDS.values():
-        p = add(sub)
-        p.set_defaults(func=run)
+    for name, (add, run) in COMMANDS.items():
+        if only is None or name == only:
+            p = add(sub)
+            p.set_defaults(func=run)
     return parser
 
 
@@ -280,6 +301,23 @@ def _terminate(signum, frame):  # pragma: no cover - exercised through a subproc
     # SIGTERM (a scheduler's stop, systemd, timeout) unwinds like an exception, so temporary
     # files are removed by their finally blocks instead of being left behind
     raise SystemExit(128 + signum)
+
+
+BLAS_THREAD_VARIABLES = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")
+
+
+def _single_threaded_blas() -> None:
+    """One BLAS thread unless the user set otherwise, before numpy is first imported.
+
+    verify's arithmetic is on short vectors; a multi-threaded BLAS call on a loaded machine
+    (``np.dot`` on a long vector) can cost thousands of times the arithmetic. The variables
+    are read once when numpy loads, so they must be set here, and nightly's worker processes
+    inherit them.
+    """
+    if "numpy" in sys.modules:
+        return  # too late to matter (a library caller imported numpy first)
+    for name in BLAS_THREAD_VARIABLES:
+        os.environ.setdefault(name, "1")
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -290,8 +328,10 @@ def main(argv: Sequence[str] | None = None) -> int:
     """
     import signal
 
-    parser = build_parser()
-    args = parser.parse_args(argv)
+    _single_threaded_blas()
+    given = list(sys.argv[1:] if argv is None else argv)
+    parser = build_parser(given[0] if given and given[0] in COMMANDS else None)
+    args = parser.parse_args(given)
     if threading_main():
         signal.signal(signal.SIGTERM, _terminate)
     try:

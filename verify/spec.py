@@ -34,6 +34,7 @@ from typing import Any
 
 import yaml
 
+from . import spec_table
 from .errors import SpecError, SpecIssue, UsageError
 from .schema import Document, child_path, forbidden_characters, validate
 from .spec_model import (
@@ -153,18 +154,23 @@ def load_spec(path: str | os.PathLike, *, text: str | None = None) -> Spec:
     root = _compose(body, file)
     if root is None:
         raise SpecError([SpecIssue(file, "", "the spec is empty", 1, 1)])
+    # characteristics_from: the table's rows join the node tree as characteristic entries, so
+    # every rule below applies to them; their problems are then named at the table's cells
+    expansion = spec_table.expand(root, path, file)
     bad_text = forbidden_characters(root)
     if bad_text:
-        raise SpecError([SpecIssue(file, p.path, p.message, p.line, p.column)
-                         for p in bad_text[:20]])
+        raise SpecError(spec_table.relocate(
+            [SpecIssue(file, p.path, p.message, p.line, p.column) for p in bad_text[:20]],
+            expansion, file))
     doc = validate(root)
     checker = _Checker(file, doc)
     checker.problems_from_schema()
     if isinstance(doc.value, dict):
         checker.semantics(doc.value)
     if checker.issues:
-        raise SpecError(sorted(checker.issues, key=_issue_order))
-    return _build(path, text, doc)
+        raise SpecError(spec_table.relocate(sorted(checker.issues, key=_issue_order),
+                                            expansion, file))
+    return _build(path, text, doc, expansion)
 
 
 def _issue_order(issue: SpecIssue) -> tuple:
@@ -309,6 +315,19 @@ class _Checker:
         if data is not None:
             self.check_data(spec, data)
         self.check_lots(spec)
+        if "characteristics" not in spec and "characteristics_from" not in spec and \
+                self.doc.clean("characteristics_from"):
+            self.add("characteristics", "missing required key 'characteristics': list the "
+                     "characteristics, or name a table of them with characteristics_from",
+                     key=True)
+        if "defaults" in spec and "characteristics_from" not in spec:
+            self.add("defaults", "defaults applies to the rows of characteristics_from: name "
+                     "the table, or move these keys into each characteristic", key=True)
+        if self.ok(spec, "characteristics_from", "characteristics_from"):
+            suffix = Path(spec["characteristics_from"]).suffix.lower()
+            if suffix not in spec_table.TABLE_SUFFIXES:
+                self.add("characteristics_from", f"must end in .csv or .xlsx, not "
+                         f"{suffix or 'no extension'!r}")
         chars = spec.get("characteristics")
         names: dict[str, int] = {}
         if isinstance(chars, list):
@@ -483,7 +502,8 @@ _UNKNOWN = _Unknown()
 # -- building the model -----------------------------------------------------------------------
 
 
-def _build(path: Path, text: str, doc: Document) -> Spec:
+def _build(path: Path, text: str, doc: Document,
+           expansion: spec_table.Expansion | None = None) -> Spec:
     v: dict = doc.value
     given = set(doc.marks)
     resolved: list[tuple[str, str, bool]] = []
@@ -538,6 +558,14 @@ def _build(path: Path, text: str, doc: Document) -> Spec:
     if supersedes is not None:
         rec("supersedes_reason", supersedes)
 
+    table = expansion.table if expansion is not None else None
+    if table is not None:
+        rec("characteristics_from", table.file_text)
+        rec("characteristics_from.sha256", table.sha256, default=False)
+        rec("characteristics_from.rows", table.rows, default=False)
+        for key in ("unit", "side"):
+            if key in v.get("defaults", {}):
+                rec(f"defaults.{key}", v["defaults"][key])
     chars = tuple(
         _build_characteristic(c, f"characteristics[{i}]", data_spec, unit, doc, rec)
         for i, c in enumerate(v["characteristics"])
@@ -548,7 +576,7 @@ def _build(path: Path, text: str, doc: Document) -> Spec:
         change_id=_text(v["change_id"], doc, "change_id") if "change_id" in v else None,
         alpha=alpha, lots=lots, unit_of_analysis=unit, min_n=min_n, multiplicity=multiplicity,
         exclude=tuple(exclusions), plan=plan, supersedes_reason=supersedes,
-        resolved=tuple(resolved),
+        resolved=tuple(resolved), characteristics_table=table,
     )
 
 
@@ -667,8 +695,13 @@ def _build_characteristic(c: dict, p: str, data: DataSpec, unit: str, doc: Docum
         name=name, unit=c["unit"], column=column, match=match, target=target, limits=limits,
         side=side, checks=Checks(target=target_check, shift=shift_check, spread=spread_check,
                                  capability=capability_check),
-        line=doc.where(p)[0],
+        line=_spec_line(doc.where(p)[0]),
     )
+
+
+def _spec_line(line: int | None) -> int | None:
+    """The spec line of a characteristic; None for a row of characteristics_from."""
+    return None if line is None or line > spec_table.TABLE_LINE else line
 
 
 def _off(explicit: bool, why_default: str) -> str:
