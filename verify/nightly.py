@@ -351,7 +351,9 @@ def _plan(ev) -> tuple[bool, str | None]:
     for c in ev.characteristics:
         counts = ({"pairs": c.pairs} if c.pairs is not None
                   else {p: s.n for p, s in c.processes.items()})
-        s = SUFFICIENCY.shortfall(counts, ev.spec.min_n, False)
+        plans = (None if ev.spec.min_n is None
+                 else {k: ev.spec.planned(k) for k in counts})  # min_n may be per process
+        s = SUFFICIENCY.shortfall(counts, plans, False)
         if s is not None:
             short.append(f"{c.name}: {s}")
     return (not short), ("; ".join(short) or None)
