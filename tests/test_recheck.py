@@ -109,6 +109,15 @@ def evaluate_spec(spec_path: Path):
     return evaluate(spec, load_measurements(spec))
 
 
+@pytest.fixture
+def fixed_ranges(monkeypatch):
+    """The formulas of a workbook too large for lookups: fixed ranges of the measurements
+    sheet (issue 13 made lookups by key the rule; this path remains for large tables)."""
+    import verify.report.recheck as recheck
+
+    monkeypatch.setattr(recheck, "SORT_PROOF_MAX_ROWS", 0)
+
+
 def rows_for(design: str, **kw):
     ev = make_evaluation(design, **kw)
     layout = measurement_layout(ev)
@@ -205,7 +214,7 @@ def test_formulas_are_well_formed(design):
 
 
 @pytest.mark.parametrize("design", ["welch", "pooled", "one-sample", "all"])
-def test_sample_rows_reference_the_used_blocks(design):
+def test_sample_rows_reference_the_used_blocks(design, fixed_ranges):
     ev, layout, rows = rows_for(design)
     secs = sections(rows)
     for c in ev.characteristics:
@@ -303,7 +312,7 @@ def test_integer_df_designs_use_the_t_functions(design):
     assert "BETA" not in text
 
 
-def test_paired_differences_come_from_the_aligned_blocks():
+def test_paired_differences_come_from_the_aligned_blocks(fixed_ranges):
     ev, layout, rows = rows_for("paired", margin=None)
     c = ev.characteristics[0]
     old, new = layout.paired[c.name]
@@ -316,7 +325,7 @@ def test_paired_differences_come_from_the_aligned_blocks():
     assert sec["p, cross-check with T.TEST"][1][1] == f"=_xlfn.T.TEST({n},{o},2,1)"
 
 
-def test_capability_moving_range_runs_over_consecutive_rows_of_the_block():
+def test_capability_moving_range_runs_over_consecutive_rows_of_the_block(fixed_ranges):
     ev, layout, rows = rows_for("welch")
     c = ev.characteristics[0]
     b = layout.used[(c.name, "new")]
@@ -329,7 +338,7 @@ def test_capability_moving_range_runs_over_consecutive_rows_of_the_block():
 # --- lots -------------------------------------------------------------------------------------
 
 
-def test_lot_means_use_averageifs_with_escaped_exact_criteria():
+def test_lot_means_use_averageifs_with_escaped_exact_criteria(fixed_ranges):
     lot_ids = ["HW*7", "HW?8", "HW~9", 'HW"10', "=HW11", ">12", "HW-13", "HW-14"]
     ev, layout, rows = rows_for("lot", lot_ids=lot_ids, n_old=4, n_new=4)
     c = ev.characteristics[0]
@@ -434,7 +443,8 @@ def test_a_check_without_numbers_gets_a_note_instead_of_formulas():
 # --- production order, multiplicity -------------------------------------------------------------
 
 
-def test_moving_ranges_follow_production_order_when_the_sheet_lists_pairs_by_key(tmp_path):
+def test_moving_ranges_follow_production_order_when_the_sheet_lists_pairs_by_key(tmp_path,
+                                                                               fixed_ranges):
     write_edge_specs(tmp_path)
     ev = evaluate_spec(tmp_path / "edge-paired.yaml")
     layout = measurement_layout(ev)
@@ -492,3 +502,45 @@ def test_d2_constants_are_the_engines():
     from verify.stats.diagnostics import D2_TABLE
 
     assert recheck.D2_CONSTANTS == tuple(D2_TABLE[n] for n in range(2, 26))
+
+
+# --- sort-proof lookups (issue 13) ---------------------------------------------------------------
+
+
+def _helpers(rows: list[list]) -> tuple[int, list[tuple[int, list]]]:
+    start = next(i for i, r in enumerate(rows, 1)
+                 if r and isinstance(r[0], str) and r[0].startswith("Values looked up"))
+    return start, [(i, r) for i, r in enumerate(rows, 1) if i > start + 1 and r]
+
+
+def test_values_are_looked_up_by_key_in_production_order():
+    ev, layout, rows = rows_for("welch")
+    c = ev.characteristics[0]
+    _, helpers = _helpers(rows)
+    t = ev.measurements.table
+    used_new = t[(t["characteristic"] == c.name) & (t["process"] == "new") & ~t["excluded"]]
+    mine = [(i, r) for i, r in helpers if r[0].startswith(f"{c.name}, new, ")]
+    assert len(mine) == len(used_new)
+    orders = [int(r[0].split("production order ")[1].split(",")[0]) for _, r in mine]
+    assert orders == sorted(used_new["order"].tolist())  # the engine's production order
+    f = mine[0][1][1]
+    # whole table columns and exact criteria: no fixed rows of the measurements sheet
+    last = len(layout.table) + 1
+    assert f.startswith(f"=SUMIFS('Measurements'!$E$2:$E${last},'Measurements'!$A$2:$A${last},")
+    assert '"=new"' in f and f"$F$2:$F${last},TRUE" in f and f"$J$2:$J${last},{orders[0]})" in f
+    # the n, mean and sd read the helper rows, not the measurements sheet
+    first, last_h = mine[0][0], mine[-1][0]
+    secs = sections(rows)
+    n_row = by_label(secs[(c.name, "")])["new: n (parts)"][1]
+    assert n_row[1] == f"=COUNT($B${first}:$B${last_h})"
+
+
+def test_pairs_are_matched_by_pair_key():
+    ev, _, rows = rows_for("paired", margin=None)
+    c = ev.characteristics[0]
+    _, helpers = _helpers(rows)
+    old = [r for _, r in helpers if r[0].startswith(f"{c.name}, old, pair key ")]
+    new = [r for _, r in helpers if r[0].startswith(f"{c.name}, new, pair key ")]
+    assert len(old) == len(new) == c.pairs
+    assert [r[0].split("pair key ")[1] for r in old] == [r[0].split("pair key ")[1] for r in new]
+    assert all("'Measurements'!$D$2:" in r[1] for r in old + new)  # the pair-key column

@@ -9,7 +9,16 @@ capability indices with COUNT, AVERAGE, STDEV.S, T.DIST, BETA.DIST and friends. 
 formula stand the engine's value, the difference and an agreement cell that is TRUE when
 ``|sheet - engine| <= tolerance * MAX(1, |engine|)``.
 
-Every row has the columns of :data:`COLUMNS`. A string starting with ``"="`` is a formula; all
+The values are read by key, not by row, so that an auditor may sort or filter the
+measurements table: each used value is looked up once, into helper rows after the body, with
+``SUMIFS`` over the whole table's columns (characteristic, process, Used = TRUE and the stored
+production order, or the pair key for matched pairs, exactly one row matching each key), in the
+engine's production order; lot means, lot sizes and lot ranges use criteria over the same
+columns. Tables above :data:`SORT_PROOF_MAX_ROWS` rows (where a lookup per value would make a
+spreadsheet crawl), or with names a criterion cannot match exactly, fall back to fixed row
+ranges of the measurements sheet, and the sheet says so.
+
+Every row has the columns of :data:`COLUMNS` (helper rows add the lot in column G). A string starting with ``"="`` is a formula; all
 other cells are values or text (no text cell starts with ``"="``).
 
 Notes on the spreadsheet functions
@@ -39,6 +48,7 @@ Notes on the spreadsheet functions
 from __future__ import annotations
 
 import math
+import re
 from collections.abc import Mapping
 from dataclasses import dataclass
 
@@ -57,6 +67,7 @@ __all__ = [
     "SUMMARY_ROW",
     "HEADER_ROW",
     "FIRST_BODY_ROW",
+    "HELPER_HEADING",
     "MAX_HELPER_ROWS",
     "recheck_rows",
 ]
@@ -121,6 +132,9 @@ class _Sheet:
         self.pairs: dict[str, _Pairs | None] = {}  # paired-difference rows, once per characteristic
         self.current: tuple[str, str] = ("", "")  # (characteristic, check) being written
         self.family_p: dict[tuple[str, str], str] = {}  # p cells of the difference tests
+        self.table: _Table | None = None  # set when the formulas can read by key
+        self.helpers: list[list] = []  # helper rows, appended after the body
+        self.samples: dict = {}  # (characteristic, process) -> _Helper of its used values
 
     @property
     def next_row(self) -> int:
@@ -164,6 +178,128 @@ class _Sheet:
 
     def unavailable(self, label: str, why: str) -> None:
         self.add(_text(label), _text(f"not available: {why}"))
+
+
+# --- sort-proof lookups -------------------------------------------------------------------------
+
+# Up to this many measurement rows the formulas read the values through lookups by key
+# (characteristic, process, production order), so sorting or filtering the measurements table
+# changes nothing; beyond it (each lookup scans the table) they read fixed row ranges.
+SORT_PROOF_MAX_ROWS = 20_000
+HELPER_HEADING = "Values looked up from the measurements table"
+_TOKEN = re.compile(r"\u27e6(\d+)\u27e7")  # a helper row's index, numbered once the body ends
+
+
+def _tok(i: int) -> str:
+    return f"\u27e6{i}\u27e7"
+
+
+@dataclass(frozen=True)
+class _Table:
+    """The measurements table as whole columns, for lookups that survive a sort."""
+
+    sheet: str
+    last: int  # the last data row
+    letters: Mapping[str, str]  # column key -> letter
+    by_file: bool  # more than one source file: the file joins the key
+
+    def col(self, key: str) -> str:
+        letter = self.letters[key]
+        return f"'{self.sheet}'!${letter}$2:${letter}${self.last}"
+
+    def criteria(self, name: str, process: str) -> str:
+        """The criteria pairs selecting the used values of one characteristic and process."""
+        return (f"{self.col('characteristic')},{_criterion(name)},{self.col('process')},"
+                f"{_string_literal('=' + process)},{self.col('used')},TRUE")
+
+
+def _sort_proof_table(layout: MeasurementLayout) -> _Table | None:
+    """The table when every lookup key is safe to use, else None (fixed ranges are used)."""
+    from openpyxl.utils import get_column_letter
+
+    from .layout import MEASUREMENT_HEADERS
+
+    t = layout.table
+    if len(layout.sheets) != 1 or len(t) == 0 or len(t) > SORT_PROOF_MAX_ROWS:
+        return None
+    names = [str(x) for x in dict.fromkeys(t["characteristic"].astype(str))]
+    if not _criteria_safe(names) or any(n.startswith("=") for n in names):
+        return None
+    files = [str(x) for x in dict.fromkeys(t["source_file"].astype(str))]
+    if len(files) > 1 and not _criteria_safe(files):
+        return None
+    used = t[t["used"]]
+    if used.duplicated(["source_file", "characteristic", "process", "order"]).any():
+        return None  # the key would not name one value
+    letters = {key: get_column_letter(j) for j, (key, _) in enumerate(MEASUREMENT_HEADERS, 1)}
+    return _Table(layout.sheets[0], len(t) + 1, letters, len(files) > 1)
+
+
+@dataclass(frozen=True)
+class _Helper:
+    """Helper rows (appended after the body) holding one sample's values, looked up by key.
+
+    Column B holds the value, column G the lot as text, in the engine's production order;
+    ``ref`` mirrors :meth:`Block.ref` so the formulas read helpers as they read blocks.
+    """
+
+    first: int  # index into the helper rows
+    last: int
+    sheet: str = ""
+
+    @property
+    def count(self) -> int:
+        return self.last - self.first + 1
+
+    def ref(self, column: str = VALUE_COLUMN, lo: int = 0, hi: int = 0) -> str:
+        c = "G" if column == LOT_COLUMN else "B"
+        return f"${c}${_tok(self.first + lo)}:${c}${_tok(self.last + hi)}"
+
+
+def _lookup(tbl: _Table, name: str, process: str, row) -> str:
+    """SUMIFS of the one used value with this key: exact, since exactly one row matches."""
+    f = (f"SUMIFS({tbl.col('value')},{tbl.criteria(name, process)},{tbl.col('order')},"
+         f"{int(row['order'])}")
+    if tbl.by_file:
+        f += f",{tbl.col('source_file')},{_criterion(str(row['source_file']))}"
+    return f + ")"
+
+
+def _lot_cell(lot: str) -> str | None:
+    """A helper row's lot as the cell must hold it: a text starting with "=" is written as a
+    formula giving that text (a plain cell starting with "=" would be a formula)."""
+    lot = _as_written(lot)
+    return "=" + _string_literal(lot) if lot.startswith("=") else (lot or None)
+
+
+def _helper_rows(sh: _Sheet, name: str, process: str, rows: pd.DataFrame, label) -> _Helper:
+    first = len(sh.helpers)
+    for _, r in rows.iterrows():
+        sh.helpers.append([_text(label(r)), "=" + _lookup(sh.table, name, process, r), None,
+                           None, None, None, _lot_cell(str(r["lot"]))])
+    return _Helper(first, len(sh.helpers) - 1)
+
+
+def _used_block(sh: _Sheet, ev: Evaluation, layout: MeasurementLayout, name: str,
+                process: str):
+    """Where the used values of one characteristic and process are read from: sort-proof
+    helper rows in production order when possible, else the block on the measurements sheet."""
+    block = layout.used.get((name, process))
+    if sh.table is None:
+        return block
+    key = (name, process)
+    if key not in sh.samples:
+        t = ev.measurements.table
+        sel = t[(t["characteristic"] == name) & (t["process"] == process) & ~t["excluded"]]
+        sel = sel.sort_values(["order", "source_row"], kind="stable")  # as the engine orders
+        if sel.empty:
+            sh.samples[key] = None
+        else:
+            sh.samples[key] = _helper_rows(
+                sh, name, process, sel,
+                lambda r: f"{name}, {process}, production order {int(r['order'])}, "
+                          f"source row {int(r['source_row'])}")
+    return sh.samples[key]
 
 
 # --- t distribution formulas ------------------------------------------------------------------
@@ -351,7 +487,7 @@ def _sample(
     process: str,
     summary: ProcessSummary,
 ) -> _Sample | None:
-    block = layout.used.get((c.name, process))
+    block = _used_block(sh, ev, layout, c.name, process)
     by_lot = ev.spec.unit_of_analysis == "lot"
     unit = "lot means" if by_lot else "values"
     if block is None:
@@ -364,7 +500,8 @@ def _sample(
         where = f"the {process} lot means above"
     else:
         ref = block.ref(VALUE_COLUMN)
-        where = f"{block.sheet}!{VALUE_COLUMN}{block.first}:{VALUE_COLUMN}{block.last}"
+        where = (f"the {process} values looked up below" if isinstance(block, _Helper) else
+                 f"{block.sheet}!{VALUE_COLUMN}{block.first}:{VALUE_COLUMN}{block.last}")
     n = sh.qty(
         f"{process}: n ({'lots' if by_lot else 'parts'})",
         f"COUNT({ref})",
@@ -406,6 +543,8 @@ def _aligned(layout: MeasurementLayout, bo: Block, bn: Block) -> bool:
 def _pair_rows(
     sh: _Sheet, ev: Evaluation, layout: MeasurementLayout, c: CharacteristicResult, engine_sd
 ) -> _Pairs | None:
+    if sh.table is not None:
+        return _pair_helpers(sh, ev, c, engine_sd)
     blocks = layout.paired.get(c.name)
     if blocks is None:
         sh.unavailable(
@@ -427,6 +566,54 @@ def _pair_rows(
         f"{VALUE_COLUMN}{bo.first}:{VALUE_COLUMN}{bo.last}, aligned by pair key"
     )
     n = sh.qty("pairs: n", f"COUNT({n_})", c.pairs, f"COUNT of the matched new values ({where})")
+    mean = sh.qty(
+        "pairs: mean difference (new - old)",
+        f"SUMPRODUCT({n_}-{o})/{n}",
+        None,
+        "SUMPRODUCT of the differences / n",
+    )
+    sd = sh.qty(
+        "pairs: sd of the differences",
+        f"SQRT(SUMPRODUCT(({n_}-{o}-{mean})^2)/({n}-1))",
+        engine_sd,
+        "SQRT(SUMPRODUCT((difference - mean)^2) / (n - 1))",
+    )
+    return _Pairs(o, n_, n, mean, sd)
+
+
+def _pair_helpers(sh: _Sheet, ev: Evaluation, c: CharacteristicResult, engine_sd
+                  ) -> _Pairs | None:
+    """Matched pairs as two aligned runs of helper rows, each value looked up by its pair key
+    (or, for keys a criterion cannot match exactly, by its production order)."""
+    t = ev.measurements.table
+    sel = t[(t["characteristic"] == c.name) & ~t["excluded"] & (t["pair"] != "")]
+    sides = {p: sel[sel["process"] == p].set_index("pair", drop=False) for p in ("old", "new")}
+    keys = sorted(set(sides["old"].index) & set(sides["new"].index))
+    if not keys:
+        sh.unavailable("paired differences", "no pair key has a used value on both sides")
+        return None
+    if 2 * len(keys) > MAX_HELPER_ROWS * 20:
+        sh.unavailable("paired differences", "too many pairs for helper rows")
+        return None
+    by_key = _criteria_safe(keys) and not any(k.startswith("=") for k in keys)
+    tbl = sh.table
+    refs = {}
+    for p in ("old", "new"):
+        first = len(sh.helpers)
+        for k in keys:
+            r = sides[p].loc[k]
+            if by_key:
+                f = (f"SUMIFS({tbl.col('value')},{tbl.criteria(c.name, p)},{tbl.col('pair')},"
+                     f"{_criterion(_as_written(k))})")
+            else:
+                f = _lookup(tbl, c.name, p, r)
+            sh.helpers.append([_text(f"{c.name}, {p}, pair key {k}"), "=" + f, None, None, None,
+                               None, _lot_cell(str(r["lot"]))])
+        refs[p] = _Helper(first, len(sh.helpers) - 1).ref(VALUE_COLUMN)
+    o, n_ = refs["old"], refs["new"]
+    how = "looked up by pair key" if by_key else "looked up by production order"
+    n = sh.qty("pairs: n", f"COUNT({n_})", c.pairs,
+               f"COUNT of the matched new values ({how}, old and new aligned by key below)")
     mean = sh.qty(
         "pairs: mean difference (new - old)",
         f"SUMPRODUCT({n_}-{o})/{n}",
@@ -747,7 +934,8 @@ def _lot_components(sh: _Sheet, layout, c: CharacteristicResult, process: str
                     ) -> tuple[str, str] | None:
     """Within- and between-lot variance components of one process from per-lot helper rows;
     returns the cells of the within-lot df and the pooled within-lot variance."""
-    block = layout.used.get((c.name, process))
+    block = sh.samples.get((c.name, process)) if sh.table is not None else layout.used.get(
+        (c.name, process))
     if block is None:
         sh.unavailable(f"{process}: lot components", _why_no_block(layout, c.name, process))
         return None
@@ -954,6 +1142,14 @@ def _moving_range(sh: _Sheet, ev, layout, name: str, block: Block, n: str) -> st
     if block.count < 2:
         sh.unavailable("average moving range", "fewer than 2 values")
         return None
+    if isinstance(block, _Helper):  # the helper rows are in production order
+        return sh.qty(
+            "average moving range",
+            f"SUMPRODUCT(ABS({block.ref(VALUE_COLUMN, 1, 0)}-{block.ref(VALUE_COLUMN, 0, -1)}))"
+            f"/({n}-1)",
+            None,
+            "SUMPRODUCT(ABS(x[i+1] - x[i])) / (n - 1), the values looked up in production order",
+        )
     sel, lt = _production_order(layout, ev, name, "new")
     if _same_rows(sel, lt):  # the block lists the values in production order
         a = Block(block.sheet, block.first + 1, block.last).ref(VALUE_COLUMN)
@@ -1055,7 +1251,7 @@ def _subgroup_sigma(sh: _Sheet, layout, name: str, block: Block) -> tuple[str, s
 
 def _capability(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult) -> None:
     extra: Mapping = ch.extra or {}
-    block = layout.used.get((c.name, "new"))
+    block = _used_block(sh, ev, layout, c.name, "new")
     if block is None:
         sh.unavailable("capability", _why_no_block(layout, c.name, "new"))
         return
@@ -1288,10 +1484,31 @@ def recheck_rows(evaluation: Evaluation, layout: MeasurementLayout) -> list[list
     'Quantity'
     """
     sh = _Sheet(FIRST_BODY_ROW)
+    sh.table = _sort_proof_table(layout)
+    if sh.table is None and len(layout.table):
+        sh.note(f"These formulas read fixed row ranges of the measurements sheet (more than "
+                f"{SORT_PROOF_MAX_ROWS:,} measurements, or names a lookup cannot match "
+                "exactly): sort or filter a copy of the workbook, not this one")
     for c in evaluation.characteristics:
         _characteristic(sh, evaluation, layout, c)
     _multiplicity(sh, evaluation)
-    last = sh.next_row - 1
+    body = sh.rows
+    if sh.helpers:
+        base = FIRST_BODY_ROW + len(body) + 3  # a blank row, the heading, the column names
+        body = body + [
+            [],
+            [_text(f"{HELPER_HEADING} by characteristic, process and production order (or "
+                   "pair key): the formulas above read these rows, so sorting or filtering the "
+                   "measurements table changes none of the results (grouped: expand to see)")],
+            ["Looked-up value", "Value", None, None, None, None, "Lot"],
+        ] + sh.helpers
+
+        def number(m: re.Match) -> str:
+            return str(base + int(m.group(1)))
+
+        body = [[_TOKEN.sub(number, v) if isinstance(v, str) else v for v in row]
+                for row in body]
+    last = FIRST_BODY_ROW + len(body) - 1
     head: list[list] = [
         ["Recheck: the engine's numbers recomputed by this spreadsheet's own functions"],
         [
@@ -1320,4 +1537,4 @@ def recheck_rows(evaluation: Evaluation, layout: MeasurementLayout) -> list[list
     head.append(list(COLUMNS))
     if len(head) != FIRST_BODY_ROW - 1:  # internal layout contract, not input validation
         raise RuntimeError("recheck header rows out of step with FIRST_BODY_ROW")
-    return head + sh.rows
+    return head + body

@@ -50,7 +50,7 @@ from .layout import (
     measurement_layout,
 )
 from .measurements_sheet import add_placeholders, decimals_by_characteristic
-from .recheck import recheck_rows
+from .recheck import HELPER_HEADING, recheck_rows
 from .safe_text import escape_json_for_xml, xml_safe_evaluation
 from .styles import StyleBook
 from .summary import DECISION_COLOURS, write_summary
@@ -326,6 +326,15 @@ def _write_recheck(ws, ev: Evaluation, layout: MeasurementLayout) -> None:
 
     for j, w in widths.items():
         ws.column_dimensions[get_column_letter(j)].width = max(10, w)
+    # the looked-up values the formulas read: grouped and folded, so the printed recheck stays
+    # the computation (an auditor expands the group to see every value)
+    heading = next((i for i, r in enumerate(rows, start=1) if r and isinstance(r[0], str)
+                    and r[0].startswith(HELPER_HEADING)), None)
+    if heading is not None:
+        ws.sheet_properties.outlinePr.summaryBelow = False
+        for i in range(heading + 1, len(rows) + 1):
+            ws.row_dimensions[i].outline_level = 1
+            ws.row_dimensions[i].hidden = True
     ws.freeze_panes = "A2"
     ws.page_setup.orientation = "landscape"
     ws.page_setup.fitToWidth = 1
