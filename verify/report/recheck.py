@@ -18,8 +18,9 @@ columns. Tables above :data:`SORT_PROOF_MAX_ROWS` rows (where a lookup per value
 spreadsheet crawl), or with names a criterion cannot match exactly, fall back to fixed row
 ranges of the measurements sheet, and the sheet says so.
 
-Every row has the columns of :data:`COLUMNS` (helper rows add the lot in column G). A string starting with ``"="`` is a formula; all
-other cells are values or text (no text cell starts with ``"="``).
+Every row has the columns of :data:`COLUMNS` (helper rows add the lot in column G). A string
+starting with ``"="`` is a formula; all other cells are values or text (no text cell starts with
+``"="``).
 
 Notes on the spreadsheet functions
 ----------------------------------
