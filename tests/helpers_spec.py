@@ -254,7 +254,7 @@ SPEC_CASES = [
              "exclude[0]", "reason: r", ("needs lot",)),
     SpecCase("exclusion-lot-and-row",
              BASE_SPEC + "exclude:\n  - {lot: A1, row: 3, reason: r, by: me}\n",
-             "exclude[0]", "lot: A1", ("exactly one of lot or row",)),
+             "exclude[0]", "lot: A1", ("exactly one of lot, row or part",)),
     SpecCase("exclusion-without-reason", BASE_SPEC + "exclude:\n  - {lot: A1, by: me}\n",
              "exclude[0].reason", "lot: A1", ("missing required key 'reason'",)),
     SpecCase("exclusion-header-row", BASE_SPEC + "exclude:\n  - {row: 1, reason: r, by: me}\n",

@@ -145,10 +145,11 @@ def load_measurements(spec: Spec, *, max_bytes: int | None = None) -> Measuremen
         sheet = _read_xlsx(raw, shown, ds.sheet)
     else:
         sheet = _read_text(raw, shown, tab=suffix == ".tsv")
-    table, notes, unassigned = _Tidy(spec, sheet, shown).run()
+    tidy = _Tidy(spec, sheet, shown)
+    table, notes, unassigned = tidy.run()
     info = _file_info(spec, table, sheet, raw)
     return Measurements(table=table, files=(info,), unassigned_lots=unassigned,
-                        notes=tuple(sheet.notes + notes))
+                        notes=tuple(sheet.notes + notes), trace=tidy.trace)
 
 
 def analysis_values(measurements: Measurements, spec: Spec, characteristic_name: str,
@@ -565,6 +566,7 @@ class _Tidy:
         self.notes: list[str] = []
         self.n = len(sheet.cells)
         self.unassigned: tuple[str, ...] = ()
+        self.trace: pd.DataFrame | None = None  # part, process as written, corrections, keep
 
     # helpers
     def issue(self, message: str, row: int | None = None, column: str | None = None) -> None:
@@ -601,6 +603,12 @@ class _Tidy:
         pair = self.text(cols["data.pair"]) if self.ds.pair is not None else np.full(
             self.n, "", dtype=object)
         order = self.production_order(cols, scope)
+        self.part_text = (self.text(cols["data.part"]) if self.ds.part is not None
+                          else np.full(self.n, "", dtype=object))
+        self.process_text = (self.text(cols["data.process"]) if self.ds.process is not None
+                             else None)
+        self.keep_text = {name: self.text(cols[f"keep:{i}"])
+                          for i, name in enumerate(self.ds.keep)}
         spec_reason, char_reasons = self.exclusions(lot)
         in_scope = (scope == "") & ~empty_lot
         if self.ds.pair is not None:
@@ -618,10 +626,12 @@ class _Tidy:
         for i, h in enumerate(header):
             index.setdefault(h, []).append(i)
         wanted: list[tuple[str, str]] = [("data.lot", self.ds.lot)]
-        for key in ("process", "pair", "order", "characteristic", "value"):
+        for key in ("process", "pair", "order", "characteristic", "value", "part"):
             name = getattr(self.ds, key)
             if name is not None:
                 wanted.append((f"data.{key}", name))
+        for i, name in enumerate(self.ds.keep):
+            wanted.append((f"keep:{i}", name))
         if self.ds.layout == "wide":
             for i, c in enumerate(self.spec.characteristics):
                 wanted.append((f"char:{i}", c.column))
@@ -629,7 +639,7 @@ class _Tidy:
         shown_cols = ", ".join(_show(h) for h in header if h) or "(none)"
         for role, name in wanted:
             where = (f"characteristics[{role[5:]}].column" if role.startswith("char:")
-                     else role)
+                     else f"data.keep[{role[5:]}]" if role.startswith("keep:") else role)
             hits = index.get(name, [])
             if len(hits) > 1:
                 self.issue(f"column {name!r} ({where} in the spec) appears "
@@ -754,7 +764,17 @@ class _Tidy:
         for i, e in enumerate(self.spec.exclude):
             reason = f"excluded by spec: {e.reason} (by {e.by})"
             line = f" (line {e.line})" if e.line else ""
-            if e.row is not None:
+            if e.part is not None:
+                mask = self.part_text == e.part
+                if not mask.any():
+                    parts = [x for x in dict.fromkeys(self.part_text.tolist()) if x]
+                    msg = (f"exclude[{i}]{line} names part {e.part!r}, which is not in column "
+                           f"{self.ds.part!r}")
+                    near = _near(e.part, parts)
+                    self.issue(msg + (f"; did you mean {near!r}?" if near else ""),
+                               column=self.ds.part)
+                    continue
+            elif e.row is not None:
                 mask = rows == e.row
                 if not mask.any():
                     last = int(rows.max()) if len(rows) else 1
@@ -866,6 +886,11 @@ class _Tidy:
         values, missing, bad, text = self.parse(parts, char_idx)
         names = np.array([c.name for c in chars], dtype=object)
         char_names = names[char_idx] if len(char_idx) else np.zeros(0, dtype=object)
+        if self.spec.corrections:  # corrected in place: writable copies
+            values, missing, bad = (np.array(values, dtype=float), np.array(missing, bool),
+                                    np.array(bad, bool))
+        original, corrected = self.corrections(rows, pos, char_idx, char_names, values, missing,
+                                               bad, text)
         reason = scope[pos].copy() if len(pos) else np.zeros(0, dtype=object)
         spec_r = spec_reason[pos]
         reason = np.where(reason == "", spec_r, reason)
@@ -878,6 +903,7 @@ class _Tidy:
         reason = np.where((reason == "") & missing, NOT_MEASURED, reason)
         values = np.where(bad, np.nan, values)
         self.duplicate_pairs(pos, char_names, process, pair, scope, spec_r, rows)
+        self.duplicate_parts(pos, char_names, process, reason, rows)
         self.fail_if_issues()
 
         table = pd.DataFrame({
@@ -895,14 +921,104 @@ class _Tidy:
         for col in ("source_file", "lot", "process", "pair", "characteristic",
                     "exclusion_reason"):
             table[col] = table[col].astype(str)
+        # traceability, after the model's columns (the recheck reads those by position)
+        if self.ds.part is not None:
+            table["part"] = self.part_text[pos].astype(str)
+        if self.process_text is not None:
+            table["process_value"] = self.process_text[pos].astype(str)
+        if self.spec.corrections:
+            table["original"] = original.astype(str)
+            table["correction"] = corrected.astype(str)
+            table["correction_id"] = self.correction_id  # the spec's corrections[i]
+        for name, cells in self.keep_text.items():
+            table[f"keep:{name}"] = cells[pos].astype(str)
         if self.ds.order is not None:
             table = table.assign(_c=char_idx).sort_values(["_c", "order"], kind="stable")
             table = table.drop(columns="_c")
         table = table.reset_index(drop=True)
+        extra = [c for c in table.columns if c not in MEASUREMENT_COLUMNS]
+        self.trace = table[extra] if extra else None
+        table = table[list(MEASUREMENT_COLUMNS)]
         for proc in ("old", "new"):
             if not (table["process"] == proc).any():
                 self.notes.append(f"no rows for the {proc} process yet")
         return table, self.notes, self.unassigned
+
+    def corrections(self, rows, pos, char_idx, char_names, values, missing, bad, text):
+        """Apply the spec's corrections to the parsed cells (in place); return, per
+        measurement, the original text of a corrected cell and the correction in words."""
+        original = np.full(len(pos), "", dtype=object)
+        corrected = np.full(len(pos), "", dtype=object)
+        self.correction_id = np.full(len(pos), -1, dtype=np.int64)
+        if not self.spec.corrections:
+            return original, corrected
+        chars = self.spec.characteristics
+        long = self.ds.layout == "long"
+        row_of, part_of = rows[pos], self.part_text[pos]
+        for i, k in enumerate(self.spec.corrections):
+            where = f"corrections[{i}]" + (f" (line {k.line})" if k.line else "")
+            if long:
+                if k.column != self.ds.value:
+                    self.issue(f"{where}: column {k.column!r} is not the value column "
+                               f"{self.ds.value!r} (data.value): name that column",
+                               column=k.column)
+                    continue
+                col_sel = (char_names == k.characteristic if k.characteristic is not None
+                           else np.ones(len(pos), bool))
+            else:
+                idx = [j for j, c in enumerate(chars) if c.column == k.column
+                       and (k.characteristic is None or c.name == k.characteristic)]
+                if not idx:
+                    cols = ", ".join(repr(c.column) for c in chars)
+                    self.issue(f"{where}: column {k.column!r} is no characteristic's column; "
+                               f"the measured columns are {cols}", column=k.column)
+                    continue
+                col_sel = np.isin(char_idx, idx)
+            row_sel = row_of == k.row if k.row is not None else part_of == k.part
+            hits = np.flatnonzero(row_sel & col_sel)
+            what = f"row {k.row}" if k.row is not None else f"part {k.part!r}"
+            if len(hits) == 0:
+                self.issue(f"{where} matches no measurement: {what} has no cell in column "
+                           f"{k.column!r}; check the row, the part or the column",
+                           row=k.row, column=k.column)
+                continue
+            if len(hits) > 1:
+                at = ", ".join(str(int(r)) for r in sorted(set(row_of[hits].tolist())))
+                self.issue(f"{where} matches {len(hits)} measurements ({what}, rows {at}): "
+                           "name one (row:, or characteristic: in the long layout)",
+                           row=k.row, column=k.column)
+                continue
+            j = int(hits[0])
+            original[j] = str(text[j])
+            values[j] = k.value
+            missing[j] = False
+            bad[j] = False  # a corrected cell is not checked as written
+            corrected[j] = f"corrected to {k.value:g}: {k.reason} (by {k.by})"
+            self.correction_id[j] = i
+        return original, corrected
+
+    def duplicate_parts(self, pos, char_names, process, reason, rows) -> None:
+        """A part measured twice for one characteristic in one process, both used."""
+        if self.ds.part is None or not len(pos):
+            return
+        frame = pd.DataFrame({"c": char_names, "p": process[pos], "k": self.part_text[pos],
+                              "r": rows[pos]})
+        live = (reason == "") & (frame["k"] != "").to_numpy()
+        frame = frame[live]
+        dup = frame[frame.duplicated(["c", "p", "k"], keep=False)]
+        if dup.empty:
+            return
+        groups = dup.groupby(["c", "p", "k"], sort=False)
+        for n, ((char, proc, part), g) in enumerate(groups):
+            if n == MAX_REPORTED:
+                self.issue(f"and {groups.ngroups - MAX_REPORTED} more parts measured twice",
+                           column=self.ds.part)
+                break
+            rs = sorted(set(g["r"].tolist()))
+            self.issue(f"part {part!r} is measured more than once for {char} in the {proc} "
+                       f"process (rows {', '.join(str(r) for r in rs)}): exclude all but one "
+                       "(exclude: with row: or part:, and the reason) or correct the part "
+                       "serial", row=rs[0], column=self.ds.part)
 
     def bad_cell_issues(self, mask, rows, char_idx, text, values) -> None:
         chars = self.spec.characteristics

@@ -56,6 +56,10 @@ class Measurements:
     files: tuple[DataFileInfo, ...]
     unassigned_lots: tuple[str, ...] = ()  # lots matching neither lots.old nor lots.new
     notes: tuple[str, ...] = ()  # e.g. "read as Latin-1 (not UTF-8)"
+    # traceability beside ``table`` (same rows, same index): "part", "process_value" (the
+    # process as written in the data), "original" and "correction" (corrected cells) and
+    # "keep:<column>" (data.keep); None when the spec asks for none of them
+    trace: pd.DataFrame | None = None
 
     def values(self, characteristic: str, process: str):
         """Used values of one characteristic and process, in production order (numpy array)."""

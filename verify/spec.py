@@ -41,6 +41,7 @@ from .spec_model import (
     CapabilityCheck,
     Characteristic,
     Checks,
+    Correction,
     DataSpec,
     Exclusion,
     LotLists,
@@ -335,6 +336,7 @@ class _Checker:
                 if isinstance(c, dict):
                     self.check_characteristic(spec, data, c, f"characteristics[{i}]", names)
         self.check_exclusions(spec, names)
+        self.check_corrections(spec, names)
 
     def check_data(self, spec: dict, data: dict) -> None:
         has = {k: k in data for k in ("process", "old", "new")}
@@ -501,10 +503,15 @@ class _Checker:
             if not isinstance(e, dict):
                 continue
             p = f"exclude[{i}]"
-            has_lot, has_row = "lot" in e, "row" in e
-            if has_lot == has_row and self.doc.clean(f"{p}.lot") and self.doc.clean(f"{p}.row"):
-                self.add(p, "an exclusion names exactly one of lot or row" if has_lot
-                         else "an exclusion needs lot: <lot id> or row: <source row number>")
+            has_lot, has_row, has_part = "lot" in e, "row" in e, "part" in e
+            named = has_lot + has_row + has_part
+            if named != 1 and self.doc.clean(f"{p}.lot") and self.doc.clean(f"{p}.row"):
+                self.add(p, "an exclusion names exactly one of lot, row or part" if named
+                         else "an exclusion needs lot: <lot id>, row: <source row number> or "
+                         "part: <part serial>")
+            if has_part and not _has_part(spec):
+                self.add(f"{p}.part", "an exclusion by part needs data.part (the column "
+                         "holding the part serial)")
             if "characteristic" in e and self.doc.clean(f"{p}.characteristic") and names:
                 if e["characteristic"] not in names:
                     self.add(f"{p}.characteristic", f"no characteristic named "
@@ -514,6 +521,32 @@ class _Checker:
                 if key in rows and "characteristic" not in e:
                     self.add(f"{p}.row", f"row {key} is already excluded by exclude[{rows[key]}]")
                 rows.setdefault(key, i)
+
+
+    def check_corrections(self, spec: dict, names: dict) -> None:
+        items = spec.get("corrections")
+        if not isinstance(items, list):
+            return
+        for i, e in enumerate(items):
+            if not isinstance(e, dict):
+                continue
+            p = f"corrections[{i}]"
+            has_row, has_part = "row" in e, "part" in e
+            if has_row == has_part:
+                self.add(p, "a correction names exactly one of row or part" if has_row
+                         else "a correction needs row: <source row number> or part: <part "
+                         "serial>")
+            if has_part and not _has_part(spec):
+                self.add(f"{p}.part", "a correction by part needs data.part (the column "
+                         "holding the part serial)")
+            if "characteristic" in e and names and e["characteristic"] not in names:
+                self.add(f"{p}.characteristic", f"no characteristic named "
+                         f"{e['characteristic']!r}; the names are {', '.join(names)}")
+
+
+def _has_part(spec: dict) -> bool:
+    data = spec.get("data")
+    return isinstance(data, dict) and isinstance(data.get("part"), str)
 
 
 class _Unknown:
@@ -568,12 +601,25 @@ def _build(path: Path, text: str, doc: Document,
     for i, e in enumerate(v.get("exclude", [])):
         p = f"exclude[{i}]"
         lot = _text(e["lot"], doc, f"{p}.lot") if "lot" in e else None
+        part = _text(e["part"], doc, f"{p}.part") if "part" in e else None
         exclusions.append(Exclusion(reason=e["reason"], by=e["by"], lot=lot, row=e.get("row"),
                                     characteristic=e.get("characteristic"),
-                                    line=doc.where(p)[0]))
-        for k in ("lot", "row", "characteristic", "reason", "by"):
+                                    line=doc.where(p)[0], part=part))
+        for k in ("lot", "row", "part", "characteristic", "reason", "by"):
             if k in e:
-                rec(f"{p}.{k}", lot if k == "lot" else e[k])
+                rec(f"{p}.{k}", lot if k == "lot" else part if k == "part" else e[k])
+
+    corrections = []
+    for i, e in enumerate(v.get("corrections", [])):
+        p = f"corrections[{i}]"
+        part = _text(e["part"], doc, f"{p}.part") if "part" in e else None
+        corrections.append(Correction(
+            column=e["column"], value=float(e["value"]), reason=e["reason"], by=e["by"],
+            row=e.get("row"), part=part, characteristic=e.get("characteristic"),
+            line=doc.where(p)[0]))
+        for k in ("row", "part", "column", "characteristic", "value", "reason", "by"):
+            if k in e:
+                rec(f"{p}.{k}", part if k == "part" else e[k])
 
     plan_v = v.get("plan", {})
     plan = PlanSettings(power=float(plan_v.get("power", 0.9)),
@@ -605,7 +651,8 @@ def _build(path: Path, text: str, doc: Document,
         change_id=_text(v["change_id"], doc, "change_id") if "change_id" in v else None,
         alpha=alpha, lots=lots, unit_of_analysis=unit, min_n=min_n, min_n_old=min_n_old,
         multiplicity=multiplicity,
-        exclude=tuple(exclusions), plan=plan, supersedes_reason=supersedes,
+        exclude=tuple(exclusions), corrections=tuple(corrections), plan=plan,
+        supersedes_reason=supersedes,
         resolved=tuple(resolved), characteristics_table=table,
     )
 
@@ -634,11 +681,17 @@ def _build_data(spec_path: Path, d: dict, doc: Document, rec) -> DataSpec:
     rec("data.missing", list(missing))
     ignore_other = bool(d.get("ignore_other", False))
     rec("data.ignore_other", ignore_other)
+    if "part" in d:
+        rec("data.part", d["part"])
+    keep = tuple(d.get("keep", ()))
+    if keep:
+        rec("data.keep", list(keep))
     return DataSpec(
         file=file, file_text=file_text, lot=d["lot"], sheet=d.get("sheet"),
         process=d.get("process"), old=old, new=new, pair=d.get("pair"),
         characteristic=d.get("characteristic"), value=d.get("value"), order=d.get("order"),
-        decimal=decimal, missing=missing, ignore_other=ignore_other,
+        decimal=decimal, missing=missing, ignore_other=ignore_other, part=d.get("part"),
+        keep=keep,
     )
 
 

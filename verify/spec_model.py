@@ -125,6 +125,8 @@ class DataSpec:
     decimal: str = "."
     missing: tuple[str, ...] = ("", "NA")
     ignore_other: bool = False
+    part: str | None = None  # the part-serial column (traceability, duplicates, by-part keys)
+    keep: tuple[str, ...] = ()  # extra columns carried to the sheet and the JSON
 
     @property
     def layout(self) -> str:
@@ -145,6 +147,21 @@ class Exclusion:
     row: int | None = None
     line: int | None = None  # line in the spec, for messages
     characteristic: str | None = None  # only this characteristic's measurements; None: all
+    part: str | None = None  # a part serial (data.part)
+
+
+@dataclass(frozen=True)
+class Correction:
+    """One corrected data cell: the file is untouched; the original text stays on record."""
+
+    column: str
+    value: float
+    reason: str
+    by: str
+    row: int | None = None
+    part: str | None = None
+    characteristic: str | None = None  # long layout with part: which measurement of the part
+    line: int | None = None  # line in the spec, for messages
 
 
 @dataclass(frozen=True)
@@ -173,6 +190,7 @@ class Spec:
     min_n_old: int | None = None  # per-process plan {old, new}; None: the old plan is min_n
     multiplicity: str = "none"
     exclude: tuple[Exclusion, ...] = ()
+    corrections: tuple[Correction, ...] = ()
     plan: PlanSettings = field(default_factory=PlanSettings)
     supersedes_reason: str | None = None
     # key path -> (value, came_from_default); for the workbook's and the audit's parameter list

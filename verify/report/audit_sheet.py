@@ -143,13 +143,42 @@ def write_audit(ws, ev: Evaluation) -> None:
         row += 1
 
     row += 1
+    section(ws, row, "Corrections declared in the spec (the data file is untouched)")
+    row += 1
+    from .json_result import corrections
+
+    fixes = corrections(ev)
+    if fixes:
+        header_row(ws, row, 1, ["Source row / part", "Characteristic (column)", "Original text",
+                                "Corrected to", "Reason", "By"])
+        row += 1
+        for k in fixes:
+            where = f"row {k['source_row']}" + (f", part {k['part']}" if k["part"] else "")
+            for j, v in enumerate((where, f"{k['characteristic']} ({k['column']})",
+                                   k["original"], k["value"], k["reason"], k["by"]), start=1):
+                put(ws, row, j, v, align=WRAP)
+            row += 1
+    else:
+        put(ws, row, 1, "None.", font=NOTE_FONT)
+        row += 1
+    trace = ev.spec.data
+    if trace.part is not None or trace.keep:
+        row += 1
+        section(ws, row, "Traceability")
+        row = _pairs(ws, row + 1, (
+            ("Part column (data.part)", trace.part or "(none)"),
+            ("Kept columns (data.keep)", ", ".join(trace.keep) or "(none)"),
+            ("Where", "on the Measurements sheet, beside each measurement"),
+        ))
+
+    row += 1
     section(ws, row, "Exclusions declared in the spec")
     row += 1
     if ev.spec.exclude:
-        header_row(ws, row, 1, ["Reason", "By", "Lot", "Row", "Spec line"])
+        header_row(ws, row, 1, ["Reason", "By", "Lot", "Row", "Spec line", "Part"])
         row += 1
         for e in ev.spec.exclude:
-            for j, v in enumerate((e.reason, e.by, e.lot, e.row, e.line), start=1):
+            for j, v in enumerate((e.reason, e.by, e.lot, e.row, e.line, e.part), start=1):
                 put(ws, row, j, v, align=WRAP)
             row += 1
     else:

@@ -118,6 +118,50 @@ def _table(table) -> dict:
                                      "sheet": table.sheet}}
 
 
+MAX_KEPT_VALUES = 200  # distinct values listed per kept column and process
+
+
+def corrections(ev: Evaluation) -> list[dict]:
+    """Every corrected cell: where, the original text, the value used, reason and name."""
+    trace = ev.measurements.trace
+    if trace is None or "correction" not in trace:
+        return []
+    t = ev.measurements.table
+    out = []
+    for i in trace.index[trace["correction"] != ""]:
+        k = ev.spec.corrections[int(trace.at[i, "correction_id"])]
+        out.append({
+            "source_file": t.at[i, "source_file"], "source_row": int(t.at[i, "source_row"]),
+            "part": trace.at[i, "part"] if "part" in trace else None,
+            "characteristic": t.at[i, "characteristic"], "column": k.column,
+            "original": trace.at[i, "original"], "value": float(t.at[i, "value"]),
+            "reason": k.reason, "by": k.by,
+        })
+    return out
+
+
+def traceability(ev: Evaluation) -> dict | None:
+    """The part column and the kept columns, with the distinct values per process."""
+    trace, ds = ev.measurements.trace, ev.spec.data
+    if trace is None or (ds.part is None and not ds.keep):
+        return None
+    t = ev.measurements.table
+    used = ~t["excluded"].to_numpy(dtype=bool)
+    doc: dict = {"part": ds.part, "keep": {}}
+    if ds.part is not None and "part" in trace:
+        doc["parts"] = {p: int(trace.loc[used & (t["process"] == p).to_numpy(), "part"]
+                               .nunique()) for p in ("old", "new")}
+    for col in ds.keep:
+        key = f"keep:{col}"
+        if key not in trace:
+            continue
+        doc["keep"][col] = {
+            p: [str(v) for v in dict.fromkeys(
+                trace.loc[used & (t["process"] == p).to_numpy(), key])][:MAX_KEPT_VALUES]
+            for p in ("old", "new")}
+    return doc
+
+
 def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
     """The JSON result as a dict. ``workbook`` adds {path, sha256} of the workbook written."""
     spec = ev.spec
@@ -157,6 +201,8 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
         "snapshots": None if ev.snapshots is None else {
             "kept": ev.snapshots.kept, "folder": ev.snapshots.folder,
             "note": ev.snapshots.note},
+        "corrections": corrections(ev),
+        "traceability": traceability(ev),
         "unassigned_lots": list(ev.measurements.unassigned_lots),
         "data_notes": list(ev.measurements.notes),
         "tool": {"name": "verify", "version": run.tool_version, "git_commit": run.git_commit},

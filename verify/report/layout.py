@@ -39,8 +39,30 @@ MEASUREMENT_HEADERS = (
     ("source_row", "Source row"),
     ("order", "Production order"),
 )
+# Traceability columns after those (when the spec asks for them), then data.keep's columns.
+TRACE_HEADERS = (
+    ("part", "Part"),
+    ("process_value", "Process in the data"),
+    ("original", "Original text"),
+    ("correction", "Correction (reason, by)"),
+)
 VALUE_COLUMN = "E"  # the column letter of "Value" in MEASUREMENT_HEADERS
 LOT_COLUMN = "C"
+
+
+def measurement_headers(table: pd.DataFrame) -> tuple[tuple[str, str], ...]:
+    """The measurements sheet's columns for this table: the fixed ones, then traceability."""
+    out = list(MEASUREMENT_HEADERS)
+    out += [(k, label) for k, label in TRACE_HEADERS if k in table.columns]
+    taken = {label.casefold() for _, label in out}
+    for col in table.columns:
+        if str(col).startswith("keep:"):
+            label = str(col)[5:]
+            if label.casefold() in taken:  # an Excel table needs distinct column names
+                label += " (kept)"
+            taken.add(label.casefold())
+            out.append((str(col), label))
+    return tuple(out)
 
 
 @dataclass(frozen=True)
@@ -79,6 +101,9 @@ def measurement_layout(evaluation: Evaluation, *, rows_per_sheet: int = EXCEL_MA
     table continues on ``Measurements (2)`` and so on, never silently cut.
     """
     t = evaluation.measurements.table.copy()
+    trace = getattr(evaluation.measurements, "trace", None)
+    if trace is not None:  # part, process as written, corrections, kept columns
+        t = t.join(trace)
     t["used"] = ~t["excluded"].astype(bool)
     char_rank = {c.name: i for i, c in enumerate(evaluation.spec.characteristics)}
     proc_rank = {"old": 0, "new": 1}

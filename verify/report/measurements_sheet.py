@@ -21,7 +21,7 @@ from openpyxl.worksheet.filters import AutoFilter
 from openpyxl.worksheet.table import Table, TableColumn, TableStyleInfo
 
 from .cells import MUTED, NOTE_FONT, clean_text, fixed, put, resolution_decimals
-from .layout import MEASUREMENT_HEADERS, MeasurementLayout
+from .layout import MEASUREMENT_HEADERS, MeasurementLayout, measurement_headers
 from .styles import StyleBook
 from .xlsx_fast import StreamedSheet, t_element
 
@@ -36,6 +36,10 @@ _WIDTHS = {
     "source_file": 30,
     "source_row": 10,
     "order": 11,
+    "part": 14,
+    "process_value": 16,
+    "original": 12,
+    "correction": 40,
 }
 NOTE_COLUMN = len(MEASUREMENT_HEADERS) + 2  # one empty column after the table
 CHUNK_ROWS = 20_000
@@ -64,8 +68,10 @@ def continuation_note(layout: MeasurementLayout, sheet: str) -> str | None:
 
 def add_placeholders(wb, layout: MeasurementLayout, styles: StyleBook) -> list[StreamedSheet]:
     """Create the measurements sheet(s) with header, table and filter; return what to stream."""
-    headers = [label for _key, label in MEASUREMENT_HEADERS]
+    columns = measurement_headers(layout.table)
+    headers = [label for _key, label in columns]
     ncols = len(headers)
+    note_column = ncols + 2
     last_col = get_column_letter(ncols)
     streamed = []
     decimals = decimals_by_characteristic(layout.table)
@@ -82,7 +88,7 @@ def add_placeholders(wb, layout: MeasurementLayout, styles: StyleBook) -> list[S
         n = len(rows)
         for j, label in enumerate(headers, start=1):
             put(ws, 1, j, label, font=Font(bold=True))
-        for j, (key, _label) in enumerate(MEASUREMENT_HEADERS, start=1):
+        for j, (key, _label) in enumerate(columns, start=1):
             ws.column_dimensions[get_column_letter(j)].width = _WIDTHS.get(key, 12)
         ws.freeze_panes = "A2"
         ws.print_title_rows = "1:1"  # the header on every printed page
@@ -105,15 +111,15 @@ def add_placeholders(wb, layout: MeasurementLayout, styles: StyleBook) -> list[S
         note = continuation_note(layout, title)
         dim_col = last_col
         if note:
-            put(ws, 1, NOTE_COLUMN, note, font=NOTE_FONT)
-            ws.column_dimensions[get_column_letter(NOTE_COLUMN)].width = 60
-            dim_col = get_column_letter(NOTE_COLUMN)
+            put(ws, 1, note_column, note, font=NOTE_FONT)
+            ws.column_dimensions[get_column_letter(note_column)].width = 60
+            dim_col = get_column_letter(note_column)
         if n == 0:
             put(ws, 3, 1, "No measurements were read.", font=NOTE_FONT)
         streamed.append(
             StreamedSheet(
                 title=title,
-                rows=_row_generator(rows, styles, decimals),
+                rows=_row_generator(rows, styles, decimals, columns),
                 dimension=f"A1:{dim_col}{last_row}",
             )
         )
@@ -154,13 +160,14 @@ def _s(style: int) -> str:
     return f' s="{style}"' if style else ""
 
 
-def _row_generator(rows: pd.DataFrame, styles: StyleBook, decimals: dict):
+def _row_generator(rows: pd.DataFrame, styles: StyleBook, decimals: dict,
+                   columns=MEASUREMENT_HEADERS):
     """A callable yielding the sheet's data rows as XML chunks (row 2 onwards).
 
     Every row carries all columns; an empty value is an empty cell element (``<c r="D7"/>``),
     so one template formats a whole row.
     """
-    keys = [k for k, _ in MEASUREMENT_HEADERS]
+    keys = [k for k, _ in columns]
     letters = [get_column_letter(j) for j in range(1, len(keys) + 1)]
     template = (
         '<row r="{0}">'
