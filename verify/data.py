@@ -898,7 +898,7 @@ class _Tidy:
             reason = np.where(sel & (reason == ""), r, reason)
         checkable = (reason == "") & (lot[pos] != "")
         bad = self.pass_fail_cells(checkable, pos, char_idx, values, missing, bad, text, rows,
-                                   lot)
+                                   lot, process)
         self.bad_cell_issues(checkable & bad, rows[pos], char_idx, text, values)
         reason = np.where((reason == "") & missing, NOT_MEASURED, reason)
         values = np.where(bad, np.nan, values)
@@ -930,7 +930,7 @@ class _Tidy:
         return table, self.notes, self.unassigned
 
     def pass_fail_cells(self, checkable, pos, char_idx, values, missing, bad, text, rows,
-                        lot) -> np.ndarray:
+                        lot, process) -> np.ndarray:
         """Pass-fail characteristics: per-part results become 1.0 (failed) or 0.0 (passed);
         per-lot counts must be whole numbers with failed <= inspected, both given or both
         missing, one row per lot. Reports their problems; returns ``bad`` without their cells
@@ -992,14 +992,14 @@ class _Tidy:
                     f"{_show(x)} failed is more than the parts inspected in that lot "
                     f"({c.name}): correct the counts"), src[fsel], text[fsel])
             live = both & ~f_miss & ~i_miss
-            seen: dict[str, int] = {}
+            seen: dict[tuple, int] = {}
             for j in np.flatnonzero(live):
-                key = lot[pos[fsel[j]]]
+                key = (lot[pos[fsel[j]]], process[pos[fsel[j]]])
                 if key in seen:
-                    self.issue(f"lot {_show(key)} has more than one row of counts for {c.name} "
-                               f"(rows {seen[key]} and {int(src[fsel[j]])}): give one row per "
-                               "lot, or exclude one", row=int(src[fsel[j]]),
-                               column=failed_col)
+                    self.issue(f"lot {_show(key[0])} has more than one row of counts for "
+                               f"{c.name} (rows {seen[key]} and {int(src[fsel[j]])}): give "
+                               "one row per lot (and process), or exclude one",
+                               row=int(src[fsel[j]]), column=failed_col)
                 else:
                     seen[key] = int(src[fsel[j]])
         return bad
