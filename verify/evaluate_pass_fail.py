@@ -221,7 +221,7 @@ def _power_note(conf, old: Counts, new: Counts, alpha: float, spec: Spec) -> str
     except ValueError as err:
         return f"no power figure: {err}"
     return (f"the plan asks for {plan.n} parts per process for power {spec.plan.power:g} at "
-            f"the old rate {decide.pct(p_old)} (normal approximation)")
+            f"the old rate {decide.pct(p_old)} (exact power of this rule)")
 
 
 def diagnostics(spec: Spec, ch: Characteristic, new: Counts, old: Counts

@@ -6,10 +6,11 @@ Two questions, one per rate check:
   smallest n such that K or fewer failures among n parts demonstrate a failure rate of at most
   P with confidence C (the exact binomial bound; K = 0 is the success-run formula
   n = ln(1 - C) / ln(1 - P), common practice);
-* ``rate_shift``: parts per process for the stated power, from the normal approximation at the
-  old process's rate (from the data, or ``--rate-old``): with a margin, to show the increase
-  below it when the rates are equal; without one, to detect an increase of ``detect``
-  (the check's ``detect:`` key or ``--rate-detect``).
+* ``rate_shift``: parts per process for the stated power of the check's own rule (exact, by
+  enumerating the binomial outcomes) at the old process's rate (from the data, or
+  ``--rate-old``): with a margin, to show the increase below it when the rates are equal;
+  without one, to detect an increase of ``detect`` (the check's ``detect:`` key or
+  ``--rate-detect``).
 
 Self-contained so that a registry of check kinds can take it as it is; :mod:`verify.plan`
 calls it where a spec has pass-fail characteristics or the command line asks for a rate.
@@ -111,7 +112,8 @@ def shift_row(characteristic: str, *, rate_old: float, source: str, alpha: float
            f"an increase of {_points(detect)} detected with power {power:g}")
     return RatePlanRow(
         characteristic=characteristic, check="rate_shift", requirement=req, n=p.n,
-        proof=f"approximate power at n: {p.power_at_n:.3f}",
+        proof=(f"exact power at n: {p.power_at_n:.3f}" + (
+            "" if p.power_below is None else f"; at n - 1: {p.power_below:.3f}")),
         basis=f"old rate {_pct(rate_old)} ({source}); alpha {alpha:g}; {p.method}",
         n_planned=n_planned,
     )
@@ -202,9 +204,9 @@ def write_rate_plan_sheet(ws, rows, title: str) -> None:
                                row.n_planned, row.proof, row.basis], start=1):
             put(ws, r, j, v, align=WRAP if j in (3, 6, 7) else Alignment(vertical="top"))
         r += 1
-    put(ws, r + 1, 1, "These numbers size the trial; they decide nothing. The rate plan is "
-        "exact; the rate_shift plan is a normal approximation and the exact tests are somewhat "
-        "conservative, so treat it as a lower guide.", font=NOTE_FONT)
+    put(ws, r + 1, 1, "These numbers size the trial; they decide nothing. Both plans are "
+        "exact for the assumed rates; a trial sized on an old rate that turns out higher "
+        "falls short of its power.", font=NOTE_FONT)
     for col, w in zip("ABCDEFG", (22, 12, 40, 13, 13, 44, 50), strict=True):
         ws.column_dimensions[col].width = w
     ws.page_setup.orientation = "landscape"

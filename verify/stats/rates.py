@@ -468,19 +468,23 @@ def demonstration_n(max_rate: float, confidence: float, allowed_failures: int = 
 
 @dataclass(frozen=True)
 class ShiftPlan:
-    """Parts per process for a rate_shift check to reach ``power`` (normal approximation).
+    """Parts per process for a rate_shift check to reach ``power`` (equal sizes).
 
     Attributes
     ----------
     n : int
-        Parts per process (equal sizes).
+        Parts per process: the smallest at which the exact power of the check's own rule
+        reaches ``power`` (searched upwards from the normal approximation).
     power : float
-        Target power; ``power_at_n`` is the approximate power reached at n.
+        Target power.
+    power_at_n, power_below : float
+        The exact power at n and at n - 1 (below the target, or None when n is 2).
     rate_old, rate_new : float
         The assumed true rates.
     margin : float | None
-        With a margin: non-inferiority p_new - p_old < margin at one-sided alpha. Without:
-        the one-sided test detects rate_new > rate_old.
+        With a margin: the rule "upper end of the (1 - 2 alpha) Newcombe interval below the
+        margin". Without: the rule "one-sided Fisher exact p below alpha", detecting
+        rate_new > rate_old.
     alpha : float
     method : str
     """
@@ -488,6 +492,7 @@ class ShiftPlan:
     n: int
     power: float
     power_at_n: float
+    power_below: float | None
     rate_old: float
     rate_new: float
     margin: float | None
@@ -495,28 +500,73 @@ class ShiftPlan:
     method: str
 
 
-def _shift_power(n: int, p_old: float, p_new: float, margin: float | None, alpha: float
-                 ) -> float:
-    za = float(special.ndtri(1 - alpha))
-    sd = math.sqrt((p_new * (1 - p_new) + p_old * (1 - p_old)) / n)
+def _support(n: int, p: float) -> np.ndarray:
+    """Failure counts carrying all but about 1e-12 of the Binomial(n, p) probability."""
+    from scipy import stats
+
+    lo, hi = stats.binom.ppf([1e-13, 1 - 1e-13], n, p)
+    return np.arange(int(max(0, lo)), int(min(n, hi)) + 1)
+
+
+def _wilson_vec(x: np.ndarray, n: int, z: float) -> tuple[np.ndarray, np.ndarray]:
+    p = x / n
+    centre = 2 * n * p + z * z
+    half = z * np.sqrt(z * z + 4 * n * p * (1 - p))
+    den = 2 * (n + z * z)
+    return np.maximum(0.0, (centre - half) / den), np.minimum(1.0, (centre + half) / den)
+
+
+def rate_shift_power(n: int, *, rate_old: float, rate_new: float, alpha: float,
+                     margin: float | None) -> float:
+    """The exact power of the rate_shift rule with n parts per process, by enumerating the
+    binomial outcomes of both processes (tails beyond about 1e-12 left out).
+
+    With a margin the rule is PASS when the upper end of the (1 - 2 alpha) Newcombe interval
+    lies below the margin; without, HOLD when Fisher's one-sided exact p is below alpha (the
+    power is then the chance of that HOLD when the new rate is higher).
+    """
+    from scipy import stats
+
+    x1 = _support(n, rate_new)
+    x0 = _support(n, rate_old)
+    w1 = stats.binom.pmf(x1, n, rate_new)
+    w0 = stats.binom.pmf(x0, n, rate_old)
+    a, b = np.meshgrid(x1, x0, indexing="ij")
     if margin is not None:
-        # non-inferiority: reject when the upper bound d + z sd < margin
-        return float(special.ndtr((margin - (p_new - p_old)) / sd - za))
-    pbar = (p_new + p_old) / 2
-    sd0 = math.sqrt(2 * pbar * (1 - pbar) / n)
-    return float(special.ndtr(((p_new - p_old) - za * sd0) / sd))
+        z = float(special.ndtri(1 - alpha))
+        l1, u1 = _wilson_vec(x1.astype(float), n, z)
+        l0, u0 = _wilson_vec(x0.astype(float), n, z)
+        p1, p0 = x1 / n, x0 / n
+        high = (p1[:, None] - p0[None, :]) + np.sqrt(
+            (u1 - p1)[:, None] ** 2 + (p0 - l0)[None, :] ** 2)
+        hit = high < margin
+    else:
+        pv = stats.hypergeom.sf(a - 1, 2 * n, a + b, n)
+        hit = pv < alpha
+    return float(min(1.0, (w1[:, None] * w0[None, :] * hit).sum()))
+
+
+def _approx_n(p0: float, p1: float, alpha: float, power: float, margin: float | None) -> float:
+    za, zb = float(special.ndtri(1 - alpha)), float(special.ndtri(power))
+    if margin is not None:
+        return (za + zb) ** 2 * (p1 * (1 - p1) + p0 * (1 - p0)) / (margin - (p1 - p0)) ** 2
+    pbar = (p1 + p0) / 2
+    return (za * math.sqrt(2 * pbar * (1 - pbar))
+            + zb * math.sqrt(p1 * (1 - p1) + p0 * (1 - p0))) ** 2 / (p1 - p0) ** 2
 
 
 def rate_shift_n(rate_old: float, *, alpha: float, power: float, margin: float | None = None,
-                 rate_new: float | None = None) -> ShiftPlan:
-    """Parts per process for a rate_shift check (normal approximation, equal sizes).
+                 rate_new: float | None = None, max_n: int = 200_000) -> ShiftPlan:
+    """Parts per process for a rate_shift check to reach ``power`` (equal sizes).
 
-    With a margin (non-inferiority of p_new - p_old below the margin, at one-sided alpha; the
-    assumed true rate_new defaults to rate_old): n = (z_a + z_b)^2 (p1 q1 + p0 q0) /
-    (margin - (p1 - p0))^2. Without a margin, the n at which the one-sided test detects
-    rate_new > rate_old: n = (z_a sqrt(2 pbar qbar) + z_b sqrt(p1 q1 + p0 q0))^2 / (p1 - p0)^2
-    (Fleiss, Levin & Paik 2003, ch. 4, without continuity correction; cited from memory).
-    The exact tests are somewhat conservative, so treat n as a lower guide.
+    The search starts from the normal approximation (with a margin: n = (z_a + z_b)^2
+    (p1 q1 + p0 q0) / (margin - (p1 - p0))^2; without: Fleiss' form (z_a sqrt(2 pbar qbar)
+    + z_b sqrt(p1 q1 + p0 q0))^2 / (p1 - p0)^2, Fleiss, Levin & Paik 2003, ch. 4, cited from
+    memory) and steps to the smallest n whose exact power (:func:`rate_shift_power`) reaches
+    the target: the approximation is optimistic for small rates, whose score intervals are
+    wider than the normal one. Because the binomial is discrete, the power is not quite
+    monotone in n; the n found is the first of a run that reaches the target from below.
+    The assumed true new rate defaults to the old one (with a margin).
     """
     for v, what in ((rate_old, "the old rate"), (alpha, "alpha"), (power, "power")):
         if not 0 < v < 1:
@@ -525,21 +575,38 @@ def rate_shift_n(rate_old: float, *, alpha: float, power: float, margin: float |
     p1 = rate_old if rate_new is None else rate_new
     if not 0 <= p1 < 1:
         raise ValueError(f"the new rate must lie in [0, 1), not {p1}")
-    za, zb = float(special.ndtri(1 - alpha)), float(special.ndtri(power))
     if margin is not None:
-        gap = margin - (p1 - p0)
-        if not gap > 0:
+        if not margin - (p1 - p0) > 0:
             raise ValueError("the assumed true difference is not below the margin: no n "
                              "can show it")
-        raw = (za + zb) ** 2 * (p1 * (1 - p1) + p0 * (1 - p0)) / gap ** 2
-        method = "non-inferiority of the rate difference (normal approximation)"
+        method = ("exact power of the Newcombe-interval rule by enumeration, searched from "
+                  "the normal approximation")
     else:
         if not p1 > p0:
             raise ValueError("without a margin give a new rate above the old one to detect")
-        pbar = (p1 + p0) / 2
-        raw = (za * math.sqrt(2 * pbar * (1 - pbar))
-               + zb * math.sqrt(p1 * (1 - p1) + p0 * (1 - p0))) ** 2 / (p1 - p0) ** 2
-        method = "one-sided test of a higher new rate (normal approximation)"
-    n = max(2, int(math.ceil(raw - 1e-9)))
-    return ShiftPlan(n=n, power=power, power_at_n=_shift_power(n, p0, p1, margin, alpha),
-                     rate_old=p0, rate_new=p1, margin=margin, alpha=alpha, method=method)
+        method = ("exact power of Fisher's one-sided test by enumeration, searched from the "
+                  "normal approximation")
+
+    def pw(n: int) -> float:
+        return rate_shift_power(n, rate_old=p0, rate_new=p1, alpha=alpha, margin=margin)
+
+    lo = max(2, int(math.ceil(_approx_n(p0, p1, alpha, power, margin) * 0.7)))
+    if pw(lo) >= power:  # the approximation was pessimistic: walk down to the first n
+        hi = lo
+        lo = 1
+    else:
+        hi = lo
+        while pw(hi) < power:
+            lo, hi = hi, int(hi * 1.3) + 1
+            if hi > max_n:
+                raise ValueError(f"no n up to {max_n} per process reaches power {power:g}")
+    while hi - lo > 1:  # bisection between a failing lo and a reaching hi
+        mid = (lo + hi) // 2
+        if pw(mid) >= power:
+            hi = mid
+        else:
+            lo = mid
+    n = max(2, hi)
+    return ShiftPlan(n=n, power=power, power_at_n=pw(n),
+                     power_below=pw(n - 1) if n > 2 else None, rate_old=p0, rate_new=p1,
+                     margin=margin, alpha=alpha, method=method)
