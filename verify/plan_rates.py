@@ -112,8 +112,8 @@ def shift_row(characteristic: str, *, rate_old: float, source: str, alpha: float
            f"an increase of {_points(detect)} detected with power {power:g}")
     return RatePlanRow(
         characteristic=characteristic, check="rate_shift", requirement=req, n=p.n,
-        proof=(f"exact power at n: {p.power_at_n:.3f}" + (
-            "" if p.power_below is None else f"; at n - 1: {p.power_below:.3f}")),
+        proof=(f"exact power at n: {p.power_at_n:.4f}" + (
+            "" if p.power_below is None else f"; at n - 1: {p.power_below:.4f}")),
         basis=f"old rate {_pct(rate_old)} ({source}); alpha {alpha:g}; {p.method}",
         n_planned=n_planned,
     )
