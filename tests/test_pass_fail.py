@@ -219,7 +219,8 @@ def test_diagnostics_flag_zero_failures_and_lot_differences(tmp_path):
 
 
 def test_rules_in_words_include_the_rate_rules():
-    words = decide.rules_in_words(0.05, "holm")
+    words = decide.rules_in_words(0.05, "holm", pass_fail=True)
+    assert len(words) == len(decide.rules_in_words(0.05, "holm")) + 2
     assert any(w.startswith("Rate (pass-fail)") for w in words)
     assert any(w.startswith("Rate shift (pass-fail)") for w in words)
     v = decide.RATE.decide(failures=0, inspected=59, upper=0.0495, max_rate=0.05,

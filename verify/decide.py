@@ -412,8 +412,11 @@ MULTIPLICITY = MultiplicityRule()
 COMBINATION = CombinationRule()
 
 
-def rules_in_words(alpha: float, multiplicity: str) -> tuple[str, ...]:
-    """Every rule's sentence, in the order the workbook prints them."""
+def rules_in_words(alpha: float, multiplicity: str, *, pass_fail: bool = False
+                   ) -> tuple[str, ...]:
+    """Every rule's sentence, in the order the workbook prints them; the pass-fail rules
+    (rate, rate shift) only where the spec has a pass-fail characteristic."""
+    rates = (RATE.describe(alpha), RATE_SHIFT.describe(alpha)) if pass_fail else ()
     return (
         TARGET_MARGIN.describe(alpha),
         TARGET_DIFFERENCE.describe(alpha),
@@ -421,8 +424,7 @@ def rules_in_words(alpha: float, multiplicity: str) -> tuple[str, ...]:
         SHIFT_DIFFERENCE.describe(alpha),
         SPREAD.describe(alpha),
         CAPABILITY.describe(alpha),
-        RATE.describe(alpha),
-        RATE_SHIFT.describe(alpha),
+        *rates,
         SUFFICIENCY.describe(alpha),
         MULTIPLICITY.describe(alpha, multiplicity),
         DIAGNOSTICS.describe(alpha),

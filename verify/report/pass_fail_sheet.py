@@ -9,6 +9,8 @@ area). Self-contained so that a registry of check kinds can take it as it is.
 
 from __future__ import annotations
 
+import math
+
 from openpyxl.chart import Reference, ScatterChart, Series
 from openpyxl.chart.text import RichText, Text
 from openpyxl.chart.title import Title
@@ -281,7 +283,13 @@ def _interval_chart(ws, c: CharacteristicResult, row0: int, col: int) -> int:
         chart.series.append(s)
     lo, hi = min(xs), max(xs)
     pad = (hi - lo) * 0.1 or 0.01
-    chart.x_axis.scaling.min, chart.x_axis.scaling.max = lo - pad, hi + pad
+    lo, hi = lo - pad, hi + pad
+    # round the axis to a 1-2-5 step so that it reads in round percentages
+    mag = 10.0 ** math.floor(math.log10((hi - lo) / 6))
+    step = next(m * mag for m in (1, 2, 5, 10) if m * mag >= (hi - lo) / 6)
+    chart.x_axis.scaling.min = math.floor(lo / step) * step
+    chart.x_axis.scaling.max = math.ceil(hi / step) * step
+    chart.x_axis.majorUnit = step
     chart.x_axis.title = "failure rate (rate) or new - old (rate_shift)"
     chart.x_axis.number_format = "0.0%"
     chart.x_axis.numFmt.sourceLinked = False
