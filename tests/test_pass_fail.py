@@ -129,6 +129,34 @@ def test_results_become_ones_and_zeros_and_counts_two_rows(tmp_path):
     assert used[used.characteristic == "caps (inspected)"].value.tolist() == [300, 320, 310, 290]
 
 
+def test_long_layout_reads_results_and_counts_on_the_matching_rows(tmp_path):
+    data = ("lot,proc,what,value,insp,rej\n"
+            "L1,A,leak,OK,,\nL1,A,leak,NOK,,\nL1,A,caps,,100,3\n"
+            "L2,B,leak,OK,,\nL2,B,caps,,90,1\nL2,B,leak,odd,,\n")
+    (tmp_path / "long.csv").write_text(data, encoding="utf-8")
+    (tmp_path / "l.yaml").write_text(textwrap.dedent("""\
+        format: verify/1
+        title: long
+        data: {file: long.csv, lot: lot, process: proc, old: A, new: B,
+               characteristic: what, value: value}
+        characteristics:
+          - {name: leak, kind: pass-fail, unit: parts, fail: [NOK], pass: [OK]}
+          - {name: caps, kind: pass-fail, unit: caps, counts: {inspected: insp, failed: rej}}
+        """), encoding="utf-8")
+    spec = load_spec(tmp_path / "l.yaml")
+    with pytest.raises(DataError) as e:
+        load_measurements(spec)
+    (issue,) = e.value.issues
+    assert issue.row == 7 and issue.column == "value" and "'odd'" in issue.message
+    (tmp_path / "long.csv").write_text(data.replace("odd", "OK"), encoding="utf-8")
+    ev = evaluate(spec, load_measurements(spec))
+    caps = ev.characteristic("caps").processes
+    assert (caps["old"].n, caps["old"].failures, caps["new"].n, caps["new"].failures) == (
+        100, 3, 90, 1)
+    leak = ev.characteristic("leak").processes
+    assert (leak["old"].n, leak["old"].failures, leak["new"].n) == (2, 1, 2)
+
+
 @pytest.mark.parametrize(("row", "words", "column"), [
     ("L4,B,maybe,290,2", "'maybe' is neither a fail result", "leak"),
     ("L4,B,OK,290.5,2", "not a whole number", "insp"),

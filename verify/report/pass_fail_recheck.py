@@ -20,11 +20,15 @@ Functions newer than Excel 2007 carry their ``_xlfn.`` prefix in the file.
 
 from __future__ import annotations
 
-from ..model import CharacteristicResult, CheckResult, Evaluation
-from .layout import MeasurementLayout
+from openpyxl.utils import get_column_letter
 
-# measurement sheet columns (see layout.MEASUREMENT_HEADERS)
-CHAR_COL, PROC_COL, VALUE_COL, USED_COL = "A", "B", "E", "F"
+from ..model import CharacteristicResult, CheckResult, Evaluation
+from .layout import MEASUREMENT_HEADERS, MeasurementLayout
+
+# the measurements sheet's columns, by their keys in layout.MEASUREMENT_HEADERS
+_KEYS = [k for k, _ in MEASUREMENT_HEADERS]
+CHAR_COL, PROC_COL, VALUE_COL, USED_COL = (
+    get_column_letter(_KEYS.index(k) + 1) for k in ("characteristic", "process", "value", "used"))
 
 
 def _ranges(layout: MeasurementLayout) -> list[tuple[str, int]]:
