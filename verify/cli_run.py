@@ -48,6 +48,10 @@ def add_run(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
     p.add_argument("--no-snapshot", action="store_true",
                    help="do not keep compressed copies of the data files in <out>/snapshots/ "
                         "(the audit trail says so; replay then needs the data unchanged)")
+    p.add_argument("--full-detail", action="store_true",
+                   help="a workbook sheet per characteristic however many there are (by "
+                        "default, beyond 40 characteristics their detail is one table, the "
+                        "Details sheet)")
     add_max_data_mb(p)
     return p
 
@@ -128,7 +132,9 @@ def cmd_run(args: argparse.Namespace) -> int:
         evaluations = [ev for ev, _, _ in targets]
         try:  # every spec's pair is written before any is renamed into place
             for ev, wb, res in targets:
-                staged.append(stage_outputs(ev, wb, res))
+                staged.append(stage_outputs(
+                    ev, wb, res,
+                    detail="full" if getattr(args, "full_detail", False) else "auto"))
         except BaseException:
             for st in staged:
                 st.discard()
