@@ -29,6 +29,7 @@ from __future__ import annotations
 import argparse
 import contextlib
 import hashlib
+import io
 import os
 import sys
 import textwrap
@@ -205,6 +206,10 @@ def data_paths_light(spec_path: Path, raw: bytes) -> list[tuple[str, str]]:
 def fingerprint(spec_path: Path, raw: bytes, last: Entry | None) -> Fingerprint:
     """The spec's input fingerprint; data paths come from ``last`` when the spec is the same."""
     spec_sha = hashlib.sha256(raw).hexdigest()
+    if _is_sql(raw):  # the data are a query's rows: fetch them and hash their canonical CSV
+        from .sources.sql import nightly_fingerprint
+
+        return Fingerprint(spec_sha, nightly_fingerprint(spec_path, raw), __version__)
     if last is not None and last.spec_sha256 == spec_sha and last.data_files:
         paths = [(d.path, d.file) for d in last.data_files]
     else:
@@ -213,9 +218,29 @@ def fingerprint(spec_path: Path, raw: bytes, last: Entry | None) -> Fingerprint:
     return Fingerprint(spec_sha, files, __version__)
 
 
+def _data_file_key(spec) -> str:
+    """The ledger's name of a spec's data: its file, or ``sql:<URL>`` for a database server."""
+    if spec.data.source == "sql":
+        from .sources.sql import data_file_key
+
+        return data_file_key(spec)
+    return str(spec.data.file)
+
+
+def _is_sql(raw: bytes) -> bool:
+    """Whether a spec's data come from a SQL query (a light look at its data.source)."""
+    import re
+
+    return re.search(rb"(?m)^[ \t]+source:[ \t]*[\"']?sql\b", raw) is not None
+
+
 def outside_root(files: Iterable[str], root: Path) -> str | None:
-    """The refusal message when a data file resolves outside ``root`` (None when all inside)."""
+    """The refusal message when a data file resolves outside ``root`` (None when all inside).
+
+    A database server (``sql:`` entries) is no file: the data root does not apply to it."""
     for f in files:
+        if str(f).startswith("sql:"):
+            continue
         resolved = Path(f).resolve()
         if not resolved.is_relative_to(root):
             return (f"data file {f} resolves to {resolved}, outside --data-root {root}: "
@@ -302,10 +327,10 @@ def run_task(task: Task) -> Outcome:
                               "it runs again next time")
         ev = prepare(task.spec_path, final=task.evaluate_final, command=task.command, text=text)
         files = tuple(
-            DataFile(f.path, str(ev.spec.data.file) if i == 0 else f.resolved_path, f.sha256)
+            DataFile(f.path, _data_file_key(ev.spec) if i == 0 else f.resolved_path, f.sha256)
             for i, f in enumerate(ev.measurements.files))
         if task.data_root is not None:
-            refused = outside_root([str(ev.spec.data.file)] + [f.resolved_path
+            refused = outside_root([_data_file_key(ev.spec)] + [f.resolved_path
                                                                  for f in ev.measurements.files],
                                    Path(task.data_root))
             if refused:
@@ -530,7 +555,10 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
     started = _utc()
     run_id = f"{_stamp(started)}-{uuid.uuid4().hex[:8]}"
     command = command if command is not None else command_line()
-    stream = progress_stream if progress_stream is not None else sys.stderr
+    from .output import QUIET, mode
+
+    stream = progress_stream if progress_stream is not None else (
+        io.StringIO() if mode() == QUIET else sys.stderr)
     progress = Progress(total=len(specs), stream=stream)
 
     with LedgerLock(ledger_path, timeout=lock_timeout, started=started, run_id=run_id), \
@@ -593,13 +621,20 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
         with atomic_path(digest) as tmp:
             write_digest(tmp, rows, run=run_facts)
 
+    from .output import say
+
     width = min(max((len(r.name) for r in rows), default=0), 40)
     for r in rows:
-        print(summary_line(r, width))
+        say(summary_line(r, width), {
+            "spec": r.spec_path, "name": r.name, "state": r.state, "decision": r.decision,
+            "previous_decision": r.previous_decision, "standing": r.standing,
+            "record": r.record, "drift": r.drift, "new_lots": list(r.new_lots),
+            "changes": r.changes(), "error": r.error, "workbook": r.workbook,
+            "run_id": run_id})
     counts = {s: sum(r.state == s for r in rows) for s in ("RUN", "UNCHANGED", "ERROR")}
-    print(f"nightly {run_id}: {len(rows)} spec(s): {counts['RUN']} ran, "
-          f"{counts['UNCHANGED']} unchanged, {counts['ERROR']} error(s); digest {digest}; "
-          f"exit {status}")
+    say(f"nightly {run_id}: {len(rows)} spec(s): {counts['RUN']} ran, "
+        f"{counts['UNCHANGED']} unchanged, {counts['ERROR']} error(s); digest {digest}; "
+        f"exit {status}")
     return NightlyResult(run_id=run_id, exit_status=status, rows=tuple(rows), digest=digest,
                          ledger=ledger_path)
 

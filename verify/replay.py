@@ -8,6 +8,7 @@ and compares every decision and number at a relative tolerance of 1e-12.
 
 from __future__ import annotations
 
+import contextlib
 import hashlib
 import json
 import math
@@ -147,7 +148,11 @@ def replay(report: str | Path) -> ReplayResult:
         res.integrity.append(
             f"spec text in {path.name} does not match its recorded sha256 {recorded_sha} "
             f"(now {_sha(spec_text)}): the spec text was edited after the run")
+    snapshots = []
     for f in doc.get("data_files", []):
+        if isinstance(f.get("source"), dict):  # a SQL source: its rows are in the snapshot
+            snapshots.append(_sql_snapshot(path, f, res))
+            continue
         p = Path(f.get("resolved_path") or f["path"])
         if not p.exists():
             res.integrity.append(f"data file missing: {f['path']} (recorded sha256 {f['sha256']})")
@@ -166,13 +171,37 @@ def replay(report: str | Path) -> ReplayResult:
         res.notes.append(f"verify was {doc.get('tool', {}).get('version')} when recorded, "
                          f"is {__version__} now")
     spec_path = Path(doc["spec"].get("resolved_path") or doc["spec"]["path"])
-    if any(m.startswith("data file missing") for m in res.integrity):
+    if any(m.startswith(("data file missing", "snapshot")) for m in res.integrity):
         return res
-    ev = prepare(spec_path, final=bool(doc.get("final")), command="verify replay",
-                 text=spec_text)
+    with contextlib.ExitStack() as stack:
+        from .sources.snapshot import use
+
+        for raw, origin in snapshots:
+            stack.enter_context(use(recorded_sha, raw, origin))
+        ev = prepare(spec_path, final=bool(doc.get("final")), command="verify replay",
+                     text=spec_text)
     now = result_dict(ev)
     now["spec"]["path"] = doc["spec"]["path"]
     recorded = {k: v for k, v in doc.items() if k not in _RUN_KEYS}
     _compare(recorded, {k: v for k, v in now.items() if k not in _RUN_KEYS}, "",
              res.differences)
     return res
+
+
+def _sql_snapshot(report: Path, f: dict, res: ReplayResult):
+    """The rows a SQL source returned at the run, from ``<report stem>.rows.csv`` beside the
+    report, checked against the recorded sha256: a replay needs no database."""
+    from .sources.snapshot import snapshot_path
+
+    snap = snapshot_path(report)
+    try:
+        raw = snap.read_bytes()
+    except OSError:
+        res.integrity.append(f"snapshot of the SQL rows missing: {snap} (recorded sha256 "
+                             f"{f['sha256']}); it is written beside the JSON result")
+        return b"", {}
+    now = hashlib.sha256(raw).hexdigest()
+    if now != f["sha256"]:
+        res.integrity.append(f"snapshot of the SQL rows changed: {snap} (recorded sha256 "
+                             f"{f['sha256']}, now {now})")
+    return raw, f["source"]

@@ -72,14 +72,18 @@ class Staged:
     tmp_workbook: Path
     tmp_result: Path
     workbook_sha256: str
+    # (temporary file, target): a SQL source's rows beside the result (its snapshot)
+    extras: tuple[tuple[Path, Path], ...] = ()
 
     def commit(self) -> Outputs:
+        for tmp, target in self.extras:  # first: a result never names a missing snapshot
+            os.replace(tmp, target)
         os.replace(self.tmp_workbook, self.workbook)
         os.replace(self.tmp_result, self.result)
         return Outputs(self.workbook, self.result, self.workbook_sha256)
 
     def discard(self) -> None:
-        for p in (self.tmp_workbook, self.tmp_result):
+        for p in (self.tmp_workbook, self.tmp_result, *(t for t, _ in self.extras)):
             with contextlib.suppress(FileNotFoundError):
                 p.unlink()
 
@@ -103,7 +107,9 @@ def stage_outputs(ev: Evaluation, workbook: Path, result: Path) -> Staged:
 
     tmp_wb = _temp_beside(workbook)
     tmp_res = None
+    extras: list[tuple[Path, Path]] = []
     try:
+        extras = _stage_snapshots(ev, result)
         # the workbook's zip and document times come from the run's start, so reruns under
         # SOURCE_DATE_EPOCH are byte-identical
         write_workbook(ev, tmp_wb, record_json=dumps(result_dict(ev)))
@@ -114,12 +120,30 @@ def stage_outputs(ev: Evaluation, workbook: Path, result: Path) -> Staged:
         tmp_res.write_text(dumps(doc), encoding="utf-8")
         _fsync(tmp_res)
     except BaseException:
-        for p in (tmp_wb, tmp_res):
+        for p in (tmp_wb, tmp_res, *(t for t, _ in extras)):
             if p is not None:
                 with contextlib.suppress(FileNotFoundError):
                     p.unlink()
         raise
-    return Staged(workbook, result, tmp_wb, tmp_res, digest)
+    return Staged(workbook, result, tmp_wb, tmp_res, digest, tuple(extras))
+
+
+def _stage_snapshots(ev: Evaluation, result: Path) -> list[tuple[Path, Path]]:
+    """The fetched rows of each SQL source, staged as ``<result stem>.rows.csv``."""
+    from .sources.snapshot import fetched_rows, snapshot_path
+
+    out = []
+    for f in ev.measurements.files:
+        if f.origin is None:
+            continue
+        raw = fetched_rows(f.sha256)
+        if raw is None:  # pragma: no cover - the rows are held from the fetch to the outputs
+            raise RuntimeError("the fetched SQL rows are no longer held for the snapshot")
+        tmp = _temp_beside(snapshot_path(result))
+        out.append((tmp, snapshot_path(result)))
+        tmp.write_bytes(raw)
+        _fsync(tmp)
+    return out
 
 
 def _fsync(path: Path) -> None:
