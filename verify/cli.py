@@ -246,10 +246,11 @@ def add_completion(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
         help="print a shell completion script (bash or zsh)",
         description=(
             "Print a script that completes verify's commands, options and file arguments in "
-            "bash or zsh. Load it from the shell's start-up file."
+            "bash or zsh. Load it from the shell's start-up file (zsh: source the file, or "
+            "eval \"$(verify completion zsh)\" in ~/.zshrc)."
         ),
         epilog=("example:\n  verify completion bash > ~/.local/share/bash-completion/"
-                "completions/verify\n  echo 'eval \"$(verify completion zsh)\"' >> ~/.zshrc"),
+                "completions/verify\n  verify completion zsh > ~/.verify-completion.zsh"),
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     p.add_argument("shell", choices=("bash", "zsh"))
