@@ -17,9 +17,8 @@ import sys
 from collections.abc import Callable, Sequence
 
 from . import __version__
-from .cli_run import add_replay, add_run, cmd_replay, cmd_run
+from .cli_run import add_max_data_mb, add_replay, add_run, cmd_replay, cmd_run
 from .errors import VerifyError
-from .nightly import add_nightly, nightly_main
 from .output import say, write
 
 EXIT_OK = 0
@@ -43,20 +42,23 @@ def add_check(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
     )
     p.add_argument("paths", nargs="+", metavar="SPEC|DIR",
                    help="spec files, or folders searched for *.yaml and *.yml")
+    add_max_data_mb(p)
     return p
 
 
 def cmd_check(args: argparse.Namespace) -> int:
     from .data import load_measurements
+    from .safe_open import max_data_bytes
     from .spec import find_specs, load_spec
 
     paths = find_specs(args.paths)
+    limit = max_data_bytes(args.max_data_mb)
     failed: list[tuple[str, VerifyError]] = []
     shown = 0
     for path in paths:
         try:
             spec = load_spec(path)
-            measurements = load_measurements(spec)
+            measurements = load_measurements(spec, max_bytes=limit)
         except VerifyError as exc:
             failed.append((str(path), exc))
             say(None, {"spec": str(path), "valid": False,
@@ -94,6 +96,13 @@ def describe_plan(spec, measurements) -> list[str]:
         kind = f"sheet {f.sheet!r}" if f.sheet else f.encoding
         lines.append(f"  data: {f.path} ({ds.layout} layout, {kind}): {f.rows_read} rows read, "
                      f"{f.rows_used} used, {f.rows_excluded} without a used measurement")
+    table = spec.characteristics_table
+    if table is not None:
+        sheet = f", sheet {table.sheet!r}" if table.sheet else ""
+        from_yaml = len(spec.characteristics) - table.rows
+        lines.append(f"  characteristics: {table.rows} from {table.file_text}{sheet} (sha256 "
+                     f"{table.sha256[:12]}...)" + (f", {from_yaml} more from the spec"
+                                                   if from_yaml > 0 else ""))
     if ds.process is not None:
         lines.append(f"  old/new by column {ds.process!r}: old = {_names(ds.old)}, "
                      f"new = {_names(ds.new)}")
@@ -284,6 +293,18 @@ def cmd_plan(args: argparse.Namespace) -> int:
 # -- dispatcher -------------------------------------------------------------------------------
 
 # name -> (add the subparser, run the command); further commands register here
+def add_nightly(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
+    from .nightly import add_nightly as add  # its ledger (sqlite3) loads only when asked for
+
+    return add(sub)
+
+
+def nightly_main(args: argparse.Namespace) -> int:
+    from .nightly import nightly_main as run
+
+    return run(args)
+
+
 COMMANDS: dict[str, tuple[Callable, Callable[[argparse.Namespace], int]]] = {
     "check": (add_check, cmd_check),
     "schema": (add_schema, cmd_schema),
@@ -295,7 +316,9 @@ COMMANDS: dict[str, tuple[Callable, Callable[[argparse.Namespace], int]]] = {
 }
 
 
-def build_parser() -> argparse.ArgumentParser:
+def build_parser(only: str | None = None) -> argparse.ArgumentParser:
+    """The argument parser; with ``only`` (a command name), with that sub-command alone, so
+    that a run does not import every other command's module to describe it."""
     parser = argparse.ArgumentParser(
         prog="verify",
         description=(
@@ -309,9 +332,10 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action="version", version=f"verify {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
     for name, (add, run) in COMMANDS.items():
-        p = add(sub)
-        p.set_defaults(func=run)
-        _add_output_options(p, json_lines=name in JSON_COMMANDS)
+        if only is None or name == only:
+            p = add(sub)
+            p.set_defaults(func=run)
+            _add_output_options(p, json_lines=name in JSON_COMMANDS)
     return parser
 
 
@@ -336,6 +360,23 @@ def _terminate(signum, frame):  # pragma: no cover - exercised through a subproc
     raise SystemExit(128 + signum)
 
 
+BLAS_THREAD_VARIABLES = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")
+
+
+def _single_threaded_blas() -> None:
+    """One BLAS thread unless the user set otherwise, before numpy is first imported.
+
+    verify's arithmetic is on short vectors; a multi-threaded BLAS call on a loaded machine
+    (``np.dot`` on a long vector) can cost thousands of times the arithmetic. The variables
+    are read once when numpy loads, so they must be set here, and nightly's worker processes
+    inherit them.
+    """
+    if "numpy" in sys.modules:
+        return  # too late to matter (a library caller imported numpy first)
+    for name in BLAS_THREAD_VARIABLES:
+        os.environ.setdefault(name, "1")
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Run ``verify`` with ``argv`` (default ``sys.argv[1:]``); return the exit status.
 
@@ -346,8 +387,10 @@ def main(argv: Sequence[str] | None = None) -> int:
 
     from . import output
 
-    parser = build_parser()
-    args = parser.parse_args(argv)
+    _single_threaded_blas()
+    given = list(sys.argv[1:] if argv is None else argv)
+    parser = build_parser(given[0] if given and given[0] in COMMANDS else None)
+    args = parser.parse_args(given)
     output.set_mode(quiet=getattr(args, "quiet", False),
                     json_lines=getattr(args, "json_lines", False))
     if threading_main():

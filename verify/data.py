@@ -27,6 +27,7 @@ import datetime as _dt
 import difflib
 import hashlib
 import io
+import math
 import os
 from collections.abc import Sequence
 from dataclasses import dataclass, field
@@ -38,6 +39,13 @@ import pandas as pd
 
 from .errors import DataError, DataIssue
 from .model import MEASUREMENT_COLUMNS, DataFileInfo, Measurements
+from .safe_open import (
+    DATA_LIMIT_HINT,
+    FileRefused,
+    check_xlsx_archive,
+    max_data_bytes,
+    read_regular,
+)
 from .spec_model import Spec
 
 MAX_REPORTED = 20  # cells reported per kind of problem before "and N more"
@@ -94,13 +102,17 @@ class _Sheet:
 # -- public API -------------------------------------------------------------------------------
 
 
-def load_measurements(spec: Spec) -> Measurements:
+def load_measurements(spec: Spec, *, max_bytes: int | None = None) -> Measurements:
     """Read the spec's data file into the tidy measurements table.
 
     Parameters
     ----------
     spec
         A spec from :func:`verify.spec.load_spec`.
+    max_bytes
+        Refuse a larger data file (default :data:`verify.safe_open.DEFAULT_MAX_DATA_MB`); an
+        .xlsx is also refused when its parts would expand far beyond it
+        (:func:`verify.safe_open.check_xlsx_archive`).
 
     Returns
     -------
@@ -132,11 +144,16 @@ def load_measurements(spec: Spec) -> Measurements:
         sheet, raw, shown = read_sql(spec)
     else:
         shown = display_path(ds.file)
-        raw = _read_bytes(ds.file, shown, spec)
+        limit = max_bytes if max_bytes is not None else max_data_bytes(None)
+        raw = _read_bytes(ds.file, shown, spec, limit)
         suffix = ds.file.suffix.lower()
         if suffix == ".xlsx":
             from .sources.formula_cells import check_formula_cells
 
+            try:
+                check_xlsx_archive(raw, shown, max_bytes=limit)
+            except FileRefused as exc:
+                raise DataError([DataIssue(shown, exc.reason)]) from None
             sheet = _read_xlsx(raw, shown, ds.sheet)
             sheet.notes.extend(check_formula_cells(raw, sheet, spec, shown))
         elif suffix == ".parquet":
@@ -176,34 +193,75 @@ def analysis_values(measurements: Measurements, spec: Spec, characteristic_name:
     ('part', True)
     """
     _check_args(spec, characteristic_name, process)
-    used, groups = _used_groups(measurements.table)
-    rows = groups.get((characteristic_name, process))
-    sel = used.iloc[rows] if rows is not None else used.iloc[:0]
-    sel = sel.sort_values(["order", "source_row"], kind="stable")
+    ix = _analysis_index(measurements.table)
+    span = ix.groups.get((characteristic_name, process))
+    lo, hi = span if span is not None else (0, 0)
+    values = ix.value[lo:hi].copy()
+    lots = ix.lot[lo:hi].tolist()
     if spec.unit_of_analysis == "lot":
-        means = sel.groupby("lot", sort=False)["value"].mean()
-        return AnalysisValues(values=means.to_numpy(dtype=float),
-                              lots=tuple(str(x) for x in means.index), unit="lot",
-                              n_parts=len(sel))
-    return AnalysisValues(values=sel["value"].to_numpy(dtype=float),
-                          lots=tuple(sel["lot"].astype(str)), unit="part", n_parts=len(sel))
+        # lot means, one per lot in order of the lot's first measurement. Each sum is
+        # correctly rounded (math.fsum): lot means differ only in late digits, and their spread
+        # must not depend on the order of summation.
+        acc: dict[str, list[float]] = {}
+        for x, lot in zip(values.tolist(), lots, strict=True):
+            acc.setdefault(lot, []).append(x)
+        means = np.array([math.fsum(v) / len(v) for v in acc.values()], dtype=float)
+        first = acc
+        return AnalysisValues(values=means, lots=tuple(first), unit="lot", n_parts=hi - lo)
+    return AnalysisValues(values=values, lots=tuple(lots), unit="part", n_parts=hi - lo)
 
 
-_GROUP_CACHE: dict[int, tuple] = {}
+@dataclass(frozen=True)
+class _Index:
+    """The used measurements as numpy arrays, sorted by (characteristic, process, production
+    order, source row), with the slice of each (characteristic, process): an evaluation reads
+    every characteristic and process in turn, so the table is gathered once, not filtered per
+    call."""
+
+    value: np.ndarray
+    lot: np.ndarray  # object array of str
+    pair: np.ndarray  # object array of str
+    order: np.ndarray
+    source_row: np.ndarray
+    groups: dict  # (characteristic, process) -> (start, stop)
 
 
-def _used_groups(table: pd.DataFrame):
-    """The used rows and their positions per (characteristic, process), computed once per
-    table: an evaluation asks for every characteristic and process in turn."""
-    hit = _GROUP_CACHE.get(id(table))
+_INDEX_CACHE: dict[int, tuple] = {}
+
+
+def _analysis_index(table: pd.DataFrame) -> _Index:
+    hit = _INDEX_CACHE.get(id(table))
     if hit is not None and hit[0] is table:
-        return hit[1], hit[2]
-    used = table[~table["excluded"]]
-    groups = used.groupby(["characteristic", "process"], sort=False).indices
-    if len(_GROUP_CACHE) >= 8:
-        _GROUP_CACHE.clear()
-    _GROUP_CACHE[id(table)] = (table, used, groups)
-    return used, groups
+        return hit[1]
+    used = ~table["excluded"].to_numpy(dtype=bool)
+    char_codes, char_names = pd.factorize(table["characteristic"].to_numpy(dtype=object)[used])
+    proc_codes, proc_names = pd.factorize(table["process"].to_numpy(dtype=object)[used])
+    code = char_codes.astype(np.int64) * max(1, len(proc_names)) + proc_codes
+    order = table["order"].to_numpy(dtype=np.int64)[used]
+    source_row = table["source_row"].to_numpy(dtype=np.int64)[used]
+    # one stable sort: by group, then production order, then source row (ties keep table order)
+    sort = np.lexsort((source_row, order, code))
+    code_sorted = code[sort]
+    starts = np.flatnonzero(np.concatenate(([True], code_sorted[1:] != code_sorted[:-1]))) \
+        if code_sorted.size else np.zeros(0, dtype=np.intp)
+    stops = np.append(starts[1:], code_sorted.size)
+    width = max(1, len(proc_names))
+    groups = {}
+    for a, b in zip(starts.tolist(), stops.tolist(), strict=True):
+        c = int(code_sorted[a])
+        groups[(str(char_names[c // width]), str(proc_names[c % width]))] = (a, b)
+    index = _Index(
+        value=table["value"].to_numpy(dtype=float)[used][sort],
+        lot=table["lot"].to_numpy(dtype=object)[used][sort],
+        pair=table["pair"].to_numpy(dtype=object)[used][sort],
+        order=order[sort],
+        source_row=source_row[sort],
+        groups=groups,
+    )
+    if len(_INDEX_CACHE) >= 8:
+        _INDEX_CACHE.clear()
+    _INDEX_CACHE[id(table)] = (table, index)
+    return index
 
 
 def paired_values(measurements: Measurements, spec: Spec,
@@ -228,21 +286,23 @@ def paired_values(measurements: Measurements, spec: Spec,
     _check_args(spec, characteristic_name, "old")
     if spec.data.pair is None:
         raise ValueError("the spec has no data.pair: there are no pairs")
-    t = measurements.table
-    sel = t[(t["characteristic"] == characteristic_name) & t["process"].isin(["old", "new"])
-            & (t["pair"] != "") & ~t["excluded"]]
-    sel = sel.sort_values(["order", "source_row"], kind="stable")
-    old = sel[sel["process"] == "old"].drop_duplicates("pair").set_index("pair")
-    new = sel[sel["process"] == "new"].drop_duplicates("pair").set_index("pair")
-    first = sel.drop_duplicates("pair")["pair"].tolist()  # keys by earlier measurement
-    both = old.index.intersection(new.index)
-    keys = [k for k in first if k in both]
-    unmatched = tuple(str(k) for k in first if k not in both)
+    ix = _analysis_index(measurements.table)
+    spans = [ix.groups.get((characteristic_name, proc), (0, 0)) for proc in ("old", "new")]
+    pos = np.concatenate([np.arange(a, b) for a, b in spans])
+    pos = pos[ix.pair[pos] != ""]
+    pos = pos[np.lexsort((ix.source_row[pos], ix.order[pos]))]  # production order
+    is_old = (pos >= spans[0][0]) & (pos < spans[0][1])
+    first: dict[str, None] = {}  # keys by earlier measurement
+    sides: tuple[dict, dict] = ({}, {})  # first used value per key: old, new
+    for p, o in zip(pos.tolist(), is_old.tolist(), strict=True):
+        key = ix.pair[p]
+        first.setdefault(key, None)
+        sides[0 if o else 1].setdefault(key, p)
+    keys = [k for k in first if k in sides[0] and k in sides[1]]
+    unmatched = tuple(str(k) for k in first if not (k in sides[0] and k in sides[1]))
     return PairedValues(keys=tuple(str(k) for k in keys),
-                        old=old.loc[keys, "value"].to_numpy(dtype=float) if keys
-                        else np.array([], dtype=float),
-                        new=new.loc[keys, "value"].to_numpy(dtype=float) if keys
-                        else np.array([], dtype=float),
+                        old=ix.value[[sides[0][k] for k in keys]].astype(float),
+                        new=ix.value[[sides[1][k] for k in keys]].astype(float),
                         unmatched=unmatched)
 
 
@@ -254,8 +314,16 @@ def display_path(path: Path) -> str:
         return str(path)
 
 
+_NAMES_CACHE: dict[int, tuple] = {}
+
+
 def _check_args(spec: Spec, name: str, process: str) -> None:
-    if all(c.name != name for c in spec.characteristics):
+    hit = _NAMES_CACHE.get(id(spec))
+    if hit is None or hit[0] is not spec:
+        if len(_NAMES_CACHE) >= 8:
+            _NAMES_CACHE.clear()
+        hit = _NAMES_CACHE[id(spec)] = (spec, frozenset(c.name for c in spec.characteristics))
+    if name not in hit[1]:
         raise ValueError(f"the spec has no characteristic named {name!r}")
     if process not in ("old", "new"):
         raise ValueError(f"process must be 'old' or 'new', not {process!r}")
@@ -264,17 +332,17 @@ def _check_args(spec: Spec, name: str, process: str) -> None:
 # -- reading files ----------------------------------------------------------------------------
 
 
-def _read_bytes(path: Path, shown: str, spec: Spec) -> bytes:
+def _read_bytes(path: Path, shown: str, spec: Spec, max_bytes: int) -> bytes:
+    """The data file's bytes: a regular file (links followed) within the size limit."""
     why = (f"data.file {spec.data.file_text!r} in {spec.path} is read relative to the spec's "
            "folder")
+    if not path.exists() and not path.is_symlink():
+        raise DataError([DataIssue(shown, f"data file not found ({why})")])
     try:
-        return path.read_bytes()
-    except FileNotFoundError:
-        raise DataError([DataIssue(shown, f"data file not found ({why})")]) from None
-    except IsADirectoryError:
-        raise DataError([DataIssue(shown, f"is a folder, not a data file ({why})")]) from None
-    except OSError as exc:
-        raise DataError([DataIssue(shown, f"cannot read the data file: {exc.strerror}")]) from None
+        return read_regular(path, what="data file", shown=shown, max_bytes=max_bytes,
+                            limit_hint=DATA_LIMIT_HINT)
+    except FileRefused as exc:
+        raise DataError([DataIssue(shown, f"{exc.reason} ({why})")]) from None
 
 
 def _decode(raw: bytes, shown: str, declared: str | None = None) -> tuple[str, str, list[str]]:
@@ -589,7 +657,7 @@ class _Tidy:
             for i, c in enumerate(self.spec.characteristics):
                 wanted.append((f"char:{i}", c.column))
         found: dict[str, int] = {}
-        shown_cols = ", ".join(repr(h) for h in header if h) or "(none)"
+        shown_cols = ", ".join(_show(h) for h in header if h) or "(none)"
         for role, name in wanted:
             where = (f"characteristics[{role[5:]}].column" if role.startswith("char:")
                      else role)
@@ -603,7 +671,7 @@ class _Tidy:
                 msg = f"no column {name!r} ({where} in the spec); the columns are: {shown_cols}"
                 near = _near(name, [h for h in header if h])
                 if near:
-                    msg += f"; did you mean {near!r}?"
+                    msg += f"; did you mean {_show(near)}?"
                 self.issue(msg, row=1, column=name)
             else:
                 found[role] = hits[0]
@@ -625,12 +693,12 @@ class _Tidy:
             if other.any():
                 values = ptext[other]
                 if ds.ignore_other:
-                    reasons = {v: f"process value {v!r} is neither old nor new "
+                    reasons = {v: f"process value {_show(v)} is neither old nor new "
                                   "(data.ignore_other)" for v in values.unique()}
                     scope[other] = values.map(reasons).to_numpy(dtype=object)
                     counts = values.value_counts(sort=False)
                     self.notes.append("left out, process neither old nor new: " + ", ".join(
-                        f"{v!r} ({n} rows)" for v, n in counts.items()))
+                        f"{_show(v)} ({n} rows)" for v, n in counts.items()))
                 else:
                     self.other_process_issues(values, rows[other])
         else:
@@ -645,8 +713,8 @@ class _Tidy:
                 hit_old = [p for p in lots.old if fnmatchcase(lot_id, p)]
                 hit_new = [p for p in lots.new if fnmatchcase(lot_id, p)]
                 if hit_old and hit_new:
-                    self.issue(f"lot {lot_id!r} matches lots.old ({hit_old[0]!r}) and lots.new "
-                               f"({hit_new[0]!r}): make the lists exclusive",
+                    self.issue(f"lot {_show(lot_id)} matches lots.old ({hit_old[0]!r}) and "
+                               f"lots.new ({hit_new[0]!r}): make the lists exclusive",
                                row=int(rows[first[j]]), column=self.ds.lot)
                 elif hit_old:
                     proc_u[j] = "old"
@@ -662,7 +730,7 @@ class _Tidy:
             self.unassigned = tuple(name for name, _ in left_out)
             if left_out:
                 self.notes.append("lots in neither lots list, left out: " + ", ".join(
-                    f"{k} ({n} rows)" for k, n in left_out))
+                    f"{_cut(k)} ({n} rows)" for k, n in left_out))
         return process, scope
 
     def other_process_issues(self, values: pd.Series, rows: np.ndarray) -> None:
@@ -672,7 +740,7 @@ class _Tidy:
             groups.setdefault(v, []).append(r)
         for v, rs in list(groups.items())[:MAX_REPORTED]:
             shown = ", ".join(str(r) for r in rs[:5]) + (", ..." if len(rs) > 5 else "")
-            what = "an empty process value" if v == "" else f"process value {v!r}"
+            what = "an empty process value" if v == "" else f"process value {_show(v)}"
             count = f"{len(rs)} rows (rows {shown})" if len(rs) > 1 else f"1 row (row {shown})"
             self.issue(f"{what} is neither old ({_list(ds.old)}) nor new ({_list(ds.new)}); "
                        f"{count}. Add it to data.old or data.new, or set data.ignore_other: "
@@ -698,8 +766,9 @@ class _Tidy:
                 use_numbers = np.isfinite(numbers).sum() >= ok.sum()
                 bad = ~np.isfinite(numbers) if use_numbers else ~ok
                 self.report_cells(bad & (scope == ""), self.ds.order,
-                                  lambda v: f"{v!r} in the order column is neither a number nor "
-                                  "a date-time (such as 2024-03-05 14:20)", self.sheet.rows,
+                                  lambda v: f"{_show(v)} in the order column is neither a "
+                                  "number nor a date-time (such as 2024-03-05 14:20)",
+                                  self.sheet.rows,
                                   cells)
                 keys = np.where(bad, np.inf, numbers if use_numbers else
                                 times.to_numpy(dtype="datetime64[ns]").astype(np.int64))
@@ -732,8 +801,8 @@ class _Tidy:
                     msg = (f"exclude[{i}]{line} names lot {pattern!r}, which is not in the "
                            f"file")
                     near = _near(pattern, lots_present)
-                    msg += f"; did you mean {near!r}?" if near else (
-                        f"; lots present: {', '.join(lots_present[:15])}"
+                    msg += f"; did you mean {_show(near)}?" if near else (
+                        f"; lots present: {', '.join(_cut(x) for x in lots_present[:15])}"
                         + (", ..." if len(lots_present) > 15 else ""))
                     self.issue(msg, column=self.ds.lot)
                     continue
@@ -762,13 +831,13 @@ class _Tidy:
                 mask = ctext == c.match
                 matched |= mask
                 if not mask.any():
-                    shown = ", ".join(repr(x) for x in present[:15]) or "(none)"
+                    shown = ", ".join(_show(x) for x in present[:15]) or "(none)"
                     msg = (f"no rows for characteristic {c.name!r}: column "
                            f"{self.ds.characteristic!r} has no value {c.match!r}; its values "
                            f"are: {shown}")
                     near = _near(c.match, [x for x in present if x])
                     if near:
-                        msg += f"; did you mean {near!r}? (set match: in the spec)"
+                        msg += f"; did you mean {_show(near)}? (set match: in the spec)"
                     self.issue(msg, column=self.ds.characteristic)
                     continue
                 where = np.flatnonzero(mask)
@@ -778,7 +847,7 @@ class _Tidy:
             other = ~matched
             if other.any():
                 names = list(dict.fromkeys(ctext[other].tolist()))
-                shown = ", ".join(repr(x) if x else "(empty)" for x in names[:10])
+                shown = ", ".join(_show(x) if x else "(empty)" for x in names[:10])
                 self.notes.append(f"{int(other.sum())} rows measure characteristics the spec "
                                   f"does not name ({shown}{', ...' if len(names) > 10 else ''})"
                                   ": not used")
@@ -876,21 +945,21 @@ class _Tidy:
             column = c.column if self.ds.layout == "wide" else self.ds.value
             v = text[i]
             if np.isinf(values[i]):
-                msg = (f"{v!r} is an infinite value ({c.name}): a measurement must be a finite "
-                       "number")
+                msg = (f"{_show(v)} is an infinite value ({c.name}): a measurement must be a "
+                       "finite number")
             elif abs(values[i]) > MAX_ABS_VALUE:
-                msg = (f"{v!r} is outside the range verify computes with ({c.name}: |value| "
+                msg = (f"{_show(v)} is outside the range verify computes with ({c.name}: |value| "
                        f"<= {MAX_ABS_VALUE:g}): correct the cell or its unit")
             elif self.wrong_sep[i]:
                 other = "," if decimal == "." else "."
-                msg = (f"{v!r} is not a number with the decimal separator {decimal!r} "
+                msg = (f"{_show(v)} is not a number with the decimal separator {decimal!r} "
                        f"({c.name}): correct the cell, or set data.decimal: {other!r} if the "
                        f"whole file writes {other!r} for decimals")
             elif v == "":
                 msg = (f"empty cell ({c.name}), and '' is not one of the declared missing texts "
                        f"{declared}: add '' to data.missing or fill in the cell")
             else:
-                msg = (f"{v!r} is not a number and not one of the declared missing texts "
+                msg = (f"{_show(v)} is not a number and not one of the declared missing texts "
                        f"{declared} ({c.name}): add it to data.missing or correct the cell")
             self.issue(msg, row=int(rows[i]), column=column)
         if len(hits) > MAX_REPORTED:
@@ -915,7 +984,7 @@ class _Tidy:
                 break
             rs = sorted(set(g["r"].tolist()))
             what = f" ({', '.join(dict.fromkeys(g['c']))})" if long else ""
-            self.issue(f"pair key {key!r} appears more than once for the {proc} process{what}"
+            self.issue(f"pair key {_show(key)} appears more than once for the {proc} process{what}"
                        f" (rows {', '.join(str(r) for r in rs)}): a key pairs one old row with "
                        "one new row", row=rs[0], column=self.ds.pair)
 
@@ -933,6 +1002,26 @@ def _file_info(spec: Spec, table: pd.DataFrame, sheet: _Sheet, raw: bytes) -> Da
         rows_excluded=sheet.rows_read - rows_used, exclusions=exclusions, sheet=sheet.sheet,
         origin=sheet.origin,
     )
+
+
+SHOWN_CHARS = 80  # a cell's text in a message is cut to this many characters
+
+
+def _cut(value: object, limit: int = SHOWN_CHARS) -> str:
+    """A cell's text for a message, cut when long ("ab…  (1,048,576 characters)")."""
+    s = value if isinstance(value, str) else str(value)
+    if len(s) <= limit:
+        return s
+    return f"{s[:limit]}… ({len(s):,} characters)"
+
+
+def _show(value: object, limit: int = SHOWN_CHARS) -> str:
+    """A cell's text quoted for a message (as ``repr``), cut when long: a bad cell of a
+    megabyte must not become a megabyte of error message."""
+    s = value if isinstance(value, str) else str(value)
+    if len(s) <= limit:
+        return repr(s)
+    return f"{s[:limit]!r}… ({len(s):,} characters)"
 
 
 def _near(word: str, options: Sequence[str]) -> str | None:

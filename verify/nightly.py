@@ -2,7 +2,8 @@
 
 For each spec found (as ``verify run`` finds them), a nightly run
 
-1. **fingerprints** its inputs: the sha256 of the spec file, of each data file, and the tool
+1. **fingerprints** its inputs: the sha256 of the spec file, of each data file (and of the
+   characteristics table a spec names with ``characteristics_from``), and the tool
    version. When they match the spec's last result in the ledger the spec is skipped and
    recorded as ``UNCHANGED``; this path reads no data and imports neither scipy nor pandas
    (a spec's data path comes from the ledger, or from a light YAML parse when the spec changed).
@@ -200,7 +201,11 @@ def data_paths_light(spec_path: Path, raw: bytes) -> list[tuple[str, str]]:
     file = data.get("file") if isinstance(data, dict) else None
     if not isinstance(file, str) or not file:
         return []
-    return [(file, os.path.abspath(spec_path.parent / file))]
+    out = [(file, os.path.abspath(spec_path.parent / file))]
+    table = doc.get("characteristics_from")  # a table of characteristics is an input too
+    if isinstance(table, str) and table:
+        out.append((table, os.path.abspath(spec_path.parent / table)))
+    return out
 
 
 def fingerprint(spec_path: Path, raw: bytes, last: Entry | None) -> Fingerprint:
@@ -329,6 +334,9 @@ def run_task(task: Task) -> Outcome:
         files = tuple(
             DataFile(f.path, _data_file_key(ev.spec) if i == 0 else f.resolved_path, f.sha256)
             for i, f in enumerate(ev.measurements.files))
+        table = ev.spec.characteristics_table
+        if table is not None:  # the characteristics table joins the fingerprint
+            files += (DataFile(table.file_text, str(table.file), table.sha256),)
         if task.data_root is not None:
             refused = outside_root([_data_file_key(ev.spec)] + [f.resolved_path
                                                                  for f in ev.measurements.files],

@@ -34,8 +34,9 @@ from typing import Any
 
 import yaml
 
+from . import spec_table
 from .errors import SpecError, SpecIssue, UsageError
-from .schema import Document, child_path, validate
+from .schema import Document, child_path, forbidden_characters, validate
 from .spec_model import (
     CapabilityCheck,
     Characteristic,
@@ -92,6 +93,11 @@ def find_specs(paths: Iterable[str | os.PathLike]) -> list[Path]:
             found.extend(hits)
         elif p.is_file():
             found.append(p)
+        elif p.exists():
+            from .safe_open import kind_of
+
+            problems.append(f"{p}: is {kind_of(p.stat().st_mode)}, not a spec file or a folder "
+                            "of specs")
         else:
             problems.append(f"{p}: no such file or folder")
     if problems:
@@ -148,14 +154,23 @@ def load_spec(path: str | os.PathLike, *, text: str | None = None) -> Spec:
     root = _compose(body, file)
     if root is None:
         raise SpecError([SpecIssue(file, "", "the spec is empty", 1, 1)])
+    # characteristics_from: the table's rows join the node tree as characteristic entries, so
+    # every rule below applies to them; their problems are then named at the table's cells
+    expansion = spec_table.expand(root, path, file)
+    bad_text = forbidden_characters(root)
+    if bad_text:
+        raise SpecError(spec_table.relocate(
+            [SpecIssue(file, p.path, p.message, p.line, p.column) for p in bad_text[:20]],
+            expansion, file))
     doc = validate(root)
     checker = _Checker(file, doc)
     checker.problems_from_schema()
     if isinstance(doc.value, dict):
         checker.semantics(doc.value)
     if checker.issues:
-        raise SpecError(sorted(checker.issues, key=_issue_order))
-    return _build(path, text, doc)
+        raise SpecError(spec_table.relocate(sorted(checker.issues, key=_issue_order),
+                                            expansion, file))
+    return _build(path, text, doc, expansion)
 
 
 def _issue_order(issue: SpecIssue) -> tuple:
@@ -163,15 +178,16 @@ def _issue_order(issue: SpecIssue) -> tuple:
 
 
 def _read_text(path: Path) -> str:
+    from .safe_open import MAX_SPEC_BYTES, FileRefused, read_regular
+
     file = str(path)
+    if not path.exists() and not path.is_symlink():
+        raise SpecError([SpecIssue(file, "", "spec file not found")])
     try:
-        raw = path.read_bytes()
-    except FileNotFoundError:
-        raise SpecError([SpecIssue(file, "", "spec file not found")]) from None
-    except IsADirectoryError:
-        raise SpecError([SpecIssue(file, "", "is a folder, not a spec file")]) from None
-    except OSError as exc:
-        raise SpecError([SpecIssue(file, "", f"cannot read the spec: {exc.strerror}")]) from None
+        raw = read_regular(path, what="spec", max_bytes=MAX_SPEC_BYTES,
+                           limit_hint=" (a spec is a few kilobytes of text)")
+    except FileRefused as exc:
+        raise SpecError([SpecIssue(file, "", exc.reason)]) from None
     try:
         return raw.decode("utf-8")
     except UnicodeDecodeError as exc:
@@ -185,15 +201,41 @@ MAX_LINE_LENGTH = 32_000
 
 
 class SpecLoader(yaml.SafeLoader):
-    """The safe loader, reading numbers as YAML 1.2 does: PyYAML (YAML 1.1) takes 6e-3 or 1e5,
-    written without a dot or without an exponent sign, for text."""
+    """The safe loader, resolving plain scalars as the YAML 1.2 core schema does.
+
+    PyYAML follows YAML 1.1, where ``1_0`` and ``0x0A`` are 10, ``1:30`` is 90, ``010`` is 8 and
+    ``yes``/``no``/``on``/``off`` are booleans, while 6e-3 (no dot) is text: a typo must not
+    become a number. Here a number is decimal (``12``, ``-0.5``, ``.5``, ``6e-3``, ``1.5E+3``,
+    ``.inf``, ``.nan``), a boolean is ``true``/``false`` (any of their three spellings), null is
+    ``null``, ``~`` or nothing; everything else is text. The 1.2 core schema also reads ``0x``
+    and ``0o`` integers; a spec has no use for them, so they stay text too and fail validation
+    with their line.
+    """
 
 
-SpecLoader.add_implicit_resolver(
-    "tag:yaml.org,2002:float",
-    re.compile(r"^[-+]?(?:[0-9][0-9_]*(?:\.[0-9_]*)?|\.[0-9_]+)[eE][-+]?[0-9]+$"),
-    list("-+0123456789."),
-)
+def _yaml12_resolvers() -> dict:
+    keep = {"tag:yaml.org,2002:merge"}  # '<<' keeps merging mappings
+    table: dict = {}
+    for first, entries in yaml.SafeLoader.yaml_implicit_resolvers.items():
+        kept = [(tag, rx) for tag, rx in entries if tag in keep]
+        if kept:
+            table[first] = kept
+
+    def add(tag: str, pattern: str, firsts) -> None:
+        rx = re.compile(pattern)
+        for ch in firsts:
+            table.setdefault(ch, []).append((tag, rx))
+
+    add("tag:yaml.org,2002:bool", r"^(?:true|True|TRUE|false|False|FALSE)$", "tTfF")
+    add("tag:yaml.org,2002:null", r"^(?:~|null|Null|NULL|)$", ["~", "n", "N", ""])
+    add("tag:yaml.org,2002:int", r"^[-+]?[0-9]+$", "-+0123456789")
+    add("tag:yaml.org,2002:float",
+        r"^(?:[-+]?(?:\.[0-9]+|[0-9]+(?:\.[0-9]*)?)(?:[eE][-+]?[0-9]+)?"
+        r"|[-+]?\.(?:inf|Inf|INF)|\.(?:nan|NaN|NAN))$", "-+0123456789.")
+    return table
+
+
+SpecLoader.yaml_implicit_resolvers = _yaml12_resolvers()
 
 
 def _compose(text: str, file: str) -> yaml.Node | None:
@@ -214,7 +256,36 @@ def _compose(text: str, file: str) -> yaml.Node | None:
     except yaml.YAMLError as exc:
         raise SpecError([SpecIssue(file, "", f"YAML error: {exc}")]) from None
     except RecursionError:
-        raise SpecError([SpecIssue(file, "", "the YAML is nested too deeply")]) from None
+        line = _deep_line(text)
+        raise SpecError([SpecIssue(file, "", f"the YAML is nested too deeply (more than about "
+                                   f"{MAX_NESTING} levels of lists or mappings): a spec needs "
+                                   "a few levels", line, None)]) from None
+
+
+MAX_NESTING = 100
+
+
+def _deep_line(text: str) -> int | None:
+    """The line at which the nesting of lists and mappings first exceeds :data:`MAX_NESTING`.
+
+    Runs on the error path only: the YAML scanner reads tokens without recursion, so it can
+    find the place where the (recursive) composer gave up.
+    """
+    opens = (yaml.FlowSequenceStartToken, yaml.FlowMappingStartToken,
+             yaml.BlockSequenceStartToken, yaml.BlockMappingStartToken)
+    closes = (yaml.FlowSequenceEndToken, yaml.FlowMappingEndToken, yaml.BlockEndToken)
+    depth = 0
+    try:
+        for token in yaml.scan(text, Loader=SpecLoader):
+            if isinstance(token, opens):
+                depth += 1
+                if depth > MAX_NESTING:
+                    return token.start_mark.line + 1
+            elif isinstance(token, closes):
+                depth -= 1
+    except (yaml.YAMLError, RecursionError):
+        return None
+    return None
 
 
 # -- semantic checks --------------------------------------------------------------------------
@@ -244,6 +315,19 @@ class _Checker:
         if data is not None:
             self.check_data(spec, data)
         self.check_lots(spec)
+        if "characteristics" not in spec and "characteristics_from" not in spec and \
+                self.doc.clean("characteristics_from"):
+            self.add("characteristics", "missing required key 'characteristics': list the "
+                     "characteristics, or name a table of them with characteristics_from",
+                     key=True)
+        if "defaults" in spec and "characteristics_from" not in spec:
+            self.add("defaults", "defaults applies to the rows of characteristics_from: name "
+                     "the table, or move these keys into each characteristic", key=True)
+        if self.ok(spec, "characteristics_from", "characteristics_from"):
+            suffix = Path(spec["characteristics_from"]).suffix.lower()
+            if suffix not in spec_table.TABLE_SUFFIXES:
+                self.add("characteristics_from", f"must end in .csv or .xlsx, not "
+                         f"{suffix or 'no extension'!r}")
         chars = spec.get("characteristics")
         names: dict[str, int] = {}
         if isinstance(chars, list):
@@ -421,7 +505,8 @@ _UNKNOWN = _Unknown()
 # -- building the model -----------------------------------------------------------------------
 
 
-def _build(path: Path, text: str, doc: Document) -> Spec:
+def _build(path: Path, text: str, doc: Document,
+           expansion: spec_table.Expansion | None = None) -> Spec:
     v: dict = doc.value
     given = set(doc.marks)
     resolved: list[tuple[str, str, bool]] = []
@@ -476,6 +561,14 @@ def _build(path: Path, text: str, doc: Document) -> Spec:
     if supersedes is not None:
         rec("supersedes_reason", supersedes)
 
+    table = expansion.table if expansion is not None else None
+    if table is not None:
+        rec("characteristics_from", table.file_text)
+        rec("characteristics_from.sha256", table.sha256, default=False)
+        rec("characteristics_from.rows", table.rows, default=False)
+        for key in ("unit", "side"):
+            if key in v.get("defaults", {}):
+                rec(f"defaults.{key}", v["defaults"][key])
     chars = tuple(
         _build_characteristic(c, f"characteristics[{i}]", data_spec, unit, doc, rec)
         for i, c in enumerate(v["characteristics"])
@@ -486,7 +579,7 @@ def _build(path: Path, text: str, doc: Document) -> Spec:
         change_id=_text(v["change_id"], doc, "change_id") if "change_id" in v else None,
         alpha=alpha, lots=lots, unit_of_analysis=unit, min_n=min_n, multiplicity=multiplicity,
         exclude=tuple(exclusions), plan=plan, supersedes_reason=supersedes,
-        resolved=tuple(resolved),
+        resolved=tuple(resolved), characteristics_table=table,
     )
 
 
@@ -616,8 +709,13 @@ def _build_characteristic(c: dict, p: str, data: DataSpec, unit: str, doc: Docum
         name=name, unit=c["unit"], column=column, match=match, target=target, limits=limits,
         side=side, checks=Checks(target=target_check, shift=shift_check, spread=spread_check,
                                  capability=capability_check),
-        line=doc.where(p)[0],
+        line=_spec_line(doc.where(p)[0]),
     )
+
+
+def _spec_line(line: int | None) -> int | None:
+    """The spec line of a characteristic; None for a row of characteristics_from."""
+    return None if line is None or line > spec_table.TABLE_LINE else line
 
 
 def _off(explicit: bool, why_default: str) -> str:

@@ -158,6 +158,8 @@ class Spec:
     supersedes_reason: str | None = None
     # key path -> (value, came_from_default); for the workbook's and the audit's parameter list
     resolved: tuple[tuple[str, str, bool], ...] = ()
+    # the table named by characteristics_from (verify.spec_table.CharacteristicsTable), if any
+    characteristics_table: object | None = None
 
     @property
     def stem(self) -> str:

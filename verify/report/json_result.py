@@ -104,6 +104,15 @@ def _diag(g: DiagnosticResult) -> dict:
     }
 
 
+def _table(table) -> dict:
+    """``characteristics_from``: the table's path, resolved path, sha256 and rows."""
+    if table is None:
+        return {}
+    return {"characteristics_from": {"path": table.file_text, "resolved_path": str(table.file),
+                                     "sha256": table.sha256, "rows": table.rows,
+                                     "sheet": table.sheet}}
+
+
 def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
     """The JSON result as a dict. ``workbook`` adds {path, sha256} of the workbook written."""
     spec = ev.spec
@@ -122,6 +131,7 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
             "resolved_path": str(Path(spec.path).resolve()),
             "sha256": spec.sha256,
             "text": spec.text,
+            **_table(spec.characteristics_table),
         },
         "data_files": [
             {

@@ -33,6 +33,7 @@ from .cells import (
     put_row,
     section,
 )
+from .safe_text import xml_safe
 
 PLAN_SHEET = "Plan"
 CURVES_SHEET = "Power curves"
@@ -67,7 +68,7 @@ RESULT_WIDTHS = (18, 9, 8, 30, 11, 11, 11, 40, 16, 11, 10, 10, 10, 11, 11, 10, 1
 def _label(row: PlanRow) -> str:
     s = row.scenario
     who = f"{s.characteristic}: " if s.characteristic else ""
-    return f"{who}{s.check}, {s.test}"
+    return xml_safe(f"{who}{s.check}, {s.test}")  # a chart title: no XML-illegal characters
 
 
 def _results(ws, start: int, plan: Plan) -> int:
