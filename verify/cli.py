@@ -112,7 +112,7 @@ def describe_plan(spec, measurements) -> list[str]:
     settings = [f"alpha {spec.alpha:g}", f"unit of analysis: {spec.unit_of_analysis}",
                 f"multiplicity: {spec.multiplicity}"]
     if spec.min_n is not None:
-        settings.append(f"min_n {spec.min_n}")
+        settings.append(f"min_n {spec.min_n_text}")
     lines.append("  " + ", ".join(settings))
     counts = {r: n for f in measurements.files for r, n in f.exclusions}
     for e in spec.exclude:
@@ -140,22 +140,27 @@ def describe_plan(spec, measurements) -> list[str]:
             lots = list(dict.fromkeys(av.lots))
             n = (f"n {len(av.values)} lots ({av.n_parts} parts)" if av.unit == "lot"
                  else f"n {len(av.values)}")
-            short = (f"; fewer than min_n {spec.min_n}" if spec.min_n is not None
-                     and len(av.values) < spec.min_n else "")
+            plan = spec.planned(proc)
+            short = (f"; fewer than min_n {plan}" if plan is not None
+                     and len(av.values) < plan else "")
             lines.append(f"    {proc}: {n} in {len(lots)} lot{'s' if len(lots) != 1 else ''} "
                          f"({_names(lots, 6, quote=False)}){short}")
         ch = c.checks
-        if ch.shift is not None and ch.shift.design == "paired":
+        if (ch.shift is not None and ch.shift.design == "paired") or (
+                ch.spread is not None and ch.spread.design == "paired"):
             pv = paired_values(measurements, spec, c.name)
             extra = f" ({_names(pv.unmatched, 5, quote=False)})" if pv.unmatched else ""
+            plan = spec.planned("pairs")
+            short = (f"; fewer than min_n {plan} (the pairs are the units)"
+                     if plan is not None and len(pv.keys) < plan else "")
             lines.append(f"    pairs: {len(pv.keys)} matched, {len(pv.unmatched)} unmatched"
-                         f"{extra}")
-        for text in _check_words(c):
+                         f"{extra}{short}")
+        for text in _check_words(c, spec.unit_of_analysis):
             lines.append(f"    check {text}")
     return lines
 
 
-def _check_words(c) -> list[str]:
+def _check_words(c, unit_of_analysis: str = "part") -> list[str]:
     ch, out = c.checks, []
     u = f" {c.unit}" if c.unit else ""
 
@@ -180,15 +185,25 @@ def _check_words(c) -> list[str]:
         design = f", {ch.shift.design}"
         out.append("shift: " + margin_claim(m, "new minus old", design) if m else
                    f"shift: new against old (difference test, {ch.shift.design}, {c.side})")
-    if ch.spread is not None and ch.shift is not None and ch.shift.design == "paired":
-        out.append("spread: new spread not larger than old (Pitman-Morgan, paired, one-sided)")
+    if ch.spread is not None and ch.spread.design == "paired":
+        out.append("spread: new spread not larger than old (Pitman-Morgan on the matched "
+                   "pairs, one-sided, design paired)")
     elif ch.spread is not None:
         method = "F-test" if ch.spread.method == "f" else "Brown-Forsythe"
-        out.append(f"spread: new spread not larger than old ({method}, one-sided)")
+        if unit_of_analysis == "lot":
+            method = ("F-test on the pooled within-lot variances, sum(n_i - 1) df; "
+                      "between-lot sds reported beside it")
+        opted = (", design independent: the declared pairs are ignored"
+                 if ch.spread.design_given else "")
+        out.append(f"spread: new spread not larger than old ({method}, one-sided{opted})")
     if ch.capability is not None:
-        how = ("within-lot sigma" if ch.capability.subgroup == "lot"
-               else "moving-range sigma")
-        out.append(f"capability: new Cpk at least {ch.capability.min_cpk} ({how})")
+        cap = ch.capability
+        how = ("overall sd" if cap.index == "ppk" else "within-lot sigma"
+               if cap.subgroup == "lot" else "moving-range sigma")
+        judged = (f"lower {cap.confidence:.0%} bound of new {cap.label}"
+                  if cap.judge == "lower_bound" else f"new {cap.label}")
+        out.append(f"capability: {judged} at least {cap.min:g} ({how}; index {cap.index}, "
+                   f"judge {cap.judge})")
     if not out:
         out.append("none")
     return out

@@ -16,8 +16,8 @@ Default checks, when a characteristic has no ``checks:`` key:
 
 - ``target`` (no margin: a one-sample t-test) when a target is given;
 - ``shift`` (no margin), design ``paired`` when ``data.pair`` is set, else ``welch``;
-- ``spread`` with method ``f``;
-- ``capability`` with ``min_cpk: 1.33`` when limits are given.
+- ``spread`` with method ``f``, on the matched pairs (Pitman-Morgan) when ``data.pair`` is set;
+- ``capability`` with ``{index: cpk, min: 1.33, judge: estimate}`` when limits are given.
 
 When ``checks:`` is given, exactly the listed checks run; an empty entry (``spread:`` or
 ``spread: {}``) runs that check with its defaults.
@@ -443,6 +443,30 @@ class _Checker:
             entry = checks.get(check)
             if isinstance(entry, dict) and "margin" in entry:
                 self.check_margin(entry["margin"], f"{path}.{check}.margin", target, label)
+        spread = checks.get("spread")
+        if isinstance(spread, dict):
+            has_pair = isinstance(data, dict) and "pair" in data
+            lot_unit = spec.get("unit_of_analysis") == "lot"
+            design = spread.get("design")
+            if design == "paired" and not has_pair:
+                self.add(f"{path}.spread.design", f"a paired spread test needs data.pair, the "
+                         f"column that pairs an old row with a new row{label}")
+            elif design == "paired" and lot_unit:
+                self.add(f"{path}.spread.design", "a paired spread test pairs parts; it cannot "
+                         "run with unit_of_analysis: lot (lot means carry no pair key)")
+            paired = design == "paired" or (design is None and has_pair and not lot_unit)
+            if paired and spread.get("method") == "brown-forsythe":
+                self.add(f"{path}.spread.method", "brown-forsythe compares independent samples, "
+                         f"but the spread is tested on the declared pairs{label}: remove "
+                         "method, or write design: independent to ignore the pairs knowingly")
+        cap = checks.get("capability")
+        if isinstance(cap, dict):
+            if "min_cpk" in cap and "min" in cap:
+                self.add(f"{path}.capability.min_cpk", f"min_cpk is short for {{index: cpk, "
+                         f"min: x}}; give min or min_cpk, not both{label}")
+            elif "min_cpk" in cap and cap.get("index") == "ppk":
+                self.add(f"{path}.capability.min_cpk", f"min_cpk applies to Cpk, but index is "
+                         f"ppk{label}: write min: instead")
         shift = checks.get("shift")
         if isinstance(shift, dict) and shift.get("design") == "paired":
             if not (isinstance(data, dict) and "pair" in data):
@@ -533,7 +557,12 @@ def _build(path: Path, text: str, doc: Document,
     unit = v.get("unit_of_analysis", "part")
     rec("unit_of_analysis", unit)
     min_n = v.get("min_n")
-    if min_n is not None:
+    min_n_old = None
+    if isinstance(min_n, dict):
+        min_n_old, min_n = int(min_n["old"]), int(min_n["new"])
+        rec("min_n.old", min_n_old)
+        rec("min_n.new", min_n)
+    elif min_n is not None:
         rec("min_n", min_n)
     multiplicity = v.get("multiplicity", "none")
     rec("multiplicity", multiplicity)
@@ -577,7 +606,8 @@ def _build(path: Path, text: str, doc: Document,
         path=path, text=text, sha256=hashlib.sha256(text.encode("utf-8")).hexdigest(),
         title=v["title"], data=data_spec, characteristics=chars, format=v["format"],
         change_id=_text(v["change_id"], doc, "change_id") if "change_id" in v else None,
-        alpha=alpha, lots=lots, unit_of_analysis=unit, min_n=min_n, multiplicity=multiplicity,
+        alpha=alpha, lots=lots, unit_of_analysis=unit, min_n=min_n, min_n_old=min_n_old,
+        multiplicity=multiplicity,
         exclude=tuple(exclusions), plan=plan, supersedes_reason=supersedes,
         resolved=tuple(resolved), characteristics_table=table,
     )
@@ -690,17 +720,33 @@ def _build_characteristic(c: dict, p: str, data: DataSpec, unit: str, doc: Docum
     on, cfg = wanted("spread")
     spread_check = None
     if on:
-        spread_check = SpreadCheck(method=cfg.get("method", "f"))
+        # declared pairs decide the spread test whatever the shift design: the two variances
+        # of paired data are correlated, and only a test on the pairs (Pitman-Morgan) is valid
+        pairs_usable = data.pair is not None and unit != "lot"
+        sp_design = cfg.get("design", "paired" if pairs_usable else "independent")
+        spread_check = SpreadCheck(method=cfg.get("method", "f"), design=sp_design,
+                                   design_given="design" in cfg)
         rec(f"{cp}.spread.method", spread_check.method)
+        rec(f"{cp}.spread.design", sp_design)
     else:
         rec(f"{cp}.spread", _off(explicit, ""), default=False)
 
     on, cfg = wanted("capability")
     capability_check = None
     if on:
-        capability_check = CapabilityCheck(min_cpk=float(cfg.get("min_cpk", DEFAULT_MIN_CPK)),
-                                           subgroup=cfg.get("subgroup"))
-        rec(f"{cp}.capability.min_cpk", capability_check.min_cpk)
+        # min_cpk: x is the short form of {index: cpk, min: x}
+        minimum = cfg.get("min", cfg.get("min_cpk", DEFAULT_MIN_CPK))
+        capability_check = CapabilityCheck(
+            min_cpk=float(minimum), subgroup=cfg.get("subgroup"),
+            index=cfg.get("index", "cpk"), judge=cfg.get("judge", "estimate"),
+            confidence=float(cfg.get("confidence", 0.95)))
+        rec(f"{cp}.capability.index", capability_check.index,
+            default="index" not in cfg)
+        rec(f"{cp}.capability.min", capability_check.min,
+            default="min" not in cfg and "min_cpk" not in cfg)
+        rec(f"{cp}.capability.judge", capability_check.judge, default="judge" not in cfg)
+        rec(f"{cp}.capability.confidence", capability_check.confidence,
+            default="confidence" not in cfg)
         rec(f"{cp}.capability.subgroup", capability_check.subgroup or "none (moving range)")
     else:
         rec(f"{cp}.capability", _off(explicit, "no limits"), default=not explicit)

@@ -81,6 +81,11 @@ def _check(c: CheckResult) -> dict:
             statistic_lower=c.statistic_lower,
             statistic_upper=c.statistic_upper,
         )
+    if c.check == "capability" and "index" in c.extra:
+        # the criterion as declared and judged: index (cpk | ppk), judge (estimate |
+        # lower_bound), min, and the lower bound at the spec's confidence
+        d.update(index=c.extra["index"], judge=c.extra["judge"], min=c.extra["min"],
+                 confidence=c.extra["confidence"], lower_bound=c.extra["lower_bound"])
     d.update(
         power=c.power,
         power_note=c.power_note,
@@ -164,6 +169,12 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
         "parameters": [
             {"key": k, "value": v, "default": bool(dflt)} for k, v, dflt in spec.resolved
         ],
+        "multiplicity": {
+            "method": spec.multiplicity,
+            "family": list(ev.family),
+            "family_size": len(ev.family),
+            "left_out": list(ev.family_excluded),
+        },
         "rules": list(ev.rules),
         "caution": ev.caution,
         "characteristics": [
@@ -185,6 +196,9 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
                         "min": s.minimum,
                         "max": s.maximum,
                         "lots": list(s.lots),
+                        "sd_within_lot": s.sd_within_lot,
+                        "sd_between_lot": s.sd_between_lot,
+                        "between_lot_set_to_zero": s.between_lot_set_to_zero,
                     }
                     for p, s in c.processes.items()
                 },
