@@ -199,6 +199,7 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
                 "rows_excluded": f.rows_excluded,
                 "exclusions": [{"reason": r, "count": n} for r, n in f.exclusions],
                 "snapshot": ev.snapshots.path_of(f.sha256) if ev.snapshots else None,
+                "source": f.origin,
             }
             for f in ev.measurements.files
         ],
