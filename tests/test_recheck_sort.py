@@ -72,7 +72,7 @@ def test_recheck_agrees_after_the_measurements_table_is_permuted(soffice, tmp_pa
     out = tmp_path / "reports"
     assert main(["run", str(REPO / "specs"), "--out", str(out), "--no-snapshot"]) in (0, 1, 3)
     demos = sorted(out.glob("*.xlsx"))
-    assert len(demos) == 3
+    assert len(demos) >= 3  # every demo spec's workbook
     write_edge_specs(tmp_path)
     edge = tmp_path / "edge-paired.xlsx"  # pair keys out of production order
     write_minimal_workbook(evaluate_spec(tmp_path / "edge-paired.yaml"), edge)
