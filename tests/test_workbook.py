@@ -19,11 +19,13 @@ import openpyxl
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from openpyxl.utils import get_column_letter
 
 from tests.factory import make_evaluation
 from verify.report import layout as L
 from verify.report import workbook as workbook_module
 from verify.report.cells import put, resolution_decimals, sheet_name
+from verify.report.summary import decision_cell
 from verify.report.workbook import (
     RECORD_SHEET,
     read_record,
@@ -138,11 +140,12 @@ def test_summary_content(all_book):
 
 def test_summary_decision_cell(all_book):
     ev, _path, wb = all_book
-    ws = wb[L.SUMMARY_SHEET]
-    cell = ws["I3"]
+    cell = decision_cell(wb)
+    assert cell.parent.title == L.SUMMARY_SHEET
     assert cell.value == ev.decision
     assert cell.font.sz >= 20
-    assert any(str(r) == "I3:K6" for r in ws.merged_cells.ranges)
+    merged = next(r for r in cell.parent.merged_cells.ranges if cell.coordinate in r)
+    assert merged.size["rows"] == 4 and merged.size["columns"] == 2
     fills = {"PASS": "2E7D57", "HOLD": "A3392B", "PENDING": "E3A72F"}
     assert cell.fill.fgColor.rgb.endswith(fills[ev.decision])
 
@@ -150,28 +153,103 @@ def test_summary_decision_cell(all_book):
 @pytest.mark.parametrize("decision", ["PASS", "HOLD", "PENDING"])
 def test_decision_cell_colour_per_decision(tmp_path, decision):
     ev = make_evaluation("pooled", n_old=8, n_new=8, decision=decision)
-    ws = openpyxl.load_workbook(_write(ev, tmp_path))[L.SUMMARY_SHEET]
+    cell = decision_cell(openpyxl.load_workbook(_write(ev, tmp_path)))
     fills = {"PASS": "2E7D57", "HOLD": "A3392B", "PENDING": "E3A72F"}
-    assert ws["I3"].value == decision
-    assert ws["I3"].fill.fgColor.rgb.endswith(fills[decision])
+    assert cell.value == decision
+    assert cell.fill.fgColor.rgb.endswith(fills[decision])
 
 
-def test_summary_values_unrounded_and_formatted(all_book):
+def _table(ws):
+    """The characteristics table of the decision sheet: {header: column}, {name: row}."""
+    head = next(r for r in range(1, ws.max_row + 1) if ws.cell(r, 1).value == "Characteristic")
+    cols = {
+        ws.cell(head, j).value: j
+        for j in range(1, ws.max_column + 1)
+        if ws.cell(head, j).value
+    }
+    rows = {}
+    r = head + 1
+    while ws.cell(r, 1).value:
+        rows[ws.cell(r, 1).value] = r
+        r += 1
+    return head, cols, rows
+
+
+def test_summary_has_a_column_per_check_kind(all_book):
     ev, _path, wb = all_book
     ws = wb[L.SUMMARY_SHEET]
-    rows = {ws.cell(r, 1).value: r for r in range(1, ws.max_row + 1)}
-    c = ev.characteristics[0]
-    r = rows[c.name]
-    assert ws.cell(r, 5).value == c.processes["old"].mean  # exact: never rounded
-    assert ws.cell(r, 6).value == c.processes["new"].mean
-    shift = next(k for k in c.checks if k.check == "shift")
-    assert ws.cell(r, 8).value == shift.estimate
-    assert ws.cell(r, 12).value == shift.p_value
-    assert ws.cell(r, 12).number_format == "[<0.0001]0.00E+00;0.0000"
-    assert ws.cell(r, 5).number_format == "0.0000"  # 3 recorded decimals + 1
-    # a one-sided interval's open end is written as text, not as a number or "inf"
-    pooled = rows[ev.characteristics[1].name]
-    assert ws.cell(pooled, 10).value == "-∞"
+    head, cols, rows = _table(ws)
+    kinds = list(dict.fromkeys(k.check for c in ev.characteristics for k in c.checks))
+    assert len(kinds) >= 4
+    check_headers = [h for h in cols if h.split("\n")[0].lower() in kinds]
+    assert [h.split("\n")[0].lower() for h in check_headers] == kinds
+    tints = {"PASS": "DDEFE4", "HOLD": "F5D6D1", "PENDING": "FBEBC7"}
+    for c in ev.characteristics:
+        by_kind = {k.check: k for k in c.checks}
+        for h in check_headers:
+            cell = ws.cell(rows[c.name], cols[h])
+            k = by_kind.get(h.split("\n")[0].lower())
+            if k is None:
+                assert cell.value == "not run"
+                continue
+            # the outcome first, in its colour, then the number that decided it
+            assert str(cell.value).split("\n")[0] == k.outcome
+            assert cell.fill.fgColor.rgb.endswith(tints[k.outcome])
+            if k.check in ("target", "shift") and k.margin is not None:
+                assert "interval" in cell.value and "margin" in cell.value
+            if k.check == "spread":
+                assert f"{k.estimate:.3f}" in cell.value and f"{k.ci_low:.3f}" in cell.value
+            if k.check == "capability":
+                assert f"{k.estimate:.2f}" in cell.value
+                assert f"{k.extra.get('min_cpk', k.critical_value):.2f}" in cell.value
+        assert ws.cell(rows[c.name], cols["Decision"]).value == c.decision
+    # sortable: an autofilter over exactly the table; its header repeats on every printed page
+    assert ws.auto_filter.ref == f"A{head}:{get_column_letter(len(cols))}{head + len(rows)}"
+    assert ws.print_title_rows.replace("$", "") == f"{head}:{head}"
+
+
+def test_one_sided_margin_names_only_its_side(tmp_path):
+    ev = make_evaluation("all", seed=3)
+    wb = openpyxl.load_workbook(_write(ev, tmp_path))
+    ws = wb[L.SUMMARY_SHEET]
+    _head, cols, rows = _table(ws)
+    shift_col = next(j for h, j in cols.items() if h.startswith("Shift"))
+    for c in ev.characteristics:
+        k = next((k for k in c.checks if k.check == "shift" and k.margin is not None), None)
+        if k is None:
+            continue
+        text = ws.cell(rows[c.name], shift_col).value
+        if k.alternative == "greater":
+            assert "not below" in text and "±" not in text
+        elif k.alternative == "less":
+            assert "not above" in text and "±" not in text
+
+
+def test_summary_p_values_use_one_format(all_book):
+    from verify.decide import fmt_p
+    from verify.report.cells import P_FORMAT
+
+    # the number format shows what decide.fmt_p writes in sentences: 4 decimals, "< 0.0001"
+    # below; checked by reading the two sections of the format
+    tiny, plain = P_FORMAT.split(";")
+    assert tiny.startswith("[<0.0001]") and tiny.endswith('"< 0.0001"')
+    assert fmt_p(3.9e-13) == "< 0.0001" and plain == "0.0000" and fmt_p(0.01234) == "0.0123"
+    _ev, _path, wb = all_book
+    for ws in wb.worksheets:
+        for row in ws.iter_rows():
+            for cell in row:
+                if "E+" in str(cell.number_format):
+                    raise AssertionError(f"{ws.title}!{cell.coordinate}: {cell.number_format}")
+
+
+def test_units_are_never_cut(tmp_path):
+    ev = make_evaluation("all", seed=3)
+    c0 = dataclasses.replace(ev.characteristics[0], unit="N/15 mm per strip")
+    ev = dataclasses.replace(ev, characteristics=(c0, *ev.characteristics[1:]))
+    ws = openpyxl.load_workbook(_write(ev, tmp_path))[L.SUMMARY_SHEET]
+    _head, cols, _rows = _table(ws)
+    width = ws.column_dimensions[get_column_letter(cols["Unit"])].width
+    assert width >= len("N/15 mm per strip")
 
 
 def test_summary_prints_on_one_landscape_page(all_book):
@@ -180,7 +258,23 @@ def test_summary_prints_on_one_landscape_page(all_book):
     assert ws.page_setup.orientation == "landscape"
     assert ws.sheet_properties.pageSetUpPr.fitToPage is True
     assert ws.page_setup.fitToWidth == 1 and ws.page_setup.fitToHeight == 1
-    assert ws.print_area is not None and "$A$1:$N$" in ws.print_area
+    assert ws.print_area is not None and "$A$1:$" in ws.print_area
+    assert "&A" in ws.oddFooter.left.text and "&P" in ws.oddFooter.right.text
+
+
+def test_summary_of_many_characteristics_runs_over_pages(tmp_path):
+    ev = make_evaluation("all", seed=3)
+    many = tuple(
+        dataclasses.replace(ev.characteristics[i % len(ev.characteristics)], name=f"dim_{i:03d}")
+        for i in range(300)
+    )
+    ev = dataclasses.replace(ev, characteristics=many)
+    ws = openpyxl.load_workbook(_write(ev, tmp_path))[L.SUMMARY_SHEET]
+    head, _cols, rows = _table(ws)
+    assert len(rows) == 300
+    assert ws.page_setup.fitToHeight == 0  # as many pages as it takes, full width
+    assert ws.print_title_rows.replace("$", "") == f"{head}:{head}"
+    assert not any(r.min_row > head and r.min_row <= head + 300 for r in ws.merged_cells.ranges)
 
 
 def test_summary_notes_trial_smaller_than_planned(tmp_path):
@@ -543,7 +637,7 @@ def test_every_design_writes_and_reads_back(tmp_path, design):
         if not any(r.check in ("target", "shift") and r.ci_low is not None for r in c.checks)
         else 3
     )
-    assert wb[L.SUMMARY_SHEET]["I3"].value == ev.decision
+    assert decision_cell(wb).value == ev.decision
     if design == "lot":
         assert "n counts lots" in _all_text(ws)
 

@@ -36,6 +36,7 @@ from .summary import decision_style, margin_text, put_decision_badge
 
 LABEL_WIDTH = 30
 EXTRA_FORMAT = "0.000###"
+PPM_FORMAT = '[<0.1]"< 0.1";[<10]0.0;#,##0'
 CHECK_WIDTH = 24
 MAX_LISTED_LOTS = 40
 SIDE_WORDS = {
@@ -126,6 +127,43 @@ EXTRA_LABELS = {
 }
 
 
+def _beyond_table(ws, row: int, c: CharacteristicResult, fmts: dict) -> int:
+    """Parts beyond the specification limits per process, beside the normal model's ppm."""
+    procs = [(k, c.processes[k]) for k in ("old", "new") if k in c.processes]
+    if not any(p.beyond_limits is not None for _k, p in procs):
+        return row
+    s = c.spec
+    row += 1
+    header_row(
+        ws,
+        row,
+        1,
+        [
+            "Parts beyond the limits",
+            "below " + ("none" if s.lower is None else f"{s.lower:g}"),
+            "above " + ("none" if s.upper is None else f"{s.upper:g}"),
+            "expected (normal model), ppm",
+            "of parts",
+        ],
+    )
+    row += 1
+    for key, p in procs:
+        b = p.beyond_limits
+        if b is None:
+            continue
+        flagged = key == "new" and b.total > 0
+        font = Font(bold=True, color="8A4B00") if flagged else None
+        put(ws, row, 1, key, border=BOX, font=font)
+        put(ws, row, 2, b.below if s.lower is not None else None, fmt=INT_FORMAT, border=BOX,
+            font=font)
+        put(ws, row, 3, b.above if s.upper is not None else None, fmt=INT_FORMAT, border=BOX,
+            font=font)
+        put(ws, row, 4, b.expected_ppm, fmt=PPM_FORMAT, border=BOX)
+        put(ws, row, 5, p.n_parts, fmt=INT_FORMAT, border=BOX)
+        row += 1
+    return row
+
+
 def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: int | None):
     """Fill one characteristic's sheet."""
     fmts = formats_for(decimals)
@@ -207,6 +245,7 @@ def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: 
         for j, (v, fm) in enumerate(zip(values, f, strict=True), start=1):
             put(ws, row, j, v, fmt=fm, border=BOX)
         row += 1
+    row = _beyond_table(ws, row, c, fmts)
     if ev.spec.unit_of_analysis == "lot":
         put(
             ws,
