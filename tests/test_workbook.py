@@ -379,6 +379,8 @@ def test_measurements_rows_follow_layout_unrounded(all_book):
                 assert v is None  # a declared missing value stays an empty cell
             elif isinstance(e, str) and e == "":
                 assert v is None
+            elif k == "order":
+                assert v == e + 1  # the sheet counts production order from 1
             else:
                 assert v == e, (k, v, e)
     # an excluded row carries its reason; every used row has none
@@ -632,11 +634,9 @@ def test_every_design_writes_and_reads_back(tmp_path, design):
     c = ev.characteristics[0]
     ws = wb[c.name]
     assert ws["E1"].value == c.decision
-    assert len(ws._charts) == (
-        2
-        if not any(r.check in ("target", "shift") and r.ci_low is not None for r in c.checks)
-        else 3
-    )
+    has_interval = any(r.check in ("target", "shift") and r.ci_low is not None for r in c.checks)
+    # production order, histogram, intervals (when any), paired differences (paired designs)
+    assert len(ws._charts) == 2 + has_interval + (design == "paired")
     assert decision_cell(wb).value == ev.decision
     if design == "lot":
         assert "n counts lots" in _all_text(ws)
@@ -677,3 +677,123 @@ def test_spec_text_that_cannot_be_stored_verbatim_is_refused(tmp_path):
     ev = dataclasses.replace(ev, spec=dataclasses.replace(ev.spec, text="a\n" + "x" * 33_000))
     with pytest.raises(ValueError, match="spec line 2 cannot be stored verbatim"):
         _write(ev, tmp_path)
+
+
+# --- charts that tell the truth -------------------------------------------------------------
+
+
+def _ref_values(wb, ref: str) -> list:
+    sheet, rng = ref.rsplit("!", 1)
+    ws = wb[sheet.strip("'").replace("''", "'")]
+    lo, _, hi = rng.replace("$", "").partition(":")
+    cells = ws[f"{lo}:{hi or lo}"]
+    return [c.value for row in cells for c in row]
+
+
+def _series_points(wb, chart) -> dict[str, list]:
+    out = {}
+    for s in chart.series:
+        name = s.tx.v if s.tx.strRef is None else s.tx.strRef.f
+        xs = _ref_values(wb, s.xVal.numRef.f)
+        ys = _ref_values(wb, s.yVal.numRef.f)
+        out[name] = [(x, y) for x, y in zip(xs, ys, strict=True) if x is not None]
+    return out
+
+
+def _chart_titled(ws, words: str):
+    for ch in ws._charts:
+        text = "".join(r.t for p in ch.title.tx.rich.p for r in (p.r or []))
+        if words in text:
+            return ch
+    raise AssertionError(f"no chart titled with {words!r} on {ws.title}")
+
+
+@pytest.mark.parametrize("side", ["lower", "upper", "two-sided"])
+def test_interval_chart_draws_only_margins_that_exist(tmp_path, side):
+    """A one-sided check (side lower or upper) has one margin end: the chart draws that end
+    alone, never a mirrored one on the harmless side."""
+    ev = make_evaluation("paired", n_old=12, n_new=12, seed=2)
+    c = ev.characteristics[0]
+    shift = next(k for k in c.checks if k.check == "shift")
+    alt = {"lower": "greater", "upper": "less", "two-sided": "two-sided"}[side]
+    one = dataclasses.replace(shift, margin=(-1.0, 1.0), alternative=alt)
+    checks = tuple(one if k is shift else k for k in c.checks)
+    ev = dataclasses.replace(ev, characteristics=(dataclasses.replace(c, checks=checks),))
+    wb = openpyxl.load_workbook(_write(ev, tmp_path))
+    ws = wb[c.name]
+    pts = _series_points(wb, _chart_titled(ws, "intervals against the margins"))
+    marks = next(v for k, v in pts.items() if k.startswith("margin"))
+    row = 1 + [k.check for k in c.checks if k.check in ("target", "shift")].index("shift")
+    xs = {x for x, y in marks if abs(y - row) < 0.5}
+    want = {"lower": {-1.0}, "upper": {1.0}, "two-sided": {-1.0, 1.0}}[side]
+    assert xs == want
+    # the paired differences chart draws the same margin ends, and nothing else
+    pts = _series_points(wb, _chart_titled(ws, "new − old for each"))
+    margins = {y for k, v in pts.items() if k.startswith("margin") for _x, y in v}
+    assert margins == want
+    # the checks table lists only the ends that exist
+    labels = {ws.cell(r, 1).value: r for r in range(1, ws.max_row + 1)}
+    col = 2 + [k.check for k in checks if k.check != "capability"].index("shift")
+    # (a row empty for every check is left out altogether)
+    low = ws.cell(labels["Margin: low"], col).value if "Margin: low" in labels else None
+    high = ws.cell(labels["Margin: high"], col).value if "Margin: high" in labels else None
+    assert (low is not None, high is not None) == (side != "upper", side != "lower")
+
+
+def test_paired_differences_chart_holds_every_pair(tmp_path):
+    ev = make_evaluation("paired", n_old=12, n_new=12, seed=2)
+    c = ev.characteristics[0]
+    wb = openpyxl.load_workbook(_write(ev, tmp_path))
+    pts = _series_points(wb, _chart_titled(wb[c.name], "new − old for each"))
+    diffs = [y for _x, y in pts["difference of a pair"]]
+    shift = next(k for k in c.checks if k.check == "shift")
+    assert len(diffs) == c.pairs
+    # the mean of the plotted differences is the paired shift estimate (arithmetic identity)
+    assert sum(diffs) / len(diffs) == pytest.approx(shift.estimate, rel=1e-12, abs=1e-12)
+    assert {y for _x, y in pts["mean difference"]} == {shift.estimate}
+
+
+def test_histogram_shows_shares_on_shared_bins_with_limits(all_book):
+    ev, _path, wb = all_book
+    c = ev.characteristics[0]
+    pts = _series_points(wb, _chart_titled(wb[c.name], "share of each process"))
+    outlines = {k: v for k, v in pts.items() if "process (n =" in k}
+    assert len(outlines) == 2
+    # relative frequencies: each outline's bars add up to 100 % of that process's parts; the
+    # outline repeats each bar's height at both of its edges
+    for v in outlines.values():
+        heights = [y for (_x, y) in v[1:-1:2]]
+        assert sum(heights) == pytest.approx(100.0)
+    edges = [[x for x, _y in v] for v in outlines.values()]
+    assert edges[0] == edges[1]  # shared bins
+    limits = {k: {x for x, _y in v} for k, v in pts.items() if k.endswith("limit")}
+    lower, upper = c.spec.limits
+    assert limits.get("lower limit", {lower}) == {lower} and limits.get("upper limit") == {upper}
+
+
+def test_run_chart_has_lot_boundaries_and_old_natural_limits(all_book):
+    ev, _path, wb = all_book
+    c = ev.characteristics[0]
+    pts = _series_points(wb, _chart_titled(wb[c.name], "in production order"))
+    old = c.processes["old"]
+    assert {y for _x, y in pts["old process mean + 3 sd"]} == {old.mean + 3 * old.sd}
+    assert {y for _x, y in pts["old process mean - 3 sd"]} == {old.mean - 3 * old.sd}
+    lots = len(old.lots) + len(c.processes["new"].lots)
+    xs = {x for x, _y in pts["lot boundaries"]}
+    assert len(xs) == lots - 1  # a line between each lot and the next
+
+
+def test_capability_block_puts_the_deciding_index_first(all_book):
+    ev, _path, wb = all_book
+    c = next(c for c in ev.characteristics if any(k.check == "capability" for k in c.checks))
+    ws = wb[c.name]
+    rows = {ws.cell(r, 1).value: r for r in range(1, ws.max_row + 1)}
+    head = rows["Capability of the new process"]
+    k = next(k for k in c.checks if k.check == "capability")
+    assert ws.cell(head + 1, 1).value == "Deciding index"
+    assert ws.cell(head + 1, 2).value == f"Cpk = {k.estimate:.2f}"
+    assert ws.cell(head + 2, 1).value == "Criterion"
+    text = _all_text(ws)
+    # each spread named in plain words by how it was estimated, not "sigma, within"
+    assert "sd from the ranges of consecutive parts" in text
+    assert "sigma, within" not in text and "sigma, overall" not in text
