@@ -49,7 +49,7 @@ CURVE_POINTS = 60  # about this many lot sizes on a power curve
 STANDALONE_DESIGNS = ("welch", "pooled", "paired", "one-sample")
 SIDES = ("two-sided", "lower", "upper")
 
-HELP = "size a trial: n per process, power at min_n, detectable shift"
+HELP = "size a trial: units per process, the power with min_n, the smallest shift found"
 DESCRIPTION = """\
 Plan a trial before it runs. For each characteristic and check of SPEC: the
 number of units per process needed to reach the target power, the power at
@@ -340,9 +340,10 @@ def method_words(rows: Sequence[PlanRow]) -> tuple[str, ...]:
     kinds = {r.scenario.kind for r in rows}
     designs = {r.scenario.design for r in rows}
     out = [
-        "n is the smallest whole number of units per process (pairs for a paired design) at "
-        "which the power reaches the target; the power at n - 1 is shown beside it and falls "
-        "short. For two-sample designs the old lot has ceil(n_new / ratio) units.",
+        "The smallest sufficient trial is the smallest whole number of units per process "
+        "(pairs for a paired design) whose power reaches the wanted power; the power with one "
+        "unit fewer is shown beside it and falls short. For two-sample designs the old lot "
+        "has ceil(n_new / ratio) units.",
     ]
     if "equivalence" in kinds:
         out.append(
@@ -365,7 +366,7 @@ def method_words(rows: Sequence[PlanRow]) -> tuple[str, ...]:
         )
     out.append(
         "Detectable shift: the smallest true shift that the difference t-test at the stated n "
-        "detects with the target power. For an equivalence check it shows how large a real "
+        "finds with the wanted power. For an equivalence check it shows how large a real "
         "change the same data would reveal."
     )
     if "welch" in designs:
@@ -585,13 +586,13 @@ def plan_spec(spec: Spec, measurements: Measurements | None, opts: Options | Non
         ("title", spec.title, "spec"),
         ("alpha", f"{spec.alpha:g}", "spec" if any(k == "alpha" and not d
                                                   for k, _, d in spec.resolved) else "default"),
-        ("target power", f"{rows[0].scenario.target_power:g}",
+        ("wanted power", f"{rows[0].scenario.target_power:g}",
          "--power" if opts.power is not None else "spec plan.power"),
         ("assumed true shift (margin checks)",
          f"{opts.true_shift if opts.true_shift is not None else p.true_shift:g}",
          "--true-shift" if opts.true_shift is not None else "spec plan.true_shift"),
         ("unit of analysis", spec.unit_of_analysis, "spec"),
-        ("n at which power is reported", "n needed" if rows[0].scenario.eval_n is None
+        ("trial size looked at", "the smallest sufficient" if rows[0].scenario.eval_n is None
          else str(rows[0].scenario.eval_n), rows[0].scenario.eval_source),
     ]
     if spec.change_id:
@@ -735,7 +736,7 @@ def plan_standalone(
                                                   else "default"),
               ("sd used", f"{sd_value:g}", sd_source),
               ("alpha", f"{alpha:g}", "--alpha" if alpha != DEFAULT_ALPHA else "default"),
-              ("target power", f"{power:g}", "--power" if power != DEFAULT_POWER else "default")]
+              ("wanted power", f"{power:g}", "--power" if power != DEFAULT_POWER else "default")]
     if margin is not None:
         inputs.append(("margin", f"{low:g}..+{high:g}", "--margin"))
         inputs.append(("assumed true shift", f"{shift:g}",
@@ -805,15 +806,15 @@ def add_plan_arguments(parser: argparse.ArgumentParser) -> argparse.ArgumentPars
                    help="paired designs: correlation r of the old and new value of a pair; "
                         "sd of the differences = sd * sqrt(2 (1 - r))")
     g.add_argument("--power", type=float, metavar="P",
-                   help="target power (default: the spec's plan.power, else 0.9)")
+                   help="wanted power (default: the spec's plan.power, else 0.9)")
     g.add_argument("--true-shift", type=float, metavar="D",
                    help="assumed true shift for margin checks (default: plan.true_shift, else 0)")
     g.add_argument("--detect", type=float, metavar="D",
                    help="checks without a margin: the shift that must not go unseen "
                         "(default: the check's detect: key)")
     g.add_argument("--n", type=int, metavar="N",
-                   help="units per process at which to report power and detectable shift "
-                        "(default: the spec's min_n, else the n needed)")
+                   help="units per process at which to give the power and the smallest shift "
+                        "found (default: the spec's min_n, else the smallest sufficient trial)")
     g.add_argument("--out", metavar="DIR", default=None,
                    help=f"folder for the workbook (default: {DEFAULT_OUT}/): "
                         "<spec-stem>-plan.xlsx, or plan.xlsx for the standalone form")
@@ -935,7 +936,8 @@ def requirement(s: Scenario) -> str:
 
 
 HEADERS = ("characteristic", "check", "test", "sd", "margin / detect", "true shift",
-           "n needed", "power at n", "power at n-1", "n reported", "power", "detectable")
+           "plan for", "its power", "one fewer", "size looked at", "power there",
+           "shift found")
 
 
 def table_rows(plan: Plan) -> list[tuple[str, ...]]:
@@ -958,7 +960,7 @@ def format_table(plan: Plan) -> str:
     widths = [max(len(h), *(len(row[i]) for row in rows)) for i, h in enumerate(HEADERS)]
     lines = [plan.title if plan.source is None else f"{plan.source}: {plan.title}"]
     first = plan.rows[0].scenario
-    lines.append(f"  alpha {first.alpha:g}, target power {first.target_power:g}")
+    lines.append(f"  alpha {first.alpha:g}, wanted power {first.target_power:g}")
     lines.append("")
     lines.append("  ".join(h.ljust(w) for h, w in zip(HEADERS, widths, strict=True)).rstrip())
     for row in rows:
@@ -971,13 +973,13 @@ def format_table(plan: Plan) -> str:
         if r.note:
             lines.append(f"  {who}: {r.note}")
         elif not r.meets_target_at_eval and s.eval_source != "n needed":
-            lines.append(f"  {who}: power at {s.eval_source} {r.eval_n_new} is "
-                         f"{_pct(r.power_at_eval)}, below the target "
-                         f"{_pct(s.target_power)}: {r.n_new} units are needed")
+            lines.append(f"  {who}: the power with {s.eval_source} {r.eval_n_new} is "
+                         f"{_pct(r.power_at_eval)}, short of the wanted "
+                         f"{_pct(s.target_power)}: plan for {r.n_new} units")
     for note in plan.notes:
         lines.append(f"  note: {note}")
-    lines.append("  n counts units per process (pairs for paired); 'detectable' is the "
-                 "smallest shift the t-test at the reported n detects with the target power")
+    lines.append("  sizes count units per process (pairs for paired); 'shift found' is the "
+                 "smallest shift a t-test at the size looked at finds with the wanted power")
     return "\n".join(lines)
 
 

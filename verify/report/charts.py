@@ -70,7 +70,7 @@ def _series_values(ev: Evaluation, name: str, process: str):
     return sel["value"].to_numpy(dtype=float), sel["lot"].astype(str).to_numpy(dtype=object)
 
 
-def _title(text: str, size: int = 1000) -> Title:
+def chart_title(text: str, size: int = 1000) -> Title:
     """A chart title in a modest font (the default is large enough to squeeze the plot)."""
     cp = CharacterProperties(sz=size, b=True)
     para = Paragraph(pPr=ParagraphProperties(defRPr=cp), r=[RegularTextRun(rPr=cp, t=text)])
@@ -265,7 +265,7 @@ def _production_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
         put(ws, row0 + 1, col + j, h, font=Font(bold=True))
     r = row0 + 2
     chart = ScatterChart()
-    chart.title = _title(f"{c.name} in production order: old, then new{note}")
+    chart.title = chart_title(f"{c.name} in production order: old, then new{note}")
     chart.style = 2
     chart.height, chart.width = CHART_H, CHART_W
     ys = []
@@ -386,7 +386,7 @@ def _histogram(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
         xs.append(float(x))
     chart = ScatterChart()
     chart.style = 2
-    chart.title = _title(f"{c.name}: share of each process's parts per bin")
+    chart.title = chart_title(f"{c.name}: share of each process's parts per bin")
     chart.height, chart.width = CHART_H, CHART_W
     block.to_chart(chart, styles)
     _axes(chart, f"{c.name} ({c.unit})", "% of the process's parts", formats["value"], "0")
@@ -463,7 +463,7 @@ def _interval_chart(ws, c, anchor, row0, col, formats) -> tuple[int, int]:
     styles["zero"] = lambda s: _style_line(s, LINE_COLOURS["zero"], "dash")
     chart = ScatterChart()
     chart.style = 2
-    chart.title = _title(f"{c.name}: intervals against the margins")
+    chart.title = chart_title(f"{c.name}: intervals against the margins")
     chart.height, chart.width = CHART_H, CHART_W
     chart.display_blanks = "gap"  # a blank row ends one margin mark and starts the next
     block.to_chart(chart, styles)
@@ -524,7 +524,7 @@ def _paired_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
         ys.append(m)
     chart = ScatterChart()
     chart.style = 2
-    chart.title = _title(f"{c.name}: new − old for each of the {d.size} pairs")
+    chart.title = chart_title(f"{c.name}: new − old for each of the {d.size} pairs")
     chart.height, chart.width = CHART_H, CHART_W
     block.to_chart(chart, styles)
     _axes(chart, "pair, in production order", f"new − old ({c.unit})", "0", formats["shift"])

@@ -5,8 +5,8 @@ Spreadsheet programs break pages by row heights once the sheet is scaled to the 
 the arithmetic can be done here: the printable height of the paper less the margins, divided by
 the scale that fitting the print area's width to the page needs, is the height of sheet rows a
 page holds. Every row in a kept block gets an explicit height, so no program's default row
-height changes the sums. The figures assume A4 (the smaller in height of A4 and US Letter in
-landscape, so a page computed for A4 also holds on Letter).
+height changes the sums. The paper is taken as the smaller of A4 and US Letter in each
+direction (595 x 792 points), so a page computed here holds on either.
 """
 
 from __future__ import annotations
@@ -15,8 +15,8 @@ import math
 
 from openpyxl.utils import get_column_letter
 
-# A4 in points (1/72 inch): 210 x 297 mm
-A4_SHORT, A4_LONG = 595.0, 842.0
+# points (1/72 inch): A4's width (210 mm) and US Letter's length (11 in)
+PAPER_SHORT, PAPER_LONG = 595.0, 792.0
 DEFAULT_ROW_PT = 15.0
 KEEP_FIRST = 3  # rows kept with a heading when its whole block cannot fit a page
 SAFETY = 0.95  # programs round the scale down to whole percent and pad headers and footers
@@ -39,7 +39,7 @@ def print_width_pt(ws, last_col: int) -> float:
 def page_rows_pt(ws, last_col: int) -> float:
     """The height of sheet rows (in points, unscaled) one printed page holds."""
     landscape = ws.page_setup.orientation == "landscape"
-    paper_w, paper_h = (A4_LONG, A4_SHORT) if landscape else (A4_SHORT, A4_LONG)
+    paper_w, paper_h = (PAPER_LONG, PAPER_SHORT) if landscape else (PAPER_SHORT, PAPER_LONG)
     m = ws.page_margins
     usable_w = paper_w - 72 * (m.left + m.right)
     usable_h = paper_h - 72 * (m.top + m.bottom)
