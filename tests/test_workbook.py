@@ -427,7 +427,9 @@ def test_put_never_writes_a_formula_or_error():
         cell = put(ws, i, 1, text)
         assert cell.data_type == "s"
         assert len(cell.value) <= 32_767  # Excel's cell limit (Microsoft specifications)
-    assert ws["A8"].value == "abc"  # characters XML cannot carry are dropped
+    # characters XML 1.0 cannot carry are replaced visibly by their Unicode control pictures
+    # (U+2400 block: U+0000 -> U+2400, U+001F -> U+241F)
+    assert ws["A8"].value == "a\u2400b\u241fc"
     assert ws["A9"].value.endswith("[cut: 40000 characters in full]")  # never silently cut
     assert put(ws, 10, 1, float("nan")).value is None
     assert put(ws, 11, 1, None).value is None
@@ -665,11 +667,13 @@ def test_characteristic_without_checks_and_values(tmp_path):
     assert ws["A3"].value == "No measurements were read."
 
 
-def test_streamed_text_drops_xml_illegal_characters(tmp_path):
+def test_streamed_text_replaces_xml_illegal_characters_visibly(tmp_path):
     ev = make_evaluation("pooled", n_old=4, n_new=4, lot_ids=["L\x07-1", "L&<2>"], parts_per_lot=2)
     ws = openpyxl.load_workbook(_write(ev, tmp_path))[L.MEASUREMENTS_SHEET]
     lots = {row[2] for row in ws.iter_rows(min_row=2, values_only=True)}
-    assert {"L-1", "L&<2>"} <= lots  # the bell character cannot exist in XML; & and < can
+    # the bell character cannot exist in XML (XML 1.0, production Char): it shows as its
+    # Unicode control picture U+2407; & and < can exist (escaped)
+    assert {"L\u2407-1", "L&<2>"} <= lots
 
 
 def test_spec_text_that_cannot_be_stored_verbatim_is_refused(tmp_path):

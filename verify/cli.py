@@ -18,7 +18,7 @@ import sys
 from collections.abc import Callable, Sequence
 
 from . import __version__
-from .cli_run import add_replay, add_run, cmd_replay, cmd_run
+from .cli_run import add_max_data_mb, add_replay, add_run, cmd_replay, cmd_run
 from .errors import VerifyError
 from .nightly import add_nightly, nightly_main
 
@@ -43,19 +43,22 @@ def add_check(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
     )
     p.add_argument("paths", nargs="+", metavar="SPEC|DIR",
                    help="spec files, or folders searched for *.yaml and *.yml")
+    add_max_data_mb(p)
     return p
 
 
 def cmd_check(args: argparse.Namespace) -> int:
     from .data import load_measurements
+    from .safe_open import max_data_bytes
     from .spec import find_specs, load_spec
 
     paths = find_specs(args.paths)
+    limit = max_data_bytes(args.max_data_mb)
     failed: list[tuple[str, VerifyError]] = []
     for n, path in enumerate(paths):
         try:
             spec = load_spec(path)
-            measurements = load_measurements(spec)
+            measurements = load_measurements(spec, max_bytes=limit)
         except VerifyError as exc:
             failed.append((str(path), exc))
             continue

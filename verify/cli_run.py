@@ -45,7 +45,27 @@ def add_run(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
     p.add_argument("--final", action="store_true",
                    help="the trial is complete: a shortfall against min_n no longer gives "
                         "PENDING (checks decide on the data there are)")
+    add_max_data_mb(p)
     return p
+
+
+def add_max_data_mb(p: argparse.ArgumentParser) -> None:
+    """The ``--max-data-mb`` option (shared by run, check, replay and nightly)."""
+    from .safe_open import DEFAULT_MAX_DATA_MB
+
+    p.add_argument("--max-data-mb", metavar="MB", type=_positive_mb, default=None,
+                   help="refuse a data file larger than this many megabytes (default: "
+                        f"{DEFAULT_MAX_DATA_MB:g}); an .xlsx may expand to 8 times this")
+
+
+def _positive_mb(text: str) -> float:
+    try:
+        x = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number of megabytes, got {text!r}") from None
+    if not (x > 0 and x < 1e7):
+        raise argparse.ArgumentTypeError(f"must be a number of megabytes above 0, got {text!r}")
+    return x
 
 
 def summary_line(ev, target: Path | None = None) -> str:
@@ -56,7 +76,7 @@ def summary_line(ev, target: Path | None = None) -> str:
 
 def cmd_run(args: argparse.Namespace) -> int:
     from .audit import command_line
-    from .runner import prepare, stage_outputs
+    from .runner import CommitError, check_target, commit_all, prepare, stage_outputs
     from .spec import find_specs
 
     paths = find_specs(args.paths)
@@ -71,7 +91,8 @@ def cmd_run(args: argparse.Namespace) -> int:
     evaluations, failed = [], []
     for p in paths:  # validate and evaluate every spec before writing anything
         try:
-            evaluations.append(prepare(p, final=args.final, command=command))
+            evaluations.append(prepare(p, final=args.final, command=command,
+                                       max_data_mb=args.max_data_mb))
         except VerifyError as exc:
             failed.append((p, exc))
     if failed:
@@ -85,6 +106,9 @@ def cmd_run(args: argparse.Namespace) -> int:
     targets = [(ev, out / f"{ev.spec.stem}.xlsx", out / f"{ev.spec.stem}.json")
                for ev in evaluations]
     refuse_overwriting_inputs(evaluations, [t for _, *pair in targets for t in pair])
+    for _, *pair in targets:  # a folder where a report goes: refuse before writing anything
+        for t in pair:
+            check_target(t)
     staged = []
     try:  # every spec's pair is written before any is renamed into place
         for ev, wb, res in targets:
@@ -93,9 +117,12 @@ def cmd_run(args: argparse.Namespace) -> int:
         for st in staged:
             st.discard()
         raise
-    for ev, st in zip(evaluations, staged, strict=True):
-        st.commit()
-        print(summary_line(ev, st.workbook))
+    try:
+        outputs = commit_all(staged)  # all renamed into place, or none
+    except CommitError as exc:
+        raise VerifyError(f"verify run: {exc}") from None
+    for ev, outs in zip(evaluations, outputs, strict=True):
+        print(summary_line(ev, outs.workbook))
     return decision_exit(ev.decision for ev in evaluations)
 
 
@@ -141,13 +168,14 @@ def add_replay(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     p.add_argument("report", metavar="REPORT.xlsx|REPORT.json")
+    add_max_data_mb(p)
     return p
 
 
 def cmd_replay(args: argparse.Namespace) -> int:
     from .replay import replay
 
-    res = replay(args.report)
+    res = replay(args.report, max_data_mb=args.max_data_mb)
     for n in res.notes:
         print(f"note: {n}")
     if res.reproduced:

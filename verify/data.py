@@ -38,6 +38,13 @@ import pandas as pd
 
 from .errors import DataError, DataIssue
 from .model import MEASUREMENT_COLUMNS, DataFileInfo, Measurements
+from .safe_open import (
+    DATA_LIMIT_HINT,
+    FileRefused,
+    check_xlsx_archive,
+    max_data_bytes,
+    read_regular,
+)
 from .spec_model import Spec
 
 MAX_REPORTED = 20  # cells reported per kind of problem before "and N more"
@@ -93,13 +100,17 @@ class _Sheet:
 # -- public API -------------------------------------------------------------------------------
 
 
-def load_measurements(spec: Spec) -> Measurements:
+def load_measurements(spec: Spec, *, max_bytes: int | None = None) -> Measurements:
     """Read the spec's data file into the tidy measurements table.
 
     Parameters
     ----------
     spec
         A spec from :func:`verify.spec.load_spec`.
+    max_bytes
+        Refuse a larger data file (default :data:`verify.safe_open.DEFAULT_MAX_DATA_MB`); an
+        .xlsx is also refused when its parts would expand far beyond it
+        (:func:`verify.safe_open.check_xlsx_archive`).
 
     Returns
     -------
@@ -122,9 +133,14 @@ def load_measurements(spec: Spec) -> Measurements:
     """
     ds = spec.data
     shown = display_path(ds.file)
-    raw = _read_bytes(ds.file, shown, spec)
+    limit = max_bytes if max_bytes is not None else max_data_bytes(None)
+    raw = _read_bytes(ds.file, shown, spec, limit)
     suffix = ds.file.suffix.lower()
     if suffix == ".xlsx":
+        try:
+            check_xlsx_archive(raw, shown, max_bytes=limit)
+        except FileRefused as exc:
+            raise DataError([DataIssue(shown, exc.reason)]) from None
         sheet = _read_xlsx(raw, shown, ds.sheet)
     else:
         sheet = _read_text(raw, shown, tab=suffix == ".tsv")
@@ -247,17 +263,17 @@ def _check_args(spec: Spec, name: str, process: str) -> None:
 # -- reading files ----------------------------------------------------------------------------
 
 
-def _read_bytes(path: Path, shown: str, spec: Spec) -> bytes:
+def _read_bytes(path: Path, shown: str, spec: Spec, max_bytes: int) -> bytes:
+    """The data file's bytes: a regular file (links followed) within the size limit."""
     why = (f"data.file {spec.data.file_text!r} in {spec.path} is read relative to the spec's "
            "folder")
+    if not path.exists() and not path.is_symlink():
+        raise DataError([DataIssue(shown, f"data file not found ({why})")])
     try:
-        return path.read_bytes()
-    except FileNotFoundError:
-        raise DataError([DataIssue(shown, f"data file not found ({why})")]) from None
-    except IsADirectoryError:
-        raise DataError([DataIssue(shown, f"is a folder, not a data file ({why})")]) from None
-    except OSError as exc:
-        raise DataError([DataIssue(shown, f"cannot read the data file: {exc.strerror}")]) from None
+        return read_regular(path, what="data file", shown=shown, max_bytes=max_bytes,
+                            limit_hint=DATA_LIMIT_HINT)
+    except FileRefused as exc:
+        raise DataError([DataIssue(shown, f"{exc.reason} ({why})")]) from None
 
 
 def _decode(raw: bytes, shown: str) -> tuple[str, str, list[str]]:
@@ -558,7 +574,7 @@ class _Tidy:
             for i, c in enumerate(self.spec.characteristics):
                 wanted.append((f"char:{i}", c.column))
         found: dict[str, int] = {}
-        shown_cols = ", ".join(repr(h) for h in header if h) or "(none)"
+        shown_cols = ", ".join(_show(h) for h in header if h) or "(none)"
         for role, name in wanted:
             where = (f"characteristics[{role[5:]}].column" if role.startswith("char:")
                      else role)
@@ -572,7 +588,7 @@ class _Tidy:
                 msg = f"no column {name!r} ({where} in the spec); the columns are: {shown_cols}"
                 near = _near(name, [h for h in header if h])
                 if near:
-                    msg += f"; did you mean {near!r}?"
+                    msg += f"; did you mean {_show(near)}?"
                 self.issue(msg, row=1, column=name)
             else:
                 found[role] = hits[0]
@@ -594,12 +610,12 @@ class _Tidy:
             if other.any():
                 values = ptext[other]
                 if ds.ignore_other:
-                    reasons = {v: f"process value {v!r} is neither old nor new "
+                    reasons = {v: f"process value {_show(v)} is neither old nor new "
                                   "(data.ignore_other)" for v in values.unique()}
                     scope[other] = values.map(reasons).to_numpy(dtype=object)
                     counts = values.value_counts(sort=False)
                     self.notes.append("left out, process neither old nor new: " + ", ".join(
-                        f"{v!r} ({n} rows)" for v, n in counts.items()))
+                        f"{_show(v)} ({n} rows)" for v, n in counts.items()))
                 else:
                     self.other_process_issues(values, rows[other])
         else:
@@ -614,8 +630,8 @@ class _Tidy:
                 hit_old = [p for p in lots.old if fnmatchcase(lot_id, p)]
                 hit_new = [p for p in lots.new if fnmatchcase(lot_id, p)]
                 if hit_old and hit_new:
-                    self.issue(f"lot {lot_id!r} matches lots.old ({hit_old[0]!r}) and lots.new "
-                               f"({hit_new[0]!r}): make the lists exclusive",
+                    self.issue(f"lot {_show(lot_id)} matches lots.old ({hit_old[0]!r}) and "
+                               f"lots.new ({hit_new[0]!r}): make the lists exclusive",
                                row=int(rows[first[j]]), column=self.ds.lot)
                 elif hit_old:
                     proc_u[j] = "old"
@@ -631,7 +647,7 @@ class _Tidy:
             self.unassigned = tuple(name for name, _ in left_out)
             if left_out:
                 self.notes.append("lots in neither lots list, left out: " + ", ".join(
-                    f"{k} ({n} rows)" for k, n in left_out))
+                    f"{_cut(k)} ({n} rows)" for k, n in left_out))
         return process, scope
 
     def other_process_issues(self, values: pd.Series, rows: np.ndarray) -> None:
@@ -641,7 +657,7 @@ class _Tidy:
             groups.setdefault(v, []).append(r)
         for v, rs in list(groups.items())[:MAX_REPORTED]:
             shown = ", ".join(str(r) for r in rs[:5]) + (", ..." if len(rs) > 5 else "")
-            what = "an empty process value" if v == "" else f"process value {v!r}"
+            what = "an empty process value" if v == "" else f"process value {_show(v)}"
             count = f"{len(rs)} rows (rows {shown})" if len(rs) > 1 else f"1 row (row {shown})"
             self.issue(f"{what} is neither old ({_list(ds.old)}) nor new ({_list(ds.new)}); "
                        f"{count}. Add it to data.old or data.new, or set data.ignore_other: "
@@ -667,8 +683,9 @@ class _Tidy:
                 use_numbers = np.isfinite(numbers).sum() >= ok.sum()
                 bad = ~np.isfinite(numbers) if use_numbers else ~ok
                 self.report_cells(bad & (scope == ""), self.ds.order,
-                                  lambda v: f"{v!r} in the order column is neither a number nor "
-                                  "a date-time (such as 2024-03-05 14:20)", self.sheet.rows,
+                                  lambda v: f"{_show(v)} in the order column is neither a "
+                                  "number nor a date-time (such as 2024-03-05 14:20)",
+                                  self.sheet.rows,
                                   cells)
                 keys = np.where(bad, np.inf, numbers if use_numbers else
                                 times.to_numpy(dtype="datetime64[ns]").astype(np.int64))
@@ -701,8 +718,8 @@ class _Tidy:
                     msg = (f"exclude[{i}]{line} names lot {pattern!r}, which is not in the "
                            f"file")
                     near = _near(pattern, lots_present)
-                    msg += f"; did you mean {near!r}?" if near else (
-                        f"; lots present: {', '.join(lots_present[:15])}"
+                    msg += f"; did you mean {_show(near)}?" if near else (
+                        f"; lots present: {', '.join(_cut(x) for x in lots_present[:15])}"
                         + (", ..." if len(lots_present) > 15 else ""))
                     self.issue(msg, column=self.ds.lot)
                     continue
@@ -731,13 +748,13 @@ class _Tidy:
                 mask = ctext == c.match
                 matched |= mask
                 if not mask.any():
-                    shown = ", ".join(repr(x) for x in present[:15]) or "(none)"
+                    shown = ", ".join(_show(x) for x in present[:15]) or "(none)"
                     msg = (f"no rows for characteristic {c.name!r}: column "
                            f"{self.ds.characteristic!r} has no value {c.match!r}; its values "
                            f"are: {shown}")
                     near = _near(c.match, [x for x in present if x])
                     if near:
-                        msg += f"; did you mean {near!r}? (set match: in the spec)"
+                        msg += f"; did you mean {_show(near)}? (set match: in the spec)"
                     self.issue(msg, column=self.ds.characteristic)
                     continue
                 where = np.flatnonzero(mask)
@@ -747,7 +764,7 @@ class _Tidy:
             other = ~matched
             if other.any():
                 names = list(dict.fromkeys(ctext[other].tolist()))
-                shown = ", ".join(repr(x) if x else "(empty)" for x in names[:10])
+                shown = ", ".join(_show(x) if x else "(empty)" for x in names[:10])
                 self.notes.append(f"{int(other.sum())} rows measure characteristics the spec "
                                   f"does not name ({shown}{', ...' if len(names) > 10 else ''})"
                                   ": not used")
@@ -845,21 +862,21 @@ class _Tidy:
             column = c.column if self.ds.layout == "wide" else self.ds.value
             v = text[i]
             if np.isinf(values[i]):
-                msg = (f"{v!r} is an infinite value ({c.name}): a measurement must be a finite "
-                       "number")
+                msg = (f"{_show(v)} is an infinite value ({c.name}): a measurement must be a "
+                       "finite number")
             elif abs(values[i]) > MAX_ABS_VALUE:
-                msg = (f"{v!r} is outside the range verify computes with ({c.name}: |value| "
+                msg = (f"{_show(v)} is outside the range verify computes with ({c.name}: |value| "
                        f"<= {MAX_ABS_VALUE:g}): correct the cell or its unit")
             elif self.wrong_sep[i]:
                 other = "," if decimal == "." else "."
-                msg = (f"{v!r} is not a number with the decimal separator {decimal!r} "
+                msg = (f"{_show(v)} is not a number with the decimal separator {decimal!r} "
                        f"({c.name}): correct the cell, or set data.decimal: {other!r} if the "
                        f"whole file writes {other!r} for decimals")
             elif v == "":
                 msg = (f"empty cell ({c.name}), and '' is not one of the declared missing texts "
                        f"{declared}: add '' to data.missing or fill in the cell")
             else:
-                msg = (f"{v!r} is not a number and not one of the declared missing texts "
+                msg = (f"{_show(v)} is not a number and not one of the declared missing texts "
                        f"{declared} ({c.name}): add it to data.missing or correct the cell")
             self.issue(msg, row=int(rows[i]), column=column)
         if len(hits) > MAX_REPORTED:
@@ -884,7 +901,7 @@ class _Tidy:
                 break
             rs = sorted(set(g["r"].tolist()))
             what = f" ({', '.join(dict.fromkeys(g['c']))})" if long else ""
-            self.issue(f"pair key {key!r} appears more than once for the {proc} process{what}"
+            self.issue(f"pair key {_show(key)} appears more than once for the {proc} process{what}"
                        f" (rows {', '.join(str(r) for r in rs)}): a key pairs one old row with "
                        "one new row", row=rs[0], column=self.ds.pair)
 
@@ -901,6 +918,26 @@ def _file_info(spec: Spec, table: pd.DataFrame, sheet: _Sheet, raw: bytes) -> Da
         rows_read=sheet.rows_read, rows_used=rows_used,
         rows_excluded=sheet.rows_read - rows_used, exclusions=exclusions, sheet=sheet.sheet,
     )
+
+
+SHOWN_CHARS = 80  # a cell's text in a message is cut to this many characters
+
+
+def _cut(value: object, limit: int = SHOWN_CHARS) -> str:
+    """A cell's text for a message, cut when long ("ab…  (1,048,576 characters)")."""
+    s = value if isinstance(value, str) else str(value)
+    if len(s) <= limit:
+        return s
+    return f"{s[:limit]}… ({len(s):,} characters)"
+
+
+def _show(value: object, limit: int = SHOWN_CHARS) -> str:
+    """A cell's text quoted for a message (as ``repr``), cut when long: a bad cell of a
+    megabyte must not become a megabyte of error message."""
+    s = value if isinstance(value, str) else str(value)
+    if len(s) <= limit:
+        return repr(s)
+    return f"{s[:limit]!r}… ({len(s):,} characters)"
 
 
 def _near(word: str, options: Sequence[str]) -> str | None:

@@ -157,7 +157,11 @@ def write_digest(path: Path, rows: Sequence[DigestRow], *, run: Sequence[tuple[s
     ws = wb.active
     ws.title = "Digest"
 
+    from .report.cells import clean_text
+
     def put(r: int, c: int, value, **style):
+        if isinstance(value, str):
+            value = clean_text(value)  # spec paths and messages may hold control characters
         cell = ws.cell(row=r, column=c, value=value)
         if isinstance(value, str):
             cell.data_type = "s"  # text from input files is never a formula

@@ -24,18 +24,39 @@ class Outputs:
 
 
 def prepare(spec_path: str | Path, *, final: bool = False, command: str | None = None,
-            text: str | None = None) -> Evaluation:
-    """Load the spec and its data and evaluate them; raises VerifyError on bad input."""
+            text: str | None = None, max_data_mb: float | None = None,
+            data_root: str | Path | None = None) -> Evaluation:
+    """Load the spec and its data and evaluate them; raises VerifyError on bad input.
+
+    ``max_data_mb`` limits the data file's size (default
+    :data:`verify.safe_open.DEFAULT_MAX_DATA_MB`); with ``data_root``, a data file that
+    resolves outside that folder is refused before it is opened.
+    """
     from .audit import run_info, utc_now
     from .data import load_measurements
     from .evaluate import evaluate
+    from .safe_open import max_data_bytes
     from .spec import load_spec
 
     started = utc_now()
     spec = load_spec(spec_path, text=text)
-    measurements = load_measurements(spec)
+    if data_root is not None:
+        check_data_root(spec.data.file, data_root, spec.path)
+    measurements = load_measurements(spec, max_bytes=max_data_bytes(max_data_mb))
     run = run_info(spec, measurements, command=command, started=started)
     return evaluate(spec, measurements, final=final, run=run)
+
+
+def check_data_root(data_file: str | Path, root: str | Path, spec_path: str | Path) -> None:
+    """Refuse a data file that resolves (links followed) outside ``root``; nothing is opened."""
+    from .errors import DataError, DataIssue
+
+    resolved = Path(data_file).resolve()
+    root = Path(root).resolve()
+    if not resolved.is_relative_to(root):
+        raise DataError([DataIssue(str(data_file), f"resolves to {resolved}, outside --data-root "
+                                   f"{root}: refused (move the data under the data root or "
+                                   f"change --data-root; spec {spec_path})")])
 
 
 @contextlib.contextmanager
@@ -74,19 +95,129 @@ class Staged:
     workbook_sha256: str
 
     def commit(self) -> Outputs:
-        os.replace(self.tmp_workbook, self.workbook)
-        os.replace(self.tmp_result, self.result)
-        return Outputs(self.workbook, self.result, self.workbook_sha256)
+        return commit_all([self])[0]
 
     def discard(self) -> None:
         for p in (self.tmp_workbook, self.tmp_result):
             with contextlib.suppress(FileNotFoundError):
                 p.unlink()
 
+    def pairs(self) -> list[tuple[Path, Path]]:
+        """(temporary file, target) in the order they are renamed."""
+        return [(self.tmp_workbook, self.workbook), (self.tmp_result, self.result)]
 
-def _temp_beside(target: Path) -> Path:
+
+class CommitError(OSError):
+    """Renaming the outputs into place failed; everything of this run was undone.
+
+    ``str()`` says which rename failed, why, and what was undone.
+    """
+
+
+def check_target(target: Path) -> None:
+    """A report may replace a regular file, never a folder, a device or a pipe."""
+    from .errors import UsageError
+    from .safe_open import kind_of
+
+    try:
+        st = os.stat(target)
+    except FileNotFoundError:
+        return
+    except OSError as exc:
+        raise UsageError(f"{target}: cannot write the report there ({exc.strerror})") from None
+    import stat as _stat
+
+    if not _stat.S_ISREG(st.st_mode):
+        raise UsageError(f"{target} is {kind_of(st.st_mode)}: a report cannot be written "
+                         "there; move it away or choose another --out (nothing was written)")
+
+
+def commit_all(staged: list[Staged]) -> list[Outputs]:
+    """Rename every staged output into place, or none.
+
+    Every target is checked first (a folder where a report goes stops the commit before any
+    rename). Each previous version of a target is kept aside (a hard link, else a copy) until
+    all renames succeeded; when one fails, every file this call renamed into place is removed,
+    the previous versions are put back, all temporary files are removed, and a
+    :class:`CommitError` says what happened.
+    """
+    pairs = [pair for st in staged for pair in st.pairs()]
+    try:
+        for _, target in pairs:
+            check_target(target)
+    except BaseException:
+        for st in staged:
+            st.discard()
+        raise
+    done: list[tuple[Path, Path | None]] = []  # (target, backup of its previous version)
+    failed: tuple[Path, BaseException] | None = None
+    for tmp, target in pairs:
+        backup = None
+        try:
+            if target.exists():
+                backup = _keep_aside(target)
+            os.replace(tmp, target)
+        except BaseException as exc:  # includes KeyboardInterrupt and SIGTERM's SystemExit
+            if backup is not None:
+                with contextlib.suppress(OSError):
+                    backup.unlink()
+            failed = (target, exc)
+            break
+        done.append((target, backup))
+    if failed is None:
+        for _, backup in done:
+            if backup is not None:
+                with contextlib.suppress(OSError):
+                    backup.unlink()
+        return [Outputs(st.workbook, st.result, st.workbook_sha256) for st in staged]
+    target, exc = failed
+    problems = _undo(done)
+    for st in staged:
+        st.discard()
+    if not isinstance(exc, Exception):
+        raise exc
+    why = getattr(exc, "strerror", None) or str(exc)
+    if not done:
+        told = "no file had been renamed yet"
+    else:
+        told = f"the {len(done)} file(s) already renamed in this run were removed"
+        if any(b is not None for _, b in done):
+            told += " and the previous versions put back"
+    end = ("could not undo: " + "; ".join(problems)) if problems else "nothing of this run remains"
+    raise CommitError(f"could not rename the new {target.name} into place at {target} ({why}); "
+                      f"{told}; the temporary files were removed; {end}") from exc
+
+
+def _keep_aside(target: Path) -> Path:
+    """A hidden copy of ``target``'s current version beside it (a hard link when possible)."""
+    import shutil
+
+    backup = _temp_beside(target, suffix=".keep.part")
+    backup.unlink()
+    try:
+        os.link(target, backup)
+    except OSError:
+        shutil.copy2(target, backup)
+    return backup
+
+
+def _undo(done: list[tuple[Path, Path | None]]) -> list[str]:
+    """Put back what :func:`commit_all` renamed; the problems met (none, normally)."""
+    problems = []
+    for target, backup in reversed(done):
+        try:
+            if backup is not None:
+                os.replace(backup, target)
+            else:
+                target.unlink()
+        except OSError as err:
+            problems.append(f"{target} ({err.strerror or err})")
+    return problems
+
+
+def _temp_beside(target: Path, suffix: str = ".part") -> Path:
     target.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".part", dir=target.parent)
+    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=suffix, dir=target.parent)
     os.close(fd)
     umask = os.umask(0)
     os.umask(umask)

@@ -128,6 +128,64 @@ def child_path(path: str, key: str | int) -> str:
     return f"{path}.{key}" if path else key
 
 
+def _yaml12_int(text: str) -> int:
+    """A YAML 1.2 core-schema decimal integer (``010`` is ten, not eight as in YAML 1.1)."""
+    return int(text, 10)
+
+
+def _yaml12_float(text: str) -> float:
+    """A YAML 1.2 core-schema float: decimal with optional exponent, ``.inf``, ``.nan``."""
+    low = text.lower()
+    if low.lstrip("+-") == ".inf":
+        return -math.inf if low.startswith("-") else math.inf
+    if low == ".nan":
+        return math.nan
+    return float(text)
+
+
+# Characters a spec value must not hold even through an escape ("\0", "\ud800"): a NUL and
+# UTF-16 surrogates, which are no characters at all (a report could not store them, nor a
+# file name contain them).
+FORBIDDEN_IN_TEXT = re.compile("[\x00\ud800-\udfff]")
+
+
+def forbidden_characters(root: yaml.Node) -> list[Problem]:
+    """Every scalar (key or value) of the node tree holding a NUL or a surrogate.
+
+    The walk is iterative (a hostile spec may nest deeply) and visits a shared (aliased) node
+    once.
+    """
+    out: list[Problem] = []
+    seen: set[int] = set()
+    stack: list[tuple[yaml.Node, str]] = [(root, "")]
+    while stack:
+        node, path = stack.pop()
+        if id(node) in seen:
+            continue
+        seen.add(id(node))
+        if isinstance(node, yaml.ScalarNode):
+            m = FORBIDDEN_IN_TEXT.search(node.value)
+            if m:
+                ch = m.group()
+                what = ("a NUL character (\\0)" if ch == "\x00" else
+                        f"a lone UTF-16 surrogate (\\u{ord(ch):04x})")
+                hint = ("remove it" if ch == "\x00" else "write the character itself, or "
+                        "escape it as \\U followed by 8 hex digits (\\U0001F600)")
+                out.append(Problem(path, f"the text holds {what}, which no report or file "
+                                   f"name can carry: {hint}", *_mark(node)))
+        elif isinstance(node, yaml.SequenceNode):
+            for i, child in enumerate(node.value):
+                stack.append((child, child_path(path, i)))
+        elif isinstance(node, yaml.MappingNode):
+            for key, value in node.value:
+                name = key.value if isinstance(key, yaml.ScalarNode) else "?"
+                name = FORBIDDEN_IN_TEXT.sub("\ufffd", str(name))
+                stack.append((key, child_path(path, name)))
+                stack.append((value, child_path(path, name)))
+    out.sort(key=lambda p: (p.line or 0, p.column or 0))
+    return out
+
+
 def _mark(node: yaml.Node) -> tuple[int, int]:
     return node.start_mark.line + 1, node.start_mark.column + 1
 
@@ -153,9 +211,9 @@ class _Validator:
                 # dates are kept as the text written (JSON has no date type)
                 return True, node.value
             if tag == _TAG + "int":
-                return True, self.constructor.construct_yaml_int(node)
+                return True, _yaml12_int(node.value)
             if tag == _TAG + "float":
-                return True, self.constructor.construct_yaml_float(node)
+                return True, _yaml12_float(node.value)
             if tag == _TAG + "bool":
                 return True, self.constructor.construct_yaml_bool(node)
             if tag == _TAG + "null":
@@ -289,7 +347,7 @@ class _Validator:
                          f"({len(value)} given)", _mark(node))
             return False
         if "pattern" in schema and not re.search(schema["pattern"], value):
-            msg = f"{value!r} is not in the expected form"
+            msg = f"{_show(node, value)} is not in the expected form"
             if schema.get("examples"):
                 msg += f"; write it like {schema['examples'][0]!r}"
             if schema.get("description"):
@@ -442,7 +500,11 @@ def _branch_accepts_kind(branch: dict, node: yaml.Node, kind: str) -> bool:
 
 def _show(node: yaml.Node, value: Any) -> str:
     if isinstance(node, yaml.ScalarNode):
-        return repr(node.value) if node.value != "" else "an empty value"
+        if node.value == "":
+            return "an empty value"
+        text = node.value
+        # a long value is cut: the message points at its line anyway
+        return repr(text) if len(text) <= 80 else f"{text[:80]!r}… ({len(text):,} characters)"
     return "a list" if isinstance(node, yaml.SequenceNode) else "a mapping"
 
 

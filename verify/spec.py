@@ -35,7 +35,7 @@ from typing import Any
 import yaml
 
 from .errors import SpecError, SpecIssue, UsageError
-from .schema import Document, child_path, validate
+from .schema import Document, child_path, forbidden_characters, validate
 from .spec_model import (
     CapabilityCheck,
     Characteristic,
@@ -92,6 +92,11 @@ def find_specs(paths: Iterable[str | os.PathLike]) -> list[Path]:
             found.extend(hits)
         elif p.is_file():
             found.append(p)
+        elif p.exists():
+            from .safe_open import kind_of
+
+            problems.append(f"{p}: is {kind_of(p.stat().st_mode)}, not a spec file or a folder "
+                            "of specs")
         else:
             problems.append(f"{p}: no such file or folder")
     if problems:
@@ -148,6 +153,10 @@ def load_spec(path: str | os.PathLike, *, text: str | None = None) -> Spec:
     root = _compose(body, file)
     if root is None:
         raise SpecError([SpecIssue(file, "", "the spec is empty", 1, 1)])
+    bad_text = forbidden_characters(root)
+    if bad_text:
+        raise SpecError([SpecIssue(file, p.path, p.message, p.line, p.column)
+                         for p in bad_text[:20]])
     doc = validate(root)
     checker = _Checker(file, doc)
     checker.problems_from_schema()
@@ -163,15 +172,16 @@ def _issue_order(issue: SpecIssue) -> tuple:
 
 
 def _read_text(path: Path) -> str:
+    from .safe_open import MAX_SPEC_BYTES, FileRefused, read_regular
+
     file = str(path)
+    if not path.exists() and not path.is_symlink():
+        raise SpecError([SpecIssue(file, "", "spec file not found")])
     try:
-        raw = path.read_bytes()
-    except FileNotFoundError:
-        raise SpecError([SpecIssue(file, "", "spec file not found")]) from None
-    except IsADirectoryError:
-        raise SpecError([SpecIssue(file, "", "is a folder, not a spec file")]) from None
-    except OSError as exc:
-        raise SpecError([SpecIssue(file, "", f"cannot read the spec: {exc.strerror}")]) from None
+        raw = read_regular(path, what="spec", max_bytes=MAX_SPEC_BYTES,
+                           limit_hint=" (a spec is a few kilobytes of text)")
+    except FileRefused as exc:
+        raise SpecError([SpecIssue(file, "", exc.reason)]) from None
     try:
         return raw.decode("utf-8")
     except UnicodeDecodeError as exc:
@@ -185,15 +195,41 @@ MAX_LINE_LENGTH = 32_000
 
 
 class SpecLoader(yaml.SafeLoader):
-    """The safe loader, reading numbers as YAML 1.2 does: PyYAML (YAML 1.1) takes 6e-3 or 1e5,
-    written without a dot or without an exponent sign, for text."""
+    """The safe loader, resolving plain scalars as the YAML 1.2 core schema does.
+
+    PyYAML follows YAML 1.1, where ``1_0`` and ``0x0A`` are 10, ``1:30`` is 90, ``010`` is 8 and
+    ``yes``/``no``/``on``/``off`` are booleans, while 6e-3 (no dot) is text: a typo must not
+    become a number. Here a number is decimal (``12``, ``-0.5``, ``.5``, ``6e-3``, ``1.5E+3``,
+    ``.inf``, ``.nan``), a boolean is ``true``/``false`` (any of their three spellings), null is
+    ``null``, ``~`` or nothing; everything else is text. The 1.2 core schema also reads ``0x``
+    and ``0o`` integers; a spec has no use for them, so they stay text too and fail validation
+    with their line.
+    """
 
 
-SpecLoader.add_implicit_resolver(
-    "tag:yaml.org,2002:float",
-    re.compile(r"^[-+]?(?:[0-9][0-9_]*(?:\.[0-9_]*)?|\.[0-9_]+)[eE][-+]?[0-9]+$"),
-    list("-+0123456789."),
-)
+def _yaml12_resolvers() -> dict:
+    keep = {"tag:yaml.org,2002:merge"}  # '<<' keeps merging mappings
+    table: dict = {}
+    for first, entries in yaml.SafeLoader.yaml_implicit_resolvers.items():
+        kept = [(tag, rx) for tag, rx in entries if tag in keep]
+        if kept:
+            table[first] = kept
+
+    def add(tag: str, pattern: str, firsts) -> None:
+        rx = re.compile(pattern)
+        for ch in firsts:
+            table.setdefault(ch, []).append((tag, rx))
+
+    add("tag:yaml.org,2002:bool", r"^(?:true|True|TRUE|false|False|FALSE)$", "tTfF")
+    add("tag:yaml.org,2002:null", r"^(?:~|null|Null|NULL|)$", ["~", "n", "N", ""])
+    add("tag:yaml.org,2002:int", r"^[-+]?[0-9]+$", "-+0123456789")
+    add("tag:yaml.org,2002:float",
+        r"^(?:[-+]?(?:\.[0-9]+|[0-9]+(?:\.[0-9]*)?)(?:[eE][-+]?[0-9]+)?"
+        r"|[-+]?\.(?:inf|Inf|INF)|\.(?:nan|NaN|NAN))$", "-+0123456789.")
+    return table
+
+
+SpecLoader.yaml_implicit_resolvers = _yaml12_resolvers()
 
 
 def _compose(text: str, file: str) -> yaml.Node | None:
@@ -214,7 +250,36 @@ def _compose(text: str, file: str) -> yaml.Node | None:
     except yaml.YAMLError as exc:
         raise SpecError([SpecIssue(file, "", f"YAML error: {exc}")]) from None
     except RecursionError:
-        raise SpecError([SpecIssue(file, "", "the YAML is nested too deeply")]) from None
+        line = _deep_line(text)
+        raise SpecError([SpecIssue(file, "", f"the YAML is nested too deeply (more than about "
+                                   f"{MAX_NESTING} levels of lists or mappings): a spec needs "
+                                   "a few levels", line, None)]) from None
+
+
+MAX_NESTING = 100
+
+
+def _deep_line(text: str) -> int | None:
+    """The line at which the nesting of lists and mappings first exceeds :data:`MAX_NESTING`.
+
+    Runs on the error path only: the YAML scanner reads tokens without recursion, so it can
+    find the place where the (recursive) composer gave up.
+    """
+    opens = (yaml.FlowSequenceStartToken, yaml.FlowMappingStartToken,
+             yaml.BlockSequenceStartToken, yaml.BlockMappingStartToken)
+    closes = (yaml.FlowSequenceEndToken, yaml.FlowMappingEndToken, yaml.BlockEndToken)
+    depth = 0
+    try:
+        for token in yaml.scan(text, Loader=SpecLoader):
+            if isinstance(token, opens):
+                depth += 1
+                if depth > MAX_NESTING:
+                    return token.start_mark.line + 1
+            elif isinstance(token, closes):
+                depth -= 1
+    except (yaml.YAMLError, RecursionError):
+        return None
+    return None
 
 
 # -- semantic checks --------------------------------------------------------------------------

@@ -19,9 +19,9 @@ from collections.abc import Iterable
 import numpy as np
 from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 
-# Characters XML 1.0 cannot carry at all (not even as character references), plus the
-# non-characters U+FFFE/U+FFFF and lone surrogates. They are dropped from text cells.
-XML_ILLEGAL = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ud800-\udfff\ufffe\uffff]")
+from .safe_text import XML_ILLEGAL as XML_ILLEGAL  # re-exported for the sheet writers
+from .safe_text import xml_safe
+
 EXCEL_CELL_MAX = 32_767  # characters in one cell
 SHEET_NAME_FORBIDDEN = re.compile(r"[\[\]:*?/\\]")
 SHEET_NAME_MAX = 31
@@ -114,11 +114,12 @@ def formats_for(decimals: int | None) -> dict[str, str]:
 
 
 def clean_text(text: object) -> str:
-    """Text safe for a cell: XML-illegal characters dropped, length within Excel's limit.
+    """Text safe for a cell: characters XML cannot carry replaced visibly
+    (:func:`~verify.report.safe_text.xml_safe`), length within Excel's limit.
 
     A text longer than a cell holds is cut with a visible marker, never silently.
     """
-    s = XML_ILLEGAL.sub("", str(text))
+    s = xml_safe(str(text))
     if len(s) > EXCEL_CELL_MAX:
         marker = f" ...[cut: {len(s)} characters in full]"
         s = s[: EXCEL_CELL_MAX - len(marker)] + marker
@@ -216,7 +217,8 @@ def sheet_name(name: str, taken: set[str], *, fallback: str = "Sheet") -> str:
     >>> sheet_name("Bore Ø [mm] / left: 1*2?", set())
     'Bore Ø _mm_ _ left_ 1_2_'
     """
-    s = XML_ILLEGAL.sub("", SHEET_NAME_FORBIDDEN.sub("_", str(name)))
+    s = xml_safe(SHEET_NAME_FORBIDDEN.sub("_", str(name)))
+    s = s.replace("\t", " ").replace("\n", " ").replace("\r", " ")
     s = s.strip().strip("'").strip()
     if not s:
         s = fallback

@@ -40,6 +40,7 @@ from .cells import (
 )
 from .charts import chart_title
 from .paper import keep_sections
+from .safe_text import xml_safe
 
 PLAN_SHEET = "Plan"
 CURVES_SHEET = "Power curves"
@@ -98,7 +99,7 @@ def _source_words(source: str) -> str:
 def _label(row: PlanRow) -> str:
     s = row.scenario
     who = f"{s.characteristic}: " if s.characteristic else ""
-    return f"{who}{s.check}, {s.test}"
+    return xml_safe(f"{who}{s.check}, {s.test}")  # a chart title: no XML-illegal characters
 
 
 def _results(ws, start: int, plan: Plan) -> int:

@@ -51,6 +51,7 @@ from .layout import (
 )
 from .measurements_sheet import add_placeholders, decimals_by_characteristic
 from .recheck import recheck_rows
+from .safe_text import escape_json_for_xml, xml_safe_evaluation
 from .styles import StyleBook
 from .summary import DECISION_COLOURS, write_summary
 from .xlsx_fast import StreamedSheet, splice, t_element
@@ -89,7 +90,9 @@ def write_workbook(
     """
     from openpyxl import Workbook
 
-    ev = evaluation
+    # every text from the spec and the data, made safe for the workbook's XML in one place
+    # (the JSON result keeps the original text)
+    ev = xml_safe_evaluation(evaluation)
     layout = measurement_layout(ev, rows_per_sheet=rows_per_sheet)
     decimals = decimals_by_characteristic(layout.table)
     started = _timestamp(ev.run.started)
@@ -269,6 +272,7 @@ def record_chunks(text: str, limit: int = RECORD_CHUNK) -> list[str]:
 
 
 def _record_placeholder(ws, record_json: str) -> StreamedSheet:
+    record_json = escape_json_for_xml(record_json)
     if XML_ILLEGAL.search(record_json):  # json.dumps escapes control characters
         raise ValueError("record_json holds characters a workbook cannot store")
     chunks = record_chunks(record_json)

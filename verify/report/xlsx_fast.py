@@ -9,7 +9,9 @@ generated chunk by chunk, into the placeholder's ``<sheetData>``. Memory stays f
 
 Every streamed text cell is an inline string (``t="inlineStr"``): it can never be read as a
 formula. Text is XML-escaped, carriage returns are kept as ``&#13;`` (a literal CR would be
-folded into a line feed by any XML parser), characters XML cannot carry are dropped.
+folded into a line feed by any XML parser), characters XML cannot carry are replaced visibly
+(:mod:`verify.report.safe_text`); as a last guard, :func:`splice` replaces any such control
+byte left in a part openpyxl wrote.
 
 The package is deterministic: every zip entry gets the same timestamp (the run's start) and the
 document properties' created/modified times are set from it, so the same Evaluation gives the
@@ -26,7 +28,7 @@ from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass
 from xml.etree import ElementTree as ET
 
-from .cells import XML_ILLEGAL
+from .safe_text import xml_legal
 
 _NS_MAIN = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
 _NS_REL = "http://schemas.openxmlformats.org/officeDocument/2006/relationships"
@@ -36,8 +38,8 @@ _ESCAPES = str.maketrans({"&": "&amp;", "<": "&lt;", ">": "&gt;", "\r": "&#13;"}
 
 
 def xml_text(text: str) -> str:
-    """Escape text for an XML element; drop what XML cannot carry; keep CR."""
-    return XML_ILLEGAL.sub("", text).translate(_ESCAPES)
+    """Escape text for an XML element; replace visibly what XML cannot carry; keep CR."""
+    return xml_legal(text).translate(_ESCAPES)
 
 
 def t_element(text: str) -> str:
@@ -87,6 +89,19 @@ def _sheet_parts(zin: zipfile.ZipFile) -> dict[str, str]:
             target = "xl/" + target
         out[sheet.get("name")] = target
     return out
+
+
+# Control bytes that no XML 1.0 document may contain, in any encoding of ours (UTF-8): a part
+# holding one would not open. openpyxl writes text as it is given; every text reaching it is
+# made safe first (safe_text), and this is the guard behind that.
+_CONTROL_BYTES = re.compile(rb"[\x00-\x08\x0b\x0c\x0e-\x1f]")
+
+
+def _guard_controls(data: bytes) -> bytes:
+    """Replace any XML-illegal control byte by U+FFFD (UTF-8), visibly."""
+    if _CONTROL_BYTES.search(data) is None:
+        return data
+    return _CONTROL_BYTES.sub("\ufffd".encode(), data)
 
 
 _SHEETDATA_EMPTY = re.compile(rb"<sheetData\s*/>")
@@ -164,6 +179,8 @@ def splice(
                 data = zin.read(info.filename)
                 sheet = by_part.get(info.filename)
                 if sheet is None:
+                    if info.filename.endswith((".xml", ".rels", ".vml")):
+                        data = _guard_controls(data)
                     if info.filename == "docProps/core.xml":
                         data = _core_properties(data, w3c)
                     zout.writestr(out, data, compresslevel=6)
