@@ -264,4 +264,4 @@ def _by_spec(ws, rows: Sequence[DigestRow]) -> None:
         r += 1
     last = max(1, r - 2)
     page_setup(ws, f"A1:B{last}", landscape=False, footer="every field, by spec")
-    keep_sections(ws, last_row=last, last_col=2)
+    keep_sections(ws, last_row=last, last_col=2, whole=True)

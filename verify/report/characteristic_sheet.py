@@ -33,10 +33,11 @@ from .cells import (
     section,
 )
 from .charts import BAND_ROWS, add_charts
-from .paper import apply_breaks, keep_together
+from .paper import KEEP_FIRST, apply_breaks, keep_together
 from .summary import decision_style, margin_text, put_decision_badge
 
 LABEL_WIDTH = 30
+SHORT_SECTION = 12  # rows: a section this short is kept whole on a page
 EXTRA_FORMAT = "0.000###"
 PPM_FORMAT = '[<0.1]"< 0.1";[<10]0.0;#,##0'
 CHECK_WIDTH = 24
@@ -494,12 +495,14 @@ def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: 
         landscape=True,
         footer=f"verify run {ev.run.run_id}",
     )
-    # keep each section whole where it fits a page (else its heading with its first rows),
+    # keep each short section whole and a long one's heading with its first rows,
     # and every band of charts on one page with the Charts heading before the first band
     blocks = []
     ends = [*sections[1:], last_row + 1]
     for start, nxt in zip(sections[:-1], ends[:-1], strict=True):
-        blocks.append((start, nxt - 2))
+        # a heading with its first rows (a whole section only when it is short)
+        end = nxt - 2
+        blocks.append((start, end if end - start <= SHORT_SECTION else start + KEEP_FIRST))
     bands = [(row + k * BAND_ROWS, row + (k + 1) * BAND_ROWS - 1)
              for k in range(chart_rows // BAND_ROWS)]
     if bands:

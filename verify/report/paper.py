@@ -117,8 +117,13 @@ def section_blocks(ws, last_row: int, *, size: float = 12) -> list[tuple[int, in
     return [(a, max(a, b)) for a, b in zip(starts, ends, strict=True)]
 
 
-def keep_sections(ws, *, last_row: int, last_col: int, title_rows: int = 0) -> None:
-    """Keep every section of a sheet on one page where it fits (page set-up done first)."""
+def keep_sections(
+    ws, *, last_row: int, last_col: int, title_rows: int = 0, whole: bool = False
+) -> None:
+    """Keep each section heading with its first rows (``whole``: the whole section, where it
+    fits a page) on one page. Call after the page set-up."""
     blocks = section_blocks(ws, last_row)
+    if not whole:
+        blocks = [(a, min(b, a + KEEP_FIRST)) for a, b in blocks]
     apply_breaks(ws, keep_together(ws, blocks, last_row=last_row, last_col=last_col,
                                    title_rows=title_rows))

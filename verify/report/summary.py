@@ -202,11 +202,9 @@ def write_summary(
     put(ws, 1, 1, title, font=TITLE_FONT)
     ws.row_dimensions[1].height = 24
 
-    # the top block: what was verified | why | the overall decision (the last two columns)
+    # the top block: what was verified, and the overall decision in the last two columns;
+    # below them, why, across the page
     badge = (last_col - 1, last_col)
-    info_end = 2
-    while info_end < badge[0] - 2 and sum(widths[1:info_end]) < 62:
-        info_end += 1
     info = (
         ("Change", ev.spec.change_id or "(no change id in the spec)"),
         ("Spec file", str(ev.spec.path)),
@@ -216,8 +214,8 @@ def write_summary(
     )
     for i, (label, value) in enumerate(info, start=2):
         put(ws, i, 1, label, font=Font(bold=True, color=INK))
-        put(ws, i, 2, value, align=Alignment(vertical="top", shrink_to_fit=True))
-        ws.merge_cells(start_row=i, start_column=2, end_row=i, end_column=info_end)
+        put(ws, i, 2, value, align=Alignment(vertical="top"))
+        ws.merge_cells(start_row=i, start_column=2, end_row=i, end_column=badge[0] - 2)
     put(ws, 2, badge[0], "Overall decision", font=Font(bold=True, color=INK))
     ws.merge_cells(start_row=2, start_column=badge[0], end_row=2, end_column=badge[1])
     fill = put_decision_badge(ws, 3, badge[0], ev.decision, size=26)
@@ -227,12 +225,11 @@ def write_summary(
         for col in range(badge[0], badge[1] + 1):
             ws.cell(r, col).fill = fill
     reasons = "\n".join(ev.reasons) if ev.reasons else "Every characteristic passed."
-    why = (info_end + 1, badge[0] - 1)
-    put(ws, 2, why[0], "Why", font=Font(bold=True, color=INK))
-    put(ws, 3, why[0], reasons, align=WRAP)
-    ws.merge_cells(start_row=3, start_column=why[0], end_row=6, end_column=why[1])
+    put(ws, 7, 1, "Why", font=Font(bold=True, color=INK), align=Alignment(vertical="top"))
+    put(ws, 7, 2, reasons, align=WRAP, font=Font(bold=True, color=INK))
+    ws.merge_cells(start_row=7, start_column=2, end_row=7, end_column=last_col)
 
-    row = 8
+    row = 9
     section(ws, row, "Characteristics: every check, with the number that decided it")
     row += 1
     header = row
