@@ -15,7 +15,6 @@ Without LibreOffice or poppler the tests skip loudly: the print layout is then N
 
 from __future__ import annotations
 
-import math
 import re
 import shutil
 import subprocess
@@ -144,8 +143,9 @@ def _charts_by_sheet(xlsx: Path) -> dict[str, list[dict]]:
             if ch.x_axis.title is not None:
                 x_title = "".join(r.t for p in ch.x_axis.title.tx.rich.p for r in (p.r or []))
             anchor = ch.anchor._from
+            height_emu = ch.anchor.ext.height  # the drawing's extent, as written
             charts.append({"title": title, "x_title": x_title, "row": anchor.row + 1,
-                           "height_pt": ch.height / 2.54 * 72})
+                           "height_pt": height_emu / EMU_PER_PT})
         if charts:
             out[ws.title] = (ws, charts)
     assert names  # the file is a zip
@@ -166,8 +166,11 @@ def test_no_chart_crosses_a_page_end(books, stem):
         breaks = sorted(b.id for b in ws.row_breaks.brk)
         for ch in charts:
             # on the sheet: no manual break inside the rows the chart covers
-            rows = math.ceil(ch["height_pt"] / 15.0)
-            inside = [b for b in breaks if ch["row"] <= b < ch["row"] + rows - 1]
+            top, need, rows = ch["row"], ch["height_pt"], 0
+            while need > 0:
+                need -= ws.row_dimensions[top + rows].height or 15.0
+                rows += 1
+            inside = [b for b in breaks if top <= b < top + rows - 1]
             assert not inside, f"{sheet}: chart {ch['title']!r} spans a page break"
             # on paper: the title (top of the chart) and the axis title (its foot) share a page
             title = _squash(ch["title"])[:40]

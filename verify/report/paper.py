@@ -66,7 +66,10 @@ def keep_together(
 
     A block taller than a page starts a page and runs on. ``title_rows`` rows repeated at the
     top of every page (from row 1) take their height from every page after the first.
-    Returns the break rows (a break after row r starts the next page with row r + 1).
+    Every page end is returned, not only those before kept blocks: with all of them explicit,
+    a program that would fit more rows on a page (wider fonts scale the sheet down further)
+    still ends each page where it was reckoned here. Returns the break rows (a break after
+    row r starts the next page with row r + 1).
     """
     fix_heights(ws, 1, last_row)
     capacity = page_rows_pt(ws, last_col)
@@ -86,7 +89,11 @@ def keep_together(
             if used > 0 and used + need > room:
                 breaks.append(r - 1)
                 used, room = 0.0, capacity - repeat
-        if used + h > room and used > 0:  # the program breaks here by itself
+        if used + h > room and used > 0:
+            # the page is full: break here explicitly, so that every program starts the next
+            # page at this row (one with wider columns would scale smaller and fill a page
+            # further, and the blocks after it would no longer fall as reckoned)
+            breaks.append(r - 1)
             used, room = 0.0, capacity - repeat
         used += h
         r += 1

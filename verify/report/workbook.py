@@ -327,12 +327,14 @@ def _write_recheck(ws, ev: Evaluation, layout: MeasurementLayout) -> None:
 
 
 def _recheck_as_table(ws, n_rows: int) -> None:
-    """Print the recheck sheet as a readable table: widths, heading, grid, agreement colours."""
-    from openpyxl.formatting.rule import CellIsRule
-    from openpyxl.styles import Alignment, Font, PatternFill
+    """Print the recheck sheet as a readable table: widths, heading, grid, header repeated.
+
+    (No conditional colours on the Agrees column: LibreOffice 7.4 stops converting such a
+    sheet when a cell-value rule compares the logical results with TRUE.)"""
+    from openpyxl.styles import Alignment, Font
     from openpyxl.utils import get_column_letter
 
-    from .cells import HEADER, HEADER_FONT, OUTCOME_TINTS, fit_rows, page_setup
+    from .cells import HEADER, HEADER_FONT, fit_rows, page_setup
     from .recheck import COLUMNS, HEADER_ROW, SUMMARY_ROW
 
     for j, w in enumerate((44, 21, 21, 12, 9, 64), start=1):
@@ -342,25 +344,17 @@ def _recheck_as_table(ws, n_rows: int) -> None:
         cell.font, cell.fill = HEADER_FONT, HEADER
         cell.alignment = Alignment(wrap_text=True, vertical="bottom")
     ws.cell(1, 1).font = Font(bold=True, size=13)
-    ws.merge_cells(start_row=2, start_column=1, end_row=2, end_column=len(COLUMNS))
-    ws.cell(2, 1).alignment = Alignment(wrap_text=True, vertical="top")
+    if all(ws.cell(2, j).value is None for j in range(2, len(COLUMNS) + 1)):
+        # the explanation line: wrapped across the table's width
+        ws.merge_cells(start_row=2, start_column=1, end_row=2, end_column=len(COLUMNS))
+        ws.cell(2, 1).alignment = Alignment(wrap_text=True, vertical="top")
     for r in (SUMMARY_ROW, *range(HEADER_ROW + 1, n_rows + 1)):
         a, b = ws.cell(r, 1), ws.cell(r, 2)
         if isinstance(a.value, str) and b.value is None and ws.cell(r, 3).value is None:
             a.font = Font(bold=True)  # a block's heading: the characteristic or check
-        agrees = ws.cell(r, 5)
-        agrees.alignment = Alignment(horizontal="center")
-        # some programs show a logical result as 1 or 0: spell it out whatever they do
-        agrees.number_format = '"TRUE";"TRUE";"FALSE"'
+        ws.cell(r, 5).alignment = Alignment(horizontal="center")
         ws.cell(r, 6).alignment = Alignment(wrap_text=True, vertical="top")
     fit_rows(ws)
-    agrees = f"E{HEADER_ROW + 1}:E{max(n_rows, HEADER_ROW + 1)}"
-    for value, outcome in (("TRUE", "PASS"), ("FALSE", "HOLD")):
-        ws.conditional_formatting.add(
-            agrees,
-            CellIsRule(operator="equal", formula=[value],
-                       fill=PatternFill("solid", bgColor=OUTCOME_TINTS[outcome])),
-        )
     ws.freeze_panes = f"A{HEADER_ROW + 1}"
     ws.print_options.gridLines = True
     page_setup(
