@@ -49,7 +49,8 @@ def write_edge_specs(folder: Path) -> None:
                      f"{10 + rng.normal(0, 0.2):.3f}")
         when += 1
         gap_new = gap_old + 0.01 + rng.normal(0, 0.03)
-        lines.append(f"{lots_new[i % 3]},new,{key},{when},{gap_new:.4f},"
+        # unequal new lot sizes (6, 6, 12): the lot-range sigma pools them with weights
+        lines.append(f"{lots_new[(0, 1, 2, 2)[i % 4]]},new,{key},{when},{gap_new:.4f},"
                      f"{10.05 + rng.normal(0, 0.35):.3f}")
         when += 1
     (folder / "edge.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
@@ -75,13 +76,14 @@ def write_edge_specs(folder: Path) -> None:
             limits: [9, 11]
             checks:
               shift: {design: welch}
-              spread: {method: brown-forsythe}
+              spread: {method: brown-forsythe, design: independent}
               capability: {subgroup: lot}
         """), encoding="utf-8")
     (folder / "edge-lots.yaml").write_text(textwrap.dedent("""\
         format: verify/1
         title: Edge cases, lot means with awkward lot names
         unit_of_analysis: lot
+        multiplicity: holm
         data: {file: edge.csv, lot: lot, process: process, old: old, new: new}
         characteristics:
           - name: width
@@ -93,6 +95,7 @@ def write_edge_specs(folder: Path) -> None:
               target:
               shift: {design: pooled}
               spread:
+              capability: {index: ppk, min: 0.5, judge: lower_bound, confidence: 0.9}
         """), encoding="utf-8")
 
 
@@ -467,7 +470,7 @@ def test_adjusted_p_values_are_recomputed_from_the_p_cells(method):
             assert adj[1].startswith("=MIN(1,") and "*$B$" in adj[1]
         else:
             assert "SUMPRODUCT(MAX(" in adj[1]
-    _, m_row = sec["m, the number of difference tests"]
+    _, m_row = sec["m, the number of tests in the family"]
     assert m_row[2] == len(family)
 
 

@@ -127,29 +127,48 @@ def test_moving_range_sigma_agrees_with_individuals_chart():
     assert r.cp == pytest.approx(2.0 / (6 * r.sigma_within))
 
 
-def test_unequal_subgroups_average_scaled_ranges():
+def test_unequal_subgroups_pool_scaled_ranges_with_burr_weights():
     x = [1.0, 2.0, 4.0, 1.0, 1.5, 3.0, 3.0, 7.0]
     lots = ["a", "a", "a", "b", "b", "c", "c", "d"]  # sizes 3, 2, 2 and one single value
     r = capability(x, lower=-10.0, upper=15.0, subgroups=lots)
-    # ranges 3 (n 3), 0.5 (n 2), 0 (n 2); lot d has one value and is left out
-    expected = (3 / 1.693 + 0.5 / 1.128 + 0 / 1.128) / 3  # d2(3) = 1.693, d2(2) = 1.128
+    # ranges 3 (n 3), 0.5 (n 2), 0 (n 2); lot d has one value and is left out. Each R_i / d2(n_i)
+    # is unbiased; Burr (1969) weights them by f_i = d2(n_i)^2 / d3(n_i)^2 (ASTM E2587's
+    # weighted form; both cited from memory). Tabled d2(2) = 1.128, d2(3) = 1.693,
+    # d3(2) = 0.853, d3(3) = 0.888 (Montgomery, Appendix VI).
+    f3, f2 = 1.693**2 / 0.888**2, 1.128**2 / 0.853**2
+    expected = (f3 * 3 / 1.693 + f2 * 0.5 / 1.128 + f2 * 0 / 1.128) / (f3 + 2 * f2)
     assert r.sigma_within == pytest.approx(expected, rel=1e-12)
-    assert r.n_subgroups == 3 and "unequal" in r.sigma_method and "left out" in r.sigma_method
+    assert r.n_subgroups == 3 and "Burr" in r.sigma_method and "left out" in r.sigma_method
+    # the effective df of the pooled estimate: Var = sigma^2 / sum f_i, nu = sum f_i / 2
+    assert r.sigma_within_df == pytest.approx((f3 + 2 * f2) / 2, rel=1e-12)
+
+
+def test_equal_subgroups_keep_rbar_over_d2():
+    # with equal sizes the weights are equal and the estimate is the familiar Rbar / d2(n)
+    x = [1.0, 2.0, 4.0, 1.0, 1.5, 3.0]
+    r = capability(x, lower=-10.0, upper=15.0, subgroups=["a"] * 3 + ["b"] * 3)
+    assert r.sigma_within == pytest.approx((3 + 2) / 2 / 1.693, rel=1e-12)
 
 
 def test_bissell_bounds():
     x = np.linspace(9.0, 11.0, 30)
     r = capability(x, lower=8.0, upper=12.5)
-    lb = r.cpk_lower_bound(0.95)
     z = special.ndtri(0.95)
-    se = math.sqrt(1 / (9 * 30) + r.cpk**2 / (2 * 29))  # Bissell (1990)
-    assert lb == pytest.approx(r.cpk - z * se, rel=1e-12)
+    # Ppk rests on the overall sd (n - 1 df): Bissell (1990) as printed
+    lb = r.ppk_lower_bound(0.95)
+    se = math.sqrt(1 / (9 * 30) + r.ppk**2 / (2 * 29))  # Bissell (1990)
+    assert lb == pytest.approx(r.ppk - z * se, rel=1e-12)
     # the one-sided 95% bound is the lower end of the two-sided 90% interval
-    assert lb == pytest.approx(capability(x, lower=8.0, upper=12.5, level=0.9).cpk_interval.low)
-    assert r.ppk_lower_bound(0.95) < r.ppk
-    # for Cpk > 0 the additive form equals Cpk (1 - z sqrt(1/(9 n Cpk^2) + 1/(2(n-1))))
-    mult = r.cpk * (1 - z * math.sqrt(1 / (9 * 30 * r.cpk**2) + 1 / (2 * 29)))
+    assert lb == pytest.approx(capability(x, lower=8.0, upper=12.5, level=0.9).ppk_interval.low)
+    # for Ppk > 0 the additive form equals Ppk (1 - z sqrt(1/(9 n Ppk^2) + 1/(2(n-1))))
+    mult = r.ppk * (1 - z * math.sqrt(1 / (9 * 30 * r.ppk**2) + 1 / (2 * 29)))
     assert lb == pytest.approx(mult, rel=1e-12)
+    # Cpk's moving-range sigma has fewer effective df than n - 1, so its bound is lower
+    nu = r.sigma_within_df
+    assert nu < 29
+    cpk_lb = r.cpk_lower_bound(0.95)
+    assert cpk_lb == pytest.approx(r.cpk - z * math.sqrt(1 / 270 + r.cpk**2 / (2 * nu)), rel=1e-12)
+    assert r.lower_bound("cpk") == cpk_lb and r.lower_bound("ppk") == lb
     assert math.isfinite(bissell_lower_bound(0.0, 30))  # defined at Cpk = 0
 
 

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import pytest
 from hypothesis import given, settings
@@ -9,7 +11,13 @@ from hypothesis import strategies as st
 from scipy import stats
 
 from verify.stats.errors import DegenerateDataError
-from verify.stats.nonparametric import mann_whitney, wilcoxon_signed_rank
+from verify.stats.nonparametric import (
+    average_ranks,
+    mann_whitney,
+    rank_sum_counts,
+    signed_rank_counts,
+    wilcoxon_signed_rank,
+)
 
 ALTS = ("two-sided", "less", "greater")
 SETTINGS = settings(max_examples=50, deadline=None)
@@ -57,7 +65,7 @@ def test_signed_rank_exact_matches_scipy(d, alternative):
     r = wilcoxon_signed_rank(d, alternative=alternative)
     ref = stats.wilcoxon(d, alternative=alternative, method="exact")  # scipy reference
     assert r.exact
-    assert r.pvalue == pytest.approx(ref.pvalue, rel=1e-10)
+    assert r.pvalue == pytest.approx(ref.pvalue, rel=1e-12, abs=1e-12)
     ranks = stats.rankdata(np.abs(d))
     assert r.statistic == pytest.approx(ranks[np.asarray(d) > 0].sum())
 
@@ -86,7 +94,7 @@ def test_signed_rank_with_ties_and_zeros_matches_scipy(d, alternative, zero_meth
         # scipy: wilcoxon(d, zero_method=..., correction=True, method="asymptotic")
         ref = stats.wilcoxon(arr, zero_method=zero_method, correction=True,
                              alternative=alternative, method="asymptotic")
-    assert r.pvalue == pytest.approx(float(ref.pvalue), rel=1e-9, abs=1e-15)
+    assert r.pvalue == pytest.approx(float(ref.pvalue), rel=1e-12, abs=1e-12)
 
 
 def test_signed_rank_reports_zeros_ties_and_method():
@@ -128,7 +136,7 @@ def test_mann_whitney_matches_scipy(old, new, alternative):
     ref = stats.mannwhitneyu(new, old, alternative=alternative, method=method)
     assert r.exact == (method == "exact")
     assert r.statistic == pytest.approx(float(ref.statistic))
-    assert r.pvalue == pytest.approx(float(ref.pvalue), rel=1e-9, abs=1e-15)
+    assert r.pvalue == pytest.approx(float(ref.pvalue), rel=1e-12, abs=1e-12)
 
 
 @SETTINGS
@@ -157,3 +165,79 @@ def test_rank_tests_degenerate_inputs():
         mann_whitney([], [1.0, 2.0])
     with pytest.raises(ValueError, match="zero_method"):
         wilcoxon_signed_rank([1.0, 2.0], zero_method="zsplit")
+
+
+# --- our own arithmetic against scipy (the route the tests above replaced in the code) -------
+
+
+@pytest.mark.parametrize("n", [1, 2, 5, 13, 30, 50])
+def test_signed_rank_null_counts(n):
+    counts = signed_rank_counts(n)
+    # every one of the 2^n sign patterns gives one W+ in 0..n(n+1)/2, symmetric about the middle
+    assert sum(counts) == 2**n
+    assert len(counts) == n * (n + 1) // 2 + 1
+    assert counts == counts[::-1]
+    # n = 5 by hand: W+ = 0 only with every sign negative, W+ = 1 only with rank 1 positive,
+    # W+ = 3 with {3} or {1, 2} positive
+    if n == 5:
+        assert counts[:4] == (1, 1, 1, 2)
+
+
+@pytest.mark.parametrize(("m", "n"), [(1, 1), (2, 3), (5, 10), (12, 30), (49, 49)])
+def test_rank_sum_null_counts(m, n):
+    counts = rank_sum_counts(m, n)
+    assert sum(counts) == math.comb(m + n, m)
+    assert len(counts) == m * n + 1
+    assert counts == counts[::-1]
+    assert rank_sum_counts(n, m) == counts
+
+
+@pytest.mark.parametrize("n", [10, 29, 30, 49, 50])
+@pytest.mark.parametrize("alternative", ALTS)
+def test_signed_rank_exact_largest_sizes_match_scipy(n, alternative):
+    rng = np.random.default_rng(n)
+    d = rng.normal(0.3, 1.0, n)
+    r = wilcoxon_signed_rank(d, alternative=alternative)
+    ref = stats.wilcoxon(d, alternative=alternative, method="exact")  # scipy reference
+    assert r.exact
+    assert r.pvalue == pytest.approx(float(ref.pvalue), rel=1e-12, abs=1e-12)
+
+
+@pytest.mark.parametrize(("m", "n"), [(3, 4), (20, 30), (49, 49), (49, 10)])
+@pytest.mark.parametrize("alternative", ALTS)
+def test_mann_whitney_exact_largest_sizes_match_scipy(m, n, alternative):
+    rng = np.random.default_rng(m * 100 + n)
+    old, new = rng.normal(0, 1, m), rng.normal(0.4, 1, n)
+    r = mann_whitney(old, new, alternative=alternative)
+    ref = stats.mannwhitneyu(new, old, alternative=alternative, method="exact")  # scipy
+    assert r.exact
+    assert r.pvalue == pytest.approx(float(ref.pvalue), rel=1e-12, abs=1e-12)
+
+
+@pytest.mark.parametrize("n", [51, 120, 600])
+@pytest.mark.parametrize("alternative", ALTS)
+def test_rank_tests_large_samples_normal_route_match_scipy(n, alternative):
+    rng = np.random.default_rng(n)
+    d = np.round(rng.normal(0.1, 1.0, n), 1)  # rounded: ties and zeros
+    for zero_method in ("wilcox", "pratt"):
+        r = wilcoxon_signed_rank(d, alternative=alternative, zero_method=zero_method)
+        data = d[d != 0] if zero_method == "wilcox" else d
+        ref = stats.wilcoxon(data, zero_method=zero_method, correction=True,
+                             alternative=alternative, method="asymptotic")  # scipy
+        assert not r.exact
+        assert r.pvalue == pytest.approx(float(ref.pvalue), rel=1e-12, abs=1e-12)
+    old, new = np.round(rng.normal(0, 1, n), 1), np.round(rng.normal(0.2, 1, n + 7), 1)
+    r = mann_whitney(old, new, alternative=alternative)
+    ref = stats.mannwhitneyu(new, old, alternative=alternative, method="asymptotic")  # scipy
+    assert r.pvalue == pytest.approx(float(ref.pvalue), rel=1e-12, abs=1e-12)
+    assert r.statistic == float(ref.statistic)
+
+
+@SETTINGS
+@given(tied_floats)
+def test_average_ranks_match_scipy_rankdata(values):
+    a = np.asarray(values)
+    ranks, sizes = average_ranks(a)
+    np.testing.assert_array_equal(ranks, stats.rankdata(a))  # scipy's average ranks
+    _, counts = np.unique(a, return_counts=True)
+    np.testing.assert_array_equal(sizes, counts)

@@ -20,7 +20,6 @@ from collections.abc import Callable, Sequence
 from . import __version__
 from .cli_run import add_max_data_mb, add_replay, add_run, cmd_replay, cmd_run
 from .errors import VerifyError
-from .nightly import add_nightly, nightly_main
 
 EXIT_OK = 0
 EXIT_INVALID = 2
@@ -90,6 +89,13 @@ def describe_plan(spec, measurements) -> list[str]:
         kind = f"sheet {f.sheet!r}" if f.sheet else f.encoding
         lines.append(f"  data: {f.path} ({ds.layout} layout, {kind}): {f.rows_read} rows read, "
                      f"{f.rows_used} used, {f.rows_excluded} without a used measurement")
+    table = spec.characteristics_table
+    if table is not None:
+        sheet = f", sheet {table.sheet!r}" if table.sheet else ""
+        from_yaml = len(spec.characteristics) - table.rows
+        lines.append(f"  characteristics: {table.rows} from {table.file_text}{sheet} (sha256 "
+                     f"{table.sha256[:12]}...)" + (f", {from_yaml} more from the spec"
+                                                   if from_yaml > 0 else ""))
     if ds.process is not None:
         lines.append(f"  old/new by column {ds.process!r}: old = {_names(ds.old)}, "
                      f"new = {_names(ds.new)}")
@@ -99,7 +105,7 @@ def describe_plan(spec, measurements) -> list[str]:
     settings = [f"alpha {spec.alpha:g}", f"unit of analysis: {spec.unit_of_analysis}",
                 f"multiplicity: {spec.multiplicity}"]
     if spec.min_n is not None:
-        settings.append(f"min_n {spec.min_n}")
+        settings.append(f"min_n {spec.min_n_text}")
     lines.append("  " + ", ".join(settings))
     counts = {r: n for f in measurements.files for r, n in f.exclusions}
     for e in spec.exclude:
@@ -127,22 +133,27 @@ def describe_plan(spec, measurements) -> list[str]:
             lots = list(dict.fromkeys(av.lots))
             n = (f"n {len(av.values)} lots ({av.n_parts} parts)" if av.unit == "lot"
                  else f"n {len(av.values)}")
-            short = (f"; fewer than min_n {spec.min_n}" if spec.min_n is not None
-                     and len(av.values) < spec.min_n else "")
+            plan = spec.planned(proc)
+            short = (f"; fewer than min_n {plan}" if plan is not None
+                     and len(av.values) < plan else "")
             lines.append(f"    {proc}: {n} in {len(lots)} lot{'s' if len(lots) != 1 else ''} "
                          f"({_names(lots, 6, quote=False)}){short}")
         ch = c.checks
-        if ch.shift is not None and ch.shift.design == "paired":
+        if (ch.shift is not None and ch.shift.design == "paired") or (
+                ch.spread is not None and ch.spread.design == "paired"):
             pv = paired_values(measurements, spec, c.name)
             extra = f" ({_names(pv.unmatched, 5, quote=False)})" if pv.unmatched else ""
+            plan = spec.planned("pairs")
+            short = (f"; fewer than min_n {plan} (the pairs are the units)"
+                     if plan is not None and len(pv.keys) < plan else "")
             lines.append(f"    pairs: {len(pv.keys)} matched, {len(pv.unmatched)} unmatched"
-                         f"{extra}")
-        for text in _check_words(c):
+                         f"{extra}{short}")
+        for text in _check_words(c, spec.unit_of_analysis):
             lines.append(f"    check {text}")
     return lines
 
 
-def _check_words(c) -> list[str]:
+def _check_words(c, unit_of_analysis: str = "part") -> list[str]:
     ch, out = c.checks, []
     u = f" {c.unit}" if c.unit else ""
 
@@ -167,15 +178,25 @@ def _check_words(c) -> list[str]:
         design = f", {ch.shift.design}"
         out.append("shift: " + margin_claim(m, "new minus old", design) if m else
                    f"shift: new against old (difference test, {ch.shift.design}, {c.side})")
-    if ch.spread is not None and ch.shift is not None and ch.shift.design == "paired":
-        out.append("spread: new spread not larger than old (Pitman-Morgan, paired, one-sided)")
+    if ch.spread is not None and ch.spread.design == "paired":
+        out.append("spread: new spread not larger than old (Pitman-Morgan on the matched "
+                   "pairs, one-sided, design paired)")
     elif ch.spread is not None:
         method = "F-test" if ch.spread.method == "f" else "Brown-Forsythe"
-        out.append(f"spread: new spread not larger than old ({method}, one-sided)")
+        if unit_of_analysis == "lot":
+            method = ("F-test on the pooled within-lot variances, sum(n_i - 1) df; "
+                      "between-lot sds reported beside it")
+        opted = (", design independent: the declared pairs are ignored"
+                 if ch.spread.design_given else "")
+        out.append(f"spread: new spread not larger than old ({method}, one-sided{opted})")
     if ch.capability is not None:
-        how = ("within-lot sigma" if ch.capability.subgroup == "lot"
-               else "moving-range sigma")
-        out.append(f"capability: new Cpk at least {ch.capability.min_cpk} ({how})")
+        cap = ch.capability
+        how = ("overall sd" if cap.index == "ppk" else "within-lot sigma"
+               if cap.subgroup == "lot" else "moving-range sigma")
+        judged = (f"lower {cap.confidence:.0%} bound of new {cap.label}"
+                  if cap.judge == "lower_bound" else f"new {cap.label}")
+        out.append(f"capability: {judged} at least {cap.min:g} ({how}; index {cap.index}, "
+                   f"judge {cap.judge})")
     if not out:
         out.append("none")
     return out
@@ -247,6 +268,18 @@ def cmd_plan(args: argparse.Namespace) -> int:
 # -- dispatcher -------------------------------------------------------------------------------
 
 # name -> (add the subparser, run the command); further commands register here
+def add_nightly(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
+    from .nightly import add_nightly as add  # its ledger (sqlite3) loads only when asked for
+
+    return add(sub)
+
+
+def nightly_main(args: argparse.Namespace) -> int:
+    from .nightly import nightly_main as run
+
+    return run(args)
+
+
 COMMANDS: dict[str, tuple[Callable, Callable[[argparse.Namespace], int]]] = {
     "check": (add_check, cmd_check),
     "schema": (add_schema, cmd_schema),
@@ -257,7 +290,9 @@ COMMANDS: dict[str, tuple[Callable, Callable[[argparse.Namespace], int]]] = {
 }
 
 
-def build_parser() -> argparse.ArgumentParser:
+def build_parser(only: str | None = None) -> argparse.ArgumentParser:
+    """The argument parser; with ``only`` (a command name), with that sub-command alone, so
+    that a run does not import every other command's module to describe it."""
     parser = argparse.ArgumentParser(
         prog="verify",
         description=(
@@ -270,9 +305,10 @@ def build_parser() -> argparse.ArgumentParser:
     )
     parser.add_argument("--version", action="version", version=f"verify {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
-    for add, run in COMMANDS.values():
-        p = add(sub)
-        p.set_defaults(func=run)
+    for name, (add, run) in COMMANDS.items():
+        if only is None or name == only:
+            p = add(sub)
+            p.set_defaults(func=run)
     return parser
 
 
@@ -280,6 +316,23 @@ def _terminate(signum, frame):  # pragma: no cover - exercised through a subproc
     # SIGTERM (a scheduler's stop, systemd, timeout) unwinds like an exception, so temporary
     # files are removed by their finally blocks instead of being left behind
     raise SystemExit(128 + signum)
+
+
+BLAS_THREAD_VARIABLES = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")
+
+
+def _single_threaded_blas() -> None:
+    """One BLAS thread unless the user set otherwise, before numpy is first imported.
+
+    verify's arithmetic is on short vectors; a multi-threaded BLAS call on a loaded machine
+    (``np.dot`` on a long vector) can cost thousands of times the arithmetic. The variables
+    are read once when numpy loads, so they must be set here, and nightly's worker processes
+    inherit them.
+    """
+    if "numpy" in sys.modules:
+        return  # too late to matter (a library caller imported numpy first)
+    for name in BLAS_THREAD_VARIABLES:
+        os.environ.setdefault(name, "1")
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -290,8 +343,10 @@ def main(argv: Sequence[str] | None = None) -> int:
     """
     import signal
 
-    parser = build_parser()
-    args = parser.parse_args(argv)
+    _single_threaded_blas()
+    given = list(sys.argv[1:] if argv is None else argv)
+    parser = build_parser(given[0] if given and given[0] in COMMANDS else None)
+    args = parser.parse_args(given)
     if threading_main():
         signal.signal(signal.SIGTERM, _terminate)
     try:

@@ -27,6 +27,7 @@ import datetime as _dt
 import difflib
 import hashlib
 import io
+import math
 import os
 from collections.abc import Sequence
 from dataclasses import dataclass, field
@@ -175,34 +176,75 @@ def analysis_values(measurements: Measurements, spec: Spec, characteristic_name:
     ('part', True)
     """
     _check_args(spec, characteristic_name, process)
-    used, groups = _used_groups(measurements.table)
-    rows = groups.get((characteristic_name, process))
-    sel = used.iloc[rows] if rows is not None else used.iloc[:0]
-    sel = sel.sort_values(["order", "source_row"], kind="stable")
+    ix = _analysis_index(measurements.table)
+    span = ix.groups.get((characteristic_name, process))
+    lo, hi = span if span is not None else (0, 0)
+    values = ix.value[lo:hi].copy()
+    lots = ix.lot[lo:hi].tolist()
     if spec.unit_of_analysis == "lot":
-        means = sel.groupby("lot", sort=False)["value"].mean()
-        return AnalysisValues(values=means.to_numpy(dtype=float),
-                              lots=tuple(str(x) for x in means.index), unit="lot",
-                              n_parts=len(sel))
-    return AnalysisValues(values=sel["value"].to_numpy(dtype=float),
-                          lots=tuple(sel["lot"].astype(str)), unit="part", n_parts=len(sel))
+        # lot means, one per lot in order of the lot's first measurement. Each sum is
+        # correctly rounded (math.fsum): lot means differ only in late digits, and their spread
+        # must not depend on the order of summation.
+        acc: dict[str, list[float]] = {}
+        for x, lot in zip(values.tolist(), lots, strict=True):
+            acc.setdefault(lot, []).append(x)
+        means = np.array([math.fsum(v) / len(v) for v in acc.values()], dtype=float)
+        first = acc
+        return AnalysisValues(values=means, lots=tuple(first), unit="lot", n_parts=hi - lo)
+    return AnalysisValues(values=values, lots=tuple(lots), unit="part", n_parts=hi - lo)
 
 
-_GROUP_CACHE: dict[int, tuple] = {}
+@dataclass(frozen=True)
+class _Index:
+    """The used measurements as numpy arrays, sorted by (characteristic, process, production
+    order, source row), with the slice of each (characteristic, process): an evaluation reads
+    every characteristic and process in turn, so the table is gathered once, not filtered per
+    call."""
+
+    value: np.ndarray
+    lot: np.ndarray  # object array of str
+    pair: np.ndarray  # object array of str
+    order: np.ndarray
+    source_row: np.ndarray
+    groups: dict  # (characteristic, process) -> (start, stop)
 
 
-def _used_groups(table: pd.DataFrame):
-    """The used rows and their positions per (characteristic, process), computed once per
-    table: an evaluation asks for every characteristic and process in turn."""
-    hit = _GROUP_CACHE.get(id(table))
+_INDEX_CACHE: dict[int, tuple] = {}
+
+
+def _analysis_index(table: pd.DataFrame) -> _Index:
+    hit = _INDEX_CACHE.get(id(table))
     if hit is not None and hit[0] is table:
-        return hit[1], hit[2]
-    used = table[~table["excluded"]]
-    groups = used.groupby(["characteristic", "process"], sort=False).indices
-    if len(_GROUP_CACHE) >= 8:
-        _GROUP_CACHE.clear()
-    _GROUP_CACHE[id(table)] = (table, used, groups)
-    return used, groups
+        return hit[1]
+    used = ~table["excluded"].to_numpy(dtype=bool)
+    char_codes, char_names = pd.factorize(table["characteristic"].to_numpy(dtype=object)[used])
+    proc_codes, proc_names = pd.factorize(table["process"].to_numpy(dtype=object)[used])
+    code = char_codes.astype(np.int64) * max(1, len(proc_names)) + proc_codes
+    order = table["order"].to_numpy(dtype=np.int64)[used]
+    source_row = table["source_row"].to_numpy(dtype=np.int64)[used]
+    # one stable sort: by group, then production order, then source row (ties keep table order)
+    sort = np.lexsort((source_row, order, code))
+    code_sorted = code[sort]
+    starts = np.flatnonzero(np.concatenate(([True], code_sorted[1:] != code_sorted[:-1]))) \
+        if code_sorted.size else np.zeros(0, dtype=np.intp)
+    stops = np.append(starts[1:], code_sorted.size)
+    width = max(1, len(proc_names))
+    groups = {}
+    for a, b in zip(starts.tolist(), stops.tolist(), strict=True):
+        c = int(code_sorted[a])
+        groups[(str(char_names[c // width]), str(proc_names[c % width]))] = (a, b)
+    index = _Index(
+        value=table["value"].to_numpy(dtype=float)[used][sort],
+        lot=table["lot"].to_numpy(dtype=object)[used][sort],
+        pair=table["pair"].to_numpy(dtype=object)[used][sort],
+        order=order[sort],
+        source_row=source_row[sort],
+        groups=groups,
+    )
+    if len(_INDEX_CACHE) >= 8:
+        _INDEX_CACHE.clear()
+    _INDEX_CACHE[id(table)] = (table, index)
+    return index
 
 
 def paired_values(measurements: Measurements, spec: Spec,
@@ -227,21 +269,23 @@ def paired_values(measurements: Measurements, spec: Spec,
     _check_args(spec, characteristic_name, "old")
     if spec.data.pair is None:
         raise ValueError("the spec has no data.pair: there are no pairs")
-    t = measurements.table
-    sel = t[(t["characteristic"] == characteristic_name) & t["process"].isin(["old", "new"])
-            & (t["pair"] != "") & ~t["excluded"]]
-    sel = sel.sort_values(["order", "source_row"], kind="stable")
-    old = sel[sel["process"] == "old"].drop_duplicates("pair").set_index("pair")
-    new = sel[sel["process"] == "new"].drop_duplicates("pair").set_index("pair")
-    first = sel.drop_duplicates("pair")["pair"].tolist()  # keys by earlier measurement
-    both = old.index.intersection(new.index)
-    keys = [k for k in first if k in both]
-    unmatched = tuple(str(k) for k in first if k not in both)
+    ix = _analysis_index(measurements.table)
+    spans = [ix.groups.get((characteristic_name, proc), (0, 0)) for proc in ("old", "new")]
+    pos = np.concatenate([np.arange(a, b) for a, b in spans])
+    pos = pos[ix.pair[pos] != ""]
+    pos = pos[np.lexsort((ix.source_row[pos], ix.order[pos]))]  # production order
+    is_old = (pos >= spans[0][0]) & (pos < spans[0][1])
+    first: dict[str, None] = {}  # keys by earlier measurement
+    sides: tuple[dict, dict] = ({}, {})  # first used value per key: old, new
+    for p, o in zip(pos.tolist(), is_old.tolist(), strict=True):
+        key = ix.pair[p]
+        first.setdefault(key, None)
+        sides[0 if o else 1].setdefault(key, p)
+    keys = [k for k in first if k in sides[0] and k in sides[1]]
+    unmatched = tuple(str(k) for k in first if not (k in sides[0] and k in sides[1]))
     return PairedValues(keys=tuple(str(k) for k in keys),
-                        old=old.loc[keys, "value"].to_numpy(dtype=float) if keys
-                        else np.array([], dtype=float),
-                        new=new.loc[keys, "value"].to_numpy(dtype=float) if keys
-                        else np.array([], dtype=float),
+                        old=ix.value[[sides[0][k] for k in keys]].astype(float),
+                        new=ix.value[[sides[1][k] for k in keys]].astype(float),
                         unmatched=unmatched)
 
 
@@ -253,8 +297,16 @@ def display_path(path: Path) -> str:
         return str(path)
 
 
+_NAMES_CACHE: dict[int, tuple] = {}
+
+
 def _check_args(spec: Spec, name: str, process: str) -> None:
-    if all(c.name != name for c in spec.characteristics):
+    hit = _NAMES_CACHE.get(id(spec))
+    if hit is None or hit[0] is not spec:
+        if len(_NAMES_CACHE) >= 8:
+            _NAMES_CACHE.clear()
+        hit = _NAMES_CACHE[id(spec)] = (spec, frozenset(c.name for c in spec.characteristics))
+    if name not in hit[1]:
         raise ValueError(f"the spec has no characteristic named {name!r}")
     if process not in ("old", "new"):
         raise ValueError(f"process must be 'old' or 'new', not {process!r}")

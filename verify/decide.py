@@ -188,15 +188,26 @@ class SpreadRule:
 
     def describe(self, alpha: float) -> str:
         return (
-            "Spread: HOLD when the one-sided test shows the new process's standard deviation "
-            f"larger than the old one's at alpha = {alpha}; the ratio of standard deviations "
-            "(new / old) and its interval are reported. Otherwise PASS."
+            "Spread: HOLD when the one-sided test shows the new process's spread larger than the "
+            f"old one's at alpha = {alpha} (p-value adjusted with the difference tests when the "
+            "spec asks for holm or bonferroni). With data.pair declared the test runs on the "
+            "matched pairs (Pitman-Morgan) unless the spec writes spread design: independent; "
+            "with unit_of_analysis: lot it compares the pooled within-lot variances (F-test on "
+            "sum(n_i - 1) degrees of freedom), so that it does not depend on the lot sizes, and "
+            "reports the between-lot standard deviations beside it. The ratio of standard "
+            "deviations (new / old) and its interval are reported (Brown-Forsythe: the "
+            "difference of mean absolute deviations and its own interval). Otherwise PASS."
         )
 
     def decide(self, *, pvalue: float, alpha: float, ratio: float,
-               ci: tuple[float, float], level: float, method: str) -> Verdict:
-        detail = (f"sd ratio new/old {fmt(ratio)}, {fmt(100 * level)}% interval "
-                  f"{fmt(ci[0])}..{fmt(ci[1])}, {method} {p_eq(pvalue)}")
+               ci: tuple[float, float], level: float, method: str,
+               adjusted: bool = False, what: str = "sd ratio new/old",
+               note: str = "") -> Verdict:
+        which = "adjusted p" if adjusted else "p"
+        lo, hi = (fmt(ci[0]), fmt(ci[1])) if what == "sd ratio new/old" else fmt_like(*ci)
+        est = fmt(ratio) if what == "sd ratio new/old" else fmt_like(ratio)[0]
+        detail = (f"{what} {est}, {fmt(100 * level)}% interval "
+                  f"{lo}..{hi}, {method} {p_eq(pvalue, which)}{note}")
         if pvalue < alpha:
             return Verdict("HOLD", f"new spread larger than old ({detail})")
         return Verdict("PASS", f"no increase in spread shown ({detail})")
@@ -207,15 +218,31 @@ class CapabilityRule:
 
     def describe(self, alpha: float) -> str:
         return (
-            "Capability: HOLD when the new process's Cpk (within-process sigma) is below the "
-            "spec's min_cpk; its lower 95% confidence bound is reported beside it. Otherwise PASS."
+            "Capability: HOLD when the new process's capability index (the spec's index: Cpk "
+            "from the within-process sigma, or Ppk from the overall sd) is below the spec's "
+            "min; with judge: lower_bound, when its lower one-sided confidence bound (at the "
+            "spec's confidence) is below min. The index and its lower bound are reported "
+            "either way. Otherwise PASS."
         )
 
-    def decide(self, *, cpk: float, lower_bound: float | None, min_cpk: float) -> Verdict:
-        lb = f", lower 95% bound {fmt(lower_bound, 3)}" if lower_bound is not None else ""
+    def decide(self, *, cpk: float, lower_bound: float | None, min_cpk: float,
+               index: str = "Cpk", judge: str = "estimate",
+               confidence: float = 0.95) -> Verdict:
+        level = f"{fmt(100 * confidence)}%"
+        lb = (f", lower {level} bound {fmt(lower_bound, 3)}" if lower_bound is not None
+              else "")
+        if judge == "lower_bound":
+            if lower_bound is None:
+                return Verdict("HOLD", f"the lower {level} bound of {index} cannot be computed "
+                               f"(new {index} {fmt(cpk, 3)})")
+            head = f"the lower {level} bound of the new {index} ({fmt(cpk, 3)})"
+            if lower_bound < min_cpk:
+                return Verdict("HOLD", f"{head}, {fmt(lower_bound, 3)}, is below "
+                               f"{fmt(min_cpk)}")
+            return Verdict("PASS", f"{head}, {fmt(lower_bound, 3)}, meets {fmt(min_cpk)}")
         if cpk < min_cpk:
-            return Verdict("HOLD", f"new Cpk {fmt(cpk, 3)} is below {fmt(min_cpk)}{lb}")
-        return Verdict("PASS", f"new Cpk {fmt(cpk, 3)} meets {fmt(min_cpk)}{lb}")
+            return Verdict("HOLD", f"new {index} {fmt(cpk, 3)} is below {fmt(min_cpk)}{lb}")
+        return Verdict("PASS", f"new {index} {fmt(cpk, 3)} meets {fmt(min_cpk)}{lb}")
 
 
 class SufficiencyRule:
@@ -223,8 +250,10 @@ class SufficiencyRule:
 
     def describe(self, alpha: float) -> str:
         return (
-            "Sufficiency: while either process has fewer than min_n units (parts, pairs or lots, "
-            "as the spec's unit of analysis says) the characteristic is PENDING, unless the run "
+            "Sufficiency: while either process has fewer than its planned units (min_n, one "
+            "number or one per process; parts, pairs or lots, as the spec's unit of analysis "
+            "and pairing say) the characteristic is PENDING, naming the short process, unless "
+            "the run "
             "is final (--final); checks that already show harm (a significant harmful shift, a "
             "larger spread, or an interval wholly beyond the margin) still HOLD, and no check "
             "can PASS before the plan is complete. With fewer than 2 units or zero spread a "
@@ -232,11 +261,17 @@ class SufficiencyRule:
             "(PENDING while planned data are still arriving)."
         )
 
-    def shortfall(self, counts: dict[str, int], min_n: int | None, final: bool) -> str | None:
-        """The PENDING reason ("new: 12 of 30 planned") or None when the plan is complete."""
+    def shortfall(self, counts: dict[str, int], min_n, final: bool) -> str | None:
+        """The PENDING reason ("new: 12 of 30 planned") or None when the plan is complete.
+
+        ``min_n`` is one plan for every count, a mapping from the count's name ("old",
+        "new", "pairs") to its plan, or None (no plan).
+        """
         if min_n is None or final:
             return None
-        short = [f"{p}: {n} of {min_n} planned" for p, n in counts.items() if n < min_n]
+        plans = min_n if isinstance(min_n, dict) else dict.fromkeys(counts, min_n)
+        short = [f"{p}: {n} of {plans[p]} planned" for p, n in counts.items()
+                 if plans.get(p) is not None and n < plans[p]]
         return "; ".join(short) if short else None
 
 
@@ -259,10 +294,16 @@ class MultiplicityRule:
     def describe(self, alpha: float, method: str = "none") -> str:
         adj = {"none": "are not adjusted", "holm": "are adjusted by Holm's step-down method",
                "bonferroni": "are adjusted by the Bonferroni method"}[method]
+        level = ("" if method == "none" else
+                 "; the intervals, critical values and power figures of those checks use "
+                 "alpha / m, m the number of tests in the family")
         return (
-            f"Multiplicity: the p-values of difference tests (checks without a margin) {adj} "
-            "across characteristics. Equivalence tests need no adjustment, because every one of "
-            "them must pass for an overall PASS (intersection-union)."
+            "Multiplicity: the family is every check that HOLDs on significance, i.e. every "
+            "difference test (a target or shift check without a margin) and every spread "
+            f"test, across characteristics; their p-values {adj}{level}. A check that cannot "
+            "be computed is left out of the family (and counted nowhere), and listed. "
+            "Equivalence tests need no adjustment, because every one of them must pass for an "
+            "overall PASS (intersection-union)."
         )
 
 

@@ -27,6 +27,7 @@ from .spec_model import Characteristic, Spec
 from .stats import capability as cap
 from .stats import diagnostics as diag
 from .stats import equivalence, multiplicity, nonparametric, power, spread, ttests
+from .stats import variance_components as vc
 from .stats.core import confidence_interval, mean_sd, require_spread, t_test_from_estimate
 from .stats.errors import DegenerateDataError, StatsError
 from .stats.limits import beyond_limits
@@ -58,7 +59,8 @@ class _Data:
     new_parts: np.ndarray
     old_lots: tuple = ()
     new_lots: tuple = ()
-    pairs: object = None  # PairedValues for a paired design
+    pairs: object = None  # PairedValues for a paired shift design
+    spread_pairs: object = None  # PairedValues the spread check runs on (data.pair declared)
 
 
 @dataclass
@@ -68,7 +70,11 @@ class _Draft:
     result: CheckResult
     family_p: float | None = None  # p-value entering the multiplicity adjustment
     harm_shown: bool = False
-    finish: object = None  # callable(p_adjusted) -> (outcome, reason)
+    finish: object = None  # callable(p_adjusted, adjusted) -> Verdict
+    # callable(alpha_used, family_size) -> fields of the result that depend on the level
+    # (interval, critical value, power); run once the family is known
+    complete: object = None
+    family: bool = False  # a test that HOLDs on significance (a member unless degenerate)
 
 
 @dataclass
@@ -106,14 +112,9 @@ def evaluate(
         from .audit import run_info
 
         run = run_info(spec, measurements, command="(library call)")
-    # the multiplicity family: every difference test (target or shift check without a margin)
-    family_size = sum(
-        1 for ch in spec.characteristics for conf in (ch.checks.target, ch.checks.shift)
-        if conf is not None and conf.margin is None
-    )
-    drafts = [_draft_characteristic(spec, measurements, ch, final, max(1, family_size))
+    drafts = [_draft_characteristic(spec, measurements, ch, final)
               for ch in spec.characteristics]
-    _adjust(drafts, spec.multiplicity)
+    family, excluded = _adjust(drafts, spec.multiplicity, spec.alpha)
     results = tuple(_finish(spec, d) for d in drafts)
     decision = decide.combine(r.decision for r in results)
     # one line per characteristic not PASS: its leading reason (the full list stays with it)
@@ -134,6 +135,8 @@ def evaluate(
         caution=decide.CAUTION,
         final=final,
         run=run,
+        family=family,
+        family_excluded=excluded,
     )
 
 
@@ -151,6 +154,7 @@ def _beyond(ch: Characteristic, parts: np.ndarray) -> BeyondLimits | None:
 
 
 def _summary(process: str, values: np.ndarray, lots, n_parts: int,
+             parts: np.ndarray | None = None,
              beyond: BeyondLimits | None = None) -> ProcessSummary:
     n = int(values.size)
     mean = sd = None
@@ -158,7 +162,16 @@ def _summary(process: str, values: np.ndarray, lots, n_parts: int,
         _, m, s = mean_sd(values)
         mean = m
         sd = s if n >= 2 else None
+    within = between = None
+    truncated = False
+    if parts is not None and parts.size:
+        try:
+            comp = vc.variance_components(parts, np.asarray(lots, dtype=object))
+            within, between, truncated = comp.sd_within, comp.sd_between, comp.truncated
+        except StatsError:
+            pass  # fewer than 2 lots of 2 parts, or no within-lot variation: not estimable
     return ProcessSummary(
+        sd_within_lot=within, sd_between_lot=between, between_lot_set_to_zero=truncated,
         process=process,
         n=n,
         mean=mean,
@@ -193,36 +206,42 @@ def _gather(spec: Spec, meas: Measurements, ch: Characteristic) -> tuple[_Data, 
     processes = {}
     if old.values.size or ch.checks.shift is not None:
         processes["old"] = _summary("old", old.values, old_p.lots, int(old_p.values.size),
-                                    _beyond(ch, old_p.values))
+                                    old_p.values, _beyond(ch, old_p.values))
     processes["new"] = _summary("new", new.values, new_p.lots, int(new_p.values.size),
-                                _beyond(ch, new_p.values))
-    shift = ch.checks.shift
-    if shift is not None and shift.design == "paired":
-        data.pairs = paired_values(meas, spec, ch.name)
+                                new_p.values, _beyond(ch, new_p.values))
+    shift, sp = ch.checks.shift, ch.checks.spread
+    shift_paired = shift is not None and shift.design == "paired"
+    spread_paired = sp is not None and sp.design == "paired"
+    if shift_paired or spread_paired:
+        pv = paired_values(meas, spec, ch.name)
+        data.pairs = pv if shift_paired else None
+        data.spread_pairs = pv if spread_paired else None
     return data, processes
 
 
 # --- drafting checks ----------------------------------------------------------------------------
 
 
-def _draft_characteristic(spec: Spec, meas: Measurements, ch: Characteristic, final: bool,
-                          family_size: int):
+def _draft_characteristic(spec: Spec, meas: Measurements, ch: Characteristic, final: bool):
     data, processes = _gather(spec, meas, ch)
     d = _CharDraft(ch=ch, data=data, processes=processes)
     counts = {p: s.n for p, s in processes.items()}
-    if data.pairs is not None:
-        d.pairs = len(data.pairs.keys)
-        d.unmatched = tuple(data.pairs.unmatched)
+    pv = data.pairs if data.pairs is not None else data.spread_pairs
+    if pv is not None:
+        # a check that runs on the pairs has as many units as there are matched pairs
+        d.pairs = len(pv.keys)
+        d.unmatched = tuple(pv.unmatched)
         counts = {"pairs": d.pairs}
-    d.shortfall = decide.SUFFICIENCY.shortfall(counts, spec.min_n, final)
+    plans = None if spec.min_n is None else {k: spec.planned(k) for k in counts}
+    d.shortfall = decide.SUFFICIENCY.shortfall(counts, plans, final)
     if final:
-        d.final_shortfall = decide.SUFFICIENCY.shortfall(counts, spec.min_n, False)
+        d.final_shortfall = decide.SUFFICIENCY.shortfall(counts, plans, False)
     d.counts = counts
     checks = ch.checks
     if checks.target is not None:
-        d.checks.append(_draft_location(spec, ch, d, "target", family_size))
+        d.checks.append(_draft_location(spec, ch, d, "target"))
     if checks.shift is not None:
-        d.checks.append(_draft_location(spec, ch, d, "shift", family_size))
+        d.checks.append(_draft_location(spec, ch, d, "shift"))
     if checks.spread is not None:
         d.checks.append(_draft_spread(spec, ch, d))
     if checks.capability is not None:
@@ -271,8 +290,7 @@ def _try(fn, *args, **kwargs):
         return None
 
 
-def _draft_location(spec: Spec, ch: Characteristic, d: _CharDraft, check: str,
-                    family_size: int) -> _Draft:
+def _draft_location(spec: Spec, ch: Characteristic, d: _CharDraft, check: str) -> _Draft:
     alpha = spec.alpha
     if check == "target":
         conf = ch.checks.target
@@ -289,7 +307,9 @@ def _draft_location(spec: Spec, ch: Characteristic, d: _CharDraft, check: str,
         e = _effect(design, ch, d.data)
     except (StatsError, ValueError) as err:
         what = "TOST" if margin is not None else "t-test"
-        return _degenerate(check, f"{what} ({design})", subject, err, design=design)
+        dr = _degenerate(check, f"{what} ({design})", subject, err, design=design)
+        dr.family = margin is None
+        return dr
     n_new, n_old = e.n_new, e.n_old
     sds = _power_sds(e)
     ratio = _ratio(n_new, n_old) if design in ("welch", "pooled") else 1.0
@@ -353,45 +373,49 @@ def _draft_location(spec: Spec, ch: Characteristic, d: _CharDraft, check: str,
         return _Draft(result=res, harm_shown=verdict.outcome == "HOLD" and harm)
 
     # no margin: a difference test in the harmful direction. Under holm or bonferroni the
-    # interval, critical value and power figures use the Bonferroni level alpha / m, so that
-    # they agree with the adjusted decision (for Holm they are conservative).
+    # interval, critical value and power figures use the Bonferroni level alpha / m, m the size
+    # of the family actually adjusted, so that they agree with the adjusted decision (for Holm
+    # they are conservative); they are filled in by ``complete`` once the family is known.
     alternative = _alternative(ch.side)
-    eff_alpha = alpha / family_size if spec.multiplicity != "none" else alpha
     r = t_test_from_estimate(e.estimate, e.standard_error, e.df, alternative=alternative,
                              method=e.method)
-    ci = r.confidence_interval(1 - eff_alpha)
-    detectable = _try(power.detectable_shift, n_new=n_new, n_old=n_old, design=design,
-                      alpha=eff_alpha, alternative=alternative, power=DETECT_POWER, **sds)
-    pw = size = None
-    at = "" if eff_alpha == alpha else f" at the adjusted level alpha/{family_size}"
-    if conf.detect is not None:
-        # detect is a size; a harmful departure downwards is a negative shift
-        shift = -conf.detect if alternative == "less" else conf.detect
-        pw = _try(power.power_t, shift, n_new=n_new, n_old=n_old, design=design,
-                  alpha=eff_alpha, alternative=alternative, **sds)
-        size = _try(power.sample_size_t, shift, design=design, alpha=eff_alpha,
-                    alternative=alternative, power=spec.plan.power, ratio=ratio, **sds)
-        note = f"power to detect a {noun} of {decide.fmt(conf.detect)} {unit}".rstrip() + at
-    else:
-        note = (f"no detect value declared; the {noun} detected with {DETECT_POWER:.0%} power "
-                f"is {decide.fmt(detectable)} {unit}".rstrip() + at)
     direction = {"two-sided": "differs from", "less": "is below", "greater": "is above"}
     hyp = f"{subject} {direction[alternative]} 0"
     rule = decide.TARGET_DIFFERENCE if check == "target" else decide.SHIFT_DIFFERENCE
     res = CheckResult(
         check=check, method=r.method, hypothesis=hyp, alternative=alternative, margin=None,
-        outcome="PASS", reason="", statistic=r.statistic, p_value=r.pvalue,
-        ci_low=ci.low, ci_high=ci.high, ci_level=1 - eff_alpha,
-        critical_value=r.critical_value(eff_alpha), power=_finite(pw), power_note=note,
-        detectable_shift=_finite(detectable),
-        planned_n=size.n_new if size is not None else None, **common,
+        outcome="PASS", reason="", statistic=r.statistic, p_value=r.pvalue, **common,
     )
+    found = {}
 
-    def finish(p_adj, adjusted, _rule=rule, _e=e, _unit=unit, _det=detectable):
+    def complete(eff_alpha, family_size):
+        ci = r.confidence_interval(1 - eff_alpha)
+        detectable = _try(power.detectable_shift, n_new=n_new, n_old=n_old, design=design,
+                          alpha=eff_alpha, alternative=alternative, power=DETECT_POWER, **sds)
+        found["detectable"] = detectable
+        pw = size = None
+        at = "" if eff_alpha == alpha else f" at the adjusted level alpha/{family_size}"
+        if conf.detect is not None:
+            # detect is a size; a harmful departure downwards is a negative shift
+            shift = -conf.detect if alternative == "less" else conf.detect
+            pw = _try(power.power_t, shift, n_new=n_new, n_old=n_old, design=design,
+                      alpha=eff_alpha, alternative=alternative, **sds)
+            size = _try(power.sample_size_t, shift, design=design, alpha=eff_alpha,
+                        alternative=alternative, power=spec.plan.power, ratio=ratio, **sds)
+            note = f"power to detect a {noun} of {decide.fmt(conf.detect)} {unit}".rstrip() + at
+        else:
+            note = (f"no detect value declared; the {noun} detected with {DETECT_POWER:.0%} "
+                    f"power is {decide.fmt(detectable)} {unit}".rstrip() + at)
+        return dict(ci_low=ci.low, ci_high=ci.high, ci_level=1 - eff_alpha,
+                    critical_value=r.critical_value(eff_alpha), power=_finite(pw),
+                    power_note=note, detectable_shift=_finite(detectable),
+                    planned_n=size.n_new if size is not None else None)
+
+    def finish(p_adj, adjusted, _rule=rule, _e=e, _unit=unit):
         return _rule.decide(pvalue=p_adj, alpha=alpha, estimate=_e.estimate, unit=_unit,
-                            detectable=_finite(_det), adjusted=adjusted)
+                            detectable=_finite(found.get("detectable")), adjusted=adjusted)
 
-    return _Draft(result=res, family_p=r.pvalue, finish=finish)
+    return _Draft(result=res, family_p=r.pvalue, finish=finish, complete=complete, family=True)
 
 
 def _ratio(n_new: int, n_old: int | None) -> float:
@@ -405,73 +429,161 @@ def _crit(df: float, alpha: float, alternative: str) -> float:
 
 
 def _draft_spread(spec: Spec, ch: Characteristic, d: _CharDraft) -> _Draft:
+    """The spread check, on the structure of the data: the matched pairs where data.pair is
+    declared (Pitman-Morgan), the pooled within-lot variances with unit_of_analysis: lot, else
+    the two samples (F-test or Brown-Forsythe). Its interval level waits for the family."""
     alpha = spec.alpha
-    level = 1 - 2 * alpha
+    conf = ch.checks.spread
     hyp = f"the new process's standard deviation of {ch.name} is larger than the old one's"
-    paired = d.data.pairs is not None
+    pv = d.data.spread_pairs
+    extra: dict = {}
+    note = ""
+    what = "sd ratio new/old"
+    desc = None  # the F-test beside a Brown-Forsythe decision, descriptive only
     try:
-        if paired:
-            pv = d.data.pairs
+        if pv is not None:
             r = pitman_morgan(pv.old, pv.new, alternative="greater")
-            ci = r.confidence_interval(level)
-            # two-sided (1 - 2 alpha) interval: its lower end is the one-sided bound
-            ci = pitman_morgan(pv.old, pv.new, alternative="two-sided").confidence_interval(level)
-            method, stat, df, ratio, p = r.method, r.statistic, r.df, r.estimate, r.pvalue
-            extra = {"correlation": r.correlation}
+            two = pitman_morgan(pv.old, pv.new, alternative="two-sided")
+            method, stat, df, est, p = r.method, r.statistic, r.df, r.estimate, r.pvalue
+            extra = {"correlation": r.correlation, "pairs": len(pv.keys)}
+            design = "paired"
+
+            def interval(level, _two=two):
+                return _two.confidence_interval(level)
+        elif spec.unit_of_analysis == "lot":
+            if d.data.old_parts is None:
+                raise DegenerateDataError("no old-process values")
+            hyp = (f"the new process's within-lot standard deviation of {ch.name} is larger "
+                   "than the old one's")
+            w = vc.within_lot_spread(d.data.old_parts, np.asarray(d.data.old_lots, dtype=object),
+                                     d.data.new_parts, np.asarray(d.data.new_lots, dtype=object),
+                                     alternative="greater")
+            two = vc.within_lot_spread(
+                d.data.old_parts, np.asarray(d.data.old_lots, dtype=object), d.data.new_parts,
+                np.asarray(d.data.new_lots, dtype=object), alternative="two-sided")
+            method, stat, df, est, p = w.method, w.statistic, float(w.df_num), w.estimate, w.pvalue
+            what = "within-lot sd ratio new/old"
+            extra = {
+                "df_num": w.df_num, "df_den": w.df_den, "F": w.statistic,
+                "sd_within_lot_old": w.old.sd_within, "sd_within_lot_new": w.new.sd_within,
+                "sd_between_lot_old": w.old.sd_between, "sd_between_lot_new": w.new.sd_between,
+                "between_lot_ratio": _finite(w.between_ratio),
+                "compared": ("pooled within-lot variances (F on sum(n_i - 1) df); the "
+                             "between-lot sds are reported beside it and do not decide"),
+            }
+            between = (decide.fmt(w.between_ratio) if w.between_ratio is not None
+                       else "n/a (the old between-lot sd is 0)")
+            note = f"; between-lot sd ratio {between}, reported only"
+            design = "lot components"
+
+            def interval(level, _two=two):
+                return _two.confidence_interval(level)
         else:
             if d.data.old is None:
                 raise DegenerateDataError("no old-process values")
             f = spread.f_test(d.data.old, d.data.new, alternative="greater")
-            ci = spread.f_test(d.data.old, d.data.new,
-                               alternative="two-sided").confidence_interval(level)
-            ratio = f.estimate
+            f_two = spread.f_test(d.data.old, d.data.new, alternative="two-sided")
             extra = {"df_num": f.df_num, "df_den": f.df_den, "F": f.statistic}
-            if ch.checks.spread.method == "brown-forsythe":
+            design = "two-sample"
+            if conf.design_given and spec.data.pair is not None:
+                note = "; pairs ignored: the spec declares spread design: independent"
+                extra["pairs_ignored"] = "spec declares spread design: independent"
+            if conf.method == "brown-forsythe":
                 b = spread.brown_forsythe(d.data.old, d.data.new, alternative="greater")
-                method, stat, p = b.method, b.statistic, b.pvalue
-                df = None
+                b_two = spread.brown_forsythe(d.data.old, d.data.new, alternative="two-sided")
+                # the estimate and interval are the Brown-Forsythe test's own: the difference
+                # of mean absolute deviations from the medians (new - old); the sd ratio and
+                # its F interval are shown beside it as descriptive figures only
+                method, stat, df, est, p = b.method, b.statistic, float(b.df_den), b.estimate, \
+                    b.pvalue
+                what = "mean absolute deviation new - old"
+                extra.update({"mad_old": b.mad_old, "mad_new": b.mad_new,
+                              "sd_ratio_descriptive": f.estimate})
+                note += f"; sd ratio {decide.fmt(f.estimate)}, descriptive"
+
+                def interval(level, _b=b_two):
+                    return _b.confidence_interval(level)
+                desc = f_two
             else:
-                method, stat, df, p = f.method, f.statistic, float(f.df_num), f.pvalue
+                method, stat, df, est, p = f.method, f.statistic, float(f.df_num), f.estimate, \
+                    f.pvalue
+
+                def interval(level, _f=f_two):
+                    return _f.confidence_interval(level)
     except (StatsError, ValueError) as err:
-        return _degenerate("spread", "spread test", hyp, err)
-    v = decide.SPREAD.decide(pvalue=p, alpha=alpha, ratio=ratio, ci=(ci.low, ci.high),
-                             level=level, method=method)
+        dr = _degenerate("spread", "spread test", hyp, err)
+        dr.family = True
+        return dr
     res = CheckResult(
         check="spread", method=method, hypothesis=hyp, alternative="greater", margin=None,
-        outcome=v.outcome, reason=v.reason, estimate=ratio, statistic=stat, df=df,
-        p_value=p, ci_low=ci.low, ci_high=_finite(ci.high), ci_level=level,
-        design="paired" if paired else "two-sample", extra=extra,
+        outcome="PASS", reason="", estimate=est, statistic=stat, df=df, p_value=p,
+        design=design, extra=extra,
         power_note="no power figure: the spec declares no spread increase that must be seen",
     )
-    return _Draft(result=res, harm_shown=v.outcome == "HOLD")
+    found = {}
+
+    def complete(eff_alpha, family_size):
+        # two-sided (1 - 2 alpha) interval: its lower end is the one-sided bound at alpha
+        level = 1 - 2 * eff_alpha
+        ci = interval(level)
+        found["ci"], found["level"] = (ci.low, ci.high), level
+        out = dict(ci_low=ci.low, ci_high=_finite(ci.high), ci_level=level)
+        if desc is not None:
+            dci = desc.confidence_interval(level)
+            out["extra"] = {**extra, "sd_ratio_low_descriptive": dci.low,
+                            "sd_ratio_high_descriptive": _finite(dci.high)}
+        return out
+
+    def finish(p_adj, adjusted):
+        return decide.SPREAD.decide(pvalue=p_adj, alpha=alpha, ratio=est, ci=found["ci"],
+                                    level=found["level"], method=method, adjusted=adjusted,
+                                    what=what, note=note)
+
+    return _Draft(result=res, family_p=p, finish=finish, complete=complete, family=True)
 
 
 def _draft_capability(spec: Spec, ch: Characteristic, d: _CharDraft) -> _Draft:
     conf = ch.checks.capability
     lower, upper = ch.lower, ch.upper
-    hyp = f"the new process's Cpk for {ch.name} is at least {decide.fmt(conf.min_cpk)}"
+    label, level = conf.label, conf.confidence
+    judged = (f"the lower {decide.fmt(100 * level)}% confidence bound of the new process's "
+              f"{label}" if conf.judge == "lower_bound" else f"the new process's {label}")
+    hyp = f"{judged} for {ch.name} is at least {decide.fmt(conf.min)}"
     subgroups = None
     if conf.subgroup == "lot":
         subgroups = np.asarray(d.data.new_lots, dtype=object)
     try:
         r = cap.capability(d.data.new_parts, lower=lower, upper=upper, target=ch.target,
                            subgroups=subgroups)
-        lb = r.cpk_lower_bound(0.95)
+        lb95 = r.cpk_lower_bound(0.95)
+        bound = r.lower_bound(conf.index, level)
     except (StatsError, ValueError) as err:
-        return _degenerate("capability", "process capability", hyp, err)
-    v = decide.CAPABILITY.decide(cpk=r.cpk, lower_bound=_finite(lb), min_cpk=conf.min_cpk)
+        return _degenerate("capability", f"process capability ({label})", hyp, err)
+    value = r.cpk if conf.index == "cpk" else r.ppk
+    v = decide.CAPABILITY.decide(cpk=value, lower_bound=_finite(bound), min_cpk=conf.min,
+                                 index=label, judge=conf.judge, confidence=level)
+    bound_df = r.sigma_within_df if conf.index == "cpk" else float(r.n - 1)
     extra = {
         "cp": _finite(r.cp), "cpk": r.cpk, "cpl": _finite(r.cpl), "cpu": _finite(r.cpu),
         "pp": _finite(r.pp), "ppk": _finite(r.ppk), "cpm": _finite(r.cpm),
         "sigma_within": r.sigma_within, "sigma_overall": r.sigma_overall,
-        "sigma_method": r.sigma_method, "mean": r.mean, "n": r.n, "min_cpk": conf.min_cpk,
-        "cpk_lower_95": _finite(lb),
+        "sigma_method": r.sigma_method, "mean": r.mean, "n": r.n,
+        **({"min_cpk": conf.min} if conf.index == "cpk" else {}),
+        "cpk_lower_95": _finite(lb95),
+        "index": conf.index, "judge": conf.judge, "min": conf.min, "confidence": level,
+        "lower_bound": _finite(bound), "bound_df": bound_df,
     }
+    sigma = (f"Cpk ({r.sigma_method})" if conf.index == "cpk"
+             else "Ppk (overall sample sd)")
+    judge = ("its lower bound judged" if conf.judge == "lower_bound"
+             else "the estimate judged")
     res = CheckResult(
-        check="capability", method=f"Cpk ({r.sigma_method})", hypothesis=hyp,
-        alternative=None, margin=None, outcome=v.outcome, reason=v.reason, estimate=r.cpk,
-        ci_low=_finite(lb), ci_high=None, ci_level=0.95, extra=extra,
-        power_note="no power figure: capability is an estimate against min_cpk, not a test",
+        check="capability", method=f"{sigma}; {judge}", hypothesis=hyp,
+        alternative=None, margin=None, outcome=v.outcome, reason=v.reason, estimate=value,
+        ci_low=_finite(bound), ci_high=None, ci_level=level, extra=extra,
+        power_note=(f"no power figure: capability compares {label} with min, not a test"
+                    if conf.judge == "estimate" else
+                    f"no power figure: the lower bound of {label} is compared with min"),
     )
     return _Draft(result=res)
 
@@ -636,7 +748,9 @@ def _companions(spec: Spec, ch: Characteristic, d: _CharDraft) -> list[Diagnosti
              if disagree else f"{check}: rank test {decide.p_eq(rt.pvalue)}{ties}"),
             statistic=rt.statistic, p_value=rt.pvalue))
     dr = drafts.get("spread")
-    usable = d.data.pairs is None and d.data.old is not None
+    # a companion for the two-sample tests only: not for pairs, nor for within-lot variances
+    usable = (d.data.spread_pairs is None and spec.unit_of_analysis != "lot"
+              and d.data.old is not None)
     if dr is not None and usable and dr.result.p_value is not None:
         try:
             other_bf = ch.checks.spread.method != "brown-forsythe"
@@ -657,20 +771,37 @@ def _companions(spec: Spec, ch: Characteristic, d: _CharDraft) -> list[Diagnosti
 # --- multiplicity and finishing ---------------------------------------------------------------
 
 
-def _adjust(drafts: list[_CharDraft], method: str) -> None:
-    family = [dr for d in drafts for dr in d.checks if dr.finish is not None]
-    if not family:
-        return
-    ps = np.array([dr.family_p for dr in family])
-    adj = multiplicity.adjust(ps, method) if method != "none" else ps
-    for dr, pa in zip(family, adj, strict=True):
-        v = dr.finish(float(pa), method != "none")
-        dr.harm_shown = v.outcome == "HOLD"
-        from dataclasses import replace
+def _adjust(drafts: list[_CharDraft], method: str, alpha: float
+            ) -> tuple[tuple[str, ...], tuple[str, ...]]:
+    """Form the multiplicity family, complete its checks at the level it implies, adjust its
+    p-values and decide them. Returns the family's and the left-out checks' names.
 
+    The family is every computed check that HOLDs on significance (difference tests and spread
+    tests) across characteristics; a check that cannot be computed is left out of it and counts
+    nowhere (not in the adjustment, not in alpha / m).
+    """
+    from dataclasses import replace
+
+    family = [(d, dr) for d in drafts for dr in d.checks if dr.finish is not None]
+    excluded = tuple(f"{d.ch.name}: {dr.result.check}" for d in drafts for dr in d.checks
+                     if dr.family and dr.finish is None)
+    names = tuple(f"{d.ch.name}: {dr.result.check}" for d, dr in family)
+    if not family:
+        return names, excluded
+    adjusted = method != "none"
+    m = len(family)
+    eff_alpha = alpha / m if adjusted else alpha
+    for _, dr in family:
+        dr.result = replace(dr.result, **dr.complete(eff_alpha, m))
+    ps = np.array([dr.family_p for _, dr in family])
+    adj = multiplicity.adjust(ps, method) if adjusted else ps
+    for (_, dr), pa in zip(family, adj, strict=True):
+        v = dr.finish(float(pa), adjusted)
+        dr.harm_shown = v.outcome == "HOLD"
         dr.result = replace(dr.result, outcome=v.outcome, reason=v.reason,
-                            p_adjusted=float(pa) if method != "none" else None)
+                            p_adjusted=float(pa) if adjusted else None)
         dr.finish = None
+    return names, excluded
 
 
 def _beyond_words(ch: Characteristic, b: BeyondLimits) -> str:
@@ -719,12 +850,15 @@ def _finish(spec: Spec, d: _CharDraft) -> CharacteristicResult:
                 f"review: {d.ch.name}: the {res.check} PASS rests on n = {res.extra['n_new']} "
                 f"per process, fewer than the {res.planned_n} the plan's power of "
                 f"{spec.plan.power:g} asks for")
-        if res.check == "capability" and res.outcome == "PASS":
-            lb = res.extra.get("cpk_lower_95")
-            if lb is not None and lb < res.extra["min_cpk"]:
+        if (res.check == "capability" and res.outcome == "PASS"
+                and res.extra.get("judge") == "estimate"):
+            lb = res.extra.get("lower_bound")
+            if lb is not None and lb < res.extra["min"]:
+                name = "Cpk" if res.extra.get("index") == "cpk" else "Ppk"
                 review.append(
-                    f"review: {d.ch.name}: Cpk meets {decide.fmt(res.extra['min_cpk'])} but its "
-                    f"lower 95% bound {decide.fmt(lb, 3)} does not")
+                    f"review: {d.ch.name}: {name} meets {decide.fmt(res.extra['min'])} but its "
+                    f"lower {decide.fmt(100 * res.extra['confidence'])}% bound "
+                    f"{decide.fmt(lb, 3)} does not")
     if d.final_shortfall is not None:
         review.append(f"review: {d.ch.name}: final run with the plan cut short "
                       f"({d.final_shortfall})")

@@ -97,6 +97,11 @@ class ProcessSummary:
     minimum: float | None = None
     maximum: float | None = None
     beyond_limits: BeyondLimits | None = None  # None when the characteristic has no limits
+    # lots as variance components (one-way random-effects ANOVA on the parts); None where the
+    # process has fewer than 2 lots of at least 2 parts
+    sd_within_lot: float | None = None
+    sd_between_lot: float | None = None
+    between_lot_set_to_zero: bool = False  # the between-lot estimate was negative, set to 0
 
 
 @dataclass(frozen=True)
@@ -187,6 +192,10 @@ class Evaluation:
     final: bool
     run: RunInfo
     monitoring: str | None = None  # set by nightly after a decision of record is locked
+    # the multiplicity family: "characteristic: check" of every test that HOLDs on significance
+    # and was computed; the ones that could not be computed are listed apart, counted nowhere
+    family: tuple[str, ...] = ()
+    family_excluded: tuple[str, ...] = ()
 
     def characteristic(self, name: str) -> CharacteristicResult:
         for c in self.characteristics:

@@ -335,6 +335,12 @@ def replay(report: str | Path, *, max_data_mb: float | None = None) -> ReplayRes
     if now != f["sha256"]:
         res.integrity.append(
             f"data file changed: {f['path']} (recorded sha256 {f['sha256']}, now {now})")
+    table = spec.characteristics_table  # read (and hashed) by load_spec, from the spec text
+    recorded_table = doc["spec"].get("characteristics_from") or {}
+    if table is not None and recorded_table.get("sha256") != table.sha256:
+        res.integrity.append(
+            f"characteristics table changed: {table.file_text} (recorded sha256 "
+            f"{recorded_table.get('sha256')}, now {table.sha256})")
     versions = library_versions()
     for k, v in (doc.get("versions") or {}).items():
         if versions.get(k) != v:

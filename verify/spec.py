@@ -16,8 +16,8 @@ Default checks, when a characteristic has no ``checks:`` key:
 
 - ``target`` (no margin: a one-sample t-test) when a target is given;
 - ``shift`` (no margin), design ``paired`` when ``data.pair`` is set, else ``welch``;
-- ``spread`` with method ``f``;
-- ``capability`` with ``min_cpk: 1.33`` when limits are given.
+- ``spread`` with method ``f``, on the matched pairs (Pitman-Morgan) when ``data.pair`` is set;
+- ``capability`` with ``{index: cpk, min: 1.33, judge: estimate}`` when limits are given.
 
 When ``checks:`` is given, exactly the listed checks run; an empty entry (``spread:`` or
 ``spread: {}``) runs that check with its defaults.
@@ -34,6 +34,7 @@ from typing import Any
 
 import yaml
 
+from . import spec_table
 from .errors import SpecError, SpecIssue, UsageError
 from .schema import Document, child_path, forbidden_characters, validate
 from .spec_model import (
@@ -153,18 +154,23 @@ def load_spec(path: str | os.PathLike, *, text: str | None = None) -> Spec:
     root = _compose(body, file)
     if root is None:
         raise SpecError([SpecIssue(file, "", "the spec is empty", 1, 1)])
+    # characteristics_from: the table's rows join the node tree as characteristic entries, so
+    # every rule below applies to them; their problems are then named at the table's cells
+    expansion = spec_table.expand(root, path, file)
     bad_text = forbidden_characters(root)
     if bad_text:
-        raise SpecError([SpecIssue(file, p.path, p.message, p.line, p.column)
-                         for p in bad_text[:20]])
+        raise SpecError(spec_table.relocate(
+            [SpecIssue(file, p.path, p.message, p.line, p.column) for p in bad_text[:20]],
+            expansion, file))
     doc = validate(root)
     checker = _Checker(file, doc)
     checker.problems_from_schema()
     if isinstance(doc.value, dict):
         checker.semantics(doc.value)
     if checker.issues:
-        raise SpecError(sorted(checker.issues, key=_issue_order))
-    return _build(path, text, doc)
+        raise SpecError(spec_table.relocate(sorted(checker.issues, key=_issue_order),
+                                            expansion, file))
+    return _build(path, text, doc, expansion)
 
 
 def _issue_order(issue: SpecIssue) -> tuple:
@@ -309,6 +315,19 @@ class _Checker:
         if data is not None:
             self.check_data(spec, data)
         self.check_lots(spec)
+        if "characteristics" not in spec and "characteristics_from" not in spec and \
+                self.doc.clean("characteristics_from"):
+            self.add("characteristics", "missing required key 'characteristics': list the "
+                     "characteristics, or name a table of them with characteristics_from",
+                     key=True)
+        if "defaults" in spec and "characteristics_from" not in spec:
+            self.add("defaults", "defaults applies to the rows of characteristics_from: name "
+                     "the table, or move these keys into each characteristic", key=True)
+        if self.ok(spec, "characteristics_from", "characteristics_from"):
+            suffix = Path(spec["characteristics_from"]).suffix.lower()
+            if suffix not in spec_table.TABLE_SUFFIXES:
+                self.add("characteristics_from", f"must end in .csv or .xlsx, not "
+                         f"{suffix or 'no extension'!r}")
         chars = spec.get("characteristics")
         names: dict[str, int] = {}
         if isinstance(chars, list):
@@ -421,6 +440,30 @@ class _Checker:
             entry = checks.get(check)
             if isinstance(entry, dict) and "margin" in entry:
                 self.check_margin(entry["margin"], f"{path}.{check}.margin", target, label)
+        spread = checks.get("spread")
+        if isinstance(spread, dict):
+            has_pair = isinstance(data, dict) and "pair" in data
+            lot_unit = spec.get("unit_of_analysis") == "lot"
+            design = spread.get("design")
+            if design == "paired" and not has_pair:
+                self.add(f"{path}.spread.design", f"a paired spread test needs data.pair, the "
+                         f"column that pairs an old row with a new row{label}")
+            elif design == "paired" and lot_unit:
+                self.add(f"{path}.spread.design", "a paired spread test pairs parts; it cannot "
+                         "run with unit_of_analysis: lot (lot means carry no pair key)")
+            paired = design == "paired" or (design is None and has_pair and not lot_unit)
+            if paired and spread.get("method") == "brown-forsythe":
+                self.add(f"{path}.spread.method", "brown-forsythe compares independent samples, "
+                         f"but the spread is tested on the declared pairs{label}: remove "
+                         "method, or write design: independent to ignore the pairs knowingly")
+        cap = checks.get("capability")
+        if isinstance(cap, dict):
+            if "min_cpk" in cap and "min" in cap:
+                self.add(f"{path}.capability.min_cpk", f"min_cpk is short for {{index: cpk, "
+                         f"min: x}}; give min or min_cpk, not both{label}")
+            elif "min_cpk" in cap and cap.get("index") == "ppk":
+                self.add(f"{path}.capability.min_cpk", f"min_cpk applies to Cpk, but index is "
+                         f"ppk{label}: write min: instead")
         shift = checks.get("shift")
         if isinstance(shift, dict) and shift.get("design") == "paired":
             if not (isinstance(data, dict) and "pair" in data):
@@ -483,7 +526,8 @@ _UNKNOWN = _Unknown()
 # -- building the model -----------------------------------------------------------------------
 
 
-def _build(path: Path, text: str, doc: Document) -> Spec:
+def _build(path: Path, text: str, doc: Document,
+           expansion: spec_table.Expansion | None = None) -> Spec:
     v: dict = doc.value
     given = set(doc.marks)
     resolved: list[tuple[str, str, bool]] = []
@@ -510,7 +554,12 @@ def _build(path: Path, text: str, doc: Document) -> Spec:
     unit = v.get("unit_of_analysis", "part")
     rec("unit_of_analysis", unit)
     min_n = v.get("min_n")
-    if min_n is not None:
+    min_n_old = None
+    if isinstance(min_n, dict):
+        min_n_old, min_n = int(min_n["old"]), int(min_n["new"])
+        rec("min_n.old", min_n_old)
+        rec("min_n.new", min_n)
+    elif min_n is not None:
         rec("min_n", min_n)
     multiplicity = v.get("multiplicity", "none")
     rec("multiplicity", multiplicity)
@@ -538,6 +587,14 @@ def _build(path: Path, text: str, doc: Document) -> Spec:
     if supersedes is not None:
         rec("supersedes_reason", supersedes)
 
+    table = expansion.table if expansion is not None else None
+    if table is not None:
+        rec("characteristics_from", table.file_text)
+        rec("characteristics_from.sha256", table.sha256, default=False)
+        rec("characteristics_from.rows", table.rows, default=False)
+        for key in ("unit", "side"):
+            if key in v.get("defaults", {}):
+                rec(f"defaults.{key}", v["defaults"][key])
     chars = tuple(
         _build_characteristic(c, f"characteristics[{i}]", data_spec, unit, doc, rec)
         for i, c in enumerate(v["characteristics"])
@@ -546,9 +603,10 @@ def _build(path: Path, text: str, doc: Document) -> Spec:
         path=path, text=text, sha256=hashlib.sha256(text.encode("utf-8")).hexdigest(),
         title=v["title"], data=data_spec, characteristics=chars, format=v["format"],
         change_id=_text(v["change_id"], doc, "change_id") if "change_id" in v else None,
-        alpha=alpha, lots=lots, unit_of_analysis=unit, min_n=min_n, multiplicity=multiplicity,
+        alpha=alpha, lots=lots, unit_of_analysis=unit, min_n=min_n, min_n_old=min_n_old,
+        multiplicity=multiplicity,
         exclude=tuple(exclusions), plan=plan, supersedes_reason=supersedes,
-        resolved=tuple(resolved),
+        resolved=tuple(resolved), characteristics_table=table,
     )
 
 
@@ -648,17 +706,33 @@ def _build_characteristic(c: dict, p: str, data: DataSpec, unit: str, doc: Docum
     on, cfg = wanted("spread")
     spread_check = None
     if on:
-        spread_check = SpreadCheck(method=cfg.get("method", "f"))
+        # declared pairs decide the spread test whatever the shift design: the two variances
+        # of paired data are correlated, and only a test on the pairs (Pitman-Morgan) is valid
+        pairs_usable = data.pair is not None and unit != "lot"
+        sp_design = cfg.get("design", "paired" if pairs_usable else "independent")
+        spread_check = SpreadCheck(method=cfg.get("method", "f"), design=sp_design,
+                                   design_given="design" in cfg)
         rec(f"{cp}.spread.method", spread_check.method)
+        rec(f"{cp}.spread.design", sp_design)
     else:
         rec(f"{cp}.spread", _off(explicit, ""), default=False)
 
     on, cfg = wanted("capability")
     capability_check = None
     if on:
-        capability_check = CapabilityCheck(min_cpk=float(cfg.get("min_cpk", DEFAULT_MIN_CPK)),
-                                           subgroup=cfg.get("subgroup"))
-        rec(f"{cp}.capability.min_cpk", capability_check.min_cpk)
+        # min_cpk: x is the short form of {index: cpk, min: x}
+        minimum = cfg.get("min", cfg.get("min_cpk", DEFAULT_MIN_CPK))
+        capability_check = CapabilityCheck(
+            min_cpk=float(minimum), subgroup=cfg.get("subgroup"),
+            index=cfg.get("index", "cpk"), judge=cfg.get("judge", "estimate"),
+            confidence=float(cfg.get("confidence", 0.95)))
+        rec(f"{cp}.capability.index", capability_check.index,
+            default="index" not in cfg)
+        rec(f"{cp}.capability.min", capability_check.min,
+            default="min" not in cfg and "min_cpk" not in cfg)
+        rec(f"{cp}.capability.judge", capability_check.judge, default="judge" not in cfg)
+        rec(f"{cp}.capability.confidence", capability_check.confidence,
+            default="confidence" not in cfg)
         rec(f"{cp}.capability.subgroup", capability_check.subgroup or "none (moving range)")
     else:
         rec(f"{cp}.capability", _off(explicit, "no limits"), default=not explicit)
@@ -667,8 +741,13 @@ def _build_characteristic(c: dict, p: str, data: DataSpec, unit: str, doc: Docum
         name=name, unit=c["unit"], column=column, match=match, target=target, limits=limits,
         side=side, checks=Checks(target=target_check, shift=shift_check, spread=spread_check,
                                  capability=capability_check),
-        line=doc.where(p)[0],
+        line=_spec_line(doc.where(p)[0]),
     )
+
+
+def _spec_line(line: int | None) -> int | None:
+    """The spec line of a characteristic; None for a row of characteristics_from."""
+    return None if line is None or line > spec_table.TABLE_LINE else line
 
 
 def _off(explicit: bool, why_default: str) -> str:

@@ -14,6 +14,9 @@ SIDES = ("two-sided", "lower", "upper")
 UNITS = ("part", "lot")
 MULTIPLICITY = ("none", "holm", "bonferroni")
 SPREAD_METHODS = ("f", "brown-forsythe")
+SPREAD_DESIGNS = ("paired", "independent")
+CAPABILITY_INDICES = ("cpk", "ppk")
+CAPABILITY_JUDGES = ("estimate", "lower_bound")
 
 
 @dataclass(frozen=True)
@@ -44,12 +47,35 @@ class ShiftCheck:
 @dataclass(frozen=True)
 class SpreadCheck:
     method: str = "f"  # f | brown-forsythe: which one-sided test decides
+    # paired: Pitman-Morgan on the matched pairs (the default whenever data.pair is declared);
+    # independent: the pairs are ignored knowingly (F-test or Brown-Forsythe)
+    design: str = "independent"
+    design_given: bool = False  # the spec wrote design: (an opt-out is reported as such)
 
 
 @dataclass(frozen=True)
 class CapabilityCheck:
-    min_cpk: float = 1.33
+    """The capability criterion: ``index`` (cpk | ppk) judged against ``min``.
+
+    ``judge: estimate`` compares the point estimate with ``min``; ``judge: lower_bound`` compares
+    its lower one-sided confidence bound at ``confidence``. ``min_cpk: x`` in a spec is short for
+    ``{index: cpk, min: x}``.
+    """
+
+    min_cpk: float = 1.33  # the required minimum of ``index`` (the field keeps its first name)
     subgroup: str | None = None  # "lot": within sigma from lot subgroup ranges; None: moving range
+    index: str = "cpk"  # cpk (within-process sigma) | ppk (overall sd)
+    judge: str = "estimate"  # estimate | lower_bound
+    confidence: float = 0.95
+
+    @property
+    def min(self) -> float:
+        """The required minimum of ``index``."""
+        return self.min_cpk
+
+    @property
+    def label(self) -> str:
+        return "Cpk" if self.index == "cpk" else "Ppk"
 
 
 @dataclass(frozen=True)
@@ -143,13 +169,35 @@ class Spec:
     alpha: float = 0.05
     lots: LotLists | None = None
     unit_of_analysis: str = "part"
-    min_n: int | None = None
+    min_n: int | None = None  # planned units of the new process (and of the old, see below)
+    min_n_old: int | None = None  # per-process plan {old, new}; None: the old plan is min_n
     multiplicity: str = "none"
     exclude: tuple[Exclusion, ...] = ()
     plan: PlanSettings = field(default_factory=PlanSettings)
     supersedes_reason: str | None = None
     # key path -> (value, came_from_default); for the workbook's and the audit's parameter list
     resolved: tuple[tuple[str, str, bool], ...] = ()
+    # the table named by characteristics_from (verify.spec_table.CharacteristicsTable), if any
+    characteristics_table: object | None = None
+
+    def planned(self, process: str) -> int | None:
+        """The planned units for ``process`` ("old", "new" or "pairs"); None: no plan.
+
+        Pairs must reach the larger of the two plans (each pair is one unit of each process).
+        """
+        if self.min_n is None:
+            return None
+        old = self.min_n if self.min_n_old is None else self.min_n_old
+        return {"old": old, "new": self.min_n}.get(process, max(old, self.min_n))
+
+    @property
+    def min_n_text(self) -> str | None:
+        """The plan as the spec wrote it: "30" or "old 20, new 30"."""
+        if self.min_n is None:
+            return None
+        if self.min_n_old is None:
+            return str(self.min_n)
+        return f"old {self.min_n_old}, new {self.min_n}"
 
     @property
     def stem(self) -> str:

@@ -37,6 +37,17 @@ def _pairs(ws, row: int, items) -> int:
     return row
 
 
+def _table_pairs(table) -> tuple:
+    """The characteristics table (characteristics_from), when the spec names one."""
+    if table is None:
+        return ()
+    where = str(table.file) + (f" (sheet {table.sheet})" if table.sheet else "")
+    return (("Characteristics table", table.file_text),
+            ("Characteristics table sha256", table.sha256),
+            ("Characteristics table rows", table.rows),
+            ("Characteristics table resolved path", where))
+
+
 def write_audit(ws, ev: Evaluation) -> None:
     ws.column_dimensions["A"].width = 34
     ws.column_dimensions["B"].width = 70
@@ -85,6 +96,7 @@ def write_audit(ws, ev: Evaluation) -> None:
             ("Change id", ev.spec.change_id or ""),
             ("Supersedes reason", ev.spec.supersedes_reason or ""),
             ("Spec text", "verbatim on the sheet 'Spec text'"),
+            *_table_pairs(ev.spec.characteristics_table),
         ),
     )
     row += 1

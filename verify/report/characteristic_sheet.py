@@ -56,7 +56,8 @@ ALTERNATIVE_WORDS = {
 
 def _estimate_format(r: CheckResult, fmts: dict) -> str:
     if r.check == "spread":
-        return RATIO_FORMAT
+        # Brown-Forsythe estimates a difference of mean absolute deviations, in the data's unit
+        return fmts["shift"] if "brown" in (r.method or "").lower() else RATIO_FORMAT
     if r.check == "capability":
         return CPK_FORMAT
     return fmts["shift"]
@@ -136,6 +137,25 @@ EXTRA_LABELS = {
     "sigma_method": "sigma, how estimated", "mean": "mean (new)", "n": "n (new parts)",
     "min_cpk": "Cpk required", "cpk_lower_95": "Cpk, lower 95% bound",
     "correlation": "correlation old/new",
+    "pairs": "matched pairs used",
+    "pairs_ignored": "pairs ignored",
+    "mad_old": "mean abs. deviation from median, old",
+    "mad_new": "mean abs. deviation from median, new",
+    "sd_ratio_descriptive": "sd ratio new/old (descriptive, not the test)",
+    "sd_ratio_low_descriptive": "sd ratio interval low (descriptive F)",
+    "sd_ratio_high_descriptive": "sd ratio interval high (descriptive F)",
+    "sd_within_lot_old": "sd within lots, old",
+    "sd_within_lot_new": "sd within lots, new",
+    "sd_between_lot_old": "sd between lots, old",
+    "sd_between_lot_new": "sd between lots, new",
+    "between_lot_ratio": "between-lot sd ratio new/old (reported only)",
+    "compared": "what the spread test compares",
+    "index": "capability index judged",
+    "judge": "judged on",
+    "min": "minimum required",
+    "confidence": "confidence of the lower bound",
+    "lower_bound": "lower bound of the judged index",
+    "bound_df": "df behind the lower bound (effective for Cpk)",
 }
 
 
@@ -390,10 +410,26 @@ def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: 
             ws,
             row,
             1,
-            "n counts lots; mean and SD are of the lot means; min and max are of "
-            "the single values.",
+            "n counts lots; mean and SD are of the lot means (the location checks use "
+            "them); min and max are of the single values. The spread check compares the "
+            "pooled within-lot variances, not the lot means.",
             font=NOTE_FONT,
         )
+        row += 1
+    components = []
+    for key in ("old", "new"):
+        p = c.processes.get(key)
+        if p is None:
+            continue
+        if p.sd_within_lot is None:
+            components.append(f"{key}: not estimable (needs 2 lots of 2 or more parts)")
+        else:
+            zero = " (negative estimate set to 0)" if p.between_lot_set_to_zero else ""
+            components.append(f"{key}: sd within lots {p.sd_within_lot:.4g}, between lots "
+                              f"{p.sd_between_lot:.4g}{zero}")
+    if components:
+        put(ws, row, 1, "Lots as variance components (one-way random-effects ANOVA, method of "
+            "moments): " + "; ".join(components), font=NOTE_FONT)
         row += 1
     if c.pairs is not None:
         put(ws, row, 1, f"Matched pairs: {c.pairs}", font=NOTE_FONT)

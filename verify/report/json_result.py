@@ -81,6 +81,11 @@ def _check(c: CheckResult) -> dict:
             statistic_lower=c.statistic_lower,
             statistic_upper=c.statistic_upper,
         )
+    if c.check == "capability" and "index" in c.extra:
+        # the criterion as declared and judged: index (cpk | ppk), judge (estimate |
+        # lower_bound), min, and the lower bound at the spec's confidence
+        d.update(index=c.extra["index"], judge=c.extra["judge"], min=c.extra["min"],
+                 confidence=c.extra["confidence"], lower_bound=c.extra["lower_bound"])
     d.update(
         power=c.power,
         power_note=c.power_note,
@@ -111,6 +116,15 @@ def _diag(g: DiagnosticResult) -> dict:
     }
 
 
+def _table(table) -> dict:
+    """``characteristics_from``: the table's path, resolved path, sha256 and rows."""
+    if table is None:
+        return {}
+    return {"characteristics_from": {"path": table.file_text, "resolved_path": str(table.file),
+                                     "sha256": table.sha256, "rows": table.rows,
+                                     "sheet": table.sheet}}
+
+
 def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
     """The JSON result as a dict. ``workbook`` adds {path, sha256} of the workbook written."""
     spec = ev.spec
@@ -129,6 +143,7 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
             "resolved_path": str(Path(spec.path).resolve()),
             "sha256": spec.sha256,
             "text": spec.text,
+            **_table(spec.characteristics_table),
         },
         "data_files": [
             {
@@ -160,6 +175,12 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
         "parameters": [
             {"key": k, "value": v, "default": bool(dflt)} for k, v, dflt in spec.resolved
         ],
+        "multiplicity": {
+            "method": spec.multiplicity,
+            "family": list(ev.family),
+            "family_size": len(ev.family),
+            "left_out": list(ev.family_excluded),
+        },
         "rules": list(ev.rules),
         "caution": ev.caution,
         "characteristics": [
@@ -182,6 +203,9 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
                         "max": s.maximum,
                         "lots": list(s.lots),
                         "beyond_limits": _beyond(s.beyond_limits),
+                        "sd_within_lot": s.sd_within_lot,
+                        "sd_between_lot": s.sd_between_lot,
+                        "between_lot_set_to_zero": s.between_lot_set_to_zero,
                     }
                     for p, s in c.processes.items()
                 },

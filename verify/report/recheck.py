@@ -81,6 +81,10 @@ D2_CONSTANTS = (  # d2(n) for n = 2..25, the same tabled constants the engine us
     1.128, 1.693, 2.059, 2.326, 2.534, 2.704, 2.847, 2.970, 3.078, 3.173, 3.258, 3.336,
     3.407, 3.472, 3.532, 3.588, 3.640, 3.689, 3.735, 3.778, 3.819, 3.858, 3.895, 3.931,
 )  # fmt: skip
+D3_CONSTANTS = (  # d3(n) for n = 2..25, the engine's tabled constants (Burr's weights)
+    0.853, 0.888, 0.880, 0.864, 0.848, 0.833, 0.820, 0.808, 0.797, 0.787, 0.778, 0.770,
+    0.763, 0.756, 0.750, 0.744, 0.739, 0.733, 0.729, 0.724, 0.720, 0.716, 0.712, 0.708,
+)  # fmt: skip
 
 
 # --- the sheet builder ------------------------------------------------------------------------
@@ -558,6 +562,11 @@ def _location_test(
                 sh.qty("upper bound", f"{est}+{q}*{se}", ch.ci_high, "estimate + quantile * se")
             else:
                 sh.qty("lower bound", f"{est}-{q}*{se}", ch.ci_low, "estimate - quantile * se")
+    if ch.p_adjusted is not None and ch.ci_level is not None and ch.margin is None:
+        # a member of an adjusted family: its critical value is at alpha / m, the level of its
+        # interval (1 - alpha / m)
+        crit = ((crit[0].replace("alpha)", "alpha / m)"), f"(1-{level})") if two_sided_ci
+                else (crit[0].replace("alpha)", "alpha / m)"), f"2*(1-{level})"))
     sh.qty(crit[0], _t_quantile(crit[1], df, frac), ch.critical_value, hq)
 
 
@@ -653,9 +662,14 @@ def _spread(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult, sa
     if "pitman" in method:
         _pitman_morgan(sh, ev, layout, c, ch)
         return
+    if "within-lot" in method:
+        _within_lot_spread(sh, layout, c, ch)
+        return
     shift = c.spec.checks.shift
-    if shift is not None and shift.design == "paired":
-        # paired data: the spread test runs on the matched pairs only
+    sp = c.spec.checks.spread
+    opted_out = sp is not None and sp.design == "independent" and sp.design_given
+    if c.pairs is not None and shift is not None and shift.design == "paired" and not opted_out:
+        # an F-test reported on paired data runs on the matched pairs only
         pr = _pairs(sh, ev, layout, c, None)
         if pr is None:
             return
@@ -672,14 +686,26 @@ def _spread(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult, sa
         extra.get("F", None if brown else ch.statistic),
         "sd_new^2 / sd_old^2",
     )
-    sh.qty("sd ratio (new / old)", f"SQRT({f})", ch.estimate, "SQRT(F)")
-    d1 = sh.qty(
-        "df, numerator", f"{n.n}-1", extra.get("df_num", None if brown else ch.df), "n_new - 1"
-    )
+    d1 = sh.qty("df, numerator", f"{n.n}-1", extra.get("df_num"), "n_new - 1")
     d2 = sh.qty(
         "df, denominator", f"{o.n}-1", extra.get("df_den", extra.get("df_denominator")), "n_old - 1"
     )
-    if not brown:
+    _f_rows(sh, ch, f, d1, d2, descriptive=brown)
+    if brown:
+        _brown_forsythe(sh, ch, o, n)
+
+
+def _f_rows(sh: _Sheet, ch: CheckResult, f: str, d1: str, d2: str, *, descriptive: bool,
+            label: str = "sd ratio") -> None:
+    """The sd ratio, the F-test's p-value and its interval from the F cell and its df cells.
+
+    ``descriptive``: the F-test stands beside a Brown-Forsythe decision; its ratio and interval
+    are compared with the engine's descriptive figures and its p-value is not the check's.
+    """
+    extra = ch.extra or {}
+    ratio = extra.get("sd_ratio_descriptive") if descriptive else ch.estimate
+    sh.qty(f"{label} (new / old)", f"SQRT({f})", ratio, "SQRT(F)")
+    if not descriptive:
         alt = ch.alternative or "greater"
         if alt == "greater":
             fp = f"_xlfn.F.DIST.RT({f},{d1},{d2})"
@@ -687,31 +713,103 @@ def _spread(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult, sa
             fp = f"_xlfn.F.DIST({f},{d1},{d2},TRUE)"
         else:
             fp = f"MIN(1,2*MIN(_xlfn.F.DIST.RT({f},{d1},{d2}),_xlfn.F.DIST({f},{d1},{d2},TRUE)))"
-        sh.qty(f"p (F-test, {alt})", fp, ch.p_value, "F.DIST.RT / F.DIST (integer df)")
-    if ch.ci_level is not None:
-        level = sh.param("confidence level", ch.ci_level, "the level the engine reports")
-        if _number(ch.ci_high) is not None:
-            sh.qty(
-                "sd ratio interval: low",
-                f"SQRT({f}/_xlfn.F.INV.RT((1-{level})/2,{d1},{d2}))",
-                ch.ci_low,
-                "SQRT(F / F.INV.RT((1 - level)/2))",
-            )
-            sh.qty(
-                "sd ratio interval: high",
-                f"SQRT({f}/_xlfn.F.INV((1-{level})/2,{d1},{d2}))",
-                ch.ci_high,
-                "SQRT(F / F.INV((1 - level)/2))",
-            )
-        else:
-            sh.qty(
-                "sd ratio lower bound",
-                f"SQRT({f}/_xlfn.F.INV.RT(1-{level},{d1},{d2}))",
-                ch.ci_low,
-                "SQRT(F / F.INV.RT(1 - level))",
-            )
-    if brown:
-        _brown_forsythe(sh, ch, o, n)
+        sh.family_p[sh.current] = sh.qty(
+            f"p (F-test, {alt})", fp, ch.p_value, "F.DIST.RT / F.DIST (integer df)")
+    if ch.ci_level is None:
+        return
+    low = extra.get("sd_ratio_low_descriptive") if descriptive else ch.ci_low
+    high = extra.get("sd_ratio_high_descriptive") if descriptive else ch.ci_high
+    what = " (descriptive)" if descriptive else ""
+    level = sh.param("confidence level", ch.ci_level, "the level the engine reports")
+    if _number(high) is not None:
+        sh.qty(
+            f"{label} interval{what}: low",
+            f"SQRT({f}/_xlfn.F.INV.RT((1-{level})/2,{d1},{d2}))",
+            low,
+            "SQRT(F / F.INV.RT((1 - level)/2))",
+        )
+        sh.qty(
+            f"{label} interval{what}: high",
+            f"SQRT({f}/_xlfn.F.INV((1-{level})/2,{d1},{d2}))",
+            high,
+            "SQRT(F / F.INV((1 - level)/2))",
+        )
+    else:
+        sh.qty(
+            f"{label} lower bound{what}",
+            f"SQRT({f}/_xlfn.F.INV.RT(1-{level},{d1},{d2}))",
+            low,
+            "SQRT(F / F.INV.RT(1 - level))",
+        )
+
+
+def _lot_components(sh: _Sheet, layout, c: CharacteristicResult, process: str
+                    ) -> tuple[str, str] | None:
+    """Within- and between-lot variance components of one process from per-lot helper rows;
+    returns the cells of the within-lot df and the pooled within-lot variance."""
+    block = layout.used.get((c.name, process))
+    if block is None:
+        sh.unavailable(f"{process}: lot components", _why_no_block(layout, c.name, process))
+        return None
+    lots = _lots_of(_block_rows(layout, c.name, process))
+    problem = _lot_names_problem(lots)
+    if problem is None and 3 * len(lots) > MAX_HELPER_ROWS:
+        problem = f"{len(lots)} lots need more than the {MAX_HELPER_ROWS} helper rows allowed"
+    if problem is not None:
+        sh.unavailable(f"{process}: lot components", problem)
+        return None
+    values, lot_col = block.ref(VALUE_COLUMN), block.ref(LOT_COLUMN)
+    lits = [_string_literal(_as_written(x)) for x in lots]
+    how_in = "SUMPRODUCT(--EXACT(lot, name), ...): this lot's used values"
+    first_n = sh.next_row
+    for lot, lit in zip(lots, lits, strict=True):
+        sh.qty(f"{process} lot {lot}: n", f"SUMPRODUCT(--EXACT({lot_col},{lit}))", None, how_in)
+    first_m = sh.next_row
+    for i, (lot, lit) in enumerate(zip(lots, lits, strict=True)):
+        sh.qty(f"{process} lot {lot}: mean",
+               f"SUMPRODUCT(--EXACT({lot_col},{lit}),{values})/$B${first_n + i}", None, how_in)
+    first_s = sh.next_row
+    for i, (lot, lit) in enumerate(zip(lots, lits, strict=True)):
+        sh.qty(f"{process} lot {lot}: sum of squares about its mean",
+               f"SUMPRODUCT(--EXACT({lot_col},{lit}),({values}-$B${first_m + i})^2)", None,
+               how_in)
+    n_rng = f"$B${first_n}:$B${first_m - 1}"
+    m_rng = f"$B${first_m}:$B${first_s - 1}"
+    s_rng = f"$B${first_s}:$B${sh.next_row - 1}"
+    k = len(lots)
+    summary = c.processes.get(process)
+    total = sh.qty(f"{process}: N (parts)", f"SUM({n_rng})", None, "SUM of the lot sizes")
+    dfw = sh.qty(f"{process}: within-lot df, sum(n_i - 1)", f"{total}-{k}", None, "N - k")
+    msw = sh.qty(f"{process}: pooled within-lot variance", f"SUM({s_rng})/{dfw}", None,
+                 "sum of the lots' sums of squares / (N - k)")
+    sh.qty(f"{process}: sd within lots", f"SQRT({msw})",
+           None if summary is None else summary.sd_within_lot, "SQRT(MS_within)")
+    grand = sh.qty(f"{process}: grand mean", f"SUMPRODUCT({n_rng},{m_rng})/{total}", None,
+                   "size-weighted mean of the lot means")
+    msb = sh.qty(f"{process}: between-lot mean square",
+                 f"SUMPRODUCT({n_rng},({m_rng}-{grand})^2)/({k}-1)", None,
+                 "sum n_i (mean_i - grand)^2 / (k - 1)")
+    n0 = sh.qty(f"{process}: effective lot size n0",
+                f"({total}-SUMPRODUCT({n_rng},{n_rng})/{total})/({k}-1)", None,
+                "(N - sum n_i^2 / N) / (k - 1)")
+    sh.qty(f"{process}: sd between lots", f"SQRT(MAX(0,({msb}-{msw})/{n0}))",
+           None if summary is None else summary.sd_between_lot,
+           "SQRT(MAX(0, (MS_between - MS_within) / n0)) (method of moments)")
+    return dfw, msw
+
+
+def _within_lot_spread(sh: _Sheet, layout, c: CharacteristicResult, ch: CheckResult) -> None:
+    """unit_of_analysis lot: the pooled within-lot variances, compared by F."""
+    extra = ch.extra or {}
+    old = _lot_components(sh, layout, c, "old")
+    new = _lot_components(sh, layout, c, "new")
+    if old is None or new is None:
+        return
+    f = sh.qty("F ratio (pooled within-lot variance new / old)", f"{new[1]}/{old[1]}",
+               extra.get("F"), "MS_within new / MS_within old")
+    sh.qty("df, numerator", new[0], extra.get("df_num"), "new: sum(n_i - 1)")
+    sh.qty("df, denominator", old[0], extra.get("df_den"), "old: sum(n_i - 1)")
+    _f_rows(sh, ch, f, new[0], old[0], descriptive=False, label="within-lot sd ratio")
 
 
 def _matched_sample(sh: _Sheet, pr: _Pairs, process: str) -> _Sample:
@@ -751,10 +849,21 @@ def _brown_forsythe(sh: _Sheet, ch: CheckResult, o: _Sample, n: _Sample) -> None
         None,
         "pooled t-test on the absolute deviations",
     )
-    t = sh.qty("Brown-Forsythe t", f"({mn}-{mo})/{se}", None, "(mean abs dev new - old) / se")
+    est = sh.qty("Brown-Forsythe estimate: mean abs dev new - old", f"{mn}-{mo}", ch.estimate,
+                 "the difference the test is about")
+    t = sh.qty("Brown-Forsythe t", f"{est}/{se}", None, "(mean abs dev new - old) / se")
     sh.qty("Brown-Forsythe W = t^2", f"{t}^2", ch.statistic, "t^2")
     alt = ch.alternative or "greater"
-    sh.qty(f"p (Brown-Forsythe, {alt})", _p_side(t, df, False, alt), ch.p_value, _HOW_P[False])
+    sh.family_p[sh.current] = sh.qty(
+        f"p (Brown-Forsythe, {alt})", _p_side(t, df, False, alt), ch.p_value, _HOW_P[False])
+    if ch.ci_level is not None and _number(ch.ci_low) is not None:
+        level = sh.param("confidence level (Brown-Forsythe)", ch.ci_level,
+                         "the level the engine reports")
+        q = sh.qty("t quantile", _t_quantile(f"1-{level}", df, False), None, _HOW_Q[False])
+        sh.qty("Brown-Forsythe interval: low", f"{est}-{q}*{se}", ch.ci_low, "estimate - t se")
+        if _number(ch.ci_high) is not None:
+            sh.qty("Brown-Forsythe interval: high", f"{est}+{q}*{se}", ch.ci_high,
+                   "estimate + t se")
 
 
 def _pitman_morgan(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult) -> None:
@@ -779,7 +888,8 @@ def _pitman_morgan(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckRes
         "t (Pitman-Morgan)", f"{r}*SQRT({df}/(1-{r}^2))", ch.statistic, "r * SQRT(df / (1 - r^2))"
     )
     alt = ch.alternative or "greater"
-    sh.qty(f"p (Pitman-Morgan, {alt})", _p_side(t, df, False, alt), ch.p_value, _HOW_P[False])
+    sh.family_p[sh.current] = sh.qty(
+        f"p (Pitman-Morgan, {alt})", _p_side(t, df, False, alt), ch.p_value, _HOW_P[False])
     if ch.ci_level is not None and _number(ch.ci_low) is not None:
         level = sh.param("confidence level", ch.ci_level, "the level the engine reports")
         q = sh.qty("t quantile", _t_quantile(f"1-{level}", df, False), None, _HOW_Q[False])
@@ -882,7 +992,8 @@ def _moving_range(sh: _Sheet, ev, layout, name: str, block: Block, n: str) -> st
     )
 
 
-def _subgroup_sigma(sh: _Sheet, layout, name: str, block: Block) -> str | None:
+def _subgroup_sigma(sh: _Sheet, layout, name: str, block: Block) -> tuple[str, str] | None:
+    """Rows of range / d2(size) per lot and of Burr's weight per lot; their two ranges."""
     rows = _block_rows(layout, name, "new")
     lots = _lots_of(rows)
     problem = _lot_names_problem(lots)
@@ -897,8 +1008,8 @@ def _subgroup_sigma(sh: _Sheet, layout, name: str, block: Block) -> str | None:
         )
         return None
     counts = rows.groupby(rows["lot"].astype(str)).size()
-    if len(lots) > MAX_HELPER_ROWS:
-        sh.unavailable("within sigma from lot ranges", f"more than {MAX_HELPER_ROWS} lots")
+    if 2 * len(lots) > MAX_HELPER_ROWS:
+        sh.unavailable("within sigma from lot ranges", f"more than {MAX_HELPER_ROWS // 2} lots")
         return None
     if int(counts.max()) > len(D2_CONSTANTS) + 1:
         sh.unavailable(
@@ -925,7 +1036,21 @@ def _subgroup_sigma(sh: _Sheet, layout, name: str, block: Block) -> str | None:
     if sh.next_row == first:
         sh.unavailable("within sigma from lot ranges", "no lot holds 2 or more values")
         return None
-    return f"$B${first}:$B${sh.next_row - 1}"
+    scaled = f"$B${first}:$B${sh.next_row - 1}"
+    # Burr's weights d2(n)^2 / d3(n)^2, the reciprocal variances of the scaled ranges
+    d3_table = ",".join(repr(x) for x in D3_CONSTANTS)
+    first = sh.next_row
+    for lot in lots:
+        if counts[lot] < 2:
+            continue
+        k = f"COUNTIFS({lot_col},{_criterion(_as_written(lot))})"
+        sh.qty(
+            f"lot {lot}: weight d2^2 / d3^2",
+            f"CHOOSE({k}-1,{table})^2/CHOOSE({k}-1,{d3_table})^2",
+            None,
+            "d2(size)^2 / d3(size)^2 from the tabled constants (Burr's weights)",
+        )
+    return scaled, f"$B${first}:$B${sh.next_row - 1}"
 
 
 def _capability(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult) -> None:
@@ -946,14 +1071,15 @@ def _capability(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult
     how = str(extra.get("sigma_method", ""))
     by_lot = c.spec.checks.capability is not None and c.spec.checks.capability.subgroup == "lot"
     if by_lot or ("subgroup" in how and "moving" not in how):
-        ranges = _subgroup_sigma(sh, layout, c.name, block)
-        if ranges is None:
+        found = _subgroup_sigma(sh, layout, c.name, block)
+        if found is None:
             return
+        ranges, weights = found
         sw = sh.qty(
             "within sigma",
-            f"AVERAGE({ranges})",
+            f"SUMPRODUCT({weights},{ranges})/SUM({weights})",
             extra.get("sigma_within"),
-            "mean of range / d2(size) over the lots",
+            "range / d2(size) over the lots, weighted d2^2 / d3^2 (the mean for equal sizes)",
         )
     else:
         mr = _moving_range(sh, ev, layout, c.name, block, n)
@@ -990,7 +1116,7 @@ def _capability(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult
                 "(upper - lower) / (6 sigma)",
             )
         both = [x for x in (lo, hi) if x is not None]
-        engine = ch.estimate if key == "c" else extra.get("ppk")
+        engine = extra.get("cpk", ch.estimate) if key == "c" else extra.get("ppk")
         idx[key] = sh.qty(
             f"{key.upper()}pk ({label} sigma)",
             f"MIN({','.join(both)})",
@@ -1005,14 +1131,46 @@ def _capability(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult
             extra.get("cpm"),
             "(upper - lower) / (6 SQRT(sigma_within^2 + (mean - target)^2))",
         )
-    bound = extra.get("cpk_lower_95", ch.ci_low)
+    # the bounds: Bissell's form on the df of the sigma behind the index (n - 1 for Ppk; the
+    # effective df of the range-based within sigma for Cpk)
+    if "moving" in how:
+        nu = sh.qty(
+            "effective df of the moving-range sigma",
+            f"(4/PI())/(2*((({n}-1)*(2-4/PI())+2*MAX({n}-2,0)*(4/PI()*(SQRT(3)/2+PI()/12-1)))"
+            f"/({n}-1)^2))",
+            extra.get("bound_df") if extra.get("index", "cpk") == "cpk" else None,
+            "E(MRbar)^2 / (2 Var(MRbar)), neighbouring moving ranges correlated",
+        )
+    elif extra.get("index", "cpk") == "cpk" and _number(extra.get("bound_df")) is not None:
+        nu = sh.param("effective df of the subgroup-range sigma", extra["bound_df"],
+                      "the engine's sum d2^2 / (2 d3^2) over the lots (Burr's weights)")
+    else:
+        nu = None
     cpk = idx["c"]
-    sh.qty(
-        "Cpk lower 95% bound (Bissell)",
-        f"{cpk}-_xlfn.NORM.S.INV(0.95)*SQRT(1/(9*{n})+{cpk}^2/(2*({n}-1)))",
-        bound,
-        "Cpk - NORM.S.INV(0.95) SQRT(1/(9n) + Cpk^2/(2(n-1)))",
-    )
+    if nu is not None:
+        sh.qty(
+            "Cpk lower 95% bound",
+            f"{cpk}-_xlfn.NORM.S.INV(0.95)*SQRT(1/(9*{n})+{cpk}^2/(2*{nu}))",
+            extra.get("cpk_lower_95", ch.ci_low),
+            "Cpk - NORM.S.INV(0.95) SQRT(1/(9n) + Cpk^2/(2 nu)), nu the effective df",
+        )
+    if extra.get("index") == "ppk" and _number(extra.get("confidence")) is not None:
+        conf = sh.param("confidence of the lower bound", extra["confidence"], "the spec's")
+        ppk = idx["p"]
+        sh.qty(
+            "Ppk lower bound (Bissell)",
+            f"{ppk}-_xlfn.NORM.S.INV({conf})*SQRT(1/(9*{n})+{ppk}^2/(2*({n}-1)))",
+            extra.get("lower_bound"),
+            "Ppk - NORM.S.INV(confidence) SQRT(1/(9n) + Ppk^2/(2(n-1)))",
+        )
+    elif nu is not None and _number(extra.get("confidence")) not in (None, 0.95):
+        conf = sh.param("confidence of the lower bound", extra["confidence"], "the spec's")
+        sh.qty(
+            "Cpk lower bound at the spec's confidence",
+            f"{cpk}-_xlfn.NORM.S.INV({conf})*SQRT(1/(9*{n})+{cpk}^2/(2*{nu}))",
+            extra.get("lower_bound"),
+            "Cpk - NORM.S.INV(confidence) SQRT(1/(9n) + Cpk^2/(2 nu))",
+        )
 
 
 # --- multiplicity ----------------------------------------------------------------------------
@@ -1026,7 +1184,8 @@ def _multiplicity(sh: _Sheet, ev: Evaluation) -> None:
     ]
     if method not in ("holm", "bonferroni") or not family:
         return
-    sh.heading(f"Multiplicity: {method} adjustment of the difference tests' p-values")
+    sh.heading(f"Multiplicity: {method} adjustment of the p-values of the family (difference "
+               "and spread tests)")
     missing = [f"{name} {ch.check}" for name, ch in family if (name, ch.check) not in sh.family_p]
     if missing:
         sh.unavailable(
@@ -1039,7 +1198,7 @@ def _multiplicity(sh: _Sheet, ev: Evaluation) -> None:
         for name, ch in family
     ]
     ps = f"$B${first}:$B${sh.next_row - 1}"
-    m = sh.qty("m, the number of difference tests", f"COUNT({ps})", len(family), "COUNT")
+    m = sh.qty("m, the number of tests in the family", f"COUNT({ps})", len(family), "COUNT")
     if method == "bonferroni":
         for (name, ch), p in zip(family, p_cells, strict=True):
             sh.qty(

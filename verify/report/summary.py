@@ -77,7 +77,7 @@ def put_decision_badge(ws, row: int, col: int, decision: str, size: int) -> Patt
 
 
 def _plan_words(ev: Evaluation) -> str:
-    min_n = ev.spec.min_n
+    min_n = ev.spec.min_n_text
     unit = {"part": "parts", "lot": "lots"}.get(ev.spec.unit_of_analysis, "units")
     if min_n is None:
         return "none declared (min_n): the checks decide on the data there are"
@@ -131,17 +131,25 @@ def planning_notes(ev: Evaluation) -> list[str]:
 def multiplicity_text(ev: Evaluation) -> list[str]:
     out = []
     uses_margin = any(r.margin is not None for c in ev.characteristics for r in c.checks)
+    family = ", ".join(ev.family) if ev.family else "none"
     if ev.spec.multiplicity == "none":
         out.append(
-            "Multiplicity: none. Each difference test (a check without a margin) is judged on "
-            f"its own p-value at alpha = {ev.spec.alpha:g}."
+            "Multiplicity: none. Each test that holds on significance (a difference test, a "
+            f"check without a margin, or a spread test) is judged on its own p-value at alpha = "
+            f"{ev.spec.alpha:g}. These tests: {family}."
         )
     else:
+        m = len(ev.family)
         out.append(
-            f"Multiplicity: {ev.spec.multiplicity} adjustment of the p-values of the difference "
-            "tests (checks without a margin) across all characteristics; the adjusted p-value "
-            f"is compared with alpha = {ev.spec.alpha:g}, and the p-value column above shows "
-            "it for those checks."
+            f"Multiplicity: {ev.spec.multiplicity} adjustment across all characteristics of "
+            f"the family of {m} test(s) that hold on significance (difference tests and spread "
+            f"tests): {family}. The adjusted p-value is compared with alpha = "
+            f"{ev.spec.alpha:g}; their intervals, critical values and power use alpha / {m}."
+        )
+    if ev.family_excluded:
+        out.append(
+            "Left out of the family because they cannot be computed (each HOLDs with its "
+            "reason): " + ", ".join(ev.family_excluded) + "."
         )
     if uses_margin:
         out.append(

@@ -12,6 +12,18 @@ Interval forms (all two-sided at ``level`` unless a bound is asked for):
   index +/- z * sqrt(1 / (9 n) + index^2 / (2 (n - 1))), which is the usual
   index * (1 -/+ z sqrt(1 / (9 n index^2) + 1 / (2 (n - 1)))) for a positive index and stays
   defined at or below zero.
+* Lower confidence bounds (what a capability criterion judges with ``judge: lower_bound``):
+  index - z_level * sqrt(1 / (9 n) + index^2 / (2 nu)), Bissell's delta-method form with nu the
+  degrees of freedom of the sigma behind the index. For Ppk (overall sd) nu = n - 1, Bissell's
+  own case. For Cpk the within sigma is a range-based estimator, less efficient than the sd:
+  nu is its *effective* df, nu = E(sigma_hat)^2 / (2 Var(sigma_hat)), the df of the chi
+  distribution with the same coefficient of variation (Patnaik 1950, "The use of mean range
+  as an estimator of variance in statistical tests", Biometrika 37). For k subgroup ranges
+  pooled with Burr's weights nu = sum d2(n_i)^2 / (2 d3(n_i)^2) (for equal sizes k d2^2 /
+  (2 d3^2), close to the familiar 0.9 k (n - 1)); for the average of the n - 1 moving ranges of
+  n values, whose neighbours are correlated, nu follows from the exact mean and variance of the
+  average moving range (:func:`moving_range_df`, about 0.6 (n - 1)). The coverage these bounds
+  reach is measured by simulation in tests/test_capability_bounds.py and stated in the README.
 * Cpm: Boyles (1991), "The Taguchi capability index", Journal of Quality Technology 23: the
   sum of squares about the target, scaled by sigma^2, is a noncentral chi-square with n df and
   noncentrality n a^2, a = (mean - target) / sigma; matching its mean n (1 + a^2) and variance
@@ -30,7 +42,7 @@ from scipy import special
 
 from ._checks import check_level
 from .core import Interval, mean_sd
-from .diagnostics import D2_TABLE, d2, finite_values, group_codes
+from .diagnostics import D2_TABLE, d2, d3, finite_values, group_codes
 from .errors import DegenerateDataError, NotApplicableError
 
 ArrayLike = Sequence[float] | np.ndarray
@@ -66,6 +78,47 @@ def bissell_lower_bound(index: float, n: int, level: float = 0.95) -> float:
     return index - float(special.ndtri(level)) * bissell_se(index, n)
 
 
+def capability_lower_bound(index: float, n: int, df: float, level: float = 0.95) -> float:
+    """Lower one-sided bound index - z_level sqrt(1 / (9 n) + index^2 / (2 df)).
+
+    ``df`` is the (effective) degrees of freedom of the sigma in the index: n - 1 for the sample
+    sd (then this is Bissell's bound), the effective df of a range-based sigma otherwise.
+    """
+    check_level(level)
+    if not df > 0:
+        raise DegenerateDataError("the sigma estimate has no degrees of freedom")
+    se = math.sqrt(1.0 / (9.0 * n) + index * index / (2.0 * df))
+    return index - float(special.ndtri(level)) * se
+
+
+# Moments of the absolute difference of neighbours, sigma = 1: D = X2 - X1 ~ N(0, 2),
+# E|D| = 2 / sqrt(pi); Var|D| = 2 - 4 / pi; neighbouring differences share a value, so their
+# correlation is -1/2 and, from E|Z1 Z2| = (2 / pi)(sqrt(1 - r^2) + r asin r) for standard
+# normals with correlation r, cov(|D1|, |D2|) = (4 / pi)(sqrt(3) / 2 + pi / 12 - 1).
+# (Derived here; the bivariate-normal absolute moment is a textbook result.)
+_MR_MEAN = 2.0 / math.sqrt(math.pi)
+_MR_VAR = 2.0 - 4.0 / math.pi
+_MR_COV = 4.0 / math.pi * (math.sqrt(3.0) / 2.0 + math.pi / 12.0 - 1.0)
+
+
+def moving_range_df(n: int) -> float:
+    """Effective df of sigma = (average moving range) / d2(2) from ``n`` values in order.
+
+    nu = E(MRbar)^2 / (2 Var(MRbar)), with Var(MRbar) = ((n - 1) Var|D| + 2 (n - 2) cov) /
+    (n - 1)^2 (only neighbouring moving ranges are correlated). About 0.6 (n - 1) for large n.
+
+    Examples
+    --------
+    >>> round(moving_range_df(2), 3)
+    0.876
+    """
+    if n < 2:
+        raise DegenerateDataError(f"{n} value: a moving range needs at least 2")
+    m = n - 1
+    var = (m * _MR_VAR + 2.0 * max(m - 1, 0) * _MR_COV) / (m * m)
+    return _MR_MEAN * _MR_MEAN / (2.0 * var)
+
+
 def boyles_df(n: int, a: float) -> float:
     """Boyles' (1991) approximate chi-square df for Cpm: n (1 + a^2)^2 / (1 + 2 a^2)."""
     a2 = a * a
@@ -89,6 +142,8 @@ class CapabilityResult:
         How sigma_within was estimated, in words.
     n_subgroups : int or None
         Subgroups that contributed a range; None for the moving-range estimate.
+    sigma_within_df : float
+        Effective degrees of freedom of sigma_within (see the module docstring).
     lower, upper, target : float or None
     level : float
         Confidence level of the ``*_interval`` fields.
@@ -104,7 +159,8 @@ class CapabilityResult:
         and a target are given.
     cp_interval, cpk_interval, cpm_interval, pp_interval, ppk_interval : Interval or None
         Two-sided intervals at ``level`` (forms in the module docstring); None where the index
-        is None.
+        is None. They take n - 1 df for every sigma, as qcc prints them; the lower bounds
+        below use the effective df of sigma_within for Cpk.
     """
 
     n: int
@@ -132,13 +188,22 @@ class CapabilityResult:
     pp_interval: Interval | None
     ppk_interval: Interval
 
+    sigma_within_df: float = math.nan
+
     def cpk_lower_bound(self, level: float = 0.95) -> float:
-        """One-sided lower confidence bound for Cpk (Bissell form)."""
-        return bissell_lower_bound(self.cpk, self.n, level)
+        """One-sided lower confidence bound for Cpk: Bissell's form on the effective df of the
+        within sigma (moving ranges or subgroup ranges), not on n - 1."""
+        return capability_lower_bound(self.cpk, self.n, self.sigma_within_df, level)
 
     def ppk_lower_bound(self, level: float = 0.95) -> float:
-        """One-sided lower confidence bound for Ppk (Bissell form)."""
+        """One-sided lower confidence bound for Ppk (Bissell 1990: overall sd, n - 1 df)."""
         return bissell_lower_bound(self.ppk, self.n, level)
+
+    def lower_bound(self, index: str, level: float = 0.95) -> float:
+        """The lower bound of ``index`` ("cpk" or "ppk")."""
+        if index == "ppk":
+            return self.ppk_lower_bound(level)
+        return self.cpk_lower_bound(level)
 
 
 def _limit(value: float | None, name: str) -> float | None:
@@ -152,13 +217,17 @@ def _limit(value: float | None, name: str) -> float | None:
 
 def within_sigma(
     x: np.ndarray, subgroups: Sequence[Hashable] | None
-) -> tuple[float, str, int | None]:
-    """sigma_within, the method in words, and the number of subgroups used (None: moving range).
+) -> tuple[float, str, int | None, float]:
+    """sigma_within, the method in words, the subgroups used (None: moving range) and the
+    effective df of the estimate.
 
     Moving range: mr_bar / d2(2), d2(2) = 1.128, from consecutive values in the order given.
-    Subgroups: Rbar / d2(n) for equal sizes; for unequal sizes the mean of R_i / d2(n_i)
-    (each range scaled by its own constant, which reduces to Rbar / d2(n) when the sizes are
-    equal). Subgroups of one value carry no range and are left out.
+    Subgroups: each range scaled by its own constant, R_i / d2(n_i), is unbiased for sigma; they
+    are pooled with Burr's weights f_i = d2(n_i)^2 / d3(n_i)^2, the reciprocals of their
+    variances (I. W. Burr 1969, "Control charts for measurements with varying sample sizes",
+    Journal of Quality Technology 1; the same weighted form is in ASTM E2587; both cited from
+    memory). The weighted mean is unbiased and has the least variance of such combinations; for
+    equal sizes it is Rbar / d2(n). Subgroups of one value carry no range and are left out.
     """
     if subgroups is None:
         if x.size < 2:
@@ -166,7 +235,8 @@ def within_sigma(
         mr_bar = float(np.mean(np.abs(np.diff(x))))
         if not mr_bar > 0.0:
             raise DegenerateDataError("all values are identical: the moving range is zero")
-        return mr_bar / D2_TABLE[2], "average moving range / d2(2) = 1.128", None
+        return (mr_bar / D2_TABLE[2], "average moving range / d2(2) = 1.128", None,
+                moving_range_df(int(x.size)))
     _, codes = group_codes(subgroups, x.size, "subgroup labels")
     k = int(codes.max()) + 1
     sizes = np.bincount(codes, minlength=k)
@@ -179,19 +249,22 @@ def within_sigma(
         raise NotApplicableError("no subgroup has 2 or more values, so no range exists")
     ranges, used_sizes = (hi - lo)[use], sizes[use]
     constants = np.array([d2(int(s)) for s in used_sizes])
+    weights = np.array([d2(int(s)) ** 2 / d3(int(s)) ** 2 for s in used_sizes])
+    df = float(np.sum(weights)) / 2.0  # Var(sigma_hat) = sigma^2 / sum f_i
     left_out = int(np.count_nonzero(~use))
     note = f"; {left_out} subgroup(s) of one value left out" if left_out else ""
     if np.all(used_sizes == used_sizes[0]):
         sigma = float(np.mean(ranges)) / float(constants[0])
         method = f"mean subgroup range / d2({int(used_sizes[0])}) = {constants[0]:.4g}{note}"
     else:
-        sigma = float(np.mean(ranges / constants))
-        method = f"mean of subgroup range / d2(subgroup size), unequal sizes{note}"
+        sigma = float(np.sum(weights * ranges / constants) / np.sum(weights))
+        method = ("subgroup range / d2(size), pooled with Burr's weights d2^2 / d3^2, "
+                  f"unequal sizes{note}")
     if not sigma > 0.0:
         raise DegenerateDataError(
             "every subgroup's values are identical: the within-subgroup range is zero"
         )
-    return sigma, method, int(ranges.size)
+    return sigma, method, int(ranges.size), df
 
 
 def capability(
@@ -244,7 +317,7 @@ def capability(
         raise DegenerateDataError(f"{n} value: capability needs at least 2")
     if not s_overall > 0.0:
         raise DegenerateDataError("all values are identical: zero spread, capability undefined")
-    s_within, how, n_sub = within_sigma(a, subgroups)
+    s_within, how, n_sub, nu_within = within_sigma(a, subgroups)
 
     def indices(sigma: float) -> tuple[float | None, float, float | None, float | None]:
         lo = None if lsl is None else (m - lsl) / (3.0 * sigma)
@@ -286,4 +359,5 @@ def capability(
         cpm_interval=cpm_interval,
         pp_interval=None if pp is None else chi2_interval(pp, n - 1, level),
         ppk_interval=bissell_interval(ppk, n, level),
+        sigma_within_df=float(nu_within),
     )

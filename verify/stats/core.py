@@ -188,15 +188,18 @@ def mean_sd(x: np.ndarray) -> tuple[int, float, float]:
     n = int(x.size)
     if n == 0:
         raise DegenerateDataError("no values")
-    if not np.all(np.isfinite(x)):
+    # plain reductions (pairwise sums), never a BLAS dot: a dot on a long vector can start
+    # threads, which on a loaded machine costs far more than the arithmetic
+    total = float(np.add.reduce(x))
+    if not math.isfinite(total) and not np.isfinite(x).all():
         raise DegenerateDataError("values must be finite numbers")
-    m = float(np.mean(x))
+    m = total / n
     d = x - m
-    m = m + float(np.mean(d))  # second-pass correction of the mean
-    d = x - m
+    m = m + float(np.add.reduce(d)) / n  # second-pass correction of the mean
     if n < 2:
         return n, m, math.nan
-    ss = float(np.dot(d, d)) - float(np.sum(d)) ** 2 / n
+    d = x - m
+    ss = float(np.add.reduce(d * d)) - float(np.add.reduce(d)) ** 2 / n
     return n, m, math.sqrt(max(ss, 0.0) / (n - 1))
 
 

@@ -1,0 +1,112 @@
+"""The gather on numpy indices (data.analysis_values / paired_values) against the pandas
+selection it replaced, kept here as the reference route (select the used rows of one
+characteristic and process, stable sort by production order then source row, lot means by
+pandas groupby)."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from verify.data import analysis_values, load_measurements, paired_values
+from verify.spec import load_spec
+
+
+def reference_values(meas, spec, name, process, unit):
+    t = meas.table
+    sel = t[(t["characteristic"] == name) & (t["process"] == process) & ~t["excluded"]]
+    sel = sel.sort_values(["order", "source_row"], kind="stable")
+    if unit == "lot":
+        means = sel.groupby("lot", sort=False)["value"].mean()
+        return means.to_numpy(dtype=float), tuple(str(x) for x in means.index), len(sel)
+    return sel["value"].to_numpy(dtype=float), tuple(sel["lot"].astype(str)), len(sel)
+
+
+def reference_pairs(meas, name):
+    t = meas.table
+    sel = t[(t["characteristic"] == name) & t["process"].isin(["old", "new"])
+            & (t["pair"] != "") & ~t["excluded"]]
+    sel = sel.sort_values(["order", "source_row"], kind="stable")
+    old = sel[sel["process"] == "old"].drop_duplicates("pair").set_index("pair")
+    new = sel[sel["process"] == "new"].drop_duplicates("pair").set_index("pair")
+    first = sel.drop_duplicates("pair")["pair"].tolist()
+    both = old.index.intersection(new.index)
+    keys = [k for k in first if k in both]
+    return (tuple(keys), old.loc[keys, "value"].to_numpy(dtype=float),
+            new.loc[keys, "value"].to_numpy(dtype=float),
+            tuple(k for k in first if k not in both))
+
+
+@pytest.mark.parametrize("name", ["bushing-supplier", "filler-paired", "housing-resin"])
+@pytest.mark.parametrize("unit", ["part", "lot"])
+def test_gather_matches_pandas_selection_on_demo_specs(demo, name, unit):
+    from dataclasses import replace
+
+    spec = load_spec(demo / "specs" / f"{name}.yaml")
+    spec = replace(spec, unit_of_analysis=unit)
+    meas = load_measurements(spec)
+    for ch in spec.characteristics:
+        for process in ("old", "new"):
+            got = analysis_values(meas, spec, ch.name, process)
+            values, lots, n_parts = reference_values(meas, spec, ch.name, process, unit)
+            assert got.lots == lots and got.n_parts == n_parts and got.unit == unit
+            # part values are the same numbers; lot means are correctly rounded sums, pandas'
+            # within an ulp or two
+            np.testing.assert_allclose(got.values, values, rtol=1e-15 if unit == "lot" else 0,
+                                       atol=0)
+        if spec.data.pair is not None:
+            pv = paired_values(meas, spec, ch.name)
+            keys, old, new, unmatched = reference_pairs(meas, ch.name)
+            assert pv.keys == keys and pv.unmatched == unmatched
+            np.testing.assert_array_equal(pv.old, old)
+            np.testing.assert_array_equal(pv.new, new)
+
+
+def test_gather_in_production_order_with_exclusions_and_shuffled_rows(tmp_path):
+    rng = np.random.default_rng(11)
+    n = 80
+    rows = pd.DataFrame({
+        "lot": [f"L{i % 7}" for i in range(n)],
+        "process": ["old" if i % 3 else "new" for i in range(n)],
+        "when": rng.permutation(n),
+        "a": np.round(rng.normal(5, 0.1, n), 3),
+        "b": np.round(rng.normal(2, 0.1, n), 3),
+    })
+    rows.loc[rng.choice(n, 9, replace=False), "a"] = np.nan
+    rows.to_csv(tmp_path / "d.csv", index=False, na_rep="NA")
+    (tmp_path / "s.yaml").write_text(
+        "format: verify/1\ntitle: gather\ndata:\n  file: d.csv\n  lot: lot\n  process: process\n"
+        "  old: old\n  new: new\n  order: when\nexclude:\n  - lot: L3\n    reason: scrap\n"
+        "    by: QE-1\n  - row: 5\n    characteristic: b\n    reason: dropped\n    by: QE-1\n"
+        "characteristics:\n  - name: a\n    unit: mm\n  - name: b\n    unit: mm\n",
+        encoding="utf-8")
+    spec = load_spec(tmp_path / "s.yaml")
+    meas = load_measurements(spec)
+    for ch in ("a", "b"):
+        for process in ("old", "new"):
+            got = analysis_values(meas, spec, ch, process)
+            values, lots, n_parts = reference_values(meas, spec, ch, process, "part")
+            np.testing.assert_array_equal(got.values, values)
+            assert got.lots == lots and got.n_parts == n_parts
+
+
+def test_lot_means_are_within_two_roundings_of_the_exact_mean(demo):
+    from dataclasses import replace
+    from fractions import Fraction
+
+    spec = load_spec(demo / "specs" / "bushing-supplier.yaml")
+    lot_spec = replace(spec, unit_of_analysis="lot")
+    meas = load_measurements(spec)
+    for ch in spec.characteristics:
+        parts = analysis_values(meas, spec, ch.name, "new")
+        means = analysis_values(meas, lot_spec, ch.name, "new")
+        groups: dict[str, list[float]] = {}
+        for v, lot in zip(parts.values.tolist(), parts.lots, strict=True):
+            groups.setdefault(lot, []).append(v)
+        assert means.lots == tuple(groups)
+        for got, vs in zip(means.values.tolist(), groups.values(), strict=True):
+            exact = sum(Fraction(v) for v in vs) / len(vs)  # the exact rational mean
+            # a correctly rounded sum, then one division: two roundings of half an ulp each
+            # (sum and quotient), so within an ulp of the sum's scale
+            assert abs(Fraction(got) - exact) <= Fraction(float(np.spacing(2 * got)))

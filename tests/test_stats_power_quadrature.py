@@ -1,0 +1,113 @@
+"""TOST power by fixed Gauss-Legendre quadrature against the adaptive route, and the vectorised
+sample-size search against the one-at-a-time search.
+
+The reference is our own adaptive route (``scipy.integrate.quad`` on the same integral,
+``quadrature="adaptive"``), itself checked against simulation and statsmodels in
+tests/test_stats_power.py; the two must agree to 1e-12 wherever quad converges (df >= 2).
+"""
+
+from __future__ import annotations
+
+import warnings
+
+import numpy as np
+import pytest
+
+from verify.stats import power
+
+GRID = [
+    # design, n_new, n_old, sd_old
+    ("one-sample", 3, None, None),
+    ("one-sample", 12, None, None),
+    ("one-sample", 30, None, None),
+    ("one-sample", 2000, None, None),
+    ("paired", 3, 3, None),
+    ("paired", 25, 25, None),
+    ("pooled", 5, 7, None),
+    ("pooled", 50_000, 50_000, None),
+    ("welch", 8, 9, 0.013),
+    ("welch", 30, 30, 0.011),
+    ("welch", 3, 50, 0.05),
+    ("welch", 400, 20, 0.03),
+]
+SHIFTS = (0.0, 0.005, 0.015, -0.019, 0.0199, -0.01)
+SDS = (0.001, 0.004, 0.01, 0.02, 0.05, 0.2)
+
+
+@pytest.mark.parametrize(("design", "n_new", "n_old", "sd_old"), GRID)
+def test_gauss_legendre_matches_adaptive_quadrature(design, n_new, n_old, sd_old):
+    worst = 0.0
+    for shift in SHIFTS:
+        for sd in SDS:
+            kw = dict(design=design, low=-0.02, high=0.02, sd_old=sd_old)
+            fixed = power.power_tost(shift, sd, n_new, n_old, **kw)
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")  # quad may warn about round-off, not ours
+                adaptive = power.power_tost(shift, sd, n_new, n_old, quadrature="adaptive",
+                                            **kw)
+            worst = max(worst, abs(fixed - adaptive))
+    assert worst < 1e-12
+
+
+def test_gauss_legendre_converged_at_one_degree_of_freedom(monkeypatch):
+    # df = 1 (two values) and Welch df near 1 are the hardest shapes (quad itself struggles
+    # there): the rule must agree with a 200-node rule on the same pieces
+    cases = [(sh, sd, 2, None, "one-sample", None) for sh in (0.0, 0.015) for sd in
+             (0.001, 0.01, 0.05)] + [(0.0, 0.01, 2, 2, "welch", 0.02),
+                                     (0.005, 0.01, 2, 2, "welch", 0.001)]
+
+    def run():
+        return np.array([power.power_tost(sh, sd, n, m, design=d, low=-0.02, high=0.02,
+                                          sd_old=so) for sh, sd, n, m, d, so in cases])
+
+    default = run()
+    x, w = np.polynomial.legendre.leggauss(200)
+    monkeypatch.setattr(power, "_GL_X", x)
+    monkeypatch.setattr(power, "_GL_W", w)
+    monkeypatch.setattr(power, "_GL_TAIL_X", x)
+    monkeypatch.setattr(power, "_GL_TAIL_W", w)
+    fine = run()
+    assert np.max(np.abs(default - fine)) < 1e-12
+
+
+def test_many_lot_sizes_in_one_pass_equal_one_at_a_time():
+    ns = list(range(2, 60))
+    taus, dfs = [], []
+    for n in ns:
+        tau, df = power._plan("welch", 0.01, n, n + 3, 0.014)
+        taus.append(tau)
+        dfs.append(df)
+    together = power._tost_power_many(0.003, -0.02, 0.025, np.array(taus), np.array(dfs), 0.05)
+    singly = [power.power_tost(0.003, 0.01, n, n + 3, design="welch", low=-0.02, high=0.025,
+                               sd_old=0.014) for n in ns]
+    np.testing.assert_allclose(together, singly, rtol=0, atol=1e-15)
+
+
+@pytest.mark.parametrize("design", ["one-sample", "paired", "pooled", "welch"])
+@pytest.mark.parametrize("shift", [0.0, 0.004, -0.012])
+@pytest.mark.parametrize("sd", [0.003, 0.01, 0.03])
+def test_sample_size_with_vectorised_window_equals_stepwise(design, shift, sd, monkeypatch):
+    kw = dict(design=design, low=-0.02, high=0.02, power=0.9,
+              sd_old=sd * 1.3 if design == "welch" else None)
+    fast = power.sample_size_tost(shift, sd, **kw)
+    # the one-at-a-time route: the exact power with adaptive quadrature, no window
+    orig = power._smallest_n
+
+    def stepwise(power_at, design_, ratio, target, *, approx=None, many=None):
+        def adaptive_at(n_new, n_old):
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                return power.power_tost(shift, sd, n_new, n_old, design=design, low=-0.02,
+                                        high=0.02, sd_old=kw["sd_old"], quadrature="adaptive")
+
+        return orig(adaptive_at, design_, ratio, target, approx=approx)
+
+    monkeypatch.setattr(power, "_smallest_n", stepwise)
+    slow = power.sample_size_tost(shift, sd, **kw)
+    assert (fast.n_new, fast.n_old) == (slow.n_new, slow.n_old)
+    assert fast.power == pytest.approx(slow.power, abs=1e-12)
+
+
+def test_unknown_quadrature_is_refused():
+    with pytest.raises(ValueError, match="quadrature"):
+        power.power_tost(0.0, 1.0, 10, design="one-sample", low=-1, high=1, quadrature="simpson")
