@@ -87,7 +87,7 @@ def _capability(c: CharacteristicResult, r: CheckResult, ev: Evaluation, d: int)
     if r.estimate is None:
         return ""
     extra = r.extra or {}
-    index = str(extra.get("index") or "Cpk")
+    index = {"cpk": "Cpk", "ppk": "Ppk"}.get(str(extra.get("index") or "cpk"), "Cpk")
     minimum = extra.get("min", extra.get("min_cpk", r.critical_value))
     bound = extra.get("lower_bound", extra.get("cpk_lower_95", r.ci_low))
     judge = str(extra.get("judge") or "estimate")
