@@ -52,12 +52,12 @@ SIDES = ("two-sided", "lower", "upper")
 HELP = "size a trial: units per process, the power with min_n, the smallest shift found"
 DESCRIPTION = """\
 Plan a trial before it runs. For each characteristic and check of SPEC: the
-number of units per process needed to reach the target power, the power at
-the spec's min_n and the smallest shift a t-test detects at that n. The sd
+smallest number of units per process whose power reaches the wanted power, the
+power with the spec's min_n and the smallest shift a t-test finds there. The sd
 comes from the old process's data (or --sd); alpha, design and margins from
 the spec. Without SPEC, plan one check from --sd, --design and --margin
 (equivalence) or --detect (difference test). Prints a table and writes a
-workbook with the inputs, the results, the method and a power curve.
+workbook with the inputs, the plan, the method and the power by trial size.
 A margin with a negative lower end is written with '=': --margin=-0.02,0.03"""
 EPILOG = (
     "example:\n"
@@ -512,7 +512,7 @@ def spec_scenarios(spec: Spec, meas: Measurements | None, opts: Options) -> list
     true_shift = spec.plan.true_shift if opts.true_shift is None else opts.true_shift
     if not spec.alpha < power < 1:
         where = "--power" if opts.power is not None else f"plan.power in {file}"
-        raise UsageError(f"the target power {power:g} ({where}) must exceed alpha "
+        raise UsageError(f"the wanted power {power:g} ({where}) must exceed alpha "
                          f"({spec.alpha:g}) and be below 1")
     eval_n, eval_source = ((opts.n, "--n") if opts.n is not None else
                            (spec.min_n, "min_n") if spec.min_n is not None else
