@@ -105,6 +105,44 @@ def _capability(c: CharacteristicResult, r: CheckResult, ev: Evaluation, d: int)
     return text
 
 
+def _pct(x: float) -> str:
+    return f"{100 * x:.2f}%"
+
+
+def _rate(c: CharacteristicResult, r: CheckResult, ev: Evaluation, d: int) -> str:
+    """A failure rate: its exact upper bound against the maximum."""
+    if r.estimate is None:
+        return ""
+    x = r.extra or {}
+    text = f"failure rate {_pct(r.estimate)}"
+    if x.get("failures_new") is not None and x.get("n_new") is not None:
+        text += f" ({x['failures_new']} of {x['n_new']})"
+    if r.ci_high is not None:
+        level = f"{r.ci_level:.0%} " if r.ci_level else ""
+        text += f"\nupper {level}bound {_pct(r.ci_high)}"
+        if x.get("max") is not None:
+            text += f" vs max {_pct(x['max'])}"
+    return text
+
+
+def _rate_shift(c: CharacteristicResult, r: CheckResult, ev: Evaluation, d: int) -> str:
+    """A change of failure rate: the interval against the margin, or the exact test's p."""
+    if r.estimate is None:
+        return ""
+    x = r.extra or {}
+    points = f"{100 * r.estimate:+.2f}"
+    if x.get("margin") is not None and r.ci_low is not None and r.ci_high is not None:
+        level = f"{r.ci_level:.0%} " if r.ci_level else ""
+        return (f"new − old {points} points\n{level}interval {100 * r.ci_low:+.2f} to "
+                f"{100 * r.ci_high:+.2f}\nmargin: below +{100 * x['margin']:g} points")
+    p = r.p_adjusted if r.p_adjusted is not None else r.p_value
+    text = f"new − old {points} points"
+    if p is not None:
+        label = "p adjusted" if r.p_adjusted is not None else "p"
+        text += f"\n{label} {fmt_p(p)} (alpha {ev.spec.alpha:g})"
+    return text
+
+
 def _generic(c: CharacteristicResult, r: CheckResult, ev: Evaluation, d: int) -> str:
     if r.estimate is not None:
         return f"estimate {r.estimate:.4g}"
@@ -117,12 +155,16 @@ CELL_TEXT: dict[str, CellText] = {
     "shift": _location,
     "spread": _spread,
     "capability": _capability,
+    "rate": _rate,
+    "rate_shift": _rate_shift,
 }
 HEADINGS = {
     "target": "Target\n(new against target)",
     "shift": "Shift\n(new against old)",
     "spread": "Spread\n(sd new / old)",
     "capability": "Capability\n(new process)",
+    "rate": "Failure rate\n(new process)",
+    "rate_shift": "Rate change\n(new against old)",
 }
 
 

@@ -86,6 +86,10 @@ def _check(c: CheckResult) -> dict:
         # lower_bound), min, and the lower bound at the spec's confidence
         d.update(index=c.extra["index"], judge=c.extra["judge"], min=c.extra["min"],
                  confidence=c.extra["confidence"], lower_bound=c.extra["lower_bound"])
+    if c.check == "rate":
+        d.update(max=c.extra.get("max"), confidence=c.extra.get("confidence"))
+    if c.check == "rate_shift" and c.extra.get("margin") is not None:
+        d["margin"] = [None, c.extra["margin"]]  # only an increase of the rate is tested
     d.update(
         power=c.power,
         power_note=c.power_note,
@@ -193,6 +197,7 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
                 "target": c.spec.target,
                 "limits": list(c.spec.limits) if c.spec.limits is not None else None,
                 "side": c.spec.side,
+                **({"kind": c.spec.kind} if c.spec.pass_fail else {}),
                 "processes": {
                     p: {
                         "n": s.n,
@@ -206,6 +211,10 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
                         "sd_within_lot": s.sd_within_lot,
                         "sd_between_lot": s.sd_between_lot,
                         "between_lot_set_to_zero": s.between_lot_set_to_zero,
+                        **({"failures": s.failures, "rate": s.rate,
+                            "lot_counts": [{"lot": lot, "inspected": n, "failed": x}
+                                           for lot, n, x in s.lot_counts]}
+                           if c.spec.pass_fail else {}),
                     }
                     for p, s in c.processes.items()
                 },

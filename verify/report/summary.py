@@ -103,6 +103,15 @@ def margin_text(margin: tuple[float, float] | None, side: str = "two-sided") -> 
     return f"{low:+g} to {high:+g}"
 
 
+def rate_limit_text(r: CheckResult) -> str:
+    """A pass-fail check's criterion: "max 1%" (rate) or "below +0.5 points" (rate_shift)."""
+    if r.check == "rate" and r.extra.get("max") is not None:
+        return f"max {100 * r.extra['max']:g}%"
+    if r.check == "rate_shift" and r.extra.get("margin") is not None:
+        return f"below +{100 * r.extra['margin']:g} points"
+    return "none (exact test)" if r.check == "rate_shift" else "none"
+
+
 def check_n(c: CharacteristicResult, r: CheckResult) -> int | None:
     """The n a check rests on: the smaller process for a comparison, the new one otherwise."""
     if r.check == "shift" and c.pairs is not None:
