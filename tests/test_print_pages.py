@@ -67,7 +67,7 @@ def books(tmp_path_factory, tools):
     write_digest(out / "digest.xlsx", rows, run=[("run", "r2"), ("started", "s"),
                                                  ("finished", "f")])
     files = sorted(out.glob("*.xlsx"))
-    assert len(files) == 5
+    assert set(BUDGET) <= {f.stem for f in files}  # (other demo specs are rendered too)
     profile = base / "lo-profile"
     cmd = [tools, f"-env:UserInstallation={profile.as_uri()}", "--headless", "--norestore",
            "--convert-to", "pdf", "--outdir", str(base / "pdf"), *map(str, files)]
