@@ -528,7 +528,8 @@ def test_values_are_looked_up_by_key_in_production_order():
     mine = [(i, r) for i, r in helpers if r[0].startswith(f"{c.name}, new, ")]
     assert len(mine) == len(used_new)
     orders = [int(r[0].split("production order ")[1].split(",")[0]) for _, r in mine]
-    assert orders == sorted(used_new["order"].tolist())  # the engine's production order
+    # the engine's production order, counted from 1 as the measurements sheet shows it
+    assert orders == [o + 1 for o in sorted(used_new["order"].tolist())]
     f = mine[0][1][1]
     # whole table columns and exact criteria: no fixed rows of the measurements sheet
     last = len(layout.table) + 1

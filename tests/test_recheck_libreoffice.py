@@ -98,8 +98,10 @@ def write_minimal_workbook(ev, path: Path) -> list[list]:
                 v = None if pd.isna(v) else float(v)
             elif key == "used":
                 v = bool(v)
-            elif key in ("source_row", "order"):
+            elif key == "source_row":
                 v = int(v)
+            elif key == "order":
+                v = int(v) + 1  # as the real writer: production order counted from 1
             else:
                 v = str(v)
             c = sheets[sheet].cell(row=int(row), column=j, value=v)

@@ -293,7 +293,8 @@ def read_measurements(wb) -> pd.DataFrame:
         "source_file": text("source_file"),
         "source_row": pd.to_numeric(t.get("source_row"), errors="coerce").fillna(0).astype(
             np.int64) if "source_row" in t else np.zeros(len(t), np.int64),
-        "order": pd.to_numeric(t["order"], errors="coerce").fillna(0).astype(np.int64)
+        # the sheet counts production order from 1; the table from 0
+        "order": pd.to_numeric(t["order"], errors="coerce").fillna(1).astype(np.int64) - 1
         if "order" in t else np.arange(len(t), dtype=np.int64),
         "lot": text("lot"),
         "process": text("process"),

@@ -192,6 +192,7 @@ class _Sheet:
 # changes nothing; beyond it (each lookup scans the table) they read fixed row ranges.
 SORT_PROOF_MAX_ROWS = 20_000
 HELPER_HEADING = "Values looked up from the measurements table"
+ORDER_BASE = 1  # the measurements sheet counts production order from 1 (a reader's count)
 _TOKEN = re.compile(r"\u27e6(\d+)\u27e7")  # a helper row's index, numbered once the body ends
 
 
@@ -264,7 +265,7 @@ class _Helper:
 def _lookup(tbl: _Table, name: str, process: str, row) -> str:
     """SUMIFS of the one used value with this key: exact, since exactly one row matches."""
     f = (f"SUMIFS({tbl.col('value')},{tbl.criteria(name, process)},{tbl.col('order')},"
-         f"{int(row['order'])}")
+         f"{int(row['order']) + ORDER_BASE}")
     if tbl.by_file:
         f += f",{tbl.col('source_file')},{_criterion(str(row['source_file']))}"
     return f + ")"
@@ -302,7 +303,7 @@ def _used_block(sh: _Sheet, ev: Evaluation, layout: MeasurementLayout, name: str
         else:
             sh.samples[key] = _helper_rows(
                 sh, name, process, sel,
-                lambda r: f"{name}, {process}, production order {int(r['order'])}, "
+                lambda r: f"{name}, {process}, production order {int(r['order']) + ORDER_BASE}, "
                           f"source row {int(r['source_row'])}")
     return sh.samples[key]
 
