@@ -197,6 +197,12 @@ def _check_words(c, unit_of_analysis: str = "part") -> list[str]:
                   if cap.judge == "lower_bound" else f"new {cap.label}")
         out.append(f"capability: {judged} at least {cap.min:g} ({how}; index {cap.index}, "
                    f"judge {cap.judge})")
+    if ch.conformance is not None:
+        cf = ch.conformance
+        shape = ("two-sided tolerance interval within both limits" if cf.side == "two-sided"
+                 else f"{cf.side} tolerance bound within the {cf.side} limit")
+        out.append(f"conformance: {shape}, coverage {cf.coverage:g} at confidence "
+                   f"{cf.confidence:g} (exact normal factor)")
     if not out:
         out.append("none")
     return out

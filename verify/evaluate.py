@@ -25,7 +25,7 @@ from .model import (
 from .spec_model import Characteristic, Spec
 from .stats import capability as cap
 from .stats import diagnostics as diag
-from .stats import equivalence, multiplicity, nonparametric, power, spread, ttests
+from .stats import equivalence, multiplicity, nonparametric, power, spread, tolerance, ttests
 from .stats import variance_components as vc
 from .stats.core import confidence_interval, mean_sd, require_spread, t_test_from_estimate
 from .stats.errors import DegenerateDataError, StatsError
@@ -232,6 +232,8 @@ def _draft_characteristic(spec: Spec, meas: Measurements, ch: Characteristic, fi
         d.checks.append(_draft_spread(spec, ch, d))
     if checks.capability is not None:
         d.checks.append(_draft_capability(spec, ch, d))
+    if checks.conformance is not None:
+        d.checks.append(_draft_conformance(spec, ch, d))
     d.diagnostics = _diagnostics(spec, ch, d)
     return d
 
@@ -572,6 +574,40 @@ def _draft_capability(spec: Spec, ch: Characteristic, d: _CharDraft) -> _Draft:
                     f"no power figure: the lower bound of {label} is compared with min"),
     )
     return _Draft(result=res)
+
+
+def _draft_conformance(spec: Spec, ch: Characteristic, d: _CharDraft) -> _Draft:
+    """The tolerance interval of the new parts against the limits (ISO 16269-6)."""
+    conf = ch.checks.conformance
+    side = conf.side
+    share = (f"{decide.fmt(100 * conf.coverage)}% of the new parts of {ch.name}, with "
+             f"{decide.fmt(100 * conf.confidence)}% confidence,")
+    hyp = {"two-sided": f"{share} lie within the limits",
+           "lower": f"{share} lie above the lower limit",
+           "upper": f"{share} lie below the upper limit"}[side]
+    lower = ch.lower if side in ("two-sided", "lower") else None
+    upper = ch.upper if side in ("two-sided", "upper") else None
+    try:
+        r = tolerance.normal_tolerance(d.data.new_parts, coverage=conf.coverage,
+                                       confidence=conf.confidence, side=side)
+    except (StatsError, ValueError) as err:
+        return _degenerate("conformance", "tolerance interval", hyp, err)
+    v = decide.CONFORMANCE.decide(low=r.low, high=r.high, lower=lower, upper=upper,
+                                  coverage=r.coverage, confidence=r.confidence, k=r.k,
+                                  unit=ch.unit)
+    extra = {"coverage": r.coverage, "coverage_confidence": r.confidence, "k": r.k,
+             "side": side,
+             "n": r.n, "mean": r.mean, "sd_parts": r.sd, "distribution": "normal",
+             "within_limits": int(v.outcome == "PASS")}
+    res = CheckResult(
+        check="conformance", method=r.method, hypothesis=hyp, alternative=None, margin=None,
+        outcome=v.outcome, reason=v.reason, estimate=r.mean, ci_low=_finite(r.low),
+        ci_high=_finite(r.high), ci_level=r.confidence, extra=extra,
+        power_note="no power figure: verify plan gives the n a process needs to pass",
+    )
+    # the data show harm (not merely too few parts) when the mean itself is beyond a limit
+    harm = ((lower is not None and r.mean < lower) or (upper is not None and r.mean > upper))
+    return _Draft(result=res, harm_shown=v.outcome == "HOLD" and harm)
 
 
 # --- diagnostics --------------------------------------------------------------------------------

@@ -223,6 +223,31 @@ class Plan:
     rows: tuple[PlanRow, ...]
     method: tuple[str, ...]
     notes: tuple[str, ...] = field(default=())
+    conformance: tuple[ConformancePlan, ...] = field(default=())
+
+
+@dataclass(frozen=True)
+class ConformancePlan:
+    """The n a conformance check needs: the smallest number of new parts at which a process
+    with the assumed mean and sd passes (its tolerance limits mean -/+ k(n) sd lie within the
+    limits; k falls as n grows). ``n_needed`` is None when no n suffices (``note`` says why).
+    """
+
+    characteristic: str
+    unit: str
+    coverage: float
+    confidence: float
+    side: str
+    lower: float | None
+    upper: float | None
+    mean: float
+    mean_source: str
+    sd: float
+    sd_source: str
+    n_needed: int | None
+    k_at_n: float | None
+    method: str
+    note: str | None = None
 
 
 # --- the computation --------------------------------------------------------------------------
@@ -425,6 +450,7 @@ class Options:
     detect: float | None = None
     n: int | None = None
     characteristics: tuple[str, ...] = ()
+    mean: float | None = None  # conformance: the assumed new-process mean
 
 
 def _check_path(spec: Spec, ch: Characteristic, check: str) -> tuple[str, int | None]:
@@ -556,8 +582,9 @@ def spec_scenarios(spec: Spec, meas: Measurements | None, opts: Options) -> list
             ))
     if issues:
         raise UsageError(issues)
-    if not out and not issues:
-        raise UsageError([f"{file}: no target or shift check to plan"
+    if not out and not issues and not any(
+            c.checks.conformance is not None for c in chars):
+        raise UsageError([f"{file}: no target, shift or conformance check to plan"
                           + (" among the characteristics chosen" if opts.characteristics
                              else "")])
     return out
@@ -579,26 +606,30 @@ def plan_spec(spec: Spec, measurements: Measurements | None, opts: Options | Non
     opts = opts or Options()
     scenarios = spec_scenarios(spec, measurements, opts)
     rows = tuple(plan_scenario(s) for s in scenarios)
+    conformance = tuple(conformance_plans(spec, measurements, opts))
     p = spec.plan
     inputs = [
         ("spec", str(spec.path), "command line"),
         ("title", spec.title, "spec"),
         ("alpha", f"{spec.alpha:g}", "spec" if any(k == "alpha" and not d
                                                   for k, _, d in spec.resolved) else "default"),
-        ("target power", f"{rows[0].scenario.target_power:g}",
-         "--power" if opts.power is not None else "spec plan.power"),
-        ("assumed true shift (margin checks)",
-         f"{opts.true_shift if opts.true_shift is not None else p.true_shift:g}",
-         "--true-shift" if opts.true_shift is not None else "spec plan.true_shift"),
-        ("unit of analysis", spec.unit_of_analysis, "spec"),
-        ("n at which power is reported", "n needed" if rows[0].scenario.eval_n is None
-         else str(rows[0].scenario.eval_n), rows[0].scenario.eval_source),
     ]
+    if rows:
+        inputs += [
+            ("target power", f"{rows[0].scenario.target_power:g}",
+             "--power" if opts.power is not None else "spec plan.power"),
+            ("assumed true shift (margin checks)",
+             f"{opts.true_shift if opts.true_shift is not None else p.true_shift:g}",
+             "--true-shift" if opts.true_shift is not None else "spec plan.true_shift"),
+            ("unit of analysis", spec.unit_of_analysis, "spec"),
+            ("n at which power is reported", "n needed" if rows[0].scenario.eval_n is None
+             else str(rows[0].scenario.eval_n), rows[0].scenario.eval_source),
+        ]
     if spec.change_id:
         inputs.insert(2, ("change id", spec.change_id, "spec"))
     for label, value in (("--sd", opts.sd), ("--sd-diff", opts.sd_diff),
                          ("--pair-correlation", opts.pair_correlation),
-                         ("--detect", opts.detect)):
+                         ("--detect", opts.detect), ("--mean", opts.mean)):
         if value is not None:
             inputs.append((label.lstrip("-").replace("-", " "), f"{value:g}", label))
     if p.pair_correlation is not None and opts.pair_correlation is None:
@@ -609,8 +640,87 @@ def plan_spec(spec: Spec, measurements: Measurements | None, opts: Options | Non
                      "lot means")
     if measurements is None:
         notes.append("the data file is not there yet: the sd comes from the command line")
+    method = method_words(rows) if rows else ()
+    if conformance:
+        method += (CONFORMANCE_METHOD,)
     return Plan(title=spec.title, source=str(spec.path), stem=f"{spec.stem}-plan",
-                inputs=tuple(inputs), rows=rows, method=method_words(rows), notes=tuple(notes))
+                inputs=tuple(inputs), rows=rows, method=method, notes=tuple(notes),
+                conformance=conformance)
+
+
+CONFORMANCE_METHOD = (
+    "Conformance: n is the smallest number of new parts at which a process with the assumed "
+    "mean and sd passes, i.e. its tolerance limits mean -/+ k(n) sd lie within the limits, k "
+    "the exact normal tolerance factor at the check's coverage and confidence (one-sided: "
+    "noncentral t; two-sided: Odeh/Owen integral). The factor falls towards the normal "
+    "quantile of the coverage as n grows, so a process whose limits leave less room than that "
+    "quantile cannot pass at any n. The sample sd of a real trial scatters around the assumed "
+    "one, so a process planned exactly at n passes only about half the time: plan with a "
+    "margin of parts, or a pessimistic sd."
+)
+
+
+def conformance_plans(spec: Spec, meas: Measurements | None, opts: Options
+                      ) -> list[ConformancePlan]:
+    """A :class:`ConformancePlan` for each conformance check of ``spec``.
+
+    The mean is ``--mean``, else the target, else the old process's mean, else the midpoint
+    of two limits; the sd is ``--sd``, else the old process's sample sd of the parts.
+    """
+    from .stats import tolerance
+    from .stats.errors import StatsError
+
+    out = []
+    file = str(spec.path)
+    issues = []
+    for ch in spec.characteristics:
+        conf = ch.checks.conformance
+        if conf is None or (opts.characteristics and ch.name not in opts.characteristics):
+            continue
+        old = meas.values(ch.name, "old") if meas is not None else []
+        if opts.mean is not None:
+            mean, mean_from = opts.mean, "--mean"
+        elif ch.target is not None:
+            mean, mean_from = ch.target, "the spec's target"
+        elif len(old):
+            from .stats.core import mean_sd
+
+            mean, mean_from = mean_sd(old)[1], f"the old process's mean ({len(old)} parts)"
+        elif ch.lower is not None and ch.upper is not None:
+            mean, mean_from = (ch.lower + ch.upper) / 2, "the midpoint of the limits"
+        else:
+            issues.append(SpecIssue(file, _check_path(spec, ch, "conformance")[0],
+                                    f"{ch.name}, check conformance: no mean to plan with: "
+                                    "pass --mean M", line=ch.line))
+            continue
+        sd = opts.sd if opts.sd is not None else _sample_sd(old)
+        sd_from = "--sd" if opts.sd is not None else f"the old process's parts ({len(old)})"
+        if sd is None or not sd > 0:
+            issues.append(SpecIssue(file, _check_path(spec, ch, "conformance")[0],
+                                    f"{ch.name}, check conformance: the sd cannot be "
+                                    "estimated from the old process's parts: pass --sd S",
+                                    line=ch.line))
+            continue
+        lower = ch.lower if conf.side in ("two-sided", "lower") else None
+        upper = ch.upper if conf.side in ("two-sided", "upper") else None
+        n = k = note = None
+        try:
+            n = tolerance.sample_size_normal(mean=mean, sd=sd, lower=lower, upper=upper,
+                                             coverage=conf.coverage,
+                                             confidence=conf.confidence, side=conf.side)
+            k = tolerance.factor(n, conf.coverage, conf.confidence, conf.side)
+        except StatsError as err:
+            note = str(err)
+        method = (tolerance.METHOD_TWO_SIDED if conf.side == "two-sided"
+                  else tolerance.METHOD_ONE_SIDED)
+        out.append(ConformancePlan(
+            characteristic=ch.name, unit=ch.unit, coverage=conf.coverage,
+            confidence=conf.confidence, side=conf.side, lower=lower, upper=upper, mean=mean,
+            mean_source=mean_from, sd=sd, sd_source=sd_from, n_needed=n, k_at_n=k,
+            method=method, note=note))
+    if issues:
+        raise UsageError(issues)
+    return out
 
 
 def parse_margin(text: str) -> tuple[float, float]:
@@ -811,6 +921,9 @@ def add_plan_arguments(parser: argparse.ArgumentParser) -> argparse.ArgumentPars
     g.add_argument("--detect", type=float, metavar="D",
                    help="checks without a margin: the shift that must not go unseen "
                         "(default: the check's detect: key)")
+    g.add_argument("--mean", type=float, metavar="M",
+                   help="conformance checks: the assumed new-process mean (default: the "
+                        "target, else the old process's mean)")
     g.add_argument("--n", type=int, metavar="N",
                    help="units per process at which to report power and detectable shift "
                         "(default: the spec's min_n, else the n needed)")
@@ -837,12 +950,12 @@ def add_plan_arguments(parser: argparse.ArgumentParser) -> argparse.ArgumentPars
 def _options(args: argparse.Namespace) -> Options:
     _validate(power=args.power, sd=args.sd, sd_diff=args.sd_diff, r=args.pair_correlation,
               detect=args.detect, n=args.n)
-    for label, v in (("--true-shift", args.true_shift),):
+    for label, v in (("--true-shift", args.true_shift), ("--mean", args.mean)):
         if v is not None and not math.isfinite(v):
             raise UsageError(f"{label} {v!r}: must be a finite number")
     return Options(sd=args.sd, sd_diff=args.sd_diff, power=args.power,
                    true_shift=args.true_shift, pair_correlation=args.pair_correlation,
-                   detect=args.detect, n=args.n,
+                   detect=args.detect, n=args.n, mean=args.mean,
                    characteristics=tuple(args.characteristic or ()))
 
 
@@ -954,9 +1067,27 @@ def table_rows(plan: Plan) -> list[tuple[str, ...]]:
 
 def format_table(plan: Plan) -> str:
     """The plan as text: a title, a column-aligned table, and notes."""
+    lines = [plan.title if plan.source is None else f"{plan.source}: {plan.title}"]
+    if plan.rows:
+        _power_table(plan, lines)
+    for c in plan.conformance:
+        u = f" {c.unit}" if c.unit else ""
+        limits = " and ".join(x for x in (
+            None if c.lower is None else f"lower {c.lower:.12g}",
+            None if c.upper is None else f"upper {c.upper:.12g}") if x)
+        head = (f"  {c.characteristic}, conformance ({c.side}, coverage {c.coverage:g}, "
+                f"confidence {c.confidence:g}, limits {limits}{u}): mean {_num(c.mean)} from "
+                f"{c.mean_source}, sd {_num(c.sd)} from {c.sd_source}: ")
+        if c.n_needed is None:
+            lines.append(head + f"no n suffices ({c.note})")
+        else:
+            lines.append(head + f"n needed {c.n_needed} new parts (k = {_num(c.k_at_n)})")
+    return "\n".join(lines)
+
+
+def _power_table(plan: Plan, lines: list[str]) -> None:
     rows = table_rows(plan)
     widths = [max(len(h), *(len(row[i]) for row in rows)) for i, h in enumerate(HEADERS)]
-    lines = [plan.title if plan.source is None else f"{plan.source}: {plan.title}"]
     first = plan.rows[0].scenario
     lines.append(f"  alpha {first.alpha:g}, target power {first.target_power:g}")
     lines.append("")
@@ -978,7 +1109,6 @@ def format_table(plan: Plan) -> str:
         lines.append(f"  note: {note}")
     lines.append("  n counts units per process (pairs for paired); 'detectable' is the "
                  "smallest shift the t-test at the reported n detects with the target power")
-    return "\n".join(lines)
 
 
 def _standalone_parser() -> argparse.ArgumentParser:

@@ -41,6 +41,7 @@ from .spec_model import (
     CapabilityCheck,
     Characteristic,
     Checks,
+    ConformanceCheck,
     DataSpec,
     Exclusion,
     LotLists,
@@ -54,7 +55,7 @@ from .spec_model import (
 
 DATA_SUFFIXES = (".csv", ".tsv", ".xlsx")
 SPEC_SUFFIXES = (".yaml", ".yml")
-CHECK_NAMES = ("target", "shift", "spread", "capability")
+CHECK_NAMES = ("target", "shift", "spread", "capability", "conformance")
 DEFAULT_MISSING = ("", "NA")
 DEFAULT_MIN_CPK = 1.33
 _PERCENT = re.compile(r"^\s*([0-9]+(?:\.[0-9]+)?)\s*%\s*$")
@@ -436,6 +437,9 @@ class _Checker:
         if "capability" in checks and not has_limits:
             self.add(f"{path}.capability", f"a capability check needs limits{label}: add "
                      "limits: [lower, upper], or remove this check", key=True)
+        if "conformance" in checks:
+            self.check_conformance(c, checks.get("conformance"), f"{path}.conformance",
+                                   has_limits, label)
         for check in ("target", "shift"):
             entry = checks.get(check)
             if isinstance(entry, dict) and "margin" in entry:
@@ -472,6 +476,22 @@ class _Checker:
             if spec.get("unit_of_analysis") == "lot":
                 self.add(f"{path}.shift.design", "a paired design pairs parts; it cannot run "
                          "with unit_of_analysis: lot (lot means carry no pair key)")
+
+    def check_conformance(self, c, conf, path: str, has_limits: bool, label: str) -> None:
+        if not has_limits:
+            self.add(path, f"a conformance check needs limits{label}: add limits: [lower, "
+                     "upper] (null for a side without a limit), or remove this check", key=True)
+            return
+        limits = c.get("limits")
+        side = conf.get("side") if isinstance(conf, dict) else None
+        if not (isinstance(limits, list) and len(limits) == 2) or side is None:
+            return
+        if side == "lower" and limits[0] is None:
+            self.add(f"{path}.side", f"side: lower needs a lower limit{label}: the limits give "
+                     "none; write side: upper, or add the lower limit")
+        elif side == "upper" and limits[1] is None:
+            self.add(f"{path}.side", f"side: upper needs an upper limit{label}: the limits give "
+                     "none; write side: lower, or add the upper limit")
 
     def check_margin(self, margin, path: str, target, label: str) -> None:
         if not self.doc.clean(path):
@@ -737,10 +757,26 @@ def _build_characteristic(c: dict, p: str, data: DataSpec, unit: str, doc: Docum
     else:
         rec(f"{cp}.capability", _off(explicit, "no limits"), default=not explicit)
 
+    conformance_check = None
+    if explicit and "conformance" in listed:  # runs only when listed
+        cfg = listed.get("conformance") or {}
+        lo, hi = limits if limits is not None else (None, None)
+        c_side = cfg.get("side") or ("two-sided" if lo is not None and hi is not None
+                                     else "lower" if lo is not None else "upper")
+        conformance_check = ConformanceCheck(
+            coverage=float(cfg.get("coverage", 0.99)),
+            confidence=float(cfg.get("confidence", 0.95)), side=c_side)
+        rec(f"{cp}.conformance.coverage", conformance_check.coverage,
+            default="coverage" not in cfg)
+        rec(f"{cp}.conformance.confidence", conformance_check.confidence,
+            default="confidence" not in cfg)
+        rec(f"{cp}.conformance.side", c_side, default="side" not in cfg)
+
     return Characteristic(
         name=name, unit=c["unit"], column=column, match=match, target=target, limits=limits,
         side=side, checks=Checks(target=target_check, shift=shift_check, spread=spread_check,
-                                 capability=capability_check),
+                                 capability=capability_check,
+                                 conformance=conformance_check),
         line=_spec_line(doc.where(p)[0]),
     )
 

@@ -79,6 +79,20 @@ class CapabilityCheck:
 
 
 @dataclass(frozen=True)
+class ConformanceCheck:
+    """The conformance criterion: the new process's tolerance interval (``coverage`` of the
+    parts with ``confidence``) must lie within the limits.
+
+    ``side`` is ``two-sided`` (two limits: a two-sided interval), ``lower`` or ``upper`` (a
+    one-sided bound against that limit only); the spec's limits decide it when not written.
+    """
+
+    coverage: float = 0.99
+    confidence: float = 0.95
+    side: str = "two-sided"
+
+
+@dataclass(frozen=True)
 class Checks:
     """The checks that run for one characteristic; None means the check does not run."""
 
@@ -86,6 +100,7 @@ class Checks:
     shift: ShiftCheck | None = None
     spread: SpreadCheck | None = None
     capability: CapabilityCheck | None = None
+    conformance: ConformanceCheck | None = None
 
 
 @dataclass(frozen=True)

@@ -143,6 +143,13 @@ EXTRA_LABELS = {
     "confidence": "confidence of the lower bound",
     "lower_bound": "lower bound of the judged index",
     "bound_df": "df behind the lower bound (effective for Cpk)",
+    "coverage": "coverage: share of parts the tolerance interval holds",
+    "coverage_confidence": "confidence of the tolerance interval",
+    "k": "tolerance factor k (limits = mean -/+ k sd)",
+    "side": "tolerance interval: two-sided or one-sided bound",
+    "sd_parts": "sd (new parts)",
+    "distribution": "distribution assumed",
+    "within_limits": "tolerance limits within the spec limits (1 = yes)",
 }
 
 

@@ -86,6 +86,11 @@ def _check(c: CheckResult) -> dict:
         # lower_bound), min, and the lower bound at the spec's confidence
         d.update(index=c.extra["index"], judge=c.extra["judge"], min=c.extra["min"],
                  confidence=c.extra["confidence"], lower_bound=c.extra["lower_bound"])
+    if c.check == "conformance" and "coverage" in c.extra:
+        # ci_low / ci_high are the tolerance limits (None on the side a one-sided bound leaves
+        # open); k is the factor of mean -/+ k sd, None for distribution-free limits
+        d.update(coverage=c.extra["coverage"], confidence=c.extra["coverage_confidence"],
+                 k=c.extra.get("k"), side=c.extra.get("side"))
     d.update(
         power=c.power,
         power_note=c.power_note,

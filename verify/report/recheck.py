@@ -1203,6 +1203,51 @@ def _multiplicity(sh: _Sheet, ev: Evaluation) -> None:
         )
 
 
+# --- conformance -----------------------------------------------------------------------------
+
+
+def _conformance(sh: _Sheet, layout, c: CharacteristicResult, ch: CheckResult) -> None:
+    """Tolerance limits mean -/+ k sd rebuilt from the new parts; the factor k is given as a
+    value with its method (no spreadsheet function computes the noncentral t quantile or the
+    Odeh/Owen integral)."""
+    extra: Mapping = ch.extra or {}
+    block = layout.used.get((c.name, "new"))
+    if block is None:
+        sh.unavailable("conformance", _why_no_block(layout, c.name, "new"))
+        return
+    if extra.get("k") is None:
+        sh.unavailable("tolerance factor", "distribution-free limits: the smallest and the "
+                       "largest used value are the limits (MIN and MAX below)")
+        ref = block.ref(VALUE_COLUMN)
+        if ch.ci_low is not None:
+            sh.qty("lower tolerance limit", f"MIN({ref})", ch.ci_low, "MIN of the new parts")
+        if ch.ci_high is not None:
+            sh.qty("upper tolerance limit", f"MAX({ref})", ch.ci_high, "MAX of the new parts")
+        return
+    ref = block.ref(VALUE_COLUMN)
+    sh.qty("new: n (parts)", f"COUNT({ref})", extra.get("n"), "COUNT of the new parts")
+    m = sh.qty("new: mean (parts)", f"AVERAGE({ref})", extra.get("mean"), "AVERAGE")
+    sd = sh.qty("new: sd (parts)", f"_xlfn.STDEV.S({ref})", extra.get("sd_parts"), "STDEV.S")
+    k = sh.param("tolerance factor k", float(extra["k"]),
+                 f"{ch.method}; coverage {extra.get('coverage')}, confidence "
+                 f"{extra.get('coverage_confidence')}, n as above (a value: the spreadsheet has no "
+                 "function for it)")
+    checks = []
+    if ch.ci_low is not None:
+        lo = sh.qty("lower tolerance limit", f"{m}-{k}*{sd}", ch.ci_low, "mean - k sd")
+        if c.spec.lower is not None:
+            lsl = sh.param("lower limit", c.spec.lower, "the spec's")
+            checks.append(f"{lo}>={lsl}")
+    if ch.ci_high is not None:
+        hi = sh.qty("upper tolerance limit", f"{m}+{k}*{sd}", ch.ci_high, "mean + k sd")
+        if c.spec.upper is not None:
+            usl = sh.param("upper limit", c.spec.upper, "the spec's")
+            checks.append(f"{hi}<={usl}")
+    if checks:
+        sh.qty("within the limits (1 = yes)", f"IF(AND({','.join(checks)}),1,0)",
+               extra.get("within_limits"), "AND of the comparisons with the limits")
+
+
 # --- the sheet ---------------------------------------------------------------------------------
 
 
@@ -1221,7 +1266,7 @@ def _characteristic(
         if s is not None:
             samples[process] = s
     for ch in c.checks:
-        if ch.check not in ("target", "shift", "spread", "capability"):
+        if ch.check not in ("target", "shift", "spread", "capability", "conformance"):
             continue
         sh.heading(f"{ch.check} check: {ch.method}")
         sh.current = (c.name, ch.check)
@@ -1234,6 +1279,8 @@ def _characteristic(
             _shift(sh, ev, layout, c, ch, samples)
         elif ch.check == "spread":
             _spread(sh, ev, layout, c, ch, samples)
+        elif ch.check == "conformance":
+            _conformance(sh, layout, c, ch)
         else:
             _capability(sh, ev, layout, c, ch)
     sh.blank()
