@@ -127,6 +127,8 @@ def describe_plan(spec, measurements) -> list[str]:
         if c.limits is not None:
             facts.append(f"limits [{_num(c.lower)}, {_num(c.upper)}]")
         facts.append(f"side {c.side}")
+        if c.distribution != "normal":
+            facts.append(f"distribution {c.distribution}")
         lines.append(head + ": " + ", ".join(facts))
         for proc in ("old", "new"):
             av = analysis_values(measurements, spec, c.name, proc)

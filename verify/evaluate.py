@@ -25,10 +25,19 @@ from .model import (
 from .spec_model import Characteristic, Spec
 from .stats import capability as cap
 from .stats import diagnostics as diag
-from .stats import equivalence, multiplicity, nonparametric, power, spread, tolerance, ttests
+from .stats import (
+    distributions,
+    equivalence,
+    multiplicity,
+    nonparametric,
+    power,
+    spread,
+    tolerance,
+    ttests,
+)
 from .stats import variance_components as vc
 from .stats.core import confidence_interval, mean_sd, require_spread, t_test_from_estimate
-from .stats.errors import DegenerateDataError, StatsError
+from .stats.errors import DegenerateDataError, NotApplicableError, StatsError
 from .stats.paired_spread import pitman_morgan
 
 DETECT_POWER = 0.8  # the power at which the "smallest detectable shift" note is stated
@@ -87,6 +96,9 @@ class _CharDraft:
     counts: dict = field(default_factory=dict)
     pairs: int | None = None
     unmatched: tuple = ()
+    fit: object = None  # distributions.DistributionFit of the new parts (non-normal models)
+    fit_error: str | None = None
+    final: bool = False
 
 
 def evaluate(
@@ -210,7 +222,12 @@ def _gather(spec: Spec, meas: Measurements, ch: Characteristic) -> tuple[_Data, 
 
 def _draft_characteristic(spec: Spec, meas: Measurements, ch: Characteristic, final: bool):
     data, processes = _gather(spec, meas, ch)
-    d = _CharDraft(ch=ch, data=data, processes=processes)
+    d = _CharDraft(ch=ch, data=data, processes=processes, final=final)
+    if ch.distribution in ("lognormal", "weibull", "box-cox"):
+        try:
+            d.fit = distributions.fit(data.new_parts, ch.distribution)
+        except StatsError as err:
+            d.fit_error = str(err)
     counts = {p: s.n for p, s in processes.items()}
     pv = data.pairs if data.pairs is not None else data.spread_pairs
     if pv is not None:
@@ -531,6 +548,8 @@ def _draft_spread(spec: Spec, ch: Characteristic, d: _CharDraft) -> _Draft:
 
 
 def _draft_capability(spec: Spec, ch: Characteristic, d: _CharDraft) -> _Draft:
+    if ch.distribution != "normal":
+        return _draft_percentile_capability(ch, d)
     conf = ch.checks.capability
     lower, upper = ch.lower, ch.upper
     label, level = conf.label, conf.confidence
@@ -576,6 +595,42 @@ def _draft_capability(spec: Spec, ch: Characteristic, d: _CharDraft) -> _Draft:
     return _Draft(result=res)
 
 
+def _no_fit(check: str, ch: Characteristic, d: _CharDraft, hyp: str) -> _Draft:
+    return _degenerate(check, f"{ch.distribution} fit", hyp,
+                       ValueError(f"the {ch.distribution} fit of the new parts: {d.fit_error}"))
+
+
+def _draft_percentile_capability(ch: Characteristic, d: _CharDraft) -> _Draft:
+    """Capability of a fitted non-normal model: the percentile method (ISO 22514-2), the
+    percentile Ppk judged on its estimate against min."""
+    conf = ch.checks.capability
+    hyp = (f"the new process's percentile Ppk ({ch.distribution} fit) for {ch.name} is at "
+           f"least {decide.fmt(conf.min)}")
+    if d.fit is None:
+        return _no_fit("capability", ch, d, hyp)
+    f = d.fit
+    pi = distributions.percentile_indices(f, lower=ch.lower, upper=ch.upper)
+    below, above = distributions.expected_beyond(f, lower=ch.lower, upper=ch.upper)
+    v = decide.CAPABILITY.decide(cpk=pi.ppk, lower_bound=None, min_cpk=conf.min,
+                                 index=f"percentile Ppk ({ch.distribution})")
+    extra = {
+        "pp": _finite(pi.pp), "ppl": _finite(pi.ppl), "ppu": _finite(pi.ppu), "ppk": pi.ppk,
+        "x_0_135": pi.x_low, "x_50": pi.x_mid, "x_99_865": pi.x_high,
+        "distribution": ch.distribution, "fit": f.words,
+        "expected_ppm_below": 1e6 * below, "expected_ppm_above": 1e6 * above,
+        "index": "ppk", "judge": "estimate", "min": conf.min, "confidence": conf.confidence,
+        "lower_bound": None, "n": f.n,
+    }
+    res = CheckResult(
+        check="capability", method=f"percentile Ppk, {pi.method}; {ch.distribution} fit by "
+        "maximum likelihood; the estimate judged", hypothesis=hyp, alternative=None,
+        margin=None, outcome=v.outcome, reason=v.reason, estimate=pi.ppk, extra=extra,
+        power_note="no power figure: capability compares the percentile Ppk with min, not a "
+                   "test",
+    )
+    return _Draft(result=res)
+
+
 def _draft_conformance(spec: Spec, ch: Characteristic, d: _CharDraft) -> _Draft:
     """The tolerance interval of the new parts against the limits (ISO 16269-6)."""
     conf = ch.checks.conformance
@@ -587,18 +642,47 @@ def _draft_conformance(spec: Spec, ch: Characteristic, d: _CharDraft) -> _Draft:
            "upper": f"{share} lie below the upper limit"}[side]
     lower = ch.lower if side in ("two-sided", "lower") else None
     upper = ch.upper if side in ("two-sided", "upper") else None
+    dist = ch.distribution
     try:
-        r = tolerance.normal_tolerance(d.data.new_parts, coverage=conf.coverage,
-                                       confidence=conf.confidence, side=side)
+        if dist == "normal":
+            r = tolerance.normal_tolerance(d.data.new_parts, coverage=conf.coverage,
+                                           confidence=conf.confidence, side=side)
+        elif dist == "any":
+            r = tolerance.order_tolerance(d.data.new_parts, coverage=conf.coverage,
+                                          confidence=conf.confidence, side=side)
+        elif d.fit is None:
+            return _no_fit("conformance", ch, d, hyp)
+        else:
+            r = distributions.tolerance_limits(d.data.new_parts, d.fit, coverage=conf.coverage,
+                                               confidence=conf.confidence, side=side)
+    except NotApplicableError as err:
+        if dist != "any":
+            return _degenerate("conformance", "tolerance interval", hyp, err)
+        # distribution-free limits need a minimum number of parts: more parts may come
+        # (PENDING), unless the run is final (HOLD)
+        need = tolerance.order_sample_size(conf.coverage, conf.confidence, side)
+        res = CheckResult(
+            check="conformance", method=tolerance.METHOD_ORDER, hypothesis=hyp,
+            alternative=None, margin=None, outcome="HOLD" if d.final else "PENDING",
+            reason=f"too few parts for distribution-free limits: {err}",
+            extra={"coverage": conf.coverage, "coverage_confidence": conf.confidence,
+                   "side": side, "n": int(d.data.new_parts.size), "n_required": need,
+                   "distribution": dist})
+        return _Draft(result=res)
     except (StatsError, ValueError) as err:
         return _degenerate("conformance", "tolerance interval", hyp, err)
     v = decide.CONFORMANCE.decide(low=r.low, high=r.high, lower=lower, upper=upper,
                                   coverage=r.coverage, confidence=r.confidence, k=r.k,
                                   unit=ch.unit)
     extra = {"coverage": r.coverage, "coverage_confidence": r.confidence, "k": r.k,
-             "side": side,
-             "n": r.n, "mean": r.mean, "sd_parts": r.sd, "distribution": "normal",
+             "side": side, "n": r.n, "mean": r.mean, "sd_parts": r.sd, "distribution": dist,
              "within_limits": int(v.outcome == "PASS")}
+    if d.fit is not None:
+        extra["fit"] = d.fit.words
+        if d.fit.name == "box-cox":
+            extra["box_cox_lambda"] = d.fit.param("lambda")
+    if dist == "any":
+        extra["n_required"] = tolerance.order_sample_size(r.coverage, r.confidence, side)
     res = CheckResult(
         check="conformance", method=r.method, hypothesis=hyp, alternative=None, margin=None,
         outcome=v.outcome, reason=v.reason, estimate=r.mean, ci_low=_finite(r.low),
@@ -729,6 +813,17 @@ def _diagnostics(spec: Spec, ch: Characteristic, d: _CharDraft) -> list[Diagnost
                    _finite(rs.step_over_tenth_tolerance)}))
     except StatsError as err:
         out.append(_diag_na("resolution", "measurement resolution", "all", err))
+    if d.fit is not None:
+        f = d.fit
+        bad = f.gof_pvalue < alpha
+        out.append(DiagnosticResult(
+            "distribution fit", f.gof_method, "new", bad,
+            (f"the declared {f.name} model does not fit the new parts: {f.words}" if bad
+             else f"fitted {f.words}"),
+            statistic=f.gof_statistic, p_value=f.gof_pvalue,
+            extra={k: v for k, v in f.parameters}))
+    elif d.fit_error is not None:
+        out.append(_diag_na("distribution fit", f"{ch.distribution} fit", "new", d.fit_error))
     out.extend(_companions(spec, ch, d))
     return out
 
@@ -884,4 +979,17 @@ def _finish(spec: Spec, d: _CharDraft) -> CharacteristicResult:
         name=d.ch.name, unit=d.ch.unit, decision=outcome, reasons=reasons,
         review=tuple(review), processes=d.processes, checks=tuple(checks),
         diagnostics=tuple(d.diagnostics), spec=d.ch, pairs=d.pairs, unmatched_pairs=d.unmatched,
+        distribution=_distribution_record(d),
     )
+
+
+def _distribution_record(d: _CharDraft) -> dict:
+    if d.fit is not None:
+        f = d.fit
+        return {"name": f.name, "parameters": dict(f.parameters), "loglik": f.loglik,
+                "gof_method": f.gof_method, "gof_statistic": f.gof_statistic,
+                "gof_pvalue": f.gof_pvalue}
+    out: dict = {"name": d.ch.distribution}
+    if d.fit_error is not None:
+        out["error"] = d.fit_error
+    return out

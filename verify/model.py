@@ -143,6 +143,10 @@ class CharacteristicResult:
     spec: Characteristic
     pairs: int | None = None  # matched pairs, paired designs
     unmatched_pairs: tuple[str, ...] = ()  # pair keys with one side only
+    # the declared model of the new parts: {name, parameters {..}, loglik, gof_method,
+    # gof_statistic, gof_pvalue} for a fitted one, {name} for normal and any; "error" where the
+    # fit could not be computed
+    distribution: Mapping[str, object] | None = None
 
 
 @dataclass(frozen=True)

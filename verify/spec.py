@@ -460,7 +460,21 @@ class _Checker:
                 self.add(f"{path}.spread.method", "brown-forsythe compares independent samples, "
                          f"but the spread is tested on the declared pairs{label}: remove "
                          "method, or write design: independent to ignore the pairs knowingly")
+        dist = c.get("distribution", "normal")
+        if "capability" in checks and dist == "any":
+            self.add(f"{path}.capability", f"capability needs a distribution model{label}, "
+                     "and distribution: any has none: use conformance (distribution-free "
+                     "tolerance limits), or name the distribution", key=True)
         cap = checks.get("capability")
+        if isinstance(cap, dict) and dist not in ("normal", "any"):
+            if cap.get("judge") == "lower_bound":
+                self.add(f"{path}.capability.judge", f"judge: lower_bound is defined for the "
+                         f"normal model only{label}; with distribution: {dist} the percentile "
+                         "index is judged on its estimate: remove judge, or use conformance")
+            if "subgroup" in cap:
+                self.add(f"{path}.capability.subgroup", f"subgroup sets the within-lot sigma "
+                         f"of the normal model{label}; with distribution: {dist} the "
+                         "percentile method uses the fitted distribution: remove subgroup")
         if isinstance(cap, dict):
             if "min_cpk" in cap and "min" in cap:
                 self.add(f"{path}.capability.min_cpk", f"min_cpk is short for {{index: cpk, "
@@ -684,6 +698,9 @@ def _build_characteristic(c: dict, p: str, data: DataSpec, unit: str, doc: Docum
         rec(f"{p}.limits", list(limits))
     side = c.get("side", "two-sided")
     rec(f"{p}.side", side)
+    distribution = c.get("distribution", "normal")
+    if "distribution" in c:  # recorded only when written: the default changes no old record
+        rec(f"{p}.distribution", distribution)
 
     explicit = "checks" in c
     listed = c.get("checks", {})
@@ -693,7 +710,7 @@ def _build_characteristic(c: dict, p: str, data: DataSpec, unit: str, doc: Docum
         if explicit:
             return check in listed, listed.get(check) or {}
         default_on = {"target": target is not None, "shift": True, "spread": True,
-                      "capability": has_limits}[check]
+                      "capability": has_limits and distribution != "any"}[check]
         return default_on, {}
 
     cp = f"{p}.checks"
@@ -777,7 +794,7 @@ def _build_characteristic(c: dict, p: str, data: DataSpec, unit: str, doc: Docum
         side=side, checks=Checks(target=target_check, shift=shift_check, spread=spread_check,
                                  capability=capability_check,
                                  conformance=conformance_check),
-        line=_spec_line(doc.where(p)[0]),
+        line=_spec_line(doc.where(p)[0]), distribution=distribution,
     )
 
 

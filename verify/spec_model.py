@@ -17,6 +17,7 @@ SPREAD_METHODS = ("f", "brown-forsythe")
 SPREAD_DESIGNS = ("paired", "independent")
 CAPABILITY_INDICES = ("cpk", "ppk")
 CAPABILITY_JUDGES = ("estimate", "lower_bound")
+DISTRIBUTIONS = ("normal", "lognormal", "weibull", "box-cox", "any")
 
 
 @dataclass(frozen=True)
@@ -114,6 +115,9 @@ class Characteristic:
     side: str  # two-sided | lower | upper: which departure is harmful
     checks: Checks
     line: int | None = None  # line in the spec, for messages
+    # normal | lognormal | weibull | box-cox | any: the model of the new parts behind
+    # capability and conformance (the location and spread tests stay as they are)
+    distribution: str = "normal"
 
     @property
     def lower(self) -> float | None:

@@ -208,6 +208,8 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
                 },
                 "pairs": c.pairs,
                 "unmatched_pairs": list(c.unmatched_pairs),
+                "distribution": (dict(c.distribution) if c.distribution is not None
+                                 else {"name": c.spec.distribution}),
                 "checks": [_check(k) for k in c.checks],
                 "diagnostics": [_diag(g) for g in c.diagnostics],
             }

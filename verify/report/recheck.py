@@ -1215,6 +1215,11 @@ def _conformance(sh: _Sheet, layout, c: CharacteristicResult, ch: CheckResult) -
     if block is None:
         sh.unavailable("conformance", _why_no_block(layout, c.name, "new"))
         return
+    dist = extra.get("distribution", "normal")
+    if dist == "weibull" or (dist != "normal" and extra.get("k") is None and dist != "any"):
+        sh.unavailable("tolerance limits", "Weibull limits come from pivots taken from a "
+                       "seeded simulation, which the spreadsheet cannot redo")
+        return
     if extra.get("k") is None:
         sh.unavailable("tolerance factor", "distribution-free limits: the smallest and the "
                        "largest used value are the limits (MIN and MAX below)")
@@ -1225,27 +1230,73 @@ def _conformance(sh: _Sheet, layout, c: CharacteristicResult, ch: CheckResult) -
             sh.qty("upper tolerance limit", f"MAX({ref})", ch.ci_high, "MAX of the new parts")
         return
     ref = block.ref(VALUE_COLUMN)
-    sh.qty("new: n (parts)", f"COUNT({ref})", extra.get("n"), "COUNT of the new parts")
-    m = sh.qty("new: mean (parts)", f"AVERAGE({ref})", extra.get("mean"), "AVERAGE")
-    sd = sh.qty("new: sd (parts)", f"_xlfn.STDEV.S({ref})", extra.get("sd_parts"), "STDEV.S")
+    n = sh.qty("new: n (parts)", f"COUNT({ref})", extra.get("n"), "COUNT of the new parts")
+    back = "{}"
+    if dist == "normal":
+        m = sh.qty("new: mean (parts)", f"AVERAGE({ref})", extra.get("mean"), "AVERAGE")
+        sd = sh.qty("new: sd (parts)", f"_xlfn.STDEV.S({ref})", extra.get("sd_parts"),
+                    "STDEV.S")
+    else:
+        if dist == "lognormal":
+            y, how, back = f"LN({ref})", "LN(x)", "EXP({})"
+        else:
+            lam_value = _fit_lambda(extra)
+            if lam_value is None:
+                sh.unavailable("tolerance limits", "the Box-Cox lambda is not recorded")
+                return
+            lam = sh.param("Box-Cox lambda", lam_value, "as estimated by the engine")
+            y, how = f"(({ref})^{lam}-1)/{lam}", "(x^lambda - 1) / lambda"
+            back = f"({lam}*{{}}+1)^(1/{lam})"
+        m = sh.qty("new: mean of the transformed values", f"SUMPRODUCT({y})/{n}",
+                   extra.get("mean"), f"SUMPRODUCT({how}) / n")
+        sd = sh.qty("new: sd of the transformed values",
+                    f"SQRT(SUMPRODUCT(({y}-{m})^2)/({n}-1))", extra.get("sd_parts"),
+                    "SQRT(SUMPRODUCT((y - mean)^2) / (n - 1))")
     k = sh.param("tolerance factor k", float(extra["k"]),
                  f"{ch.method}; coverage {extra.get('coverage')}, confidence "
                  f"{extra.get('coverage_confidence')}, n as above (a value: the spreadsheet has no "
                  "function for it)")
     checks = []
     if ch.ci_low is not None:
-        lo = sh.qty("lower tolerance limit", f"{m}-{k}*{sd}", ch.ci_low, "mean - k sd")
+        lo = sh.qty("lower tolerance limit", back.format(f"({m}-{k}*{sd})"), ch.ci_low,
+                    "mean - k sd" + ("" if dist == "normal" else ", transformed back"))
         if c.spec.lower is not None:
             lsl = sh.param("lower limit", c.spec.lower, "the spec's")
             checks.append(f"{lo}>={lsl}")
     if ch.ci_high is not None:
-        hi = sh.qty("upper tolerance limit", f"{m}+{k}*{sd}", ch.ci_high, "mean + k sd")
+        hi = sh.qty("upper tolerance limit", back.format(f"({m}+{k}*{sd})"), ch.ci_high,
+                    "mean + k sd" + ("" if dist == "normal" else ", transformed back"))
         if c.spec.upper is not None:
             usl = sh.param("upper limit", c.spec.upper, "the spec's")
             checks.append(f"{hi}<={usl}")
     if checks:
         sh.qty("within the limits (1 = yes)", f"IF(AND({','.join(checks)}),1,0)",
                extra.get("within_limits"), "AND of the comparisons with the limits")
+
+
+def _fit_lambda(extra: Mapping) -> float | None:
+    lam = extra.get("box_cox_lambda")
+    return None if lam is None else float(lam)
+
+
+def _percentile_capability(sh: _Sheet, c: CharacteristicResult, ch: CheckResult) -> None:
+    """Percentile indices rebuilt from the fitted quantiles (given as values: they come from
+    the maximum-likelihood fit, which the spreadsheet does not redo)."""
+    extra: Mapping = ch.extra or {}
+    xl = sh.param("fitted 0.135% quantile", extra["x_0_135"], str(extra.get("fit", "")))
+    xm = sh.param("fitted median", extra["x_50"], "the same fit")
+    xh = sh.param("fitted 99.865% quantile", extra["x_99_865"], "the same fit")
+    both = []
+    if c.spec.lower is not None:
+        lsl = sh.param("lower limit", c.spec.lower, "the spec's")
+        both.append(sh.qty("Ppl (percentile)", f"({xm}-{lsl})/({xm}-{xl})", extra.get("ppl"),
+                           "(median - lower) / (median - X0.135%)"))
+    if c.spec.upper is not None:
+        usl = sh.param("upper limit", c.spec.upper, "the spec's")
+        both.append(sh.qty("Ppu (percentile)", f"({usl}-{xm})/({xh}-{xm})", extra.get("ppu"),
+                           "(upper - median) / (X99.865% - median)"))
+    sh.qty("Ppk (percentile)", f"MIN({','.join(both)})", extra.get("ppk"),
+           "the smaller one-sided index")
 
 
 # --- the sheet ---------------------------------------------------------------------------------
@@ -1281,6 +1332,8 @@ def _characteristic(
             _spread(sh, ev, layout, c, ch, samples)
         elif ch.check == "conformance":
             _conformance(sh, layout, c, ch)
+        elif (ch.extra or {}).get("distribution", "normal") != "normal":
+            _percentile_capability(sh, c, ch)
         else:
             _capability(sh, ev, layout, c, ch)
     sh.blank()
