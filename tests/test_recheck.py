@@ -49,7 +49,8 @@ def write_edge_specs(folder: Path) -> None:
                      f"{10 + rng.normal(0, 0.2):.3f}")
         when += 1
         gap_new = gap_old + 0.01 + rng.normal(0, 0.03)
-        lines.append(f"{lots_new[i % 3]},new,{key},{when},{gap_new:.4f},"
+        # unequal new lot sizes (6, 6, 12): the lot-range sigma pools them with weights
+        lines.append(f"{lots_new[(0, 1, 2, 2)[i % 4]]},new,{key},{when},{gap_new:.4f},"
                      f"{10.05 + rng.normal(0, 0.35):.3f}")
         when += 1
     (folder / "edge.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")

@@ -444,6 +444,22 @@ class Ledger:
         rows = self._conn.execute("SELECT * FROM runs ORDER BY started, run_id").fetchall()
         return [RunRow(**{f.name: r[f.name] for f in fields(RunRow)}) for r in rows]
 
+    def named_outputs(self) -> set[tuple[str, str]]:
+        """(folder name, file name) of every workbook and result an entry or record names.
+
+        The last two parts of the path only: outputs live at ``<out>/<folder>/<file>``, and the
+        stored paths are as the run saw them (relative to its working folder, maybe).
+        """
+        named: set[tuple[str, str]] = set()
+        for table in ("entries", "records"):
+            rows = self._conn.execute(f"SELECT workbook_path, result_path FROM {table}")
+            for row in rows:
+                for p in row:
+                    if p:
+                        path = Path(p)
+                        named.add((path.parent.name, path.name))
+        return named
+
     def integrity(self) -> str:
         """SQLite's own ``PRAGMA integrity_check`` answer ("ok" when sound)."""
         return "; ".join(r[0] for r in self._conn.execute("PRAGMA integrity_check"))

@@ -10,8 +10,16 @@ For each spec found (as ``verify run`` finds them), a nightly run
 2. **runs** the others through the same evaluation as ``verify run``
    (:func:`verify.runner.prepare`) in ``--jobs`` worker processes, each importing the heavy
    libraries once, and writes ``<out>/<spec-stem>/<UTC time>-<DECISION>.xlsx`` and ``.json``
-   (never overwritten) and ``<out>/<spec-stem>/latest.json``, each to a temporary file renamed
-   into place.
+   (never overwritten) and ``<out>/<spec-stem>/latest.json``. A worker writes temporary files
+   only; the parent renames them into place after the ledger entry that names them is
+   written, so a result file never exists without its entry.
+
+Isolation: everything that touches a spec's files, the fingerprint's hashing included, runs in
+a worker process (:mod:`verify.isolation`) under ``--spec-timeout``; a spec whose files hang,
+grow without end or kill their worker is ``ERROR`` with the reason, and the others run. Workers
+stop when the parent dies. At start, under the lock, a run removes temporary files left by a
+killed run and moves result files that no ledger entry names into ``<out>/quarantine/<run>/``,
+saying so.
 3. **locks the decision of record** of each spec version (its sha256) on the first run at which
    every process has reached ``min_n`` (with no ``min_n``: the first run), or the first run
    given ``--final``. Later runs monitor: their workbooks say "monitoring; decision of record:
@@ -45,6 +53,8 @@ from .ledger import DataFile, Entry, Fingerprint, Ledger, LedgerLock, Record, Ru
 
 DEFAULT_OUT = "reports/nightly"
 DEFAULT_LOCK_TIMEOUT = 60.0
+DEFAULT_SPEC_TIMEOUT = 600.0
+QUARANTINE = "quarantine"
 HEAVY_MODULES = ("numpy", "scipy.stats", "pandas", "openpyxl", "verify.evaluate", "verify.data",
                  "verify.report.workbook", "verify.report.json_result")
 
@@ -100,6 +110,13 @@ def add_nightly_arguments(parser: argparse.ArgumentParser) -> argparse.ArgumentP
                         help="declare the trials complete: a shortfall against min_n no longer "
                              "makes a characteristic PENDING, and each spec version without a "
                              "decision of record gets one now")
+    parser.add_argument("--spec-timeout", metavar="SECONDS", type=_positive_float,
+                        default=DEFAULT_SPEC_TIMEOUT,
+                        help="stop a spec whose reading or evaluation takes longer, and record "
+                             f"it as ERROR (default: {DEFAULT_SPEC_TIMEOUT:g})")
+    from .cli_run import add_max_data_mb
+
+    add_max_data_mb(parser)
     parser.add_argument("--lock-timeout", metavar="SECONDS", type=_non_negative_float,
                         default=DEFAULT_LOCK_TIMEOUT,
                         help="how long to wait for another nightly run on the same ledger "
@@ -120,12 +137,19 @@ def _positive_int(text: str) -> int:
     return n
 
 
+def _positive_float(text: str) -> float:
+    x = _non_negative_float(text)
+    if x == 0:
+        raise argparse.ArgumentTypeError("must be more than 0 seconds")
+    return x
+
+
 def _non_negative_float(text: str) -> float:
     try:
         x = float(text)
     except ValueError:
         raise argparse.ArgumentTypeError(f"expected a number of seconds, got {text!r}") from None
-    if not x >= 0:
+    if not 0 <= x < 1e9:
         raise argparse.ArgumentTypeError(f"must be 0 or more, got {text!r}")
     return x
 
@@ -148,6 +172,7 @@ class Task:
     record: Record | None  # this version's decision of record
     previous: Record | None  # the newest record of another version of the spec
     data_root: str | None
+    max_data_mb: float | None = None
 
 
 @dataclass(frozen=True)
@@ -170,17 +195,23 @@ class Outcome:
     workbook_sha256: str | None = None
     evaluation_id: str | None = None
     supersedes_reason: str | None = None
+    # the outputs as temporary files; the parent renames them after the ledger entry
+    tmp_workbook: str | None = None
+    tmp_result: str | None = None
 
 
-def _sha256_file(path: str) -> str | None:
-    h = hashlib.sha256()
-    try:
-        with open(path, "rb") as f:
-            for chunk in iter(lambda: f.read(1 << 20), b""):
-                h.update(chunk)
-    except OSError:
+def _sha256_file(path: str, max_bytes: int | None = None) -> str | None:
+    """The sha256 of a data file; None when it does not exist (the run then says so).
+
+    Raises :class:`~verify.safe_open.FileRefused` for anything but a regular file within the
+    size limit: a FIFO or a device is never opened for hashing.
+    """
+    from .safe_open import DATA_LIMIT_HINT, sha256_regular
+
+    if not os.path.lexists(path):
         return None
-    return h.hexdigest()
+    return sha256_regular(path, what="data file", max_bytes=max_bytes,
+                          limit_hint=DATA_LIMIT_HINT)
 
 
 def data_paths_light(spec_path: Path, raw: bytes) -> list[tuple[str, str]]:
@@ -207,15 +238,61 @@ def data_paths_light(spec_path: Path, raw: bytes) -> list[tuple[str, str]]:
     return out
 
 
-def fingerprint(spec_path: Path, raw: bytes, last: Entry | None) -> Fingerprint:
-    """The spec's input fingerprint; data paths come from ``last`` when the spec is the same."""
+def fingerprint(spec_path: Path, raw: bytes, last: Entry | None, *,
+                root: Path | None = None, max_bytes: int | None = None) -> Fingerprint:
+    """The spec's input fingerprint; data paths come from ``last`` when the spec is the same.
+
+    With ``root``, a data file outside it is refused (:class:`VerifyError`) before it is
+    opened. Runs in a worker (:func:`probe`): hashing may meet a file that hangs.
+    """
     spec_sha = hashlib.sha256(raw).hexdigest()
     if last is not None and last.spec_sha256 == spec_sha and last.data_files:
         paths = [(d.path, d.file) for d in last.data_files]
     else:
         paths = data_paths_light(spec_path, raw)
-    files = tuple(DataFile(p, f, _sha256_file(f)) for p, f in paths)
+    if root is not None:
+        refused = outside_root([f for _, f in paths], root)
+        if refused:
+            raise VerifyError(f"{spec_path}: {refused}")
+    files = tuple(DataFile(p, f, _sha256_file(f, max_bytes)) for p, f in paths)
     return Fingerprint(spec_sha, files, __version__)
+
+
+@dataclass(frozen=True)
+class ProbeTask:
+    """What a worker needs to fingerprint one spec (picklable)."""
+
+    spec_path: str
+    last_result: Entry | None
+    data_root: str | None
+    max_data_mb: float | None
+
+
+@dataclass(frozen=True)
+class Probe:
+    """A spec's fingerprint, or why it could not be taken."""
+
+    fingerprint: Fingerprint | None
+    error: str | None = None
+
+
+def probe(task: ProbeTask) -> Probe:
+    """Read one spec and hash its data files (in a worker, under the time limit)."""
+    from .safe_open import MAX_SPEC_BYTES, FileRefused, max_data_bytes, read_regular
+
+    path = Path(task.spec_path)
+    try:
+        raw = read_regular(path, what="spec", max_bytes=MAX_SPEC_BYTES)
+    except FileRefused as exc:
+        return Probe(None, f"{path}: cannot read the spec: {exc.reason}")
+    try:
+        fp = fingerprint(path, raw, task.last_result,
+                         root=Path(task.data_root) if task.data_root else None,
+                         max_bytes=max_data_bytes(task.max_data_mb))
+    except VerifyError as exc:
+        return Probe(Fingerprint(hashlib.sha256(raw).hexdigest(), (), __version__),
+                     exc.report())
+    return Probe(fp)
 
 
 def outside_root(files: Iterable[str], root: Path) -> str | None:
@@ -295,11 +372,12 @@ def _lots(ev) -> tuple[tuple[str, tuple[str, ...]], ...]:
 def run_task(task: Task) -> Outcome:
     """Evaluate one spec, write its history and latest.json; never raises for bad input."""
     from .ledger import judge
-    from .runner import prepare, write_outputs, write_text_atomic
+    from .runner import prepare, stage_outputs
+    from .safe_open import MAX_SPEC_BYTES, read_regular
 
     started = _utc()
     try:
-        raw = Path(task.spec_path).read_bytes()
+        raw = read_regular(task.spec_path, what="spec", max_bytes=MAX_SPEC_BYTES)
         try:
             text = raw.decode("utf-8")
         except UnicodeDecodeError:
@@ -307,19 +385,15 @@ def run_task(task: Task) -> Outcome:
         if hashlib.sha256(raw).hexdigest() != task.fingerprint.spec_sha256:
             raise VerifyError(f"{task.spec_path}: the spec changed while the run started; "
                               "it runs again next time")
-        ev = prepare(task.spec_path, final=task.evaluate_final, command=task.command, text=text)
+        # the data root is checked inside prepare, before the data file is opened
+        ev = prepare(task.spec_path, final=task.evaluate_final, command=task.command, text=text,
+                     max_data_mb=task.max_data_mb, data_root=task.data_root)
         files = tuple(
             DataFile(f.path, str(ev.spec.data.file) if i == 0 else f.resolved_path, f.sha256)
             for i, f in enumerate(ev.measurements.files))
         table = ev.spec.characteristics_table
         if table is not None:  # the characteristics table joins the fingerprint
             files += (DataFile(table.file_text, str(table.file), table.sha256),)
-        if task.data_root is not None:
-            refused = outside_root([str(ev.spec.data.file)] + [f.resolved_path
-                                                                 for f in ev.measurements.files],
-                                   Path(task.data_root))
-            if refused:
-                raise VerifyError(f"{task.spec_path}: {refused}")
         plan_complete, shortfall = _plan(ev)
         chars = {c.name: c.decision for c in ev.characteristics}
         now = _utc()
@@ -331,15 +405,15 @@ def run_task(task: Task) -> Outcome:
         ev = replace(ev, monitoring=standing.text)
         out_dir = Path(task.out_dir)
         workbook, result = history_paths(out_dir, ev.decision, now)
-        outs = write_outputs(ev, workbook, result)
-        write_text_atomic(out_dir / "latest.json", result.read_text(encoding="utf-8"))
+        staged = stage_outputs(ev, workbook, result)  # renamed by the parent, after the ledger
         return Outcome(
             spec_key=task.spec_key, started=started, finished=_utc(),
             spec_sha256=ev.spec.sha256, data_files=files, decision=ev.decision,
             characteristics=tuple(chars.items()), lots=_lots(ev), plan_complete=plan_complete,
-            standing=standing, workbook_path=str(outs.workbook), result_path=str(outs.result),
-            workbook_sha256=outs.workbook_sha256, evaluation_id=ev.run.run_id,
-            supersedes_reason=ev.spec.supersedes_reason)
+            standing=standing, workbook_path=str(staged.workbook),
+            result_path=str(staged.result), workbook_sha256=staged.workbook_sha256,
+            evaluation_id=ev.run.run_id, supersedes_reason=ev.spec.supersedes_reason,
+            tmp_workbook=str(staged.tmp_workbook), tmp_result=str(staged.tmp_result))
     except VerifyError as exc:
         return Outcome(task.spec_key, started, _utc(), error=exc.report())
     except MemoryError:
@@ -353,39 +427,36 @@ def run_task(task: Task) -> Outcome:
                              f"{Path(where.filename).name}:{where.lineno}; please report it")
 
 
-def _run_tasks(tasks: Sequence[Task], jobs: int) -> Iterator[Outcome]:
-    """Yield outcomes as workers finish; a worker that dies costs only its own spec."""
-    if not tasks:
-        return
-    import multiprocessing as mp
-    from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
-    from concurrent.futures.process import BrokenProcessPool
+def _worker_run(task: Task) -> Outcome:
+    """Evaluate one spec in a worker, the heavy libraries imported once per worker."""
+    init_worker()
+    return run_task(task)
 
-    ctx = mp.get_context("spawn")
-    retry: list[Task] = []
-    with ProcessPoolExecutor(max_workers=min(jobs, len(tasks)), mp_context=ctx,
-                             initializer=init_worker) as pool:
-        futures = {pool.submit(run_task, t): t for t in tasks}
-        pending = set(futures)
-        while pending:
-            done, pending = wait(pending, return_when=FIRST_COMPLETED)
-            for fut in done:
-                try:
-                    yield fut.result()
-                except BrokenProcessPool:
-                    retry.append(futures[fut])
-    # A worker died (killed, out of memory, crashed): retry its victims one by one, so that
-    # only the spec that kills its worker is recorded as an error.
-    for task in retry:
-        started = _utc()
-        try:
-            with ProcessPoolExecutor(max_workers=1, mp_context=ctx,
-                                     initializer=init_worker) as pool:
-                yield pool.submit(run_task, task).result()
-        except BrokenProcessPool:
-            yield Outcome(task.spec_key, started, _utc(),
-                          error="the worker process evaluating this spec died (killed, or out "
-                                "of memory); nothing was written")
+
+def _run_tasks(tasks: Sequence[Task], jobs: int, timeout: float = DEFAULT_SPEC_TIMEOUT,
+               ) -> Iterator[Outcome]:
+    """Yield outcomes as workers finish; a spec that times out or kills its worker costs only
+    itself (:mod:`verify.isolation`)."""
+    from .isolation import Failed, Job, run_isolated
+
+    by_key = {t.spec_key: t for t in tasks}
+    starts = {t.spec_key: _utc() for t in tasks}
+    for key, result in run_isolated([Job(t.spec_key, _worker_run, t) for t in tasks],
+                                    workers=jobs, timeout=timeout):
+        if isinstance(result, Failed):
+            _remove_partials(Path(by_key[key].out_dir))
+            yield Outcome(key, starts[key], _utc(),
+                          error=f"{by_key[key].spec_path}: {result.reason}; nothing was written")
+        else:
+            yield result
+
+
+def _remove_partials(folder: Path) -> None:
+    """Temporary files a stopped worker left in its spec's folder (only it writes there)."""
+    if folder.is_dir():
+        for p in folder.glob(".*.part*"):
+            with contextlib.suppress(OSError):
+                p.unlink()
 
 
 # --- the parent side ---------------------------------------------------------------------------
@@ -413,7 +484,7 @@ class NightlyResult:
 def _output_names(specs: Sequence[Path], keys: Sequence[str], known: dict[str, Entry],
                   ) -> list[str]:
     """A stable output folder name per spec: its stem, made unique when two stems collide."""
-    owner: dict[str, str] = {}
+    owner: dict[str, str] = {QUARANTINE: ""}  # reserved for stray files
     mine: dict[str, str] = {}
     for key, e in known.items():
         if e.result_path:
@@ -453,34 +524,30 @@ class _Context:
     command: str
     latest: dict[str, Entry]  # newest entry per spec before this run
     results: dict[str, Entry]  # newest RUN entry per spec before this run
+    max_data_mb: float | None = None
 
 
-def _triage(ledger: Ledger, ctx: _Context, path: Path, key: str, name: str) -> Entry | Task:
+def _triage(ledger: Ledger, ctx: _Context, path: Path, key: str, name: str,
+            found: Probe, started: str) -> Entry | Task:
     """Decide, without evaluating, what one spec needs: an ERROR or UNCHANGED entry, or a Task.
 
-    Reads the spec's bytes and hashes its data files; a data path comes from the spec's last
-    result when the spec is the same, else from a light YAML parse. No heavy import here.
+    ``found`` is the spec's fingerprint as a worker took it (:func:`probe`): the parent itself
+    never opens a spec's files. No heavy import here.
     """
-    now = _utc()
-    base = dict(run_id=ctx.run_id, spec_path=key, tool_version=__version__, started=now)
-    try:
-        raw = path.read_bytes()
-    except OSError as exc:
+    base = dict(run_id=ctx.run_id, spec_path=key, tool_version=__version__, started=started)
+    fp = found.fingerprint
+    if found.error is not None or fp is None:
         return Entry(**base, finished=_utc(), state="ERROR",
-                     error=f"{path}: cannot read the spec: {exc.strerror}")
+                     spec_sha256=fp.spec_sha256 if fp is not None else None,
+                     data_files=fp.data_files if fp is not None else (), error=found.error)
+    fp = replace(fp, tool_version=__version__)  # this run's version is the parent's
     last_result = ctx.results.get(key)
-    fp = fingerprint(path, raw, last_result)
-    if ctx.root is not None:
-        refused = outside_root([d.file for d in fp.data_files], ctx.root)
-        if refused:
-            return Entry(**base, finished=_utc(), state="ERROR", spec_sha256=fp.spec_sha256,
-                         data_files=fp.data_files, error=f"{path}: {refused}")
     record = ledger.record(key, fp.spec_sha256)
     newest = ctx.latest.get(key)
     wants_record = ctx.final and record is None  # --final locks a record: it must run
     if (last_result is not None and newest is not None and newest.state != "ERROR"
             and fp.matches(last_result.fingerprint) and not wants_record):
-        return _unchanged(ctx.run_id, key, now, last_result)
+        return _unchanged(ctx.run_id, key, started, last_result)
     previous = ledger.latest_record(key)
     if previous is not None and previous.spec_sha256 == fp.spec_sha256:
         previous = None
@@ -489,7 +556,76 @@ def _triage(ledger: Ledger, ctx: _Context, path: Path, key: str, name: str) -> E
         command=ctx.command, final=ctx.final,
         evaluate_final=ctx.final or bool(record is not None and record.final),
         fingerprint=fp, record=record, previous=previous,
-        data_root=str(ctx.root) if ctx.root is not None else None)
+        data_root=str(ctx.root) if ctx.root is not None else None,
+        max_data_mb=ctx.max_data_mb)
+
+
+def _probes(specs: Sequence[tuple[Path, str]], ctx: _Context, jobs: int, timeout: float,
+            ) -> Iterator[tuple[str, Probe, str]]:
+    """Fingerprint every spec in workers (light: no heavy import); (key, probe, started)."""
+    from .isolation import Failed, Job, run_isolated
+
+    started = {key: _utc() for _, key in specs}
+    job_list = [Job(key, probe, ProbeTask(str(path), ctx.results.get(key),
+                                          str(ctx.root) if ctx.root is not None else None,
+                                          ctx.max_data_mb))
+                for path, key in specs]
+    paths = {key: path for path, key in specs}
+    for key, result in run_isolated(job_list, workers=jobs, timeout=timeout):
+        if isinstance(result, Failed):
+            result = Probe(None, f"{paths[key]}: reading the spec and hashing its data files "
+                                 f"{result.reason}")
+        yield key, result, started[key]
+
+
+def _commit(entry: Entry, outcome: Outcome) -> str | None:
+    """Rename a spec's staged outputs into place (after its ledger entry is written) and
+    refresh its latest.json; the problem in words when that fails."""
+    from .runner import Staged, commit_all, write_text_atomic
+
+    if outcome.tmp_workbook is None or outcome.tmp_result is None:
+        return None
+    staged = Staged(Path(outcome.workbook_path), Path(outcome.result_path),
+                    Path(outcome.tmp_workbook), Path(outcome.tmp_result),
+                    outcome.workbook_sha256 or "")
+    try:
+        commit_all([staged])
+        result = Path(outcome.result_path)
+        write_text_atomic(result.parent / "latest.json", result.read_text(encoding="utf-8"))
+    except (OSError, VerifyError) as exc:
+        return f"{entry.spec_path}: the result was recorded but could not be put in place: {exc}"
+    return None
+
+
+def _sweep_strays(ledger: Ledger, out: Path, names: Iterable[str], run_id: str) -> list[str]:
+    """Move result files that no ledger entry names into ``<out>/quarantine/<run_id>/``.
+
+    A worker of a killed run (or a run from before workers wrote only temporary files) may
+    have left a workbook or JSON result that no entry records; it must not pass for a result.
+    Only the output folders of known specs are swept, and only their .xlsx and .json files
+    (latest.json is a copy the next result refreshes). Returns the moved files, as
+    ``<folder>/<file>``.
+    """
+    named = ledger.named_outputs()  # (folder name, file name) of every recorded output
+    moved = []
+    folders = set(names) | {folder for folder, _ in named}
+    for folder in sorted(folders):
+        d = out / folder
+        if folder == QUARANTINE or not d.is_dir():
+            continue
+        for f in sorted(d.iterdir()):
+            if (f.suffix.lower() not in (".xlsx", ".json") or f.name == "latest.json"
+                    or f.name.startswith(".") or not f.is_file()
+                    or (folder, f.name) in named):
+                continue
+            target = out / QUARANTINE / run_id / folder / f.name
+            try:
+                target.parent.mkdir(parents=True, exist_ok=True)
+                os.replace(f, target)
+            except OSError:
+                continue
+            moved.append(f"{folder}/{f.name}")
+    return moved
 
 
 def _exit_status(rows: Sequence) -> int:
@@ -513,13 +649,14 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
                 ledger_path: str | os.PathLike | None = None, jobs: int = 1,
                 data_root: str | os.PathLike | None = None, final: bool = False,
                 lock_timeout: float = DEFAULT_LOCK_TIMEOUT, command: str | None = None,
-                progress_stream=None) -> NightlyResult:
+                progress_stream=None, spec_timeout: float = DEFAULT_SPEC_TIMEOUT,
+                max_data_mb: float | None = None) -> NightlyResult:
     """Run one nightly pass (the library behind ``verify nightly``).
 
     Raises
     ------
     UsageError
-        No spec found, or ``data_root`` is not a folder.
+        No spec found, or ``data_root`` is not a folder (checked before any file is opened).
     LedgerBusyError
         Another nightly run held the ledger lock for longer than ``lock_timeout`` seconds.
     """
@@ -552,6 +689,12 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
         results = ledger.last_results()
         keys = [str(p.resolve()) for p in specs]
         names = _output_names(specs, keys, results)
+        strays = _sweep_strays(ledger, out, names, run_id) if out.is_dir() else []
+        if strays:
+            shown = ", ".join(strays[:5]) + (f", ... ({len(strays)} in all)"
+                                             if len(strays) > 5 else "")
+            progress.note(f"moved {len(strays)} result file(s) that no ledger entry names "
+                          f"(left by an interrupted run) to {out / QUARANTINE / run_id}: {shown}")
         rows_by_name: dict[str, DigestRow] = {}
         info: dict[str, _Spec] = {}
         tasks: list[Task] = []
@@ -561,10 +704,16 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
             progress.step(row)
 
         ctx = _Context(run_id=run_id, out=out, root=root, final=final, command=command,
-                       latest=latest, results=results)
+                       latest=latest, results=results, max_data_mb=max_data_mb)
         for path, key, name in zip(specs, keys, names, strict=True):
             info[key] = _Spec(key, path, name, results.get(key))
-            triaged = _triage(ledger, ctx, path, key, name)
+        triaged_by_key: dict[str, Entry | Task] = {}
+        for key, found, when in _probes(list(zip(specs, keys, strict=True)), ctx, jobs,
+                                        spec_timeout):
+            triaged_by_key[key] = _triage(ledger, ctx, info[key].path, key, info[key].name,
+                                          found, when)
+        for key in keys:  # entries in the order the specs were found
+            triaged = triaged_by_key[key]
             if isinstance(triaged, Task):
                 tasks.append(triaged)
             else:
@@ -575,10 +724,14 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
             progress.note(f"evaluating {len(tasks)} of {len(specs)} spec(s) in "
                           f"{min(jobs, len(tasks))} worker process(es)")
         by_key = {t.spec_key: t for t in tasks}
-        for outcome in _run_tasks(tasks, jobs):
+        for outcome in _run_tasks(tasks, jobs, spec_timeout):
             task = by_key[outcome.spec_key]
             entry, record = _entry_from(run_id, task, outcome)
             entry, record = ledger.append(entry, record=record)
+            # the files go into place only now that an entry names them
+            problem = _commit(entry, outcome)
+            if problem is not None:
+                progress.note(problem)
             rec_text = record.describe() if record is not None else _record_text(
                 ledger, entry.record_id)
             finish(_row(info[task.spec_key], entry, rec_text))
@@ -696,7 +849,8 @@ def nightly_main(args: argparse.Namespace) -> int:
     try:
         result = run_nightly(
             args.spec_dirs, out=args.out, ledger_path=args.ledger, jobs=args.jobs,
-            data_root=args.data_root, final=args.final, lock_timeout=args.lock_timeout)
+            data_root=args.data_root, final=args.final, lock_timeout=args.lock_timeout,
+            spec_timeout=args.spec_timeout, max_data_mb=args.max_data_mb)
     except VerifyError as exc:
         print(f"verify nightly: {exc.report()}", file=sys.stderr)
         return 2

@@ -81,6 +81,10 @@ D2_CONSTANTS = (  # d2(n) for n = 2..25, the same tabled constants the engine us
     1.128, 1.693, 2.059, 2.326, 2.534, 2.704, 2.847, 2.970, 3.078, 3.173, 3.258, 3.336,
     3.407, 3.472, 3.532, 3.588, 3.640, 3.689, 3.735, 3.778, 3.819, 3.858, 3.895, 3.931,
 )  # fmt: skip
+D3_CONSTANTS = (  # d3(n) for n = 2..25, the engine's tabled constants (Burr's weights)
+    0.853, 0.888, 0.880, 0.864, 0.848, 0.833, 0.820, 0.808, 0.797, 0.787, 0.778, 0.770,
+    0.763, 0.756, 0.750, 0.744, 0.739, 0.733, 0.729, 0.724, 0.720, 0.716, 0.712, 0.708,
+)  # fmt: skip
 
 
 # --- the sheet builder ------------------------------------------------------------------------
@@ -988,7 +992,8 @@ def _moving_range(sh: _Sheet, ev, layout, name: str, block: Block, n: str) -> st
     )
 
 
-def _subgroup_sigma(sh: _Sheet, layout, name: str, block: Block) -> str | None:
+def _subgroup_sigma(sh: _Sheet, layout, name: str, block: Block) -> tuple[str, str] | None:
+    """Rows of range / d2(size) per lot and of Burr's weight per lot; their two ranges."""
     rows = _block_rows(layout, name, "new")
     lots = _lots_of(rows)
     problem = _lot_names_problem(lots)
@@ -1003,8 +1008,8 @@ def _subgroup_sigma(sh: _Sheet, layout, name: str, block: Block) -> str | None:
         )
         return None
     counts = rows.groupby(rows["lot"].astype(str)).size()
-    if len(lots) > MAX_HELPER_ROWS:
-        sh.unavailable("within sigma from lot ranges", f"more than {MAX_HELPER_ROWS} lots")
+    if 2 * len(lots) > MAX_HELPER_ROWS:
+        sh.unavailable("within sigma from lot ranges", f"more than {MAX_HELPER_ROWS // 2} lots")
         return None
     if int(counts.max()) > len(D2_CONSTANTS) + 1:
         sh.unavailable(
@@ -1031,7 +1036,21 @@ def _subgroup_sigma(sh: _Sheet, layout, name: str, block: Block) -> str | None:
     if sh.next_row == first:
         sh.unavailable("within sigma from lot ranges", "no lot holds 2 or more values")
         return None
-    return f"$B${first}:$B${sh.next_row - 1}"
+    scaled = f"$B${first}:$B${sh.next_row - 1}"
+    # Burr's weights d2(n)^2 / d3(n)^2, the reciprocal variances of the scaled ranges
+    d3_table = ",".join(repr(x) for x in D3_CONSTANTS)
+    first = sh.next_row
+    for lot in lots:
+        if counts[lot] < 2:
+            continue
+        k = f"COUNTIFS({lot_col},{_criterion(_as_written(lot))})"
+        sh.qty(
+            f"lot {lot}: weight d2^2 / d3^2",
+            f"CHOOSE({k}-1,{table})^2/CHOOSE({k}-1,{d3_table})^2",
+            None,
+            "d2(size)^2 / d3(size)^2 from the tabled constants (Burr's weights)",
+        )
+    return scaled, f"$B${first}:$B${sh.next_row - 1}"
 
 
 def _capability(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult) -> None:
@@ -1052,14 +1071,15 @@ def _capability(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult
     how = str(extra.get("sigma_method", ""))
     by_lot = c.spec.checks.capability is not None and c.spec.checks.capability.subgroup == "lot"
     if by_lot or ("subgroup" in how and "moving" not in how):
-        ranges = _subgroup_sigma(sh, layout, c.name, block)
-        if ranges is None:
+        found = _subgroup_sigma(sh, layout, c.name, block)
+        if found is None:
             return
+        ranges, weights = found
         sw = sh.qty(
             "within sigma",
-            f"AVERAGE({ranges})",
+            f"SUMPRODUCT({weights},{ranges})/SUM({weights})",
             extra.get("sigma_within"),
-            "mean of range / d2(size) over the lots",
+            "range / d2(size) over the lots, weighted d2^2 / d3^2 (the mean for equal sizes)",
         )
     else:
         mr = _moving_range(sh, ev, layout, c.name, block, n)
