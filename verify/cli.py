@@ -150,6 +150,12 @@ def describe_plan(spec, measurements) -> list[str]:
                      if plan is not None and len(pv.keys) < plan else "")
             lines.append(f"    pairs: {len(pv.keys)} matched, {len(pv.unmatched)} unmatched"
                          f"{extra}{short}")
+        if spec.data.stream is not None:
+            from .data import stream_values
+
+            streams = stream_values(measurements, c.name)
+            listed = ", ".join(f"{k} n {len(v)}" for k, v in streams.items()) or "none yet"
+            lines.append(f"    new streams ({spec.data.stream}): {listed}")
         for text in _check_words(c, spec.unit_of_analysis):
             lines.append(f"    check {text}")
     return lines

@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from . import decide
-from .data import analysis_values, paired_values
+from .data import analysis_values, paired_values, stream_values
 from .model import (
     CharacteristicResult,
     CheckResult,
@@ -21,6 +21,7 @@ from .model import (
     Measurements,
     ProcessSummary,
     RunInfo,
+    StreamResult,
 )
 from .spec_model import Characteristic, Spec
 from .stats import capability as cap
@@ -85,6 +86,15 @@ class _Draft:
 
 
 @dataclass
+class _StreamDraft:
+    """The location and spread checks of one new stream against the whole old process."""
+
+    name: str
+    values: np.ndarray
+    checks: list = field(default_factory=list)  # [_Draft]
+
+
+@dataclass
 class _CharDraft:
     ch: Characteristic
     data: _Data
@@ -96,6 +106,7 @@ class _CharDraft:
     counts: dict = field(default_factory=dict)
     pairs: int | None = None
     unmatched: tuple = ()
+    streams: list = field(default_factory=list)  # [_StreamDraft]
     fit: object = None  # distributions.DistributionFit of the new parts (non-normal models)
     fit_error: str | None = None
     final: bool = False
@@ -251,8 +262,33 @@ def _draft_characteristic(spec: Spec, meas: Measurements, ch: Characteristic, fi
         d.checks.append(_draft_capability(spec, ch, d))
     if checks.conformance is not None:
         d.checks.append(_draft_conformance(spec, ch, d))
+    if spec.data.stream is not None:
+        _draft_streams(spec, meas, ch, d)
     d.diagnostics = _diagnostics(spec, ch, d)
     return d
+
+
+def _draft_streams(spec: Spec, meas: Measurements, ch: Characteristic, d: _CharDraft) -> None:
+    """Each new stream against the old process, with the characteristic's location and spread
+    checks (their p-values join the multiplicity family); capability and conformance stay on
+    the whole new process."""
+    from dataclasses import replace
+
+    checks = ch.checks
+    for name, values in stream_values(meas, ch.name).items():
+        data = replace(d.data, new=values, new_parts=values, new_lots=(), pairs=None,
+                       spread_pairs=None)
+        sd = _CharDraft(ch=ch, data=data, processes=d.processes, final=d.final)
+        sdr = _StreamDraft(name=name, values=values)
+        if checks.target is not None:
+            sdr.checks.append(_draft_location(spec, ch, sd, "target"))
+        if checks.shift is not None:
+            sdr.checks.append(_draft_location(spec, ch, sd, "shift"))
+        if checks.spread is not None:
+            sdr.checks.append(_draft_spread(spec, ch, sd))
+        for dr in sdr.checks:
+            dr.result = replace(dr.result, hypothesis=f"stream {name}: {dr.result.hypothesis}")
+        d.streams.append(sdr)
 
 
 def _degenerate(check: str, method: str, hypothesis: str, err: Exception, **kw) -> _Draft:
@@ -813,6 +849,8 @@ def _diagnostics(spec: Spec, ch: Characteristic, d: _CharDraft) -> list[Diagnost
                    _finite(rs.step_over_tenth_tolerance)}))
     except StatsError as err:
         out.append(_diag_na("resolution", "measurement resolution", "all", err))
+    if len(d.streams) >= 2:
+        out.append(_stream_effect(d, alpha))
     if d.fit is not None:
         f = d.fit
         bad = f.gof_pvalue < alpha
@@ -899,10 +937,16 @@ def _adjust(drafts: list[_CharDraft], method: str, alpha: float
     """
     from dataclasses import replace
 
-    family = [(d, dr) for d in drafts for dr in d.checks if dr.finish is not None]
-    excluded = tuple(f"{d.ch.name}: {dr.result.check}" for d in drafts for dr in d.checks
+    def every(d):
+        # the characteristic's own checks, then each stream's, with the name the family lists
+        yield from ((d.ch.name, dr) for dr in d.checks)
+        for st in d.streams:
+            yield from ((f"{d.ch.name} [stream {st.name}]", dr) for dr in st.checks)
+
+    family = [(label, dr) for d in drafts for label, dr in every(d) if dr.finish is not None]
+    excluded = tuple(f"{label}: {dr.result.check}" for d in drafts for label, dr in every(d)
                      if dr.family and dr.finish is None)
-    names = tuple(f"{d.ch.name}: {dr.result.check}" for d, dr in family)
+    names = tuple(f"{label}: {dr.result.check}" for label, dr in family)
     if not family:
         return names, excluded
     adjusted = method != "none"
@@ -969,18 +1013,65 @@ def _finish(spec: Spec, d: _CharDraft) -> CharacteristicResult:
     if d.unmatched:
         review.append(f"review: {d.ch.name}: {len(d.unmatched)} pair key(s) with one side only "
                       f"left out of the paired analysis: {', '.join(map(str, d.unmatched[:10]))}")
-    outcome = decide.combine(c.outcome for c in checks)
+    streams = tuple(_finish_stream(d, st) for st in d.streams)
+    outcome = decide.combine([*(c.outcome for c in checks), *(st.decision for st in streams)])
     if outcome == "PENDING" and d.shortfall is not None:
         reasons = (d.shortfall, *so_far)
     else:
-        reasons = tuple(f"{c.check}: {c.reason}" for c in checks if c.outcome == outcome) or (
-            "no checks",)
+        reasons = tuple(f"{c.check}: {c.reason}" for c in checks if c.outcome == outcome)
+        # the worst stream is named in the reason: a bad cavity must not hide in the pool
+        reasons += tuple(f"stream {st.name}: {c.check}: {c.reason}" for st in streams
+                         for c in st.checks if c.outcome == outcome)
+        reasons = reasons or ("no checks",)
     return CharacteristicResult(
         name=d.ch.name, unit=d.ch.unit, decision=outcome, reasons=reasons,
         review=tuple(review), processes=d.processes, checks=tuple(checks),
         diagnostics=tuple(d.diagnostics), spec=d.ch, pairs=d.pairs, unmatched_pairs=d.unmatched,
-        distribution=_distribution_record(d),
+        distribution=_distribution_record(d), streams=streams,
     )
+
+
+def _finish_stream(d: _CharDraft, st: _StreamDraft) -> StreamResult:
+    from dataclasses import replace
+
+    checks = []
+    for dr in st.checks:
+        res = dr.result
+        if d.shortfall is not None:
+            v = decide.while_pending(decide.Verdict(res.outcome, res.reason),
+                                     harm_shown=dr.harm_shown, shortfall=d.shortfall)
+            res = replace(res, outcome=v.outcome, reason=v.reason)
+        checks.append(res)
+    n = int(st.values.size)
+    mean = sd = None
+    if n:
+        _, mean, s = mean_sd(st.values)
+        sd = s if n >= 2 else None
+    return StreamResult(name=st.name, n=n, mean=mean, sd=sd,
+                        decision=decide.combine(c.outcome for c in checks),
+                        checks=tuple(checks))
+
+
+def _stream_effect(d: _CharDraft, alpha: float) -> DiagnosticResult:
+    """Do the new streams differ among themselves? One-way ANOVA across the streams, with the
+    stream furthest from the pooled new mean named."""
+    values = np.concatenate([st.values for st in d.streams])
+    labels = np.concatenate([np.full(st.values.size, st.name, dtype=object)
+                             for st in d.streams])
+    try:
+        r = diag.lot_effect(values, labels)
+    except StatsError as err:
+        return _diag_na("stream effect", "one-way ANOVA across the new streams", "new", err)
+    centre = float(np.mean(values))
+    far = max((st for st in d.streams if st.values.size),
+              key=lambda st: abs(float(np.mean(st.values)) - centre))
+    flag = r.pvalue < alpha
+    note = (f"the new streams differ ({decide.p_eq(r.pvalue)}); furthest from the pooled new "
+            f"mean: stream {far.name} (mean {decide.fmt(float(np.mean(far.values)))})" if flag
+            else f"no difference between the new streams detected ({decide.p_eq(r.pvalue)})")
+    return DiagnosticResult("stream effect", "one-way ANOVA across the new streams", "new",
+                            flag, note, statistic=r.statistic, p_value=r.pvalue,
+                            extra={"streams": len(d.streams), "furthest": far.name})
 
 
 def _distribution_record(d: _CharDraft) -> dict:

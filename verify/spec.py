@@ -369,6 +369,17 @@ class _Checker:
             elif "sheet" in data and suffix != ".xlsx":
                 self.add("data.sheet", f"applies to .xlsx files only; {data['file']!r} is "
                          f"{suffix}", key=True)
+        if "stream" in data:
+            if "pair" in data:
+                self.add("data.stream", "streams are compared as independent samples; with "
+                         "data.pair the rows are paired: give one of the two", key=True)
+            if spec.get("unit_of_analysis") == "lot":
+                self.add("data.stream", "stream checks compare parts; they cannot run with "
+                         "unit_of_analysis: lot", key=True)
+            for other in ("lot", "pair", "order", "characteristic", "value", "process"):
+                if data.get(other) == data["stream"] and self.ok(data, "stream", "data.stream"):
+                    self.add("data.stream", f"data.stream and data.{other} name the same "
+                             f"column {data['stream']!r}")
         if (self.ok(data, "characteristic", "data.characteristic")
                 and self.ok(data, "value", "data.value")
                 and data["characteristic"] == data["value"]):
@@ -659,7 +670,7 @@ def _build_data(spec_path: Path, d: dict, doc: Document, rec) -> DataSpec:
         rec("data.process", d["process"])
         rec("data.old", list(old))
         rec("data.new", list(new))
-    for k in ("pair", "order", "characteristic", "value"):
+    for k in ("pair", "order", "characteristic", "value", "stream"):
         if k in d:
             rec(f"data.{k}", d[k])
     decimal = d.get("decimal", ".")
@@ -672,7 +683,7 @@ def _build_data(spec_path: Path, d: dict, doc: Document, rec) -> DataSpec:
         file=file, file_text=file_text, lot=d["lot"], sheet=d.get("sheet"),
         process=d.get("process"), old=old, new=new, pair=d.get("pair"),
         characteristic=d.get("characteristic"), value=d.get("value"), order=d.get("order"),
-        decimal=decimal, missing=missing, ignore_other=ignore_other,
+        decimal=decimal, missing=missing, ignore_other=ignore_other, stream=d.get("stream"),
     )
 
 

@@ -144,6 +144,7 @@ class DataSpec:
     decimal: str = "."
     missing: tuple[str, ...] = ("", "NA")
     ignore_other: bool = False
+    stream: str | None = None  # column naming the stream (cavity, spindle) of a new part
 
     @property
     def layout(self) -> str:

@@ -32,6 +32,7 @@ from .cells import (
     section,
 )
 from .charts import add_charts
+from .stream_block import write_streams
 from .summary import decision_style, margin_text, put_decision_badge
 
 LABEL_WIDTH = 30
@@ -332,6 +333,8 @@ def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: 
         put(ws, row, 1, "No checks ran for this characteristic.", font=NOTE_FONT)
         row += 1
 
+    if c.streams:
+        row = write_streams(ws, row + 1, c, fmts, last_col)
     row += 1
     section(ws, row, "Diagnostics (they never decide alone; a flag asks for review)")
     row += 1

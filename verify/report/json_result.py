@@ -211,6 +211,11 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
                 "distribution": (dict(c.distribution) if c.distribution is not None
                                  else {"name": c.spec.distribution}),
                 "checks": [_check(k) for k in c.checks],
+                "streams": [
+                    {"name": st.name, "n": st.n, "mean": st.mean, "sd": st.sd,
+                     "decision": st.decision, "checks": [_check(k) for k in st.checks]}
+                    for st in c.streams
+                ],
                 "diagnostics": [_diag(g) for g in c.diagnostics],
             }
             for c in ev.characteristics
