@@ -721,7 +721,10 @@ def _draft_conformance(spec: Spec, ch: Characteristic, d: _CharDraft) -> _Draft:
         extra["n_required"] = tolerance.order_sample_size(r.coverage, r.confidence, side)
     res = CheckResult(
         check="conformance", method=r.method, hypothesis=hyp, alternative=None, margin=None,
-        outcome=v.outcome, reason=v.reason, estimate=r.mean, ci_low=_finite(r.low),
+        # the estimate is the mean of the parts in their own unit (for a fitted model the
+        # interval is built on the transformed scale, whose mean and sd are in extra)
+        outcome=v.outcome, reason=v.reason, estimate=float(np.mean(d.data.new_parts)),
+        ci_low=_finite(r.low),
         ci_high=_finite(r.high), ci_level=r.confidence, extra=extra,
         power_note="no power figure: verify plan gives the n a process needs to pass",
     )
@@ -1018,10 +1021,12 @@ def _finish(spec: Spec, d: _CharDraft) -> CharacteristicResult:
     if outcome == "PENDING" and d.shortfall is not None:
         reasons = (d.shortfall, *so_far)
     else:
-        reasons = tuple(f"{c.check}: {c.reason}" for c in checks if c.outcome == outcome)
-        # the worst stream is named in the reason: a bad cavity must not hide in the pool
-        reasons += tuple(f"stream {st.name}: {c.check}: {c.reason}" for st in streams
-                         for c in st.checks if c.outcome == outcome)
+        own = tuple(f"{c.check}: {c.reason}" for c in checks if c.outcome == outcome)
+        named = tuple(f"stream {st.name}: {c.check}: {c.reason}" for st in streams
+                      for c in st.checks if c.outcome == outcome)
+        # a HOLD or PENDING stream leads the reasons, named: a bad cavity must not hide in the
+        # pooled data; a PASS lists the characteristic's own checks first
+        reasons = own + named if outcome == "PASS" else named + own
         reasons = reasons or ("no checks",)
     return CharacteristicResult(
         name=d.ch.name, unit=d.ch.unit, decision=outcome, reasons=reasons,
