@@ -161,3 +161,27 @@ def test_plan_gives_the_smallest_n_for_the_assumed_mean_and_sd(tmp_path):
     assert "n needed" in vplan.format_table(plan)
     far = vplan.plan_spec(spec, load_measurements(spec), vplan.Options(mean=10.9))
     assert far.conformance[0].n_needed is None and "no sample size" in far.conformance[0].note
+
+
+def test_plan_for_distribution_free_and_lognormal_models(tmp_path):
+    old = list(np.abs(_values(40, 0.03, 0.01, 12)) + 0.001)
+    spec = _spec(tmp_path, _values(5, 0.03, 0.01, 13), limits="[null, 0.1]", old=old)
+    text = (tmp_path / "s.yaml").read_text(encoding="utf-8")
+    (tmp_path / "s.yaml").write_text(text.replace("    limits:", "    distribution: any\n"
+                                                  "    limits:"), encoding="utf-8")
+    spec = load_spec(tmp_path / "s.yaml")
+    (c,) = vplan.plan_spec(spec, load_measurements(spec), vplan.Options()).conformance
+    # distribution-free, one-sided 99% / 95%: 299 parts (reference file
+    # nonparametric-tolerance.csv; common practice)
+    assert c.n_needed == 299 and "order statistics" in c.method
+    (tmp_path / "s.yaml").write_text(text.replace("    limits:", "    distribution: lognormal\n"
+                                                  "    limits:"), encoding="utf-8")
+    spec = load_spec(tmp_path / "s.yaml")
+    (c,) = vplan.plan_spec(spec, load_measurements(spec),
+                           vplan.Options(mean=0.03, sd=0.01)).conformance
+    s2 = math.log1p((0.01 / 0.03) ** 2)
+    room = (math.log(0.1) - (math.log(0.03) - s2 / 2)) / math.sqrt(s2)
+    from verify.stats.tolerance import factor_one_sided
+
+    assert factor_one_sided(c.n_needed, 0.99, 0.95) <= room
+    assert factor_one_sided(c.n_needed - 1, 0.99, 0.95) > room

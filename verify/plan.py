@@ -704,15 +704,39 @@ def conformance_plans(spec: Spec, meas: Measurements | None, opts: Options
         lower = ch.lower if conf.side in ("two-sided", "lower") else None
         upper = ch.upper if conf.side in ("two-sided", "upper") else None
         n = k = note = None
-        try:
-            n = tolerance.sample_size_normal(mean=mean, sd=sd, lower=lower, upper=upper,
-                                             coverage=conf.coverage,
-                                             confidence=conf.confidence, side=conf.side)
-            k = tolerance.factor(n, conf.coverage, conf.confidence, conf.side)
-        except StatsError as err:
-            note = str(err)
         method = (tolerance.METHOD_TWO_SIDED if conf.side == "two-sided"
                   else tolerance.METHOD_ONE_SIDED)
+        dist = ch.distribution
+        try:
+            if dist == "any":
+                # distribution-free limits: the size depends on coverage and confidence only
+                n = tolerance.order_sample_size(conf.coverage, conf.confidence, conf.side)
+                method = tolerance.METHOD_ORDER
+            elif dist == "lognormal":
+                # the assumed mean and sd of the parts as a lognormal's meanlog and sdlog
+                # (moment matching), the limits on the log scale (a limit at or below 0 is
+                # never reached by a lognormal part)
+                s2 = math.log1p((sd / mean) ** 2) if mean > 0 else math.nan
+                if not s2 > 0:
+                    raise ValueError("a lognormal plan needs an assumed mean above 0")
+                mu = math.log(mean) - s2 / 2
+                lo = None if lower is None else (math.log(lower) if lower > 0 else -math.inf)
+                hi = None if upper is None else math.log(upper)
+                n = tolerance.sample_size_normal(mean=mu, sd=math.sqrt(s2), lower=lo, upper=hi,
+                                                 coverage=conf.coverage,
+                                                 confidence=conf.confidence, side=conf.side)
+                k = tolerance.factor(n, conf.coverage, conf.confidence, conf.side)
+                method += ", on ln x (assumed mean and sd matched to a lognormal)"
+            elif dist in ("weibull", "box-cox"):
+                note = (f"not planned for distribution: {dist} (its limits depend on the fit); "
+                        "plan with the normal or lognormal model as an approximation")
+            else:
+                n = tolerance.sample_size_normal(mean=mean, sd=sd, lower=lower, upper=upper,
+                                                 coverage=conf.coverage,
+                                                 confidence=conf.confidence, side=conf.side)
+                k = tolerance.factor(n, conf.coverage, conf.confidence, conf.side)
+        except (StatsError, ValueError) as err:
+            note = str(err)
         out.append(ConformancePlan(
             characteristic=ch.name, unit=ch.unit, coverage=conf.coverage,
             confidence=conf.confidence, side=conf.side, lower=lower, upper=upper, mean=mean,

@@ -1182,7 +1182,13 @@ def _multiplicity(sh: _Sheet, ev: Evaluation) -> None:
     family = [
         (c.name, ch) for c in ev.characteristics for ch in c.checks if ch.p_adjusted is not None
     ]
-    if method not in ("holm", "bonferroni") or not family:
+    # the per-stream tests (data.stream) are members too; their p-values enter as the engine's
+    # values, since this sheet does not rebuild the per-stream tests
+    streams = [
+        (f"{c.name} [stream {st.name}]", ch) for c in ev.characteristics for st in c.streams
+        for ch in st.checks if ch.p_adjusted is not None
+    ]
+    if method not in ("holm", "bonferroni") or not (family or streams):
         return
     sh.heading(f"Multiplicity: {method} adjustment of the p-values of the family (difference "
                "and spread tests)")
@@ -1197,6 +1203,13 @@ def _multiplicity(sh: _Sheet, ev: Evaluation) -> None:
         sh.qty(f"p: {name}, {ch.check}", sh.family_p[(name, ch.check)], None, "the p-value above")
         for name, ch in family
     ]
+    p_cells += [
+        sh.param(f"p: {name}, {ch.check}", float(ch.p_value),
+                 "the engine's p-value of the stream's test (a value: the per-stream tests "
+                 "are not rebuilt on this sheet)")
+        for name, ch in streams
+    ]
+    family = family + streams
     ps = f"$B${first}:$B${sh.next_row - 1}"
     m = sh.qty("m, the number of tests in the family", f"COUNT({ps})", len(family), "COUNT")
     if method == "bonferroni":
