@@ -14,6 +14,7 @@ import numpy as np
 import pytest
 
 from verify.stats import power
+from verify.stats.errors import StatsError
 
 GRID = [
     # design, n_new, n_old, sd_old
@@ -111,3 +112,51 @@ def test_sample_size_with_vectorised_window_equals_stepwise(design, shift, sd, m
 def test_unknown_quadrature_is_refused():
     with pytest.raises(ValueError, match="quadrature"):
         power.power_tost(0.0, 1.0, 10, design="one-sample", low=-1, high=1, quadrature="simpson")
+
+
+def _one_at_a_time(q):
+    def attempt(fn, *args, **kw):
+        try:
+            return fn(*args, **kw)
+        except (StatsError, ValueError):
+            return None
+
+    pw = attempt(power.power_tost, q["true_shift"], q["sd"], q["n_new"], q["n_old"],
+                 design=q["design"], alpha=q["alpha"], low=q["low"], high=q["high"],
+                 sd_old=q["sd_old"])
+    size = attempt(power.sample_size_tost, q["true_shift"], q["sd"], design=q["design"],
+                   alpha=q["alpha"], low=q["low"], high=q["high"], power=q["power"],
+                   ratio=q["ratio"], sd_old=q["sd_old"])
+    return pw, size
+
+
+def test_many_questions_in_one_pass_equal_one_at_a_time():
+    rng = np.random.default_rng(3)
+    questions = []
+    for design in ("one-sample", "paired", "pooled", "welch"):
+        for _ in range(12):
+            n = int(rng.integers(2, 80))
+            questions.append(dict(
+                true_shift=float(rng.choice([0.0, 0.003, -0.008])),
+                sd=float(rng.uniform(0.002, 0.02)), n_new=n,
+                n_old=None if design == "one-sample" else (n if design == "paired"
+                                                           else int(rng.integers(2, 80))),
+                design=design, alpha=float(rng.choice([0.05, 0.01])), low=-0.01,
+                high=float(rng.choice([0.01, 0.02])), power=0.9,
+                ratio=1.0 if design in ("one-sample", "paired") else float(
+                    rng.choice([1.0, 0.5])),
+                sd_old=float(rng.uniform(0.002, 0.02)) if design == "welch" else None))
+    # questions that fail one way or another: the answer is None, as the call would raise
+    questions.append(dict(questions[0], true_shift=0.05))  # outside the margins: no n
+    questions.append(dict(questions[0], sd=-1.0))  # a bad sd: neither figure
+    questions.append(dict(questions[-3], sd_old=0.01, design="pooled", n_old=5))
+    together = power.plan_tost_many(questions)
+    for q, (pw, size) in zip(questions, together, strict=True):
+        ref_pw, ref_size = _one_at_a_time(q)
+        assert (pw is None) == (ref_pw is None) and (size is None) == (ref_size is None)
+        if pw is not None:
+            assert pw == pytest.approx(ref_pw, abs=1e-15)
+        if size is not None:
+            assert (size.n_new, size.n_old) == (ref_size.n_new, ref_size.n_old)
+            assert size.power == pytest.approx(ref_size.power, abs=1e-15)
+    assert together[-3][1] is None and together[-2] == (None, None)

@@ -278,3 +278,26 @@ def test_historical_old_data_accepted_as_they_are(tmp_path):
     assert ev.characteristic("x").decision == "PASS"
     assert ("min_n.old", "0", False) in ev.spec.resolved
     assert ev.spec.min_n_text == "old 0, new 30"
+
+
+# --- verify check says which test runs on which structure ------------------------------------
+
+
+def test_verify_check_names_the_structure_and_the_new_keys(tmp_path):
+    from verify.cli import describe_plan
+
+    _, _, rows = _split_pairs(n=12)
+    spec = _load(tmp_path, rows,
+                 "  pair: pair\nmin_n: {old: 0, new: 20}\ncharacteristics:\n"
+                 "  - name: x\n    unit: mm\n    limits: [40, 70]\n    checks:\n"
+                 "      shift: {design: welch}\n      spread:\n"
+                 "      capability: {index: ppk, min: 1.67, judge: lower_bound}\n"
+                 "  - name: y\n    column: x\n    unit: mm\n    checks:\n"
+                 "      spread: {design: independent}\n")
+    text = "\n".join(describe_plan(spec, load_measurements(spec)))
+    assert "min_n old 0, new 20" in text
+    assert "pairs: 12 matched, 0 unmatched; fewer than min_n 20 (the pairs are the units)" in text
+    assert "Pitman-Morgan on the matched pairs, one-sided, design paired" in text
+    assert "design independent: the declared pairs are ignored" in text
+    assert "lower 95% bound of new Ppk at least 1.67 (overall sd; index ppk, judge " \
+           "lower_bound)" in text

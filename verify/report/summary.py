@@ -100,6 +100,9 @@ def main_check(c: CharacteristicResult) -> CheckResult | None:
 def _plan_words(ev: Evaluation) -> str:
     min_n = ev.spec.min_n_text
     unit = {"part": "parts", "lot": "lots"}.get(ev.spec.unit_of_analysis, "units")
+    if min_n is not None and ev.spec.min_n_old is not None:  # a plan per process
+        return (f"{unit}: {min_n}" + ("; final run" if ev.final else
+                                      "; below it a characteristic is PENDING"))
     if min_n is None:
         return "none declared (min_n): the checks decide on the data there are"
     if ev.final:

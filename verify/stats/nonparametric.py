@@ -111,9 +111,9 @@ def average_ranks(a: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return ranks, sizes
 
 
-def _ties(units: np.ndarray) -> tuple[int, int]:
-    """(number of tie groups, number of values in them) for grid values."""
-    _, sizes = average_ranks(units)
+def _tie_counts(sizes: np.ndarray) -> tuple[int, int]:
+    """(number of tie groups, number of values in them) from the sizes of groups of equal
+    values."""
     tied = sizes[sizes > 1]
     return int(tied.size), int(tied.sum())
 
@@ -252,8 +252,11 @@ def wilcoxon_signed_rank(
             f"all {raw.size} differences are zero: the signed-rank test has nothing to rank"
         )
     ranked_units = units[nonzero] if zero_method == "wilcox" else units
-    groups, tied_values = _ties(np.abs(units[nonzero]))
     ranks, sizes = average_ranks(np.abs(ranked_units))
+    # ties among the non-zero |differences|: with Pratt the zeros are ranked too and sort
+    # first, as one group that is not a tie of the ranked differences
+    nonzero_sizes = sizes[1:] if (zero_method == "pratt" and n_zero) else sizes
+    groups, tied_values = _tie_counts(nonzero_sizes)
     w_plus = float(np.sum(ranks[ranked_units > 0]))
     n_nonzero = int(np.count_nonzero(nonzero))
     exact = (
@@ -319,10 +322,10 @@ def mann_whitney(
     units, _ = snap_to_grid(np.concatenate((a, b)))
     if np.all(units == units[0]):
         raise DegenerateDataError("all values are identical: the rank test has no information")
-    groups, tied_values = _ties(units)
+    ranks, sizes = average_ranks(units)
+    groups, tied_values = _tie_counts(sizes)
     n_old, n_new = int(a.size), int(b.size)
     exact = groups == 0 and n_old < EXACT_MAX_N and n_new < EXACT_MAX_N
-    ranks, sizes = average_ranks(units)
     u_new = float(np.sum(ranks[n_old:]) - n_new * (n_new + 1) / 2.0)
     if exact:
         pvalue = _exact_p(rank_sum_counts(n_old, n_new), math.comb(n_old + n_new, n_old),

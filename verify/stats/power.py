@@ -39,7 +39,7 @@ import numpy as np
 from scipy import integrate, optimize, special
 
 from ._checks import check_harmful, check_margins, finite, number, positive
-from .core import check_alternative, critical_value, t_cdf
+from .core import check_alternative, critical_value, t_cdf, t_quantile
 from .errors import NotApplicableError
 from .ttests import DESIGNS, check_design
 
@@ -103,15 +103,24 @@ def _plan(
                 raise ValueError("the one-sample design has no old lot: leave n_old out")
             if _count(n_old, "n_old") != n1:
                 raise ValueError("for paired data n_old must equal n_new (the number of pairs)")
-        return s1 / math.sqrt(n1), float(n1 - 1)
+        return _tau_df(design, s1, None, n1, None)
     if n_old is None:
         raise ValueError(f"the {design} design needs n_old")
     n2 = _count(n_old, "n_old")
     if design == "pooled":
         if sd_old is not None:
             raise ValueError("the pooled design assumes one common sd: leave sd_old out")
-        return s1 * math.sqrt(1.0 / n1 + 1.0 / n2), float(n1 + n2 - 2)
+        return _tau_df(design, s1, None, n1, n2)
     s2 = s1 if sd_old is None else positive(sd_old, "sd_old")
+    return _tau_df(design, s1, s2, n1, n2)
+
+
+def _tau_df(design: str, s1: float, s2: float | None, n1: int, n2: int | None):
+    """(tau, df) from validated inputs (see :func:`_plan`)."""
+    if design in ("one-sample", "paired"):
+        return s1 / math.sqrt(n1), float(n1 - 1)
+    if design == "pooled":
+        return s1 * math.sqrt(1.0 / n1 + 1.0 / n2), float(n1 + n2 - 2)
     a = s1 / math.sqrt(n1)
     b = s2 / math.sqrt(n2)
     tau = math.hypot(a, b)
@@ -341,12 +350,12 @@ def power_tost(
     return _clip01(_expect_over_sd(g, df, upper=s_max, points=points))
 
 
-def _tost_power_many(delta: float, lo: float, hi: float, taus: np.ndarray, dfs: np.ndarray,
-                     alpha: float) -> np.ndarray:
+def _tost_power_many(delta, lo, hi, taus: np.ndarray, dfs: np.ndarray, alpha) -> np.ndarray:
     """TOST power for several (tau, df) at once by fixed Gauss-Legendre quadrature.
 
     The same integral as the adaptive route: E[P(low + c tau S < est < high - c tau S)] over
-    S, on the central 1 - 2e-20 of S's range, cut at the quartiles and the 1e-9 quantiles of S
+    S, on the central 1 - 2e-20 of S's range (``delta``, ``lo``, ``hi`` and ``alpha`` may be
+    arrays, one entry per case), cut at the quartiles and the 1e-9 quantiles of S
     and at the steep points ``z/c + k/c`` (k = -3, 0, 3) of the normal probabilities; a piece
     gets :data:`GL_POINTS` nodes (:data:`GL_TAIL_POINTS` in the outer 1e-9 tails), and all
     cases are evaluated in one pass.
@@ -354,9 +363,9 @@ def _tost_power_many(delta: float, lo: float, hi: float, taus: np.ndarray, dfs: 
     taus = np.asarray(taus, dtype=float)
     dfs = np.asarray(dfs, dtype=float)
     h = 0.5 * dfs
-    c = special.stdtrit(dfs, 1.0 - alpha)
-    upper_z = (hi - delta) / taus
-    lower_z = (lo - delta) / taus
+    c = special.stdtrit(dfs, 1.0 - np.asarray(alpha, dtype=float))
+    upper_z = (np.asarray(hi, dtype=float) - delta) / taus
+    lower_z = (np.asarray(lo, dtype=float) - delta) / taus
     s_max = (upper_z - lower_z) / (2.0 * c)
     s_lo = np.sqrt(2.0 * special.gammaincinv(h, 1e-20) / dfs)
     s_hi = np.minimum(np.sqrt(2.0 * special.gammainccinv(h, 1e-20) / dfs), s_max)
@@ -365,30 +374,27 @@ def _tost_power_many(delta: float, lo: float, hi: float, taus: np.ndarray, dfs: 
     ] + [np.sqrt(2.0 * special.gammainccinv(h, q) / dfs) for q in (0.25, 1e-9)] + [
         z / c + k / c for z in (upper_z, -lower_z) for k in (-3.0, 0.0, 3.0)
     ])
-    pieces: dict[bool, tuple[list, list, list]] = {False: ([], [], []), True: ([], [], [])}
-    for i in range(taus.size):
-        a, b = float(s_lo[i]), float(s_hi[i])
-        if not b > a:
-            continue  # the acceptance region is empty: power 0
-        inner = sorted({float(x) for x in cuts[i] if a < x < b})
-        edges = [a, *inner, b]
-        q_lo, q_hi = float(cuts[i, 0]), float(cuts[i, 4])  # the 1e-9 quantiles
-        for left, right in zip(edges[:-1], edges[1:], strict=True):
-            lefts, rights, case = pieces[right <= q_lo or left >= q_hi]
-            lefts.append(left)
-            rights.append(right)
-            case.append(i)
+    # the pieces of every case at once: its edges sorted, cuts outside (s_lo, s_hi) clipped
+    # onto its ends, so that they (and repeated cuts) give empty pieces, which are dropped
+    inner = np.clip(cuts, s_lo[:, None], s_hi[:, None])
+    edges = np.sort(np.column_stack([s_lo, inner, s_hi]), axis=1)
+    left, right = edges[:, :-1], edges[:, 1:]
+    keep = (right > left) & (s_hi > s_lo)[:, None]  # s_hi <= s_lo: empty acceptance region
+    tail = (right <= cuts[:, [0]]) | (left >= cuts[:, [4]])  # beyond the 1e-9 quantiles
+    owner = np.broadcast_to(np.arange(taus.size)[:, None], left.shape)
     out = np.zeros(taus.size)
     k0_all = np.array([_sd_ratio_log_constant(float(d)) for d in dfs])
-    for tail, (lefts, rights, case) in pieces.items():
-        if not case:
+    for is_tail in (False, True):
+        sel = keep & (tail == is_tail)
+        if not sel.any():
             continue
-        gx, gw = (_GL_TAIL_X, _GL_TAIL_W) if tail else (_GL_X, _GL_W)
+        lefts, rights, case = left[sel], right[sel], owner[sel]
+        gx, gw = (_GL_TAIL_X, _GL_TAIL_W) if is_tail else (_GL_X, _GL_W)
         # in t = log s the density's factor s^(df - 1) is smooth even for df near 1, where on
         # the s scale it bends sharply near 0
-        left, right = np.log(lefts), np.log(rights)
-        half = 0.5 * (right - left)
-        t = (0.5 * (right + left))[:, None] + half[:, None] * gx  # pieces x nodes
+        log_l, log_r = np.log(lefts), np.log(rights)
+        half = 0.5 * (log_r - log_l)
+        t = (0.5 * (log_r + log_l))[:, None] + half[:, None] * gx  # pieces x nodes
         e = np.expm1(t)  # s - 1, accurate near s = 1
         nodes = 1.0 + e
         weights = half[:, None] * gw * nodes  # ds = s dt
@@ -563,6 +569,21 @@ def _check_ratio(design: str, ratio: float) -> float:
     return r
 
 
+_NO_GUESS = object()
+
+
+def _n_max(design: str, ratio: float) -> int:
+    if design in ("one-sample", "paired"):
+        return MAX_N
+    # both n_new and n_old = ceil(n_new / ratio) must stay within MAX_N
+    return max(2, min(MAX_N, math.floor(MAX_N * ratio + 1e-9)))
+
+
+def _window(design: str, ratio: float, n0: int) -> list[int]:
+    """The lot sizes around a guess whose exact power is computed together."""
+    return list(range(max(2, n0 - WINDOW[0]), min(_n_max(design, ratio), n0 + WINDOW[1]) + 1))
+
+
 def _smallest_n(
     power_at: Callable[[int, int | None], float],
     design: str,
@@ -571,6 +592,7 @@ def _smallest_n(
     *,
     approx: Callable[[int, int | None], float] | None = None,
     many: Callable[[list[int]], list[float]] | None = None,
+    guess: int | None | object = _NO_GUESS,
 ) -> SampleSize:
     """Smallest n_new (n_old following by ratio) with power >= target.
 
@@ -580,25 +602,26 @@ def _smallest_n(
     or three exact evaluations instead of a dozen; the answer is the same. With ``many`` (the
     exact power for a list of n_new in one vectorised pass), the lot sizes around the guess
     are evaluated together first; the stepping then reads them (and computes any other one
-    singly), so the answer is again the same.
+    singly), so the answer is again the same. ``guess`` gives the approximate search's answer
+    when the caller has it already (None: it found none).
     """
-    if design in ("one-sample", "paired"):
-        n_max = MAX_N
-    else:  # both n_new and n_old = ceil(n_new / ratio) must stay within MAX_N
-        n_max = max(2, min(MAX_N, math.floor(MAX_N * ratio + 1e-9)))
+    n_max = _n_max(design, ratio)
 
     def pw(n: int) -> float:
         return power_at(n, _old_size(design, n, ratio))
 
     if approx is not None:
-        try:
-            n0 = _smallest_n(approx, design, ratio, target).n_new
-        except NotApplicableError:
-            n0 = None
+        if guess is _NO_GUESS:
+            try:
+                n0 = _smallest_n(approx, design, ratio, target).n_new
+            except NotApplicableError:
+                n0 = None
+        else:
+            n0 = guess
         if n0 is not None:
             step_pw = pw
             if many is not None:
-                window = list(range(max(2, n0 - WINDOW[0]), min(n_max, n0 + WINDOW[1]) + 1))
+                window = _window(design, ratio, n0)
                 known = dict(zip(window, many(window), strict=True))
 
                 def step_pw(n: int) -> float:
@@ -739,36 +762,134 @@ def sample_size_tost(
     >>> s.n_new, s.power >= 0.9
     (23, True)
     """
-    check_design(design)
-    a = _alpha(alpha, 0.5)
-    target = _target_power(power)
-    delta = finite(true_shift, "true_shift")
-    lo, hi = check_margins(low, high)
-    r = _check_ratio(design, ratio)
-    positive(sd, "sd")
-    if not lo < delta < hi:
-        raise NotApplicableError(
-            f"the true shift {delta:g} is not inside the equivalence margins ({lo:g}, {hi:g}):"
-            " equivalence cannot be shown at any sample size"
-        )
+    setup = _TostSize(true_shift, sd, design=design, alpha=alpha, low=low, high=high,
+                      power=power, ratio=ratio, sd_old=sd_old)
+    return _smallest_n(setup.power_at, design, setup.ratio, setup.target,
+                       approx=setup.approx_at, many=setup.power_many)
 
-    def power_at(n_new: int, n_old: int | None) -> float:
-        return power_tost(
-            delta, sd, n_new, n_old, design=design, alpha=a, low=lo, high=hi, sd_old=sd_old
-        )
 
-    def approx_at(n_new: int, n_old: int | None) -> float:
-        return power_tost_shifted_t(
-            delta, sd, n_new, n_old, design=design, alpha=a, low=lo, high=hi, sd_old=sd_old
-        )
+class _TostSize:
+    """A validated TOST sample-size question and its power functions."""
 
-    def power_many(ns: list[int]) -> list[float]:
-        plans = [_plan(design, sd, n, _old_size(design, n, r), sd_old) for n in ns]
-        taus = np.array([p[0] for p in plans])
-        dfs = np.array([p[1] for p in plans])
-        return [float(x) for x in _tost_power_many(delta, lo, hi, taus, dfs, a)]
+    def __init__(self, true_shift, sd, *, design, alpha, low, high, power, ratio, sd_old):
+        check_design(design)
+        self.a = _alpha(alpha, 0.5)
+        self.target = _target_power(power)
+        self.delta = finite(true_shift, "true_shift")
+        self.lo, self.hi = check_margins(low, high)
+        self.ratio = _check_ratio(design, ratio)
+        self.s1 = positive(sd, "sd")
+        self.design, self.sd, self.sd_old = design, sd, sd_old
+        if design == "welch":
+            self.s2 = self.s1 if sd_old is None else positive(sd_old, "sd_old")
+        else:
+            if sd_old is not None:  # as _plan refuses it
+                raise ValueError("the pooled design assumes one common sd: leave sd_old out"
+                                 if design == "pooled" else
+                                 f"sd_old applies only to the welch design, not {design!r}")
+            self.s2 = None
+        if not self.lo < self.delta < self.hi:
+            raise NotApplicableError(
+                f"the true shift {self.delta:g} is not inside the equivalence margins "
+                f"({self.lo:g}, {self.hi:g}): equivalence cannot be shown at any sample size"
+            )
 
-    return _smallest_n(power_at, design, r, target, approx=approx_at, many=power_many)
+    def power_at(self, n_new: int, n_old: int | None) -> float:
+        return power_tost(self.delta, self.sd, n_new, n_old, design=self.design, alpha=self.a,
+                          low=self.lo, high=self.hi, sd_old=self.sd_old)
+
+    def _tau_df(self, n_new: int, n_old: int | None) -> tuple[float, float]:
+        # inputs validated once, in __init__: the arithmetic of _plan without its checks
+        return _tau_df(self.design, self.s1, self.s2, n_new, n_old)
+
+    def approx_at(self, n_new: int, n_old: int | None) -> float:
+        """:func:`power_tost_shifted_t` (the same arithmetic, validated once)."""
+        tau, df = self._tau_df(n_new, n_old)
+        c = t_quantile(1.0 - self.a, df)
+        return _clip01(t_cdf((self.hi - self.delta) / tau - c, df)
+                       - t_cdf((self.lo - self.delta) / tau + c, df))
+
+    def case(self, n: int) -> tuple:
+        """(delta, low, high, tau, df, alpha) of the exact power at n_new = n."""
+        tau, df = self._tau_df(n, _old_size(self.design, n, self.ratio))
+        return self.delta, self.lo, self.hi, tau, df, self.a
+
+    def power_many(self, ns: list[int]) -> list[float]:
+        return [float(x) for x in _tost_power_cases([self.case(n) for n in ns])]
+
+    def guess(self) -> int | None:
+        """n_new by the shifted-t approximation (None where it finds none)."""
+        try:
+            return _smallest_n(self.approx_at, self.design, self.ratio, self.target).n_new
+        except NotApplicableError:
+            return None
+
+
+def _tost_power_cases(cases: list[tuple]) -> np.ndarray:
+    """Exact TOST power for cases (delta, low, high, tau, df, alpha) in one pass."""
+    if not cases:
+        return np.zeros(0)
+    cols = np.array(cases, dtype=float).T
+    return _tost_power_many(cols[0], cols[1], cols[2], cols[3], cols[4], cols[5])
+
+
+def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, SampleSize | None]]:
+    """:func:`power_tost` and :func:`sample_size_tost` for many questions in one pass.
+
+    Each question is a dict of the keyword arguments both take (``true_shift``, ``sd``,
+    ``n_new``, ``n_old``, ``design``, ``alpha``, ``low``, ``high``, ``sd_old``) plus the target
+    ``power`` and ``ratio`` of the sample-size search. Returns (power, sample size) per
+    question, each equal to the one-at-a-time call's result, or None where that call raises a
+    :class:`~verify.stats.errors.StatsError` or ``ValueError``. The exact powers of every
+    question (its lot sizes and the lot sizes around each sample-size guess) are integrated
+    together, which costs far less than one pass per question.
+    """
+    from .errors import StatsError
+
+    cases: list[tuple] = []
+    owners: list[tuple[int, int | None]] = []  # (question, n) per case; n None: the power
+    sizes: list[tuple[int, _TostSize, int | None]] = []
+    for i, q in enumerate(questions):
+        try:
+            a = _alpha(q["alpha"], 0.5)
+            delta = finite(q["true_shift"], "true_shift")
+            lo, hi = check_margins(q["low"], q["high"])
+            tau, df = _plan(q["design"], q["sd"], q["n_new"], q["n_old"], q["sd_old"])
+            cases.append((delta, lo, hi, tau, df, a))
+            owners.append((i, None))
+        except (StatsError, ValueError):
+            pass
+        try:
+            setup = _TostSize(q["true_shift"], q["sd"], design=q["design"], alpha=q["alpha"],
+                              low=q["low"], high=q["high"], power=q["power"],
+                              ratio=q["ratio"], sd_old=q["sd_old"])
+            n0 = setup.guess()
+            if n0 is not None:
+                for n in _window(q["design"], setup.ratio, n0):
+                    cases.append(setup.case(n))
+                    owners.append((i, n))
+            sizes.append((i, setup, n0))
+        except (StatsError, ValueError):
+            pass
+    values = _tost_power_cases(cases)
+    powers: list[float | None] = [None] * len(questions)
+    known: dict[int, dict[int, float]] = {}
+    for (i, n), v in zip(owners, values.tolist(), strict=True):
+        if n is None:
+            powers[i] = v
+        else:
+            known.setdefault(i, {})[n] = v
+    results: list[SampleSize | None] = [None] * len(questions)
+    for i, setup, n0 in sizes:
+        mine = known.get(i, {})
+        try:
+            results[i] = _smallest_n(setup.power_at, setup.design, setup.ratio, setup.target,
+                                     approx=setup.approx_at,
+                                     many=lambda ns, mine=mine: [mine[n] for n in ns],
+                                     guess=n0)
+        except (StatsError, ValueError):
+            results[i] = None
+    return list(zip(powers, results, strict=True))
 
 
 def sample_size_noninferiority(
@@ -823,6 +944,7 @@ __all__ = [
     "power_noninferiority",
     "power_t",
     "power_tost",
+    "plan_tost_many",
     "power_tost_shifted_t",
     "sample_size_noninferiority",
     "sample_size_t",
