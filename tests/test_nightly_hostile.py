@@ -125,3 +125,77 @@ def test_a_spec_that_is_a_fifo_is_an_error_not_a_stall(tmp_path):
     result, _, _ = nightly(folder, tmp_path / "out", spec_timeout=60)
     assert states(result).get("good") == ("RUN", "PASS")
     assert "pipe" not in states(result) or states(result)["pipe"][0] == "ERROR"
+
+
+def _children(pid: int) -> list[int]:
+    """Processes whose parent is ``pid`` (Linux /proc)."""
+    out = []
+    for stat in Path("/proc").glob("[0-9]*/stat"):
+        try:
+            fields = stat.read_text().rsplit(")", 1)[1].split()
+        except (OSError, IndexError):
+            continue
+        if int(fields[1]) == pid and fields[0] != "Z":
+            out.append(int(stat.parent.name))
+    return out
+
+
+@pytest.mark.slow
+@pytest.mark.skipif(not Path("/proc/self/stat").exists(), reason="needs Linux /proc")
+def test_killing_the_parent_alone_stops_its_workers_and_leaves_no_unrecorded_result(tmp_path):
+    import signal
+    import sqlite3
+    import subprocess
+    import sys
+    import time
+
+    from test_nightly import REPO, _wait_for
+
+    folder = tmp_path / "specs"
+    n = 12
+    for i in range(n):
+        write_spec(folder, f"spec{i:02d}")
+    out = tmp_path / "nightly"
+    proc = subprocess.Popen([sys.executable, "-m", "verify.nightly", str(folder), "--out",
+                             str(out), "--jobs", "2"], cwd=REPO, stdout=subprocess.PIPE,
+                            stderr=subprocess.PIPE, text=True)
+    ledger = out / "ledger.sqlite"
+
+    def entries() -> int:
+        if not ledger.exists():
+            return 0
+        con = sqlite3.connect(f"file:{ledger}?mode=ro", uri=True, timeout=5)
+        try:
+            return con.execute("SELECT COUNT(*) FROM entries WHERE state = 'RUN'").fetchone()[0]
+        except sqlite3.OperationalError:
+            return 0
+        finally:
+            con.close()
+
+    try:
+        _wait_for(lambda: entries() >= 2, timeout=120)
+        workers = _children(proc.pid)
+        assert workers  # the evaluation pool is at work
+    finally:
+        proc.send_signal(signal.SIGKILL)  # the parent only, as an OOM killer would
+        proc.communicate(timeout=30)
+    def alive(pid: int) -> bool:
+        try:
+            return Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()[0] != "Z"
+        except (OSError, IndexError):
+            return False
+
+    deadline = time.monotonic() + 30
+    while any(alive(w) for w in workers) and time.monotonic() < deadline:
+        time.sleep(0.1)
+    assert not [w for w in workers if alive(w)]  # the workers noticed their parent was gone
+    with Ledger.open(ledger) as led:
+        named = led.named_outputs()
+        recorded = len(led.entries())
+    for f in out.glob("*/*"):  # every visible result has the entry that names it
+        if f.suffix in (".xlsx", ".json") and f.name != "latest.json":
+            assert (f.parent.name, f.name) in named, f
+    assert recorded < n
+    result, _, _ = nightly(folder, out)  # the next run finishes the work and clears up
+    assert {s for s, _ in states(result).values()} <= {"RUN", "UNCHANGED"}
+    assert list(out.rglob("*.part*")) == []
