@@ -10,7 +10,9 @@ It writes, next to this script:
   new one (Marrowfield), four lots each, wide layout (one column per characteristic).
 - ``filler_split_batches.xlsx``: each syrup batch split between the old rotary filling head
   (H1) and the new servo head (H2), five bottle positions per head, paired by ``sample``.
-  The servo head's sealing jaw runs cooler, so seal strength drops by about 1.8 N.
+  The servo head's sealing jaw runs cooler, so seal strength drops by about 1.8 N. Beside the
+  measurements: the leak test of each bottle (pass / LEAK) and, on the first row of each batch
+  and head, the vision system's cap inspection of the whole run (inspected, rejected).
 - ``closure_mould_cavities.csv``: a closure cap moulded in the old single-cavity mould (M1)
   and in the new four-cavity mould (M4, cavities C1 to C4); cavity C3 runs about 0.036 mm
   tall. The gate vestige left by the runner is bounded at zero and right-skewed (lognormal).
@@ -102,6 +104,7 @@ def filler(rng: np.random.Generator):
                 when = start + dt.timedelta(days=b, minutes=6 * t)
                 ws.append([batch, head, f"{batch}/{pos}", when, float(fill), float(seal)])
     ws.cell(row=ws.max_row - 6, column=6).value = "NA"  # seal strip torn in the tester
+    _filler_inspections(ws)
     ws.column_dimensions["C"].width = 12
     ws.column_dimensions["D"].width = 18
     for row in ws.iter_rows(min_row=2, min_col=4, max_col=4):
@@ -110,6 +113,28 @@ def filler(rng: np.random.Generator):
     buf = io.BytesIO()
     wb.save(buf)
     return _fixed_zip(buf.getvalue())
+
+
+def _filler_inspections(ws) -> None:
+    """Pass/fail results beside the measurements, from a generator of their own (so that the
+    measured values above stay as they were): the leak test of every sampled bottle (per-part
+    results), and the vision system's cap inspection of each batch's whole run on each head
+    (per-lot counts, on the first row of the batch and head)."""
+    rng = np.random.default_rng(SEED + 15)
+    ws.cell(row=1, column=7).value = "leak_test"
+    ws.cell(row=1, column=8).value = "caps_inspected"
+    ws.cell(row=1, column=9).value = "caps_rejected"
+    leak_rate = {"H1 rotary": 0.03, "H2 servo": 0.01}
+    reject_rate = {"H1 rotary": 0.0046, "H2 servo": 0.0041}
+    seen = set()
+    for r in range(2, ws.max_row + 1):
+        batch, head = ws.cell(row=r, column=1).value, ws.cell(row=r, column=2).value
+        ws.cell(row=r, column=7).value = "LEAK" if rng.random() < leak_rate[head] else "pass"
+        if (batch, head) not in seen:
+            seen.add((batch, head))
+            n = int(rng.integers(2300, 2500))
+            ws.cell(row=r, column=8).value = n
+            ws.cell(row=r, column=9).value = int(rng.binomial(n, reject_rate[head]))
 
 
 def _fixed_zip(data: bytes) -> bytes:

@@ -21,6 +21,7 @@ verified.
 
 from __future__ import annotations
 
+import csv
 import dataclasses
 import math
 import shutil
@@ -369,3 +370,66 @@ def test_demo_workbooks_recalculate_to_the_engine_values(soffice, tmp_path):
     assert [(c.name, c.unavailable) for c in checked if c.unavailable] == []
     # the issue asks for every design on the demo workbooks themselves
     assert covered(checked) == set(COVERAGE)
+
+
+# --- pass-fail characteristics: the exact bound and the score intervals ---------------------------
+
+
+def test_spreadsheet_reproduces_published_rate_values(soffice, tmp_path, reference_dir):
+    # per-lot counts of Newcombe (1998, Statistics in Medicine 17:873-890) Table II examples
+    # (a) 56/70 vs 48/80 and (b) 9/10 vs 3/10 (new first), and 0 failures among 59 parts
+    # per-part (the success-run example of common practice: 95% / 5%)
+    rows = ["lot,process,inspected,failed,result"]
+    rows += ["A1,new,70,56,", "A2,old,80,48,", "B1,new,10,9,", "B2,old,10,3,"]
+    rows += [f"N{i},new,,,ok" for i in range(59)] + [f"O{i},old,,,{'bad' if i < 2 else 'ok'}"
+                                                      for i in range(40)]
+    (tmp_path / "rates.csv").write_text("\n".join(rows) + "\n", encoding="utf-8")
+    (tmp_path / "rates.yaml").write_text(textwrap.dedent("""\
+        format: verify/1
+        title: Reference values, rates
+        alpha: 0.025
+        multiplicity: holm
+        data: {file: rates.csv, lot: lot, process: process, old: old, new: new}
+        characteristics:
+          - {name: ex_a, kind: pass-fail, unit: u, counts: {inspected: inspected, failed: failed},
+             checks: {rate_shift: {margin: 0.5}}}
+          - {name: ex_a_score, kind: pass-fail, unit: u,
+             counts: {inspected: inspected, failed: failed},
+             checks: {rate_shift: {margin: 0.5, method: score}}}
+          - {name: parts, kind: pass-fail, unit: u, column: result, fail: [bad], pass: [ok],
+             checks: {rate: {max: 0.05, confidence: 0.95}, rate_shift: {}}}
+        exclude:
+          - {lot: "B*", reason: example (b) is checked apart, by: "QE-00, test"}
+        """), encoding="utf-8")
+    path = tmp_path / "rates.xlsx"
+    ev = evaluate_spec(tmp_path / "rates.yaml")
+    formulas = write_minimal_workbook(ev, path)
+    got = assert_recheck_agrees("rates", formulas, recalculate(soffice, [path], tmp_path)[path])
+
+    def sheet(char: str, label: str) -> float:
+        keys = [k for k in got.by_section if k[0].startswith(f"Characteristic: {char} ")
+                and k[2] == label]
+        assert len(keys) == 1, (char, label, keys)
+        return got.by_section[keys[0]]
+
+    # Newcombe (1998) Table II example (a), method 10: 0.0524 to 0.3339 (quoted from memory,
+    # confirmed in ../shared/reference/attributes); 6-decimal recomputation from that folder
+    with open(reference_dir / "attributes" / "two-proportion-differences.csv",
+              encoding="utf-8", newline="") as f:
+        ref = {r["x1"] + "/" + r["n1"]: r for r in csv.DictReader(f)}["56/70"]
+    assert sheet("ex_a", "Newcombe interval low") == pytest.approx(0.0524, abs=5e-5)
+    assert sheet("ex_a", "Newcombe interval high") == pytest.approx(0.3339, abs=5e-5)
+    assert sheet("ex_a", "Newcombe interval low") == pytest.approx(float(ref["m10_lower"]),
+                                                                   abs=5e-7)
+    # the score statistic at the engine's Miettinen-Nurminen limit is -z (the limit is where
+    # it crosses), and that limit is the reference folder's recomputation
+    assert sheet("ex_a_score", "score statistic at the upper limit + z (0 at the limit)") == \
+        pytest.approx(0.0, abs=1e-9)
+    assert ev.characteristic("ex_a_score").checks[0].ci_high == pytest.approx(
+        float(ref["mn_upper"]), abs=5e-7)
+    # 0 failures among 59: the one-sided 95% bound is 1 - 0.05^(1/59) (closed form)
+    assert sheet("parts", "exact upper bound of the new rate") == pytest.approx(
+        1 - 0.05 ** (1 / 59), rel=1e-12)
+    # Fisher's one-sided p for 0 new of 59 against 2 old of 40 is 1 (no new failure)
+    assert sheet("parts", "Fisher one-sided p (new rate higher)") == pytest.approx(1.0)
+    assert any(h.startswith("rate_shift check: Newcombe") for h in got.headings)

@@ -120,6 +120,9 @@ def describe_plan(spec, measurements) -> list[str]:
     for note in measurements.notes:
         lines.append(f"  note: {note}")
     for c in spec.characteristics:
+        if c.pass_fail:
+            lines.extend(_describe_pass_fail(spec, measurements, c))
+            continue
         head = f"  {c.name} [{c.unit}]"
         facts = []
         if c.target is not None:
@@ -158,6 +161,36 @@ def describe_plan(spec, measurements) -> list[str]:
             lines.append(f"    new streams ({spec.data.stream}): {listed}")
         for text in _check_words(c, spec.unit_of_analysis):
             lines.append(f"    check {text}")
+    return lines
+
+
+def _describe_pass_fail(spec, measurements, c) -> list[str]:
+    """``verify check`` lines of a pass-fail characteristic: counts per process, its checks."""
+    from .evaluate_pass_fail import process_counts
+
+    src = (f"counts per lot (inspected {c.counts[0]!r}, failed {c.counts[1]!r})"
+           if c.counts is not None else
+           f"per-part results (fail {_names(c.fail_texts)}, pass {_names(c.pass_texts)})")
+    lines = [f"  {c.name} [{c.unit}]: pass-fail, {src}"]
+    for proc in ("old", "new"):
+        k = process_counts(measurements, c, proc)
+        plan = spec.planned(proc)
+        short = f"; fewer than min_n {plan}" if plan is not None and k.n < plan else ""
+        lots = list(k.lots)
+        lines.append(f"    {proc}: {k.n} inspected, {k.failures} failed, in {len(lots)} "
+                     f"lot{'s' if len(lots) != 1 else ''} ({_names(lots, 6, quote=False)})"
+                     f"{short}")
+    rate, shift = c.checks.rate, c.checks.rate_shift
+    if rate is not None:
+        lines.append(f"    check rate: new failure rate at most {rate.max:g} (exact upper "
+                     f"bound at {rate.confidence:g} confidence)")
+    if shift is not None:
+        lines.append(
+            f"    check rate_shift: new minus old rate below {shift.margin:g} ("
+            + ("Newcombe hybrid score" if shift.method == "newcombe" else "Miettinen-Nurminen")
+            + " interval)" if shift.margin is not None else
+            "    check rate_shift: new rate not higher than old ("
+            + ("Fisher" if shift.test == "fisher" else "Boschloo") + " exact test, one-sided)")
     return lines
 
 

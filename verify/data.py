@@ -665,14 +665,23 @@ class _Tidy:
             name = getattr(self.ds, key, None)
             if name is not None:
                 wanted.append((f"data.{key}", name))
-        if self.ds.layout == "wide":
-            for i, c in enumerate(self.spec.characteristics):
+        for i, c in enumerate(self.spec.characteristics):
+            if c.counts is not None:
+                # per-lot counts: the failed column holds the characteristic's values and the
+                # inspected column its own tidy rows (in either layout)
+                wanted.append((f"char:{i}", c.counts[1]))
+                wanted.append((f"insp:{i}", c.counts[0]))
+            elif self.ds.layout == "wide":
                 wanted.append((f"char:{i}", c.column))
         found: dict[str, int] = {}
         shown_cols = ", ".join(_show(h) for h in header if h) or "(none)"
         for role, name in wanted:
             where = (f"characteristics[{role[5:]}].column" if role.startswith("char:")
+                     else f"characteristics[{role[5:]}].counts" if role.startswith("insp:")
                      else role)
+            if role.startswith("char:") and self.spec.characteristics[
+                    int(role[5:])].counts is not None:
+                where = f"characteristics[{role[5:]}].counts"
             hits = index.get(name, [])
             if len(hits) > 1:
                 self.issue(f"column {name!r} ({where} in the spec) appears "
@@ -834,6 +843,10 @@ class _Tidy:
                 positions.append(np.arange(self.n))
                 indices.append(np.full(self.n, i))
                 parts.append(cells[cols[f"char:{i}"]].to_numpy(dtype=object))
+                if chars[i].counts is not None:
+                    positions.append(np.arange(self.n))
+                    indices.append(np.full(self.n, len(chars) + i))
+                    parts.append(cells[cols[f"insp:{i}"]].to_numpy(dtype=object))
         else:
             ctext = self.text(cols["data.characteristic"])
             values = cells[cols["data.value"]].to_numpy(dtype=object)
@@ -855,7 +868,13 @@ class _Tidy:
                 where = np.flatnonzero(mask)
                 positions.append(where)
                 indices.append(np.full(len(where), i))
-                parts.append(values[where])
+                if c.counts is not None:
+                    parts.append(cells[cols[f"char:{i}"]].to_numpy(dtype=object)[where])
+                    positions.append(where)
+                    indices.append(np.full(len(where), len(chars) + i))
+                    parts.append(cells[cols[f"insp:{i}"]].to_numpy(dtype=object)[where])
+                else:
+                    parts.append(values[where])
             other = ~matched
             if other.any():
                 names = list(dict.fromkeys(ctext[other].tolist()))
@@ -907,16 +926,22 @@ class _Tidy:
                  char_idx, parts):
         chars = self.spec.characteristics
         values, missing, bad, text = self.parse(parts, char_idx)
-        names = np.array([c.name for c in chars], dtype=object)
+        # index len(chars) + i holds the inspected counts of characteristic i (pass-fail)
+        names = np.array([c.name for c in chars] + [c.inspected_name for c in chars],
+                         dtype=object)
+        owner = np.array([c.name for c in chars] * 2, dtype=object)
         char_names = names[char_idx] if len(char_idx) else np.zeros(0, dtype=object)
+        owners = owner[char_idx] if len(char_idx) else np.zeros(0, dtype=object)
         reason = scope[pos].copy() if len(pos) else np.zeros(0, dtype=object)
         spec_r = spec_reason[pos]
         reason = np.where(reason == "", spec_r, reason)
         for name, per_row in char_reasons.items():
-            sel = char_names == name
+            sel = owners == name
             r = per_row[pos]
             reason = np.where(sel & (reason == ""), r, reason)
         checkable = (reason == "") & (lot[pos] != "")
+        bad = self.pass_fail_cells(checkable, pos, char_idx, values, missing, bad, text, rows,
+                                   lot, process)
         self.bad_cell_issues(checkable & bad, rows[pos], char_idx, text, values)
         reason = np.where((reason == "") & missing, NOT_MEASURED, reason)
         values = np.where(bad, np.nan, values)
@@ -946,6 +971,81 @@ class _Tidy:
             if not (table["process"] == proc).any():
                 self.notes.append(f"no rows for the {proc} process yet")
         return table, self.notes, self.unassigned
+
+    def pass_fail_cells(self, checkable, pos, char_idx, values, missing, bad, text, rows,
+                        lot, process) -> np.ndarray:
+        """Pass-fail characteristics: per-part results become 1.0 (failed) or 0.0 (passed);
+        per-lot counts must be whole numbers with failed <= inspected, both given or both
+        missing, one row per lot. Reports their problems; returns ``bad`` without their cells
+        (``values`` is changed in place)."""
+        chars = self.spec.characteristics
+        k = len(chars)
+        if not any(c.pass_fail for c in chars):
+            return bad
+        bad = bad.copy()
+        src = rows[pos]
+        for i, c in enumerate(chars):
+            if not c.pass_fail:
+                continue
+            sel = char_idx == i
+            if c.counts is None:
+                column = c.column if self.ds.layout == "wide" else self.ds.value
+                t = pd.Series(text[sel], dtype=object).map(lambda v: str(v).strip())
+                fail = t.isin([x.strip() for x in c.fail_texts]).to_numpy()
+                ok = t.isin([x.strip() for x in c.pass_texts]).to_numpy()
+                m = missing[sel]
+                vals = np.where(fail, 1.0, np.where(ok, 0.0, np.nan))
+                values[sel] = vals
+                wrong = ~fail & ~ok & ~m & checkable[sel]
+                bad[sel] = False
+                declared = list(self.ds.missing)
+                self.report_cells(
+                    wrong, column, lambda v, c=c, d=declared: (
+                        f"{_show(v)} is neither a fail result {list(c.fail_texts)} nor a pass "
+                        f"result {list(c.pass_texts)} nor a declared missing text {d} "
+                        f"({c.name}): correct the cell, or add the text to fail: or pass: in "
+                        "the spec"), src[sel], t.to_numpy(dtype=object))
+                continue
+            inspected_col, failed_col = c.counts
+            fsel, isel = np.flatnonzero(sel), np.flatnonzero(char_idx == k + i)
+            # both lists follow the same row positions (built side by side)
+            for where, column in ((fsel, failed_col), (isel, inspected_col)):
+                v = values[where]
+                notwhole = ~missing[where] & ~bad[where] & ~(
+                    np.isfinite(v) & (v >= 0) & (np.floor(v) == v))
+                self.report_cells(
+                    (bad[where] | notwhole) & checkable[where], column,
+                    lambda x, c=c: (f"{_show(x)} is not a whole number of parts >= 0 "
+                                    f"({c.name}): correct the cell, or declare it missing"),
+                    src[where], text[where])
+                bad[where] = False
+            f_miss, i_miss = missing[fsel], missing[isel]
+            both = checkable[fsel]
+            one = (f_miss != i_miss) & both
+            self.report_cells(
+                one, failed_col, lambda x, c=c: (
+                    f"a lot row of {c.name} needs both counts (inspected and failed) or "
+                    "neither: fill in the empty one, or exclude the row"), src[fsel],
+                text[fsel])
+            fv, iv = values[fsel], values[isel]
+            with np.errstate(invalid="ignore"):
+                over = both & ~f_miss & ~i_miss & (fv > iv)
+            self.report_cells(
+                over, failed_col, lambda x, c=c: (
+                    f"{_show(x)} failed is more than the parts inspected in that lot "
+                    f"({c.name}): correct the counts"), src[fsel], text[fsel])
+            live = both & ~f_miss & ~i_miss
+            seen: dict[tuple, int] = {}
+            for j in np.flatnonzero(live):
+                key = (lot[pos[fsel[j]]], process[pos[fsel[j]]])
+                if key in seen:
+                    self.issue(f"lot {_show(key[0])} has more than one row of counts for "
+                               f"{c.name} (rows {seen[key]} and {int(src[fsel[j]])}): give "
+                               "one row per lot (and process), or exclude one",
+                               row=int(src[fsel[j]]), column=failed_col)
+                else:
+                    seen[key] = int(src[fsel[j]])
+        return bad
 
     def bad_cell_issues(self, mask, rows, char_idx, text, values) -> None:
         chars = self.spec.characteristics

@@ -290,6 +290,85 @@ class ConformanceRule:
         return Verdict("PASS", f"{shown} lies {within}")
 
 
+def pct(x: float | None, digits: int = 4) -> str:
+    """A rate as a percentage for a sentence: 0.0123 -> "1.23%"."""
+    if x is None:
+        return "n/a"
+    return f"{fmt(100 * x, digits)}%"
+
+
+class RateRule:
+    """Pass-fail: the new failure rate is shown to be at most the maximum."""
+
+    key = "rate"
+
+    def describe(self, alpha: float) -> str:
+        return (
+            "Rate (pass-fail): PASS when the exact one-sided upper confidence bound of the new "
+            "process's failure rate (Clopper-Pearson: the confidence quantile of the beta "
+            "distribution with failures + 1 and passes as parameters) is at most the spec's "
+            "max; otherwise HOLD. Zero failures are no proof on their own: they show the rate "
+            "below max only when enough parts were inspected (the success-run plan). Not "
+            "adjusted for multiplicity: every such check must pass."
+        )
+
+    def decide(self, *, failures: int, inspected: int, upper: float, max_rate: float,
+               confidence: float) -> Verdict:
+        level = f"{fmt(100 * confidence)}%"
+        detail = (f"{failures} failed of {inspected}, rate {pct(failures / inspected)}, "
+                  f"upper {level} bound {pct(upper)}")
+        if upper <= max_rate:
+            return Verdict("PASS", f"failure rate shown to be at most {pct(max_rate)} "
+                           f"({detail})")
+        return Verdict("HOLD", f"failure rate not shown to be at most {pct(max_rate)} "
+                       f"({detail})")
+
+    @staticmethod
+    def harm_shown(*, lower: float, max_rate: float) -> bool:
+        """True when even the lower confidence bound exceeds max: the rate is too high."""
+        return lower > max_rate
+
+
+class RateShiftRule:
+    """Pass-fail: the new failure rate is no worse than the old one."""
+
+    key = "rate_shift"
+
+    def describe(self, alpha: float) -> str:
+        return (
+            "Rate shift (pass-fail), with a margin: PASS when the upper end of the "
+            f"{fmt(100 * (1 - 2 * alpha))}% interval for the new failure rate minus the old "
+            "one (Newcombe's hybrid score interval, or Miettinen-Nurminen with method: score) "
+            "lies below the margin; otherwise HOLD. Without a margin: HOLD when a one-sided "
+            f"exact test (Fisher's, or Boschloo's with test: boschloo) shows the new rate higher "
+            f"at alpha = {alpha} (p-values adjusted with the difference tests under holm or "
+            "bonferroni); otherwise PASS. Not detecting an increase is not evidence that "
+            "nothing changed: prefer a margin."
+        )
+
+    def decide_margin(self, *, estimate: float, ci: tuple[float, float], level: float,
+                      margin: float, method: str) -> Verdict:
+        lo, hi = fmt_like(100 * ci[0], 100 * ci[1])
+        detail = (f"difference {fmt_like(100 * estimate)[0]} points, {fmt(100 * level)}% "
+                  f"interval {lo}..{hi} points, {method}")
+        if ci[1] < margin:
+            return Verdict("PASS", f"new failure rate shown at most {fmt(100 * margin)} points "
+                           f"above the old one ({detail})")
+        beyond = "; the whole interval lies beyond the margin" if ci[0] >= margin else ""
+        return Verdict("HOLD", f"new failure rate not shown at most {fmt(100 * margin)} points "
+                       f"above the old one ({detail}){beyond}")
+
+    def decide_test(self, *, pvalue: float, alpha: float, estimate: float, method: str,
+                    adjusted: bool) -> Verdict:
+        which = "adjusted p" if adjusted else "p"
+        d = fmt_like(100 * estimate)[0]
+        if pvalue < alpha:
+            return Verdict("HOLD", f"new failure rate higher than old by {d} points "
+                           f"({method}, {p_eq(pvalue, which)}, alpha {alpha})")
+        return Verdict("PASS", f"no increase of the failure rate detected (difference {d} "
+                       f"points, {method}, {p_eq(pvalue, which)})")
+
+
 class SufficiencyRule:
     key = "sufficiency"
 
@@ -344,8 +423,9 @@ class MultiplicityRule:
                  "alpha / m, m the number of tests in the family")
         return (
             "Multiplicity: the family is every check that HOLDs on significance, i.e. every "
-            "difference test (a target or shift check without a margin) and every spread "
-            f"test, across characteristics; their p-values {adj}{level}. A check that cannot "
+            "difference test (a target or shift check without a margin), every spread "
+            "test and every pass-fail rate_shift test without a margin, across "
+            f"characteristics; their p-values {adj}{level}. A check that cannot "
             "be computed is left out of the family (and counted nowhere), and listed. "
             "Equivalence tests need no adjustment, because every one of them must pass for an "
             "overall PASS (intersection-union)."
@@ -370,14 +450,19 @@ SHIFT_DIFFERENCE = DifferenceRule("shift")
 SPREAD = SpreadRule()
 CAPABILITY = CapabilityRule()
 CONFORMANCE = ConformanceRule()
+RATE = RateRule()
+RATE_SHIFT = RateShiftRule()
 SUFFICIENCY = SufficiencyRule()
 DIAGNOSTICS = DiagnosticsRule()
 MULTIPLICITY = MultiplicityRule()
 COMBINATION = CombinationRule()
 
 
-def rules_in_words(alpha: float, multiplicity: str) -> tuple[str, ...]:
-    """Every rule's sentence, in the order the workbook prints them."""
+def rules_in_words(alpha: float, multiplicity: str, *, pass_fail: bool = False
+                   ) -> tuple[str, ...]:
+    """Every rule's sentence, in the order the workbook prints them; the pass-fail rules
+    (rate, rate shift) only where the spec has a pass-fail characteristic."""
+    rates = (RATE.describe(alpha), RATE_SHIFT.describe(alpha)) if pass_fail else ()
     return (
         TARGET_MARGIN.describe(alpha),
         TARGET_DIFFERENCE.describe(alpha),
@@ -386,6 +471,7 @@ def rules_in_words(alpha: float, multiplicity: str) -> tuple[str, ...]:
         SPREAD.describe(alpha),
         CAPABILITY.describe(alpha),
         CONFORMANCE.describe(alpha),
+        *rates,
         SUFFICIENCY.describe(alpha),
         MULTIPLICITY.describe(alpha, multiplicity),
         DIAGNOSTICS.describe(alpha),

@@ -154,7 +154,8 @@ def evaluate(
         decision=decision,
         reasons=reasons,
         review=review,
-        rules=decide.rules_in_words(spec.alpha, spec.multiplicity),
+        rules=decide.rules_in_words(spec.alpha, spec.multiplicity,
+                                    pass_fail=any(c.pass_fail for c in spec.characteristics)),
         caution=decide.CAUTION,
         final=final,
         run=run,
@@ -234,6 +235,10 @@ def _gather(spec: Spec, meas: Measurements, ch: Characteristic) -> tuple[_Data, 
 
 
 def _draft_characteristic(spec: Spec, meas: Measurements, ch: Characteristic, final: bool):
+    if ch.pass_fail:
+        from . import evaluate_pass_fail  # the pass-fail kind keeps its own drafts
+
+        return evaluate_pass_fail.draft_characteristic(spec, meas, ch, final)
     data, processes = _gather(spec, meas, ch)
     d = _CharDraft(ch=ch, data=data, processes=processes, final=final)
     if ch.distribution in ("lognormal", "weibull", "box-cox"):

@@ -81,6 +81,11 @@ class ProcessSummary:
     sd_within_lot: float | None = None
     sd_between_lot: float | None = None
     between_lot_set_to_zero: bool = False  # the between-lot estimate was negative, set to 0
+    # pass-fail characteristics: parts that failed, the failure rate, and (lot, inspected,
+    # failed) per lot in order of first appearance; n is then the parts inspected
+    failures: int | None = None
+    rate: float | None = None
+    lot_counts: tuple[tuple[str, int, int], ...] = ()
 
 
 @dataclass(frozen=True)

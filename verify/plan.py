@@ -224,6 +224,7 @@ class Plan:
     method: tuple[str, ...]
     notes: tuple[str, ...] = field(default=())
     conformance: tuple[ConformancePlan, ...] = field(default=())
+    rate_rows: tuple = ()  # verify.plan_rates.RatePlanRow: pass-fail characteristics
 
 
 @dataclass(frozen=True)
@@ -451,6 +452,9 @@ class Options:
     n: int | None = None
     characteristics: tuple[str, ...] = ()
     mean: float | None = None  # conformance: the assumed new-process mean
+    allowed_failures: int = 0  # pass-fail rate checks
+    rate_old: float | None = None  # pass-fail rate_shift: the old failure rate
+    rate_detect: float | None = None  # pass-fail rate_shift without a margin
 
 
 def _check_path(spec: Spec, ch: Characteristic, check: str) -> tuple[str, int | None]:
@@ -543,6 +547,8 @@ def spec_scenarios(spec: Spec, meas: Measurements | None, opts: Options) -> list
                            (spec.min_n, "min_n") if spec.min_n is not None else
                            (None, "n needed"))
     for ch in chars:
+        if ch.pass_fail:
+            continue  # planned by verify.plan_rates
         for check in ("target", "shift"):
             conf = getattr(ch.checks, check)
             if conf is None:
@@ -583,8 +589,8 @@ def spec_scenarios(spec: Spec, meas: Measurements | None, opts: Options) -> list
     if issues:
         raise UsageError(issues)
     if not out and not issues and not any(
-            c.checks.conformance is not None for c in chars):
-        raise UsageError([f"{file}: no target, shift or conformance check to plan"
+            c.pass_fail or c.checks.conformance is not None for c in chars):
+        raise UsageError([f"{file}: no target or shift check to plan"
                           + (" among the characteristics chosen" if opts.characteristics
                              else "")])
     return out
@@ -603,11 +609,25 @@ def plan_spec(spec: Spec, measurements: Measurements | None, opts: Options | Non
     opts : Options
         Command-line overrides.
     """
+    from .plan_rates import spec_rate_rows
+
     opts = opts or Options()
     scenarios = spec_scenarios(spec, measurements, opts)
     rows = tuple(plan_scenario(s) for s in scenarios)
     conformance = tuple(conformance_plans(spec, measurements, opts))
+    power = spec.plan.power if opts.power is None else opts.power
+    rate_rows = tuple(spec_rate_rows(
+        spec, measurements, power=power, allowed_failures=opts.allowed_failures,
+        rate_old=opts.rate_old, rate_detect=opts.rate_detect,
+        characteristics=opts.characteristics))
+    if not rows and not rate_rows and not conformance:
+        raise UsageError([f"{spec.path}: no check to plan"])
     p = spec.plan
+    if not rows:
+        return Plan(title=spec.title, source=str(spec.path), stem=f"{spec.stem}-plan",
+                    inputs=(("spec", str(spec.path), "command line"),), rows=(),
+                    method=(CONFORMANCE_METHOD,) if conformance else (),
+                    rate_rows=rate_rows, conformance=conformance)
     inputs = [
         ("spec", str(spec.path), "command line"),
         ("title", spec.title, "spec"),
@@ -645,7 +665,7 @@ def plan_spec(spec: Spec, measurements: Measurements | None, opts: Options | Non
         method += (CONFORMANCE_METHOD,)
     return Plan(title=spec.title, source=str(spec.path), stem=f"{spec.stem}-plan",
                 inputs=tuple(inputs), rows=rows, method=method, notes=tuple(notes),
-                conformance=conformance)
+                conformance=conformance, rate_rows=rate_rows)
 
 
 CONFORMANCE_METHOD = (
@@ -968,6 +988,21 @@ def add_plan_arguments(parser: argparse.ArgumentParser) -> argparse.ArgumentPars
                    help=f"significance level (default {DEFAULT_ALPHA})")
     g.add_argument("--side", metavar="SIDE",
                    help="which departure is harmful: two-sided (default), lower or upper")
+    g = parser.add_argument_group("pass-fail characteristics (failure rates)")
+    g.add_argument("--rate-max", type=float, metavar="P",
+                   help="standalone: the largest acceptable failure rate (0.01 is 1%%); gives "
+                        "the parts to inspect to demonstrate it")
+    g.add_argument("--confidence", type=float, metavar="C",
+                   help="with --rate-max: confidence of the demonstration (default 0.95)")
+    g.add_argument("--allowed-failures", type=int, metavar="K",
+                   help="failures allowed among the parts inspected (default 0: the "
+                        "success-run plan)")
+    g.add_argument("--rate-old", type=float, metavar="P",
+                   help="with SPEC: the old failure rate rate_shift plans from (default: the "
+                        "old data)")
+    g.add_argument("--rate-detect", type=float, metavar="D",
+                   help="with SPEC: rate_shift without a margin, the increase of the failure "
+                        "rate that must not go unseen (default: the check's detect: key)")
     return parser
 
 
@@ -977,17 +1012,25 @@ def _options(args: argparse.Namespace) -> Options:
     for label, v in (("--true-shift", args.true_shift), ("--mean", args.mean)):
         if v is not None and not math.isfinite(v):
             raise UsageError(f"{label} {v!r}: must be a finite number")
+    for label, v in (("--rate-old", args.rate_old), ("--rate-detect", args.rate_detect)):
+        if v is not None and not (math.isfinite(v) and 0 < v < 1):
+            raise UsageError(f"{label} {v!r}: must lie strictly between 0 and 1")
+    if args.allowed_failures is not None and args.allowed_failures < 0:
+        raise UsageError(f"--allowed-failures {args.allowed_failures}: must be 0 or more")
     return Options(sd=args.sd, sd_diff=args.sd_diff, power=args.power,
                    true_shift=args.true_shift, pair_correlation=args.pair_correlation,
                    detect=args.detect, n=args.n, mean=args.mean,
-                   characteristics=tuple(args.characteristic or ()))
+                   characteristics=tuple(args.characteristic or ()),
+                   allowed_failures=args.allowed_failures or 0, rate_old=args.rate_old,
+                   rate_detect=args.rate_detect)
 
 
 def build_plan(args: argparse.Namespace) -> Plan:
     """The plan the command-line arguments ask for (spec form or standalone form)."""
     opts = _options(args)
     if args.spec is not None:
-        given = [f"--{k}" for k in ("margin", "design", "ratio", "alpha", "side")
+        given = [f"--{k.replace('_', '-')}" for k in ("margin", "design", "ratio", "alpha",
+                                                       "side", "rate_max", "confidence")
                  if getattr(args, k) is not None]
         if given:
             raise UsageError(f"{', '.join(given)} belong to the standalone form: with SPEC the "
@@ -1005,6 +1048,10 @@ def build_plan(args: argparse.Namespace) -> Plan:
         return plan_spec(spec, measurements, opts)
     if args.characteristic:
         raise UsageError("--characteristic needs SPEC")
+    if args.rate_max is not None:
+        return _rate_standalone(args)
+    if args.confidence is not None or args.allowed_failures is not None:
+        raise UsageError("--confidence and --allowed-failures go with --rate-max P")
     if args.design is None:
         raise UsageError("give SPEC, or the standalone form: --sd S --margin M (or --detect D) "
                          "--design welch|pooled|paired|one-sample")
@@ -1017,6 +1064,36 @@ def build_plan(args: argparse.Namespace) -> Plan:
         true_shift=args.true_shift, pair_correlation=args.pair_correlation,
         sd_diff=args.sd_diff, side=args.side or "two-sided", n=args.n,
     )
+
+
+def _rate_standalone(args: argparse.Namespace) -> Plan:
+    """``verify plan --rate-max P --confidence C [--allowed-failures K]``."""
+    from .plan_rates import demonstration_row
+
+    other = [f"--{k.replace('_', '-')}" for k in ("sd", "sd_diff", "margin", "design", "detect",
+                                                   "ratio", "side", "rate_old", "rate_detect")
+             if getattr(args, k, None) is not None]
+    if other:
+        raise UsageError(f"{', '.join(other)} do not go with --rate-max (a pass-fail plan)")
+    p = args.rate_max
+    c = 0.95 if args.confidence is None else args.confidence
+    k = 0 if args.allowed_failures is None else args.allowed_failures
+    problems = []
+    if not (math.isfinite(p) and 0 < p < 1):
+        problems.append(f"--rate-max {p!r}: must lie strictly between 0 and 1 (0.01 is 1%)")
+    if not (math.isfinite(c) and 0 < c < 1):
+        problems.append(f"--confidence {c!r}: must lie strictly between 0 and 1")
+    if k < 0:
+        problems.append(f"--allowed-failures {k}: must be 0 or more")
+    if problems:
+        raise UsageError(problems)
+    row = demonstration_row(p, c, k)
+    return Plan(title=f"Demonstrate a failure rate of at most {p:g} with confidence {c:g}",
+                source=None, stem="plan", inputs=(("max rate", f"{p:g}", "--rate-max"),
+                                                  ("confidence", f"{c:g}", "--confidence"),
+                                                  ("allowed failures", str(k),
+                                                   "--allowed-failures")),
+                rows=(), method=(), rate_rows=(row,))
 
 
 def plan_main(args: argparse.Namespace) -> int:
@@ -1092,6 +1169,12 @@ def table_rows(plan: Plan) -> list[tuple[str, ...]]:
 def format_table(plan: Plan) -> str:
     """The plan as text: a title, a column-aligned table, and notes."""
     lines = [plan.title if plan.source is None else f"{plan.source}: {plan.title}"]
+    if plan.rate_rows:
+        from .plan_rates import format_rate_table
+
+        rate_lines = ["", *format_rate_table(plan.rate_rows)]
+    else:
+        rate_lines = []
     if plan.rows:
         _power_table(plan, lines)
     for c in plan.conformance:
@@ -1106,7 +1189,7 @@ def format_table(plan: Plan) -> str:
             lines.append(head + f"no n suffices ({c.note})")
         else:
             lines.append(head + f"n needed {c.n_needed} new parts (k = {_num(c.k_at_n)})")
-    return "\n".join(lines)
+    return "\n".join(lines + rate_lines)
 
 
 def _power_table(plan: Plan, lines: list[str]) -> None:

@@ -47,6 +47,8 @@ from .spec_model import (
     LotLists,
     Margin,
     PlanSettings,
+    RateCheck,
+    RateShiftCheck,
     ShiftCheck,
     Spec,
     SpreadCheck,
@@ -415,6 +417,20 @@ class _Checker:
             self.add(f"{path}.match", "match is for the long layout (data.characteristic and "
                      "data.value); in the wide layout use column", key=True)
 
+        if c.get("kind") == "pass-fail" and self.doc.clean(f"{path}.kind"):
+            self.check_pass_fail(spec, data, c, path, label)
+            return
+        for key in ("fail", "pass", "counts"):
+            if key in c:
+                self.add(f"{path}.{key}", f"{key} is for a pass-fail characteristic{label}: "
+                         "add kind: pass-fail, or remove it", key=True)
+        checks = c.get("checks")
+        if isinstance(checks, dict):
+            for key in ("rate", "rate_shift"):
+                if key in checks:
+                    self.add(f"{path}.checks.{key}", f"a {key} check is for a pass-fail "
+                             f"characteristic{label}: add kind: pass-fail, or remove it",
+                             key=True)
         target = c.get("target") if self.ok(c, "target", f"{path}.target") else None
         limits = c.get("limits") if self.ok(c, "limits", f"{path}.limits") else None
         if limits is not None:
@@ -439,6 +455,54 @@ class _Checker:
                          "target, shift, spread, capability, or leave checks out for the "
                          "defaults")
             self.check_checks(spec, data, c, checks, f"{path}.checks", target, limits, label)
+
+    def check_pass_fail(self, spec, data, c: dict, path: str, label: str) -> None:
+        """A pass-fail characteristic: per-part texts (fail and pass) or per-lot counts."""
+        for key, what in (("target", "a target"), ("limits", "limits"), ("side", "a side")):
+            if key in c:
+                self.add(f"{path}.{key}", f"a pass-fail characteristic has no {what}{label}: "
+                         "its harmful direction is always a higher failure rate; remove "
+                         f"{key}", key=True)
+        if "counts" in c:
+            for key in ("fail", "pass", "column"):
+                if key in c:
+                    self.add(f"{path}.{key}", f"counts reads the inspected and failed columns"
+                             f"{label}: remove {key} (it is for per-part results)", key=True)
+            counts = c["counts"]
+            if (self.ok(c, "counts", f"{path}.counts") and isinstance(counts, dict)
+                    and counts.get("inspected") == counts.get("failed")):
+                self.add(f"{path}.counts.failed", f"counts.inspected and counts.failed name "
+                         f"the same column {counts['failed']!r}{label}")
+        else:
+            for key in ("fail", "pass"):
+                if key not in c:
+                    self.add(path, f"a pass-fail characteristic{label} needs {key}: [texts] "
+                             "(the results that mean a part "
+                             f"{'failed' if key == 'fail' else 'passed'}), or counts: "
+                             "{inspected: <column>, failed: <column>} for per-lot counts")
+            fail = _text_list(c.get("fail", [])) if self.ok(c, "fail", f"{path}.fail") else []
+            ok = _text_list(c.get("pass", [])) if self.ok(c, "pass", f"{path}.pass") else []
+            both = set(fail) & set(ok)
+            if both:
+                self.add(f"{path}.pass", f"{_quoted(both)} listed both as fail and as pass"
+                         f"{label}")
+            if isinstance(data, dict):
+                missing = set(_text_list(data.get("missing", list(DEFAULT_MISSING))))
+                clash = (set(fail) | set(ok)) & missing
+                if clash:
+                    self.add(f"{path}.fail" if set(fail) & clash else f"{path}.pass",
+                             f"{_quoted(clash)} is also a declared missing text "
+                             f"(data.missing){label}: a result must be one or the other")
+        checks = c.get("checks")
+        if isinstance(checks, dict):
+            if not checks and self.doc.clean(f"{path}.checks"):
+                self.add(f"{path}.checks", f"lists no check{label}: name rate or rate_shift, "
+                         "or leave checks out for the default (rate_shift)")
+            for key in ("target", "shift", "spread", "capability"):
+                if key in checks:
+                    self.add(f"{path}.checks.{key}", f"a {key} check needs measured values; "
+                             f"a pass-fail characteristic{label} runs rate and rate_shift",
+                             key=True)
 
     def check_checks(self, spec, data, c, checks, path, target, limits, label) -> None:
         has_limits = f"{path[: -len('.checks')]}.limits" in self.doc.key_marks
@@ -699,6 +763,8 @@ def _build_characteristic(c: dict, p: str, data: DataSpec, unit: str, doc: Docum
         match = _text(c["match"], doc, f"{p}.match") if "match" in c else name
         rec(f"{p}.match", match)
     rec(f"{p}.unit", c["unit"])
+    if c.get("kind") == "pass-fail":
+        return _build_pass_fail(c, p, data, doc, rec, column, match)
     target = float(c["target"]) if "target" in c else None
     if target is not None:
         rec(f"{p}.target", target)
@@ -806,6 +872,57 @@ def _build_characteristic(c: dict, p: str, data: DataSpec, unit: str, doc: Docum
                                  capability=capability_check,
                                  conformance=conformance_check),
         line=_spec_line(doc.where(p)[0]), distribution=distribution,
+    )
+
+
+def _build_pass_fail(c: dict, p: str, data: DataSpec, doc: Document, rec, column, match
+                     ) -> Characteristic:
+    """A pass-fail characteristic: its results or counts, and the rate checks."""
+    name = c["name"]
+    rec(f"{p}.kind", "pass-fail", default=False)
+    counts = None
+    fail = ok = ()
+    if "counts" in c:
+        counts = (c["counts"]["inspected"], c["counts"]["failed"])
+        rec(f"{p}.counts.inspected", counts[0])
+        rec(f"{p}.counts.failed", counts[1])
+        column = None  # long layout: the counts are read on the rows that match
+    else:
+        fail = _texts(c["fail"], doc, f"{p}.fail")
+        ok = _texts(c["pass"], doc, f"{p}.pass")
+        rec(f"{p}.fail", list(fail))
+        rec(f"{p}.pass", list(ok))
+    explicit = "checks" in c
+    listed = c.get("checks", {}) if explicit else {"rate_shift": {}}
+    cp = f"{p}.checks"
+    rate = rate_shift = None
+    if "rate" in listed:
+        cfg = listed["rate"] or {}
+        rate = RateCheck(max=float(cfg["max"]), confidence=float(cfg.get("confidence", 0.95)))
+        rec(f"{cp}.rate.max", rate.max)
+        rec(f"{cp}.rate.confidence", rate.confidence, default="confidence" not in cfg)
+    else:
+        rec(f"{cp}.rate", _off(explicit, "no max rate"), default=not explicit)
+    if "rate_shift" in listed:
+        cfg = listed["rate_shift"] or {}
+        rate_shift = RateShiftCheck(
+            margin=_opt_float(cfg.get("margin")), method=cfg.get("method", "newcombe"),
+            test=cfg.get("test", "fisher"), detect=_opt_float(cfg.get("detect")))
+        rec(f"{cp}.rate_shift.margin", rate_shift.margin if rate_shift.margin is not None
+            else "none (exact test of a higher rate)", default="margin" not in cfg)
+        if rate_shift.margin is not None:
+            rec(f"{cp}.rate_shift.method", rate_shift.method, default="method" not in cfg)
+        else:
+            rec(f"{cp}.rate_shift.test", rate_shift.test, default="test" not in cfg)
+        if rate_shift.detect is not None:
+            rec(f"{cp}.rate_shift.detect", rate_shift.detect)
+    else:
+        rec(f"{cp}.rate_shift", _off(explicit, ""), default=False)
+    return Characteristic(
+        name=name, unit=c["unit"], column=column, match=match, target=None, limits=None,
+        side="upper", checks=Checks(rate=rate, rate_shift=rate_shift),
+        line=_spec_line(doc.where(p)[0]), kind="pass-fail", fail_texts=fail, pass_texts=ok,
+        counts=counts,
     )
 
 

@@ -18,6 +18,9 @@ SPREAD_DESIGNS = ("paired", "independent")
 CAPABILITY_INDICES = ("cpk", "ppk")
 CAPABILITY_JUDGES = ("estimate", "lower_bound")
 DISTRIBUTIONS = ("normal", "lognormal", "weibull", "box-cox", "any")
+KINDS = ("measured", "pass-fail")
+RATE_SHIFT_METHODS = ("newcombe", "score")
+RATE_SHIFT_TESTS = ("fisher", "boschloo")
 
 
 @dataclass(frozen=True)
@@ -94,6 +97,31 @@ class ConformanceCheck:
 
 
 @dataclass(frozen=True)
+class RateCheck:
+    """Pass/fail: the new process's failure rate is shown to be at most ``max`` (the exact
+    one-sided upper bound at ``confidence`` is at most ``max``)."""
+
+    max: float
+    confidence: float = 0.95
+
+
+@dataclass(frozen=True)
+class RateShiftCheck:
+    """Pass/fail: the new failure rate is no worse than the old one.
+
+    With ``margin``: the upper end of the (1 - 2 alpha) interval for p_new - p_old (``method``
+    newcombe or score) must lie below it. Without: a one-sided exact ``test`` (fisher or
+    boschloo) that the new rate is higher HOLDs when significant. ``detect`` is a planning
+    value: the rate difference that must not go unseen.
+    """
+
+    margin: float | None = None
+    method: str = "newcombe"
+    test: str = "fisher"
+    detect: float | None = None
+
+
+@dataclass(frozen=True)
 class Checks:
     """The checks that run for one characteristic; None means the check does not run."""
 
@@ -102,6 +130,8 @@ class Checks:
     spread: SpreadCheck | None = None
     capability: CapabilityCheck | None = None
     conformance: ConformanceCheck | None = None
+    rate: RateCheck | None = None
+    rate_shift: RateShiftCheck | None = None
 
 
 @dataclass(frozen=True)
@@ -118,6 +148,21 @@ class Characteristic:
     # normal | lognormal | weibull | box-cox | any: the model of the new parts behind
     # capability and conformance (the location and spread tests stay as they are)
     distribution: str = "normal"
+    # pass-fail characteristics: per-part results (fail_texts / pass_texts read from column or
+    # match) or per-lot counts (counts = (inspected column, failed column))
+    kind: str = "measured"  # measured | pass-fail
+    fail_texts: tuple[str, ...] = ()
+    pass_texts: tuple[str, ...] = ()
+    counts: tuple[str, str] | None = None
+
+    @property
+    def pass_fail(self) -> bool:
+        return self.kind == "pass-fail"
+
+    @property
+    def inspected_name(self) -> str:
+        """The characteristic name of the tidy rows holding per-lot inspected counts."""
+        return f"{self.name} (inspected)"
 
     @property
     def lower(self) -> float | None:

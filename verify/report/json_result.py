@@ -91,6 +91,10 @@ def _check(c: CheckResult) -> dict:
         # open); k is the factor of mean -/+ k sd, None for distribution-free limits
         d.update(coverage=c.extra["coverage"], confidence=c.extra["coverage_confidence"],
                  k=c.extra.get("k"), side=c.extra.get("side"))
+    if c.check == "rate":
+        d.update(max=c.extra.get("max"), confidence=c.extra.get("confidence"))
+    if c.check == "rate_shift" and c.extra.get("margin") is not None:
+        d["margin"] = [None, c.extra["margin"]]  # only an increase of the rate is tested
     d.update(
         power=c.power,
         power_note=c.power_note,
@@ -191,6 +195,7 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
                 "target": c.spec.target,
                 "limits": list(c.spec.limits) if c.spec.limits is not None else None,
                 "side": c.spec.side,
+                **({"kind": c.spec.kind} if c.spec.pass_fail else {}),
                 "processes": {
                     p: {
                         "n": s.n,
@@ -203,6 +208,10 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
                         "sd_within_lot": s.sd_within_lot,
                         "sd_between_lot": s.sd_between_lot,
                         "between_lot_set_to_zero": s.between_lot_set_to_zero,
+                        **({"failures": s.failures, "rate": s.rate,
+                            "lot_counts": [{"lot": lot, "inspected": n, "failed": x}
+                                           for lot, n, x in s.lot_counts]}
+                           if c.spec.pass_fail else {}),
                     }
                     for p, s in c.processes.items()
                 },

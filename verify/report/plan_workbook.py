@@ -305,6 +305,9 @@ def _curves_sheet(ws, plan: Plan) -> None:
         ws.column_dimensions[col].width = width
 
 
+RATE_PLAN_SHEET = "Pass-fail plan"
+
+
 def write_plan_workbook(plan: Plan, path: str | Path) -> None:
     """Write the planning workbook for ``plan`` to ``path`` (callers write atomically).
 
@@ -316,7 +319,14 @@ def write_plan_workbook(plan: Plan, path: str | Path) -> None:
     """
     wb = Workbook()
     ws = wb.active
-    ws.title = PLAN_SHEET
-    _plan_sheet(ws, plan)
-    _curves_sheet(wb.create_sheet(CURVES_SHEET), plan)
+    if plan.rows:
+        ws.title = PLAN_SHEET
+        _plan_sheet(ws, plan)
+        _curves_sheet(wb.create_sheet(CURVES_SHEET), plan)
+    if plan.rate_rows:
+        from ..plan_rates import write_rate_plan_sheet
+
+        rws = wb.create_sheet(RATE_PLAN_SHEET) if plan.rows else ws
+        rws.title = RATE_PLAN_SHEET
+        write_rate_plan_sheet(rws, plan.rate_rows, plan.title)
     wb.save(path)

@@ -1339,6 +1339,12 @@ def _characteristic(
     sh: _Sheet, ev: Evaluation, layout: MeasurementLayout, c: CharacteristicResult
 ) -> None:
     sh.heading(f"Characteristic: {c.name}" + (f" ({c.unit})" if c.unit else ""))
+    if c.spec.pass_fail:
+        from .pass_fail_recheck import recheck_pass_fail  # the pass-fail kind's own rows
+
+        recheck_pass_fail(sh, ev, layout, c)
+        sh.blank()
+        return
     if ev.spec.unit_of_analysis == "lot":
         sh.note("unit of analysis: lot; the tests run on the lot means computed below")
     samples: dict[str, _Sample] = {}

@@ -124,6 +124,15 @@ def margin_text(margin: tuple[float, float] | None, side: str = "two-sided") -> 
     return f"{low:+g} to {high:+g}"
 
 
+def rate_limit_text(r: CheckResult) -> str:
+    """A pass-fail check's criterion: "max 1%" (rate) or "below +0.5 points" (rate_shift)."""
+    if r.check == "rate" and r.extra.get("max") is not None:
+        return f"max {100 * r.extra['max']:g}%"
+    if r.check == "rate_shift" and r.extra.get("margin") is not None:
+        return f"below +{100 * r.extra['margin']:g} points"
+    return "none (exact test)" if r.check == "rate_shift" else "none"
+
+
 def check_n(c: CharacteristicResult, r: CheckResult) -> int | None:
     """The n a check rests on: the smaller process for a comparison, the new one otherwise."""
     if r.check == "shift" and c.pairs is not None:
@@ -352,10 +361,13 @@ def _characteristic_row(
     if r is not None:
         shown = r.check + (f", {r.method}" if r.method else "")
         put(ws, row, 7, shown, align=WRAP)
-        put(ws, row, 8, r.estimate, fmt=fmts["shift"])
-        put(ws, row, 9, margin_text(r.margin, c.spec.side))
-        put(ws, row, 10, r.ci_low, fmt=fmts["shift"])
-        put(ws, row, 11, r.ci_high, fmt=fmts["shift"])
+        # pass-fail: rates and their differences are fractions, shown as percentages
+        efmt = "0.00%" if c.spec.pass_fail else fmts["shift"]
+        put(ws, row, 8, r.estimate, fmt=efmt)
+        put(ws, row, 9, rate_limit_text(r) if c.spec.pass_fail
+            else margin_text(r.margin, c.spec.side))
+        put(ws, row, 10, r.ci_low, fmt=efmt)
+        put(ws, row, 11, r.ci_high, fmt=efmt)
         p = r.p_adjusted if r.p_adjusted is not None else r.p_value
         put(ws, row, 12, p, fmt=P_FORMAT)
     fill, font = decision_style(c.decision)

@@ -120,7 +120,12 @@ def write_workbook(
         char_sheets[c.name] = title
         ws = wb.create_sheet(title)
         ws.sheet_properties.tabColor = DECISION_COLOURS.get(c.decision, ("7F7F7F",))[0]
-        write_characteristic(ws, ev, c, decimals.get(c.name))
+        if c.spec.pass_fail:
+            from .pass_fail_sheet import write_pass_fail  # the pass-fail kind's own sheet
+
+            write_pass_fail(ws, ev, c)
+        else:
+            write_characteristic(ws, ev, c, decimals.get(c.name))
 
     streamed: list[StreamedSheet] = add_placeholders(wb, layout, styles)
 
