@@ -14,8 +14,19 @@ from hypothesis import strategies as st
 from verify.data import load_measurements
 from verify.errors import DataError, SpecError
 from verify.model import MEASUREMENT_COLUMNS, Measurements
-from verify.spec import load_spec
+from verify.spec import SpecLoader, load_spec
 from verify.spec_model import Spec
+
+
+class _Dumper(yaml.SafeDumper):
+    """Quotes every string that YAML 1.1 or the spec loader's YAML 1.2 core schema would read
+    as something other than text (for example 0E0, a number in YAML 1.2 only)."""
+
+
+_Dumper.yaml_implicit_resolvers = {
+    k: list(v) for k, v in yaml.SafeDumper.yaml_implicit_resolvers.items()}
+for _first, _entries in SpecLoader.yaml_implicit_resolvers.items():
+    _Dumper.yaml_implicit_resolvers.setdefault(_first, []).extend(_entries)
 
 SETTINGS = settings(max_examples=60, deadline=None,
                     suppress_health_check=[HealthCheck.function_scoped_fixture,
@@ -92,7 +103,8 @@ def test_generated_valid_specs_keep_their_values(tmp_path, drawn):
     doc, expected_margins = drawn
     doc["data"]["old"] = [o for o in doc["data"]["old"] if o not in doc["data"]["new"]] or ["o"]
     path = tmp_path / "spec.yaml"
-    path.write_text(yaml.safe_dump(doc, sort_keys=False, allow_unicode=True), encoding="utf-8")
+    path.write_text(yaml.dump(doc, Dumper=_Dumper, sort_keys=False, allow_unicode=True),
+                    encoding="utf-8")
     spec = load_spec(path)
     assert spec.title == doc["title"] and spec.alpha == doc["alpha"]
     assert spec.data.lot == doc["data"]["lot"] and spec.data.process == doc["data"]["process"]

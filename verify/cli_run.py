@@ -45,6 +45,10 @@ def add_run(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
     p.add_argument("--final", action="store_true",
                    help="the trial is complete: a shortfall against min_n no longer gives "
                         "PENDING (checks decide on the data there are)")
+    p.add_argument("--full-detail", action="store_true",
+                   help="a workbook sheet per characteristic however many there are (by "
+                        "default, beyond 40 characteristics their detail is one table, the "
+                        "Details sheet)")
     add_max_data_mb(p)
     return p
 
@@ -112,7 +116,8 @@ def cmd_run(args: argparse.Namespace) -> int:
     staged = []
     try:  # every spec's pair is written before any is renamed into place
         for ev, wb, res in targets:
-            staged.append(stage_outputs(ev, wb, res))
+            staged.append(stage_outputs(
+                ev, wb, res, detail="full" if getattr(args, "full_detail", False) else "auto"))
     except BaseException:
         for st in staged:
             st.discard()

@@ -225,7 +225,8 @@ def _temp_beside(target: Path, suffix: str = ".part") -> Path:
     return Path(tmp)
 
 
-def stage_outputs(ev: Evaluation, workbook: Path, result: Path) -> Staged:
+def stage_outputs(ev: Evaluation, workbook: Path, result: Path, *,
+                  detail: str = "auto") -> Staged:
     """Write the workbook and the JSON result (which records the workbook's sha256) to
     temporary files; :meth:`Staged.commit` renames them into place."""
     from .audit import sha256_file
@@ -237,7 +238,7 @@ def stage_outputs(ev: Evaluation, workbook: Path, result: Path) -> Staged:
     try:
         # the workbook's zip and document times come from the run's start, so reruns under
         # SOURCE_DATE_EPOCH are byte-identical
-        write_workbook(ev, tmp_wb, record_json=dumps(result_dict(ev)))
+        write_workbook(ev, tmp_wb, record_json=dumps(result_dict(ev)), detail=detail)
         _fsync(tmp_wb)
         digest = sha256_file(tmp_wb)
         tmp_res = _temp_beside(result)

@@ -72,6 +72,35 @@ def _sheet_name(i: int) -> str:
     return MEASUREMENTS_SHEET if i == 0 else f"{MEASUREMENTS_SHEET} ({i + 1})"
 
 
+_POSITIONS: dict[int, tuple] = {}
+
+
+def used_positions(table: pd.DataFrame, used: np.ndarray) -> dict:
+    """(characteristic, process) -> positions (ascending) of the used rows of ``table``.
+
+    Computed once per table (by identity): the sheets ask for every characteristic and process
+    in turn, and a mask over the whole table per question would cost characteristics x rows.
+    """
+    hit = _POSITIONS.get(id(table))
+    if hit is not None and hit[0] is table and hit[1] is used:
+        return hit[2]
+    base = np.flatnonzero(used)
+    sub = table.iloc[base]
+    groups = {k: base[v] for k, v in
+              sub.groupby(["characteristic", "process"], sort=False).indices.items()}
+    if len(_POSITIONS) >= 8:
+        _POSITIONS.clear()
+    _POSITIONS[id(table)] = (table, used, groups)
+    return groups
+
+
+def used_rows(table: pd.DataFrame, used: np.ndarray, name: str, process: str) -> pd.DataFrame:
+    """The used rows of one characteristic and process, in the table's order (as the mask
+    ``(characteristic == name) & (process == process) & used`` selects them)."""
+    pos = used_positions(table, used).get((name, process))
+    return table.iloc[pos] if pos is not None else table.iloc[:0]
+
+
 def measurement_layout(evaluation: Evaluation, *, rows_per_sheet: int = EXCEL_MAX_ROWS - 1):
     """Order the tidy table for the sheet and find the blocks the recheck formulas use.
 
@@ -120,13 +149,24 @@ def measurement_layout(evaluation: Evaluation, *, rows_per_sheet: int = EXCEL_MA
             return None
         return Block(rows["sheet"].iloc[0], first, last)
 
+    sheet_arr = t["sheet"].to_numpy(dtype=object) if n else np.zeros(0, dtype=object)
+    row_arr = t["row"].to_numpy() if n else np.zeros(0, dtype=np.int64)
+
+    def block_at(pos) -> Block | None:
+        # the same test as block(), on positions (ascending) instead of a mask
+        if pos is None or len(pos) == 0 or (sheet_arr[pos] != sheet_arr[pos[0]]).any():
+            return None
+        first, last = int(row_arr[pos[0]]), int(row_arr[pos[-1]])
+        if last - first + 1 != len(pos):
+            return None
+        return Block(sheet_arr[pos[0]], first, last)
+
+    groups = used_positions(t, t["used"].to_numpy(dtype=bool))
     used: dict = {}
     paired: dict = {}
     for c in evaluation.characteristics:
         for p in ("old", "new"):
-            used[(c.name, p)] = block(
-                (t["characteristic"] == c.name) & (t["process"] == p) & t["used"]
-            )
+            used[(c.name, p)] = block_at(groups.get((c.name, p)))
         shift = c.spec.checks.shift
         if shift is not None and shift.design == "paired":
             sel = (t["characteristic"] == c.name) & t["used"]

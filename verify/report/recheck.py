@@ -47,7 +47,7 @@ import pandas as pd
 
 from ..model import CharacteristicResult, CheckResult, Evaluation, ProcessSummary
 from .cells import XML_ILLEGAL
-from .layout import LOT_COLUMN, VALUE_COLUMN, Block, MeasurementLayout
+from .layout import LOT_COLUMN, VALUE_COLUMN, Block, MeasurementLayout, used_rows
 
 __all__ = [
     "COLUMNS",
@@ -245,8 +245,23 @@ class _Pairs:
 
 
 def _block_rows(layout: MeasurementLayout, name: str, process: str) -> pd.DataFrame:
-    t = layout.table
-    return t[(t["characteristic"] == name) & (t["process"] == process) & t["used"]]
+    return used_rows(layout.table, _used_flags(layout.table, "used"), name, process)
+
+
+_FLAGS: dict[tuple[int, str], tuple] = {}
+
+
+def _used_flags(t: pd.DataFrame, column: str) -> np.ndarray:
+    """The used-row flags of a table, one array per table (so the row groups are cached)."""
+    hit = _FLAGS.get((id(t), column))
+    if hit is None or hit[0] is not t:
+        flags = t[column].to_numpy(dtype=bool)
+        if column == "excluded":
+            flags = ~flags
+        if len(_FLAGS) >= 8:
+            _FLAGS.clear()
+        hit = _FLAGS[(id(t), column)] = (t, flags)
+    return hit[1]
 
 
 def _why_no_block(layout: MeasurementLayout, name: str, process: str) -> str:
@@ -916,7 +931,7 @@ def _pitman_morgan(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckRes
 def _production_order(layout: MeasurementLayout, ev: Evaluation, name: str, process: str):
     """The used rows in the engine's production order and the same rows in sheet order."""
     t = ev.measurements.table
-    sel = t[(t["characteristic"] == name) & (t["process"] == process) & ~t["excluded"]]
+    sel = used_rows(t, _used_flags(t, "excluded"), name, process)
     sel = sel.sort_values(["order", "source_row"], kind="stable")  # as the engine orders them
     return sel, _block_rows(layout, name, process).sort_values(["sheet", "row"], kind="stable")
 

@@ -39,6 +39,7 @@ from ..model import Evaluation
 from .audit_sheet import write_audit
 from .cells import EXCEL_CELL_MAX, XML_ILLEGAL, clean_text, put, sheet_name
 from .characteristic_sheet import write_characteristic
+from .details_sheet import DETAILS_SHEET, details_placeholder, per_characteristic_sheets
 from .layout import (
     AUDIT_SHEET,
     EXCEL_MAX_ROWS,
@@ -68,6 +69,7 @@ def write_workbook(
     *,
     record_json: str | None = None,
     rows_per_sheet: int = EXCEL_MAX_ROWS - 1,
+    detail: str = "auto",
 ) -> None:
     """Write the workbook for one evaluation.
 
@@ -82,6 +84,10 @@ def write_workbook(
     rows_per_sheet : int
         Data rows per measurements sheet; Excel's limit less the header unless a test wants
         continuation sheets sooner.
+    detail : {"auto", "full", "compact"}
+        A sheet per characteristic ("full"), or the one streamed Details sheet ("compact");
+        "auto" writes sheets up to :data:`~verify.report.details_sheet.DETAIL_SHEETS_MAX`
+        characteristics and the Details sheet beyond.
 
     Examples
     --------
@@ -115,7 +121,13 @@ def write_workbook(
         )
     }
     char_sheets: dict[str, str] = {}
-    for i, c in enumerate(ev.characteristics, start=1):
+    sheets_each = per_characteristic_sheets(len(ev.characteristics), detail)
+    details = None
+    if not sheets_each:
+        # a large layout: one streamed Details sheet instead of a sheet per characteristic
+        details = wb.create_sheet(sheet_name(DETAILS_SHEET, taken, fallback="Details 1"))
+        char_sheets = {c.name: details.title for c in ev.characteristics}
+    for i, c in enumerate(ev.characteristics if sheets_each else (), start=1):
         title = sheet_name(c.name, taken, fallback=f"Characteristic {i}")
         char_sheets[c.name] = title
         ws = wb.create_sheet(title)
@@ -128,6 +140,8 @@ def write_workbook(
             write_characteristic(ws, ev, c, decimals.get(c.name))
 
     streamed: list[StreamedSheet] = add_placeholders(wb, layout, styles)
+    if details is not None:
+        streamed.append(details_placeholder(details, ev, styles))
 
     spec_ws = wb.create_sheet(SPEC_SHEET)
     streamed.append(_spec_placeholder(spec_ws, ev.spec.text, styles))
