@@ -13,7 +13,8 @@ from pathlib import Path
 
 REPO = Path(__file__).resolve().parents[1]
 SPECS = REPO / "specs"
-SAMPLE_SPECS = ("bushing-supplier.yaml", "closure-mould.yaml", "filler-paired.yaml",
+SAMPLE_SPECS = ("bracket-die-sql.yaml", "bushing-supplier.yaml", "closure-mould.yaml",
+                "filler-paired.yaml",
                 "housing-resin.yaml")
 
 BASE_SPEC = """\
@@ -243,7 +244,7 @@ SPEC_CASES = [
     SpecCase("sheet-with-csv", _s("  lot: lot\n", "  lot: lot\n  sheet: S1\n"), "data.sheet",
              "sheet: S1", ("xlsx files only",)),
     SpecCase("data-extension", _s("file: lots.csv", "file: lots.txt"), "data.file",
-             "lots.txt", (".csv, .tsv or .xlsx",)),
+             "lots.txt", (".csv, .tsv, .xlsx or .parquet",)),
     SpecCase("long-without-value", _s("  new: New Co\n",
                                       "  new: New Co\n  characteristic: char\n"),
              "data.characteristic", "characteristic: char", ("add data.value",)),

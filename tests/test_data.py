@@ -234,10 +234,16 @@ def test_utf8_bom_and_latin1(tmp_path):
     spec = BASE_SPEC.replace("Old Co", "Öld Co")
     m = load(write_case(tmp_path, spec, b"\xef\xbb\xbf" + csv.encode("utf-8")))
     assert m.files[0].encoding == "utf-8-sig" and len(used(m, "width", "old")) == 4
+    # Latin-1 bytes of "Ö" are valid Windows-1252 too (the two agree outside 0x80-0x9f),
+    # so such a file is read as Windows-1252, the first single-byte encoding tried
     m = load(write_case(tmp_path, spec, csv.encode("latin-1")))
+    assert m.files[0].encoding == "windows-1252"
+    assert any("Windows-1252" in n for n in m.notes)
+    assert len(used(m, "width", "old")) == 4
+    # 0x81 is undefined in Windows-1252 (its code chart): only Latin-1 reads such a file
+    m = load(write_case(tmp_path, spec, csv.replace("A1,", "A\u00811,").encode("latin-1")))
     assert m.files[0].encoding == "latin-1"
     assert any("Latin-1" in n for n in m.notes)
-    assert len(used(m, "width", "old")) == 4
 
 
 def test_utf16_with_bom(tmp_path):

@@ -280,13 +280,13 @@ def _formulas(section) -> str:
 
 @pytest.mark.parametrize("margin", [0.004, None])
 def test_welch_p_values_and_quantiles_avoid_the_df_truncating_t_functions(margin):
-    # Excel and LibreOffice truncate the df of T.DIST*, T.INV.2T to an integer (checked in
+    # Excel and LibreOffice truncate the df of TDIST, T.DIST*, T.INV.2T to an integer (checked in
     # LibreOffice by test_recheck_libreoffice.py); the fractional Welch df goes through BETA.*
     ev, _, rows = rows_for("welch", margin=margin)
     c = ev.characteristics[0]
     text = _formulas(sections(rows)[(c.name, "shift")])
     assert "_xlfn.BETA.DIST(" in text and "_xlfn.BETA.INV(" in text
-    assert "_xlfn.T.DIST" not in text and "_xlfn.T.INV" not in text
+    assert "_xlfn.T.DIST" not in text and "_xlfn.T.INV" not in text and "TDIST(" not in text
     if margin is None:  # T.TEST type 3 uses the fractional df: shown as a cross-check
         sec = by_label(sections(rows)[(c.name, "shift")])
         formula = sec["p, cross-check with T.TEST"][1][1]
@@ -299,7 +299,8 @@ def test_integer_df_designs_use_the_t_functions(design):
     c = ev.characteristics[0]
     check = "target" if design == "one-sample" else "shift"
     text = _formulas(sections(rows)[(c.name, check)])
-    assert "_xlfn.T.DIST" in text and "_xlfn.T.INV.2T(" in text
+    # TDIST rather than T.DIST*: gnumeric evaluates it too (tests/test_recheck_gnumeric.py)
+    assert "TDIST(" in text and "_xlfn.T.DIST" not in text and "_xlfn.T.INV.2T(" in text
     assert "BETA" not in text
 
 
@@ -322,7 +323,11 @@ def test_capability_moving_range_runs_over_consecutive_rows_of_the_block():
     b = layout.used[(c.name, "new")]
     sec = by_label(sections(rows)[(c.name, "capability")])
     mr = sec["average moving range"][1][1]
-    assert f"$E${b.first + 1}:$E${b.last}-'Measurements'!$E${b.first}:$E${b.last - 1}" in mr
+    # |x[i+1] - x[i]| written with comparisons (gnumeric applies no ABS over an array)
+    later = f"('Measurements'!$E${b.first + 1}:$E${b.last})"
+    earlier = f"('Measurements'!$E${b.first}:$E${b.last - 1})"
+    assert f"({later}>{earlier})*({later}-{earlier})" in mr
+    assert f"({earlier}>{later})*({earlier}-{later})" in mr
     assert sec["within sigma"][1][1].endswith("/1.128")
 
 
@@ -468,8 +473,9 @@ def test_adjusted_p_values_are_recomputed_from_the_p_cells(method):
         assert f"$B${r_p}" in adj[1]
         if method == "bonferroni":
             assert adj[1].startswith("=MIN(1,") and "*$B$" in adj[1]
-        else:
-            assert "SUMPRODUCT(MAX(" in adj[1]
+        else:  # a small family: one scalar term per step (gnumeric evaluates it too)
+            assert adj[1].startswith("=MIN(1,MAX(") and "SUMPRODUCT" not in adj[1]
+            assert adj[1].count("<=") == len(family)
     _, m_row = sec["m, the number of tests in the family"]
     assert m_row[2] == len(family)
 

@@ -196,6 +196,14 @@ def test_boschloo_is_never_less_powerful_than_fisher():
         assert b.pvalue <= f.pvalue + 1e-12
 
 
+def test_boschloo_refuses_sizes_it_cannot_enumerate():
+    from verify.stats.errors import NotApplicableError
+
+    with pytest.raises(NotApplicableError, match="use test: fisher"):
+        rates.higher_rate_test(3, 6000, 1, 5000, test="boschloo")
+    assert rates.higher_rate_test(3, 6000, 1, 5000).pvalue < 1  # Fisher at any size
+
+
 def test_fisher_p_is_one_without_new_failures():
     assert rates.higher_rate_test(0, 50, 3, 60).pvalue == pytest.approx(1.0)
 

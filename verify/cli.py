@@ -12,7 +12,6 @@ on stderr; argparse's own usage errors are 2 as well).
 from __future__ import annotations
 
 import argparse
-import contextlib
 import os
 import sys
 from collections.abc import Callable, Sequence
@@ -20,6 +19,7 @@ from collections.abc import Callable, Sequence
 from . import __version__
 from .cli_run import add_max_data_mb, add_replay, add_run, cmd_replay, cmd_run
 from .errors import VerifyError
+from .output import say, write
 
 EXIT_OK = 0
 EXIT_INVALID = 2
@@ -54,23 +54,30 @@ def cmd_check(args: argparse.Namespace) -> int:
     paths = find_specs(args.paths)
     limit = max_data_bytes(args.max_data_mb)
     failed: list[tuple[str, VerifyError]] = []
-    for n, path in enumerate(paths):
+    shown = 0
+    for path in paths:
         try:
             spec = load_spec(path)
             measurements = load_measurements(spec, max_bytes=limit)
         except VerifyError as exc:
             failed.append((str(path), exc))
+            say(None, {"spec": str(path), "valid": False,
+                       "errors": exc.report().splitlines()})
             continue
-        if n:
-            print()
-        print("\n".join(describe_plan(spec, measurements)))
+        lines = describe_plan(spec, measurements)
+        say(("\n" if shown else "") + "\n".join(lines), {
+            "spec": str(path), "valid": True, "title": spec.title, "change_id": spec.change_id,
+            "characteristics": [c.name for c in spec.characteristics],
+            "rows_read": sum(f.rows_read for f in measurements.files),
+            "notes": list(measurements.notes)})
+        shown += 1
     if failed:
         for path, exc in failed:
             print(f"{path}: invalid\n{_indent(exc.report())}", file=sys.stderr)
         valid = len(paths) - len(failed)
         print(f"{len(failed)} of {len(paths)} specs invalid ({valid} valid)", file=sys.stderr)
         return EXIT_INVALID
-    print(f"\n{len(paths)} spec{'s' if len(paths) != 1 else ''} valid")
+    say(f"\n{len(paths)} spec{'s' if len(paths) != 1 else ''} valid")
     return EXIT_OK
 
 
@@ -275,23 +282,56 @@ def _names(items, limit: int = 10, *, quote: bool = True) -> str:
 
 
 def add_schema(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
-    return sub.add_parser(
+    p = sub.add_parser(
         "schema",
-        help="print the JSON Schema of the spec format",
+        help="print the JSON Schema of the spec format (or, with --result, of the JSON result)",
         description=(
             "Print the JSON Schema of the spec format verify/1. Editors use it to complete and "
             "check spec files: the sample specs start with the line "
-            "'# yaml-language-server: $schema=verify-spec.schema.json'."
+            "'# yaml-language-server: $schema=verify-spec.schema.json'. With --result, print "
+            "the JSON Schema of the result format verify-result/1 instead (the file "
+            "verify/result.schema.json), for programs that read the results."
         ),
-        epilog="example:\n  verify schema > specs/verify-spec.schema.json",
+        epilog="example:\n  verify schema > specs/verify-spec.schema.json\n"
+               "  verify schema --result > verify-result.schema.json",
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
+    p.add_argument("--result", action="store_true",
+                   help="the schema of the JSON result (verify-result/1), not of the spec")
+    return p
 
 
 def cmd_schema(args: argparse.Namespace) -> int:
-    from .schema import schema_text
+    from .schema import result_schema_text, schema_text
 
-    sys.stdout.write(schema_text())
+    write(result_schema_text() if args.result else schema_text())
+    return EXIT_OK
+
+
+# -- verify completion ------------------------------------------------------------------------
+
+
+def add_completion(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
+    p = sub.add_parser(
+        "completion",
+        help="print a shell completion script (bash or zsh)",
+        description=(
+            "Print a script that completes verify's commands, options and file arguments in "
+            "bash or zsh. Load it from the shell's start-up file (zsh: source the file, or "
+            "eval \"$(verify completion zsh)\" in ~/.zshrc)."
+        ),
+        epilog=("example:\n  verify completion bash > ~/.local/share/bash-completion/"
+                "completions/verify\n  verify completion zsh > ~/.verify-completion.zsh"),
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    p.add_argument("shell", choices=("bash", "zsh"))
+    return p
+
+
+def cmd_completion(args: argparse.Namespace) -> int:
+    from .completion import completion_script
+
+    write(completion_script(args.shell, build_parser()))
     return EXIT_OK
 
 
@@ -334,6 +374,7 @@ COMMANDS: dict[str, tuple[Callable, Callable[[argparse.Namespace], int]]] = {
     "replay": (add_replay, cmd_replay),
     "nightly": (add_nightly, nightly_main),
     "plan": (add_plan, cmd_plan),
+    "completion": (add_completion, cmd_completion),
 }
 
 
@@ -356,7 +397,23 @@ def build_parser(only: str | None = None) -> argparse.ArgumentParser:
         if only is None or name == only:
             p = add(sub)
             p.set_defaults(func=run)
+            _add_output_options(p, json_lines=name in JSON_COMMANDS)
     return parser
+
+
+# commands with a line per spec (or per report) on stdout, which --json gives as JSON lines
+JSON_COMMANDS = ("check", "run", "replay", "nightly")
+
+
+def _add_output_options(p: argparse.ArgumentParser, *, json_lines: bool) -> None:
+    g = p.add_argument_group("output")
+    g.add_argument("-q", "--quiet", action="store_true",
+                   help="print nothing on stdout (errors still go to stderr); the exit status "
+                        "tells the outcome")
+    if json_lines:
+        g.add_argument("--json", action="store_true", dest="json_lines",
+                       help="print one JSON object per spec on stdout instead of text "
+                            "(JSON lines; see README, 'Scripts')")
 
 
 def _terminate(signum, frame):  # pragma: no cover - exercised through a subprocess
@@ -390,27 +447,32 @@ def main(argv: Sequence[str] | None = None) -> int:
     """
     import signal
 
+    from . import output
+
     _single_threaded_blas()
     given = list(sys.argv[1:] if argv is None else argv)
     parser = build_parser(given[0] if given and given[0] in COMMANDS else None)
     args = parser.parse_args(given)
+    output.set_mode(quiet=getattr(args, "quiet", False),
+                    json_lines=getattr(args, "json_lines", False))
     if threading_main():
         signal.signal(signal.SIGTERM, _terminate)
     try:
         from .audit import source_date_epoch
 
         source_date_epoch()  # refuse a bad value before any library reads it at import
-        return args.func(args)
+        status = args.func(args)
+        output.flush()  # a reader that closed the pipe early is no failure of the command
+        return status
     except VerifyError as exc:
         print(exc.report(), file=sys.stderr)
         return exc.exit_code
     except KeyboardInterrupt:
         print("interrupted", file=sys.stderr)
         return 130
-    except BrokenPipeError:  # output piped into head and the like
-        with contextlib.suppress(OSError):
-            sys.stderr.close()
-        return EXIT_INVALID
+    except BrokenPipeError:  # output piped into head and the like: the reader has enough
+        output.pipe_closed()
+        return EXIT_OK
     except OSError as exc:
         where = f" {exc.filename}" if getattr(exc, "filename", None) else ""
         print(f"verify: cannot complete:{where}: {exc.strerror or exc}; nothing was "

@@ -8,6 +8,7 @@ import sys
 from pathlib import Path
 
 from .errors import UsageError, VerifyError
+from .output import say
 
 EXIT_PASS, EXIT_HOLD, EXIT_INVALID, EXIT_PENDING = 0, 1, 2, 3
 
@@ -78,6 +79,13 @@ def summary_line(ev, target: Path | None = None) -> str:
     return f"{ev.spec.stem}: {ev.decision} ({chars}){where}"
 
 
+def summary_record(ev, workbook: Path, result: Path) -> dict:
+    """The ``--json`` line of one spec: what the text line says, as fields."""
+    return {"spec": str(ev.spec.path), "decision": ev.decision,
+            "characteristics": {c.name: c.decision for c in ev.characteristics},
+            "reasons": list(ev.reasons), "workbook": str(workbook), "result": str(result)}
+
+
 def cmd_run(args: argparse.Namespace) -> int:
     from .audit import command_line
     from .runner import CommitError, check_target, commit_all, prepare, stage_outputs
@@ -101,6 +109,7 @@ def cmd_run(args: argparse.Namespace) -> int:
             failed.append((p, exc))
     if failed:
         for p, exc in failed:
+            say(None, {"spec": str(p), "valid": False, "errors": exc.report().splitlines()})
             print(f"{p}: invalid\n" + "\n".join("  " + ln for ln in exc.report().splitlines()),
                   file=sys.stderr)
         print(f"{len(failed)} of {len(paths)} specs invalid: nothing written", file=sys.stderr)
@@ -127,7 +136,7 @@ def cmd_run(args: argparse.Namespace) -> int:
     except CommitError as exc:
         raise VerifyError(f"verify run: {exc}") from None
     for ev, outs in zip(evaluations, outputs, strict=True):
-        print(summary_line(ev, outs.workbook))
+        say(summary_line(ev, outs.workbook), summary_record(ev, outs.workbook, outs.result))
     return decision_exit(ev.decision for ev in evaluations)
 
 
@@ -181,15 +190,15 @@ def cmd_replay(args: argparse.Namespace) -> int:
     from .replay import replay
 
     res = replay(args.report, max_data_mb=args.max_data_mb)
-    for n in res.notes:
-        print(f"note: {n}")
+    lines = [f"note: {n}" for n in res.notes]
     if res.reproduced:
-        print(f"{args.report}: reproduced")
-        return 0
-    for m in res.integrity:
-        print(f"integrity: {m}")
-    for d in res.differences:
-        print(f"differs: {d}")
-    print(f"{args.report}: NOT reproduced ({len(res.integrity)} integrity problem(s), "
-          f"{len(res.differences)} difference(s))")
-    return 1
+        lines.append(f"{args.report}: reproduced")
+    else:
+        lines += [f"integrity: {m}" for m in res.integrity]
+        lines += [f"differs: {d}" for d in res.differences]
+        lines.append(f"{args.report}: NOT reproduced ({len(res.integrity)} integrity "
+                     f"problem(s), {len(res.differences)} difference(s))")
+    say("\n".join(lines), {"report": str(args.report), "reproduced": res.reproduced,
+                           "integrity": res.integrity, "differences": res.differences,
+                           "notes": res.notes})
+    return 0 if res.reproduced else 1

@@ -21,16 +21,15 @@ table abort the statement, so even a hand-typed ``UPDATE`` in the sqlite3 shell 
 Each spec's rows are written in one transaction (``BEGIN IMMEDIATE`` ... ``COMMIT``).
 
 Only one nightly run may write a ledger at a time: :class:`LedgerLock` takes an exclusive
-``fcntl.flock`` on ``<ledger>.lock`` (released by the kernel if the holder dies, even by
-SIGKILL), waiting up to a timeout; SQLite's ``busy_timeout`` covers readers such as a person
+lock on ``<ledger>.lock`` (``fcntl.flock`` on POSIX, ``msvcrt.locking`` on Windows, see
+:mod:`verify.oslock`; released by the system if the holder dies, even by SIGKILL), waiting up
+to a timeout; SQLite's ``busy_timeout`` covers readers such as a person
 querying the ledger while a run writes.
 """
 
 from __future__ import annotations
 
 import contextlib
-import errno
-import fcntl
 import json
 import os
 import socket
@@ -40,6 +39,7 @@ from collections.abc import Iterator, Mapping
 from dataclasses import dataclass, field, fields
 from pathlib import Path
 
+from . import oslock
 from .errors import VerifyError
 
 SCHEMA_VERSION = "1"
@@ -574,23 +574,21 @@ class LedgerLock:
         deadline = time.monotonic() + max(self.timeout, 0.0)
         while True:
             try:
-                fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
-                break
-            except OSError as exc:
-                if exc.errno not in (errno.EAGAIN, errno.EACCES, errno.EWOULDBLOCK):
-                    os.close(fd)
-                    raise
-                if time.monotonic() >= deadline:
-                    holder = self._holder()
-                    os.close(fd)
-                    raise LedgerBusyError(
-                        f"{holder} (lock file {self.path}); waited {self.timeout:g} s; try "
-                        "again later, or raise --lock-timeout") from None
-                time.sleep(0.1)
+                if oslock.try_lock(fd, self.path):
+                    break
+            except OSError:
+                os.close(fd)
+                raise
+            if time.monotonic() >= deadline:
+                holder = self._holder()
+                os.close(fd)
+                raise LedgerBusyError(
+                    f"{holder} (lock file {self.path}); waited {self.timeout:g} s; try "
+                    "again later, or raise --lock-timeout") from None
+            time.sleep(0.1)
         info = {"pid": os.getpid(), "host": socket.gethostname(), "since": self.started,
                 "run_id": self.run_id}
-        os.ftruncate(fd, 0)
-        os.pwrite(fd, (json.dumps(info) + "\n").encode("utf-8"), 0)
+        oslock.write_text_at_start(fd, json.dumps(info) + "\n")
         self._fd = fd
 
     def release(self) -> None:
@@ -598,7 +596,7 @@ class LedgerLock:
             # The file stays: removing a lock file that another process may be opening races.
             with contextlib.suppress(OSError):
                 os.ftruncate(self._fd, 0)
-            fcntl.flock(self._fd, fcntl.LOCK_UN)
+            oslock.unlock(self._fd, self.path)
             os.close(self._fd)
             self._fd = None
 

@@ -40,12 +40,15 @@ class DataFileInfo:
     resolved_path: str
     sha256: str
     size: int  # bytes
-    encoding: str  # "utf-8", "utf-8-sig", "latin-1" or "xlsx"
+    encoding: str  # "utf-8", "utf-8-sig", "windows-1252", "latin-1", "xlsx", "parquet", "sql"
     rows_read: int  # data rows in the file (excluding the header)
     rows_used: int  # rows with at least one used measurement
     rows_excluded: int
     exclusions: tuple[tuple[str, int], ...] = ()  # (reason, number of measurements)
     sheet: str | None = None
+    # SQL sources: kind, url (password masked), url_env, query, params, server, rows_fetched;
+    # sha256 and size are then those of the fetched rows' canonical CSV (the run's snapshot)
+    origin: dict | None = None
 
 
 @dataclass(frozen=True)
@@ -56,6 +59,11 @@ class Measurements:
     files: tuple[DataFileInfo, ...]
     unassigned_lots: tuple[str, ...] = ()  # lots matching neither lots.old nor lots.new
     notes: tuple[str, ...] = ()  # e.g. "read as Latin-1 (not UTF-8)"
+
+    def __repr__(self) -> str:
+        files = ", ".join(f.path for f in self.files)
+        return (f"<Measurements: {len(self.table)} measurements from {files or 'no file'}; "
+                ".table for the tidy table>")
 
     def values(self, characteristic: str, process: str):
         """Used values of one characteristic and process, in production order (numpy array)."""
@@ -204,3 +212,20 @@ class Evaluation:
             if c.name == name:
                 return c
         raise KeyError(name)
+
+    def to_frame(self):
+        """One row per check (pandas DataFrame): characteristic, check, method, outcome,
+        estimate, standard error, statistic, df, p-values, interval, margin, power, reason."""
+        from .report.notebook import to_frame
+
+        return to_frame(self)
+
+    def __repr__(self) -> str:
+        from .report.notebook import short_repr
+
+        return short_repr(self)
+
+    def _repr_html_(self) -> str:
+        from .report.notebook import to_html
+
+        return to_html(self)

@@ -38,6 +38,7 @@ from __future__ import annotations
 import argparse
 import contextlib
 import hashlib
+import io
 import os
 import sys
 import textwrap
@@ -198,6 +199,8 @@ class Outcome:
     # the outputs as temporary files; the parent renames them after the ledger entry
     tmp_workbook: str | None = None
     tmp_result: str | None = None
+    # (temporary file, target) of a SQL source's snapshot, renamed with the outputs
+    tmp_extras: tuple[tuple[str, str], ...] = ()
 
 
 def _sha256_file(path: str, max_bytes: int | None = None) -> str | None:
@@ -246,6 +249,15 @@ def fingerprint(spec_path: Path, raw: bytes, last: Entry | None, *,
     opened. Runs in a worker (:func:`probe`): hashing may meet a file that hangs.
     """
     spec_sha = hashlib.sha256(raw).hexdigest()
+    if _is_sql(raw):  # the data are a query's rows: fetch them and hash their canonical CSV
+        from .sources.sql import nightly_fingerprint
+
+        files = nightly_fingerprint(spec_path, raw)
+        if root is not None:  # a sqlite file must lie under the data root; a server need not
+            refused = outside_root([d.file for d in files], root)
+            if refused:
+                raise VerifyError(f"{spec_path}: {refused}")
+        return Fingerprint(spec_sha, files, __version__)
     if last is not None and last.spec_sha256 == spec_sha and last.data_files:
         paths = [(d.path, d.file) for d in last.data_files]
     else:
@@ -256,6 +268,22 @@ def fingerprint(spec_path: Path, raw: bytes, last: Entry | None, *,
             raise VerifyError(f"{spec_path}: {refused}")
     files = tuple(DataFile(p, f, _sha256_file(f, max_bytes)) for p, f in paths)
     return Fingerprint(spec_sha, files, __version__)
+
+
+def _data_file_key(spec) -> str:
+    """The ledger's name of a spec's data: its file, or ``sql:<URL>`` for a database server."""
+    if spec.data.source == "sql":
+        from .sources.sql import data_file_key
+
+        return data_file_key(spec)
+    return str(spec.data.file)
+
+
+def _is_sql(raw: bytes) -> bool:
+    """Whether a spec's data come from a SQL query (a light look at its data.source)."""
+    import re
+
+    return re.search(rb"(?m)^[ \t]+source:[ \t]*[\"']?sql\b", raw) is not None
 
 
 @dataclass(frozen=True)
@@ -296,8 +324,12 @@ def probe(task: ProbeTask) -> Probe:
 
 
 def outside_root(files: Iterable[str], root: Path) -> str | None:
-    """The refusal message when a data file resolves outside ``root`` (None when all inside)."""
+    """The refusal message when a data file resolves outside ``root`` (None when all inside).
+
+    A database server (``sql:`` entries) is no file: the data root does not apply to it."""
     for f in files:
+        if str(f).startswith("sql:"):
+            continue
         resolved = Path(f).resolve()
         if not resolved.is_relative_to(root):
             return (f"data file {f} resolves to {resolved}, outside --data-root {root}: "
@@ -389,7 +421,7 @@ def run_task(task: Task) -> Outcome:
         ev = prepare(task.spec_path, final=task.evaluate_final, command=task.command, text=text,
                      max_data_mb=task.max_data_mb, data_root=task.data_root)
         files = tuple(
-            DataFile(f.path, str(ev.spec.data.file) if i == 0 else f.resolved_path, f.sha256)
+            DataFile(f.path, _data_file_key(ev.spec) if i == 0 else f.resolved_path, f.sha256)
             for i, f in enumerate(ev.measurements.files))
         table = ev.spec.characteristics_table
         if table is not None:  # the characteristics table joins the fingerprint
@@ -413,7 +445,8 @@ def run_task(task: Task) -> Outcome:
             standing=standing, workbook_path=str(staged.workbook),
             result_path=str(staged.result), workbook_sha256=staged.workbook_sha256,
             evaluation_id=ev.run.run_id, supersedes_reason=ev.spec.supersedes_reason,
-            tmp_workbook=str(staged.tmp_workbook), tmp_result=str(staged.tmp_result))
+            tmp_workbook=str(staged.tmp_workbook), tmp_result=str(staged.tmp_result),
+            tmp_extras=tuple((str(t), str(g)) for t, g in staged.extras))
     except VerifyError as exc:
         return Outcome(task.spec_key, started, _utc(), error=exc.report())
     except MemoryError:
@@ -587,7 +620,8 @@ def _commit(entry: Entry, outcome: Outcome) -> str | None:
         return None
     staged = Staged(Path(outcome.workbook_path), Path(outcome.result_path),
                     Path(outcome.tmp_workbook), Path(outcome.tmp_result),
-                    outcome.workbook_sha256 or "")
+                    outcome.workbook_sha256 or "",
+                    tuple((Path(t), Path(g)) for t, g in outcome.tmp_extras))
     try:
         commit_all([staged])
         result = Path(outcome.result_path)
@@ -677,7 +711,10 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
     started = _utc()
     run_id = f"{_stamp(started)}-{uuid.uuid4().hex[:8]}"
     command = command if command is not None else command_line()
-    stream = progress_stream if progress_stream is not None else sys.stderr
+    from .output import QUIET, mode
+
+    stream = progress_stream if progress_stream is not None else (
+        io.StringIO() if mode() == QUIET else sys.stderr)
     progress = Progress(total=len(specs), stream=stream)
 
     with LedgerLock(ledger_path, timeout=lock_timeout, started=started, run_id=run_id), \
@@ -756,13 +793,20 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
         with atomic_path(digest) as tmp:
             write_digest(tmp, rows, run=run_facts)
 
+    from .output import say
+
     width = min(max((len(r.name) for r in rows), default=0), 40)
     for r in rows:
-        print(summary_line(r, width))
+        say(summary_line(r, width), {
+            "spec": r.spec_path, "name": r.name, "state": r.state, "decision": r.decision,
+            "previous_decision": r.previous_decision, "standing": r.standing,
+            "record": r.record, "drift": r.drift, "new_lots": list(r.new_lots),
+            "changes": r.changes(), "error": r.error, "workbook": r.workbook,
+            "run_id": run_id})
     counts = {s: sum(r.state == s for r in rows) for s in ("RUN", "UNCHANGED", "ERROR")}
-    print(f"nightly {run_id}: {len(rows)} spec(s): {counts['RUN']} ran, "
-          f"{counts['UNCHANGED']} unchanged, {counts['ERROR']} error(s); digest {digest}; "
-          f"exit {status}")
+    say(f"nightly {run_id}: {len(rows)} spec(s): {counts['RUN']} ran, "
+        f"{counts['UNCHANGED']} unchanged, {counts['ERROR']} error(s); digest {digest}; "
+        f"exit {status}")
     return NightlyResult(run_id=run_id, exit_status=status, rows=tuple(rows), digest=digest,
                          ledger=ledger_path)
 

@@ -8,6 +8,7 @@ and compares every decision and number at a relative tolerance of 1e-12.
 
 from __future__ import annotations
 
+import contextlib
 import hashlib
 import json
 import math
@@ -197,6 +198,7 @@ def validate_record(doc: dict, path: Path) -> None:
                 problems.append(f"{where}.path must not be empty")
             want(f, "resolved_path", f"{where}.resolved_path", (str,), "a path (text)",
                  optional=True)
+            want(f, "source", f"{where}.source", (dict,), "an object", optional=True)
             sha = want(f, "sha256", f"{where}.sha256", (str,), "text")
             if sha is not None and not _is_sha256(sha):
                 problems.append(f"{where}.sha256 must be 64 lower-case hex digits")
@@ -322,19 +324,26 @@ def replay(report: str | Path, *, max_data_mb: float | None = None) -> ReplayRes
                           f"its spec text names ({wanted!r}): the record is damaged or was "
                           "edited; replay reads only the data the spec names")
     f = listed[wanted]
-    data_file = spec.data.file
-    limit = max_data_bytes(max_data_mb)
-    if not data_file.exists() and not data_file.is_symlink():
-        res.integrity.append(f"data file missing: {f['path']} (recorded sha256 {f['sha256']})")
-        return res
-    try:
-        now = sha256_regular(data_file, what="data file", max_bytes=limit,
-                             limit_hint=DATA_LIMIT_HINT)
-    except FileRefused as exc:
-        raise ReportError(f"data file {f['path']} of {path}: {exc.reason}") from None
-    if now != f["sha256"]:
-        res.integrity.append(
-            f"data file changed: {f['path']} (recorded sha256 {f['sha256']}, now {now})")
+    snapshots = []
+    if spec.data.source == "sql":  # the rows are in the snapshot beside the report
+        snapshots.append(_sql_snapshot(path, f, res, max_data_mb))
+        if res.integrity:
+            return res
+    else:
+        data_file = spec.data.file
+        limit = max_data_bytes(max_data_mb)
+        if not data_file.exists() and not data_file.is_symlink():
+            res.integrity.append(f"data file missing: {f['path']} (recorded sha256 "
+                                 f"{f['sha256']})")
+            return res
+        try:
+            now = sha256_regular(data_file, what="data file", max_bytes=limit,
+                                 limit_hint=DATA_LIMIT_HINT)
+        except FileRefused as exc:
+            raise ReportError(f"data file {f['path']} of {path}: {exc.reason}") from None
+        if now != f["sha256"]:
+            res.integrity.append(
+                f"data file changed: {f['path']} (recorded sha256 {f['sha256']}, now {now})")
     table = spec.characteristics_table  # read (and hashed) by load_spec, from the spec text
     recorded_table = doc["spec"].get("characteristics_from") or {}
     if table is not None and recorded_table.get("sha256") != table.sha256:
@@ -350,8 +359,13 @@ def replay(report: str | Path, *, max_data_mb: float | None = None) -> ReplayRes
     recorded_version = (doc.get("tool") or {}).get("version")
     if recorded_version != __version__:
         res.notes.append(f"verify was {recorded_version} when recorded, is {__version__} now")
-    ev = prepare(spec_path, final=bool(doc.get("final")), command="verify replay",
-                 text=spec_text, max_data_mb=max_data_mb)
+    with contextlib.ExitStack() as stack:
+        from .sources.snapshot import use
+
+        for raw, origin in snapshots:
+            stack.enter_context(use(recorded_sha, raw, origin))
+        ev = prepare(spec_path, final=bool(doc.get("final")), command="verify replay",
+                     text=spec_text, max_data_mb=max_data_mb)
     from .report.json_result import result_dict
 
     now_doc = result_dict(ev)
@@ -360,3 +374,26 @@ def replay(report: str | Path, *, max_data_mb: float | None = None) -> ReplayRes
     _compare(recorded, {k: v for k, v in now_doc.items() if k not in _RUN_KEYS}, "",
              res.differences)
     return res
+
+
+def _sql_snapshot(report: Path, f: dict, res: ReplayResult, max_data_mb: float | None = None):
+    """The rows a SQL source returned at the run, from ``<report stem>.rows.csv`` beside the
+    report, checked against the recorded sha256: a replay needs no database."""
+    from .safe_open import DATA_LIMIT_HINT, FileRefused, max_data_bytes, read_regular
+    from .sources.snapshot import snapshot_path
+
+    snap = snapshot_path(report)
+    if not snap.exists() and not snap.is_symlink():
+        res.integrity.append(f"snapshot of the SQL rows missing: {snap} (recorded sha256 "
+                             f"{f['sha256']}); it is written beside the JSON result")
+        return b"", {}
+    try:
+        raw = read_regular(snap, what="snapshot", max_bytes=max_data_bytes(max_data_mb),
+                           limit_hint=DATA_LIMIT_HINT)
+    except FileRefused as exc:
+        raise ReportError(f"snapshot {snap} of {report}: {exc.reason}") from None
+    now = hashlib.sha256(raw).hexdigest()
+    if now != f["sha256"]:
+        res.integrity.append(f"snapshot of the SQL rows changed: {snap} (recorded sha256 "
+                             f"{f['sha256']}, now {now})")
+    return raw, f.get("source") if isinstance(f.get("source"), dict) else {}

@@ -40,7 +40,10 @@ def prepare(spec_path: str | Path, *, final: bool = False, command: str | None =
 
     started = utc_now()
     spec = load_spec(spec_path, text=text)
-    if data_root is not None:
+    # a database server is no file under the data root; a sqlite file is (spec.data.file)
+    server = spec.data.source == "sql" and not (spec.data.url or "").lower().startswith(
+        "sqlite:///")
+    if data_root is not None and not server:
         check_data_root(spec.data.file, data_root, spec.path)
     measurements = load_measurements(spec, max_bytes=max_data_bytes(max_data_mb))
     run = run_info(spec, measurements, command=command, started=started)
@@ -93,18 +96,21 @@ class Staged:
     tmp_workbook: Path
     tmp_result: Path
     workbook_sha256: str
+    # (temporary file, target): a SQL source's rows beside the result (its snapshot)
+    extras: tuple[tuple[Path, Path], ...] = ()
 
     def commit(self) -> Outputs:
         return commit_all([self])[0]
 
     def discard(self) -> None:
-        for p in (self.tmp_workbook, self.tmp_result):
+        for p in (self.tmp_workbook, self.tmp_result, *(t for t, _ in self.extras)):
             with contextlib.suppress(FileNotFoundError):
                 p.unlink()
 
     def pairs(self) -> list[tuple[Path, Path]]:
-        """(temporary file, target) in the order they are renamed."""
-        return [(self.tmp_workbook, self.workbook), (self.tmp_result, self.result)]
+        """(temporary file, target) in the order they are renamed: a SQL source's snapshot
+        first, so that a result never names a snapshot that is not there."""
+        return [*self.extras, (self.tmp_workbook, self.workbook), (self.tmp_result, self.result)]
 
 
 class CommitError(OSError):
@@ -235,7 +241,9 @@ def stage_outputs(ev: Evaluation, workbook: Path, result: Path, *,
 
     tmp_wb = _temp_beside(workbook)
     tmp_res = None
+    extras: list[tuple[Path, Path]] = []
     try:
+        extras = _stage_snapshots(ev, result)
         # the workbook's zip and document times come from the run's start, so reruns under
         # SOURCE_DATE_EPOCH are byte-identical
         write_workbook(ev, tmp_wb, record_json=dumps(result_dict(ev)), detail=detail)
@@ -246,12 +254,30 @@ def stage_outputs(ev: Evaluation, workbook: Path, result: Path, *,
         tmp_res.write_text(dumps(doc), encoding="utf-8")
         _fsync(tmp_res)
     except BaseException:
-        for p in (tmp_wb, tmp_res):
+        for p in (tmp_wb, tmp_res, *(t for t, _ in extras)):
             if p is not None:
                 with contextlib.suppress(FileNotFoundError):
                     p.unlink()
         raise
-    return Staged(workbook, result, tmp_wb, tmp_res, digest)
+    return Staged(workbook, result, tmp_wb, tmp_res, digest, tuple(extras))
+
+
+def _stage_snapshots(ev: Evaluation, result: Path) -> list[tuple[Path, Path]]:
+    """The fetched rows of each SQL source, staged as ``<result stem>.rows.csv``."""
+    from .sources.snapshot import fetched_rows, snapshot_path
+
+    out = []
+    for f in ev.measurements.files:
+        if f.origin is None:
+            continue
+        raw = fetched_rows(f.sha256)
+        if raw is None:  # pragma: no cover - the rows are held from the fetch to the outputs
+            raise RuntimeError("the fetched SQL rows are no longer held for the snapshot")
+        tmp = _temp_beside(snapshot_path(result))
+        out.append((tmp, snapshot_path(result)))
+        tmp.write_bytes(raw)
+        _fsync(tmp)
+    return out
 
 
 def _fsync(path: Path) -> None:

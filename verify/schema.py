@@ -24,6 +24,7 @@ import yaml
 from yaml.constructor import ConstructorError, SafeConstructor
 
 SCHEMA_RESOURCE = "spec.schema.json"
+RESULT_SCHEMA_RESOURCE = "result.schema.json"
 
 # Keywords the validator understands; annotations (description, default, ...) are ignored.
 SUPPORTED_KEYWORDS = frozenset(
@@ -56,6 +57,13 @@ MAX_NODES = 200_000
 def schema_text() -> str:
     """The JSON Schema of the spec format, as the text that ``verify schema`` prints."""
     return resources.files("verify").joinpath(SCHEMA_RESOURCE).read_text(encoding="utf-8")
+
+
+@cache
+def result_schema_text() -> str:
+    """The JSON Schema of the result format verify-result/1 (``verify schema --result``)."""
+    return resources.files("verify").joinpath(RESULT_SCHEMA_RESOURCE).read_text(
+        encoding="utf-8")
 
 
 @cache

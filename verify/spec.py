@@ -55,7 +55,7 @@ from .spec_model import (
     TargetCheck,
 )
 
-DATA_SUFFIXES = (".csv", ".tsv", ".xlsx")
+DATA_SUFFIXES = (".csv", ".tsv", ".xlsx", ".parquet")
 SPEC_SUFFIXES = (".yaml", ".yml")
 CHECK_NAMES = ("target", "shift", "spread", "capability", "conformance")
 DEFAULT_MISSING = ("", "NA")
@@ -366,7 +366,7 @@ class _Checker:
         if self.ok(data, "file", "data.file"):
             suffix = Path(data["file"]).suffix.lower()
             if suffix not in DATA_SUFFIXES:
-                self.add("data.file", f"must end in .csv, .tsv or .xlsx, not "
+                self.add("data.file", f"must end in .csv, .tsv, .xlsx or .parquet, not "
                          f"{suffix or 'no extension'!r}")
             elif "sheet" in data and suffix != ".xlsx":
                 self.add("data.sheet", f"applies to .xlsx files only; {data['file']!r} is "
@@ -382,6 +382,9 @@ class _Checker:
                 if data.get(other) == data["stream"] and self.ok(data, "stream", "data.stream"):
                     self.add("data.stream", f"data.stream and data.{other} name the same "
                              f"column {data['stream']!r}")
+        from .sources.spec_keys import check as check_source_keys
+
+        check_source_keys(data, self.add, self.ok)
         if (self.ok(data, "characteristic", "data.characteristic")
                 and self.ok(data, "value", "data.value")
                 and data["characteristic"] == data["value"]):
@@ -720,9 +723,19 @@ def _build(path: Path, text: str, doc: Document,
 
 
 def _build_data(spec_path: Path, d: dict, doc: Document, rec) -> DataSpec:
-    file_text = d["file"]
-    file = Path(os.path.abspath(spec_path.parent / file_text))
-    rec("data.file", file_text)
+    from .sources.spec_keys import build as build_source
+    from .sources.spec_keys import sql_url_path
+
+    if d.get("source") == "sql":  # the rows come from a query; a sqlite file is its "file"
+        db = sql_url_path(spec_path, d.get("url"))
+        file_text = d.get("url") or f"${d.get('url_env')}"
+        file = db if db is not None else Path(os.path.abspath(spec_path.parent))
+    elif d.get("source") == "dataframe":  # the Python API passes the rows
+        file_text, file = "<DataFrame>", Path(os.path.abspath(spec_path.parent))
+    else:
+        file_text = d["file"]
+        file = Path(os.path.abspath(spec_path.parent / file_text))
+        rec("data.file", file_text)
     if "sheet" in d:
         rec("data.sheet", d["sheet"])
     elif file.suffix.lower() == ".xlsx":
@@ -743,11 +756,13 @@ def _build_data(spec_path: Path, d: dict, doc: Document, rec) -> DataSpec:
     rec("data.missing", list(missing))
     ignore_other = bool(d.get("ignore_other", False))
     rec("data.ignore_other", ignore_other)
+    source_fields = build_source(spec_path, d, rec)
     return DataSpec(
         file=file, file_text=file_text, lot=d["lot"], sheet=d.get("sheet"),
         process=d.get("process"), old=old, new=new, pair=d.get("pair"),
         characteristic=d.get("characteristic"), value=d.get("value"), order=d.get("order"),
         decimal=decimal, missing=missing, ignore_other=ignore_other, stream=d.get("stream"),
+        **source_fields,
     )
 
 

@@ -190,6 +190,14 @@ class DataSpec:
     missing: tuple[str, ...] = ("", "NA")
     ignore_other: bool = False
     stream: str | None = None  # column naming the stream (cavity, spindle) of a new part
+    encoding: str | None = None  # text files: declared encoding; None: detected
+    formula_cells: str = "error"  # xlsx: "error" or "saved-results"
+    filters: tuple[tuple[str, str, object], ...] = ()  # parquet: (column, operator, value)
+    source: str = "file"  # "file" or "sql"
+    url: str | None = None  # sql: a URL without password, as written
+    url_env: str | None = None  # sql: name of the environment variable holding the URL
+    query: str | None = None  # sql: the SELECT statement
+    params: tuple[tuple[str, object], ...] = ()  # sql: bound parameters, sorted by name
 
     @property
     def layout(self) -> str:
@@ -267,6 +275,10 @@ class Spec:
     @property
     def stem(self) -> str:
         return self.path.stem
+
+    def __repr__(self) -> str:
+        return (f"<Spec {self.title!r} ({self.path.name}): {len(self.characteristics)} "
+                f"characteristics, data {self.data.file_text}>")
 
     def characteristic(self, name: str) -> Characteristic:
         for c in self.characteristics:

@@ -127,6 +127,10 @@ def write_audit(ws, ev: Evaluation) -> None:
         for j, v in enumerate(values, start=1):
             put(ws, row, j, v, fmt=INT_FORMAT if isinstance(v, int) else None, align=WRAP)
         row += 1
+        for key, value in _source_lines(f.origin):
+            put(ws, row, 1, f"  {key}", font=NOTE_FONT)
+            put(ws, row, 2, value, align=WRAP)
+            row += 1
         for reason, n in f.exclusions:
             put(ws, row, 1, "  excluded", font=NOTE_FONT)
             put(ws, row, 2, reason, align=WRAP)
@@ -213,3 +217,21 @@ def write_audit(ws, ev: Evaluation) -> None:
     ws.page_setup.fitToWidth = 1
     ws.page_setup.fitToHeight = 0
     ws.sheet_properties.pageSetUpPr.fitToPage = True
+
+
+def _source_lines(origin: dict | None) -> list[tuple[str, str]]:
+    """What the audit trail says of a SQL source: the rows came from this query, on this
+    server, and their canonical CSV (hashed above) is kept beside the result as its snapshot."""
+    if not origin:
+        return []
+    import json
+
+    out = [("source", "SQL query; the sha256 above is that of the fetched rows as canonical "
+            "CSV, kept beside the JSON result as <result>.rows.csv for replay"),
+           ("query", str(origin.get("query", ""))),
+           ("url", str(origin.get("url") or "") + (f" (from ${origin['url_env']})"
+                                                   if origin.get("url_env") else "")),
+           ("server", str(origin.get("server", "")))]
+    if origin.get("params"):
+        out.append(("params", json.dumps(origin["params"], ensure_ascii=False, sort_keys=True)))
+    return out

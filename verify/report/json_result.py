@@ -159,6 +159,7 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
                 "rows_used": f.rows_used,
                 "rows_excluded": f.rows_excluded,
                 "exclusions": [{"reason": r, "count": n} for r, n in f.exclusions],
+                "source": f.origin,
             }
             for f in ev.measurements.files
         ],

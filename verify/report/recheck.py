@@ -5,7 +5,7 @@ trusting verify. :func:`recheck_rows` writes, for each characteristic and each c
 live formulas that start from the used values on the measurements sheet (the blocks of
 :func:`verify.report.layout.measurement_layout`) and rebuild the counts, means, standard
 deviations, the t statistics, degrees of freedom, p-values, intervals, the F ratio and the
-capability indices with COUNT, AVERAGE, STDEV.S, T.DIST, BETA.DIST and friends. Beside each
+capability indices with COUNT, AVERAGE, STDEV.S, TDIST, BETA.DIST and friends. Beside each
 formula stand the engine's value, the difference and an agreement cell that is TRUE when
 ``|sheet - engine| <= tolerance * MAX(1, |engine|)``.
 
@@ -15,8 +15,11 @@ other cells are values or text (no text cell starts with ``"="``).
 Notes on the spreadsheet functions
 ----------------------------------
 * Functions newer than Excel 2007 are written with their ``_xlfn.`` prefix (``_xlfn.STDEV.S``,
-  ``_xlfn.T.DIST.2T``, ...): that is how the file format stores them; Excel shows them plainly.
-* T.DIST, T.DIST.2T, T.DIST.RT and T.INV.2T truncate the degrees of freedom to an integer
+  ``_xlfn.T.INV.2T``, ...): that is how the file format stores them; Excel shows them plainly.
+* Only functions that Excel, LibreOffice and gnumeric all evaluate are used: t tail
+  probabilities come from TDIST (gnumeric has no T.DIST, T.DIST.RT, T.DIST.2T nor NORM.S.DIST;
+  tests/test_recheck_gnumeric.py recalculates the demo workbooks in gnumeric).
+* TDIST (like T.DIST*) and T.INV.2T truncate the degrees of freedom to an integer
   (Excel documents it; LibreOffice 7.4 does it too, see tests/test_recheck_libreoffice.py), and
   so does F.DIST.RT; every F test here has integer df. Where the df is fractional (Welch), the
   p-values come from the regularised incomplete beta function instead: the two-sided tail of
@@ -27,8 +30,9 @@ Notes on the spreadsheet functions
   the Welch p-value as a cross-check.
 * The Holm step-down adjustment is rebuilt without sorting: the step of p_j is
   ``(m - SUMPRODUCT(--(P < p_j))) * p_j`` and the adjusted p_i is
-  ``MIN(1, SUMPRODUCT(MAX((P <= p_i) * STEPS)))``, which equals the running maximum of the
-  sorted steps, ties included.
+  ``MIN(1, MAX((p_1 <= p_i) * step_1, ...))`` (one scalar term per step, which gnumeric
+  evaluates too; beyond :data:`HOLM_SCALAR_TERMS` steps ``MIN(1, SUMPRODUCT(MAX((P <= p_i) *
+  STEPS)))``), which equals the running maximum of the sorted steps, ties included.
 * Criteria functions (AVERAGEIFS, MAXIFS, MINIFS) read ``*``, ``?`` and ``~`` as wildcards and
   a leading ``<``, ``>`` or ``=`` as an operator, and compare text without regard to case. Lot
   names are therefore written as ``"=" + name`` with the wildcards escaped by ``~``; where two
@@ -169,19 +173,36 @@ class _Sheet:
 # --- t distribution formulas ------------------------------------------------------------------
 
 
+# Holm families up to this size write the adjusted p as MAX of scalar terms (portable to
+# gnumeric); larger ones use one array formula (Excel's MAX takes at most 255 arguments)
+HOLM_SCALAR_TERMS = 60
+
+
+def _abs_diff(a: str, b: str) -> str:
+    """|a - b| element by element inside SUMPRODUCT, with comparisons instead of ABS: gnumeric
+    does not apply ABS to each element of an array there (it returns a wrong sum or #VALUE!),
+    while comparisons and arithmetic work in Excel, LibreOffice and gnumeric alike."""
+    return f"(({a})>({b}))*(({a})-({b}))+(({b})>({a}))*(({b})-({a}))"
+
+
 def _beta_two_tail(t: str, df: str) -> str:
     # P(|T| >= |t|) = I_x(df/2, 1/2) with x = df / (df + t^2): exact for fractional df
     return f"_xlfn.BETA.DIST({df}/({df}+{t}^2),{df}/2,0.5,TRUE)"
 
 
+# TDIST(x, df, tails) (x >= 0) is evaluated by Excel, LibreOffice and gnumeric alike; the newer
+# T.DIST, T.DIST.RT and T.DIST.2T are unknown to gnumeric (#NAME?). A tail is subtracted from 1
+# only where the result is at least 0.5, so no precision is lost in the far tails.
+
+
 def _p_two(t: str, df: str, frac: bool) -> str:
-    return _beta_two_tail(t, df) if frac else f"_xlfn.T.DIST.2T(ABS({t}),{df})"
+    return _beta_two_tail(t, df) if frac else f"TDIST(ABS({t}),{df},2)"
 
 
 def _p_below(t: str, df: str, frac: bool) -> str:
     """P(T <= t)."""
     if not frac:
-        return f"_xlfn.T.DIST({t},{df},TRUE)"
+        return f"IF({t}<0,TDIST(-({t}),{df},1),1-TDIST({t},{df},1))"
     b = _beta_two_tail(t, df)
     return f"IF({t}<0,0.5*{b},1-0.5*{b})"
 
@@ -189,7 +210,7 @@ def _p_below(t: str, df: str, frac: bool) -> str:
 def _p_above(t: str, df: str, frac: bool) -> str:
     """P(T >= t)."""
     if not frac:
-        return f"_xlfn.T.DIST.RT({t},{df})"
+        return f"IF({t}>0,TDIST({t},{df},1),1-TDIST(-({t}),{df},1))"
     b = _beta_two_tail(t, df)
     return f"IF({t}>0,0.5*{b},1-0.5*{b})"
 
@@ -212,7 +233,7 @@ def _t_quantile(two_tail: str, df: str, frac: bool) -> str:
 
 
 _HOW_P = {
-    False: "T.DIST / T.DIST.RT / T.DIST.2T (integer df)",
+    False: "TDIST (integer df; one tail, or two)",
     True: "regularised incomplete beta BETA.DIST(df/(df+t^2), df/2, 1/2) (fractional df)",
 }
 _HOW_Q = {
@@ -845,13 +866,13 @@ def _brown_forsythe(sh: _Sheet, ch: CheckResult, o: _Sample, n: _Sample) -> None
         med = sh.qty(f"{s.process}: median", f"MEDIAN({s.ref})", None, "MEDIAN")
         mad = sh.qty(
             f"{s.process}: mean absolute deviation from the median",
-            f"SUMPRODUCT(ABS({s.ref}-{med}))/{s.n}",
+            f"SUMPRODUCT({_abs_diff(s.ref, med)})/{s.n}",
             None,
             "SUMPRODUCT(ABS(value - median)) / n",
         )
         ss = sh.qty(
             f"{s.process}: sum of squares of the absolute deviations",
-            f"SUMPRODUCT((ABS({s.ref}-{med})-{mad})^2)",
+            f"SUMPRODUCT(({_abs_diff(s.ref, med)}-{mad})^2)",
             None,
             "SUMPRODUCT((|value - median| - mean)^2)",
         )
@@ -975,7 +996,7 @@ def _moving_range(sh: _Sheet, ev, layout, name: str, block: Block, n: str) -> st
         b = Block(block.sheet, block.first, block.last - 1).ref(VALUE_COLUMN)
         return sh.qty(
             "average moving range",
-            f"SUMPRODUCT(ABS({a}-{b}))/({n}-1)",
+            f"SUMPRODUCT({_abs_diff(a, b)})/({n}-1)",
             None,
             "SUMPRODUCT(ABS(x[i+1] - x[i])) / (n - 1), rows in production order",
         )
@@ -1242,10 +1263,19 @@ def _multiplicity(sh: _Sheet, ev: Evaluation) -> None:
             "(m - number of smaller p-values) p",
         )
     steps = f"$B${first}:$B${sh.next_row - 1}"
+    step_cells = [f"$B${first + k}" for k in range(len(p_cells))]
     for (name, ch), p in zip(family, p_cells, strict=True):
+        if len(p_cells) <= HOLM_SCALAR_TERMS:
+            # one scalar term per step: gnumeric evaluates no MAX over an array inside
+            # SUMPRODUCT (#VALUE!), Excel and LibreOffice evaluate both forms alike
+            terms = ",".join(f"({q}<={p})*{st}" for q, st in zip(p_cells, step_cells,
+                                                                   strict=True))
+            formula = f"MIN(1,MAX({terms}))"
+        else:
+            formula = f"MIN(1,SUMPRODUCT(MAX(({ps}<={p})*{steps})))"
         sh.qty(
             f"adjusted p: {name}, {ch.check}",
-            f"MIN(1,SUMPRODUCT(MAX(({ps}<={p})*{steps})))",
+            formula,
             ch.p_adjusted,
             "MIN(1, the largest step among p-values <= this one) (Holm 1979)",
         )
