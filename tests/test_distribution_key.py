@@ -141,7 +141,7 @@ def test_recheck_rebuilds_lognormal_limits_and_percentile_indices(tmp_path):
     ev, k = _eval(_spec(tmp_path, new, distribution="lognormal",
                         checks=["capability: {}", "conformance: {}"]))
     rows = {r[0]: r for r in recheck_rows(ev, measurement_layout(ev)) if r}
-    assert "LN(" in rows["new: mean of the transformed values"][1]
+    assert "GEOMEAN(" in rows["new: mean of ln x"][1]
     assert rows["upper tolerance limit"][1].startswith("=EXP(")
     assert rows["upper tolerance limit"][2] == pytest.approx(k["conformance"].ci_high)
     assert rows["Ppk (percentile)"][2] == pytest.approx(k["capability"].estimate)

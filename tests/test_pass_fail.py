@@ -283,6 +283,13 @@ def test_json_and_workbook(tmp_path):
     assert "Counts by lot" in texts and "The rules in words" in texts
     assert wb["leak"]._charts, "the interval chart is drawn"
     assert any("Rate (pass-fail)" in t for t in texts)
+    # the decision page has a column per check kind: the rate cell shows its upper bound
+    # against the maximum, the rate change cell its interval against the margin
+    decision = [v for row in wb["Decision"].iter_rows(values_only=True) for v in row
+                if isinstance(v, str)]
+    assert any(t.startswith("Failure rate") for t in decision)
+    assert any("vs max 90.00%" in t for t in decision)
+    assert any("margin: below +50 points" in t for t in decision)
     proc = subprocess.run([sys.executable, "-m", "verify", "replay", str(out / "s.json")],
                           capture_output=True, text=True, cwd=ROOT)
     assert proc.returncode == 0, proc.stdout + proc.stderr

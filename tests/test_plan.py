@@ -316,20 +316,29 @@ def test_workbook_holds_inputs_results_method_and_a_chart_per_check(spec_path, t
     # the unit from the spec looks like a formula: it is stored as text
     unit = next(c for c in cells if c.value == '=HYPERLINK("x")')
     assert unit.data_type == "s"
-    # the results row of bore/shift carries the n needed and the power at n - 1
+    # the plan has a column per check: bore/shift's column carries the smallest sufficient
+    # trial and the power with one unit fewer
     ws = wb["Plan"]
-    header = next(r for r in ws.iter_rows() if r[0].value == "Characteristic")
-    cols = {c.value: c.column - 1 for c in header}
+    head = next(r for r in ws.iter_rows() if r[0].value == "Characteristic")
+    checks = next(r for r in ws.iter_rows(min_row=head[0].row + 1) if r[0].value == "Check")
+    col = next(c.column for c, k in zip(head, checks, strict=False)
+               if c.value == "bore" and k.value == "shift")
+    labels = {ws.cell(r, 1).value: r for r in range(head[0].row, ws.max_row + 1)}
     row = _row(plan, "bore", "shift")
-    found = [r for r in ws.iter_rows(min_row=header[0].row + 1, values_only=True)
-             if r[0] == "bore" and r[2] == "shift"]
-    assert len(found) == 1
-    assert found[0][cols["n needed (new)"]] == row.n_new
-    assert found[0][cols["Power at n needed - 1"]] == pytest.approx(row.power_below)
+    assert ws.cell(labels["Smallest trial that reaches it (per process)"], col).value == row.n_new
+    assert ws.cell(labels["Power with one unit fewer"], col).value == pytest.approx(
+        row.power_below)
     charts = _chart_xml(path)
     assert len(charts) == len(plan.rows) == 3
-    assert all("scatterChart" in x for x in charts)
-    assert all(f"n needed = {r.n_new}" in x for x, r in zip(charts, plan.rows, strict=True))
+    # our own chart: power by trial size as bars, coloured by whether they reach the wanted
+    # power; no target line and no marked n
+    assert all("barChart" in x for x in charts)
+    assert all(f"plan for {r.n_new} per process" in x for x, r in zip(charts, plan.rows,
+                                                                        strict=True))
+    # the words of the plan are our own
+    for x in (*texts, *charts):
+        for phrase in ("target power", "n needed", "power at n"):
+            assert phrase not in x.lower(), phrase
 
 
 def test_table_lists_every_check(spec_path):
@@ -369,7 +378,8 @@ def _verify_plan(*args: str, cwd: Path) -> subprocess.CompletedProcess:
 def test_cli_spec_form(spec_path, tmp_path):
     done = _verify_plan(str(spec_path), "--out", "plans", cwd=tmp_path)
     assert done.returncode == 0, done.stderr
-    assert "bore" in done.stdout and "torque" in done.stdout and "n needed" in done.stdout
+    assert "bore" in done.stdout and "torque" in done.stdout and "plan for" in done.stdout
+    assert "n needed" not in done.stdout and "target power" not in done.stdout
     book = tmp_path / "plans" / "press2-plan.xlsx"
     assert openpyxl.load_workbook(book).sheetnames == ["Plan", "Power curves"]
     assert len(_chart_xml(book)) == 3
@@ -384,7 +394,7 @@ def test_cli_standalone_form(tmp_path):
     ws = openpyxl.load_workbook(book)["Plan"]
     assert any(c.value == "ratio n_new / n_old" for row in ws.iter_rows() for c in row)
     (chart,) = _chart_xml(book)
-    assert "scatterChart" in chart
+    assert "barChart" in chart
 
 
 def test_cli_check_without_margin_and_without_detect(tmp_path):

@@ -70,6 +70,43 @@ def test_json_result_has_the_documented_fields(demo_run):
     assert set(d) >= {"name", "method", "group", "statistic", "p_value", "flag", "note"}
 
 
+def test_demo_part_beyond_a_limit_is_counted_and_noted(demo_run):
+    """The bushing demo holds one new-supplier part at 69.5 HB below the 70 HB limit (row 75 of
+    sample_lots/bushing_lots.csv); the expected ppm is the normal model on the used values,
+    recomputed here with scipy.stats.norm."""
+    import csv
+
+    from scipy import stats as sps
+
+    _, out, _ = demo_run
+    doc = json.loads((out / "bushing-supplier.json").read_text(encoding="utf-8"))
+    assert doc["decision"] == "PASS"
+    c = next(c for c in doc["characteristics"] if c["name"] == "hardness")
+    new, old = c["processes"]["new"]["beyond_limits"], c["processes"]["old"]["beyond_limits"]
+    assert (new["below"], new["above"]) == (1, 0)
+    assert (old["below"], old["above"]) == (0, 0)
+    text = (ROOT / "sample_lots" / "bushing_lots.csv").read_text(encoding="utf-8")
+    rows = list(csv.DictReader(text.splitlines()))
+    # row 57 (spreadsheet count; index 55 here) is excluded by the spec; NA is not measured
+    values = [float(r["hardness_HB"]) for i, r in enumerate(rows, start=2)
+              if r["supplier"] == "Marrowfield" and i != 57 and r["hardness_HB"] not in ("", "NA")]
+    mean = sum(values) / len(values)
+    sd = (sum((v - mean) ** 2 for v in values) / (len(values) - 1)) ** 0.5
+    assert new["expected_ppm"] == pytest.approx(1e6 * sps.norm.cdf(70, mean, sd), rel=1e-9)
+    assert any("1 part beyond the specification limits (1 below 70 HB)" in r
+               for r in c["review"])
+    assert any("hardness (new): 1 part beyond" in r for r in doc["review"])
+    # characteristics without beyond parts carry zeros, not nulls; none without limits
+    for ch in doc["characteristics"]:
+        for p in ch["processes"].values():
+            assert set(p["beyond_limits"]) == {"below", "above", "expected_ppm"}
+    wb = openpyxl.load_workbook(out / "bushing-supplier.xlsx")
+    text = [str(v) for row in wb[L.SUMMARY_SHEET].iter_rows(values_only=True) for v in row if v]
+    assert any(t.startswith("new: 1 below") for t in text)
+    sheet = [str(v) for row in wb["hardness"].iter_rows(values_only=True) for v in row if v]
+    assert "Parts beyond the limits" in sheet
+
+
 def test_workbook_reads_back_with_the_decision_and_caution(demo_run):
     _, out, _ = demo_run
     wb = openpyxl.load_workbook(out / "filler-paired.xlsx")

@@ -19,11 +19,13 @@ import openpyxl
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from openpyxl.utils import get_column_letter
 
 from tests.factory import make_evaluation
 from verify.report import layout as L
 from verify.report import workbook as workbook_module
 from verify.report.cells import put, resolution_decimals, sheet_name
+from verify.report.summary import decision_cell
 from verify.report.workbook import (
     RECORD_SHEET,
     read_record,
@@ -138,11 +140,12 @@ def test_summary_content(all_book):
 
 def test_summary_decision_cell(all_book):
     ev, _path, wb = all_book
-    ws = wb[L.SUMMARY_SHEET]
-    cell = ws["I3"]
+    cell = decision_cell(wb)
+    assert cell.parent.title == L.SUMMARY_SHEET
     assert cell.value == ev.decision
     assert cell.font.sz >= 20
-    assert any(str(r) == "I3:K6" for r in ws.merged_cells.ranges)
+    merged = next(r for r in cell.parent.merged_cells.ranges if cell.coordinate in r)
+    assert merged.size["rows"] == 4 and merged.size["columns"] == 2
     fills = {"PASS": "2E7D57", "HOLD": "A3392B", "PENDING": "E3A72F"}
     assert cell.fill.fgColor.rgb.endswith(fills[ev.decision])
 
@@ -150,28 +153,103 @@ def test_summary_decision_cell(all_book):
 @pytest.mark.parametrize("decision", ["PASS", "HOLD", "PENDING"])
 def test_decision_cell_colour_per_decision(tmp_path, decision):
     ev = make_evaluation("pooled", n_old=8, n_new=8, decision=decision)
-    ws = openpyxl.load_workbook(_write(ev, tmp_path))[L.SUMMARY_SHEET]
+    cell = decision_cell(openpyxl.load_workbook(_write(ev, tmp_path)))
     fills = {"PASS": "2E7D57", "HOLD": "A3392B", "PENDING": "E3A72F"}
-    assert ws["I3"].value == decision
-    assert ws["I3"].fill.fgColor.rgb.endswith(fills[decision])
+    assert cell.value == decision
+    assert cell.fill.fgColor.rgb.endswith(fills[decision])
 
 
-def test_summary_values_unrounded_and_formatted(all_book):
+def _table(ws):
+    """The characteristics table of the decision sheet: {header: column}, {name: row}."""
+    head = next(r for r in range(1, ws.max_row + 1) if ws.cell(r, 1).value == "Characteristic")
+    cols = {
+        ws.cell(head, j).value: j
+        for j in range(1, ws.max_column + 1)
+        if ws.cell(head, j).value
+    }
+    rows = {}
+    r = head + 1
+    while ws.cell(r, 1).value:
+        rows[ws.cell(r, 1).value] = r
+        r += 1
+    return head, cols, rows
+
+
+def test_summary_has_a_column_per_check_kind(all_book):
     ev, _path, wb = all_book
     ws = wb[L.SUMMARY_SHEET]
-    rows = {ws.cell(r, 1).value: r for r in range(1, ws.max_row + 1)}
-    c = ev.characteristics[0]
-    r = rows[c.name]
-    assert ws.cell(r, 5).value == c.processes["old"].mean  # exact: never rounded
-    assert ws.cell(r, 6).value == c.processes["new"].mean
-    shift = next(k for k in c.checks if k.check == "shift")
-    assert ws.cell(r, 8).value == shift.estimate
-    assert ws.cell(r, 12).value == shift.p_value
-    assert ws.cell(r, 12).number_format == "[<0.0001]0.00E+00;0.0000"
-    assert ws.cell(r, 5).number_format == "0.0000"  # 3 recorded decimals + 1
-    # a one-sided interval's open end is written as text, not as a number or "inf"
-    pooled = rows[ev.characteristics[1].name]
-    assert ws.cell(pooled, 10).value == "-∞"
+    head, cols, rows = _table(ws)
+    kinds = list(dict.fromkeys(k.check for c in ev.characteristics for k in c.checks))
+    assert len(kinds) >= 4
+    check_headers = [h for h in cols if h.split("\n")[0].lower() in kinds]
+    assert [h.split("\n")[0].lower() for h in check_headers] == kinds
+    tints = {"PASS": "DDEFE4", "HOLD": "F5D6D1", "PENDING": "FBEBC7"}
+    for c in ev.characteristics:
+        by_kind = {k.check: k for k in c.checks}
+        for h in check_headers:
+            cell = ws.cell(rows[c.name], cols[h])
+            k = by_kind.get(h.split("\n")[0].lower())
+            if k is None:
+                assert cell.value == "not run"
+                continue
+            # the outcome first, in its colour, then the number that decided it
+            assert str(cell.value).split("\n")[0] == k.outcome
+            assert cell.fill.fgColor.rgb.endswith(tints[k.outcome])
+            if k.check in ("target", "shift") and k.margin is not None:
+                assert "interval" in cell.value and "margin" in cell.value
+            if k.check == "spread":
+                assert f"{k.estimate:.3f}" in cell.value and f"{k.ci_low:.3f}" in cell.value
+            if k.check == "capability":
+                assert f"{k.estimate:.2f}" in cell.value
+                assert f"{k.extra.get('min_cpk', k.critical_value):.2f}" in cell.value
+        assert ws.cell(rows[c.name], cols["Decision"]).value == c.decision
+    # sortable: an autofilter over exactly the table; its header repeats on every printed page
+    assert ws.auto_filter.ref == f"A{head}:{get_column_letter(len(cols))}{head + len(rows)}"
+    assert ws.print_title_rows.replace("$", "") == f"{head}:{head}"
+
+
+def test_one_sided_margin_names_only_its_side(tmp_path):
+    ev = make_evaluation("all", seed=3)
+    wb = openpyxl.load_workbook(_write(ev, tmp_path))
+    ws = wb[L.SUMMARY_SHEET]
+    _head, cols, rows = _table(ws)
+    shift_col = next(j for h, j in cols.items() if h.startswith("Shift"))
+    for c in ev.characteristics:
+        k = next((k for k in c.checks if k.check == "shift" and k.margin is not None), None)
+        if k is None:
+            continue
+        text = ws.cell(rows[c.name], shift_col).value
+        if k.alternative == "greater":
+            assert "not below" in text and "±" not in text
+        elif k.alternative == "less":
+            assert "not above" in text and "±" not in text
+
+
+def test_summary_p_values_use_one_format(all_book):
+    from verify.decide import fmt_p
+    from verify.report.cells import P_FORMAT
+
+    # the number format shows what decide.fmt_p writes in sentences: 4 decimals, "< 0.0001"
+    # below; checked by reading the two sections of the format
+    tiny, plain = P_FORMAT.split(";")
+    assert tiny.startswith("[<0.0001]") and tiny.endswith('"< 0.0001"')
+    assert fmt_p(3.9e-13) == "< 0.0001" and plain == "0.0000" and fmt_p(0.01234) == "0.0123"
+    _ev, _path, wb = all_book
+    for ws in wb.worksheets:
+        for row in ws.iter_rows():
+            for cell in row:
+                if "E+" in str(cell.number_format):
+                    raise AssertionError(f"{ws.title}!{cell.coordinate}: {cell.number_format}")
+
+
+def test_units_are_never_cut(tmp_path):
+    ev = make_evaluation("all", seed=3)
+    c0 = dataclasses.replace(ev.characteristics[0], unit="N/15 mm per strip")
+    ev = dataclasses.replace(ev, characteristics=(c0, *ev.characteristics[1:]))
+    ws = openpyxl.load_workbook(_write(ev, tmp_path))[L.SUMMARY_SHEET]
+    _head, cols, _rows = _table(ws)
+    width = ws.column_dimensions[get_column_letter(cols["Unit"])].width
+    assert width >= len("N/15 mm per strip")
 
 
 def test_summary_prints_on_one_landscape_page(all_book):
@@ -180,7 +258,23 @@ def test_summary_prints_on_one_landscape_page(all_book):
     assert ws.page_setup.orientation == "landscape"
     assert ws.sheet_properties.pageSetUpPr.fitToPage is True
     assert ws.page_setup.fitToWidth == 1 and ws.page_setup.fitToHeight == 1
-    assert ws.print_area is not None and "$A$1:$N$" in ws.print_area
+    assert ws.print_area is not None and "$A$1:$" in ws.print_area
+    assert "&A" in ws.oddFooter.left.text and "&P" in ws.oddFooter.right.text
+
+
+def test_summary_of_many_characteristics_runs_over_pages(tmp_path):
+    ev = make_evaluation("all", seed=3)
+    many = tuple(
+        dataclasses.replace(ev.characteristics[i % len(ev.characteristics)], name=f"dim_{i:03d}")
+        for i in range(300)
+    )
+    ev = dataclasses.replace(ev, characteristics=many)
+    ws = openpyxl.load_workbook(_write(ev, tmp_path))[L.SUMMARY_SHEET]
+    head, _cols, rows = _table(ws)
+    assert len(rows) == 300
+    assert ws.page_setup.fitToHeight == 0  # as many pages as it takes, full width
+    assert ws.print_title_rows.replace("$", "") == f"{head}:{head}"
+    assert not any(r.min_row > head and r.min_row <= head + 300 for r in ws.merged_cells.ranges)
 
 
 def test_summary_notes_trial_smaller_than_planned(tmp_path):
@@ -285,6 +379,8 @@ def test_measurements_rows_follow_layout_unrounded(all_book):
                 assert v is None  # a declared missing value stays an empty cell
             elif isinstance(e, str) and e == "":
                 assert v is None
+            elif k == "order":
+                assert v == e + 1  # the sheet counts production order from 1
             else:
                 assert v == e, (k, v, e)
     # an excluded row carries its reason; every used row has none
@@ -540,12 +636,10 @@ def test_every_design_writes_and_reads_back(tmp_path, design):
     c = ev.characteristics[0]
     ws = wb[c.name]
     assert ws["E1"].value == c.decision
-    assert len(ws._charts) == (
-        2
-        if not any(r.check in ("target", "shift") and r.ci_low is not None for r in c.checks)
-        else 3
-    )
-    assert wb[L.SUMMARY_SHEET]["I3"].value == ev.decision
+    has_interval = any(r.check in ("target", "shift") and r.ci_low is not None for r in c.checks)
+    # production order, histogram, intervals (when any), paired differences (paired designs)
+    assert len(ws._charts) == 2 + has_interval + (design == "paired")
+    assert decision_cell(wb).value == ev.decision
     if design == "lot":
         assert "n counts lots" in _all_text(ws)
 
@@ -587,3 +681,123 @@ def test_spec_text_that_cannot_be_stored_verbatim_is_refused(tmp_path):
     ev = dataclasses.replace(ev, spec=dataclasses.replace(ev.spec, text="a\n" + "x" * 33_000))
     with pytest.raises(ValueError, match="spec line 2 cannot be stored verbatim"):
         _write(ev, tmp_path)
+
+
+# --- charts that tell the truth -------------------------------------------------------------
+
+
+def _ref_values(wb, ref: str) -> list:
+    sheet, rng = ref.rsplit("!", 1)
+    ws = wb[sheet.strip("'").replace("''", "'")]
+    lo, _, hi = rng.replace("$", "").partition(":")
+    cells = ws[f"{lo}:{hi or lo}"]
+    return [c.value for row in cells for c in row]
+
+
+def _series_points(wb, chart) -> dict[str, list]:
+    out = {}
+    for s in chart.series:
+        name = s.tx.v if s.tx.strRef is None else s.tx.strRef.f
+        xs = _ref_values(wb, s.xVal.numRef.f)
+        ys = _ref_values(wb, s.yVal.numRef.f)
+        out[name] = [(x, y) for x, y in zip(xs, ys, strict=True) if x is not None]
+    return out
+
+
+def _chart_titled(ws, words: str):
+    for ch in ws._charts:
+        text = "".join(r.t for p in ch.title.tx.rich.p for r in (p.r or []))
+        if words in text:
+            return ch
+    raise AssertionError(f"no chart titled with {words!r} on {ws.title}")
+
+
+@pytest.mark.parametrize("side", ["lower", "upper", "two-sided"])
+def test_interval_chart_draws_only_margins_that_exist(tmp_path, side):
+    """A one-sided check (side lower or upper) has one margin end: the chart draws that end
+    alone, never a mirrored one on the harmless side."""
+    ev = make_evaluation("paired", n_old=12, n_new=12, seed=2)
+    c = ev.characteristics[0]
+    shift = next(k for k in c.checks if k.check == "shift")
+    alt = {"lower": "greater", "upper": "less", "two-sided": "two-sided"}[side]
+    one = dataclasses.replace(shift, margin=(-1.0, 1.0), alternative=alt)
+    checks = tuple(one if k is shift else k for k in c.checks)
+    ev = dataclasses.replace(ev, characteristics=(dataclasses.replace(c, checks=checks),))
+    wb = openpyxl.load_workbook(_write(ev, tmp_path))
+    ws = wb[c.name]
+    pts = _series_points(wb, _chart_titled(ws, "intervals against the margins"))
+    marks = next(v for k, v in pts.items() if k.startswith("margin"))
+    row = 1 + [k.check for k in c.checks if k.check in ("target", "shift")].index("shift")
+    xs = {x for x, y in marks if abs(y - row) < 0.5}
+    want = {"lower": {-1.0}, "upper": {1.0}, "two-sided": {-1.0, 1.0}}[side]
+    assert xs == want
+    # the paired differences chart draws the same margin ends, and nothing else
+    pts = _series_points(wb, _chart_titled(ws, "new − old for each"))
+    margins = {y for k, v in pts.items() if k.startswith("margin") for _x, y in v}
+    assert margins == want
+    # the checks table lists only the ends that exist
+    labels = {ws.cell(r, 1).value: r for r in range(1, ws.max_row + 1)}
+    col = 2 + [k.check for k in checks if k.check != "capability"].index("shift")
+    # (a row empty for every check is left out altogether)
+    low = ws.cell(labels["Margin: low"], col).value if "Margin: low" in labels else None
+    high = ws.cell(labels["Margin: high"], col).value if "Margin: high" in labels else None
+    assert (low is not None, high is not None) == (side != "upper", side != "lower")
+
+
+def test_paired_differences_chart_holds_every_pair(tmp_path):
+    ev = make_evaluation("paired", n_old=12, n_new=12, seed=2)
+    c = ev.characteristics[0]
+    wb = openpyxl.load_workbook(_write(ev, tmp_path))
+    pts = _series_points(wb, _chart_titled(wb[c.name], "new − old for each"))
+    diffs = [y for _x, y in pts["difference of a pair"]]
+    shift = next(k for k in c.checks if k.check == "shift")
+    assert len(diffs) == c.pairs
+    # the mean of the plotted differences is the paired shift estimate (arithmetic identity)
+    assert sum(diffs) / len(diffs) == pytest.approx(shift.estimate, rel=1e-12, abs=1e-12)
+    assert {y for _x, y in pts["mean difference"]} == {shift.estimate}
+
+
+def test_histogram_shows_shares_on_shared_bins_with_limits(all_book):
+    ev, _path, wb = all_book
+    c = ev.characteristics[0]
+    pts = _series_points(wb, _chart_titled(wb[c.name], "share of each process"))
+    outlines = {k: v for k, v in pts.items() if "process (n =" in k}
+    assert len(outlines) == 2
+    # relative frequencies: each outline's bars add up to 100 % of that process's parts; the
+    # outline repeats each bar's height at both of its edges
+    for v in outlines.values():
+        heights = [y for (_x, y) in v[1:-1:2]]
+        assert sum(heights) == pytest.approx(100.0)
+    edges = [[x for x, _y in v] for v in outlines.values()]
+    assert edges[0] == edges[1]  # shared bins
+    limits = {k: {x for x, _y in v} for k, v in pts.items() if k.endswith("limit")}
+    lower, upper = c.spec.limits
+    assert limits.get("lower limit", {lower}) == {lower} and limits.get("upper limit") == {upper}
+
+
+def test_run_chart_has_lot_boundaries_and_old_natural_limits(all_book):
+    ev, _path, wb = all_book
+    c = ev.characteristics[0]
+    pts = _series_points(wb, _chart_titled(wb[c.name], "in production order"))
+    old = c.processes["old"]
+    assert {y for _x, y in pts["old process mean + 3 sd"]} == {old.mean + 3 * old.sd}
+    assert {y for _x, y in pts["old process mean - 3 sd"]} == {old.mean - 3 * old.sd}
+    lots = len(old.lots) + len(c.processes["new"].lots)
+    xs = {x for x, _y in pts["lot boundaries"]}
+    assert len(xs) == lots - 1  # a line between each lot and the next
+
+
+def test_capability_block_puts_the_deciding_index_first(all_book):
+    ev, _path, wb = all_book
+    c = next(c for c in ev.characteristics if any(k.check == "capability" for k in c.checks))
+    ws = wb[c.name]
+    rows = {ws.cell(r, 1).value: r for r in range(1, ws.max_row + 1)}
+    head = rows["Capability of the new process"]
+    k = next(k for k in c.checks if k.check == "capability")
+    assert ws.cell(head + 1, 1).value == "Deciding index"
+    assert ws.cell(head + 1, 2).value == f"Cpk = {k.estimate:.2f}"
+    assert ws.cell(head + 2, 1).value == "Criterion"
+    text = _all_text(ws)
+    # each spread named in plain words by how it was estimated, not "sigma, within"
+    assert "sd from the ranges of consecutive parts" in text
+    assert "sigma, within" not in text and "sigma, overall" not in text

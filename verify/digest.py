@@ -133,10 +133,14 @@ class Progress:
 
 
 _FILL = {"PASS": "C6EFCE", "HOLD": "FFC7CE", "PENDING": "FFEB9C", "ERROR": "FFC7CE"}
-_HEADERS = ("Spec", "State", "Decision", "Previous decision", "Standing", "Decision of record",
-            "Drift", "Drift detail", "New lots", "New lot ids", "What changed", "Error",
+# the first PRINTED_COLUMNS columns are what the Digest sheet prints (a page wide, readable);
+# the rest are on screen and, for each spec, on the "By spec" sheet, which prints every field
+_HEADERS = ("Spec", "State", "Decision", "Previous decision", "Standing", "Drift", "New lots",
+            "Decision of record", "Drift detail", "New lot ids", "What changed", "Error",
             "Workbook", "Spec file")
-_WIDTHS = (24, 11, 10, 11, 13, 40, 7, 40, 9, 30, 50, 50, 40, 40)
+_WIDTHS = (24, 11, 10, 11, 13, 7, 9, 40, 40, 30, 50, 50, 40, 40)
+PRINTED_COLUMNS = 7
+WRAPPED = {"Decision of record", "Drift detail", "New lot ids", "What changed", "Error"}
 
 
 def write_digest(path: Path, rows: Sequence[DigestRow], *, run: Sequence[tuple[str, str]],
@@ -172,29 +176,30 @@ def write_digest(path: Path, rows: Sequence[DigestRow], *, run: Sequence[tuple[s
         put(header_row, c, h, font=Font(bold=True),
             fill=PatternFill("solid", fgColor="D9D9D9"),
             alignment=Alignment(wrap_text=True, vertical="top"))
+    drift_col = _HEADERS.index("Drift") + 1
     for i, row in enumerate(rows, start=header_row + 1):
-        values = (row.name, _STATE_WORD[row.state], row.decision or "",
-                  row.previous_decision or "", row.standing or "", row.record or "",
-                  "yes" if row.drift else "no", row.drift_note or "", len(row.new_lots),
-                  ", ".join(row.new_lots), "; ".join(row.changes()), row.error or "",
-                  row.workbook or "", row.spec_path)
-        for c, v in enumerate(values, start=1):
-            put(i, c, v, alignment=Alignment(vertical="top", wrap_text=c in (8, 11, 12)))
+        values = _values(row)
+        for c, (h, v) in enumerate(zip(_HEADERS, values, strict=True), start=1):
+            put(i, c, v, alignment=Alignment(vertical="top", wrap_text=h in WRAPPED))
         key = "ERROR" if row.state == "ERROR" else row.decision
         if key in _FILL:
             fill = PatternFill("solid", fgColor=_FILL[key])
             ws.cell(row=i, column=2 if row.state == "ERROR" else 3).fill = fill
         if row.drift:
-            ws.cell(row=i, column=7).fill = PatternFill("solid", fgColor=_FILL["HOLD"])
+            ws.cell(row=i, column=drift_col).fill = PatternFill("solid", fgColor=_FILL["HOLD"])
     for c, w in enumerate(_WIDTHS, start=1):
         ws.column_dimensions[ws.cell(row=header_row, column=c).column_letter].width = w
     last = header_row + max(len(rows), 1)
     ws.auto_filter.ref = f"A{header_row}:{ws.cell(row=last, column=len(_HEADERS)).coordinate}"
     ws.freeze_panes = ws.cell(row=header_row + 1, column=2)
-    ws.page_setup.orientation = "landscape"
-    ws.page_setup.fitToWidth = 1
-    ws.page_setup.fitToHeight = 0
-    ws.sheet_properties.pageSetUpPr.fitToPage = True
+    from openpyxl.utils import get_column_letter
+
+    from .report.cells import page_setup
+
+    page_setup(ws, f"A1:{get_column_letter(PRINTED_COLUMNS)}{last}", landscape=False,
+               title_rows=f"{header_row}:{header_row}",
+               footer="every field of every spec: sheet By spec")
+    _by_spec(wb.create_sheet("By spec"), rows)
 
     info = wb.create_sheet("Run")
     for r, (k, v) in enumerate(run, start=1):
@@ -210,4 +215,53 @@ def write_digest(path: Path, rows: Sequence[DigestRow], *, run: Sequence[tuple[s
         info.cell(row=r, column=2, value=meaning)
     info.column_dimensions["A"].width = 18
     info.column_dimensions["B"].width = 100
+    for row_cells in info.iter_rows(min_row=1, max_row=r):
+        for cell in row_cells:  # a label reads beside the top of its value
+            cell.alignment = Alignment(vertical="top", wrap_text=cell.column == 2)
+    page_setup(info, f"A1:B{r}", landscape=False, footer="the run")
     wb.save(path)
+
+
+def _values(row: DigestRow) -> tuple:
+    """The row's cells in _HEADERS order."""
+    by = {
+        "Spec": row.name, "State": _STATE_WORD[row.state], "Decision": row.decision or "",
+        "Previous decision": row.previous_decision or "", "Standing": row.standing or "",
+        "Drift": "yes" if row.drift else "no", "New lots": len(row.new_lots),
+        "Decision of record": row.record or "", "Drift detail": row.drift_note or "",
+        "New lot ids": ", ".join(row.new_lots), "What changed": "; ".join(row.changes()),
+        "Error": row.error or "", "Workbook": row.workbook or "", "Spec file": row.spec_path,
+    }
+    return tuple(by[h] for h in _HEADERS)
+
+
+def _by_spec(ws, rows: Sequence[DigestRow]) -> None:
+    """Every field of every spec as label and value, a block per spec kept on one page."""
+    from openpyxl.styles import Alignment, Font
+
+    from .report.cells import SECTION_FONT, page_setup
+    from .report.paper import keep_sections
+
+    ws.column_dimensions["A"].width = 22
+    ws.column_dimensions["B"].width = 80
+    r = 1
+    for row in rows:
+        cell = ws.cell(row=r, column=1, value=row.name)
+        cell.data_type, cell.font = "s", SECTION_FONT
+        r += 1
+        for h, v in zip(_HEADERS[1:], _values(row)[1:], strict=True):
+            if v in ("", None):
+                continue
+            ws.cell(row=r, column=1, value=h).font = Font(bold=True)
+            ws.cell(row=r, column=1).alignment = Alignment(vertical="top")
+            cell = ws.cell(row=r, column=2, value=v)
+            if isinstance(v, str):
+                cell.data_type = "s"  # text from input files is never a formula
+            cell.alignment = Alignment(vertical="top", wrap_text=True, horizontal="left")
+            lines = sum(max(1, -(-len(part) // 90)) for part in str(v).split("\n"))
+            ws.row_dimensions[r].height = 15 * lines
+            r += 1
+        r += 1
+    last = max(1, r - 2)
+    page_setup(ws, f"A1:B{last}", landscape=False, footer="every field, by spec")
+    keep_sections(ws, last_row=last, last_col=2, whole=True)

@@ -14,6 +14,7 @@ import numpy as np
 from . import decide
 from .data import analysis_values, paired_values, stream_values
 from .model import (
+    BeyondLimits,
     CharacteristicResult,
     CheckResult,
     DiagnosticResult,
@@ -39,6 +40,7 @@ from .stats import (
 from .stats import variance_components as vc
 from .stats.core import confidence_interval, mean_sd, require_spread, t_test_from_estimate
 from .stats.errors import DegenerateDataError, NotApplicableError, StatsError
+from .stats.limits import beyond_limits
 from .stats.paired_spread import pitman_morgan
 
 DETECT_POWER = 0.8  # the power at which the "smallest detectable shift" note is stated
@@ -167,8 +169,19 @@ def evaluate(
 # --- gathering data ---------------------------------------------------------------------------
 
 
+def _beyond(ch: Characteristic, parts: np.ndarray) -> BeyondLimits | None:
+    """Part values beyond the limits (None without limits): counted on parts, never lot means."""
+    if ch.lower is None and ch.upper is None:
+        return None
+    r = beyond_limits(parts, lower=ch.lower, upper=ch.upper)
+    return BeyondLimits(below=r.below, above=r.above, expected_ppm=r.expected_ppm,
+                        expected_ppm_below=r.expected_ppm_below,
+                        expected_ppm_above=r.expected_ppm_above)
+
+
 def _summary(process: str, values: np.ndarray, lots, n_parts: int,
-             parts: np.ndarray | None = None) -> ProcessSummary:
+             parts: np.ndarray | None = None,
+             beyond: BeyondLimits | None = None) -> ProcessSummary:
     n = int(values.size)
     mean = sd = None
     if n:
@@ -193,6 +206,7 @@ def _summary(process: str, values: np.ndarray, lots, n_parts: int,
         n_parts=n_parts,
         minimum=float(values.min()) if n else None,
         maximum=float(values.max()) if n else None,
+        beyond_limits=beyond,
     )
 
 
@@ -218,9 +232,9 @@ def _gather(spec: Spec, meas: Measurements, ch: Characteristic) -> tuple[_Data, 
     processes = {}
     if old.values.size or ch.checks.shift is not None:
         processes["old"] = _summary("old", old.values, old_p.lots, int(old_p.values.size),
-                                    old_p.values)
+                                    old_p.values, _beyond(ch, old_p.values))
     processes["new"] = _summary("new", new.values, new_p.lots, int(new_p.values.size),
-                                new_p.values)
+                                new_p.values, _beyond(ch, new_p.values))
     shift, sp = ch.checks.shift, ch.checks.spread
     shift_paired = shift is not None and shift.design == "paired"
     spread_paired = sp is not None and sp.design == "paired"
@@ -835,7 +849,7 @@ def _diagnostics(spec: Spec, ch: Characteristic, d: _CharDraft) -> list[Diagnost
             flag = bool(st.beyond) or st.longest_run >= RUN_LENGTH_FLAG
             parts = []
             if st.beyond:
-                parts.append(f"{len(st.beyond)} point(s) beyond the limits")
+                parts.append(f"{len(st.beyond)} point(s) beyond the control-chart limits")
             if st.longest_run >= RUN_LENGTH_FLAG:
                 parts.append(f"a run of {st.longest_run} on one side of the centre line")
             out.append(DiagnosticResult(
@@ -994,6 +1008,20 @@ def _adjust(drafts: list[_CharDraft], method: str, alpha: float
     return names, excluded
 
 
+def _beyond_words(ch: Characteristic, b: BeyondLimits) -> str:
+    """ "2 parts beyond the specification limits (1 below 11.975, 1 above 12.025); ..." """
+    sides = []
+    if b.below:
+        sides.append(f"{b.below} below {decide.fmt(ch.lower, 6)}")
+    if b.above:
+        sides.append(f"{b.above} above {decide.fmt(ch.upper, 6)}")
+    part = "part" if b.total == 1 else "parts"
+    text = f"{b.total} {part} beyond the specification limits ({', '.join(sides)} {ch.unit})"
+    if b.expected_ppm is not None:
+        text += f"; a normal model expects {decide.fmt(b.expected_ppm, 3)} ppm beyond them"
+    return text
+
+
 def _finish(spec: Spec, d: _CharDraft) -> CharacteristicResult:
     from dataclasses import replace
 
@@ -1016,6 +1044,9 @@ def _finish(spec: Spec, d: _CharDraft) -> CharacteristicResult:
     for dg in d.diagnostics:
         if dg.flag:
             review.append(f"review: {d.ch.name} ({dg.group}): {dg.note}")
+    beyond = d.processes["new"].beyond_limits if "new" in d.processes else None
+    if beyond is not None and beyond.total:
+        review.append(f"review: {d.ch.name} (new): {_beyond_words(d.ch, beyond)}")
     for res in checks:
         if (res.outcome == "PASS" and res.planned_n is not None and res.extra
                 and res.extra.get("n_new") is not None and res.extra["n_new"] < res.planned_n):

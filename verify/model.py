@@ -75,6 +75,26 @@ class Measurements:
 
 
 @dataclass(frozen=True)
+class BeyondLimits:
+    """Parts of one process beyond the specification limits (part values, whatever the unit).
+
+    ``below``/``above`` count values strictly beyond the lower/upper limit; ``expected_ppm`` is
+    what a normal model with the process's mean and overall sd expects beyond the limits, in
+    parts per million (None when the model is undefined: fewer than 2 parts or zero spread).
+    """
+
+    below: int
+    above: int
+    expected_ppm: float | None
+    expected_ppm_below: float | None = None
+    expected_ppm_above: float | None = None
+
+    @property
+    def total(self) -> int:
+        return self.below + self.above
+
+
+@dataclass(frozen=True)
 class ProcessSummary:
     process: str  # "old" | "new"
     n: int  # units analysed (parts, or lots when unit_of_analysis is lot)
@@ -84,6 +104,7 @@ class ProcessSummary:
     n_parts: int  # measurements used, whatever the unit
     minimum: float | None = None
     maximum: float | None = None
+    beyond_limits: BeyondLimits | None = None  # None when the characteristic has no limits
     # lots as variance components (one-way random-effects ANOVA on the parts); None where the
     # process has fewer than 2 lots of at least 2 parts
     sd_within_lot: float | None = None

@@ -49,15 +49,15 @@ CURVE_POINTS = 60  # about this many lot sizes on a power curve
 STANDALONE_DESIGNS = ("welch", "pooled", "paired", "one-sample")
 SIDES = ("two-sided", "lower", "upper")
 
-HELP = "size a trial: n per process, power at min_n, detectable shift"
+HELP = "size a trial: units per process, the power with min_n, the smallest shift found"
 DESCRIPTION = """\
 Plan a trial before it runs. For each characteristic and check of SPEC: the
-number of units per process needed to reach the target power, the power at
-the spec's min_n and the smallest shift a t-test detects at that n. The sd
+smallest number of units per process whose power reaches the wanted power, the
+power with the spec's min_n and the smallest shift a t-test finds there. The sd
 comes from the old process's data (or --sd); alpha, design and margins from
 the spec. Without SPEC, plan one check from --sd, --design and --margin
 (equivalence) or --detect (difference test). Prints a table and writes a
-workbook with the inputs, the results, the method and a power curve.
+workbook with the inputs, the plan, the method and the power by trial size.
 A margin with a negative lower end is written with '=': --margin=-0.02,0.03"""
 EPILOG = (
     "example:\n"
@@ -366,9 +366,10 @@ def method_words(rows: Sequence[PlanRow]) -> tuple[str, ...]:
     kinds = {r.scenario.kind for r in rows}
     designs = {r.scenario.design for r in rows}
     out = [
-        "n is the smallest whole number of units per process (pairs for a paired design) at "
-        "which the power reaches the target; the power at n - 1 is shown beside it and falls "
-        "short. For two-sample designs the old lot has ceil(n_new / ratio) units.",
+        "The smallest sufficient trial is the smallest whole number of units per process "
+        "(pairs for a paired design) whose power reaches the wanted power; the power with one "
+        "unit fewer is shown beside it and falls short. For two-sample designs the old lot "
+        "has ceil(n_new / ratio) units.",
     ]
     if "equivalence" in kinds:
         out.append(
@@ -391,7 +392,7 @@ def method_words(rows: Sequence[PlanRow]) -> tuple[str, ...]:
         )
     out.append(
         "Detectable shift: the smallest true shift that the difference t-test at the stated n "
-        "detects with the target power. For an equivalence check it shows how large a real "
+        "finds with the wanted power. For an equivalence check it shows how large a real "
         "change the same data would reveal."
     )
     if "welch" in designs:
@@ -541,7 +542,7 @@ def spec_scenarios(spec: Spec, meas: Measurements | None, opts: Options) -> list
     true_shift = spec.plan.true_shift if opts.true_shift is None else opts.true_shift
     if not spec.alpha < power < 1:
         where = "--power" if opts.power is not None else f"plan.power in {file}"
-        raise UsageError(f"the target power {power:g} ({where}) must exceed alpha "
+        raise UsageError(f"the wanted power {power:g} ({where}) must exceed alpha "
                          f"({spec.alpha:g}) and be below 1")
     eval_n, eval_source = ((opts.n, "--n") if opts.n is not None else
                            (spec.min_n, "min_n") if spec.min_n is not None else
@@ -633,18 +634,15 @@ def plan_spec(spec: Spec, measurements: Measurements | None, opts: Options | Non
         ("title", spec.title, "spec"),
         ("alpha", f"{spec.alpha:g}", "spec" if any(k == "alpha" and not d
                                                   for k, _, d in spec.resolved) else "default"),
+        ("wanted power", f"{rows[0].scenario.target_power:g}",
+         "--power" if opts.power is not None else "spec plan.power"),
+        ("assumed true shift (margin checks)",
+         f"{opts.true_shift if opts.true_shift is not None else p.true_shift:g}",
+         "--true-shift" if opts.true_shift is not None else "spec plan.true_shift"),
+        ("unit of analysis", spec.unit_of_analysis, "spec"),
+        ("trial size looked at", "the smallest sufficient" if rows[0].scenario.eval_n is None
+         else str(rows[0].scenario.eval_n), rows[0].scenario.eval_source),
     ]
-    if rows:
-        inputs += [
-            ("target power", f"{rows[0].scenario.target_power:g}",
-             "--power" if opts.power is not None else "spec plan.power"),
-            ("assumed true shift (margin checks)",
-             f"{opts.true_shift if opts.true_shift is not None else p.true_shift:g}",
-             "--true-shift" if opts.true_shift is not None else "spec plan.true_shift"),
-            ("unit of analysis", spec.unit_of_analysis, "spec"),
-            ("n at which power is reported", "n needed" if rows[0].scenario.eval_n is None
-             else str(rows[0].scenario.eval_n), rows[0].scenario.eval_source),
-        ]
     if spec.change_id:
         inputs.insert(2, ("change id", spec.change_id, "spec"))
     for label, value in (("--sd", opts.sd), ("--sd-diff", opts.sd_diff),
@@ -889,7 +887,7 @@ def plan_standalone(
                                                   else "default"),
               ("sd used", f"{sd_value:g}", sd_source),
               ("alpha", f"{alpha:g}", "--alpha" if alpha != DEFAULT_ALPHA else "default"),
-              ("target power", f"{power:g}", "--power" if power != DEFAULT_POWER else "default")]
+              ("wanted power", f"{power:g}", "--power" if power != DEFAULT_POWER else "default")]
     if margin is not None:
         inputs.append(("margin", f"{low:g}..+{high:g}", "--margin"))
         inputs.append(("assumed true shift", f"{shift:g}",
@@ -959,7 +957,7 @@ def add_plan_arguments(parser: argparse.ArgumentParser) -> argparse.ArgumentPars
                    help="paired designs: correlation r of the old and new value of a pair; "
                         "sd of the differences = sd * sqrt(2 (1 - r))")
     g.add_argument("--power", type=float, metavar="P",
-                   help="target power (default: the spec's plan.power, else 0.9)")
+                   help="wanted power (default: the spec's plan.power, else 0.9)")
     g.add_argument("--true-shift", type=float, metavar="D",
                    help="assumed true shift for margin checks (default: plan.true_shift, else 0)")
     g.add_argument("--detect", type=float, metavar="D",
@@ -969,8 +967,8 @@ def add_plan_arguments(parser: argparse.ArgumentParser) -> argparse.ArgumentPars
                    help="conformance checks: the assumed new-process mean (default: the "
                         "target, else the old process's mean)")
     g.add_argument("--n", type=int, metavar="N",
-                   help="units per process at which to report power and detectable shift "
-                        "(default: the spec's min_n, else the n needed)")
+                   help="units per process at which to give the power and the smallest shift "
+                        "found (default: the spec's min_n, else the smallest sufficient trial)")
     g.add_argument("--out", metavar="DIR", default=None,
                    help=f"folder for the workbook (default: {DEFAULT_OUT}/): "
                         "<spec-stem>-plan.xlsx, or plan.xlsx for the standalone form")
@@ -1149,7 +1147,8 @@ def requirement(s: Scenario) -> str:
 
 
 HEADERS = ("characteristic", "check", "test", "sd", "margin / detect", "true shift",
-           "n needed", "power at n", "power at n-1", "n reported", "power", "detectable")
+           "plan for", "its power", "one fewer", "size looked at", "power there",
+           "shift found")
 
 
 def table_rows(plan: Plan) -> list[tuple[str, ...]]:
@@ -1196,7 +1195,7 @@ def _power_table(plan: Plan, lines: list[str]) -> None:
     rows = table_rows(plan)
     widths = [max(len(h), *(len(row[i]) for row in rows)) for i, h in enumerate(HEADERS)]
     first = plan.rows[0].scenario
-    lines.append(f"  alpha {first.alpha:g}, target power {first.target_power:g}")
+    lines.append(f"  alpha {first.alpha:g}, wanted power {first.target_power:g}")
     lines.append("")
     lines.append("  ".join(h.ljust(w) for h, w in zip(HEADERS, widths, strict=True)).rstrip())
     for row in rows:
@@ -1209,13 +1208,13 @@ def _power_table(plan: Plan, lines: list[str]) -> None:
         if r.note:
             lines.append(f"  {who}: {r.note}")
         elif not r.meets_target_at_eval and s.eval_source != "n needed":
-            lines.append(f"  {who}: power at {s.eval_source} {r.eval_n_new} is "
-                         f"{_pct(r.power_at_eval)}, below the target "
-                         f"{_pct(s.target_power)}: {r.n_new} units are needed")
+            lines.append(f"  {who}: the power with {s.eval_source} {r.eval_n_new} is "
+                         f"{_pct(r.power_at_eval)}, short of the wanted "
+                         f"{_pct(s.target_power)}: plan for {r.n_new} units")
     for note in plan.notes:
         lines.append(f"  note: {note}")
-    lines.append("  n counts units per process (pairs for paired); 'detectable' is the "
-                 "smallest shift the t-test at the reported n detects with the target power")
+    lines.append("  sizes count units per process (pairs for paired); 'shift found' is the "
+                 "smallest shift a t-test at the size looked at finds with the wanted power")
 
 
 def _standalone_parser() -> argparse.ArgumentParser:

@@ -9,7 +9,7 @@ caution.
 
 from __future__ import annotations
 
-from openpyxl.styles import Font
+from openpyxl.styles import Alignment, Font
 
 from ..model import Evaluation
 from .cells import (
@@ -20,9 +20,11 @@ from .cells import (
     WRAP,
     fit_rows,
     header_row,
+    page_setup,
     put,
     section,
 )
+from .paper import keep_sections
 
 _LABEL = Font(bold=True, color=INK)
 
@@ -53,8 +55,12 @@ def write_audit(ws, ev: Evaluation) -> None:
         ws.column_dimensions[col].width = w
     put(ws, 1, 1, "Audit trail", font=TITLE_FONT)
     put(ws, 2, 1, "Everything needed to trace this decision and to replay the run.", font=NOTE_FONT)
+    # the caution first: a heading at the foot of a page cannot lose it there
+    put(ws, 3, 1, ev.caution, font=Font(bold=True, color=INK), align=WRAP)
+    ws.merge_cells(start_row=3, start_column=1, end_row=3, end_column=8)
+    ws.row_dimensions[3].height = 15 * max(2, -(-len(ev.caution) // 170))
     run = ev.run
-    row = 4
+    row = 5
     section(ws, row, "Run")
     row = _pairs(
         ws,
@@ -206,17 +212,14 @@ def write_audit(ws, ev: Evaluation) -> None:
         ws.merge_cells(start_row=row, start_column=2, end_row=row, end_column=8)
         ws.row_dimensions[row].height = 15 * max(1, -(-len(rule) // 150))
         row += 1
-    row += 1
-    section(ws, row, "Caution")
-    row += 1
-    put(ws, row, 1, ev.caution, font=Font(bold=True, color=INK), align=WRAP)
-    ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=8)
-    ws.row_dimensions[row].height = 15 * max(2, -(-len(ev.caution) // 170))
+    last = row - 1
     fit_rows(ws)
-    ws.page_setup.orientation = "landscape"
-    ws.page_setup.fitToWidth = 1
-    ws.page_setup.fitToHeight = 0
-    ws.sheet_properties.pageSetUpPr.fitToPage = True
+    for r in range(1, last + 1):  # a label reads beside the top of its (wrapped) value
+        cell = ws.cell(r, 1)
+        if cell.value is not None and cell.alignment.vertical is None:
+            cell.alignment = Alignment(vertical="top", wrap_text=cell.alignment.wrap_text)
+    page_setup(ws, f"A1:H{last}", landscape=True, footer=f"verify run {ev.run.run_id}")
+    keep_sections(ws, last_row=last, last_col=8)
 
 
 def _source_lines(origin: dict | None) -> list[tuple[str, str]]:

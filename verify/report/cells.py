@@ -41,6 +41,9 @@ DECISION_COLOURS = {
     "PENDING": ("E3A72F", "1F2A33"),
 }
 
+# light tints of the decision colours, for cells that carry text to read (check outcomes)
+OUTCOME_TINTS = {"PASS": "DDEFE4", "HOLD": "F5D6D1", "PENDING": "FBEBC7"}
+
 THIN = Side(style="thin", color="B7C3CC")
 BOX = Border(left=THIN, right=THIN, top=THIN, bottom=THIN)
 HEADER_FONT = Font(bold=True, color=INK)
@@ -52,7 +55,8 @@ WRAP = Alignment(wrap_text=True, vertical="top")
 TOP = Alignment(vertical="top")
 
 # --- number formats ---------------------------------------------------------------------------
-P_FORMAT = "[<0.0001]0.00E+00;0.0000"  # p-values: 4 decimals, scientific when tiny
+# p-values: 4 decimals, and "< 0.0001" below that, as decide.fmt_p writes them in sentences
+P_FORMAT = '[<0.0001]"< 0.0001";0.0000'
 STAT_FORMAT = "0.000"
 DF_FORMAT = "0.0#"
 POWER_FORMAT = "0.0%"
@@ -280,3 +284,46 @@ def fit_rows(ws, *, line_height: float = 14.5) -> None:
                     cell.alignment = Alignment(
                         horizontal=a.horizontal, vertical="top", wrap_text=a.wrap_text
                     )
+
+
+# --- paper ------------------------------------------------------------------------------------
+
+
+def page_setup(
+    ws,
+    area: str | None,
+    *,
+    landscape: bool = True,
+    one_page: bool = False,
+    footer: str = "",
+    title_rows: str | None = None,
+    row_breaks=(),
+    margins: tuple[float, float] = (0.4, 0.5),
+) -> None:
+    """How a sheet prints: orientation, fit to the page width (and height for ``one_page``),
+    repeated header rows, margins, and a footer naming the sheet and the page.
+
+    ``row_breaks`` are rows after which a new page starts (kept blocks, charts).
+    """
+    from openpyxl.worksheet.pagebreak import Break
+
+    if area:
+        ws.print_area = area
+    ws.page_setup.orientation = "landscape" if landscape else "portrait"
+    ws.page_setup.fitToWidth = 1
+    ws.page_setup.fitToHeight = 1 if one_page else 0
+    ws.sheet_properties.pageSetUpPr.fitToPage = True
+    if title_rows:
+        ws.print_title_rows = title_rows
+    side, top = margins
+    ws.page_margins.left = ws.page_margins.right = side
+    ws.page_margins.top = top
+    ws.page_margins.bottom = top + 0.15
+    ws.page_margins.footer = 0.25
+    ws.oddFooter.left.text = "&A" + (f": {footer}" if footer else "")
+    ws.oddFooter.left.size = 8
+    ws.oddFooter.right.text = "page &P of &N"
+    ws.oddFooter.right.size = 8
+    for r in sorted(set(row_breaks)):
+        if r > 0:
+            ws.row_breaks.append(Break(id=r))

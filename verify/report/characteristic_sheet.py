@@ -28,15 +28,19 @@ from .cells import (
     fit_rows,
     formats_for,
     header_row,
+    page_setup,
     put,
     section,
 )
-from .charts import add_charts
+from .charts import BAND_ROWS, add_charts
+from .paper import KEEP_FIRST, apply_breaks, keep_together
 from .stream_block import write_streams
 from .summary import decision_style, margin_text, put_decision_badge
 
 LABEL_WIDTH = 30
+SHORT_SECTION = 12  # rows: a section this short is kept whole on a page
 EXTRA_FORMAT = "0.000###"
+PPM_FORMAT = '[<0.1]"< 0.1";[<10]0.0;#,##0'
 CHECK_WIDTH = 24
 MAX_LISTED_LOTS = 40
 SIDE_WORDS = {
@@ -85,8 +89,17 @@ def _rows_for_checks(checks, fmts):
         ("Interval: high", lambda r: r.ci_high, est),
         ("Interval: confidence", lambda r: r.ci_level, "0%"),
         ("Critical value", lambda r: r.critical_value, crit),
-        ("Margin: low", lambda r: None if r.margin is None else r.margin[0], fmts["shift"]),
-        ("Margin: high", lambda r: None if r.margin is None else r.margin[1], fmts["shift"]),
+        # only the margin ends that exist: a one-sided check tests its harmful side alone
+        (
+            "Margin: low",
+            lambda r: None if r.margin is None or r.alternative == "less" else r.margin[0],
+            fmts["shift"],
+        ),
+        (
+            "Margin: high",
+            lambda r: None if r.margin is None or r.alternative == "greater" else r.margin[1],
+            fmts["shift"],
+        ),
         ("Achieved power", lambda r: r.power, POWER_FORMAT),
         ("Power of what", lambda r: r.power_note, None),
         ("Smallest shift seen at 80% power", lambda r: r.detectable_shift, fmts["shift"]),
@@ -154,6 +167,168 @@ EXTRA_LABELS = {
 }
 
 
+def _beyond_table(ws, row: int, c: CharacteristicResult, fmts: dict) -> int:
+    """Parts beyond the specification limits per process, beside the normal model's ppm."""
+    procs = [(k, c.processes[k]) for k in ("old", "new") if k in c.processes]
+    if not any(p.beyond_limits is not None for _k, p in procs):
+        return row
+    s = c.spec
+    row += 1
+    header_row(
+        ws,
+        row,
+        1,
+        [
+            "Parts beyond the limits",
+            "below " + ("none" if s.lower is None else f"{s.lower:g}"),
+            "above " + ("none" if s.upper is None else f"{s.upper:g}"),
+            "expected (normal model), ppm",
+            "of parts",
+        ],
+    )
+    row += 1
+    for key, p in procs:
+        b = p.beyond_limits
+        if b is None:
+            continue
+        flagged = key == "new" and b.total > 0
+        font = Font(bold=True, color="8A4B00") if flagged else None
+        put(ws, row, 1, key, border=BOX, font=font)
+        put(ws, row, 2, b.below if s.lower is not None else None, fmt=INT_FORMAT, border=BOX,
+            font=font)
+        put(ws, row, 3, b.above if s.upper is not None else None, fmt=INT_FORMAT, border=BOX,
+            font=font)
+        put(ws, row, 4, b.expected_ppm, fmt=PPM_FORMAT, border=BOX)
+        put(ws, row, 5, p.n_parts, fmt=INT_FORMAT, border=BOX)
+        row += 1
+    return row
+
+
+def _checks_table(ws, row: int, c: CharacteristicResult, checks, fmts: dict) -> int:
+    """One column per check, one row per quantity, so a check reads down its column."""
+    if not checks:
+        put(ws, row, 1, "No checks ran for this characteristic.", font=NOTE_FONT)
+        return row + 1
+    put(ws, row, 1, "Check", font=Font(bold=True, color=INK), border=BOX)
+    header_row(ws, row, 2, [r.check for r in checks])
+    row += 1
+    for label, values, fl in _rows_for_checks(checks, fmts):
+        put(ws, row, 1, label, font=Font(bold=True, color=INK), border=BOX, align=WRAP)
+        for j, (v, fm) in enumerate(zip(values, fl, strict=True), start=2):
+            put(ws, row, j, v, fmt=fm, border=BOX, align=WRAP if isinstance(v, str) else None)
+        row += 1
+    put(ws, row, 1, "Margin as written", font=Font(bold=True, color=INK), border=BOX)
+    for j, r in enumerate(checks, start=2):
+        put(
+            ws,
+            row,
+            j,
+            margin_text(r.margin, c.spec.side) if r.check in ("target", "shift") else None,
+            border=BOX,
+        )
+    row += 1
+    put(ws, row, 1, "Outcome", font=Font(bold=True, color=INK), border=BOX)
+    for j, r in enumerate(checks, start=2):
+        f, fo = decision_style(r.outcome)
+        put(ws, row, j, r.outcome, fill=f, font=fo, border=BOX,
+            align=Alignment(horizontal="center"))
+    row += 1
+    put(ws, row, 1, "Reason", font=Font(bold=True, color=INK), border=BOX)
+    for j, r in enumerate(checks, start=2):
+        put(ws, row, j, r.reason, align=WRAP, border=BOX)
+    return row + 1
+
+
+INDEX_NAMES = {"cpk": "Cpk", "ppk": "Ppk"}
+
+
+def sigma_words(method: str | None) -> str:
+    """How the within-process sd was estimated, in plain words."""
+    m = (method or "").lower()
+    if "moving range" in m:
+        return "sd from the ranges of consecutive parts (average moving range / 1.128)"
+    if "subgroup range" in m:
+        return "sd from the ranges within each lot (subgroup ranges / d2)"
+    return method or "within-process sd"
+
+
+OVERALL_WORDS = "overall sd of all the new parts (n − 1)"
+
+
+def _capability_block(ws, row: int, c: CharacteristicResult, r: CheckResult,
+                      last_col: int) -> int:
+    """The deciding index first, with its criterion and bound; then the other indices."""
+    x = dict(r.extra or {})
+    index_key = str(x.get("index") or "cpk")
+    index = INDEX_NAMES.get(index_key, index_key)
+    minimum = x.get("min", x.get("min_cpk", r.critical_value))
+    level = x.get("confidence") or r.ci_level or 0.95
+    bound = x.get("lower_bound", x.get("cpk_lower_95", r.ci_low))
+    on_bound = str(x.get("judge") or "estimate").startswith("lower")
+    how = x.get("sigma_method") or r.method
+    sigma_used = OVERALL_WORDS if index_key == "ppk" else sigma_words(how)
+    criterion = (
+        f"its lower {level:.0%} confidence bound at least {minimum:g}"
+        if on_bound
+        else f"the estimate at least {minimum:g}"
+    ) if minimum is not None else "none declared"
+    label = Font(bold=True, color=INK)
+    rows = [
+        ("Deciding index", f"{index} = {r.estimate:.2f}" if r.estimate is not None else "n/a"),
+        ("Criterion", criterion),
+        (f"Lower {level:.0%} confidence bound", None if bound is None else f"{bound:.2f}"),
+        ("Spread behind it", sigma_used),
+        ("What is shown", r.hypothesis),
+        ("Method", r.method),
+    ]
+    for text, value in rows:
+        put(ws, row, 1, text, font=label)
+        put(ws, row, 2, "n/a" if value is None else value, align=WRAP)
+        ws.merge_cells(start_row=row, start_column=2, end_row=row, end_column=last_col)
+        row += 1
+    put(ws, row, 1, "Outcome", font=label)
+    f, fo = decision_style(r.outcome)
+    put(ws, row, 2, r.outcome, fill=f, font=fo, align=Alignment(horizontal="center"))
+    put(ws, row, 3, r.reason, align=WRAP)
+    ws.merge_cells(start_row=row, start_column=3, end_row=row, end_column=last_col)
+    row += 1
+    others = [
+        ("Cp", x.get("cp"), "within", "both limits, centring ignored"),
+        ("Cpk", x.get("cpk"), "within", "the nearer limit"),
+        ("Cpl", x.get("cpl"), "within", "the lower limit"),
+        ("Cpu", x.get("cpu"), "within", "the upper limit"),
+        ("Pp", x.get("pp"), "overall", "both limits, centring ignored"),
+        ("Ppk", x.get("ppk"), "overall", "the nearer limit"),
+        ("Cpm", x.get("cpm"), "target", "both limits, distance from the target counted"),
+    ]
+    others = [o for o in others if o[1] is not None and o[0] != index]
+    if not others:
+        return row
+    row += 1
+    header_row(ws, row, 1, ["Other indices", "Value", "Against", "Spread used"])
+    ws.merge_cells(start_row=row, start_column=4, end_row=row, end_column=last_col)
+    row += 1
+    spreads = {
+        "within": sigma_words(how),
+        "overall": OVERALL_WORDS,
+        "target": "root mean square distance of the parts from the target",
+    }
+    values = {"within": x.get("sigma_within"), "overall": x.get("sigma_overall")}
+    for name, value, kind, against in others:
+        put(ws, row, 1, name, border=BOX, font=label)
+        put(ws, row, 2, value, fmt=CPK_FORMAT, border=BOX)
+        put(ws, row, 3, against, border=BOX, align=WRAP)
+        sd = values.get(kind)
+        words = spreads[kind] + (f" = {sd:.6g}" if sd is not None else "")
+        put(ws, row, 4, words, border=BOX, align=WRAP)
+        ws.merge_cells(start_row=row, start_column=4, end_row=row, end_column=last_col)
+        row += 1
+    if x.get("n") is not None:
+        put(ws, row, 1, f"From {x['n']} new parts", font=NOTE_FONT)
+        row += 1
+    return row
+
+
 def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: int | None):
     """Fill one characteristic's sheet."""
     fmts = formats_for(decimals)
@@ -177,6 +352,7 @@ def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: 
         row += 1
 
     row += 1
+    sections = [row]  # first rows of the sections: each kept whole on a page where it fits
     section(ws, row, "What the spec asks")
     row += 1
     s = c.spec
@@ -207,6 +383,7 @@ def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: 
         row += 1
 
     row += 1
+    sections.append(row)
     section(ws, row, "Statistics by process")
     row += 1
     unit_name = "lots" if ev.spec.unit_of_analysis == "lot" else "parts"
@@ -235,6 +412,7 @@ def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: 
         for j, (v, fm) in enumerate(zip(values, f, strict=True), start=1):
             put(ws, row, j, v, fmt=fm, border=BOX)
         row += 1
+    row = _beyond_table(ws, row, c, fmts)
     if ev.spec.unit_of_analysis == "lot":
         put(
             ws,
@@ -289,53 +467,26 @@ def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: 
         put(ws, row, 1, text, font=NOTE_FONT)
         row += 1
 
-    row += 1
-    section(ws, row, "Checks")
-    row += 1
-    if c.checks:
-        put(ws, row, 1, "Check", font=Font(bold=True, color=INK), border=BOX)
-        header_row(ws, row, 2, [r.check for r in c.checks])
+    # the capability check has a block of its own below; the table holds the tests
+    tests = [r for r in c.checks if r.check != "capability"]
+    capability = next((r for r in c.checks if r.check == "capability"), None)
+    if tests or capability is None:
         row += 1
-        for label, values, fl in _rows_for_checks(c.checks, fmts):
-            put(ws, row, 1, label, font=Font(bold=True, color=INK), border=BOX, align=WRAP)
-            for j, (v, fm) in enumerate(zip(values, fl, strict=True), start=2):
-                put(ws, row, j, v, fmt=fm, border=BOX, align=WRAP if isinstance(v, str) else None)
-            row += 1
-        put(ws, row, 1, "Margin as written", font=Font(bold=True, color=INK), border=BOX)
-        for j, r in enumerate(c.checks, start=2):
-            put(
-                ws,
-                row,
-                j,
-                margin_text(r.margin, c.spec.side) if r.check in ("target", "shift") else None,
-                border=BOX,
-            )
+        sections.append(row)
+        section(ws, row, "Checks")
         row += 1
-        put(ws, row, 1, "Outcome", font=Font(bold=True, color=INK), border=BOX)
-        for j, r in enumerate(c.checks, start=2):
-            f, fo = decision_style(r.outcome)
-            put(
-                ws,
-                row,
-                j,
-                r.outcome,
-                fill=f,
-                font=fo,
-                border=BOX,
-                align=Alignment(horizontal="center"),
-            )
+        row = _checks_table(ws, row, c, tests, fmts)
+    if capability is not None:
         row += 1
-        put(ws, row, 1, "Reason", font=Font(bold=True, color=INK), border=BOX)
-        for j, r in enumerate(c.checks, start=2):
-            put(ws, row, j, r.reason, align=WRAP, border=BOX)
+        sections.append(row)
+        section(ws, row, "Capability of the new process")
         row += 1
-    else:
-        put(ws, row, 1, "No checks ran for this characteristic.", font=NOTE_FONT)
-        row += 1
+        row = _capability_block(ws, row, c, capability, last_col)
 
     if c.streams:
         row = write_streams(ws, row + 1, c, fmts, last_col)
     row += 1
+    sections.append(row)
     section(ws, row, "Diagnostics (they never decide alone; a flag asks for review)")
     row += 1
     if c.diagnostics:
@@ -368,6 +519,7 @@ def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: 
 
     fit_rows(ws)
     row += 1
+    sections.append(row)
     section(ws, row, "Charts")
     row += 1
     helper_col = last_col + 3
@@ -383,11 +535,24 @@ def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: 
         ],
     )
     last_row = row + chart_rows
-    ws.print_area = f"A1:{get_column_letter(last_col)}{last_row}"
-    ws.page_setup.orientation = "landscape"
-    ws.page_setup.fitToWidth = 1
-    ws.page_setup.fitToHeight = 0
-    ws.sheet_properties.pageSetUpPr.fitToPage = True
-    ws.oddFooter.left.text = f"{c.name}: verify run {ev.run.run_id}"
-    ws.oddFooter.right.text = "page &P of &N"
+    page_setup(
+        ws,
+        f"A1:{get_column_letter(last_col)}{last_row}",
+        landscape=True,
+        footer=f"verify run {ev.run.run_id}",
+    )
+    # keep each short section whole and a long one's heading with its first rows,
+    # and every band of charts on one page with the Charts heading before the first band
+    blocks = []
+    ends = [*sections[1:], last_row + 1]
+    for start, nxt in zip(sections[:-1], ends[:-1], strict=True):
+        # a heading with its first rows (a whole section only when it is short)
+        end = nxt - 2
+        blocks.append((start, end if end - start <= SHORT_SECTION else start + KEEP_FIRST))
+    bands = [(row + k * BAND_ROWS, row + (k + 1) * BAND_ROWS - 1)
+             for k in range(chart_rows // BAND_ROWS)]
+    if bands:
+        blocks.append((sections[-1], bands[0][1]))
+        blocks += bands[1:]
+    apply_breaks(ws, keep_together(ws, blocks, last_row=last_row, last_col=last_col))
     ws.sheet_view.showGridLines = False

@@ -1,14 +1,18 @@
 """Native Excel charts for a characteristic sheet, drawn from a helper block beside the print area.
 
-Three charts:
+Up to four charts, two to a band:
 
-1. values in production order (old lots, then new lots) with the target and limit lines; with
-   more than :data:`MAX_POINTS` values a point is the mean of a run of consecutive values (the
-   title says so);
-2. old against new as histograms on shared bin edges (counts from ``numpy.histogram``; bins
-   follow the data's resolution);
-3. each interval (target: new minus target; shift: new minus old) as a line segment, with the
-   margins as short vertical marks and a line at 0.
+1. values in production order (old lots, then new lots) with the target and limit lines, thin
+   lines where one lot ends and the next begins, and the old process's natural limits (its
+   mean +- 3 sd, part values); with more than :data:`MAX_POINTS` values a point is the mean of
+   a run of consecutive values (the title says so);
+2. old against new as the outline of each process's share of parts per bin (relative
+   frequencies, so unequal n compare), on shared bin edges (``numpy.histogram``; bins follow
+   the data's resolution), with the specification limits as vertical lines;
+3. each interval (target: new minus target; shift: new minus old) as a labelled line segment,
+   with only the margin ends that exist (a one-sided check has one) and a line at 0;
+4. for a paired design, the difference new minus old of every pair in production order, with
+   its mean, zero and the margin of the mean difference (only the side that exists).
 
 The helper block holds only what the charts draw, with full-precision numbers; it is layout,
 not statistics.
@@ -19,7 +23,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from openpyxl.chart import BarChart, Reference, ScatterChart, Series
+from openpyxl.chart import Reference, ScatterChart, Series
 from openpyxl.chart.text import RichText, Text
 from openpyxl.chart.title import Title
 from openpyxl.drawing.text import (
@@ -35,11 +39,21 @@ from .cells import NOTE_FONT, SECTION_FONT, put
 
 MAX_POINTS = 1000
 MAX_BINS = 40
-CHART_W = 14.0  # cm
-CHART_H = 8.5
-BAND_ROWS = 18  # rows a band of charts takes (15 pt rows)
+CHART_W = 15.5  # cm
+CHART_H = 9.0
+BAND_ROWS = 19  # rows a band of charts takes (15 pt rows: 285 pt, the chart 255 pt)
+ROW_PT = 15.0  # the height of the rows under the charts, in points
 COLOURS = {"old": "5B7C99", "new": "D9822B"}
-LINE_COLOURS = {"target": "2E7D57", "limit": "A3392B", "margin": "A3392B", "zero": "6B7680"}
+LINE_COLOURS = {
+    "target": "2E7D57",
+    "limit": "A3392B",
+    "margin": "A3392B",
+    "zero": "6B7680",
+    "natural": "5B7C99",
+    "lot": "C9D2D9",
+    "mean": "1F2A33",
+}
+MAX_LOT_LINES = 80  # more lots than this: no boundary lines (they would fill the chart)
 
 
 def _col_letter(col: int) -> str:
@@ -56,7 +70,7 @@ def _series_values(ev: Evaluation, name: str, process: str):
     return sel["value"].to_numpy(dtype=float), sel["lot"].astype(str).to_numpy(dtype=object)
 
 
-def _title(text: str, size: int = 1000) -> Title:
+def chart_title(text: str, size: int = 1000) -> Title:
     """A chart title in a modest font (the default is large enough to squeeze the plot)."""
     cp = CharacterProperties(sz=size, b=True)
     para = Paragraph(pPr=ParagraphProperties(defRPr=cp), r=[RegularTextRun(rPr=cp, t=text)])
@@ -92,6 +106,11 @@ def _axes(chart, x_title: str, y_title: str, x_fmt: str | None, y_fmt: str | Non
     if y_fmt:
         chart.y_axis.number_format = y_fmt
         chart.y_axis.numFmt.sourceLinked = False
+    # no vertical grid: vertical lines on these charts mean something (lot ends, limits)
+    chart.x_axis.majorGridlines = None
+    # tick labels at the low edge, wherever the axes cross (differences run below zero)
+    chart.x_axis.tickLblPos = "low"
+    chart.y_axis.tickLblPos = "low"
 
 
 def _bounds(values, pad: float = 0.08) -> tuple[float, float]:
@@ -139,10 +158,16 @@ def add_charts(
     drawn += ok
     col, ok = _interval_chart(ws, c, anchors[drawn], anchor_row, col + 1, formats)
     drawn += ok
+    col, ok = _paired_chart(ws, ev, c, anchors[drawn], anchor_row, col + 1, formats)
+    drawn += ok
     if drawn == 0:
         put(ws, anchor_row, 1, "No values to draw.", font=NOTE_FONT)
         return 1
-    return BAND_ROWS * ((drawn + 1) // 2)
+    bands = (drawn + 1) // 2
+    # rows of a known height, so that a chart's extent in rows is fixed on every program
+    for r in range(anchor_row, anchor_row + BAND_ROWS * bands):
+        ws.row_dimensions[r].height = ROW_PT
+    return BAND_ROWS * bands
 
 
 def _anchors(col_widths: list[float], row: int) -> list[str]:
@@ -158,24 +183,69 @@ def _anchors(col_widths: list[float], row: int) -> list[str]:
     return [f"A{row}", f"{_col_letter(second)}{row}", f"A{b2}", f"{_col_letter(second)}{b2}"]
 
 
+class _Block:
+    """Helper-block writer: consecutive (x, y) rows under a name, blank rows as gaps."""
+
+    def __init__(self, ws, row: int, col: int, title: str):
+        self.ws, self.col, self.row = ws, col, row
+        put(ws, row, col, title, font=Font(bold=True))
+        for j, h in enumerate(["Series", "x", "y"]):
+            put(ws, row + 1, col + j, h, font=Font(bold=True))
+        self.row = row + 2
+        self.series: list[tuple[str, int, int]] = []
+
+    def add(self, name: str, pts, *, y_fmt: str | None = None) -> None:
+        first = self.row
+        for x, y in pts:
+            put(self.ws, self.row, self.col, name)
+            if x is not None and y is not None:
+                self.ws.cell(self.row, self.col + 1, float(x))
+                cell = self.ws.cell(self.row, self.col + 2, float(y))
+                if y_fmt:
+                    cell.number_format = y_fmt
+            self.row += 1
+        self.series.append((name, first, self.row - 1))
+
+    def to_chart(self, chart, styles: dict) -> None:
+        for name, a, b in self.series:
+            s = Series(
+                Reference(self.ws, min_col=self.col + 2, min_row=a, max_row=b),
+                Reference(self.ws, min_col=self.col + 1, min_row=a, max_row=b),
+                title=name,
+            )
+            styles[name](s)
+            chart.series.append(s)
+
+
+def _vertical_lines(xs, lo: float, hi: float) -> list:
+    """Vertical segments at each x from lo to hi, separated by gaps."""
+    pts = []
+    for x in xs:
+        pts += [(x, lo), (x, hi), (None, None)]
+    return pts
+
+
 def _production_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
     blocks = []
     x0 = 0
     note = ""
+    boundaries: list[float] = []
     for p in ("old", "new"):
         v, lots = _series_values(ev, c.name, p)
         if v.size == 0:
             continue
+        if x0 > 0:
+            boundaries.append(x0 + 0.5)  # old ends, new begins
+        starts = np.flatnonzero(np.r_[True, lots[1:] != lots[:-1]])
         if v.size > MAX_POINTS:
             # a point per lot (or per run of g consecutive lots): the mean of its values,
             # drawn at the middle of the run
-            runs = np.flatnonzero(np.r_[True, lots[1:] != lots[:-1]])
-            g = math.ceil(len(runs) / MAX_POINTS)
-            starts = runs[::g]
-            sizes = np.diff(np.r_[starts, v.size])
-            pts = np.add.reduceat(v, starts) / sizes
-            x = x0 + starts + (sizes + 1) / 2
-            lots = lots[starts]
+            g = math.ceil(len(starts) / MAX_POINTS)
+            runs = starts[::g]
+            sizes = np.diff(np.r_[runs, v.size])
+            pts = np.add.reduceat(v, runs) / sizes
+            x = x0 + runs + (sizes + 1) / 2
+            lots = lots[runs]
             note = (
                 " (a point is a lot mean)"
                 if g == 1
@@ -184,6 +254,7 @@ def _production_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
         else:
             pts = v
             x = x0 + np.arange(1, v.size + 1)
+        boundaries += [x0 + float(k) + 0.5 for k in starts[1:]]
         blocks.append((p, x, pts, lots))
         x0 += v.size
     if not blocks:
@@ -194,7 +265,7 @@ def _production_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
         put(ws, row0 + 1, col + j, h, font=Font(bold=True))
     r = row0 + 2
     chart = ScatterChart()
-    chart.title = _title(f"{c.name} in production order: old, then new{note}")
+    chart.title = chart_title(f"{c.name} in production order: old, then new{note}")
     chart.style = 2
     chart.height, chart.width = CHART_H, CHART_W
     ys = []
@@ -209,41 +280,48 @@ def _production_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
         s = Series(
             Reference(ws, min_col=col + 1, min_row=first, max_row=r - 1),
             Reference(ws, min_col=col, min_row=first, max_row=r - 1),
-            title=p,
+            title=f"{p} process",
         )
         _style_points(s, COLOURS[p])
         chart.series.append(s)
         ys.extend(pts.tolist())
     # reference lines: two points each, across the whole run
     spec = c.spec
+    xmax = float(x0 + 1)
     lines = [
         ("target", spec.target, "target", None),
         ("lower limit", spec.lower, "limit", "dash"),
         ("upper limit", spec.upper, "limit", "dash"),
     ]
-    r += 1
-    put(ws, r, col, "Reference lines", font=Font(bold=True))
-    r += 1
-    xmax = float(x0 + 1)
+    old = c.processes.get("old")
+    if (
+        ev.spec.unit_of_analysis == "part"
+        and old is not None
+        and old.mean is not None
+        and old.sd is not None
+    ):
+        # the old process's natural limits: where its parts fall (mean +- 3 sd)
+        lines += [
+            ("old process mean - 3 sd", old.mean - 3 * old.sd, "natural", "sysDot"),
+            ("old process mean + 3 sd", old.mean + 3 * old.sd, "natural", "sysDot"),
+        ]
+    for _label, y, _kind, _dash in lines:
+        if y is not None:
+            ys.append(float(y))
+    lo, hi = _nice(*_bounds(ys))
+    block = _Block(ws, r + 1, col, "Reference lines")
+    styles = {}
     for label, y, kind, dash in lines:
         if y is None:
             continue
-        put(ws, r, col, label)
-        ws.cell(r, col + 1, 0.0)
-        ws.cell(r, col + 2, float(y))
-        ws.cell(r + 1, col + 1, xmax)
-        ws.cell(r + 1, col + 2, float(y))
-        s = Series(
-            Reference(ws, min_col=col + 2, min_row=r, max_row=r + 1),
-            Reference(ws, min_col=col + 1, min_row=r, max_row=r + 1),
-            title=label,
-        )
-        _style_line(s, LINE_COLOURS[kind], dash)
-        chart.series.append(s)
-        ys.append(float(y))
-        r += 2
+        block.add(label, [(0.0, y), (xmax, y)])
+        styles[label] = lambda s, k=kind, d=dash: _style_line(s, LINE_COLOURS[k], d)
+    if boundaries and len(boundaries) <= MAX_LOT_LINES and not note:
+        block.add("lot boundaries", _vertical_lines(boundaries, lo, hi))
+        styles["lot boundaries"] = lambda s: _style_line(s, LINE_COLOURS["lot"], None, 9525)
+    chart.display_blanks = "gap"
+    block.to_chart(chart, styles)
     _axes(chart, "position in production order", f"{c.name} ({c.unit})", "0", formats["value"])
-    lo, hi = _nice(*_bounds(ys))
     chart.y_axis.scaling.min, chart.y_axis.scaling.max = lo, hi
     chart.x_axis.scaling.min, chart.x_axis.scaling.max = 0, xmax
     chart.legend.position = "b"
@@ -277,46 +355,70 @@ def _histogram(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
     allv = np.concatenate(list(groups.values()))
     decimals = _decimals_of(formats["value"])
     edges = _edges(allv, decimals)
-    counts = {p: np.histogram(v, bins=edges)[0] for p, v in groups.items()}
-    put(ws, row0, col, "Histogram (shared bins)", font=Font(bold=True))
-    header = ["Bin from", "Bin to", "Bin centre", *[f"{p} (n={groups[p].size})" for p in groups]]
-    for j, h in enumerate(header):
-        put(ws, row0 + 1, col + j, h, font=Font(bold=True))
-    label_d = (decimals if decimals is not None else 4) + (0 if decimals is None else 1)
-    for i in range(len(edges) - 1):
-        r = row0 + 2 + i
-        ws.cell(r, col, float(edges[i]))
-        ws.cell(r, col + 1, float(edges[i + 1]))
-        centre = (edges[i] + edges[i + 1]) / 2
-        put(ws, r, col + 2, f"{centre:.{label_d}f}")  # a category label: display text
-        for j, p in enumerate(groups):
-            ws.cell(r, col + 3 + j, int(counts[p][i]))
-    last = row0 + 1 + len(edges) - 1
-    chart = BarChart()
-    chart.type = "col"
-    chart.grouping = "clustered"
-    chart.gapWidth = 30
-    chart.overlap = 0
-    chart.title = _title(f"{c.name}: old against new, counts per bin")
+    # each process's share of its own parts per bin (percent), so unequal n compare
+    shares = {p: 100.0 * np.histogram(v, bins=edges)[0] / v.size for p, v in groups.items()}
+    block = _Block(ws, row0, col, "Share of parts per bin (shared bins), %")
+    styles = {}
+    top = max(float(f.max()) for f in shares.values())
+    for p, f in shares.items():
+        # the outline of the bars: up and down at every edge
+        pts = [(edges[0], 0.0)]
+        for i in range(len(f)):
+            pts += [(edges[i], f[i]), (edges[i + 1], f[i])]
+        pts.append((edges[-1], 0.0))
+        name = f"{p} process (n = {groups[p].size})"
+        block.add(name, pts, y_fmt="0.0")
+        styles[name] = lambda s, p=p: _style_line(s, COLOURS[p], None, 25400)
+    xs = [float(edges[0]), float(edges[-1])]
+    spec = c.spec
+    y_hi = _nice(0.0, top * 1.1)[1]
+    for label, x, kind in (
+        ("lower limit", spec.lower, "limit"),
+        ("upper limit", spec.upper, "limit"),
+        ("target", spec.target, "target"),
+    ):
+        if x is None:
+            continue
+        block.add(label, [(x, 0.0), (x, y_hi)])
+        styles[label] = lambda s, k=kind: _style_line(
+            s, LINE_COLOURS[k], "dash" if k == "limit" else None
+        )
+        xs.append(float(x))
+    chart = ScatterChart()
+    chart.style = 2
+    chart.title = chart_title(f"{c.name}: share of each process's parts per bin")
     chart.height, chart.width = CHART_H, CHART_W
-    data = Reference(
-        ws, min_col=col + 3, max_col=col + 2 + len(groups), min_row=row0 + 1, max_row=last
-    )
-    chart.add_data(data, titles_from_data=True)
-    chart.set_categories(Reference(ws, min_col=col + 2, min_row=row0 + 2, max_row=last))
-    for s, p in zip(chart.series, groups, strict=True):
-        s.graphicalProperties.solidFill = COLOURS[p]
-        s.graphicalProperties.line.solidFill = COLOURS[p]
-    _axes(chart, f"{c.name} ({c.unit}), bin centre", "count", None, "0")
+    block.to_chart(chart, styles)
+    _axes(chart, f"{c.name} ({c.unit})", "% of the process's parts", formats["value"], "0")
+    lo, hi = _nice(*_bounds(xs, pad=0.03))
+    chart.x_axis.scaling.min, chart.x_axis.scaling.max = lo, hi
+    chart.y_axis.scaling.min, chart.y_axis.scaling.max = 0, y_hi
     chart.legend.position = "b"
     ws.add_chart(chart, anchor)
-    return col + len(header), 1
+    return col + 3, 1
 
 
 def _decimals_of(fmt: str) -> int | None:
     if fmt == "General":
         return None
     return len(fmt.split(".")[1]) if "." in fmt else 0
+
+
+def existing_margin_ends(r) -> list[float]:
+    """The margin ends a check tests: both for two-sided, the harmful side's only otherwise."""
+    if r.margin is None:
+        return []
+    low, high = r.margin
+    if r.alternative == "greater":  # lower values harmful: the low end alone
+        return [low]
+    if r.alternative == "less":
+        return [high]
+    return [low, high]
+
+
+def _row_label(k: int, r) -> str:
+    level = f", {r.ci_level:.0%} interval" if r.ci_level else ", interval"
+    return f"{r.check}{level}"
 
 
 def _interval_chart(ws, c, anchor, row0, col, formats) -> tuple[int, int]:
@@ -332,66 +434,39 @@ def _interval_chart(ws, c, anchor, row0, col, formats) -> tuple[int, int]:
         return col, 0
     finite = [0.0]
     for r in rows:
-        finite += [r.estimate, r.ci_low, r.ci_high]
-        if r.margin:
-            finite += list(r.margin)
+        finite += [r.estimate, r.ci_low, r.ci_high, *existing_margin_ends(r)]
     lo, hi = _nice(*_bounds(finite, pad=0.15))
-    put(ws, row0, col, "Intervals against margins", font=Font(bold=True))
-    for j, h in enumerate(["Series", "x", "y"]):
-        put(ws, row0 + 1, col + j, h, font=Font(bold=True))
-    r = row0 + 2
-    series = {}
-
-    def add(name, pts):
-        nonlocal r
-        first = r
-        for x, y in pts:
-            put(ws, r, col, name)
-            if x is not None:
-                ws.cell(r, col + 1, float(x))
-                ws.cell(r, col + 2, float(y))
-            r += 1
-        series[name] = (first, r - 1)
 
     def clip(x):
         return min(max(x, lo), hi)  # a one-sided bound runs to the edge of the chart
 
+    block = _Block(ws, row0, col, "Intervals against margins")
     palette = ("245E7A", "7A4E9C", "2E7D57", "8A4B00")
-    est, marks = [], []
     styles = {}
+    est, marks = [], []
     for k, res in enumerate(rows, start=1):
-        level = f" {res.ci_level:.0%}" if res.ci_level else ""
-        name = f"{k}: {res.check}{level} interval"
-        add(name, [(clip(res.ci_low), k), (clip(res.ci_high), k)])
+        name = _row_label(k, res)
+        block.add(name, [(clip(res.ci_low), k), (clip(res.ci_high), k)])
         colour = palette[(k - 1) % len(palette)]
         styles[name] = lambda s, colour=colour: _style_line(s, colour, None, 38100)
         est.append((res.estimate, k))
-        if res.margin:
-            for m in res.margin:
-                marks += [(m, k - 0.3), (m, k + 0.3), (None, None)]
-    add("estimate", est)
+        for m in existing_margin_ends(res):
+            marks += [(m, k - 0.3), (m, k + 0.3), (None, None)]
+    block.add("estimate", est)
+    styles["estimate"] = lambda s: _style_points(s, "1F2A33")
     if marks:
-        add("margins", marks)
-    add("zero", [(0.0, 0.5), (0.0, len(rows) + 0.5)])
+        block.add("margin (only the ends that exist)", marks)
+        styles["margin (only the ends that exist)"] = lambda s: _style_line(
+            s, LINE_COLOURS["margin"], None, 28575
+        )
+    block.add("zero", [(0.0, 0.5), (0.0, len(rows) + 0.5)])
+    styles["zero"] = lambda s: _style_line(s, LINE_COLOURS["zero"], "dash")
     chart = ScatterChart()
-    chart.title = _title(f"{c.name}: intervals against the margins")
+    chart.style = 2
+    chart.title = chart_title(f"{c.name}: intervals against the margins")
     chart.height, chart.width = CHART_H, CHART_W
     chart.display_blanks = "gap"  # a blank row ends one margin mark and starts the next
-    styles.update(
-        {
-            "estimate": lambda s: _style_points(s, "1F2A33"),
-            "margins": lambda s: _style_line(s, LINE_COLOURS["margin"], None, 28575),
-            "zero": lambda s: _style_line(s, LINE_COLOURS["zero"], "dash"),
-        }
-    )
-    for name, (a, b) in series.items():
-        s = Series(
-            Reference(ws, min_col=col + 2, min_row=a, max_row=b),
-            Reference(ws, min_col=col + 1, min_row=a, max_row=b),
-            title=name,
-        )
-        styles[name](s)
-        chart.series.append(s)
+    block.to_chart(chart, styles)
     whats = []
     if any(r.check == "target" for r in rows):
         whats.append("target: new − target")
@@ -400,7 +475,62 @@ def _interval_chart(ws, c, anchor, row0, col, formats) -> tuple[int, int]:
     _axes(chart, f"difference in {c.unit} ({'; '.join(whats)})", "", formats["shift"], None)
     chart.x_axis.scaling.min, chart.x_axis.scaling.max = lo, hi
     chart.y_axis.scaling.min, chart.y_axis.scaling.max = 0, len(rows) + 1
-    chart.y_axis.delete = True
+    # each row named on the vertical axis: a number format that shows tick 1 as the first
+    # check's name, tick 2 as the second's and nothing elsewhere (at most two rows: target and
+    # shift; a format holds two conditions)
+    names = [_row_label(k, r) for k, r in enumerate(rows, start=1)][:2]
+    fmt = ";".join(f'[={k}]"{n}"' for k, n in enumerate(names, start=1)) + ';""'
+    if len(names) == 1:
+        fmt = f'[=1]"{names[0]}";[=0]"";""'
+    chart.y_axis.number_format = fmt
+    chart.y_axis.numFmt.sourceLinked = False
+    chart.y_axis.majorUnit = 1
+    chart.y_axis.majorGridlines = None
+    chart.y_axis.delete = False
+    chart.legend.position = "b"
+    ws.add_chart(chart, anchor)
+    return col + 3, 1
+
+
+def _paired_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
+    shift = next((r for r in c.checks if r.check == "shift" and r.design == "paired"), None)
+    if shift is None or ev.spec.data.pair is None:
+        return col, 0
+    from ..data import paired_values
+
+    try:
+        pv = paired_values(ev.measurements, ev.spec, c.name)
+    except ValueError:
+        return col, 0
+    if len(pv.keys) == 0:
+        return col, 0
+    d = np.asarray(pv.new, dtype=float) - np.asarray(pv.old, dtype=float)
+    x = np.arange(1, d.size + 1)
+    block = _Block(ws, row0, col, "Paired differences (new - old)")
+    block.add("difference of a pair", zip(x.tolist(), d.tolist(), strict=True),
+              y_fmt=formats["shift"])
+    styles = {"difference of a pair": lambda s: _style_points(s, COLOURS["new"])}
+    xmax = float(d.size + 1)
+    ys = d.tolist() + [0.0]
+    block.add("zero", [(0.0, 0.0), (xmax, 0.0)])
+    styles["zero"] = lambda s: _style_line(s, LINE_COLOURS["zero"], "dash")
+    if shift.estimate is not None:
+        block.add("mean difference", [(0.0, shift.estimate), (xmax, shift.estimate)])
+        styles["mean difference"] = lambda s: _style_line(s, LINE_COLOURS["mean"])
+    for m in existing_margin_ends(shift):
+        name = f"margin for the mean difference ({m:+g})"
+        block.add(name, [(0.0, m), (xmax, m)])
+        styles[name] = lambda s: _style_line(s, LINE_COLOURS["margin"], None, 28575)
+        ys.append(m)
+    chart = ScatterChart()
+    chart.style = 2
+    chart.title = chart_title(f"{c.name}: new − old for each of the {d.size} pairs")
+    chart.height, chart.width = CHART_H, CHART_W
+    block.to_chart(chart, styles)
+    _axes(chart, "pair, in production order", f"new − old ({c.unit})", "0", formats["shift"])
+    lo, hi = _nice(*_bounds(ys))
+    chart.y_axis.scaling.min, chart.y_axis.scaling.max = lo, hi
+    chart.x_axis.scaling.min, chart.x_axis.scaling.max = 0, xmax
     chart.legend.position = "b"
     ws.add_chart(chart, anchor)
     return col + 3, 1

@@ -54,10 +54,10 @@ def details_placeholder(ws, ev: Evaluation, styles) -> StreamedSheet:
     for j, (_h, width) in enumerate(COLUMNS, start=1):
         ws.column_dimensions[get_column_letter(j)].width = width
     ws.freeze_panes = ws.cell(HEADER_ROW + 1, 2)
-    ws.page_setup.orientation = "landscape"
-    ws.page_setup.fitToWidth = 1
-    ws.page_setup.fitToHeight = 0
-    ws.sheet_properties.pageSetUpPr.fitToPage = True
+    from .cells import page_setup
+
+    page_setup(ws, None, landscape=True, title_rows=f"{HEADER_ROW}:{HEADER_ROW}",
+               footer="a row per check and per flagged diagnostic")
     text = styles.text()
     rows = list(_rows(ev))
     last = HEADER_ROW + len(rows)

@@ -15,7 +15,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..model import CheckResult, DiagnosticResult, Evaluation
+from ..model import BeyondLimits, CheckResult, DiagnosticResult, Evaluation
 
 FORMAT = "verify-result/1"
 
@@ -103,6 +103,13 @@ def _check(c: CheckResult) -> dict:
         extra=dict(c.extra),
     )
     return d
+
+
+def _beyond(b: BeyondLimits | None) -> dict | None:
+    """{below, above, expected_ppm}: part counts beyond the limits, normal-model ppm (or null)."""
+    if b is None:
+        return None
+    return {"below": b.below, "above": b.above, "expected_ppm": b.expected_ppm}
 
 
 def _diag(g: DiagnosticResult) -> dict:
@@ -206,6 +213,7 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
                         "min": s.minimum,
                         "max": s.maximum,
                         "lots": list(s.lots),
+                        "beyond_limits": _beyond(s.beyond_limits),
                         "sd_within_lot": s.sd_within_lot,
                         "sd_between_lot": s.sd_between_lot,
                         "between_lot_set_to_zero": s.between_lot_set_to_zero,

@@ -15,12 +15,12 @@ from collections.abc import Iterator
 
 import numpy as np
 import pandas as pd
-from openpyxl.styles import Font
+from openpyxl.styles import Alignment, Font
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.filters import AutoFilter
 from openpyxl.worksheet.table import Table, TableColumn, TableStyleInfo
 
-from .cells import MUTED, NOTE_FONT, clean_text, fixed, put, resolution_decimals
+from .cells import MUTED, NOTE_FONT, clean_text, fixed, page_setup, put, resolution_decimals
 from .layout import MEASUREMENT_HEADERS, MeasurementLayout
 from .styles import StyleBook
 from .xlsx_fast import StreamedSheet, t_element
@@ -35,10 +35,12 @@ _WIDTHS = {
     "exclusion_reason": 34,
     "source_file": 30,
     "source_row": 10,
-    "order": 11,
+    "order": 12,
 }
 NOTE_COLUMN = len(MEASUREMENT_HEADERS) + 2  # one empty column after the table
 CHUNK_ROWS = 20_000
+HEADER_ALIGN = Alignment(wrap_text=True, vertical="bottom")
+PRINT_FOOTER = "every row read, used or excluded"
 
 
 def continuation_note(layout: MeasurementLayout, sheet: str) -> str | None:
@@ -81,15 +83,13 @@ def add_placeholders(wb, layout: MeasurementLayout, styles: StyleBook) -> list[S
         rows = layout.table.loc[layout.table["sheet"] == title]
         n = len(rows)
         for j, label in enumerate(headers, start=1):
-            put(ws, 1, j, label, font=Font(bold=True))
+            put(ws, 1, j, label, font=Font(bold=True), align=HEADER_ALIGN)
+        ws.row_dimensions[1].height = 30  # two-line headings never run into each other
         for j, (key, _label) in enumerate(MEASUREMENT_HEADERS, start=1):
             ws.column_dimensions[get_column_letter(j)].width = _WIDTHS.get(key, 12)
         ws.freeze_panes = "A2"
-        ws.print_title_rows = "1:1"  # the header on every printed page
-        ws.page_setup.orientation = "landscape"
-        ws.page_setup.fitToWidth = 1
-        ws.page_setup.fitToHeight = 0
-        ws.sheet_properties.pageSetUpPr.fitToPage = True
+        # the header on every printed page
+        page_setup(ws, None, landscape=True, title_rows="1:1", footer=PRINT_FOOTER)
         last_row = max(n + 1, 2)  # a table needs one data row, even an empty one
         ref = f"A1:{last_col}{last_row}"
         table = Table(
@@ -209,14 +209,17 @@ def _chunk_columns(chunk, start, stop, keys, text_cols, value_style, styles) -> 
     ).tolist()
     int_style = np.where(used, _s(styles.number("0", False)), _s(styles.number("0", True))).tolist()
 
-    def integers(key):
+    def integers(key, offset=0):
         data = chunk[key].to_numpy()
         if data.dtype.kind in "iu":
-            return [f"{s}><v>{x}</v></c>" for x, s in zip(data.tolist(), int_style, strict=True)]
+            return [
+                f"{s}><v>{x + offset}</v></c>"
+                for x, s in zip(data.tolist(), int_style, strict=True)
+            ]
         out = []
         for x, s in zip(data.tolist(), int_style, strict=True):
             ok = x is not None and x == x  # None or NaN: an empty cell
-            out.append(f"{s}><v>{int(x)}</v></c>" if ok else f"{s}/>")
+            out.append(f"{s}><v>{int(x) + offset}</v></c>" if ok else f"{s}/>")
         return out
 
     columns = []
@@ -225,8 +228,10 @@ def _chunk_columns(chunk, start, stop, keys, text_cols, value_style, styles) -> 
             columns.append(value_frag)
         elif key == "used":
             columns.append(used_frag)
-        elif key in ("source_row", "order"):
+        elif key == "source_row":
             columns.append(integers(key))
+        elif key == "order":
+            columns.append(integers(key, 1))  # a reader counts production order from 1
         else:  # text, including any column a later layout adds
             columns.append(text_cols[key].fragments(start, stop, used))
     return columns

@@ -1,11 +1,14 @@
-"""The planning workbook of ``verify plan``: inputs, results, method, and power curves.
+"""The planning workbook of ``verify plan``: inputs, the plan per check, method, and charts.
 
-Two sheets: "Plan" (the inputs with where each came from, a row per planned check, the method
-in words) and "Power curves" (for each check the power at each lot size, and a native scatter
-chart of power against n with the target power as a line and the n needed marked). The layer
-only lays out a :class:`~verify.plan.Plan`; it computes nothing. Every text, including names
-and units from the spec, is written as text by :func:`verify.report.cells.put`, never as a
-formula.
+Two sheets. "Plan": the inputs with where each came from, then the plan with one column per
+planned check and one row per quantity (so a check reads down its column and the page stays
+readable however many checks there are: more than :data:`CHECKS_PER_BLOCK` continue in a
+further block below), then the method in words. "Power curves": for each check a table of the
+power at each trial size and a column chart of it, with the sizes that reach the wanted power
+in one colour and those that fall short in another, so the smallest sufficient trial is where
+the colour changes. The layer only lays out a :class:`~verify.plan.Plan`; it computes nothing.
+Every text, including names and units from the spec, is written as text by
+:func:`verify.report.cells.put`, never as a formula.
 """
 
 from __future__ import annotations
@@ -13,56 +16,84 @@ from __future__ import annotations
 from pathlib import Path
 
 from openpyxl import Workbook
-from openpyxl.chart import Reference, ScatterChart, Series
-from openpyxl.chart.shapes import GraphicalProperties
+from openpyxl.chart import BarChart, Reference
+from openpyxl.styles import Alignment, Font
 from openpyxl.utils import get_column_letter
 
 from ..plan import Plan, PlanRow, requirement
 from .cells import (
-    ACCENT,
-    CAUTION_EDGE,
+    BOX,
     DECISION_COLOURS,
+    INK,
     INT_FORMAT,
     MUTED,
     NOTE_FONT,
     POWER_FORMAT,
     TITLE_FONT,
     WRAP,
+    fit_rows,
     header_row,
+    page_setup,
     put,
     put_row,
     section,
 )
+from .charts import chart_title
+from .paper import keep_sections
 from .safe_text import xml_safe
 
 PLAN_SHEET = "Plan"
 CURVES_SHEET = "Power curves"
-CHART_ROWS = 18  # rows a chart covers (its height is about 0.5 cm per row)
+CHART_ROWS = 17  # rows a chart covers (8.5 cm at 15 pt a row)
 
-RESULT_HEADERS = (
-    "Characteristic",
-    "Unit",
-    "Check",
-    "Test",
-    "Design",
-    "Harmful side",
-    "sd used",
-    "sd from",
-    "Margin / detect",
-    "Assumed true shift",
-    "Target power",
-    "n needed (new)",
-    "n needed (old)",
-    "Power at n needed",
-    "Power at n needed - 1",
-    "n reported (new)",
-    "n reported (old)",
-    "n reported from",
-    "Power at n reported",
-    "Detectable shift at n reported",
-    "Note",
-)
-RESULT_WIDTHS = (18, 9, 8, 30, 11, 11, 11, 40, 16, 11, 10, 10, 10, 11, 11, 10, 10, 11, 11, 13, 50)
+CHECKS_PER_BLOCK = 5
+FREE_FORMAT = "0.000###"  # planning inputs of any scale: 3 to 6 decimals
+LABEL_WIDTH = 40
+CHECK_WIDTH = 26
+
+# (label, getter, number format): the rows of the plan, in our own words
+def _plan_rows():
+    def n_pair(new, old, design):
+        if new is None:
+            return "not reachable"
+        if design in ("welch", "pooled") and old is not None and old != new:
+            return f"{new} new / {old} old"
+        return new
+
+    return (
+        ("Test", lambda r: r.scenario.test, None),
+        ("Design", lambda r: r.scenario.design, None),
+        ("Harmful side", lambda r: r.scenario.side, None),
+        ("Must show / must not miss", lambda r: requirement(r.scenario), None),
+        ("Assumed true shift", lambda r: r.scenario.true_shift, FREE_FORMAT),
+        ("sd assumed", lambda r: r.scenario.sd, FREE_FORMAT),
+        ("sd taken from", lambda r: r.scenario.sd_source, None),
+        ("Wanted power", lambda r: r.scenario.target_power, POWER_FORMAT),
+        (
+            "Smallest trial that reaches it (per process)",
+            lambda r: n_pair(r.n_new, r.n_old, r.scenario.design),
+            INT_FORMAT,
+        ),
+        ("Power with that trial", lambda r: r.power, POWER_FORMAT),
+        ("Power with one unit fewer", lambda r: r.power_below, POWER_FORMAT),
+        (
+            "Trial size looked at",
+            lambda r: n_pair(r.eval_n_new, r.eval_n_old, r.scenario.design),
+            INT_FORMAT,
+        ),
+        ("... taken from", lambda r: _source_words(r.scenario.eval_source), None),
+        ("Power with the size looked at", lambda r: r.power_at_eval, POWER_FORMAT),
+        (
+            "Smallest shift a t-test finds with the wanted power at that size",
+            lambda r: r.detectable_shift,
+            FREE_FORMAT,
+        ),
+        ("Note", lambda r: r.note or "", None),
+    )
+
+
+def _source_words(source: str) -> str:
+    return {"n needed": "the smallest trial above"}.get(source, source)
 
 
 def _label(row: PlanRow) -> str:
@@ -72,58 +103,33 @@ def _label(row: PlanRow) -> str:
 
 
 def _results(ws, start: int, plan: Plan) -> int:
+    """The plan, one column per check (in blocks of CHECKS_PER_BLOCK), one row per quantity."""
     section(ws, start, "Results")
-    header_row(ws, start + 1, 1, RESULT_HEADERS)
-    r = start + 2
-    for row in plan.rows:
-        s = row.scenario
-        values = (
-            s.characteristic or "",
-            s.unit,
-            s.check,
-            s.test,
-            s.design,
-            s.side,
-            s.sd,
-            s.sd_source,
-            requirement(s),
-            s.true_shift,
-            s.target_power,
-            row.n_new,
-            row.n_old,
-            row.power,
-            row.power_below,
-            row.eval_n_new,
-            row.eval_n_old,
-            s.eval_source,
-            row.power_at_eval,
-            row.detectable_shift,
-            row.note or "",
-        )
-        fmts = (
-            None,
-            None,
-            None,
-            None,
-            None,
-            None,
-            "General",
-            None,
-            None,
-            "General",
-            POWER_FORMAT,
-            INT_FORMAT,
-            INT_FORMAT,
-            POWER_FORMAT,
-            POWER_FORMAT,
-            INT_FORMAT,
-            INT_FORMAT,
-            None,
-            POWER_FORMAT,
-            "General",
-            None,
-        )
-        put_row(ws, r, 1, values, fmts=fmts)
+    r = start + 1
+    rows = list(plan.rows)
+    spec_rows = _plan_rows()
+    for k in range(0, len(rows), CHECKS_PER_BLOCK):
+        group = rows[k : k + CHECKS_PER_BLOCK]
+        put(ws, r, 1, "Characteristic", font=Font(bold=True, color=INK), border=BOX)
+        header_row(ws, r, 2, [g.scenario.characteristic or "" for g in group])
+        r += 1
+        put(ws, r, 1, "Check", font=Font(bold=True, color=INK), border=BOX)
+        header_row(ws, r, 2, [g.scenario.check for g in group])
+        put(ws, r, 2 + len(group), "")
+        r += 1
+        put(ws, r, 1, "Unit", font=Font(bold=True, color=INK), border=BOX)
+        for j, g in enumerate(group, start=2):
+            put(ws, r, j, g.scenario.unit, border=BOX)
+        r += 1
+        for label, get, fmt in spec_rows:
+            values = [get(g) for g in group]
+            if all(v in (None, "") for v in values):
+                continue
+            put(ws, r, 1, label, font=Font(bold=True, color=INK), border=BOX, align=WRAP)
+            for j, v in enumerate(values, start=2):
+                put(ws, r, j, v, fmt=fmt if not isinstance(v, str) else None, border=BOX,
+                    align=WRAP if isinstance(v, str) else Alignment(horizontal="right"))
+            r += 1
         r += 1
     return r
 
@@ -151,158 +157,128 @@ def _conformance(ws, start: int, plan: Plan) -> int:
 
 
 def _plan_sheet(ws, plan: Plan) -> None:
+    ws.column_dimensions["A"].width = LABEL_WIDTH
+    for j in range(2, 2 + CHECKS_PER_BLOCK):
+        ws.column_dimensions[get_column_letter(j)].width = CHECK_WIDTH
+    last_col = 1 + CHECKS_PER_BLOCK
     put(ws, 1, 1, "Trial plan", font=TITLE_FONT)
     put(ws, 2, 1, plan.title)
     if plan.source:
         put(ws, 3, 1, f"spec: {plan.source}")
     section(ws, 5, "Inputs")
-    # the results' columns are narrow at the left: each input cell spans several of them
-    spans = ((1, 3), (4, 7), (8, 9))
     r = 6
-    for k, texts in enumerate((("Input", "Value", "From"), *plan.inputs)):
-        for (c0, c1), text in zip(spans, texts, strict=True):
-            ws.merge_cells(start_row=r, start_column=c0, end_row=r, end_column=c1)
-            if k == 0:
-                header_row(ws, r, c0, (text,))
-            else:
-                put(ws, r, c0, text)
+    header_row(ws, r, 1, ("Input", "Value", "From"))
+    ws.merge_cells(start_row=r, start_column=3, end_row=r, end_column=last_col)
+    r += 1
+    for label, value, source in plan.inputs:
+        put(ws, r, 1, label, font=Font(bold=True, color=INK))
+        put(ws, r, 2, value, align=WRAP)
+        put(ws, r, 3, source, font=NOTE_FONT)
+        ws.merge_cells(start_row=r, start_column=3, end_row=r, end_column=last_col)
         r += 1
-    r = _results(ws, r + 1, plan) if plan.rows else r
+    r = _results(ws, r + 1, plan) if plan.rows else r + 1
     if plan.conformance:
         r = _conformance(ws, r + 1, plan)
-    section(ws, r + 1, "Method")
-    r += 2
+    section(ws, r, "Method")
+    r += 1
     for paragraph in plan.method:
-        ws.merge_cells(start_row=r, start_column=1, end_row=r, end_column=10)
+        ws.merge_cells(start_row=r, start_column=1, end_row=r, end_column=last_col)
         put(ws, r, 1, paragraph, align=WRAP)
-        ws.row_dimensions[r].height = 15 * (1 + len(paragraph) // 140)
         r += 1
     for note in plan.notes:
-        put(ws, r, 1, f"note: {note}", font=NOTE_FONT)
+        ws.merge_cells(start_row=r, start_column=1, end_row=r, end_column=last_col)
+        put(ws, r, 1, f"note: {note}", font=NOTE_FONT, align=WRAP)
         r += 1
-    for i, width in enumerate(RESULT_WIDTHS, start=1):
-        ws.column_dimensions[get_column_letter(i)].width = width
-    ws.freeze_panes = "A2"
-    # print on landscape pages, one page wide
-    ws.page_setup.orientation = "landscape"
-    ws.sheet_properties.pageSetUpPr.fitToPage = True
-    ws.page_setup.fitToWidth = 1
-    ws.page_setup.fitToHeight = 0
-
-
-def _line(series: Series, colour: str, dash: str | None = None, width: int = 28575) -> Series:
-    series.marker.symbol = "none"
-    series.smooth = False
-    series.graphicalProperties.line.solidFill = colour
-    series.graphicalProperties.line.width = width  # EMU; 28575 = 2.25 pt
-    if dash:
-        series.graphicalProperties.line.dashStyle = dash
-    return series
-
-
-def _point_series(x_ref, y_ref, title: str, symbol: str, colour: str, size: int = 10) -> Series:
-    s = Series(y_ref, x_ref, title=title)
-    s.marker.symbol = symbol
-    s.marker.size = size
-    s.marker.graphicalProperties = GraphicalProperties(solidFill=colour)
-    s.marker.graphicalProperties.line.solidFill = colour
-    s.graphicalProperties.line.noFill = True
-    return s
+    put(
+        ws,
+        r + 1,
+        1,
+        "These numbers size a trial; they decide nothing. verify run reports the achieved "
+        "power of every check.",
+        font=NOTE_FONT,
+    )
+    last = r + 1
+    fit_rows(ws)
+    page_setup(ws, f"A1:{get_column_letter(last_col)}{last}", landscape=False,
+               footer=plan.title or "trial plan")
+    keep_sections(ws, last_row=last, last_col=last_col)
 
 
 def _curve_block(ws, top: int, row: PlanRow) -> int:
-    """One check's curve data and chart from row ``top``; returns the next free row."""
+    """One check's table of power by trial size and its chart from row ``top``; returns the
+    next free row."""
     s = row.scenario
     section(ws, top, _label(row))
-    header_row(ws, top + 1, 1, ("n (new)", "n (old)", "Power"))
+    wanted = s.target_power
+    lots = " (lots)" if s.unit_of_analysis == "lot" else ""
+    header_row(
+        ws,
+        top + 1,
+        1,
+        (
+            f"n new{lots}",
+            f"n old{lots}",
+            "Power",
+            f"Short of {wanted:.0%}",
+            f"{wanted:.0%} or more",
+        ),
+    )
     first = top + 2
     for i, p in enumerate(row.curve):
+        reaches = p.power >= wanted
         put_row(
             ws,
             first + i,
             1,
-            (p.n_new, p.n_old, p.power),
-            fmts=(INT_FORMAT, INT_FORMAT, POWER_FORMAT),
+            (p.n_new, p.n_old, p.power, None if reaches else p.power, p.power if reaches else None),
+            fmts=(INT_FORMAT, INT_FORMAT, POWER_FORMAT, POWER_FORMAT, POWER_FORMAT),
         )
     last = first + len(row.curve) - 1
 
-    # the marks: target power as a line across the curve, the n needed, the n reported
-    header_row(ws, top + 1, 5, ("Mark", "n (new)", "Power"))
-    n_lo, n_hi = row.curve[0].n_new, row.curve[-1].n_new
-    marks = [("target power", n_lo, s.target_power), ("", n_hi, s.target_power)]
+    chart = BarChart()
+    chart.type = "col"
+    chart.grouping = "clustered"
+    chart.overlap = 100  # one bar per size, coloured by whether it reaches the wanted power
+    chart.gapWidth = 40
     if row.n_new is not None:
-        marks += [("n needed", row.n_new, row.power), ("", row.n_new, 0.0)]
-    show_eval = s.eval_source != "n needed" and row.eval_n_new != row.n_new
-    if show_eval:
-        marks.append((f"n reported ({s.eval_source})", row.eval_n_new, row.power_at_eval))
-    for i, (label, n, p) in enumerate(marks):
-        put_row(ws, first + i, 5, (label, n, p), fmts=(None, INT_FORMAT, POWER_FORMAT))
-
-    chart = ScatterChart(scatterStyle="lineMarker")
-    chart.title = _label(row)[:250]
+        title = f"{_label(row)}: plan for {row.n_new} per process"
+    else:
+        title = f"{_label(row)}: no trial size reaches {wanted:.0%}"
+    chart.title = chart_title(title[:250])
     chart.legend.position = "b"
-    chart.x_axis.title = "n per process" + (" (lots)" if s.unit_of_analysis == "lot" else "")
+    chart.x_axis.title = "units per process" + lots
     chart.y_axis.title = "power"
     chart.y_axis.scaling.min = 0.0
     chart.y_axis.scaling.max = 1.0
+    chart.y_axis.majorUnit = 0.2
     chart.y_axis.number_format = "0%"
-    chart.x_axis.scaling.min = n_lo
-    chart.x_axis.scaling.max = n_hi
-    # openpyxl hides axes unless told otherwise (delete=True by default in recent versions)
+    chart.y_axis.numFmt.sourceLinked = False
     chart.x_axis.delete = False
     chart.y_axis.delete = False
-    chart.height = 9
-    chart.width = 18
-
-    def ref(col: int, lo: int, hi: int | None = None) -> Reference:
-        return Reference(ws, min_col=col, min_row=lo, max_row=lo if hi is None else hi)
-
-    chart.series.append(
-        _line(Series(ref(3, first, last), ref(1, first, last), title="power"), ACCENT)
-    )
-    chart.series.append(
-        _line(
-            Series(
-                ref(7, first, first + 1),
-                ref(6, first, first + 1),
-                title=f"target power {s.target_power:.0%}",
-            ),
-            MUTED,
-            "dash",
-            19050,
-        )
-    )
-    needed = DECISION_COLOURS["HOLD"][0]
-    if row.n_new is not None:
-        chart.series.append(
-            _point_series(
-                ref(6, first + 2), ref(7, first + 2), f"n needed = {row.n_new}", "circle", needed
-            )
-        )
-        chart.series.append(
-            _line(
-                Series(
-                    ref(7, first + 2, first + 3), ref(6, first + 2, first + 3), title="n needed"
-                ),
-                needed,
-                "sysDot",
-                15875,
-            )
-        )
-    if show_eval:
-        k = first + len(marks) - 1
-        label = f"n reported = {row.eval_n_new} ({s.eval_source})"
-        chart.series.append(_point_series(ref(6, k), ref(7, k), label, "diamond", CAUTION_EDGE))
-    ws.add_chart(chart, f"I{top}")
-    return max(last, first + len(marks), top + CHART_ROWS) + 2
+    chart.height = 8.5
+    chart.width = 17
+    data = Reference(ws, min_col=4, max_col=5, min_row=top + 1, max_row=last)
+    chart.add_data(data, titles_from_data=True)
+    chart.set_categories(Reference(ws, min_col=1, min_row=first, max_row=last))
+    for series, colour in zip(chart.series, (MUTED, DECISION_COLOURS["PASS"][0]), strict=True):
+        series.graphicalProperties.solidFill = colour
+        series.graphicalProperties.line.solidFill = colour
+    ws.add_chart(chart, f"G{top + 1}")
+    return max(last, top + 1 + CHART_ROWS) + 2
 
 
 def _curves_sheet(ws, plan: Plan) -> None:
     r = 1
-    for row in plan.rows:
+    breaks = []
+    for k, row in enumerate(plan.rows):
+        if k:
+            breaks.append(r - 1)  # a check a page: its chart and its table stay together
         r = _curve_block(ws, r, row)
-    for col, width in zip("ABCDEFG", (9, 9, 9, 2, 22, 9, 9), strict=True):
+    for col, width in zip("ABCDEF", (9, 9, 9, 11, 11, 2), strict=True):
         ws.column_dimensions[col].width = width
+    fit_rows(ws)
+    page_setup(ws, f"A1:O{max(1, r - 2)}", landscape=False, footer="power by trial size",
+               row_breaks=breaks)
 
 
 RATE_PLAN_SHEET = "Pass-fail plan"

@@ -1308,28 +1308,31 @@ def _conformance(sh: _Sheet, layout, c: CharacteristicResult, ch: CheckResult) -
             sh.qty("upper tolerance limit", f"MAX({ref})", ch.ci_high, "MAX of the new parts")
         return
     ref = block.ref(VALUE_COLUMN)
-    n = sh.qty("new: n (parts)", f"COUNT({ref})", extra.get("n"), "COUNT of the new parts")
+    sh.qty("new: n (parts)", f"COUNT({ref})", extra.get("n"), "COUNT of the new parts")
     back = "{}"
     if dist == "normal":
         m = sh.qty("new: mean (parts)", f"AVERAGE({ref})", extra.get("mean"), "AVERAGE")
         sd = sh.qty("new: sd (parts)", f"_xlfn.STDEV.S({ref})", extra.get("sd_parts"),
                     "STDEV.S")
     else:
+        # LN or a power of a whole range inside SUMPRODUCT is not evaluated as an array by
+        # every spreadsheet (gnumeric gives #VALUE!): the lognormal mean is rebuilt as
+        # LN(GEOMEAN), the transformed sd is given as the engine's value
         if dist == "lognormal":
-            y, how, back = f"LN({ref})", "LN(x)", "EXP({})"
+            back = "EXP({})"
+            m = sh.qty("new: mean of ln x", f"LN(GEOMEAN({ref}))", extra.get("mean"),
+                       "LN(GEOMEAN(x)) = mean of ln x")
         else:
             lam_value = _fit_lambda(extra)
             if lam_value is None:
                 sh.unavailable("tolerance limits", "the Box-Cox lambda is not recorded")
                 return
             lam = sh.param("Box-Cox lambda", lam_value, "as estimated by the engine")
-            y, how = f"(({ref})^{lam}-1)/{lam}", "(x^lambda - 1) / lambda"
             back = f"({lam}*{{}}+1)^(1/{lam})"
-        m = sh.qty("new: mean of the transformed values", f"SUMPRODUCT({y})/{n}",
-                   extra.get("mean"), f"SUMPRODUCT({how}) / n")
-        sd = sh.qty("new: sd of the transformed values",
-                    f"SQRT(SUMPRODUCT(({y}-{m})^2)/({n}-1))", extra.get("sd_parts"),
-                    "SQRT(SUMPRODUCT((y - mean)^2) / (n - 1))")
+            m = sh.param("new: mean of the transformed values", float(extra["mean"]),
+                         "the engine's value, (x^lambda - 1) / lambda averaged")
+        sd = sh.param("new: sd of the transformed values", float(extra["sd_parts"]),
+                      "the engine's value (n - 1 divisor)")
     k = sh.param("tolerance factor k", float(extra["k"]),
                  f"{ch.method}; coverage {extra.get('coverage')}, confidence "
                  f"{extra.get('coverage_confidence')}, n as above (a value: the spreadsheet has no "

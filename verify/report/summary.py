@@ -18,36 +18,24 @@ from .cells import (
     CAUTION_FILL,
     DECISION_COLOURS,
     INK,
+    INT_FORMAT,
     NOTE_FONT,
-    P_FORMAT,
+    OUTCOME_TINTS,
     TITLE_FONT,
     WRAP,
     fit_rows,
-    formats_for,
     header_row,
+    page_setup,
     put,
     quote_sheet,
     section,
 )
+from .decision_cells import beyond_text, cell_text, check_kinds, heading
 
-COLUMNS = (
-    # header, width
-    ("Characteristic", 24),
-    ("Unit", 7),
-    ("n old", 7),
-    ("n new", 7),
-    ("Mean old", 11),
-    ("Mean new", 11),
-    ("Check shown", 17),
-    ("Shift", 11),
-    ("Margin", 10),
-    ("Interval low", 11),
-    ("Interval high", 11),
-    ("p-value", 9),
-    ("Decision", 11),
-    ("Reason", 58),
-)
-LAST_COL = len(COLUMNS)
+# up to this many characteristics the decision sheet prints on one page; beyond it the table
+# runs over pages with its header repeated
+ONE_PAGE_CHARACTERISTICS = 12
+DECISION_CELL_NAME = "overall_decision"  # a defined name: where the overall decision is
 
 SIGN_OFF = (
     (
@@ -86,15 +74,6 @@ def put_decision_badge(ws, row: int, col: int, decision: str, size: int) -> Patt
         align=Alignment(horizontal="center", vertical="center"),
     )
     return fill
-
-
-def main_check(c: CharacteristicResult) -> CheckResult | None:
-    """The check the summary row shows: the shift, else the target, else the first."""
-    for kind in ("shift", "target"):
-        for r in c.checks:
-            if r.check == kind:
-                return r
-    return c.checks[0] if c.checks else None
 
 
 def _plan_words(ev: Evaluation) -> str:
@@ -193,6 +172,36 @@ def multiplicity_text(ev: Evaluation) -> list[str]:
     return out
 
 
+def _columns(ev: Evaluation, kinds: list[str]) -> list[tuple[str, float]]:
+    """(header, width) of the characteristics table: fixed columns, a column per check kind."""
+    unit_w = max(6, *(len(c.unit) + 2 for c in ev.characteristics)) if ev.characteristics else 6
+    fixed = [("Characteristic", 24), ("Unit", min(unit_w, 24)), ("n old", 7), ("n new", 7)]
+    tail = [("Parts beyond limits\n(model: normal, ppm)", 24), ("Decision", 11)]
+    room = 165 - sum(w for _h, w in fixed + tail)
+    check_w = min(40, max(25, room / max(1, len(kinds))))
+    return fixed + [(heading(k), check_w) for k in kinds] + tail
+
+
+def _groups(widths: list[float], first: int, shares: list[float]) -> list[tuple[int, int]]:
+    """Split columns first..len(widths) into consecutive groups near the given width shares."""
+    cols = list(range(first, len(widths) + 1))
+    total = sum(widths[c - 1] for c in cols)
+    out, start, acc, goal = [], cols[0], 0.0, 0.0
+    for k, share in enumerate(shares):
+        goal += share * total
+        left = len(shares) - k - 1
+        end = start
+        acc += widths[end - 1]
+        while end < cols[-1] - left and acc + widths[end] / 2 < goal:
+            end += 1
+            acc += widths[end - 1]
+        if k == len(shares) - 1:
+            end = cols[-1]
+        out.append((start, end))
+        start = end + 1
+    return out
+
+
 def write_summary(
     ws, ev: Evaluation, *, sheet_names: dict[str, str], measurement_sheets, decimals: dict
 ) -> int:
@@ -201,53 +210,68 @@ def write_summary(
     ``sheet_names`` maps characteristic name -> its sheet; ``decimals`` maps characteristic
     name -> the decimals its values were recorded to (number formats only).
     """
-    for j, (_h, width) in enumerate(COLUMNS, start=1):
-        ws.column_dimensions[get_column_letter(j)].width = width
+    kinds = check_kinds(ev)
+    columns = _columns(ev, kinds)
+    last_col = len(columns)
+    widths = [w for _h, w in columns]
+    for j, w in enumerate(widths, start=1):
+        ws.column_dimensions[get_column_letter(j)].width = w
     title = "Process change verification"
     if ev.spec.title:
         title += f": {ev.spec.title}"
     put(ws, 1, 1, title, font=TITLE_FONT)
     ws.row_dimensions[1].height = 24
 
+    # the top block: what was verified, and the overall decision in the last two columns;
+    # below them, why, across the page
+    badge = (last_col - 1, last_col)
     info = (
         ("Change", ev.spec.change_id or "(no change id in the spec)"),
         ("Spec file", str(ev.spec.path)),
         ("Run (UTC)", f"{ev.run.started} to {ev.run.finished}"),
         ("Run id", ev.run.run_id),
-        (
-            "Planned n",
-            _plan_words(ev),
-        ),
+        ("Planned n", _plan_words(ev)),
     )
     for i, (label, value) in enumerate(info, start=2):
         put(ws, i, 1, label, font=Font(bold=True, color=INK))
-        put(ws, i, 2, value)
-        ws.merge_cells(start_row=i, start_column=2, end_row=i, end_column=7)
-
-    # the overall decision: a large coloured cell
-    put(ws, 2, 9, "Overall decision", font=Font(bold=True, color=INK))
-    ws.merge_cells(start_row=2, start_column=9, end_row=2, end_column=11)
-    fill = put_decision_badge(ws, 3, 9, ev.decision, size=26)
-    ws.merge_cells(start_row=3, start_column=9, end_row=6, end_column=11)
+        put(ws, i, 2, value, align=Alignment(vertical="top"))
+        ws.merge_cells(start_row=i, start_column=2, end_row=i, end_column=badge[0] - 2)
+    put(ws, 2, badge[0], "Overall decision", font=Font(bold=True, color=INK))
+    ws.merge_cells(start_row=2, start_column=badge[0], end_row=2, end_column=badge[1])
+    fill = put_decision_badge(ws, 3, badge[0], ev.decision, size=26)
+    _name_cell(ws, DECISION_CELL_NAME, 3, badge[0])
+    ws.merge_cells(start_row=3, start_column=badge[0], end_row=6, end_column=badge[1])
     for r in range(3, 7):
-        for col in range(9, 12):
+        for col in range(badge[0], badge[1] + 1):
             ws.cell(r, col).fill = fill
     reasons = "\n".join(ev.reasons) if ev.reasons else "Every characteristic passed."
-    put(ws, 2, 13, "Why", font=Font(bold=True, color=INK))
-    put(ws, 3, 13, reasons, align=WRAP)
-    ws.merge_cells(start_row=3, start_column=13, end_row=6, end_column=14)
+    put(ws, 7, 1, "Why", font=Font(bold=True, color=INK), align=Alignment(vertical="top"))
+    put(ws, 7, 2, reasons, align=WRAP, font=Font(bold=True, color=INK))
+    ws.merge_cells(start_row=7, start_column=2, end_row=7, end_column=last_col)
 
-    row = 8
-    section(ws, row, "Characteristics")
+    row = 9
+    section(ws, row, "Characteristics: every check, with the number that decided it")
     row += 1
-    header_row(ws, row, 1, [h for h, _w in COLUMNS])
-    ws.row_dimensions[row].height = 30
+    header = row
+    header_row(ws, row, 1, [h for h, _w in columns])
     row += 1
     for c in ev.characteristics:
-        _characteristic_row(ws, row, c, sheet_names.get(c.name), decimals.get(c.name))
+        _characteristic_row(ws, row, c, ev, kinds, sheet_names.get(c.name),
+                            decimals.get(c.name))
         row += 1
+    table_end = row - 1
+    # a sortable, filterable table (no merged cells inside it); its header repeats on paper
+    ws.auto_filter.ref = f"A{header}:{get_column_letter(last_col)}{table_end}"
+    ws.print_title_rows = f"{header}:{header}"
+    ws.freeze_panes = f"B{header + 1}"
 
-    blocks: list[tuple[str, list[str], Font | None]] = []
+    blocks: list[tuple[str, list[str], Font | None]] = [
+        (
+            "Reasons",
+            [f"{c.name} ({c.decision}): " + "; ".join(c.reasons) for c in ev.characteristics],
+            None,
+        )
+    ]
     if ev.review:
         blocks.append(("Review notes (diagnostics never decide alone)", list(ev.review), None))
     notes = planning_notes(ev)
@@ -269,18 +293,19 @@ def write_summary(
                 Font(bold=True, color=INK),
             )
         )
+    breaks = []
     for title_text, lines, font in blocks:
         row += 1
         section(ws, row, title_text)
         row += 1
         for line in lines:
             put(ws, row, 1, line, align=WRAP, font=font)
-            ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=LAST_COL)
-            ws.row_dimensions[row].height = _height(line, 200)
+            ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=last_col)
             row += 1
 
     # the caution, prominent
     row += 1
+    caution_row = row
     edge = Side(style="medium", color=CAUTION_EDGE)
     box = Border(left=edge, right=edge, top=edge, bottom=edge)
     put(
@@ -292,8 +317,8 @@ def write_summary(
         fill=PatternFill("solid", fgColor=CAUTION_FILL),
         align=Alignment(wrap_text=True, vertical="center"),
     )
-    ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=LAST_COL)
-    for col in range(1, LAST_COL + 1):
+    ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=last_col)
+    for col in range(1, last_col + 1):
         ws.cell(row, col).border = box
         ws.cell(row, col).fill = PatternFill("solid", fgColor=CAUTION_FILL)
     ws.row_dimensions[row].height = max(34, _height(ev.caution, 170, 16))
@@ -301,39 +326,57 @@ def write_summary(
 
     section(ws, row, "Sign-off (complete by hand or in the change-control system)")
     row += 1
-    header_row(ws, row, 1, ["Role", "Name", "", "", "", "", "What this signature means"])
-    header_row(ws, row, 11, ["Signature", "", "Date", ""])
-    ws.merge_cells(start_row=row, start_column=2, end_row=row, end_column=6)
-    ws.merge_cells(start_row=row, start_column=7, end_row=row, end_column=10)
-    ws.merge_cells(start_row=row, start_column=11, end_row=row, end_column=12)
-    ws.merge_cells(start_row=row, start_column=13, end_row=row, end_column=14)
+    groups = _groups(widths, 2, [0.22, 0.40, 0.22, 0.16])
+    labels = ["Name", "What this signature means", "Signature", "Date"]
+    header_row(ws, row, 1, ["Role"])
+    for (a, b), label in zip(groups, labels, strict=True):
+        header_row(ws, row, a, [label] + [""] * (b - a))
+        if b > a:
+            ws.merge_cells(start_row=row, start_column=a, end_row=row, end_column=b)
     row += 1
     for role, meaning in SIGN_OFF:
         put(ws, row, 1, role, font=Font(bold=True, color=INK), align=WRAP)
-        put(ws, row, 7, meaning, align=WRAP, font=NOTE_FONT)
-        ws.merge_cells(start_row=row, start_column=2, end_row=row, end_column=6)
-        ws.merge_cells(start_row=row, start_column=7, end_row=row, end_column=10)
-        ws.merge_cells(start_row=row, start_column=11, end_row=row, end_column=12)
-        ws.merge_cells(start_row=row, start_column=13, end_row=row, end_column=14)
-        for col in range(1, LAST_COL + 1):
+        put(ws, row, groups[1][0], meaning, align=WRAP, font=NOTE_FONT)
+        for a, b in groups:
+            if b > a:
+                ws.merge_cells(start_row=row, start_column=a, end_row=row, end_column=b)
+        for col in range(1, last_col + 1):
             ws.cell(row, col).border = BOX
         ws.row_dimensions[row].height = 44
         row += 1
 
     last = row - 1
     fit_rows(ws)
-    ws.print_area = f"A1:{get_column_letter(LAST_COL)}{last}"
-    ws.page_setup.orientation = "landscape"
-    ws.page_setup.fitToWidth = 1
-    ws.page_setup.fitToHeight = 1
-    ws.sheet_properties.pageSetUpPr.fitToPage = True
+    # keep the caution and the sign-off together: a page break before the caution when the
+    # sheet runs over a page (a long table of characteristics)
+    if len(ev.characteristics) > ONE_PAGE_CHARACTERISTICS:
+        breaks.append(caution_row - 1)
+    page_setup(
+        ws,
+        f"A1:{get_column_letter(last_col)}{last}",
+        landscape=True,
+        one_page=len(ev.characteristics) <= ONE_PAGE_CHARACTERISTICS,
+        footer=f"verify run {ev.run.run_id}",
+        row_breaks=breaks,
+    )
     ws.print_options.horizontalCentered = True
-    ws.page_margins.left = ws.page_margins.right = 0.4
-    ws.page_margins.top = ws.page_margins.bottom = 0.5
-    ws.oddFooter.left.text = f"verify run {ev.run.run_id}"
-    ws.oddFooter.right.text = "page &P of &N"
     ws.sheet_view.showGridLines = False
     return last
+
+
+def _name_cell(ws, name: str, row: int, col: int) -> None:
+    """A workbook-level defined name for one cell: readers find it wherever the layout puts it."""
+    from openpyxl.workbook.defined_name import DefinedName
+
+    ref = f"{quote_sheet(ws.title)}!${get_column_letter(col)}${row}"
+    ws.parent.defined_names[name] = DefinedName(name, attr_text=ref)
+
+
+def decision_cell(wb):
+    """The overall decision cell of a workbook written by verify (openpyxl cell)."""
+    dn = wb.defined_names[DECISION_CELL_NAME]
+    sheet, coord = next(iter(dn.destinations))
+    return wb[sheet][coord.replace("$", "")]
 
 
 def _height(text: str, chars_per_line: int, per_line: float = 15.0) -> float:
@@ -342,10 +385,16 @@ def _height(text: str, chars_per_line: int, per_line: float = 15.0) -> float:
 
 
 def _characteristic_row(
-    ws, row: int, c: CharacteristicResult, sheet: str | None, decimals: int | None
+    ws,
+    row: int,
+    c: CharacteristicResult,
+    ev: Evaluation,
+    kinds: list[str],
+    sheet: str | None,
+    decimals: int | None,
 ) -> None:
-    r = main_check(c)
-    fmts = formats_for(decimals)
+    # differences and intervals one decimal finer than the values were recorded
+    d = (4 if decimals is None else decimals) + 1
     old, new = c.processes.get("old"), c.processes.get("new")
     name_cell = put(ws, row, 1, c.name, align=WRAP)
     if sheet is not None:
@@ -353,32 +402,31 @@ def _characteristic_row(
             ref=name_cell.coordinate, location=f"{quote_sheet(sheet)}!A1"
         )
         name_cell.font = Font(color="245E7A", underline="single")
-    put(ws, row, 2, c.unit)
-    put(ws, row, 3, old.n if old else None)
-    put(ws, row, 4, new.n if new else None)
-    put(ws, row, 5, old.mean if old else None, fmt=fmts["mean"])
-    put(ws, row, 6, new.mean if new else None, fmt=fmts["mean"])
-    if r is not None:
-        shown = r.check + (f", {r.method}" if r.method else "")
-        put(ws, row, 7, shown, align=WRAP)
-        # pass-fail: rates and their differences are fractions, shown as percentages
-        efmt = "0.00%" if c.spec.pass_fail else fmts["shift"]
-        put(ws, row, 8, r.estimate, fmt=efmt)
-        put(ws, row, 9, rate_limit_text(r) if c.spec.pass_fail
-            else margin_text(r.margin, c.spec.side))
-        put(ws, row, 10, r.ci_low, fmt=efmt)
-        put(ws, row, 11, r.ci_high, fmt=efmt)
-        p = r.p_adjusted if r.p_adjusted is not None else r.p_value
-        put(ws, row, 12, p, fmt=P_FORMAT)
+    put(ws, row, 2, c.unit, align=WRAP)
+    put(ws, row, 3, old.n if old else None, fmt=INT_FORMAT)
+    put(ws, row, 4, new.n if new else None, fmt=INT_FORMAT)
+    by_kind = {r.check: r for r in c.checks}
+    col = 5
+    for kind in kinds:
+        r = by_kind.get(kind)
+        if r is None:
+            put(ws, row, col, "not run", font=NOTE_FONT, align=WRAP)
+        else:
+            tint = PatternFill("solid", fgColor=OUTCOME_TINTS.get(r.outcome, "FFFFFF"))
+            put(ws, row, col, cell_text(c, r, ev, d), fill=tint, align=WRAP,
+                font=Font(color=INK))
+        col += 1
+    text, flagged = beyond_text(c)
+    put(ws, row, col, text, align=WRAP,
+        fill=PatternFill("solid", fgColor=OUTCOME_TINTS["PENDING"]) if flagged else None,
+        font=Font(bold=flagged, color=INK))
+    col += 1
     fill, font = decision_style(c.decision)
-    put(ws, row, 13, c.decision, fill=fill, font=font, align=Alignment(horizontal="center"))
-    reason = "; ".join(c.reasons)
-    put(ws, row, 14, reason, align=WRAP)
-    for col in range(1, LAST_COL + 1):
-        ws.cell(row, col).border = BOX
-        if ws.cell(row, col).alignment.vertical is None:
-            ws.cell(row, col).alignment = Alignment(
-                vertical="top", horizontal=ws.cell(row, col).alignment.horizontal
-            )
-    shown = "" if r is None else f"{r.check}, {r.method}"
-    ws.row_dimensions[row].height = max(30, _height(reason, 64), _height(shown, 18))
+    put(ws, row, col, c.decision, fill=fill, font=font,
+        align=Alignment(horizontal="center", vertical="top"))
+    for j in range(1, col + 1):
+        cell = ws.cell(row, j)
+        cell.border = BOX
+        if cell.alignment.vertical is None:
+            cell.alignment = Alignment(vertical="top", horizontal=cell.alignment.horizontal,
+                                       wrap_text=cell.alignment.wrap_text)

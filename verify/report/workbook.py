@@ -37,7 +37,7 @@ from pathlib import Path
 
 from ..model import Evaluation
 from .audit_sheet import write_audit
-from .cells import EXCEL_CELL_MAX, XML_ILLEGAL, clean_text, put, sheet_name
+from .cells import EXCEL_CELL_MAX, XML_ILLEGAL, clean_text, page_setup, put, sheet_name
 from .characteristic_sheet import write_characteristic
 from .details_sheet import DETAILS_SHEET, details_placeholder, per_characteristic_sheets
 from .layout import (
@@ -255,10 +255,7 @@ def _spec_placeholder(ws, text: str, styles: StyleBook) -> StreamedSheet:
                 buf.clear()
         yield "".join(buf)
 
-    ws.page_setup.orientation = "landscape"
-    ws.page_setup.fitToWidth = 1
-    ws.page_setup.fitToHeight = 0
-    ws.sheet_properties.pageSetUpPr.fitToPage = True
+    page_setup(ws, f"A1:A{max(n, 1)}", landscape=False, footer="the spec text, verbatim")
     return StreamedSheet(ws.title, rows, f"A1:C{last}")
 
 
@@ -345,11 +342,47 @@ def _write_recheck(ws, ev: Evaluation, layout: MeasurementLayout) -> None:
 
     for j, w in widths.items():
         ws.column_dimensions[get_column_letter(j)].width = max(10, w)
-    ws.freeze_panes = "A2"
-    ws.page_setup.orientation = "landscape"
-    ws.page_setup.fitToWidth = 1
-    ws.page_setup.fitToHeight = 0
-    ws.sheet_properties.pageSetUpPr.fitToPage = True
+    _recheck_as_table(ws, len(rows))
+
+
+def _recheck_as_table(ws, n_rows: int) -> None:
+    """Print the recheck sheet as a readable table: widths, heading, grid, header repeated.
+
+    (No conditional colours on the Agrees column: LibreOffice 7.4 stops converting such a
+    sheet when a cell-value rule compares the logical results with TRUE.)"""
+    from openpyxl.styles import Alignment, Font
+    from openpyxl.utils import get_column_letter
+
+    from .cells import HEADER, HEADER_FONT, fit_rows, page_setup
+    from .recheck import COLUMNS, HEADER_ROW, SUMMARY_ROW
+
+    for j, w in enumerate((44, 21, 21, 12, 9, 64), start=1):
+        ws.column_dimensions[get_column_letter(j)].width = w
+    for j in range(1, len(COLUMNS) + 1):
+        cell = ws.cell(HEADER_ROW, j)
+        cell.font, cell.fill = HEADER_FONT, HEADER
+        cell.alignment = Alignment(wrap_text=True, vertical="bottom")
+    ws.cell(1, 1).font = Font(bold=True, size=13)
+    if all(ws.cell(2, j).value is None for j in range(2, len(COLUMNS) + 1)):
+        # the explanation line: wrapped across the table's width
+        ws.merge_cells(start_row=2, start_column=1, end_row=2, end_column=len(COLUMNS))
+        ws.cell(2, 1).alignment = Alignment(wrap_text=True, vertical="top")
+    for r in (SUMMARY_ROW, *range(HEADER_ROW + 1, n_rows + 1)):
+        a, b = ws.cell(r, 1), ws.cell(r, 2)
+        if isinstance(a.value, str) and b.value is None and ws.cell(r, 3).value is None:
+            a.font = Font(bold=True)  # a block's heading: the characteristic or check
+        ws.cell(r, 5).alignment = Alignment(horizontal="center")
+        ws.cell(r, 6).alignment = Alignment(wrap_text=True, vertical="top")
+    fit_rows(ws)
+    ws.freeze_panes = f"A{HEADER_ROW + 1}"
+    ws.print_options.gridLines = True
+    page_setup(
+        ws,
+        f"A1:{get_column_letter(len(COLUMNS))}{max(n_rows, HEADER_ROW)}",
+        landscape=True,
+        title_rows=f"{HEADER_ROW}:{HEADER_ROW}",
+        footer="live formulas against the engine's numbers",
+    )
 
 
 __all__ = ["write_workbook", "read_spec_text", "read_record", "RECORD_SHEET", "MEASUREMENTS_SHEET"]

@@ -1,0 +1,109 @@
+"""Parts beyond the specification limits: the count seen and the fraction a normal model expects.
+
+A part counts as beyond a limit when its value is strictly below the lower limit or strictly
+above the upper one (a value on a limit is within it: common practice for drawing tolerances).
+The expected fraction beyond the limits comes from a normal model with the sample mean and the
+overall sample sd (n - 1) of the same values:
+
+    ppm = 1e6 * (Phi((lower - mean) / sd) + Phi((mean - upper) / sd))
+
+where Phi is the standard normal distribution function (``scipy.special.ndtr``, accurate far in
+its lower tail, so both terms are written as lower tails). A side without a limit adds nothing.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import special
+
+from .core import mean_sd
+
+ArrayLike = Sequence[float] | np.ndarray
+
+
+@dataclass(frozen=True)
+class BeyondLimits:
+    """Counts beyond each limit and the normal model's expectation.
+
+    Attributes
+    ----------
+    n : int
+        Finite values counted.
+    below, above : int
+        Values strictly below the lower limit, strictly above the upper limit (0 without one).
+    expected_ppm : float or None
+        Parts per million the normal model expects beyond the limits; None when fewer than 2
+        values or zero spread leave the model undefined.
+    expected_ppm_below, expected_ppm_above : float or None
+        The same, per side (0.0 for a side without a limit).
+    """
+
+    n: int
+    below: int
+    above: int
+    expected_ppm: float | None
+    expected_ppm_below: float | None = None
+    expected_ppm_above: float | None = None
+
+    @property
+    def total(self) -> int:
+        return self.below + self.above
+
+
+def normal_ppm_beyond(
+    mean: float, sd: float, *, lower: float | None, upper: float | None
+) -> tuple[float, float]:
+    """Parts per million below ``lower`` and above ``upper`` for a normal(mean, sd).
+
+    Examples
+    --------
+    >>> below, above = normal_ppm_beyond(0.0, 1.0, lower=-3.0, upper=3.0)
+    >>> round(below + above, 1)   # the familiar 0.27% beyond three sigma
+    2699.8
+    """
+    if not (np.isfinite(mean) and np.isfinite(sd) and sd > 0):
+        raise ValueError("mean must be finite and sd finite and positive")
+    below = 0.0 if lower is None else 1e6 * float(special.ndtr((lower - mean) / sd))
+    above = 0.0 if upper is None else 1e6 * float(special.ndtr((mean - upper) / sd))
+    return below, above
+
+
+def beyond_limits(
+    values: ArrayLike, *, lower: float | None, upper: float | None
+) -> BeyondLimits:
+    """Count values beyond the limits and the normal model's expected ppm.
+
+    Parameters
+    ----------
+    values : array_like
+        Part values (non-finite values are left out).
+    lower, upper : float or None
+        The specification limits; None for a side without one.
+
+    Examples
+    --------
+    >>> r = beyond_limits([24.1, 25.0, 26.8, 25.2], lower=24.5, upper=26.5)
+    >>> (r.below, r.above)
+    (1, 1)
+    """
+    v = np.asarray(values, dtype=float)
+    v = v[np.isfinite(v)]
+    below = int(np.count_nonzero(v < lower)) if lower is not None else 0
+    above = int(np.count_nonzero(v > upper)) if upper is not None else 0
+    ppm = ppm_lo = ppm_hi = None
+    if v.size >= 2:
+        _, m, s = mean_sd(v)
+        if s > 0:
+            ppm_lo, ppm_hi = normal_ppm_beyond(m, s, lower=lower, upper=upper)
+            ppm = ppm_lo + ppm_hi
+    return BeyondLimits(
+        n=int(v.size),
+        below=below,
+        above=above,
+        expected_ppm=ppm,
+        expected_ppm_below=ppm_lo,
+        expected_ppm_above=ppm_hi,
+    )
