@@ -13,6 +13,10 @@ It writes, next to this script:
   The servo head's sealing jaw runs cooler, so seal strength drops by about 1.8 N. Beside the
   measurements: the leak test of each bottle (pass / LEAK) and, on the first row of each batch
   and head, the vision system's cap inspection of the whole run (inspected, rejected).
+- ``closure_mould_cavities.csv``: a closure cap moulded in the old single-cavity mould (M1)
+  and in the new four-cavity mould (M4, cavities C1 to C4); cavity C3 runs about 0.036 mm
+  tall. The gate vestige left by the runner is bounded at zero and right-skewed (lognormal).
+  Its own seed, so that the other files do not change when it is regenerated.
 - ``housing_resin_lab.csv``: the lab's long-format export (semicolons, decimal commas, UTF-8
   with BOM) for a housing moulded in the old resin (lots R23-...) and the new resin (lots
   R24-...); only two new lots exist so far.
@@ -174,7 +178,35 @@ def housing(rng: np.random.Generator) -> str:
     return "\ufeff" + "\r\n".join(lines) + "\r\n"
 
 
+CAVITY_SEED = 20261202
+
+
+def closure(rng: np.random.Generator) -> str:
+    """A new four-cavity mould against the old single-cavity mould; wide CSV with a cavity
+    column (empty for the old mould, which has one cavity)."""
+    lines = ["lot,mould,cavity,shot,cap_height_mm,gate_vestige_mm"]
+    shot = 0
+    for k in range(1, 5):  # old mould: four lots of 12 caps
+        for _ in range(12):
+            shot += 1
+            height = _round(np.array([rng.normal(12.500, 0.020)]), 0.001)[0]
+            vestige = _round(np.array([rng.lognormal(np.log(0.035), 0.40)]), 0.001)[0]
+            lines.append(f"M1-{k:02d},M1 single,,{shot},{height:.3f},{vestige:.3f}")
+    offset = {"C1": 0.0, "C2": -0.003, "C3": 0.036, "C4": 0.002}
+    for k in range(1, 5):  # new mould: four lots of 12 shots, four caps per shot
+        for _ in range(12):
+            shot += 1
+            for cavity, dz in offset.items():
+                height = _round(np.array([rng.normal(12.500 + dz, 0.016)]), 0.001)[0]
+                vestige = _round(np.array([rng.lognormal(np.log(0.030), 0.35)]), 0.001)[0]
+                lines.append(f"M4-{k:02d},M4 four-cavity,{cavity},{shot},{height:.3f},"
+                             f"{vestige:.3f}")
+    return "\n".join(lines) + "\n"
+
+
 def main() -> None:
+    (HERE / "closure_mould_cavities.csv").write_text(
+        closure(np.random.default_rng(CAVITY_SEED)), encoding="utf-8", newline="")
     rng = np.random.default_rng(SEED)
     (HERE / "bushing_lots.csv").write_text(bushing(rng), encoding="utf-8", newline="")
     (HERE / "filler_split_batches.xlsx").write_bytes(filler(rng))

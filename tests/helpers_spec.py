@@ -13,7 +13,8 @@ from pathlib import Path
 
 REPO = Path(__file__).resolve().parents[1]
 SPECS = REPO / "specs"
-SAMPLE_SPECS = ("bracket-die-sql.yaml", "bushing-supplier.yaml", "filler-paired.yaml",
+SAMPLE_SPECS = ("bracket-die-sql.yaml", "bushing-supplier.yaml", "closure-mould.yaml",
+                "filler-paired.yaml",
                 "housing-resin.yaml")
 
 BASE_SPEC = """\

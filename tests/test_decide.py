@@ -108,9 +108,29 @@ def test_rules_in_words_come_from_the_rule_objects():
     assert any("Holm" in w for w in words)
     assert any("intersection-union" in w for w in words)
     assert "alpha = 0.05" in words[0]
-    assert len(words) == 10
+    assert len(words) == 11
+    assert decide.CONFORMANCE.describe(0.05) in words
 
 
 def test_caution_names_the_sign_off():
     assert "never replace" in decide.CAUTION
     assert "sign-off" in decide.CAUTION
+
+
+@pytest.mark.parametrize(
+    ("low", "high", "lower", "upper", "outcome", "words"),
+    [
+        (9.5, 10.5, 9.0, 11.0, "PASS", "lies within the limits 9..11"),
+        (9.0, 10.5, 9.0, 11.0, "PASS", "lies within"),  # borderline: on the limit passes
+        (8.99, 10.5, 9.0, 11.0, "HOLD", "below the lower limit 9"),
+        (8.9, 11.2, 9.0, 11.0, "HOLD", "below the lower limit 9 and above the upper limit 11"),
+        (None, 0.08, None, 0.1, "PASS", "within the upper limit 0.1"),
+        (None, 0.1000001, None, 0.1, "HOLD", "above the upper limit 0.1"),
+        (70.5, None, 70.0, None, "PASS", "within the lower limit 70"),
+    ],
+)
+def test_conformance_rule_decision_table(low, high, lower, upper, outcome, words):
+    v = decide.CONFORMANCE.decide(low=low, high=high, lower=lower, upper=upper,
+                                  coverage=0.99, confidence=0.95, k=3.0, unit="mm")
+    assert v.outcome == outcome and words in v.reason
+    assert "99% of parts with 95% confidence" in v.reason

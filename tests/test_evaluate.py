@@ -33,6 +33,21 @@ def test_demo_gives_pass_hold_and_pending(evaluations):
     assert decisions["bushing-supplier"] == "PASS"
     assert decisions["filler-paired"] == "HOLD"
     assert decisions["housing-resin"] == "PENDING"
+    assert decisions["closure-mould"] == "HOLD"
+
+
+def test_closure_demo_holds_on_the_cavity_that_runs_off(evaluations):
+    # sample_lots/generate.py: cavity C3 of the new mould runs 0.036 mm tall, the others on
+    # target; the pooled checks pass, the stream check of C3 does not
+    ev = evaluations["closure-mould"]
+    height = ev.characteristic("cap_height")
+    assert height.decision == "HOLD" and height.reasons[0].startswith("stream C3: shift:")
+    assert all(k.outcome == "PASS" for k in height.checks)
+    assert [s.decision for s in height.streams] == ["PASS", "PASS", "HOLD", "PASS"]
+    vestige = ev.characteristic("gate_vestige")  # zero-bounded, lognormal, upper limit only
+    assert vestige.spec.lower is None and vestige.distribution["name"] == "lognormal"
+    conf = next(k for k in vestige.checks if k.check == "conformance")
+    assert conf.outcome == "PASS" and conf.ci_low is None and conf.ci_high < 0.15
 
 
 def test_hold_names_the_characteristic_and_the_reason(evaluations):

@@ -316,7 +316,8 @@ def test_schema_keys_of_the_issue_are_there():
     assert {"file", "sheet", "lot", "process", "old", "new", "pair", "characteristic", "value",
             "decimal", "missing", "order", "ignore_other"} <= data
     checks = schema["definitions"]["checks"]["properties"]
-    assert {"target", "shift", "spread", "capability", "rate", "rate_shift"} == set(checks)
+    assert {"target", "shift", "spread", "capability", "conformance", "rate",
+            "rate_shift"} == set(checks)
     assert "detect" in checks["target"]["properties"] and "detect" in checks["shift"][
         "properties"]
 

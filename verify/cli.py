@@ -138,6 +138,8 @@ def describe_plan(spec, measurements) -> list[str]:
         if c.limits is not None:
             facts.append(f"limits [{_num(c.lower)}, {_num(c.upper)}]")
         facts.append(f"side {c.side}")
+        if c.distribution != "normal":
+            facts.append(f"distribution {c.distribution}")
         lines.append(head + ": " + ", ".join(facts))
         for proc in ("old", "new"):
             av = analysis_values(measurements, spec, c.name, proc)
@@ -159,6 +161,12 @@ def describe_plan(spec, measurements) -> list[str]:
                      if plan is not None and len(pv.keys) < plan else "")
             lines.append(f"    pairs: {len(pv.keys)} matched, {len(pv.unmatched)} unmatched"
                          f"{extra}{short}")
+        if spec.data.stream is not None:
+            from .data import stream_values
+
+            streams = stream_values(measurements, c.name)
+            listed = ", ".join(f"{k} n {len(v)}" for k, v in streams.items()) or "none yet"
+            lines.append(f"    new streams ({spec.data.stream}): {listed}")
         for text in _check_words(c, spec.unit_of_analysis):
             lines.append(f"    check {text}")
     return lines
@@ -238,6 +246,12 @@ def _check_words(c, unit_of_analysis: str = "part") -> list[str]:
                   if cap.judge == "lower_bound" else f"new {cap.label}")
         out.append(f"capability: {judged} at least {cap.min:g} ({how}; index {cap.index}, "
                    f"judge {cap.judge})")
+    if ch.conformance is not None:
+        cf = ch.conformance
+        shape = ("two-sided tolerance interval within both limits" if cf.side == "two-sided"
+                 else f"{cf.side} tolerance bound within the {cf.side} limit")
+        out.append(f"conformance: {shape}, coverage {cf.coverage:g} at confidence "
+                   f"{cf.confidence:g} (exact normal factor)")
     if not out:
         out.append("none")
     return out

@@ -265,6 +265,36 @@ def _analysis_index(table: pd.DataFrame) -> _Index:
     return index
 
 
+def _with_stream(result, stream, rows):
+    """Add the ``stream`` column to the assembled table, row for row (the table may have been
+    re-sorted by production order: its ``source_row`` finds each row's stream)."""
+    table, *rest = result
+    by_row = dict(zip(rows.tolist(), stream.tolist(), strict=True))
+    table = table.assign(stream=table["source_row"].map(by_row).fillna("").astype(str))
+    return (table, *rest)
+
+
+def stream_values(measurements: Measurements, characteristic: str) -> dict[str, object]:
+    """Used new-process values of one characteristic per stream, in production order.
+
+    Streams are in order of first appearance in the data. Empty when the table has no
+    ``stream`` column (no data.stream declared).
+    """
+    import numpy as np
+
+    t = measurements.table
+    if "stream" not in t.columns:
+        return {}
+    sel = t[(t["characteristic"] == characteristic) & (t["process"] == "new") & ~t["excluded"]]
+    sel = sel.sort_values(["order", "source_row"], kind="stable")
+    out: dict[str, object] = {}
+    for name in dict.fromkeys(sel["stream"].astype(str)):
+        out[name] = sel.loc[sel["stream"].astype(str) == name, "value"].to_numpy(dtype=float)
+    for k in out:
+        out[k] = np.asarray(out[k])
+    return out
+
+
 def paired_values(measurements: Measurements, spec: Spec,
                   characteristic_name: str) -> PairedValues:
     """Old and new measurements of one characteristic aligned by the pair key.
@@ -646,10 +676,23 @@ class _Tidy:
             self.report_cells(in_scope & (spec_reason == "") & (pair == ""), self.ds.pair,
                               lambda v: "empty pair key: a paired row needs its key (or "
                               "exclude the row in the spec)", rows, pair)
+        stream = None
+        if getattr(self.ds, "stream", None) is not None:
+            stream = self.text(cols["data.stream"])
+            # a new part must name its stream; old rows may leave it empty
+            self.report_cells(in_scope & (spec_reason == "") & (process == "new")
+                              & (stream == ""), self.ds.stream,
+                              lambda v: "empty stream: a new-process row needs its stream "
+                              "(cavity, spindle, machine), or exclude the row in the spec",
+                              rows, stream)
         pos, char_idx, cells = self.measurement_cells(cols)
         # cell problems are collected too before failing: all of a file's problems at once
-        return self.assemble(rows, lot, process, pair, order, scope, spec_reason,
-                             char_reasons, pos, char_idx, cells)
+        table = self.assemble(rows, lot, process, pair, order, scope, spec_reason,
+                              char_reasons, pos, char_idx, cells)
+        if stream is not None:
+            # an extra column, only when data.stream is declared (MEASUREMENT_COLUMNS stay)
+            return _with_stream(table, stream, rows)
+        return table
 
     def columns(self) -> dict[str, int]:
         header = self.sheet.header
@@ -657,8 +700,8 @@ class _Tidy:
         for i, h in enumerate(header):
             index.setdefault(h, []).append(i)
         wanted: list[tuple[str, str]] = [("data.lot", self.ds.lot)]
-        for key in ("process", "pair", "order", "characteristic", "value", "part"):
-            name = getattr(self.ds, key)
+        for key in ("process", "pair", "order", "characteristic", "value", "stream", "part"):
+            name = getattr(self.ds, key, None)
             if name is not None:
                 wanted.append((f"data.{key}", name))
         for i, name in enumerate(self.ds.keep):

@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from . import decide
-from .data import analysis_values, paired_values
+from .data import analysis_values, paired_values, stream_values
 from .model import (
     BeyondLimits,
     CharacteristicResult,
@@ -22,14 +22,24 @@ from .model import (
     Measurements,
     ProcessSummary,
     RunInfo,
+    StreamResult,
 )
 from .spec_model import Characteristic, Spec
 from .stats import capability as cap
 from .stats import diagnostics as diag
-from .stats import equivalence, multiplicity, nonparametric, power, spread, ttests
+from .stats import (
+    distributions,
+    equivalence,
+    multiplicity,
+    nonparametric,
+    power,
+    spread,
+    tolerance,
+    ttests,
+)
 from .stats import variance_components as vc
 from .stats.core import confidence_interval, mean_sd, require_spread, t_test_from_estimate
-from .stats.errors import DegenerateDataError, StatsError
+from .stats.errors import DegenerateDataError, NotApplicableError, StatsError
 from .stats.limits import beyond_limits
 from .stats.paired_spread import pitman_morgan
 
@@ -79,6 +89,15 @@ class _Draft:
 
 
 @dataclass
+class _StreamDraft:
+    """The location and spread checks of one new stream against the whole old process."""
+
+    name: str
+    values: np.ndarray
+    checks: list = field(default_factory=list)  # [_Draft]
+
+
+@dataclass
 class _CharDraft:
     ch: Characteristic
     data: _Data
@@ -90,6 +109,10 @@ class _CharDraft:
     counts: dict = field(default_factory=dict)
     pairs: int | None = None
     unmatched: tuple = ()
+    streams: list = field(default_factory=list)  # [_StreamDraft]
+    fit: object = None  # distributions.DistributionFit of the new parts (non-normal models)
+    fit_error: str | None = None
+    final: bool = False
 
 
 def evaluate(
@@ -231,7 +254,12 @@ def _draft_characteristic(spec: Spec, meas: Measurements, ch: Characteristic, fi
 
         return evaluate_pass_fail.draft_characteristic(spec, meas, ch, final)
     data, processes = _gather(spec, meas, ch)
-    d = _CharDraft(ch=ch, data=data, processes=processes)
+    d = _CharDraft(ch=ch, data=data, processes=processes, final=final)
+    if ch.distribution in ("lognormal", "weibull", "box-cox"):
+        try:
+            d.fit = distributions.fit(data.new_parts, ch.distribution)
+        except StatsError as err:
+            d.fit_error = str(err)
     counts = {p: s.n for p, s in processes.items()}
     pv = data.pairs if data.pairs is not None else data.spread_pairs
     if pv is not None:
@@ -253,8 +281,35 @@ def _draft_characteristic(spec: Spec, meas: Measurements, ch: Characteristic, fi
         d.checks.append(_draft_spread(spec, ch, d))
     if checks.capability is not None:
         d.checks.append(_draft_capability(spec, ch, d))
+    if checks.conformance is not None:
+        d.checks.append(_draft_conformance(spec, ch, d))
+    if spec.data.stream is not None:
+        _draft_streams(spec, meas, ch, d)
     d.diagnostics = _diagnostics(spec, ch, d)
     return d
+
+
+def _draft_streams(spec: Spec, meas: Measurements, ch: Characteristic, d: _CharDraft) -> None:
+    """Each new stream against the old process, with the characteristic's location and spread
+    checks (their p-values join the multiplicity family); capability and conformance stay on
+    the whole new process."""
+    from dataclasses import replace
+
+    checks = ch.checks
+    for name, values in stream_values(meas, ch.name).items():
+        data = replace(d.data, new=values, new_parts=values, new_lots=(), pairs=None,
+                       spread_pairs=None)
+        sd = _CharDraft(ch=ch, data=data, processes=d.processes, final=d.final)
+        sdr = _StreamDraft(name=name, values=values)
+        if checks.target is not None:
+            sdr.checks.append(_draft_location(spec, ch, sd, "target"))
+        if checks.shift is not None:
+            sdr.checks.append(_draft_location(spec, ch, sd, "shift"))
+        if checks.spread is not None:
+            sdr.checks.append(_draft_spread(spec, ch, sd))
+        for dr in sdr.checks:
+            dr.result = replace(dr.result, hypothesis=f"stream {name}: {dr.result.hypothesis}")
+        d.streams.append(sdr)
 
 
 def _degenerate(check: str, method: str, hypothesis: str, err: Exception, **kw) -> _Draft:
@@ -553,6 +608,8 @@ def _draft_spread(spec: Spec, ch: Characteristic, d: _CharDraft) -> _Draft:
 
 
 def _draft_capability(spec: Spec, ch: Characteristic, d: _CharDraft) -> _Draft:
+    if ch.distribution != "normal":
+        return _draft_percentile_capability(ch, d)
     conf = ch.checks.capability
     lower, upper = ch.lower, ch.upper
     label, level = conf.label, conf.confidence
@@ -596,6 +653,108 @@ def _draft_capability(spec: Spec, ch: Characteristic, d: _CharDraft) -> _Draft:
                     f"no power figure: the lower bound of {label} is compared with min"),
     )
     return _Draft(result=res)
+
+
+def _no_fit(check: str, ch: Characteristic, d: _CharDraft, hyp: str) -> _Draft:
+    return _degenerate(check, f"{ch.distribution} fit", hyp,
+                       ValueError(f"the {ch.distribution} fit of the new parts: {d.fit_error}"))
+
+
+def _draft_percentile_capability(ch: Characteristic, d: _CharDraft) -> _Draft:
+    """Capability of a fitted non-normal model: the percentile method (ISO 22514-2), the
+    percentile Ppk judged on its estimate against min."""
+    conf = ch.checks.capability
+    hyp = (f"the new process's percentile Ppk ({ch.distribution} fit) for {ch.name} is at "
+           f"least {decide.fmt(conf.min)}")
+    if d.fit is None:
+        return _no_fit("capability", ch, d, hyp)
+    f = d.fit
+    pi = distributions.percentile_indices(f, lower=ch.lower, upper=ch.upper)
+    below, above = distributions.expected_beyond(f, lower=ch.lower, upper=ch.upper)
+    v = decide.CAPABILITY.decide(cpk=pi.ppk, lower_bound=None, min_cpk=conf.min,
+                                 index=f"percentile Ppk ({ch.distribution})")
+    extra = {
+        "pp": _finite(pi.pp), "ppl": _finite(pi.ppl), "ppu": _finite(pi.ppu), "ppk": pi.ppk,
+        "x_0_135": pi.x_low, "x_50": pi.x_mid, "x_99_865": pi.x_high,
+        "distribution": ch.distribution, "fit": f.words,
+        "expected_ppm_below": 1e6 * below, "expected_ppm_above": 1e6 * above,
+        "index": "ppk", "judge": "estimate", "min": conf.min, "confidence": conf.confidence,
+        "lower_bound": None, "n": f.n,
+    }
+    res = CheckResult(
+        check="capability", method=f"percentile Ppk, {pi.method}; {ch.distribution} fit by "
+        "maximum likelihood; the estimate judged", hypothesis=hyp, alternative=None,
+        margin=None, outcome=v.outcome, reason=v.reason, estimate=pi.ppk, extra=extra,
+        power_note="no power figure: capability compares the percentile Ppk with min, not a "
+                   "test",
+    )
+    return _Draft(result=res)
+
+
+def _draft_conformance(spec: Spec, ch: Characteristic, d: _CharDraft) -> _Draft:
+    """The tolerance interval of the new parts against the limits (ISO 16269-6)."""
+    conf = ch.checks.conformance
+    side = conf.side
+    share = (f"{decide.fmt(100 * conf.coverage)}% of the new parts of {ch.name}, with "
+             f"{decide.fmt(100 * conf.confidence)}% confidence,")
+    hyp = {"two-sided": f"{share} lie within the limits",
+           "lower": f"{share} lie above the lower limit",
+           "upper": f"{share} lie below the upper limit"}[side]
+    lower = ch.lower if side in ("two-sided", "lower") else None
+    upper = ch.upper if side in ("two-sided", "upper") else None
+    dist = ch.distribution
+    try:
+        if dist == "normal":
+            r = tolerance.normal_tolerance(d.data.new_parts, coverage=conf.coverage,
+                                           confidence=conf.confidence, side=side)
+        elif dist == "any":
+            r = tolerance.order_tolerance(d.data.new_parts, coverage=conf.coverage,
+                                          confidence=conf.confidence, side=side)
+        elif d.fit is None:
+            return _no_fit("conformance", ch, d, hyp)
+        else:
+            r = distributions.tolerance_limits(d.data.new_parts, d.fit, coverage=conf.coverage,
+                                               confidence=conf.confidence, side=side)
+    except NotApplicableError as err:
+        if dist != "any":
+            return _degenerate("conformance", "tolerance interval", hyp, err)
+        # distribution-free limits need a minimum number of parts: more parts may come
+        # (PENDING), unless the run is final (HOLD)
+        need = tolerance.order_sample_size(conf.coverage, conf.confidence, side)
+        res = CheckResult(
+            check="conformance", method=tolerance.METHOD_ORDER, hypothesis=hyp,
+            alternative=None, margin=None, outcome="HOLD" if d.final else "PENDING",
+            reason=f"too few parts for distribution-free limits: {err}",
+            extra={"coverage": conf.coverage, "coverage_confidence": conf.confidence,
+                   "side": side, "n": int(d.data.new_parts.size), "n_required": need,
+                   "distribution": dist})
+        return _Draft(result=res)
+    except (StatsError, ValueError) as err:
+        return _degenerate("conformance", "tolerance interval", hyp, err)
+    v = decide.CONFORMANCE.decide(low=r.low, high=r.high, lower=lower, upper=upper,
+                                  coverage=r.coverage, confidence=r.confidence, k=r.k,
+                                  unit=ch.unit)
+    extra = {"coverage": r.coverage, "coverage_confidence": r.confidence, "k": r.k,
+             "side": side, "n": r.n, "mean": r.mean, "sd_parts": r.sd, "distribution": dist,
+             "within_limits": int(v.outcome == "PASS")}
+    if d.fit is not None:
+        extra["fit"] = d.fit.words
+        if d.fit.name == "box-cox":
+            extra["box_cox_lambda"] = d.fit.param("lambda")
+    if dist == "any":
+        extra["n_required"] = tolerance.order_sample_size(r.coverage, r.confidence, side)
+    res = CheckResult(
+        check="conformance", method=r.method, hypothesis=hyp, alternative=None, margin=None,
+        # the estimate is the mean of the parts in their own unit (for a fitted model the
+        # interval is built on the transformed scale, whose mean and sd are in extra)
+        outcome=v.outcome, reason=v.reason, estimate=float(np.mean(d.data.new_parts)),
+        ci_low=_finite(r.low),
+        ci_high=_finite(r.high), ci_level=r.confidence, extra=extra,
+        power_note="no power figure: verify plan gives the n a process needs to pass",
+    )
+    # the data show harm (not merely too few parts) when the mean itself is beyond a limit
+    harm = ((lower is not None and r.mean < lower) or (upper is not None and r.mean > upper))
+    return _Draft(result=res, harm_shown=v.outcome == "HOLD" and harm)
 
 
 # --- diagnostics --------------------------------------------------------------------------------
@@ -717,6 +876,19 @@ def _diagnostics(spec: Spec, ch: Characteristic, d: _CharDraft) -> list[Diagnost
                    _finite(rs.step_over_tenth_tolerance)}))
     except StatsError as err:
         out.append(_diag_na("resolution", "measurement resolution", "all", err))
+    if len(d.streams) >= 2:
+        out.append(_stream_effect(d, alpha))
+    if d.fit is not None:
+        f = d.fit
+        bad = f.gof_pvalue < alpha
+        out.append(DiagnosticResult(
+            "distribution fit", f.gof_method, "new", bad,
+            (f"the declared {f.name} model does not fit the new parts: {f.words}" if bad
+             else f"fitted {f.words}"),
+            statistic=f.gof_statistic, p_value=f.gof_pvalue,
+            extra={k: v for k, v in f.parameters}))
+    elif d.fit_error is not None:
+        out.append(_diag_na("distribution fit", f"{ch.distribution} fit", "new", d.fit_error))
     out.extend(_companions(spec, ch, d))
     return out
 
@@ -808,10 +980,16 @@ def _adjust(drafts: list[_CharDraft], method: str, alpha: float
     """
     from dataclasses import replace
 
-    family = [(d, dr) for d in drafts for dr in d.checks if dr.finish is not None]
-    excluded = tuple(f"{d.ch.name}: {dr.result.check}" for d in drafts for dr in d.checks
+    def every(d):
+        # the characteristic's own checks, then each stream's, with the name the family lists
+        yield from ((d.ch.name, dr) for dr in d.checks)
+        for st in d.streams:
+            yield from ((f"{d.ch.name} [stream {st.name}]", dr) for dr in st.checks)
+
+    family = [(label, dr) for d in drafts for label, dr in every(d) if dr.finish is not None]
+    excluded = tuple(f"{label}: {dr.result.check}" for d in drafts for label, dr in every(d)
                      if dr.family and dr.finish is None)
-    names = tuple(f"{d.ch.name}: {dr.result.check}" for d, dr in family)
+    names = tuple(f"{label}: {dr.result.check}" for label, dr in family)
     if not family:
         return names, excluded
     adjusted = method != "none"
@@ -895,14 +1073,76 @@ def _finish(spec: Spec, d: _CharDraft) -> CharacteristicResult:
     if d.unmatched:
         review.append(f"review: {d.ch.name}: {len(d.unmatched)} pair key(s) with one side only "
                       f"left out of the paired analysis: {', '.join(map(str, d.unmatched[:10]))}")
-    outcome = decide.combine(c.outcome for c in checks)
+    streams = tuple(_finish_stream(d, st) for st in d.streams)
+    outcome = decide.combine([*(c.outcome for c in checks), *(st.decision for st in streams)])
     if outcome == "PENDING" and d.shortfall is not None:
         reasons = (d.shortfall, *so_far)
     else:
-        reasons = tuple(f"{c.check}: {c.reason}" for c in checks if c.outcome == outcome) or (
-            "no checks",)
+        own = tuple(f"{c.check}: {c.reason}" for c in checks if c.outcome == outcome)
+        named = tuple(f"stream {st.name}: {c.check}: {c.reason}" for st in streams
+                      for c in st.checks if c.outcome == outcome)
+        # a HOLD or PENDING stream leads the reasons, named: a bad cavity must not hide in the
+        # pooled data; a PASS lists the characteristic's own checks first
+        reasons = own + named if outcome == "PASS" else named + own
+        reasons = reasons or ("no checks",)
     return CharacteristicResult(
         name=d.ch.name, unit=d.ch.unit, decision=outcome, reasons=reasons,
         review=tuple(review), processes=d.processes, checks=tuple(checks),
         diagnostics=tuple(d.diagnostics), spec=d.ch, pairs=d.pairs, unmatched_pairs=d.unmatched,
+        distribution=_distribution_record(d), streams=streams,
     )
+
+
+def _finish_stream(d: _CharDraft, st: _StreamDraft) -> StreamResult:
+    from dataclasses import replace
+
+    checks = []
+    for dr in st.checks:
+        res = dr.result
+        if d.shortfall is not None:
+            v = decide.while_pending(decide.Verdict(res.outcome, res.reason),
+                                     harm_shown=dr.harm_shown, shortfall=d.shortfall)
+            res = replace(res, outcome=v.outcome, reason=v.reason)
+        checks.append(res)
+    n = int(st.values.size)
+    mean = sd = None
+    if n:
+        _, mean, s = mean_sd(st.values)
+        sd = s if n >= 2 else None
+    return StreamResult(name=st.name, n=n, mean=mean, sd=sd,
+                        decision=decide.combine(c.outcome for c in checks),
+                        checks=tuple(checks))
+
+
+def _stream_effect(d: _CharDraft, alpha: float) -> DiagnosticResult:
+    """Do the new streams differ among themselves? One-way ANOVA across the streams, with the
+    stream furthest from the pooled new mean named."""
+    values = np.concatenate([st.values for st in d.streams])
+    labels = np.concatenate([np.full(st.values.size, st.name, dtype=object)
+                             for st in d.streams])
+    try:
+        r = diag.lot_effect(values, labels)
+    except StatsError as err:
+        return _diag_na("stream effect", "one-way ANOVA across the new streams", "new", err)
+    centre = float(np.mean(values))
+    far = max((st for st in d.streams if st.values.size),
+              key=lambda st: abs(float(np.mean(st.values)) - centre))
+    flag = r.pvalue < alpha
+    note = (f"the new streams differ ({decide.p_eq(r.pvalue)}); furthest from the pooled new "
+            f"mean: stream {far.name} (mean {decide.fmt(float(np.mean(far.values)))})" if flag
+            else f"no difference between the new streams detected ({decide.p_eq(r.pvalue)})")
+    return DiagnosticResult("stream effect", "one-way ANOVA across the new streams", "new",
+                            flag, note, statistic=r.statistic, p_value=r.pvalue,
+                            extra={"streams": len(d.streams), "furthest": far.name})
+
+
+def _distribution_record(d: _CharDraft) -> dict:
+    if d.fit is not None:
+        f = d.fit
+        return {"name": f.name, "parameters": dict(f.parameters), "loglik": f.loglik,
+                "gof_method": f.gof_method, "gof_statistic": f.gof_statistic,
+                "gof_pvalue": f.gof_pvalue}
+    out: dict = {"name": d.ch.distribution}
+    if d.fit_error is not None:
+        out["error"] = d.fit_error
+    return out

@@ -169,6 +169,18 @@ class DiagnosticResult:
 
 
 @dataclass(frozen=True)
+class StreamResult:
+    """One stream (cavity, spindle, machine) of the new process against the old process."""
+
+    name: str
+    n: int
+    mean: float | None
+    sd: float | None
+    decision: Decision
+    checks: tuple[CheckResult, ...]
+
+
+@dataclass(frozen=True)
 class CharacteristicResult:
     name: str
     unit: str
@@ -181,6 +193,12 @@ class CharacteristicResult:
     spec: Characteristic
     pairs: int | None = None  # matched pairs, paired designs
     unmatched_pairs: tuple[str, ...] = ()  # pair keys with one side only
+    # the declared model of the new parts: {name, parameters {..}, loglik, gof_method,
+    # gof_statistic, gof_pvalue} for a fitted one, {name} for normal and any; "error" where the
+    # fit could not be computed
+    distribution: Mapping[str, object] | None = None
+    # per-stream checks when data.stream is declared (the characteristic decides as its worst)
+    streams: tuple[StreamResult, ...] = ()
 
 
 @dataclass(frozen=True)

@@ -223,7 +223,32 @@ class Plan:
     rows: tuple[PlanRow, ...]
     method: tuple[str, ...]
     notes: tuple[str, ...] = field(default=())
+    conformance: tuple[ConformancePlan, ...] = field(default=())
     rate_rows: tuple = ()  # verify.plan_rates.RatePlanRow: pass-fail characteristics
+
+
+@dataclass(frozen=True)
+class ConformancePlan:
+    """The n a conformance check needs: the smallest number of new parts at which a process
+    with the assumed mean and sd passes (its tolerance limits mean -/+ k(n) sd lie within the
+    limits; k falls as n grows). ``n_needed`` is None when no n suffices (``note`` says why).
+    """
+
+    characteristic: str
+    unit: str
+    coverage: float
+    confidence: float
+    side: str
+    lower: float | None
+    upper: float | None
+    mean: float
+    mean_source: str
+    sd: float
+    sd_source: str
+    n_needed: int | None
+    k_at_n: float | None
+    method: str
+    note: str | None = None
 
 
 # --- the computation --------------------------------------------------------------------------
@@ -427,6 +452,7 @@ class Options:
     detect: float | None = None
     n: int | None = None
     characteristics: tuple[str, ...] = ()
+    mean: float | None = None  # conformance: the assumed new-process mean
     allowed_failures: int = 0  # pass-fail rate checks
     rate_old: float | None = None  # pass-fail rate_shift: the old failure rate
     rate_detect: float | None = None  # pass-fail rate_shift without a margin
@@ -563,7 +589,8 @@ def spec_scenarios(spec: Spec, meas: Measurements | None, opts: Options) -> list
             ))
     if issues:
         raise UsageError(issues)
-    if not out and not issues and not any(c.pass_fail for c in chars):
+    if not out and not issues and not any(
+            c.pass_fail or c.checks.conformance is not None for c in chars):
         raise UsageError([f"{file}: no target or shift check to plan"
                           + (" among the characteristics chosen" if opts.characteristics
                              else "")])
@@ -588,18 +615,20 @@ def plan_spec(spec: Spec, measurements: Measurements | None, opts: Options | Non
     opts = opts or Options()
     scenarios = spec_scenarios(spec, measurements, opts)
     rows = tuple(plan_scenario(s) for s in scenarios)
+    conformance = tuple(conformance_plans(spec, measurements, opts))
     power = spec.plan.power if opts.power is None else opts.power
     rate_rows = tuple(spec_rate_rows(
         spec, measurements, power=power, allowed_failures=opts.allowed_failures,
         rate_old=opts.rate_old, rate_detect=opts.rate_detect,
         characteristics=opts.characteristics))
-    if not rows and not rate_rows:
+    if not rows and not rate_rows and not conformance:
         raise UsageError([f"{spec.path}: no check to plan"])
     p = spec.plan
     if not rows:
         return Plan(title=spec.title, source=str(spec.path), stem=f"{spec.stem}-plan",
-                    inputs=(("spec", str(spec.path), "command line"),), rows=(), method=(),
-                    rate_rows=rate_rows)
+                    inputs=(("spec", str(spec.path), "command line"),), rows=(),
+                    method=(CONFORMANCE_METHOD,) if conformance else (),
+                    rate_rows=rate_rows, conformance=conformance)
     inputs = [
         ("spec", str(spec.path), "command line"),
         ("title", spec.title, "spec"),
@@ -618,7 +647,7 @@ def plan_spec(spec: Spec, measurements: Measurements | None, opts: Options | Non
         inputs.insert(2, ("change id", spec.change_id, "spec"))
     for label, value in (("--sd", opts.sd), ("--sd-diff", opts.sd_diff),
                          ("--pair-correlation", opts.pair_correlation),
-                         ("--detect", opts.detect)):
+                         ("--detect", opts.detect), ("--mean", opts.mean)):
         if value is not None:
             inputs.append((label.lstrip("-").replace("-", " "), f"{value:g}", label))
     if p.pair_correlation is not None and opts.pair_correlation is None:
@@ -629,9 +658,111 @@ def plan_spec(spec: Spec, measurements: Measurements | None, opts: Options | Non
                      "lot means")
     if measurements is None:
         notes.append("the data file is not there yet: the sd comes from the command line")
+    method = method_words(rows) if rows else ()
+    if conformance:
+        method += (CONFORMANCE_METHOD,)
     return Plan(title=spec.title, source=str(spec.path), stem=f"{spec.stem}-plan",
-                inputs=tuple(inputs), rows=rows, method=method_words(rows), notes=tuple(notes),
-                rate_rows=rate_rows)
+                inputs=tuple(inputs), rows=rows, method=method, notes=tuple(notes),
+                conformance=conformance, rate_rows=rate_rows)
+
+
+CONFORMANCE_METHOD = (
+    "Conformance: n is the smallest number of new parts at which a process with the assumed "
+    "mean and sd passes, i.e. its tolerance limits mean -/+ k(n) sd lie within the limits, k "
+    "the exact normal tolerance factor at the check's coverage and confidence (one-sided: "
+    "noncentral t; two-sided: Odeh/Owen integral). The factor falls towards the normal "
+    "quantile of the coverage as n grows, so a process whose limits leave less room than that "
+    "quantile cannot pass at any n. The sample sd of a real trial scatters around the assumed "
+    "one, so a process planned exactly at n passes only about half the time: plan with a "
+    "margin of parts, or a pessimistic sd."
+)
+
+
+def conformance_plans(spec: Spec, meas: Measurements | None, opts: Options
+                      ) -> list[ConformancePlan]:
+    """A :class:`ConformancePlan` for each conformance check of ``spec``.
+
+    The mean is ``--mean``, else the target, else the old process's mean, else the midpoint
+    of two limits; the sd is ``--sd``, else the old process's sample sd of the parts.
+    """
+    from .stats import tolerance
+    from .stats.errors import StatsError
+
+    out = []
+    file = str(spec.path)
+    issues = []
+    for ch in spec.characteristics:
+        conf = ch.checks.conformance
+        if conf is None or (opts.characteristics and ch.name not in opts.characteristics):
+            continue
+        old = meas.values(ch.name, "old") if meas is not None else []
+        if opts.mean is not None:
+            mean, mean_from = opts.mean, "--mean"
+        elif ch.target is not None:
+            mean, mean_from = ch.target, "the spec's target"
+        elif len(old):
+            from .stats.core import mean_sd
+
+            mean, mean_from = mean_sd(old)[1], f"the old process's mean ({len(old)} parts)"
+        elif ch.lower is not None and ch.upper is not None:
+            mean, mean_from = (ch.lower + ch.upper) / 2, "the midpoint of the limits"
+        else:
+            issues.append(SpecIssue(file, _check_path(spec, ch, "conformance")[0],
+                                    f"{ch.name}, check conformance: no mean to plan with: "
+                                    "pass --mean M", line=ch.line))
+            continue
+        sd = opts.sd if opts.sd is not None else _sample_sd(old)
+        sd_from = "--sd" if opts.sd is not None else f"the old process's parts ({len(old)})"
+        if sd is None or not sd > 0:
+            issues.append(SpecIssue(file, _check_path(spec, ch, "conformance")[0],
+                                    f"{ch.name}, check conformance: the sd cannot be "
+                                    "estimated from the old process's parts: pass --sd S",
+                                    line=ch.line))
+            continue
+        lower = ch.lower if conf.side in ("two-sided", "lower") else None
+        upper = ch.upper if conf.side in ("two-sided", "upper") else None
+        n = k = note = None
+        method = (tolerance.METHOD_TWO_SIDED if conf.side == "two-sided"
+                  else tolerance.METHOD_ONE_SIDED)
+        dist = ch.distribution
+        try:
+            if dist == "any":
+                # distribution-free limits: the size depends on coverage and confidence only
+                n = tolerance.order_sample_size(conf.coverage, conf.confidence, conf.side)
+                method = tolerance.METHOD_ORDER
+            elif dist == "lognormal":
+                # the assumed mean and sd of the parts as a lognormal's meanlog and sdlog
+                # (moment matching), the limits on the log scale (a limit at or below 0 is
+                # never reached by a lognormal part)
+                s2 = math.log1p((sd / mean) ** 2) if mean > 0 else math.nan
+                if not s2 > 0:
+                    raise ValueError("a lognormal plan needs an assumed mean above 0")
+                mu = math.log(mean) - s2 / 2
+                lo = None if lower is None else (math.log(lower) if lower > 0 else -math.inf)
+                hi = None if upper is None else math.log(upper)
+                n = tolerance.sample_size_normal(mean=mu, sd=math.sqrt(s2), lower=lo, upper=hi,
+                                                 coverage=conf.coverage,
+                                                 confidence=conf.confidence, side=conf.side)
+                k = tolerance.factor(n, conf.coverage, conf.confidence, conf.side)
+                method += ", on ln x (assumed mean and sd matched to a lognormal)"
+            elif dist in ("weibull", "box-cox"):
+                note = (f"not planned for distribution: {dist} (its limits depend on the fit); "
+                        "plan with the normal or lognormal model as an approximation")
+            else:
+                n = tolerance.sample_size_normal(mean=mean, sd=sd, lower=lower, upper=upper,
+                                                 coverage=conf.coverage,
+                                                 confidence=conf.confidence, side=conf.side)
+                k = tolerance.factor(n, conf.coverage, conf.confidence, conf.side)
+        except (StatsError, ValueError) as err:
+            note = str(err)
+        out.append(ConformancePlan(
+            characteristic=ch.name, unit=ch.unit, coverage=conf.coverage,
+            confidence=conf.confidence, side=conf.side, lower=lower, upper=upper, mean=mean,
+            mean_source=mean_from, sd=sd, sd_source=sd_from, n_needed=n, k_at_n=k,
+            method=method, note=note))
+    if issues:
+        raise UsageError(issues)
+    return out
 
 
 def parse_margin(text: str) -> tuple[float, float]:
@@ -832,6 +963,9 @@ def add_plan_arguments(parser: argparse.ArgumentParser) -> argparse.ArgumentPars
     g.add_argument("--detect", type=float, metavar="D",
                    help="checks without a margin: the shift that must not go unseen "
                         "(default: the check's detect: key)")
+    g.add_argument("--mean", type=float, metavar="M",
+                   help="conformance checks: the assumed new-process mean (default: the "
+                        "target, else the old process's mean)")
     g.add_argument("--n", type=int, metavar="N",
                    help="units per process at which to give the power and the smallest shift "
                         "found (default: the spec's min_n, else the smallest sufficient trial)")
@@ -873,7 +1007,7 @@ def add_plan_arguments(parser: argparse.ArgumentParser) -> argparse.ArgumentPars
 def _options(args: argparse.Namespace) -> Options:
     _validate(power=args.power, sd=args.sd, sd_diff=args.sd_diff, r=args.pair_correlation,
               detect=args.detect, n=args.n)
-    for label, v in (("--true-shift", args.true_shift),):
+    for label, v in (("--true-shift", args.true_shift), ("--mean", args.mean)):
         if v is not None and not math.isfinite(v):
             raise UsageError(f"{label} {v!r}: must be a finite number")
     for label, v in (("--rate-old", args.rate_old), ("--rate-detect", args.rate_detect)):
@@ -883,7 +1017,7 @@ def _options(args: argparse.Namespace) -> Options:
         raise UsageError(f"--allowed-failures {args.allowed_failures}: must be 0 or more")
     return Options(sd=args.sd, sd_diff=args.sd_diff, power=args.power,
                    true_shift=args.true_shift, pair_correlation=args.pair_correlation,
-                   detect=args.detect, n=args.n,
+                   detect=args.detect, n=args.n, mean=args.mean,
                    characteristics=tuple(args.characteristic or ()),
                    allowed_failures=args.allowed_failures or 0, rate_old=args.rate_old,
                    rate_detect=args.rate_detect)
@@ -1040,8 +1174,24 @@ def format_table(plan: Plan) -> str:
         rate_lines = ["", *format_rate_table(plan.rate_rows)]
     else:
         rate_lines = []
-    if not plan.rows:
-        return "\n".join(lines + rate_lines)
+    if plan.rows:
+        _power_table(plan, lines)
+    for c in plan.conformance:
+        u = f" {c.unit}" if c.unit else ""
+        limits = " and ".join(x for x in (
+            None if c.lower is None else f"lower {c.lower:.12g}",
+            None if c.upper is None else f"upper {c.upper:.12g}") if x)
+        head = (f"  {c.characteristic}, conformance ({c.side}, coverage {c.coverage:g}, "
+                f"confidence {c.confidence:g}, limits {limits}{u}): mean {_num(c.mean)} from "
+                f"{c.mean_source}, sd {_num(c.sd)} from {c.sd_source}: ")
+        if c.n_needed is None:
+            lines.append(head + f"no n suffices ({c.note})")
+        else:
+            lines.append(head + f"n needed {c.n_needed} new parts (k = {_num(c.k_at_n)})")
+    return "\n".join(lines + rate_lines)
+
+
+def _power_table(plan: Plan, lines: list[str]) -> None:
     rows = table_rows(plan)
     widths = [max(len(h), *(len(row[i]) for row in rows)) for i, h in enumerate(HEADERS)]
     first = plan.rows[0].scenario
@@ -1065,7 +1215,6 @@ def format_table(plan: Plan) -> str:
         lines.append(f"  note: {note}")
     lines.append("  sizes count units per process (pairs for paired); 'shift found' is the "
                  "smallest shift a t-test at the size looked at finds with the wanted power")
-    return "\n".join(lines + rate_lines)
 
 
 def _standalone_parser() -> argparse.ArgumentParser:

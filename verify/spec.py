@@ -41,6 +41,7 @@ from .spec_model import (
     CapabilityCheck,
     Characteristic,
     Checks,
+    ConformanceCheck,
     Correction,
     DataSpec,
     Exclusion,
@@ -57,7 +58,7 @@ from .spec_model import (
 
 DATA_SUFFIXES = (".csv", ".tsv", ".xlsx", ".parquet")
 SPEC_SUFFIXES = (".yaml", ".yml")
-CHECK_NAMES = ("target", "shift", "spread", "capability")
+CHECK_NAMES = ("target", "shift", "spread", "capability", "conformance")
 DEFAULT_MISSING = ("", "NA")
 DEFAULT_MIN_CPK = 1.33
 _PERCENT = re.compile(r"^\s*([0-9]+(?:\.[0-9]+)?)\s*%\s*$")
@@ -372,6 +373,17 @@ class _Checker:
             elif "sheet" in data and suffix != ".xlsx":
                 self.add("data.sheet", f"applies to .xlsx files only; {data['file']!r} is "
                          f"{suffix}", key=True)
+        if "stream" in data:
+            if "pair" in data:
+                self.add("data.stream", "streams are compared as independent samples; with "
+                         "data.pair the rows are paired: give one of the two", key=True)
+            if spec.get("unit_of_analysis") == "lot":
+                self.add("data.stream", "stream checks compare parts; they cannot run with "
+                         "unit_of_analysis: lot", key=True)
+            for other in ("lot", "pair", "order", "characteristic", "value", "process"):
+                if data.get(other) == data["stream"] and self.ok(data, "stream", "data.stream"):
+                    self.add("data.stream", f"data.stream and data.{other} name the same "
+                             f"column {data['stream']!r}")
         from .sources.spec_keys import check as check_source_keys
 
         check_source_keys(data, self.add, self.ok)
@@ -505,6 +517,9 @@ class _Checker:
         if "capability" in checks and not has_limits:
             self.add(f"{path}.capability", f"a capability check needs limits{label}: add "
                      "limits: [lower, upper], or remove this check", key=True)
+        if "conformance" in checks:
+            self.check_conformance(c, checks.get("conformance"), f"{path}.conformance",
+                                   has_limits, label)
         for check in ("target", "shift"):
             entry = checks.get(check)
             if isinstance(entry, dict) and "margin" in entry:
@@ -525,7 +540,21 @@ class _Checker:
                 self.add(f"{path}.spread.method", "brown-forsythe compares independent samples, "
                          f"but the spread is tested on the declared pairs{label}: remove "
                          "method, or write design: independent to ignore the pairs knowingly")
+        dist = c.get("distribution", "normal")
+        if "capability" in checks and dist == "any":
+            self.add(f"{path}.capability", f"capability needs a distribution model{label}, "
+                     "and distribution: any has none: use conformance (distribution-free "
+                     "tolerance limits), or name the distribution", key=True)
         cap = checks.get("capability")
+        if isinstance(cap, dict) and dist not in ("normal", "any"):
+            if cap.get("judge") == "lower_bound":
+                self.add(f"{path}.capability.judge", f"judge: lower_bound is defined for the "
+                         f"normal model only{label}; with distribution: {dist} the percentile "
+                         "index is judged on its estimate: remove judge, or use conformance")
+            if "subgroup" in cap:
+                self.add(f"{path}.capability.subgroup", f"subgroup sets the within-lot sigma "
+                         f"of the normal model{label}; with distribution: {dist} the "
+                         "percentile method uses the fitted distribution: remove subgroup")
         if isinstance(cap, dict):
             if "min_cpk" in cap and "min" in cap:
                 self.add(f"{path}.capability.min_cpk", f"min_cpk is short for {{index: cpk, "
@@ -541,6 +570,22 @@ class _Checker:
             if spec.get("unit_of_analysis") == "lot":
                 self.add(f"{path}.shift.design", "a paired design pairs parts; it cannot run "
                          "with unit_of_analysis: lot (lot means carry no pair key)")
+
+    def check_conformance(self, c, conf, path: str, has_limits: bool, label: str) -> None:
+        if not has_limits:
+            self.add(path, f"a conformance check needs limits{label}: add limits: [lower, "
+                     "upper] (null for a side without a limit), or remove this check", key=True)
+            return
+        limits = c.get("limits")
+        side = conf.get("side") if isinstance(conf, dict) else None
+        if not (isinstance(limits, list) and len(limits) == 2) or side is None:
+            return
+        if side == "lower" and limits[0] is None:
+            self.add(f"{path}.side", f"side: lower needs a lower limit{label}: the limits give "
+                     "none; write side: upper, or add the lower limit")
+        elif side == "upper" and limits[1] is None:
+            self.add(f"{path}.side", f"side: upper needs an upper limit{label}: the limits give "
+                     "none; write side: lower, or add the upper limit")
 
     def check_margin(self, margin, path: str, target, label: str) -> None:
         if not self.doc.clean(path):
@@ -749,7 +794,7 @@ def _build_data(spec_path: Path, d: dict, doc: Document, rec) -> DataSpec:
         rec("data.process", d["process"])
         rec("data.old", list(old))
         rec("data.new", list(new))
-    for k in ("pair", "order", "characteristic", "value"):
+    for k in ("pair", "order", "characteristic", "value", "stream"):
         if k in d:
             rec(f"data.{k}", d[k])
     decimal = d.get("decimal", ".")
@@ -768,8 +813,8 @@ def _build_data(spec_path: Path, d: dict, doc: Document, rec) -> DataSpec:
         file=file, file_text=file_text, lot=d["lot"], sheet=d.get("sheet"),
         process=d.get("process"), old=old, new=new, pair=d.get("pair"),
         characteristic=d.get("characteristic"), value=d.get("value"), order=d.get("order"),
-        decimal=decimal, missing=missing, ignore_other=ignore_other, part=d.get("part"),
-        keep=keep, **source_fields,
+        decimal=decimal, missing=missing, ignore_other=ignore_other, stream=d.get("stream"),
+        part=d.get("part"), keep=keep, **source_fields,
     )
 
 
@@ -797,6 +842,9 @@ def _build_characteristic(c: dict, p: str, data: DataSpec, unit: str, doc: Docum
         rec(f"{p}.limits", list(limits))
     side = c.get("side", "two-sided")
     rec(f"{p}.side", side)
+    distribution = c.get("distribution", "normal")
+    if "distribution" in c:  # recorded only when written: the default changes no old record
+        rec(f"{p}.distribution", distribution)
 
     explicit = "checks" in c
     listed = c.get("checks", {})
@@ -806,7 +854,7 @@ def _build_characteristic(c: dict, p: str, data: DataSpec, unit: str, doc: Docum
         if explicit:
             return check in listed, listed.get(check) or {}
         default_on = {"target": target is not None, "shift": True, "spread": True,
-                      "capability": has_limits}[check]
+                      "capability": has_limits and distribution != "any"}[check]
         return default_on, {}
 
     cp = f"{p}.checks"
@@ -870,11 +918,27 @@ def _build_characteristic(c: dict, p: str, data: DataSpec, unit: str, doc: Docum
     else:
         rec(f"{cp}.capability", _off(explicit, "no limits"), default=not explicit)
 
+    conformance_check = None
+    if explicit and "conformance" in listed:  # runs only when listed
+        cfg = listed.get("conformance") or {}
+        lo, hi = limits if limits is not None else (None, None)
+        c_side = cfg.get("side") or ("two-sided" if lo is not None and hi is not None
+                                     else "lower" if lo is not None else "upper")
+        conformance_check = ConformanceCheck(
+            coverage=float(cfg.get("coverage", 0.99)),
+            confidence=float(cfg.get("confidence", 0.95)), side=c_side)
+        rec(f"{cp}.conformance.coverage", conformance_check.coverage,
+            default="coverage" not in cfg)
+        rec(f"{cp}.conformance.confidence", conformance_check.confidence,
+            default="confidence" not in cfg)
+        rec(f"{cp}.conformance.side", c_side, default="side" not in cfg)
+
     return Characteristic(
         name=name, unit=c["unit"], column=column, match=match, target=target, limits=limits,
         side=side, checks=Checks(target=target_check, shift=shift_check, spread=spread_check,
-                                 capability=capability_check),
-        line=_spec_line(doc.where(p)[0]),
+                                 capability=capability_check,
+                                 conformance=conformance_check),
+        line=_spec_line(doc.where(p)[0]), distribution=distribution,
     )
 
 

@@ -17,6 +17,7 @@ SPREAD_METHODS = ("f", "brown-forsythe")
 SPREAD_DESIGNS = ("paired", "independent")
 CAPABILITY_INDICES = ("cpk", "ppk")
 CAPABILITY_JUDGES = ("estimate", "lower_bound")
+DISTRIBUTIONS = ("normal", "lognormal", "weibull", "box-cox", "any")
 KINDS = ("measured", "pass-fail")
 RATE_SHIFT_METHODS = ("newcombe", "score")
 RATE_SHIFT_TESTS = ("fisher", "boschloo")
@@ -82,6 +83,20 @@ class CapabilityCheck:
 
 
 @dataclass(frozen=True)
+class ConformanceCheck:
+    """The conformance criterion: the new process's tolerance interval (``coverage`` of the
+    parts with ``confidence``) must lie within the limits.
+
+    ``side`` is ``two-sided`` (two limits: a two-sided interval), ``lower`` or ``upper`` (a
+    one-sided bound against that limit only); the spec's limits decide it when not written.
+    """
+
+    coverage: float = 0.99
+    confidence: float = 0.95
+    side: str = "two-sided"
+
+
+@dataclass(frozen=True)
 class RateCheck:
     """Pass/fail: the new process's failure rate is shown to be at most ``max`` (the exact
     one-sided upper bound at ``confidence`` is at most ``max``)."""
@@ -114,6 +129,7 @@ class Checks:
     shift: ShiftCheck | None = None
     spread: SpreadCheck | None = None
     capability: CapabilityCheck | None = None
+    conformance: ConformanceCheck | None = None
     rate: RateCheck | None = None
     rate_shift: RateShiftCheck | None = None
 
@@ -129,6 +145,9 @@ class Characteristic:
     side: str  # two-sided | lower | upper: which departure is harmful
     checks: Checks
     line: int | None = None  # line in the spec, for messages
+    # normal | lognormal | weibull | box-cox | any: the model of the new parts behind
+    # capability and conformance (the location and spread tests stay as they are)
+    distribution: str = "normal"
     # pass-fail characteristics: per-part results (fail_texts / pass_texts read from column or
     # match) or per-lot counts (counts = (inspected column, failed column))
     kind: str = "measured"  # measured | pass-fail
@@ -170,6 +189,7 @@ class DataSpec:
     decimal: str = "."
     missing: tuple[str, ...] = ("", "NA")
     ignore_other: bool = False
+    stream: str | None = None  # column naming the stream (cavity, spindle) of a new part
     part: str | None = None  # the part-serial column (traceability, duplicates, by-part keys)
     keep: tuple[str, ...] = ()  # extra columns carried to the sheet and the JSON
     encoding: str | None = None  # text files: declared encoding; None: detected

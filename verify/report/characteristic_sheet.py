@@ -34,6 +34,7 @@ from .cells import (
 )
 from .charts import BAND_ROWS, add_charts
 from .paper import KEEP_FIRST, apply_breaks, keep_together
+from .stream_block import write_streams
 from .summary import decision_style, margin_text, put_decision_badge
 
 LABEL_WIDTH = 30
@@ -156,6 +157,13 @@ EXTRA_LABELS = {
     "confidence": "confidence of the lower bound",
     "lower_bound": "lower bound of the judged index",
     "bound_df": "df behind the lower bound (effective for Cpk)",
+    "coverage": "coverage: share of parts the tolerance interval holds",
+    "coverage_confidence": "confidence of the tolerance interval",
+    "k": "tolerance factor k (limits = mean -/+ k sd)",
+    "side": "tolerance interval: two-sided or one-sided bound",
+    "sd_parts": "sd (new parts)",
+    "distribution": "distribution assumed",
+    "within_limits": "tolerance limits within the spec limits (1 = yes)",
 }
 
 
@@ -475,6 +483,8 @@ def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: 
         row += 1
         row = _capability_block(ws, row, c, capability, last_col)
 
+    if c.streams:
+        row = write_streams(ws, row + 1, c, fmts, last_col)
     row += 1
     sections.append(row)
     section(ws, row, "Diagnostics (they never decide alone; a flag asks for review)")

@@ -86,6 +86,11 @@ def _check(c: CheckResult) -> dict:
         # lower_bound), min, and the lower bound at the spec's confidence
         d.update(index=c.extra["index"], judge=c.extra["judge"], min=c.extra["min"],
                  confidence=c.extra["confidence"], lower_bound=c.extra["lower_bound"])
+    if c.check == "conformance" and "coverage" in c.extra:
+        # ci_low / ci_high are the tolerance limits (None on the side a one-sided bound leaves
+        # open); k is the factor of mean -/+ k sd, None for distribution-free limits
+        d.update(coverage=c.extra["coverage"], confidence=c.extra["coverage_confidence"],
+                 k=c.extra.get("k"), side=c.extra.get("side"))
     if c.check == "rate":
         d.update(max=c.extra.get("max"), confidence=c.extra.get("confidence"))
     if c.check == "rate_shift" and c.extra.get("margin") is not None:
@@ -271,7 +276,14 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
                 },
                 "pairs": c.pairs,
                 "unmatched_pairs": list(c.unmatched_pairs),
+                "distribution": (dict(c.distribution) if c.distribution is not None
+                                 else {"name": c.spec.distribution}),
                 "checks": [_check(k) for k in c.checks],
+                "streams": [
+                    {"name": st.name, "n": st.n, "mean": st.mean, "sd": st.sd,
+                     "decision": st.decision, "checks": [_check(k) for k in st.checks]}
+                    for st in c.streams
+                ],
                 "diagnostics": [_diag(g) for g in c.diagnostics],
             }
             for c in ev.characteristics

@@ -134,6 +134,28 @@ def _results(ws, start: int, plan: Plan) -> int:
     return r
 
 
+CONFORMANCE_HEADERS = ("Characteristic", "Unit", "Check", "Interval", "Coverage",
+                       "Confidence", "Lower limit", "Upper limit", "Assumed mean", "Mean from",
+                       "sd used", "sd from", "n needed (new parts)", "Factor k at n", "Note")
+
+
+def _conformance(ws, start: int, plan: Plan) -> int:
+    """The n each conformance check needs, for the assumed mean and sd."""
+    section(ws, start, "Conformance: new parts needed to pass")
+    r = start + 1
+    header_row(ws, r, 1, CONFORMANCE_HEADERS)
+    r += 1
+    for c in plan.conformance:
+        values = [c.characteristic, c.unit, "conformance", c.side, c.coverage, c.confidence,
+                  c.lower, c.upper, c.mean, c.mean_source, c.sd, c.sd_source, c.n_needed,
+                  c.k_at_n, c.note or c.method]
+        fmts = [None, None, None, None, "0.###", "0.###", None, None, None, None, None, None,
+                INT_FORMAT, "0.0000", None]
+        put_row(ws, r, 1, values, fmts=fmts)
+        r += 1
+    return r
+
+
 def _plan_sheet(ws, plan: Plan) -> None:
     ws.column_dimensions["A"].width = LABEL_WIDTH
     for j in range(2, 2 + CHECKS_PER_BLOCK):
@@ -154,7 +176,9 @@ def _plan_sheet(ws, plan: Plan) -> None:
         put(ws, r, 3, source, font=NOTE_FONT)
         ws.merge_cells(start_row=r, start_column=3, end_row=r, end_column=last_col)
         r += 1
-    r = _results(ws, r + 1, plan)
+    r = _results(ws, r + 1, plan) if plan.rows else r + 1
+    if plan.conformance:
+        r = _conformance(ws, r + 1, plan)
     section(ws, r, "Method")
     r += 1
     for paragraph in plan.method:

@@ -1417,7 +1417,13 @@ def _multiplicity(sh: _Sheet, ev: Evaluation) -> None:
     family = [
         (c.name, ch) for c in ev.characteristics for ch in c.checks if ch.p_adjusted is not None
     ]
-    if method not in ("holm", "bonferroni") or not family:
+    # the per-stream tests (data.stream) are members too; their p-values enter as the engine's
+    # values, since this sheet does not rebuild the per-stream tests
+    streams = [
+        (f"{c.name} [stream {st.name}]", ch) for c in ev.characteristics for st in c.streams
+        for ch in st.checks if ch.p_adjusted is not None
+    ]
+    if method not in ("holm", "bonferroni") or not (family or streams):
         return
     sh.heading(f"Multiplicity: {method} adjustment of the p-values of the family (difference "
                "and spread tests)")
@@ -1432,6 +1438,13 @@ def _multiplicity(sh: _Sheet, ev: Evaluation) -> None:
         sh.qty(f"p: {name}, {ch.check}", sh.family_p[(name, ch.check)], None, "the p-value above")
         for name, ch in family
     ]
+    p_cells += [
+        sh.param(f"p: {name}, {ch.check}", float(ch.p_value),
+                 "the engine's p-value of the stream's test (a value: the per-stream tests "
+                 "are not rebuilt on this sheet)")
+        for name, ch in streams
+    ]
+    family = family + streams
     ps = f"$B${first}:$B${sh.next_row - 1}"
     m = sh.qty("m, the number of tests in the family", f"COUNT({ps})", len(family), "COUNT")
     if method == "bonferroni":
@@ -1467,6 +1480,105 @@ def _multiplicity(sh: _Sheet, ev: Evaluation) -> None:
         )
 
 
+# --- conformance -----------------------------------------------------------------------------
+
+
+def _conformance(sh: _Sheet, layout, c: CharacteristicResult, ch: CheckResult) -> None:
+    """Tolerance limits mean -/+ k sd rebuilt from the new parts; the factor k is given as a
+    value with its method (no spreadsheet function computes the noncentral t quantile or the
+    Odeh/Owen integral)."""
+    extra: Mapping = ch.extra or {}
+    block = layout.used.get((c.name, "new"))
+    if block is None:
+        sh.unavailable("conformance", _why_no_block(layout, c.name, "new"))
+        return
+    dist = extra.get("distribution", "normal")
+    if dist == "weibull" or (dist != "normal" and extra.get("k") is None and dist != "any"):
+        sh.unavailable("tolerance limits", "Weibull limits come from pivots taken from a "
+                       "seeded simulation, which the spreadsheet cannot redo")
+        return
+    if extra.get("k") is None:
+        sh.unavailable("tolerance factor", "distribution-free limits: the smallest and the "
+                       "largest used value are the limits (MIN and MAX below)")
+        ref = block.ref(VALUE_COLUMN)
+        if ch.ci_low is not None:
+            sh.qty("lower tolerance limit", f"MIN({ref})", ch.ci_low, "MIN of the new parts")
+        if ch.ci_high is not None:
+            sh.qty("upper tolerance limit", f"MAX({ref})", ch.ci_high, "MAX of the new parts")
+        return
+    ref = block.ref(VALUE_COLUMN)
+    sh.qty("new: n (parts)", f"COUNT({ref})", extra.get("n"), "COUNT of the new parts")
+    back = "{}"
+    if dist == "normal":
+        m = sh.qty("new: mean (parts)", f"AVERAGE({ref})", extra.get("mean"), "AVERAGE")
+        sd = sh.qty("new: sd (parts)", f"_xlfn.STDEV.S({ref})", extra.get("sd_parts"),
+                    "STDEV.S")
+    else:
+        # LN or a power of a whole range inside SUMPRODUCT is not evaluated as an array by
+        # every spreadsheet (gnumeric gives #VALUE!): the lognormal mean is rebuilt as
+        # LN(GEOMEAN), the transformed sd is given as the engine's value
+        if dist == "lognormal":
+            back = "EXP({})"
+            m = sh.qty("new: mean of ln x", f"LN(GEOMEAN({ref}))", extra.get("mean"),
+                       "LN(GEOMEAN(x)) = mean of ln x")
+        else:
+            lam_value = _fit_lambda(extra)
+            if lam_value is None:
+                sh.unavailable("tolerance limits", "the Box-Cox lambda is not recorded")
+                return
+            lam = sh.param("Box-Cox lambda", lam_value, "as estimated by the engine")
+            back = f"({lam}*{{}}+1)^(1/{lam})"
+            m = sh.param("new: mean of the transformed values", float(extra["mean"]),
+                         "the engine's value, (x^lambda - 1) / lambda averaged")
+        sd = sh.param("new: sd of the transformed values", float(extra["sd_parts"]),
+                      "the engine's value (n - 1 divisor)")
+    k = sh.param("tolerance factor k", float(extra["k"]),
+                 f"{ch.method}; coverage {extra.get('coverage')}, confidence "
+                 f"{extra.get('coverage_confidence')}, n as above (a value: the spreadsheet has no "
+                 "function for it)")
+    checks = []
+    if ch.ci_low is not None:
+        lo = sh.qty("lower tolerance limit", back.format(f"({m}-{k}*{sd})"), ch.ci_low,
+                    "mean - k sd" + ("" if dist == "normal" else ", transformed back"))
+        if c.spec.lower is not None:
+            lsl = sh.param("lower limit", c.spec.lower, "the spec's")
+            checks.append(f"{lo}>={lsl}")
+    if ch.ci_high is not None:
+        hi = sh.qty("upper tolerance limit", back.format(f"({m}+{k}*{sd})"), ch.ci_high,
+                    "mean + k sd" + ("" if dist == "normal" else ", transformed back"))
+        if c.spec.upper is not None:
+            usl = sh.param("upper limit", c.spec.upper, "the spec's")
+            checks.append(f"{hi}<={usl}")
+    if checks:
+        sh.qty("within the limits (1 = yes)", f"IF(AND({','.join(checks)}),1,0)",
+               extra.get("within_limits"), "AND of the comparisons with the limits")
+
+
+def _fit_lambda(extra: Mapping) -> float | None:
+    lam = extra.get("box_cox_lambda")
+    return None if lam is None else float(lam)
+
+
+def _percentile_capability(sh: _Sheet, c: CharacteristicResult, ch: CheckResult) -> None:
+    """Percentile indices rebuilt from the fitted quantiles (given as values: they come from
+    the maximum-likelihood fit, which the spreadsheet does not redo)."""
+    extra: Mapping = ch.extra or {}
+    xl = sh.param("fitted 0.135% quantile", extra["x_0_135"], str(extra.get("fit", "")))
+    xm = sh.param("fitted median", extra["x_50"], "the same fit")
+    xh = sh.param("fitted 99.865% quantile", extra["x_99_865"], "the same fit")
+    both = []
+    if c.spec.lower is not None:
+        lsl = sh.param("lower limit", c.spec.lower, "the spec's")
+        both.append(sh.qty("Ppl (percentile)", f"({xm}-{lsl})/({xm}-{xl})", extra.get("ppl"),
+                           "(median - lower) / (median - X0.135%)"))
+    if c.spec.upper is not None:
+        usl = sh.param("upper limit", c.spec.upper, "the spec's")
+        both.append(sh.qty("Ppu (percentile)", f"({usl}-{xm})/({xh}-{xm})", extra.get("ppu"),
+                           "(upper - median) / (X99.865% - median)"))
+    sh.qty("Ppk (percentile)", f"MIN({','.join(both)})", extra.get("ppk"),
+           "the smaller one-sided index")
+
+
 # --- the sheet ---------------------------------------------------------------------------------
 
 
@@ -1491,7 +1603,7 @@ def _characteristic(
         if s is not None:
             samples[process] = s
     for ch in c.checks:
-        if ch.check not in ("target", "shift", "spread", "capability"):
+        if ch.check not in ("target", "shift", "spread", "capability", "conformance"):
             continue
         sh.heading(f"{ch.check} check: {ch.method}")
         sh.current = (c.name, ch.check)
@@ -1504,6 +1616,10 @@ def _characteristic(
             _shift(sh, ev, layout, c, ch, samples)
         elif ch.check == "spread":
             _spread(sh, ev, layout, c, ch, samples)
+        elif ch.check == "conformance":
+            _conformance(sh, layout, c, ch)
+        elif (ch.extra or {}).get("distribution", "normal") != "normal":
+            _percentile_capability(sh, c, ch)
         else:
             _capability(sh, ev, layout, c, ch)
     sh.blank()
