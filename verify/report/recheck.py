@@ -1483,12 +1483,12 @@ def _multiplicity(sh: _Sheet, ev: Evaluation) -> None:
 # --- conformance -----------------------------------------------------------------------------
 
 
-def _conformance(sh: _Sheet, layout, c: CharacteristicResult, ch: CheckResult) -> None:
+def _conformance(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult) -> None:
     """Tolerance limits mean -/+ k sd rebuilt from the new parts; the factor k is given as a
     value with its method (no spreadsheet function computes the noncentral t quantile or the
     Odeh/Owen integral)."""
     extra: Mapping = ch.extra or {}
-    block = layout.used.get((c.name, "new"))
+    block = _used_block(sh, ev, layout, c.name, "new")  # sort-proof when the table allows
     if block is None:
         sh.unavailable("conformance", _why_no_block(layout, c.name, "new"))
         return
@@ -1617,7 +1617,7 @@ def _characteristic(
         elif ch.check == "spread":
             _spread(sh, ev, layout, c, ch, samples)
         elif ch.check == "conformance":
-            _conformance(sh, layout, c, ch)
+            _conformance(sh, ev, layout, c, ch)
         elif (ch.extra or {}).get("distribution", "normal") != "normal":
             _percentile_capability(sh, c, ch)
         else:
