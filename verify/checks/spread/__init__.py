@@ -1,0 +1,7 @@
+"""The spread check kind (see ``verify.checks`` for the hooks)."""
+
+from .. import CheckKind
+
+KINDS = (
+    CheckKind(name="spread", package=__name__.rsplit(".", 1)[1], order=30),
+)
