@@ -98,6 +98,12 @@ def f_p_side(f: str, d1: str, d2: str, alternative: str) -> str:
     return f"MIN(1,2*MIN(_xlfn.F.DIST.RT({f},{d1},{d2}),_xlfn.F.DIST({f},{d1},{d2},TRUE)))"
 
 
+def bissell_lower(index: str, confidence: str, n: str, df: str) -> str:
+    """The lower confidence bound of a capability index (Bissell 1990, with ``df`` the degrees
+    of freedom of the sigma behind the index): ``index - z SQRT(1/(9n) + index^2/(2 df))``."""
+    return f"{index}-_xlfn.NORM.S.INV({confidence})*SQRT(1/(9*{n})+{index}^2/(2*{df}))"
+
+
 HOW_P = {
     False: "TDIST (integer df; one tail, or two)",
     True: "regularised incomplete beta BETA.DIST(df/(df+t^2), df/2, 1/2) (fractional df)",

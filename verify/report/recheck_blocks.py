@@ -210,20 +210,7 @@ def _pair_rows(
         f"{bn.sheet}!{VALUE_COLUMN}{bn.first}:{VALUE_COLUMN}{bn.last} minus "
         f"{VALUE_COLUMN}{bo.first}:{VALUE_COLUMN}{bo.last}, aligned by pair key"
     )
-    n = sh.qty("pairs: n", f"COUNT({n_})", c.pairs, f"COUNT of the matched new values ({where})")
-    mean = sh.qty(
-        "pairs: mean difference (new - old)",
-        f"SUMPRODUCT({n_}-{o})/{n}",
-        None,
-        "SUMPRODUCT of the differences / n",
-    )
-    sd = sh.qty(
-        "pairs: sd of the differences",
-        f"SQRT(SUMPRODUCT(({n_}-{o}-{mean})^2)/({n}-1))",
-        engine_sd,
-        "SQRT(SUMPRODUCT((difference - mean)^2) / (n - 1))",
-    )
-    return Pairs(o, n_, n, mean, sd)
+    return _differences(sh, c, o, n_, f"COUNT of the matched new values ({where})", engine_sd)
 
 
 def _pair_helpers(sh: Sheet, ev: Evaluation, c: CharacteristicResult, engine_sd
@@ -257,8 +244,15 @@ def _pair_helpers(sh: Sheet, ev: Evaluation, c: CharacteristicResult, engine_sd
         refs[p] = Helper(first, len(sh.helpers) - 1).ref(VALUE_COLUMN)
     o, n_ = refs["old"], refs["new"]
     how = "looked up by pair key" if by_key else "looked up by production order"
-    n = sh.qty("pairs: n", f"COUNT({n_})", c.pairs,
-               f"COUNT of the matched new values ({how}, old and new aligned by key below)")
+    return _differences(
+        sh, c, o, n_,
+        f"COUNT of the matched new values ({how}, old and new aligned by key below)", engine_sd)
+
+
+def _differences(sh: Sheet, c: CharacteristicResult, o: str, n_: str, how_n: str, engine_sd
+                 ) -> Pairs:
+    """The n, mean and sd of the paired differences from two aligned ranges (old, new)."""
+    n = sh.qty("pairs: n", f"COUNT({n_})", c.pairs, how_n)
     mean = sh.qty(
         "pairs: mean difference (new - old)",
         f"SUMPRODUCT({n_}-{o})/{n}",

@@ -1,12 +1,13 @@
 """The multiplicity block of the recheck sheet: Holm or Bonferroni adjusted p-values.
 
 The family is every check whose result carries an adjusted p-value; each kind's recheck hook
-registers the cell of its rebuilt p-value in ``Sheet.family_p`` under (characteristic, check),
-so this block names no check. The Holm step-down adjustment is rebuilt without sorting: the step
-of p_j is ``(m - SUMPRODUCT(--(P < p_j))) * p_j`` and the adjusted p_i is
-``MIN(1, MAX((p_1 <= p_i) * step_1, ...))`` (one scalar term per step, which gnumeric evaluates
-too; beyond :data:`HOLM_SCALAR_TERMS` steps ``MIN(1, SUMPRODUCT(MAX((P <= p_i) * STEPS)))``),
-which equals the running maximum of the sorted steps, ties included.
+registers the cell of its rebuilt p-value with ``Sheet.family_member`` (kept under
+(characteristic, check)), so this block names no check. The Holm step-down adjustment is
+rebuilt without sorting: the step of p_j is ``(m - SUMPRODUCT(--(P < p_j))) * p_j`` and the
+adjusted p_i is ``MIN(1, MAX((p_1 <= p_i) * step_1, ...))`` (one scalar term per step, which
+gnumeric evaluates too; beyond :data:`HOLM_SCALAR_TERMS` steps
+``MIN(1, SUMPRODUCT(MAX((P <= p_i) * STEPS)))``), which equals the running maximum of the
+sorted steps, ties included.
 """
 
 from __future__ import annotations

@@ -119,6 +119,12 @@ class Sheet:
             )
         return f"$B${r}"
 
+    def family_member(self, p_cell: str) -> str:
+        """Register ``p_cell`` as the rebuilt p-value of the check being written, the one the
+        multiplicity block adjusts when the check belongs to the family; returns the cell."""
+        self.family_p[self.current] = p_cell
+        return p_cell
+
     def unavailable(self, label: str, why: str) -> None:
         self.add(as_text(label), as_text(f"not available: {why}"))
 

@@ -8,6 +8,7 @@ normal is the percentile capability of a fitted model, rebuilt from its fitted q
 from __future__ import annotations
 
 from verify.model import CharacteristicResult, CheckResult
+from verify.report.formulas import bissell_lower
 from verify.report.layout import VALUE_COLUMN
 from verify.report.recheck_blocks import prepare_samples, why_no_block
 from verify.report.recheck_lookup import used_block
@@ -135,7 +136,7 @@ def _capability(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult)
     if nu is not None:
         sh.qty(
             "Cpk lower 95% bound",
-            f"{cpk}-_xlfn.NORM.S.INV(0.95)*SQRT(1/(9*{n})+{cpk}^2/(2*{nu}))",
+            bissell_lower(cpk, "0.95", n, nu),
             detail(ch, "cpk_lower_95", ch.ci_low),
             "Cpk - NORM.S.INV(0.95) SQRT(1/(9n) + Cpk^2/(2 nu)), nu the effective df",
         )
@@ -144,7 +145,7 @@ def _capability(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult)
         ppk = idx["p"]
         sh.qty(
             "Ppk lower bound (Bissell)",
-            f"{ppk}-_xlfn.NORM.S.INV({conf})*SQRT(1/(9*{n})+{ppk}^2/(2*({n}-1)))",
+            bissell_lower(ppk, conf, n, f"({n}-1)"),
             detail(ch, "lower_bound"),
             "Ppk - NORM.S.INV(confidence) SQRT(1/(9n) + Ppk^2/(2(n-1)))",
         )
@@ -152,7 +153,7 @@ def _capability(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult)
         conf = sh.param("confidence of the lower bound", detail(ch, "confidence"), "the spec's")
         sh.qty(
             "Cpk lower bound at the spec's confidence",
-            f"{cpk}-_xlfn.NORM.S.INV({conf})*SQRT(1/(9*{n})+{cpk}^2/(2*{nu}))",
+            bissell_lower(cpk, conf, n, nu),
             detail(ch, "lower_bound"),
             "Cpk - NORM.S.INV(confidence) SQRT(1/(9n) + Cpk^2/(2 nu))",
         )

@@ -122,7 +122,7 @@ def _location_test(
             p = sh.qty("p (H1: effect > 0)", p_above(t, df, frac), ch.p_value, f"P(T >= t): {hp}")
         else:
             p = sh.qty("p (two-sided)", p_two(t, df, frac), ch.p_value, f"P(|T| >= |t|): {hp}")
-        sh.family_p[sh.current] = p
+        sh.family_member(p)
         if cross is not None:
             two, one = cross
             if alt == "two-sided":

@@ -129,7 +129,7 @@ def _rate_shift(sh, c: CharacteristicResult, ch: CheckResult, new, old) -> None:
                    f"IF({x1}=0,1,1-_xlfn.HYPGEOM.DIST({x1}-1,{n1},{x1}+{x0},{n1}+{n0},TRUE))",
                    ch.p_value if fisher else None,
                    "P(X >= x_new), X hypergeometric (Fisher's exact test)")
-        sh.family_p[sh.current] = p
+        sh.family_member(p)
         if not fisher:
             sh.note("Boschloo's p-value maximises over the nuisance rate: not recomputed here; "
                     "Fisher's p above is its conditional companion")

@@ -90,9 +90,9 @@ def _f_rows(sh: Sheet, ch: CheckResult, f: str, d1: str, d2: str, *, descriptive
     sh.qty(f"{label} (new / old)", f"SQRT({f})", ratio, "SQRT(F)")
     if not descriptive:
         alt = ch.alternative or "greater"
-        sh.family_p[sh.current] = sh.qty(
+        sh.family_member(sh.qty(
             f"p (F-test, {alt})", f_p_side(f, d1, d2, alt), ch.p_value,
-            "F.DIST.RT / F.DIST (integer df)")
+            "F.DIST.RT / F.DIST (integer df)"))
     if ch.ci_level is None:
         return
     low = detail(ch, "sd_ratio_low_descriptive") if descriptive else ch.ci_low
@@ -164,8 +164,8 @@ def _brown_forsythe(sh: Sheet, ch: CheckResult, o: Sample, n: Sample) -> None:
     t = sh.qty("Brown-Forsythe t", f"{est}/{se}", None, "(mean abs dev new - old) / se")
     sh.qty("Brown-Forsythe W = t^2", f"{t}^2", ch.statistic, "t^2")
     alt = ch.alternative or "greater"
-    sh.family_p[sh.current] = sh.qty(
-        f"p (Brown-Forsythe, {alt})", p_side(t, df, False, alt), ch.p_value, HOW_P[False])
+    sh.family_member(sh.qty(
+        f"p (Brown-Forsythe, {alt})", p_side(t, df, False, alt), ch.p_value, HOW_P[False]))
     if ch.ci_level is not None and as_number(ch.ci_low) is not None:
         level = sh.param("confidence level (Brown-Forsythe)", ch.ci_level,
                          "the level the engine reports")
@@ -197,8 +197,8 @@ def _pitman_morgan(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResu
         "t (Pitman-Morgan)", f"{r}*SQRT({df}/(1-{r}^2))", ch.statistic, "r * SQRT(df / (1 - r^2))"
     )
     alt = ch.alternative or "greater"
-    sh.family_p[sh.current] = sh.qty(
-        f"p (Pitman-Morgan, {alt})", p_side(t, df, False, alt), ch.p_value, HOW_P[False])
+    sh.family_member(sh.qty(
+        f"p (Pitman-Morgan, {alt})", p_side(t, df, False, alt), ch.p_value, HOW_P[False]))
     if ch.ci_level is not None and as_number(ch.ci_low) is not None:
         level = sh.param("confidence level", ch.ci_level, "the level the engine reports")
         q = sh.qty("t quantile", t_quantile(f"1-{level}", df, False), None, HOW_Q[False])
