@@ -23,7 +23,7 @@ from openpyxl.drawing.text import (
 from openpyxl.styles import Alignment, Font
 from openpyxl.utils import get_column_letter
 
-from .. import decide
+from ..checks import kinds
 from ..model import CharacteristicResult, CheckResult, Evaluation
 from .cells import (
     BOX,
@@ -177,9 +177,9 @@ def write_pass_fail(ws, ev: Evaluation, c: CharacteristicResult) -> None:
     row += 1
     section(ws, row, "The rules in words")
     row += 1
-    kinds = {r.check for r in c.checks}
-    for rule in ([decide.RATE] if "rate" in kinds else []) + (
-            [decide.RATE_SHIFT] if "rate_shift" in kinds else []):
+    present = {r.check for r in c.checks}
+    for rule in (rule for k in kinds() if k.name in present
+                 for rule in k.hook("rule").rules(k)):
         put(ws, row, 1, rule.describe(ev.spec.alpha), align=WRAP)
         ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=LAST_COL)
         row += 1
