@@ -5,6 +5,12 @@ the JSON and the audit trail) and a ``decide(...)`` method (the logic). Both liv
 in one class, so the text and the logic cannot drift apart. Nothing here computes a statistic;
 the rules only compare results with alpha, margins and limits.
 
+Each kind of check keeps its own rule in its ``rule`` hook (``verify/checks/<package>/rule.py``:
+``rules(kind)`` for the sentences, ``review(kind, result, spec)`` for review notes); this module
+holds what every kind shares: :class:`Verdict`, the number formats of the sentences, the
+sufficiency, multiplicity, diagnostics and combination rules, and :func:`rules_in_words`, which
+loops over the registry.
+
 Outcomes are combined by :func:`combine`: HOLD if any part is HOLD, else PENDING if any part is
 PENDING, else PASS.
 """

@@ -74,8 +74,8 @@ def _counts(sh, layout, c: CharacteristicResult, process: str) -> tuple[str, str
 
 def _rate(sh, ch: CheckResult, counts) -> None:
     n, x = counts
-    conf = sh.param("confidence C", ch.extra["confidence"], "the spec's rate.confidence")
-    sh.param("max", ch.extra["max"], "the spec's rate.max")
+    conf = sh.param("confidence C", ch.details.confidence, "the spec's rate.confidence")
+    sh.param("max", ch.details.max, "the spec's rate.max")
     sh.qty("exact upper bound of the new rate", f"IF({x}>={n},1,_xlfn.BETA.INV({conf},{x}+1,"
            f"{n}-{x}))", ch.ci_high, "BETA.INV(C, x + 1, n - x) (Clopper-Pearson)")
 

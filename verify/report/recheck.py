@@ -812,7 +812,7 @@ def _target(sh: _Sheet, c: CharacteristicResult, ch: CheckResult, samples) -> No
 
 def _shift(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult, samples) -> None:
     design = ch.design or (c.spec.checks.shift.design if c.spec.checks.shift else "welch")
-    extra = ch.extra or {}
+    extra = ch.details_mapping()
     if design == "paired":
         pr = _pairs(sh, ev, layout, c, extra.get("sd"))
         if pr is None:
@@ -882,7 +882,7 @@ def _shift(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult, sam
 
 
 def _spread(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult, samples) -> None:
-    extra = ch.extra or {}
+    extra = ch.details_mapping()
     method = (ch.method or "").lower()
     if "pitman" in method:
         _pitman_morgan(sh, ev, layout, c, ch)
@@ -927,7 +927,7 @@ def _f_rows(sh: _Sheet, ch: CheckResult, f: str, d1: str, d2: str, *, descriptiv
     ``descriptive``: the F-test stands beside a Brown-Forsythe decision; its ratio and interval
     are compared with the engine's descriptive figures and its p-value is not the check's.
     """
-    extra = ch.extra or {}
+    extra = ch.details_mapping()
     ratio = extra.get("sd_ratio_descriptive") if descriptive else ch.estimate
     sh.qty(f"{label} (new / old)", f"SQRT({f})", ratio, "SQRT(F)")
     if not descriptive:
@@ -1026,7 +1026,7 @@ def _lot_components(sh: _Sheet, layout, c: CharacteristicResult, process: str
 
 def _within_lot_spread(sh: _Sheet, layout, c: CharacteristicResult, ch: CheckResult) -> None:
     """unit_of_analysis lot: the pooled within-lot variances, compared by F."""
-    extra = ch.extra or {}
+    extra = ch.details_mapping()
     old = _lot_components(sh, layout, c, "old")
     new = _lot_components(sh, layout, c, "new")
     if old is None or new is None:
@@ -1097,7 +1097,7 @@ def _pitman_morgan(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckRes
     if pr is None:
         return
     o, n = pr.old, pr.new
-    extra = ch.extra or {}
+    extra = ch.details_mapping()
     vn = sh.qty("paired new: variance", f"_xlfn.VAR.S({n})", None, "VAR.S of the matched new")
     vo = sh.qty("paired old: variance", f"_xlfn.VAR.S({o})", None, "VAR.S of the matched old")
     cov = sh.qty("covariance old, new", f"_xlfn.COVARIANCE.S({o},{n})", None, "COVARIANCE.S")
@@ -1289,7 +1289,7 @@ def _subgroup_sigma(sh: _Sheet, layout, name: str, block: Block) -> tuple[str, s
 
 
 def _capability(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult) -> None:
-    extra: Mapping = ch.extra or {}
+    extra: Mapping = ch.details_mapping()
     block = _used_block(sh, ev, layout, c.name, "new")
     if block is None:
         sh.unavailable("capability", _why_no_block(layout, c.name, "new"))
@@ -1487,7 +1487,7 @@ def _conformance(sh: _Sheet, ev, layout, c: CharacteristicResult, ch: CheckResul
     """Tolerance limits mean -/+ k sd rebuilt from the new parts; the factor k is given as a
     value with its method (no spreadsheet function computes the noncentral t quantile or the
     Odeh/Owen integral)."""
-    extra: Mapping = ch.extra or {}
+    extra: Mapping = ch.details_mapping()
     block = _used_block(sh, ev, layout, c.name, "new")  # sort-proof when the table allows
     if block is None:
         sh.unavailable("conformance", _why_no_block(layout, c.name, "new"))
@@ -1562,7 +1562,7 @@ def _fit_lambda(extra: Mapping) -> float | None:
 def _percentile_capability(sh: _Sheet, c: CharacteristicResult, ch: CheckResult) -> None:
     """Percentile indices rebuilt from the fitted quantiles (given as values: they come from
     the maximum-likelihood fit, which the spreadsheet does not redo)."""
-    extra: Mapping = ch.extra or {}
+    extra: Mapping = ch.details_mapping()
     xl = sh.param("fitted 0.135% quantile", extra["x_0_135"], str(extra.get("fit", "")))
     xm = sh.param("fitted median", extra["x_50"], "the same fit")
     xh = sh.param("fitted 99.865% quantile", extra["x_99_865"], "the same fit")
@@ -1618,7 +1618,7 @@ def _characteristic(
             _spread(sh, ev, layout, c, ch, samples)
         elif ch.check == "conformance":
             _conformance(sh, ev, layout, c, ch)
-        elif (ch.extra or {}).get("distribution", "normal") != "normal":
+        elif (ch.details_mapping()).get("distribution", "normal") != "normal":
             _percentile_capability(sh, c, ch)
         else:
             _capability(sh, ev, layout, c, ch)

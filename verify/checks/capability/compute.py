@@ -12,6 +12,7 @@ from ...model import CheckResult
 from ...stats import capability as cap
 from ...stats import distributions
 from ..drafting import CANNOT_COMPUTE, CheckInput, Draft, cannot_compute, finite, no_fit
+from .result import CapabilityDetails, PercentileCapabilityDetails
 from .rule import CAPABILITY
 
 PER_STREAM = False  # judged on the whole new process, not per data.stream sub-stream
@@ -43,16 +44,16 @@ def draft(kind, inp: CheckInput) -> Draft:
     v = CAPABILITY.decide(cpk=value, lower_bound=finite(bound), min_cpk=conf.min,
                           index=label, judge=conf.judge, confidence=level)
     bound_df = r.sigma_within_df if conf.index == "cpk" else float(r.n - 1)
-    extra = {
-        "cp": finite(r.cp), "cpk": r.cpk, "cpl": finite(r.cpl), "cpu": finite(r.cpu),
-        "pp": finite(r.pp), "ppk": finite(r.ppk), "cpm": finite(r.cpm),
-        "sigma_within": r.sigma_within, "sigma_overall": r.sigma_overall,
-        "sigma_method": r.sigma_method, "mean": r.mean, "n": r.n,
-        **({"min_cpk": conf.min} if conf.index == "cpk" else {}),
-        "cpk_lower_95": finite(lb95),
-        "index": conf.index, "judge": conf.judge, "min": conf.min, "confidence": level,
-        "lower_bound": finite(bound), "bound_df": bound_df,
-    }
+    details = CapabilityDetails(
+        cp=finite(r.cp), cpk=r.cpk, cpl=finite(r.cpl), cpu=finite(r.cpu),
+        pp=finite(r.pp), ppk=finite(r.ppk), cpm=finite(r.cpm),
+        sigma_within=r.sigma_within, sigma_overall=r.sigma_overall,
+        sigma_method=r.sigma_method, mean=r.mean, n=r.n,
+        min_cpk=conf.min if conf.index == "cpk" else None,
+        cpk_lower_95=finite(lb95),
+        index=conf.index, judge=conf.judge, min=conf.min, confidence=level,
+        lower_bound=finite(bound), bound_df=bound_df,
+    )
     sigma = (f"Cpk ({r.sigma_method})" if conf.index == "cpk"
              else "Ppk (overall sample sd)")
     judge = ("its lower bound judged" if conf.judge == "lower_bound"
@@ -60,7 +61,7 @@ def draft(kind, inp: CheckInput) -> Draft:
     res = CheckResult(
         check=kind.name, method=f"{sigma}; {judge}", hypothesis=hyp,
         alternative=None, margin=None, outcome=v.outcome, reason=v.reason, estimate=value,
-        ci_low=finite(bound), ci_high=None, ci_level=level, extra=extra,
+        ci_low=finite(bound), ci_high=None, ci_level=level, details=details,
         power_note=(f"no power figure: capability compares {label} with min, not a test"
                     if conf.judge == "estimate" else
                     f"no power figure: the lower bound of {label} is compared with min"),
@@ -82,18 +83,18 @@ def _draft_percentile(kind, inp: CheckInput) -> Draft:
     below, above = distributions.expected_beyond(f, lower=ch.lower, upper=ch.upper)
     v = CAPABILITY.decide(cpk=pi.ppk, lower_bound=None, min_cpk=conf.min,
                           index=f"percentile Ppk ({ch.distribution})")
-    extra = {
-        "pp": finite(pi.pp), "ppl": finite(pi.ppl), "ppu": finite(pi.ppu), "ppk": pi.ppk,
-        "x_0_135": pi.x_low, "x_50": pi.x_mid, "x_99_865": pi.x_high,
-        "distribution": ch.distribution, "fit": f.words,
-        "expected_ppm_below": 1e6 * below, "expected_ppm_above": 1e6 * above,
-        "index": "ppk", "judge": "estimate", "min": conf.min, "confidence": conf.confidence,
-        "lower_bound": None, "n": f.n,
-    }
+    details = PercentileCapabilityDetails(
+        pp=finite(pi.pp), ppl=finite(pi.ppl), ppu=finite(pi.ppu), ppk=pi.ppk,
+        x_0_135=pi.x_low, x_50=pi.x_mid, x_99_865=pi.x_high,
+        distribution=ch.distribution, fit=f.words,
+        expected_ppm_below=1e6 * below, expected_ppm_above=1e6 * above,
+        index="ppk", judge="estimate", min=conf.min, confidence=conf.confidence,
+        lower_bound=None, n=f.n,
+    )
     res = CheckResult(
         check=kind.name, method=f"percentile Ppk, {pi.method}; {ch.distribution} fit by "
         "maximum likelihood; the estimate judged", hypothesis=hyp, alternative=None,
-        margin=None, outcome=v.outcome, reason=v.reason, estimate=pi.ppk, extra=extra,
+        margin=None, outcome=v.outcome, reason=v.reason, estimate=pi.ppk, details=details,
         power_note="no power figure: capability compares the percentile Ppk with min, not a "
                    "test",
     )

@@ -49,12 +49,12 @@ def rules(kind) -> tuple:
 def review(kind, res, spec) -> list[str]:
     """Review notes on a decided check (without the "review: <characteristic>: " lead): an
     index judged on its estimate that PASSes while its lower confidence bound is below min."""
-    x = res.extra or {}
-    if res.outcome != "PASS" or x.get("judge") != "estimate":
+    x = res.details
+    if res.outcome != "PASS" or x is None or x.judge != "estimate":
         return []
-    lb = x.get("lower_bound")
-    if lb is None or lb >= x["min"]:
+    lb = x.lower_bound
+    if lb is None or lb >= x.min:
         return []
-    name = "Cpk" if x.get("index") == "cpk" else "Ppk"
-    return [f"{name} meets {fmt(x['min'])} but its lower {fmt(100 * x['confidence'])}% bound "
+    name = "Cpk" if x.index == "cpk" else "Ppk"
+    return [f"{name} meets {fmt(x.min)} but its lower {fmt(100 * x.confidence)}% bound "
             f"{fmt(lb, 3)} does not"]

@@ -12,6 +12,7 @@ from ...model import CheckResult
 from ...stats import distributions, tolerance
 from ...stats.errors import NotApplicableError
 from ..drafting import CANNOT_COMPUTE, CheckInput, Draft, cannot_compute, finite, no_fit
+from .result import ConformanceDetails, ShortConformanceDetails
 from .rule import CONFORMANCE
 
 PER_STREAM = False  # judged on the whole new process, not per data.stream sub-stream
@@ -53,29 +54,29 @@ def draft(kind, inp: CheckInput) -> Draft:
             check=kind.name, method=tolerance.METHOD_ORDER, hypothesis=hyp,
             alternative=None, margin=None, outcome="HOLD" if inp.final else "PENDING",
             reason=f"too few parts for distribution-free limits: {err}",
-            extra={"coverage": conf.coverage, "coverage_confidence": conf.confidence,
-                   "side": side, "n": int(parts.size), "n_required": need,
-                   "distribution": dist})
+            details=ShortConformanceDetails(
+                coverage=conf.coverage, coverage_confidence=conf.confidence, side=side,
+                n=int(parts.size), n_required=need, distribution=dist))
         return Draft(result=res)
     except CANNOT_COMPUTE as err:
         return cannot_compute(kind.name, "tolerance interval", hyp, err)
     v = CONFORMANCE.decide(low=r.low, high=r.high, lower=lower, upper=upper,
                            coverage=r.coverage, confidence=r.confidence, k=r.k, unit=ch.unit)
-    extra = {"coverage": r.coverage, "coverage_confidence": r.confidence, "k": r.k,
-             "side": side, "n": r.n, "mean": r.mean, "sd_parts": r.sd, "distribution": dist,
-             "within_limits": int(v.outcome == "PASS")}
-    if inp.fit is not None:
-        extra["fit"] = inp.fit.words
-        if inp.fit.name == "box-cox":
-            extra["box_cox_lambda"] = inp.fit.param("lambda")
-    if dist == "any":
-        extra["n_required"] = tolerance.order_sample_size(r.coverage, r.confidence, side)
+    fit = inp.fit
+    details = ConformanceDetails(
+        coverage=r.coverage, coverage_confidence=r.confidence, k=r.k, side=side, n=r.n,
+        mean=r.mean, sd_parts=r.sd, distribution=dist, within_limits=int(v.outcome == "PASS"),
+        fit=fit.words if fit is not None else None,
+        box_cox_lambda=fit.param("lambda") if fit is not None and fit.name == "box-cox"
+        else None,
+        n_required=(tolerance.order_sample_size(r.coverage, r.confidence, side)
+                    if dist == "any" else None))
     res = CheckResult(
         check=kind.name, method=r.method, hypothesis=hyp, alternative=None, margin=None,
         # the estimate is the mean of the parts in their own unit (for a fitted model the
         # interval is built on the transformed scale, whose mean and sd are in the details)
         outcome=v.outcome, reason=v.reason, estimate=float(np.mean(parts)),
-        ci_low=finite(r.low), ci_high=finite(r.high), ci_level=r.confidence, extra=extra,
+        ci_low=finite(r.low), ci_high=finite(r.high), ci_level=r.confidence, details=details,
         power_note="no power figure: verify plan gives the n a process needs to pass",
     )
     # the data show harm (not merely too few parts) when the mean itself is beyond a limit

@@ -23,6 +23,7 @@ from ...stats.core import (
 )
 from ...stats.errors import DegenerateDataError
 from ..drafting import CANNOT_COMPUTE, CheckInput, Comparison, Draft, cannot_compute, finite
+from .result import LocationDetails
 from .rule import difference_rule, margin_rule
 
 DETECT_POWER = 0.8  # the power at which the "smallest detectable shift" note is stated
@@ -115,7 +116,7 @@ def draft(kind, inp: CheckInput) -> Draft:
     ratio = _ratio(n_new, n_old) if design in ("welch", "pooled") else 1.0
     common = dict(
         estimate=e.estimate, standard_error=e.standard_error, df=e.df, design=design,
-        extra={"n_new": n_new, "n_old": n_old, "sd": float(e.sd)},
+        details=LocationDetails(n_new=n_new, n_old=n_old, sd=float(e.sd)),
     )
     if margin is not None:
         return _draft_margin(kind, inp, e, subject, noun, sds, ratio, common)

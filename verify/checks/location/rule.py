@@ -119,7 +119,7 @@ def difference_rule(kind) -> DifferenceRule:
 def review(kind, res, spec) -> list[str]:
     """Review notes on a decided check (without the "review: <characteristic>: " lead): a PASS
     that rests on fewer parts than the plan's power asks for."""
-    n_new = (res.extra or {}).get("n_new")
+    n_new = res.details.n_new if res.details is not None else None
     if (res.outcome == "PASS" and res.planned_n is not None and n_new is not None
             and n_new < res.planned_n):
         return [f"the {res.check} PASS rests on n = {n_new} per process, fewer than the "

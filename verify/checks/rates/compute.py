@@ -9,10 +9,13 @@ failed parts by lot.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 from ...decide import fmt, pct
 from ...model import CheckResult
 from ...stats import rates
 from ..drafting import CANNOT_COMPUTE, CheckInput, Draft, cannot_compute
+from .result import RateDetails, RateShiftDetails
 from .rule import RATE, RATE_SHIFT
 
 PER_STREAM = False  # pass-fail characteristics have no data.stream sub-streams
@@ -53,9 +56,9 @@ def _draft_rate(kind, inp: CheckInput) -> Draft:
         ci_level=level, design="pass-fail", planned_n=None,
         power_note=(f"no power figure: with {b.failures} failure(s) the bound reaches "
                     f"{pct(conf.max)} at {plan.n} parts inspected"),
-        extra={"max": conf.max, "confidence": level, "failures_new": b.failures,
-               "n_new": b.inspected, "lower_bound": lower,
-               "parts_needed_at_these_failures": plan.n},
+        details=RateDetails(max=conf.max, confidence=level, failures_new=b.failures,
+                            n_new=b.inspected, lower_bound=lower,
+                            parts_needed_at_these_failures=plan.n),
     )
     harm = RATE.harm_shown(lower=lower, max_rate=conf.max)
     return Draft(result=res, harm_shown=v.outcome == "HOLD" and harm)
@@ -69,8 +72,8 @@ def _draft_rate_shift(kind, inp: CheckInput) -> Draft:
     new, old = inp.data.candidate.counts, inp.data.reference.counts
     conf = inp.config(kind.name)
     alpha = spec.alpha
-    extra = {"failures_new": new.failures, "n_new": new.n, "failures_old": old.failures,
-             "n_old": old.n}
+    details = RateShiftDetails(failures_new=new.failures, n_new=new.n,
+                               failures_old=old.failures, n_old=old.n)
     if conf.margin is not None:
         hyp = (f"the new failure rate of {ch.name} minus the old one is below "
                f"{fmt(100 * conf.margin)} percentage points")
@@ -87,7 +90,7 @@ def _draft_rate_shift(kind, inp: CheckInput) -> Draft:
             check=kind.name, method=f"{r.method} interval", hypothesis=hyp,
             alternative="less", margin=None, outcome=v.outcome, reason=v.reason,
             estimate=r.estimate, ci_low=r.low, ci_high=r.high, ci_level=level,
-            design="pass-fail", extra={**extra, "margin": conf.margin},
+            design="pass-fail", details=replace(details, margin=conf.margin),
             power_note=_power_note(conf, old, new, alpha, spec),
         )
         return Draft(result=res, harm_shown=v.outcome == "HOLD" and r.low >= conf.margin)
@@ -103,7 +106,7 @@ def _draft_rate_shift(kind, inp: CheckInput) -> Draft:
         check=kind.name, method=t.method, hypothesis=hyp, alternative="greater",
         margin=None, outcome="PASS", reason="", estimate=new.failures / new.n
         - old.failures / old.n, statistic=t.statistic, p_value=t.pvalue, design="pass-fail",
-        extra=extra, power_note=_power_note(conf, old, new, alpha, spec),
+        details=details, power_note=_power_note(conf, old, new, alpha, spec),
     )
 
     def complete(eff_alpha, family_size):

@@ -6,6 +6,8 @@ member of the multiplicity family: its interval level waits for the family.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 
 from ...decide import fmt, p_eq
@@ -15,6 +17,7 @@ from ...stats import variance_components as vc
 from ...stats.errors import DegenerateDataError
 from ...stats.paired_spread import pitman_morgan
 from ..drafting import CANNOT_COMPUTE, CheckInput, Draft, cannot_compute, finite
+from .result import LotSpreadDetails, PairedSpreadDetails, TwoSampleSpreadDetails
 from .rule import SPREAD
 
 PER_STREAM = True  # runs for each data.stream sub-stream of the new process as well
@@ -34,7 +37,6 @@ def draft(kind, inp: CheckInput) -> Draft:
     hyp = f"the new process's standard deviation of {ch.name} is larger than the old one's"
     ref, cand = inp.data.reference, inp.data.candidate
     pv = inp.data.spread_pairs
-    extra: dict = {}
     note = ""
     what = "sd ratio new/old"
     desc = None  # the F-test beside a Brown-Forsythe decision, descriptive only
@@ -43,7 +45,7 @@ def draft(kind, inp: CheckInput) -> Draft:
             r = pitman_morgan(pv.old, pv.new, alternative="greater")
             two = pitman_morgan(pv.old, pv.new, alternative="two-sided")
             method, stat, df, est, p = r.method, r.statistic, r.df, r.estimate, r.pvalue
-            extra = {"correlation": r.correlation, "pairs": len(pv.keys)}
+            details = PairedSpreadDetails(correlation=r.correlation, pairs=len(pv.keys))
             design = "paired"
 
             def interval(level, _two=two):
@@ -61,14 +63,14 @@ def draft(kind, inp: CheckInput) -> Draft:
                                        alternative="two-sided")
             method, stat, df, est, p = w.method, w.statistic, float(w.df_num), w.estimate, w.pvalue
             what = "within-lot sd ratio new/old"
-            extra = {
-                "df_num": w.df_num, "df_den": w.df_den, "F": w.statistic,
-                "sd_within_lot_old": w.old.sd_within, "sd_within_lot_new": w.new.sd_within,
-                "sd_between_lot_old": w.old.sd_between, "sd_between_lot_new": w.new.sd_between,
-                "between_lot_ratio": finite(w.between_ratio),
-                "compared": ("pooled within-lot variances (F on sum(n_i - 1) df); the "
-                             "between-lot sds are reported beside it and do not decide"),
-            }
+            details = LotSpreadDetails(
+                df_num=w.df_num, df_den=w.df_den, F=w.statistic,
+                sd_within_lot_old=w.old.sd_within, sd_within_lot_new=w.new.sd_within,
+                sd_between_lot_old=w.old.sd_between, sd_between_lot_new=w.new.sd_between,
+                between_lot_ratio=finite(w.between_ratio),
+                compared=("pooled within-lot variances (F on sum(n_i - 1) df); the "
+                          "between-lot sds are reported beside it and do not decide"),
+            )
             between = (fmt(w.between_ratio) if w.between_ratio is not None
                        else "n/a (the old between-lot sd is 0)")
             note = f"; between-lot sd ratio {between}, reported only"
@@ -81,11 +83,12 @@ def draft(kind, inp: CheckInput) -> Draft:
                 raise DegenerateDataError("no old-process values")
             f = spread.f_test(ref.values, cand.values, alternative="greater")
             f_two = spread.f_test(ref.values, cand.values, alternative="two-sided")
-            extra = {"df_num": f.df_num, "df_den": f.df_den, "F": f.statistic}
+            details = TwoSampleSpreadDetails(df_num=f.df_num, df_den=f.df_den, F=f.statistic)
             design = "two-sample"
             if conf.design_given and spec.data.pair is not None:
                 note = "; pairs ignored: the spec declares spread design: independent"
-                extra["pairs_ignored"] = "spec declares spread design: independent"
+                details = replace(details,
+                                  pairs_ignored="spec declares spread design: independent")
             if conf.method == "brown-forsythe":
                 b = spread.brown_forsythe(ref.values, cand.values, alternative="greater")
                 b_two = spread.brown_forsythe(ref.values, cand.values, alternative="two-sided")
@@ -95,8 +98,8 @@ def draft(kind, inp: CheckInput) -> Draft:
                 method, stat, df, est, p = b.method, b.statistic, float(b.df_den), b.estimate, \
                     b.pvalue
                 what = "mean absolute deviation new - old"
-                extra.update({"mad_old": b.mad_old, "mad_new": b.mad_new,
-                              "sd_ratio_descriptive": f.estimate})
+                details = replace(details, mad_old=b.mad_old, mad_new=b.mad_new,
+                                  sd_ratio_descriptive=f.estimate)
                 note += f"; sd ratio {fmt(f.estimate)}, descriptive"
 
                 def interval(level, _b=b_two):
@@ -115,7 +118,7 @@ def draft(kind, inp: CheckInput) -> Draft:
     res = CheckResult(
         check=kind.name, method=method, hypothesis=hyp, alternative="greater", margin=None,
         outcome="PASS", reason="", estimate=est, statistic=stat, df=df, p_value=p,
-        design=design, extra=extra,
+        design=design, details=details,
         power_note="no power figure: the spec declares no spread increase that must be seen",
     )
     found = {}
@@ -128,8 +131,8 @@ def draft(kind, inp: CheckInput) -> Draft:
         out = dict(ci_low=ci.low, ci_high=finite(ci.high), ci_level=level)
         if desc is not None:
             dci = desc.confidence_interval(level)
-            out["extra"] = {**extra, "sd_ratio_low_descriptive": dci.low,
-                            "sd_ratio_high_descriptive": finite(dci.high)}
+            out["details"] = replace(details, sd_ratio_low_descriptive=dci.low,
+                                     sd_ratio_high_descriptive=finite(dci.high))
         return out
 
     def finish(p_adj, adjusted):
