@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 import os
+import shutil
 import subprocess
 import sys
 
@@ -180,6 +181,24 @@ def test_help_does_not_import_heavy_libraries():
     result = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                             cwd=REPO, env=dict(os.environ, PYTHONPATH=str(REPO)), timeout=60)
     assert "HEAVY []" in result.stdout, result.stdout + result.stderr
+
+
+@pytest.mark.slow
+def test_check_imports_neither_the_evaluation_nor_the_statistics_nor_the_reports(tmp_path):
+    # verify check only validates and counts: the start-up cost of scipy (about 0.7 s, see
+    # ../shared/NOTES.md), the evaluation and the workbook code is not its to pay
+    shutil.copytree(SPECS, tmp_path / "specs")
+    shutil.copytree(REPO / "sample_lots", tmp_path / "sample_lots")
+    code = ("import sys\nfrom verify.cli import main\n"
+            "rc = main(['check', 'specs/'])\n"
+            "loaded = [m for m in sys.modules if m in ('scipy', 'openpyxl', 'verify.evaluate', "
+            "'verify.evaluate_pass_fail', 'verify.decide', 'verify.plan') or "
+            "m.startswith(('verify.stats', 'verify.report'))]\n"
+            "print('RC', rc, 'LOADED', sorted(loaded))\n")
+    result = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                            cwd=tmp_path, env=dict(os.environ, PYTHONPATH=str(REPO)),
+                            timeout=120)
+    assert "RC 0 LOADED []" in result.stdout, result.stdout + result.stderr
 
 
 # -- help texts -----------------------------------------------------------------------------

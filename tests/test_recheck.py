@@ -20,7 +20,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from tests.factory import make_evaluation
-from verify.report import recheck
+from verify.report import formulas, recheck_within
 from verify.report.layout import LOT_COLUMN, VALUE_COLUMN, measurement_layout
 from verify.report.recheck import (
     COLUMNS,
@@ -375,7 +375,7 @@ def test_lot_names_that_criteria_cannot_tell_apart_use_exact():
 @settings(max_examples=80, deadline=None)
 @given(st.text(min_size=1, max_size=30).filter(lambda s: "\x00" not in s))
 def test_criterion_round_trips_any_lot_name(name):
-    crit = recheck._criterion(name)
+    crit = formulas.criterion(name)
     assert crit.startswith('"=') and crit.endswith('"')
     inner = crit[2:-1]
     assert re.fullmatch(r'(?:[^"]|"")*', inner)  # quotes come doubled
@@ -507,7 +507,7 @@ def test_d2_constants_are_the_engines():
     # the sheet's CHOOSE table must hold the same tabled d2(n) the engine divides by
     from verify.stats.diagnostics import D2_TABLE
 
-    assert recheck.D2_CONSTANTS == tuple(D2_TABLE[n] for n in range(2, 26))
+    assert recheck_within.D2_CONSTANTS == tuple(D2_TABLE[n] for n in range(2, 26))
 
 
 # --- sort-proof lookups (issue 13) ---------------------------------------------------------------

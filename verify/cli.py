@@ -89,6 +89,7 @@ def _indent(text: str) -> str:
 def describe_plan(spec, measurements) -> list[str]:
     """What ``verify run`` would do with a valid spec and its data, as lines of text."""
     from .data import analysis_values, paired_values
+    from .spec_kind import spec_of
 
     lines = [f"{spec.path}: valid", f"  {spec.title}"
              + (f"  [{spec.change_id}]" if spec.change_id else "")]
@@ -151,9 +152,7 @@ def describe_plan(spec, measurements) -> list[str]:
                      and len(av.values) < plan else "")
             lines.append(f"    {proc}: {n} in {len(lots)} lot{'s' if len(lots) != 1 else ''} "
                          f"({_names(lots, 6, quote=False)}){short}")
-        ch = c.checks
-        if (ch.shift is not None and ch.shift.design == "paired") or (
-                ch.spread is not None and ch.spread.design == "paired"):
+        if any(spec_of(name).uses_pairs(check) for name, check in c.checks.items()):
             pv = paired_values(measurements, spec, c.name)
             extra = f" ({_names(pv.unmatched, 5, quote=False)})" if pv.unmatched else ""
             plan = spec.planned("pairs")
@@ -167,14 +166,13 @@ def describe_plan(spec, measurements) -> list[str]:
             streams = stream_values(measurements, c.name)
             listed = ", ".join(f"{k} n {len(v)}" for k, v in streams.items()) or "none yet"
             lines.append(f"    new streams ({spec.data.stream}): {listed}")
-        for text in _check_words(c, spec.unit_of_analysis):
-            lines.append(f"    check {text}")
+        lines.extend(f"    check {text}" for text in check_words(c, spec))
     return lines
 
 
 def _describe_pass_fail(spec, measurements, c) -> list[str]:
     """``verify check`` lines of a pass-fail characteristic: counts per process, its checks."""
-    from .evaluate_pass_fail import process_counts
+    from .pass_fail_counts import process_counts
 
     src = (f"counts per lot (inspected {c.counts[0]!r}, failed {c.counts[1]!r})"
            if c.counts is not None else
@@ -188,84 +186,23 @@ def _describe_pass_fail(spec, measurements, c) -> list[str]:
         lines.append(f"    {proc}: {k.n} inspected, {k.failures} failed, in {len(lots)} "
                      f"lot{'s' if len(lots) != 1 else ''} ({_names(lots, 6, quote=False)})"
                      f"{short}")
-    rate, shift = c.checks.rate, c.checks.rate_shift
-    if rate is not None:
-        lines.append(f"    check rate: new failure rate at most {rate.max:g} (exact upper "
-                     f"bound at {rate.confidence:g} confidence)")
-    if shift is not None:
-        lines.append(
-            f"    check rate_shift: new minus old rate below {shift.margin:g} ("
-            + ("Newcombe hybrid score" if shift.method == "newcombe" else "Miettinen-Nurminen")
-            + " interval)" if shift.margin is not None else
-            "    check rate_shift: new rate not higher than old ("
-            + ("Fisher" if shift.test == "fisher" else "Boschloo") + " exact test, one-sided)")
+    lines.extend(f"    check {text}" for text in check_words(c, spec))
     return lines
 
 
-def _check_words(c, unit_of_analysis: str = "part") -> list[str]:
-    ch, out = c.checks, []
-    u = f" {c.unit}" if c.unit else ""
+def check_words(c, spec) -> list[str]:
+    """``<check>: <what it claims and how>`` of each check of characteristic ``c`` (from the
+    kinds' ``spec`` hooks), in registry order; ``["none"]`` when no check runs."""
+    from .spec_kind import spec_of
 
-    def margin_claim(m, what: str, design: str, of: str = "") -> str:
-        if c.side == "lower":
-            return (f"{what} no lower than {_num(m.low)}{u} (non-inferiority, harmful side "
-                    f"lower{design})")
-        if c.side == "upper":
-            return (f"{what} no higher than +{_num(m.high)}{u} (non-inferiority, harmful side "
-                    f"upper{design})")
-        return f"{what} within {_margin(m)}{u}{of} (equivalence, TOST{design})"
-
-    if ch.target is not None:
-        m = ch.target.margin
-        out.append("target: " + (margin_claim(m, "new mean", "", f" of {_num(c.target)}")
-                                 if c.side == "two-sided" else
-                                 margin_claim(m, f"new mean minus {_num(c.target)}", "")) if m
-                   else f"target: new mean against {_num(c.target)} (one-sample t-test, "
-                   f"{c.side})")
-    if ch.shift is not None:
-        m = ch.shift.margin
-        design = f", {ch.shift.design}"
-        out.append("shift: " + margin_claim(m, "new minus old", design) if m else
-                   f"shift: new against old (difference test, {ch.shift.design}, {c.side})")
-    if ch.spread is not None and ch.spread.design == "paired":
-        out.append("spread: new spread not larger than old (Pitman-Morgan on the matched "
-                   "pairs, one-sided, design paired)")
-    elif ch.spread is not None:
-        method = "F-test" if ch.spread.method == "f" else "Brown-Forsythe"
-        if unit_of_analysis == "lot":
-            method = ("F-test on the pooled within-lot variances, sum(n_i - 1) df; "
-                      "between-lot sds reported beside it")
-        opted = (", design independent: the declared pairs are ignored"
-                 if ch.spread.design_given else "")
-        out.append(f"spread: new spread not larger than old ({method}, one-sided{opted})")
-    if ch.capability is not None:
-        cap = ch.capability
-        how = ("overall sd" if cap.index == "ppk" else "within-lot sigma"
-               if cap.subgroup == "lot" else "moving-range sigma")
-        judged = (f"lower {cap.confidence:.0%} bound of new {cap.label}"
-                  if cap.judge == "lower_bound" else f"new {cap.label}")
-        out.append(f"capability: {judged} at least {cap.min:g} ({how}; index {cap.index}, "
-                   f"judge {cap.judge})")
-    if ch.conformance is not None:
-        cf = ch.conformance
-        shape = ("two-sided tolerance interval within both limits" if cf.side == "two-sided"
-                 else f"{cf.side} tolerance bound within the {cf.side} limit")
-        out.append(f"conformance: {shape}, coverage {cf.coverage:g} at confidence "
-                   f"{cf.confidence:g} (exact normal factor)")
-    if not out:
-        out.append("none")
-    return out
-
-
-def _margin(m) -> str:
-    core = f"{_num(m.low)}..+{_num(m.high)}"
-    return core if m.text.startswith("[") or "%" not in m.text else f"{core} ({m.text})"
+    out = [f"{name}: {spec_of(name).words(check, c, spec)}" for name, check in c.checks.items()]
+    return out or ["none"]
 
 
 def _num(v) -> str:
-    from .spec import _fmt
+    from .spec_kind import num
 
-    return "none" if v is None else _fmt(v)
+    return num(v)
 
 
 def _count(n: int, word: str) -> str:

@@ -35,6 +35,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING
 
+from .checks.location.choice import ALTERNATIVES, TestChoice, choose_test
 from .errors import DataError, SpecIssue, UsageError, VerifyError
 
 if TYPE_CHECKING:
@@ -134,16 +135,20 @@ class Scenario:
     unit_of_analysis: str = "part"
 
     @property
+    def choice(self) -> TestChoice:
+        """The test, as :func:`verify.checks.location.choice.choose_test` gives it."""
+        return TestChoice(kind=self.kind, side=self.side, alternative=ALTERNATIVES[self.side],
+                          low=self.low, high=self.high)
+
+    @property
     def alternative(self) -> str:
         """The t-test alternative of the harmful direction (used for the detectable shift)."""
-        return {"two-sided": "two-sided", "lower": "less", "upper": "greater"}[self.side]
+        return self.choice.alternative
 
     @property
     def bound(self) -> float | None:
         """The non-inferiority bound: the harmful side's end of the margin."""
-        if self.kind != "non-inferiority":
-            return None
-        return self.low if self.side == "lower" else self.high
+        return self.choice.bound
 
     @property
     def test(self) -> str:
@@ -573,13 +578,13 @@ def spec_scenarios(spec: Spec, meas: Measurements | None, opts: Options) -> list
                                         f"{ch.name}, check {check}: {m}", line=line)
                               for m in found)
                 continue
+            test = choose_test(None if margin is None else (margin.low, margin.high), ch.side)
+            kind, low, high = test.kind, test.low, test.high
             if margin is not None:
-                kind = "equivalence" if ch.side == "two-sided" else "non-inferiority"
-                shift, low, high, text = true_shift, margin.low, margin.high, margin.text
+                shift, text = true_shift, margin.text
             else:
-                kind = "difference"
                 shift = -detect if ch.side == "lower" else detect
-                low = high = text = None
+                text = None
             out.append(Scenario(
                 characteristic=ch.name, check=check, kind=kind, design=design, side=ch.side,
                 alpha=spec.alpha, target_power=power, sd=sd[0], sd_source=sd[1],
@@ -868,14 +873,13 @@ def plan_standalone(
             raise UsageError("a plan needs the sd: pass --sd S (the sd of one unit)")
         sd_value, sd_source = sd, "--sd"
     check = "target" if design == "one-sample" else "shift"
+    test = choose_test(None if margin is None else parse_margin(margin), side)
+    kind, low, high = test.kind, test.low, test.high
     if margin is not None:
-        low, high = parse_margin(margin)
-        kind = "equivalence" if side == "two-sided" else "non-inferiority"
         shift = 0.0 if true_shift is None else true_shift
         text = margin
     else:
-        low = high = text = None
-        kind = "difference"
+        text = None
         shift = -detect if side == "lower" else detect
     s = Scenario(characteristic=None, check=check, kind=kind, design=design, side=side,
                  alpha=alpha, target_power=power, sd=sd_value, sd_source=sd_source,

@@ -6,132 +6,80 @@ Nothing downstream reads YAML; everything reads these frozen dataclasses.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from collections.abc import Iterator
+from dataclasses import dataclass, field, fields, make_dataclass
 from pathlib import Path
 
-DESIGNS = ("welch", "pooled", "paired")
 SIDES = ("two-sided", "lower", "upper")
 UNITS = ("part", "lot")
 MULTIPLICITY = ("none", "holm", "bonferroni")
-SPREAD_METHODS = ("f", "brown-forsythe")
-SPREAD_DESIGNS = ("paired", "independent")
-CAPABILITY_INDICES = ("cpk", "ppk")
-CAPABILITY_JUDGES = ("estimate", "lower_bound")
 DISTRIBUTIONS = ("normal", "lognormal", "weibull", "box-cox", "any")
 KINDS = ("measured", "pass-fail")
-RATE_SHIFT_METHODS = ("newcombe", "score")
-RATE_SHIFT_TESTS = ("fisher", "boschloo")
+# the characteristic's key for its nominal value; the same word names a check kind, so code
+# outside the kind's package reads the key through this name (the shape test allows it here)
+TARGET_KEY = "target"
 
 
-@dataclass(frozen=True)
-class Margin:
-    """An equivalence margin [low, high] around 0 (low < 0 < high), in the data's unit.
+class _ChecksBase:
+    """Reading of :class:`Checks` as a mapping of the checks that run."""
 
-    ``text`` is the margin as written in the spec ("0.02", "[-0.01, 0.03]", "0.5%").
-    """
+    __slots__ = ()
 
-    low: float
-    high: float
-    text: str
+    def items(self) -> Iterator[tuple[str, object]]:
+        """(name, settings) of each check that runs, in registry order."""
+        for f in fields(self):
+            value = getattr(self, f.name)
+            if value is not None:
+                yield f.name, value
 
+    def get(self, name: str, default: object = None) -> object:
+        """The settings of check ``name``; ``default`` when it does not run."""
+        value = getattr(self, name, None) if name in self._names() else None
+        return default if value is None else value
 
-@dataclass(frozen=True)
-class TargetCheck:
-    margin: Margin | None = None
-    detect: float | None = None  # planning: the departure that must not go unseen
+    def __getitem__(self, name: str) -> object:
+        value = self.get(name)
+        if value is None:
+            raise KeyError(name)
+        return value
 
+    def __iter__(self) -> Iterator[str]:
+        return (name for name, _value in self.items())
 
-@dataclass(frozen=True)
-class ShiftCheck:
-    design: str = "welch"  # welch | pooled | paired
-    margin: Margin | None = None
-    detect: float | None = None
+    def __len__(self) -> int:
+        return sum(1 for _ in self.items())
 
+    def __contains__(self, name: object) -> bool:
+        return isinstance(name, str) and self.get(name) is not None
 
-@dataclass(frozen=True)
-class SpreadCheck:
-    method: str = "f"  # f | brown-forsythe: which one-sided test decides
-    # paired: Pitman-Morgan on the matched pairs (the default whenever data.pair is declared);
-    # independent: the pairs are ignored knowingly (F-test or Brown-Forsythe)
-    design: str = "independent"
-    design_given: bool = False  # the spec wrote design: (an opt-out is reported as such)
+    def keys(self) -> list[str]:
+        return list(self)
 
+    def values(self) -> list[object]:
+        return [v for _n, v in self.items()]
 
-@dataclass(frozen=True)
-class CapabilityCheck:
-    """The capability criterion: ``index`` (cpk | ppk) judged against ``min``.
-
-    ``judge: estimate`` compares the point estimate with ``min``; ``judge: lower_bound`` compares
-    its lower one-sided confidence bound at ``confidence``. ``min_cpk: x`` in a spec is short for
-    ``{index: cpk, min: x}``.
-    """
-
-    min_cpk: float = 1.33  # the required minimum of ``index`` (the field keeps its first name)
-    subgroup: str | None = None  # "lot": within sigma from lot subgroup ranges; None: moving range
-    index: str = "cpk"  # cpk (within-process sigma) | ppk (overall sd)
-    judge: str = "estimate"  # estimate | lower_bound
-    confidence: float = 0.95
-
-    @property
-    def min(self) -> float:
-        """The required minimum of ``index``."""
-        return self.min_cpk
-
-    @property
-    def label(self) -> str:
-        return "Cpk" if self.index == "cpk" else "Ppk"
+    @classmethod
+    def _names(cls) -> tuple[str, ...]:
+        return tuple(f.name for f in fields(cls))
 
 
-@dataclass(frozen=True)
-class ConformanceCheck:
-    """The conformance criterion: the new process's tolerance interval (``coverage`` of the
-    parts with ``confidence``) must lie within the limits.
+def _checks_class() -> type:
+    """One field per registered kind (None: the check does not run), in registry order."""
+    from .checks import names
 
-    ``side`` is ``two-sided`` (two limits: a two-sided interval), ``lower`` or ``upper`` (a
-    one-sided bound against that limit only); the spec's limits decide it when not written.
-    """
-
-    coverage: float = 0.99
-    confidence: float = 0.95
-    side: str = "two-sided"
-
-
-@dataclass(frozen=True)
-class RateCheck:
-    """Pass/fail: the new process's failure rate is shown to be at most ``max`` (the exact
-    one-sided upper bound at ``confidence`` is at most ``max``)."""
-
-    max: float
-    confidence: float = 0.95
+    cls = make_dataclass(
+        "Checks", [(name, object, field(default=None)) for name in names()],
+        bases=(_ChecksBase,), frozen=True)
+    cls.__module__ = __name__  # pickled by name, as verify.spec_model.Checks
+    cls.__doc__ = (
+        "The checks that run for one characteristic; None means the check does not run.\n\n"
+        "A frozen dataclass with one field per kind of check (``checks.<name>``, "
+        "``dataclasses.replace``), read as a mapping too: ``get(name)``, ``name in checks``, "
+        "and iteration over the names of the checks that run, in registry order.")
+    return cls
 
 
-@dataclass(frozen=True)
-class RateShiftCheck:
-    """Pass/fail: the new failure rate is no worse than the old one.
-
-    With ``margin``: the upper end of the (1 - 2 alpha) interval for p_new - p_old (``method``
-    newcombe or score) must lie below it. Without: a one-sided exact ``test`` (fisher or
-    boschloo) that the new rate is higher HOLDs when significant. ``detect`` is a planning
-    value: the rate difference that must not go unseen.
-    """
-
-    margin: float | None = None
-    method: str = "newcombe"
-    test: str = "fisher"
-    detect: float | None = None
-
-
-@dataclass(frozen=True)
-class Checks:
-    """The checks that run for one characteristic; None means the check does not run."""
-
-    target: TargetCheck | None = None
-    shift: ShiftCheck | None = None
-    spread: SpreadCheck | None = None
-    capability: CapabilityCheck | None = None
-    conformance: ConformanceCheck | None = None
-    rate: RateCheck | None = None
-    rate_shift: RateShiftCheck | None = None
+Checks = _checks_class()
 
 
 @dataclass(frozen=True)
@@ -303,3 +251,15 @@ class Spec:
             if c.name == name:
                 return c
         raise KeyError(name)
+
+
+def __getattr__(name: str) -> object:
+    """The kinds' spec dataclasses (``Margin``, ``ShiftCheck``, ...) live in their ``spec``
+    hooks (``verify.checks.<package>.spec``); they stay importable from here."""
+    from .checks import kinds
+
+    for k in kinds():
+        hook = k.hook("spec")
+        if name in getattr(hook, "__all__", ()):
+            return getattr(hook, name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")

@@ -18,9 +18,10 @@ column                    meaning (an empty cell: not given)
 ``min_cpk``               the capability check's minimum Cpk
 ========================  ============================================================
 
-The spec's ``defaults:`` block gives ``unit``, ``side`` and ``checks`` for every row; a row's
-``target_margin``, ``shift_margin`` and ``min_cpk`` set that key of that check (running the
-check if ``defaults.checks`` does not list it). YAML ``characteristics:`` entries add
+The last three are the kinds' columns: each kind of check declares its own in its ``spec``
+hook (:attr:`verify.spec_kind.CheckSpec.table_columns`). The spec's ``defaults:`` block gives
+``unit``, ``side`` and ``checks`` for every row; a kind's column sets that key of that check
+(running the check if ``defaults.checks`` does not list it). YAML ``characteristics:`` entries add
 characteristics; an entry with the name of a table row overrides that row key by key.
 
 The rows become ordinary characteristic entries *before* validation, so every rule of the
@@ -42,13 +43,14 @@ import yaml
 from yaml.error import Mark
 
 from .errors import DataIssue, SpecError, SpecIssue
+from .spec_kind import Facts, TableColumn, check_specs
+from .spec_model import TARGET_KEY
 
 TABLE_SUFFIXES = (".csv", ".xlsx")
 TEXT_COLUMNS = ("name", "column", "match", "unit", "side")
-NUMBER_COLUMNS = ("target", "lower", "upper", "min_cpk")
-MARGIN_COLUMNS = ("target_margin", "shift_margin")
-COLUMNS = TEXT_COLUMNS[:4] + ("target", "lower", "upper", "side") + MARGIN_COLUMNS + (
-    "min_cpk",)
+# the characteristic's own columns; each kind of check adds its columns after them
+# (verify.spec_kind.CheckSpec.table_columns: target_margin, shift_margin, min_cpk, ...)
+OWN_COLUMNS = TEXT_COLUMNS[:4] + (TARGET_KEY, "lower", "upper", "side")
 MAX_TABLE_BYTES = 50 * 1024 * 1024
 MAX_ROWS = 20_000
 _TAG = "tag:yaml.org,2002:"
@@ -362,20 +364,31 @@ def expand(root: yaml.Node, spec_path: Path, spec_file: str) -> Expansion | None
                      rows={i: row for i, (row, _node) in enumerate(built)})
 
 
+def check_columns() -> tuple[tuple[str, TableColumn], ...]:
+    """(check name, column) of every kind's table columns, in registry order."""
+    return tuple((s.name, c) for s in check_specs("measured") for c in s.table_columns)
+
+
+def columns() -> tuple[str, ...]:
+    """Every column a characteristics table may have, in the order messages list them."""
+    return OWN_COLUMNS + tuple(c.column for _name, c in check_columns())
+
+
 def _columns(header: list[str], shown: str) -> dict[str, int]:
+    known = columns()
     cols: dict[str, int] = {}
     problems = []
     for i, h in enumerate(header):
         key = str(h).strip().lower()
         if not key:
             continue
-        if key not in COLUMNS:
+        if key not in known:
             import difflib
 
-            near = difflib.get_close_matches(key, COLUMNS, n=1, cutoff=0.6)
+            near = difflib.get_close_matches(key, known, n=1, cutoff=0.6)
             hint = f"; did you mean {near[0]!r}?" if near else ""
             problems.append(_issue(shown, f"unknown column {h!r}{hint} The columns are: "
-                                          f"{', '.join(COLUMNS)}", row=1, column=str(h)))
+                                          f"{', '.join(known)}", row=1, column=str(h)))
         elif key in cols:
             problems.append(_issue(shown, f"column {key!r} appears twice", row=1, column=str(h)))
         else:
@@ -420,9 +433,9 @@ def _row_node(row, cells, columns, shown, d_unit, d_side, d_checks):
             pairs.append((_key(key, row, i), _text_node(v, row, i)))
         elif default is not None:
             pairs.append((_key(key, row, None), _copy(default)))
-    v, i = cell("target")
+    v, i = cell(TARGET_KEY)
     if v is not None:
-        pairs.append((_key("target", row, i), _number_node(v, row, i, percent=False)))
+        pairs.append((_key(TARGET_KEY, row, i), _number_node(v, row, i, percent=False)))
     lo, li = cell("lower")
     hi, hi_i = cell("upper")
     if lo is not None or hi is not None:
@@ -437,13 +450,10 @@ def _row_node(row, cells, columns, shown, d_unit, d_side, d_checks):
                       yaml.SequenceNode(_TAG + "seq", items, start_mark=m, end_mark=m)))
 
     settings = []
-    for col, check, key in (("target_margin", "target", "margin"),
-                            ("shift_margin", "shift", "margin"),
-                            ("min_cpk", "capability", "min_cpk")):
-        v, i = cell(col)
+    for check, col in check_columns():
+        v, i = cell(col.column)
         if v is not None:
-            settings.append((check, key, _number_node(v, row, i, percent=col in MARGIN_COLUMNS),
-                             i))
+            settings.append((check, col.key, _number_node(v, row, i, percent=col.percent), i))
     if d_checks is not None or settings:
         if d_checks is not None:
             checks = _copy(d_checks)
@@ -453,8 +463,10 @@ def _row_node(row, cells, columns, shown, d_unit, d_side, d_checks):
             m = _mark(row, None)
             checks = yaml.MappingNode(_TAG + "map", [], start_mark=m, end_mark=m)
             given = {k.value for k, _ in pairs}
-            names = (["target"] if "target" in given else []) + ["shift", "spread"] + (
-                ["capability"] if "limits" in given else [])
+            # only whether a target and limits are given matters here: stand-in values
+            facts = Facts(target=0.0 if TARGET_KEY in given else None,
+                          limits=(None, None) if "limits" in given else None)
+            names = [s.name for s in check_specs("measured") if s.runs_by_default(facts)]
             for c in names:
                 checks.value.append((_key(c, row, None), yaml.MappingNode(
                     _TAG + "map", [], start_mark=m, end_mark=m)))

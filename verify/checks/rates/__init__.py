@@ -4,5 +4,6 @@ from .. import CheckKind
 
 KINDS = (
     CheckKind(name="rate", package=__name__.rsplit(".", 1)[1], order=60, measures="pass_fail"),
-    CheckKind(name="rate_shift", package=__name__.rsplit(".", 1)[1], order=70, measures="pass_fail"),
+    CheckKind(name="rate_shift", package=__name__.rsplit(".", 1)[1], order=70,
+              measures="pass_fail"),
 )

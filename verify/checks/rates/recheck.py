@@ -1,4 +1,4 @@
-"""Recheck rows of a pass-fail characteristic: counts, rates and bounds as live formulas.
+"""The pass-fail checks' recheck rows: counts, rates and bounds as live formulas.
 
 The counts come from the measurements sheet with criteria formulas over its columns
 (characteristic, process, used), so they do not depend on the order of its rows: the parts
@@ -15,15 +15,43 @@ failures SUMIFS of the results (1 failed, 0 passed) or of the failed counts. Fro
 * Fisher's one-sided exact p-value ``1 - HYPGEOM.DIST(x_new - 1, n_new, x_total, n_total,
   TRUE)``.
 
-Functions newer than Excel 2007 carry their ``_xlfn.`` prefix in the file.
+Which interval and which p-value the engine computed follows from the spec's ``rate_shift``
+settings (``margin`` with ``method``, else ``test``). Functions newer than Excel 2007 carry
+their ``_xlfn.`` prefix in the file.
 """
 
 from __future__ import annotations
 
 from openpyxl.utils import get_column_letter
 
-from ..model import CharacteristicResult, CheckResult, Evaluation
-from .layout import MEASUREMENT_HEADERS, MeasurementLayout
+from verify.model import CharacteristicResult, CheckResult
+from verify.report.layout import MEASUREMENT_HEADERS, MeasurementLayout
+from verify.report.recheck_sheet import Sheet, Subject, computed_nothing, detail
+
+__all__ = ["prepare", "recheck"]
+
+COUNTS = "counts"  # key of Subject.prepared: (n cell, x cell) by process, or None
+FISHER = "fisher"  # rate_shift test: Fisher's exact test (else Boschloo's)
+SCORE = "score"  # rate_shift method: the Miettinen-Nurminen score interval (else Newcombe)
+
+
+def prepare(sh: Sheet, on: Subject) -> None:
+    """The parts inspected, the failures and the rate of each process, written once per
+    pass-fail characteristic before its checks."""
+    on.prepared[COUNTS] = {p: _counts(sh, on.layout, on.result, p) for p in ("new", "old")}
+
+
+def recheck(sh: Sheet, on: Subject, check: CheckResult) -> None:
+    """Append the rows that rebuild one pass-fail check from the counts ``prepare`` wrote (see
+    :func:`verify.checks.location.recheck.recheck` for the parameters)."""
+    if computed_nothing(sh, check, ("estimate",)):
+        return
+    counts = on.prepared[COUNTS]
+    if check.check == "rate":
+        _rate(sh, check, counts["new"])
+    elif counts["old"] is not None:
+        _rate_shift(sh, on.result, check, counts["new"], counts["old"])
+
 
 # the measurements sheet's columns, by their keys in layout.MEASUREMENT_HEADERS
 _KEYS = [k for k, _ in MEASUREMENT_HEADERS]
@@ -74,8 +102,8 @@ def _counts(sh, layout, c: CharacteristicResult, process: str) -> tuple[str, str
 
 def _rate(sh, ch: CheckResult, counts) -> None:
     n, x = counts
-    conf = sh.param("confidence C", ch.details.confidence, "the spec's rate.confidence")
-    sh.param("max", ch.details.max, "the spec's rate.max")
+    conf = sh.param("confidence C", detail(ch, "confidence"), "the spec's rate.confidence")
+    sh.param("max", detail(ch, "max"), "the spec's rate.max")
     sh.qty("exact upper bound of the new rate", f"IF({x}>={n},1,_xlfn.BETA.INV({conf},{x}+1,"
            f"{n}-{x}))", ch.ci_high, "BETA.INV(C, x + 1, n - x) (Clopper-Pearson)")
 
@@ -91,15 +119,18 @@ def _wilson(sh, process: str, n: str, x: str, z: str) -> tuple[str, str, str]:
     return p, lo, hi
 
 
-def _rate_shift(sh, ev: Evaluation, ch: CheckResult, new, old) -> None:
+def _rate_shift(sh, c: CharacteristicResult, ch: CheckResult, new, old) -> None:
     (n1, x1), (n0, x0) = new, old
+    conf = c.spec.checks.rate_shift
+    fisher = conf.test == FISHER  # the test the engine ran (without a margin)
+    score = conf.margin is not None and conf.method == SCORE  # the interval (with a margin)
     if ch.p_value is not None:
         p = sh.qty("Fisher one-sided p (new rate higher)",
                    f"IF({x1}=0,1,1-_xlfn.HYPGEOM.DIST({x1}-1,{n1},{x1}+{x0},{n1}+{n0},TRUE))",
-                   ch.p_value if ch.method.startswith("Fisher") else None,
+                   ch.p_value if fisher else None,
                    "P(X >= x_new), X hypergeometric (Fisher's exact test)")
-        sh.family_p[sh.current] = p
-        if not ch.method.startswith("Fisher"):
+        sh.family_member(p)
+        if not fisher:
             sh.note("Boschloo's p-value maximises over the nuisance rate: not recomputed here; "
                     "Fisher's p above is its conditional companion")
         if ch.ci_level is None:
@@ -110,7 +141,7 @@ def _rate_shift(sh, ev: Evaluation, ch: CheckResult, new, old) -> None:
     p1, l1, u1 = _wilson(sh, "new", n1, x1, z)
     p0, l0, u0 = _wilson(sh, "old", n0, x0, z)
     d = sh.qty("difference p_new - p_old", f"{p1}-{p0}", ch.estimate, "new minus old")
-    if "Miettinen" not in (ch.method or ""):
+    if not score:
         sh.qty("Newcombe interval low", f"{d}-SQRT(({p1}-{l1})^2+({u0}-{p0})^2)", ch.ci_low,
                "d - sqrt((p1 - l1)^2 + (u0 - p0)^2) (Newcombe 1998, method 10)")
         sh.qty("Newcombe interval high", f"{d}+SQRT(({u1}-{p1})^2+({p0}-{l0})^2)", ch.ci_high,
@@ -137,21 +168,3 @@ def _rate_shift(sh, ev: Evaluation, ch: CheckResult, new, old) -> None:
                  f"({n1}+{n0}-1)", None, "times N / (N - 1) (Miettinen & Nurminen 1985)")
     sh.qty("score statistic at the upper limit + z (0 at the limit)",
            f"({d}-{delta})/SQRT({var})+{z}", 0.0, "(d - delta) / sqrt(variance) + z")
-
-
-def recheck_pass_fail(sh, ev: Evaluation, layout: MeasurementLayout,
-                      c: CharacteristicResult) -> None:
-    """Append the rows of one pass-fail characteristic to the recheck sheet ``sh``."""
-    counts = {p: _counts(sh, layout, c, p) for p in ("new", "old")}
-    for ch in c.checks:
-        if ch.check not in ("rate", "rate_shift"):
-            continue
-        sh.heading(f"{ch.check} check: {ch.method}")
-        sh.current = (c.name, ch.check)
-        if ch.estimate is None:
-            sh.note(f"the engine computed no numbers for this check: {ch.reason}")
-            continue
-        if ch.check == "rate":
-            _rate(sh, ch, counts["new"])
-        elif counts["old"] is not None:
-            _rate_shift(sh, ev, ch, counts["new"], counts["old"])

@@ -1,0 +1,121 @@
+"""The shape of the recheck sheet's code: one ``recheck`` hook per kind of check, a toolkit that
+names no check, and one reader of a check result's details.
+
+The sheet's cells themselves are checked in ``test_recheck.py`` (their shape) and
+``test_recheck_libreoffice.py`` (their values, recalculated); here we check how the code that
+writes them is put together (issue 12: a kind's formulas live in its own module, chosen from
+typed information, never from method text).
+"""
+
+from __future__ import annotations
+
+import ast
+import dataclasses
+from pathlib import Path
+
+import pytest
+
+from tests.factory import make_evaluation
+from verify.checks import kinds, names
+from verify.report import recheck
+from verify.report.layout import measurement_layout
+from verify.report.recheck_sheet import FIRST_BODY_ROW, Sheet, computed_nothing, detail
+
+PKG = Path(__file__).resolve().parents[1] / "verify"
+TOOLKIT = sorted(PKG.glob("report/recheck*.py")) + [PKG / "report" / "formulas.py"]
+HOOKS = sorted(PKG.glob("checks/*/recheck.py"))
+
+
+def _strings(path: Path) -> set[str]:
+    tree = ast.parse(path.read_text(encoding="utf-8"))
+    return {n.value for n in ast.walk(tree) if isinstance(n, ast.Constant)
+            and isinstance(n.value, str)}
+
+
+def test_every_kind_has_a_recheck_hook_with_the_protocol():
+    # the hook protocol: recheck(sh, on, check), and optionally prepare(sh, on)
+    for k in kinds():
+        assert k.has_hook("recheck"), k.name
+        mod = k.hook("recheck")
+        assert callable(mod.recheck), k.name
+        assert callable(getattr(mod, "prepare", None)), k.name
+
+
+def test_the_toolkit_names_no_check():
+    every = set(names())
+    for path in TOOLKIT:
+        named = _strings(path) & every
+        assert not named, f"{path.name} names the checks {sorted(named)}"
+
+
+@pytest.mark.parametrize("path", TOOLKIT + HOOKS, ids=lambda p: f"{p.parent.name}/{p.name}")
+def test_details_are_read_only_through_the_accessor(path):
+    # `extra` (the untyped details) is read in recheck_sheet.detail and nowhere else, and no
+    # module chooses formulas by searching a method's text (`"pitman" in method`)
+    tree = ast.parse(path.read_text(encoding="utf-8"))
+    reads = [n for n in ast.walk(tree) if isinstance(n, ast.Attribute) and n.attr == "extra"]
+    if path.name == "recheck_sheet.py":
+        assert len(reads) == 1
+    else:
+        assert reads == [], path
+    for node in ast.walk(tree):
+        if isinstance(node, ast.Compare) and any(isinstance(op, ast.In | ast.NotIn)
+                                                 for op in node.ops):
+            right = ast.unparse(node.comparators[0])
+            assert "method" not in right, f"{path.name}: {ast.unparse(node)}"
+        if isinstance(node, ast.Call) and isinstance(node.func, ast.Attribute):
+            assert not (node.func.attr == "startswith" and "method" in ast.unparse(node.func)), (
+                f"{path.name}: {ast.unparse(node)}")
+
+
+def test_detail_reads_a_key_or_its_default():
+    ev = make_evaluation("welch")
+    ch = next(c for c in ev.characteristics[0].checks if c.extra)
+    key = next(iter(ch.extra))
+    assert detail(ch, key) == ch.extra[key]
+    assert detail(ch, "no such detail") is None
+    assert detail(ch, "no such detail", 7) == 7
+
+
+def test_computed_nothing_notes_the_reason_and_stops():
+    ev = make_evaluation("welch")
+    ch = ev.characteristics[0].checks[0]
+    empty = dataclasses.replace(ch, estimate=None, p_value=None, statistic=None,
+                                reason="too few parts")
+    sh = Sheet(FIRST_BODY_ROW)
+    assert computed_nothing(sh, empty)
+    assert sh.rows == [[None, None, None, None, None,
+                        "the engine computed no numbers for this check: too few parts"]]
+    sh = Sheet(FIRST_BODY_ROW)
+    assert not computed_nothing(sh, ch)
+    assert sh.rows == []
+
+
+def test_recheck_rows_calls_each_hook_of_the_kinds_of_the_checks(monkeypatch):
+    # every check of a registered kind reaches its kind's hook once, in the characteristic's
+    # order; a shared prepare hook runs once per characteristic
+    ev = make_evaluation("all", multiplicity="holm")
+    calls: list[tuple[str, str]] = []
+    prepared: list[str] = []
+    for mod in {id(m): m for m in (k.hook("recheck") for k in kinds())}.values():
+
+        def spy(sh, on, check, _orig=mod.recheck):
+            calls.append((on.name, check.check))
+            return _orig(sh, on, check)
+
+        monkeypatch.setattr(mod, "recheck", spy)
+    orig_prepare = kinds()[0].hook("recheck").prepare
+
+    def prepare_spy(sh, on):
+        prepared.append(on.name)
+        return orig_prepare(sh, on)
+
+    for mod in {id(m): m for m in (k.hook("recheck") for k in kinds())}.values():
+        if mod.prepare is orig_prepare:
+            monkeypatch.setattr(mod, "prepare", prepare_spy)
+    recheck.recheck_rows(ev, measurement_layout(ev))
+    registered = set(names())
+    expected = [(c.name, ch.check) for c in ev.characteristics for ch in c.checks
+                if ch.check in registered]
+    assert calls == expected and expected
+    assert prepared == [c.name for c in ev.characteristics]
