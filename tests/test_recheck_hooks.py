@@ -53,7 +53,9 @@ def test_details_are_read_only_through_the_accessor(path):
     # `extra` (the untyped details) is read in recheck_sheet.detail and nowhere else, and no
     # module chooses formulas by searching a method's text (`"pitman" in method`)
     tree = ast.parse(path.read_text(encoding="utf-8"))
-    reads = [n for n in ast.walk(tree) if isinstance(n, ast.Attribute) and n.attr == "extra"]
+    # a result's details (typed, CheckResult.details) are read in one place: detail()
+    reads = [n for n in ast.walk(tree) if isinstance(n, ast.Attribute)
+             and n.attr in ("extra", "details", "details_mapping")]
     if path.name == "recheck_sheet.py":
         assert len(reads) == 1
     else:
@@ -70,9 +72,9 @@ def test_details_are_read_only_through_the_accessor(path):
 
 def test_detail_reads_a_key_or_its_default():
     ev = make_evaluation("welch")
-    ch = next(c for c in ev.characteristics[0].checks if c.extra)
-    key = next(iter(ch.extra))
-    assert detail(ch, key) == ch.extra[key]
+    ch = next(c for c in ev.characteristics[0].checks if c.details is not None)
+    key = next(iter(ch.details_mapping()))
+    assert detail(ch, key) == ch.details_mapping()[key] == getattr(ch.details, key)
     assert detail(ch, "no such detail") is None
     assert detail(ch, "no such detail", 7) == 7
 
