@@ -49,7 +49,7 @@ def main() -> None:
     ap.add_argument("--rows", type=int, default=200_000)
     ap.add_argument("--repeat", type=int, default=3)
     args = ap.parse_args()
-    from verify import data as vdata
+    from verify.data import xlsx as vdata
     from verify.spec import load_spec
 
     with tempfile.TemporaryDirectory() as tmp:

@@ -198,7 +198,7 @@ def test_nightly_refuses_a_broken_ledger_and_anchors_an_intact_one(tmp_path, cap
     # tamper, then the next night must refuse (exit 2) and append nothing
     shell(led_path, "DROP TRIGGER entries_no_update; UPDATE entries SET decision = 'HOLD';")
     before = led_path.read_bytes()
-    from verify.nightly import main_for_tests
+    from verify.cli_nightly import main_for_tests
 
     rc = main_for_tests([str(specs), "--out", str(out)])
     err = capsys.readouterr().err

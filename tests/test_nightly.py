@@ -24,9 +24,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from verify.cli_nightly import add_nightly_arguments, main_for_tests
 from verify.digest import DigestRow, Progress, summary_line, write_digest
 from verify.ledger import Ledger
-from verify.nightly import add_nightly_arguments, main_for_tests, run_nightly
+from verify.nightly import run_nightly
 
 REPO = Path(__file__).resolve().parents[1]
 HISTORY = re.compile(r"^\d{8}T\d{6}Z-[0-9a-f]{8}-(PASS|HOLD|PENDING)(-\d+)?\.(xlsx|json)$")
@@ -167,7 +168,7 @@ def test_second_run_skips_everything(specs, out):
 
 def test_the_unchanged_path_imports_no_scipy_or_pandas(specs, out):
     nightly(specs, out)
-    code = ("import sys\nfrom verify.nightly import main_for_tests\n"
+    code = ("import sys\nfrom verify.cli_nightly import main_for_tests\n"
             f"rc = main_for_tests([{str(specs)!r}, '--out', {str(out)!r}])\n"
             "print('heavy:', sorted(m for m in ('scipy', 'pandas', 'verify.evaluate') "
             "if m in sys.modules))\nsys.exit(rc)\n")
@@ -193,9 +194,10 @@ def test_appending_a_lot_reruns_only_its_spec(specs, out):
 
 def test_a_changed_tool_version_reruns(specs, out, monkeypatch):
     nightly(specs, out)
-    import verify.nightly as vn
+    from verify.nightly import fingerprints, record, run
 
-    monkeypatch.setattr(vn, "__version__", "99.0")
+    for module in (fingerprints, record, run):  # every nightly module that reads the version
+        monkeypatch.setattr(module, "__version__", "99.0")
     result, _, _ = nightly(specs, out)
     assert {s for s, _ in states(result).values()} == {"RUN"}
 
@@ -475,7 +477,7 @@ def test_command_line_usage_errors(tmp_path, capsys):
 def test_the_sub_command_hooks_into_a_verify_parser(tmp_path, specs, capsys):
     import argparse
 
-    from verify.nightly import add_nightly, nightly_main
+    from verify.cli_nightly import add_nightly, nightly_main
 
     parser = argparse.ArgumentParser(prog="verify")
     sub = parser.add_subparsers(dest="command", required=True)

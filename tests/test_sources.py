@@ -20,8 +20,8 @@ import pandas as pd
 import pytest
 from helpers_spec import BASE_CSV, BASE_SPEC, edit
 
-from verify import data as vdata
 from verify.data import load_measurements
+from verify.data import xlsx as vxlsx
 from verify.errors import DataError, SpecError
 from verify.spec import load_spec
 
@@ -43,7 +43,7 @@ def run_cli(*args, cwd=ROOT, env=None):
 
 
 def _openpyxl_tables(monkeypatch, spec):
-    monkeypatch.setattr(vdata, "_xlsx_rows", vdata._xlsx_rows_openpyxl)
+    monkeypatch.setattr(vxlsx, "_xlsx_rows", vxlsx._xlsx_rows_openpyxl)
     return load_measurements(spec)
 
 

@@ -98,7 +98,7 @@ def test_anderson_darling_matches_scipy_and_statsmodels(x):
 
 
 def test_anderson_darling_pvalue_is_monotone_over_the_pieces():
-    from verify.stats.diagnostics import _ad_pvalue
+    from verify.stats.normality import _ad_pvalue
 
     grid = np.linspace(0.0, 400.0, 40001)
     p = np.array([_ad_pvalue(a) for a in grid])

@@ -21,7 +21,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from verify.stats import rates
+from verify.stats import rate_difference, rates
 from verify.stats.errors import DegenerateDataError
 
 
@@ -159,8 +159,8 @@ def test_score_interval_limits_are_where_the_score_crosses_z():
     # invariant: at each finite limit the score statistic equals -+z
     z = stats.norm.ppf(0.95)
     r = rates.miettinen_nurminen(7, 400, 3, 380, level=0.90)
-    assert rates._score_z(7, 400, 3, 380, r.high) == pytest.approx(-z, abs=1e-7)
-    assert rates._score_z(7, 400, 3, 380, r.low) == pytest.approx(z, abs=1e-7)
+    assert rate_difference._score_z(7, 400, 3, 380, r.high) == pytest.approx(-z, abs=1e-7)
+    assert rate_difference._score_z(7, 400, 3, 380, r.low) == pytest.approx(z, abs=1e-7)
 
 
 def test_interval_methods_by_name():

@@ -81,7 +81,8 @@ def load_measurements(spec: Spec | str | os.PathLike | dict,
     spec = _spec(spec)
     if frame is None:
         return _from_source(spec)
-    from .data import _file_info, _Tidy
+    from .data.load import _file_info
+    from .data.tidy import _Tidy
     from .model import Measurements
     from .sources.frame import read_frame
 

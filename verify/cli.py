@@ -294,13 +294,13 @@ def cmd_plan(args: argparse.Namespace) -> int:
 
 # name -> (add the subparser, run the command); further commands register here
 def add_nightly(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
-    from .nightly import add_nightly as add  # its ledger (sqlite3) loads only when asked for
+    from .cli_nightly import add_nightly as add  # its ledger (sqlite3) loads only when asked for
 
     return add(sub)
 
 
 def nightly_main(args: argparse.Namespace) -> int:
-    from .nightly import nightly_main as run
+    from .cli_nightly import nightly_main as run
 
     return run(args)
 

@@ -19,7 +19,7 @@ SAVED_RESULTS = "saved-results"
 
 
 def check_formula_cells(raw: bytes, sheet, spec, shown: str) -> list[str]:
-    """Refuse or note the formula cells of the sheet read into ``sheet`` (a ``data._Sheet``).
+    """Refuse or note the formula cells of the sheet read into ``sheet`` (a ``data.cells._Sheet``).
 
     Returns
     -------

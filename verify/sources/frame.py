@@ -12,8 +12,8 @@ import pandas as pd
 
 
 def read_frame(frame: pd.DataFrame):
-    """The frame as a ``data._Sheet`` and the canonical CSV bytes its hash is taken of."""
-    from ..data import _Sheet
+    """The frame as a ``data.cells._Sheet`` and the canonical CSV bytes its hash is taken of."""
+    from ..data.cells import _Sheet
     from .sql import canonical_csv
 
     header = [str(c) for c in frame.columns]

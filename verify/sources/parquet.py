@@ -21,8 +21,8 @@ _ROW = "__verify_row__"
 
 
 def read_parquet(raw: bytes, shown: str, filters=()):
-    """The file's rows (those that pass ``filters``) as a ``data._Sheet`` of typed cells."""
-    from ..data import _Sheet
+    """The file's rows (those that pass ``filters``) as a ``data.cells._Sheet`` of typed cells."""
+    from ..data.cells import _Sheet
 
     try:
         import pyarrow as pa

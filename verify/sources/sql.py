@@ -190,12 +190,12 @@ def _cell(v):
 
 
 def read_sql(spec):
-    """The query's rows as a ``data._Sheet``, the canonical CSV bytes and the source's label.
+    """The query's rows as a ``data.cells._Sheet``, the canonical CSV bytes and the source's label.
 
     With a snapshot installed for this spec (a replay), the rows come from it, not from the
     database.
     """
-    from ..data import _Sheet
+    from ..data.cells import _Sheet
     from .snapshot import active_snapshot, remember
 
     label = source_label(spec)

@@ -42,8 +42,9 @@ from scipy import special
 
 from ._checks import check_level
 from .core import Interval, mean_sd
-from .diagnostics import D2_TABLE, d2, d3, finite_values, group_codes
 from .errors import DegenerateDataError, NotApplicableError
+from .range_constants import D2_TABLE, d2, d3
+from .samples import finite_values, group_codes
 
 ArrayLike = Sequence[float] | np.ndarray
 

@@ -113,7 +113,7 @@ def _positive(x: ArrayLike, name: str) -> np.ndarray:
 
 
 def _shapiro(y: np.ndarray) -> tuple[float, float]:
-    from .diagnostics import shapiro_wilk
+    from .normality import shapiro_wilk
 
     r = shapiro_wilk(y)
     return float(r.statistic), float(r.pvalue)

@@ -31,8 +31,8 @@ import numpy as np
 from scipy import special
 
 from .core import check_alternative
-from .diagnostics import finite_values, snap_to_grid
 from .errors import DegenerateDataError
+from .samples import finite_values, snap_to_grid
 
 ArrayLike = Sequence[float] | np.ndarray
 

@@ -18,8 +18,8 @@ from scipy import special
 
 from ._checks import check_alpha, check_level
 from .core import Interval, check_alternative, confidence_interval, mean_sd, p_value, require_spread
-from .diagnostics import finite_values
 from .errors import DegenerateDataError, NotApplicableError
+from .samples import finite_values
 
 ArrayLike = Sequence[float] | np.ndarray
 

@@ -30,8 +30,8 @@ import numpy as np
 from scipy import special
 
 from .core import Interval, check_alternative
-from .diagnostics import finite_values, group_codes
 from .errors import DegenerateDataError, NotApplicableError
+from .samples import finite_values, group_codes
 from .spread import f_test_from_stats
 
 ArrayLike = Sequence[float] | np.ndarray

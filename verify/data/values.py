@@ -1,0 +1,217 @@
+"""The tidy table as the analysis reads it: one characteristic and process at a time
+(:func:`analysis_values`, lot means for ``unit_of_analysis: lot``), matched pairs
+(:func:`paired_values`) and the new process's values per stream (:func:`stream_values`)."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from ..model import Measurements
+from ..spec_model import Spec
+
+
+@dataclass(frozen=True)
+class AnalysisValues:
+    """The values one check analyses for one characteristic and process.
+
+    ``values`` are in production order; for ``unit_of_analysis: lot`` they are lot means, one
+    per lot in order of the lot's first measurement. ``lots`` gives the lot of each value,
+    ``unit`` is "part" or "lot", ``n_parts`` the measurements behind the values.
+    """
+
+    values: np.ndarray
+    lots: tuple[str, ...]
+    unit: str
+    n_parts: int
+
+
+@dataclass(frozen=True)
+class PairedValues:
+    """Old and new values aligned by pair key (used measurements only).
+
+    ``unmatched`` holds the pair keys with a used measurement on one side only; they are left
+    out of the paired analysis.
+    """
+
+    keys: tuple[str, ...]
+    old: np.ndarray
+    new: np.ndarray
+    unmatched: tuple[str, ...]
+
+
+def analysis_values(measurements: Measurements, spec: Spec, characteristic_name: str,
+                    process: str) -> AnalysisValues:
+    """The used values of one characteristic and process, as the analysis sees them.
+
+    Parameters
+    ----------
+    measurements, spec
+        From :func:`load_measurements` and :func:`verify.spec.load_spec`.
+    characteristic_name
+        A characteristic of the spec.
+    process
+        "old" or "new".
+
+    Returns
+    -------
+    AnalysisValues
+        Values in production order; lot means when the spec's unit of analysis is lot.
+
+    Examples
+    --------
+    >>> av = analysis_values(m, spec, "bore_diameter", "new")  # doctest: +SKIP
+    >>> av.unit, len(av.values) == len(av.lots)  # doctest: +SKIP
+    ('part', True)
+    """
+    _check_args(spec, characteristic_name, process)
+    ix = _analysis_index(measurements.table)
+    span = ix.groups.get((characteristic_name, process))
+    lo, hi = span if span is not None else (0, 0)
+    values = ix.value[lo:hi].copy()
+    lots = ix.lot[lo:hi].tolist()
+    if spec.unit_of_analysis == "lot":
+        # lot means, one per lot in order of the lot's first measurement. Each sum is
+        # correctly rounded (math.fsum): lot means differ only in late digits, and their spread
+        # must not depend on the order of summation.
+        acc: dict[str, list[float]] = {}
+        for x, lot in zip(values.tolist(), lots, strict=True):
+            acc.setdefault(lot, []).append(x)
+        means = np.array([math.fsum(v) / len(v) for v in acc.values()], dtype=float)
+        first = acc
+        return AnalysisValues(values=means, lots=tuple(first), unit="lot", n_parts=hi - lo)
+    return AnalysisValues(values=values, lots=tuple(lots), unit="part", n_parts=hi - lo)
+
+
+@dataclass(frozen=True)
+class _Index:
+    """The used measurements as numpy arrays, sorted by (characteristic, process, production
+    order, source row), with the slice of each (characteristic, process): an evaluation reads
+    every characteristic and process in turn, so the table is gathered once, not filtered per
+    call."""
+
+    value: np.ndarray
+    lot: np.ndarray  # object array of str
+    pair: np.ndarray  # object array of str
+    order: np.ndarray
+    source_row: np.ndarray
+    groups: dict  # (characteristic, process) -> (start, stop)
+
+
+_INDEX_CACHE: dict[int, tuple] = {}
+
+
+def _analysis_index(table: pd.DataFrame) -> _Index:
+    hit = _INDEX_CACHE.get(id(table))
+    if hit is not None and hit[0] is table:
+        return hit[1]
+    used = ~table["excluded"].to_numpy(dtype=bool)
+    char_codes, char_names = pd.factorize(table["characteristic"].to_numpy(dtype=object)[used])
+    proc_codes, proc_names = pd.factorize(table["process"].to_numpy(dtype=object)[used])
+    code = char_codes.astype(np.int64) * max(1, len(proc_names)) + proc_codes
+    order = table["order"].to_numpy(dtype=np.int64)[used]
+    source_row = table["source_row"].to_numpy(dtype=np.int64)[used]
+    # one stable sort: by group, then production order, then source row (ties keep table order)
+    sort = np.lexsort((source_row, order, code))
+    code_sorted = code[sort]
+    starts = np.flatnonzero(np.concatenate(([True], code_sorted[1:] != code_sorted[:-1]))) \
+        if code_sorted.size else np.zeros(0, dtype=np.intp)
+    stops = np.append(starts[1:], code_sorted.size)
+    width = max(1, len(proc_names))
+    groups = {}
+    for a, b in zip(starts.tolist(), stops.tolist(), strict=True):
+        c = int(code_sorted[a])
+        groups[(str(char_names[c // width]), str(proc_names[c % width]))] = (a, b)
+    index = _Index(
+        value=table["value"].to_numpy(dtype=float)[used][sort],
+        lot=table["lot"].to_numpy(dtype=object)[used][sort],
+        pair=table["pair"].to_numpy(dtype=object)[used][sort],
+        order=order[sort],
+        source_row=source_row[sort],
+        groups=groups,
+    )
+    if len(_INDEX_CACHE) >= 8:
+        _INDEX_CACHE.clear()
+    _INDEX_CACHE[id(table)] = (table, index)
+    return index
+
+
+def stream_values(measurements: Measurements, characteristic: str) -> dict[str, object]:
+    """Used new-process values of one characteristic per stream, in production order.
+
+    Streams are in order of first appearance in the data. Empty when the table has no
+    ``stream`` column (no data.stream declared).
+    """
+    import numpy as np
+
+    t = measurements.table
+    if "stream" not in t.columns:
+        return {}
+    sel = t[(t["characteristic"] == characteristic) & (t["process"] == "new") & ~t["excluded"]]
+    sel = sel.sort_values(["order", "source_row"], kind="stable")
+    out: dict[str, object] = {}
+    for name in dict.fromkeys(sel["stream"].astype(str)):
+        out[name] = sel.loc[sel["stream"].astype(str) == name, "value"].to_numpy(dtype=float)
+    for k in out:
+        out[k] = np.asarray(out[k])
+    return out
+
+
+def paired_values(measurements: Measurements, spec: Spec,
+                  characteristic_name: str) -> PairedValues:
+    """Old and new measurements of one characteristic aligned by the pair key.
+
+    Keys are ordered by the production order of their earlier measurement. A key with a used
+    measurement on one side only (the other excluded, not measured or absent) is listed in
+    ``unmatched``.
+
+    Raises
+    ------
+    ValueError
+        The spec has no ``data.pair`` or no such characteristic.
+
+    Examples
+    --------
+    >>> pv = paired_values(m, spec, "seal_strength")  # doctest: +SKIP
+    >>> len(pv.keys) == len(pv.old) == len(pv.new)  # doctest: +SKIP
+    True
+    """
+    _check_args(spec, characteristic_name, "old")
+    if spec.data.pair is None:
+        raise ValueError("the spec has no data.pair: there are no pairs")
+    ix = _analysis_index(measurements.table)
+    spans = [ix.groups.get((characteristic_name, proc), (0, 0)) for proc in ("old", "new")]
+    pos = np.concatenate([np.arange(a, b) for a, b in spans])
+    pos = pos[ix.pair[pos] != ""]
+    pos = pos[np.lexsort((ix.source_row[pos], ix.order[pos]))]  # production order
+    is_old = (pos >= spans[0][0]) & (pos < spans[0][1])
+    first: dict[str, None] = {}  # keys by earlier measurement
+    sides: tuple[dict, dict] = ({}, {})  # first used value per key: old, new
+    for p, o in zip(pos.tolist(), is_old.tolist(), strict=True):
+        key = ix.pair[p]
+        first.setdefault(key, None)
+        sides[0 if o else 1].setdefault(key, p)
+    keys = [k for k in first if k in sides[0] and k in sides[1]]
+    unmatched = tuple(str(k) for k in first if not (k in sides[0] and k in sides[1]))
+    return PairedValues(keys=tuple(str(k) for k in keys),
+                        old=ix.value[[sides[0][k] for k in keys]].astype(float),
+                        new=ix.value[[sides[1][k] for k in keys]].astype(float),
+                        unmatched=unmatched)
+
+
+_NAMES_CACHE: dict[int, tuple] = {}
+
+
+def _check_args(spec: Spec, name: str, process: str) -> None:
+    hit = _NAMES_CACHE.get(id(spec))
+    if hit is None or hit[0] is not spec:
+        if len(_NAMES_CACHE) >= 8:
+            _NAMES_CACHE.clear()
+        hit = _NAMES_CACHE[id(spec)] = (spec, frozenset(c.name for c in spec.characteristics))
+    if name not in hit[1]:
+        raise ValueError(f"the spec has no characteristic named {name!r}")
+    if process not in ("old", "new"):
+        raise ValueError(f"process must be 'old' or 'new', not {process!r}")

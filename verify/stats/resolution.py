@@ -1,0 +1,65 @@
+"""Measurement resolution: the distinct values and the recording step against a
+tenth of the tolerance."""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from .samples import RESOLUTION_DIGITS, finite_values, snap_to_grid
+
+
+@dataclass(frozen=True)
+class ResolutionResult:
+    """How finely the values were recorded.
+
+    Attributes
+    ----------
+    n : int
+    distinct : int
+        Number of distinct values.
+    step : float or None
+        Smallest positive difference between distinct sorted values (None when all are equal).
+        Values are compared on a grid of 12 significant digits of the largest magnitude, so
+        float noise such as 0.30000000000000004 does not count as a difference.
+    tolerance : float or None
+    step_over_tenth_tolerance : float or None
+        step / (tolerance / 10): above 1 means the recording step is coarser than a tenth of
+        the tolerance (the common-practice "ten to one" rule). None without a tolerance or step.
+    """
+
+    n: int
+    distinct: int
+    step: float | None
+    tolerance: float | None
+    step_over_tenth_tolerance: float | None
+
+    method: str = "measurement resolution"
+
+
+def resolution(
+    x: Sequence[float] | np.ndarray, *, tolerance: float | None = None
+) -> ResolutionResult:
+    """Distinct values and the recording step, against a tenth of the tolerance.
+
+    Examples
+    --------
+    >>> r = resolution([0.1, 0.2, 0.30000000000000004, 0.3], tolerance=2.0)
+    >>> r.distinct, r.step, r.step_over_tenth_tolerance
+    (3, 0.1, 0.5)
+    """
+    if tolerance is not None and not (math.isfinite(tolerance) and tolerance > 0.0):
+        raise ValueError(f"tolerance must be a positive finite number, not {tolerance}")
+    a = finite_values(x)
+    units, quantum = snap_to_grid(a)
+    grid = np.unique(units)
+    distinct = int(grid.size)
+    if distinct < 2:
+        return ResolutionResult(int(a.size), distinct, None, tolerance, None)
+    step_units = float(np.min(np.diff(grid)))
+    step = float(f"{step_units * quantum:.{RESOLUTION_DIGITS}g}")
+    ratio = None if tolerance is None else step / (tolerance / 10.0)
+    return ResolutionResult(int(a.size), distinct, step, tolerance, ratio)

@@ -1,0 +1,60 @@
+"""Input helpers shared by the statistics modules: a sample as finite numbers
+(:func:`finite_values`), group labels as integer codes (:func:`group_codes`) and values snapped
+to a grid of significant digits so that float noise neither creates nor breaks a tie
+(:func:`snap_to_grid`)."""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Hashable
+
+import numpy as np
+
+from .errors import DegenerateDataError
+
+
+def finite_values(x: object, what: str = "values") -> np.ndarray:
+    """``x`` as a 1-D float array; DegenerateDataError when empty or not all finite."""
+    try:
+        a = np.asarray(x, dtype=float)
+    except (TypeError, ValueError) as exc:
+        raise DegenerateDataError(f"the {what} must be numbers ({exc})") from None
+    if a.ndim != 1:
+        a = a.reshape(-1)
+    if a.size == 0:
+        raise DegenerateDataError(f"no {what}")
+    if not math.isfinite(float(np.add.reduce(a))) and not np.isfinite(a).all():
+        bad = int(np.count_nonzero(~np.isfinite(a)))
+        raise DegenerateDataError(f"the {what} must be finite numbers ({bad} are NaN or infinite)")
+    return a
+
+
+def group_codes(labels: object, n: int, what: str = "lot labels") -> tuple[list, np.ndarray]:
+    """Labels in order of first appearance and an integer code per value."""
+    lab = list(labels) if not isinstance(labels, np.ndarray) else labels.tolist()
+    if len(lab) != n:
+        raise ValueError(f"{len(lab)} {what} for {n} values: give one label per value")
+    order: dict[Hashable, int] = {}
+    codes = np.empty(n, dtype=np.intp)
+    for i, key in enumerate(lab):
+        codes[i] = order.setdefault(key, len(order))
+    return list(order), codes
+
+
+RESOLUTION_DIGITS = 12
+
+
+def snap_to_grid(a: np.ndarray, digits: int = RESOLUTION_DIGITS) -> tuple[np.ndarray, float]:
+    """Values as whole multiples of a quantum: ``digits`` significant digits of max |a|.
+
+    Returns the multiples (floats holding whole numbers, below 10^digits in size, which float64
+    holds exactly) and the quantum. Used so that float noise (0.1 + 0.2 versus 0.3) neither
+    creates a distinct value nor breaks a tie. All-zero input gives quantum 1.
+    """
+    scale_ref = float(np.max(np.abs(a))) if a.size else 0.0
+    if scale_ref == 0.0:
+        return np.zeros_like(a, dtype=float), 1.0
+    quantum = 10.0 ** (math.floor(math.log10(scale_ref)) - (digits - 1))
+    if quantum < 1e-290:  # magnitudes near the float floor: leave the values as they are
+        return a.astype(float), 1.0
+    return np.round(a / quantum), quantum
