@@ -24,6 +24,7 @@ from verify.report.recheck_sheet import FIRST_BODY_ROW, Sheet, computed_nothing,
 PKG = Path(__file__).resolve().parents[1] / "verify"
 TOOLKIT = sorted(PKG.glob("report/recheck*.py")) + [PKG / "report" / "formulas.py"]
 HOOKS = sorted(PKG.glob("checks/*/recheck.py"))
+DETAILS = {"extra", "details", "details_mapping"}  # how a result may hold its details
 
 
 def _strings(path: Path) -> set[str]:
@@ -50,12 +51,13 @@ def test_the_toolkit_names_no_check():
 
 @pytest.mark.parametrize("path", TOOLKIT + HOOKS, ids=lambda p: f"{p.parent.name}/{p.name}")
 def test_details_are_read_only_through_the_accessor(path):
-    # `extra` (the untyped details) is read in recheck_sheet.detail and nowhere else, and no
+    # a result's details (`extra`, or the typed `details`) are read in recheck_sheet.detail
+    # and nowhere else, and no
     # module chooses formulas by searching a method's text (`"pitman" in method`)
     tree = ast.parse(path.read_text(encoding="utf-8"))
-    reads = [n for n in ast.walk(tree) if isinstance(n, ast.Attribute) and n.attr == "extra"]
+    reads = [n for n in ast.walk(tree) if isinstance(n, ast.Attribute) and n.attr in DETAILS]
     if path.name == "recheck_sheet.py":
-        assert len(reads) == 1
+        assert reads
     else:
         assert reads == [], path
     for node in ast.walk(tree):
@@ -68,11 +70,18 @@ def test_details_are_read_only_through_the_accessor(path):
                 f"{path.name}: {ast.unparse(node)}")
 
 
+def _details(ch) -> dict:
+    # the result's details as a mapping, whichever way the result stores them
+    if hasattr(ch, "details_mapping"):
+        return ch.details_mapping()
+    return dict(ch.extra or {})
+
+
 def test_detail_reads_a_key_or_its_default():
     ev = make_evaluation("welch")
-    ch = next(c for c in ev.characteristics[0].checks if c.extra)
-    key = next(iter(ch.extra))
-    assert detail(ch, key) == ch.extra[key]
+    ch = next(c for c in ev.characteristics[0].checks if _details(c))
+    for key, value in _details(ch).items():
+        assert detail(ch, key) == value
     assert detail(ch, "no such detail") is None
     assert detail(ch, "no such detail", 7) == 7
 

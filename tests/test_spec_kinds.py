@@ -22,7 +22,7 @@ from helpers_spec import SPECS
 from verify import checks
 from verify.schema import assemble, base_schema, load_schema, schema_text, validate
 from verify.spec import load_spec
-from verify.spec_kind import CheckSpec, check_specs, spec_of
+from verify.spec_kind import CheckSpec, Facts, check_specs, spec_of
 from verify.spec_model import Checks
 
 PACKAGE = Path(__file__).resolve().parents[1] / "verify"
@@ -83,6 +83,9 @@ def test_a_new_kind_adds_its_key_and_definitions():
     schema = assemble(base_schema(), specs)
     assert list(schema["definitions"]["checks"]["properties"])[-1] == "extra_kind"
     assert schema["definitions"]["extra_def"] == _Extra.definitions["extra_def"]
+    # not run by default: the description of checks says so by itself
+    assert "conformance and extra_kind run only when listed" in schema["definitions"][
+        "checks"]["description"]
     import yaml
 
     doc = validate(yaml.compose("checks: {extra_kind: {level: x}}"),
@@ -99,6 +102,18 @@ def test_two_kinds_cannot_define_the_same_definition():
 
     with pytest.raises(ValueError, match="margin"):
         assemble(base_schema(), (*check_specs(), Clash()))
+
+
+def test_default_words_agree_with_runs_by_default():
+    # by_default (words in the schema) and runs_by_default (the loader's logic) say the same
+    full = Facts(target=1.0, limits=(0.0, 2.0))
+    for spec in check_specs():
+        assert spec.runs_by_default(full) == (spec.by_default is not None), spec.name
+    description = load_schema()["definitions"]["checks"]["description"]
+    assert description.endswith(
+        "Left out: target (when a target is given), shift, spread, and capability (when "
+        "limits are given); conformance runs only when listed. A pass-fail characteristic "
+        "runs rate and rate_shift (left out: rate_shift).")
 
 
 def test_schema_defaults_are_the_settings_defaults():

@@ -90,11 +90,46 @@ def assemble(base: dict, specs) -> dict:
         if key == "checks":  # the kinds' definitions follow the checks they serve
             definitions.update(added)
     out["definitions"] = definitions
+    checks["description"] = checks["description"].replace("{check_defaults}",
+                                                          _defaults_words(specs))
     source = out["properties"]["characteristics_from"]
     columns = [c.column for s in specs for c in s.table_columns]
     source["description"] = source["description"].replace(
         "{check_columns}", "".join(f", {c}" for c in columns))
     return out
+
+
+def _defaults_words(specs) -> str:
+    """Which checks run when ``checks:`` is left out, for the description of ``checks``."""
+    measured = [s for s in specs if _measures(s) == "measured"]
+    pass_fail = [s for s in specs if _measures(s) == "pass_fail"]
+    runs = [f"{s.name}{s.by_default}" for s in measured if s.by_default is not None]
+    listed = [s.name for s in measured if s.by_default is None]
+    text = "Left out: " + _series(runs, ", and ")
+    if listed:
+        text += (f"; {' and '.join(listed)} "
+                 f"{'runs' if len(listed) == 1 else 'run'} only when listed")
+    text += "."
+    if pass_fail:
+        left_out = ", ".join(s.name for s in pass_fail if s.by_default is not None)
+        text += (f" A pass-fail characteristic runs {' and '.join(s.name for s in pass_fail)}"
+                 f" (left out: {left_out}).")
+    return text
+
+
+def _measures(spec) -> str:
+    from .checks import kind
+
+    try:
+        return kind(spec.name).measures
+    except KeyError:  # a kind not registered (a test's): measured
+        return "measured"
+
+
+def _series(items: list[str], last: str) -> str:
+    if len(items) <= 2:
+        return " and ".join(items)
+    return ", ".join(items[:-1]) + last + items[-1]
 
 
 @cache

@@ -25,10 +25,6 @@ from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from typing import Any
 
-# measured (numbers) or pass-fail: the ``kind:`` of a characteristic, and the ``measures`` of
-# the check kinds that apply to it (verify.checks.CheckKind.measures)
-MEASURES_OF_KIND = {"measured": "measured", "pass-fail": "pass_fail"}
-
 
 @dataclass(frozen=True)
 class TableColumn:
@@ -148,6 +144,10 @@ class CheckSpec:
         record a plain "off", None to record nothing.
     suggested : bool
         Named where a message lists the checks to choose from.
+    by_default : str or None
+        For the schema's description of ``checks``: when the check runs if ``checks:`` is left
+        out, in words after its name ("" always, " (when limits are given)"); None: only when
+        listed. The words of :meth:`runs_by_default`.
     """
 
     name: str = ""
@@ -157,6 +157,7 @@ class CheckSpec:
     table_columns: tuple[TableColumn, ...] = ()
     off_reason: str | None = ""
     suggested: bool = True
+    by_default: str | None = None
 
     def runs_by_default(self, facts: Facts) -> bool:
         """Whether the check runs when the characteristic leaves ``checks:`` out."""

@@ -84,6 +84,7 @@ class CapabilitySpec(CheckSpec):
     }
     table_columns = (TableColumn("min_cpk", "min_cpk"),)
     off_reason = "no limits"
+    by_default = " (when limits are given)"
 
     def runs_by_default(self, facts: Facts) -> bool:
         return facts.limits is not None and facts.distribution != "any"

@@ -152,6 +152,7 @@ class TargetSpec(CheckSpec):
     definitions = {"margin": MARGIN_SCHEMA}
     table_columns = (TableColumn("target_margin", "margin", percent=True),)
     off_reason = "no target"
+    by_default = " (when a target is given)"
 
     def runs_by_default(self, facts: Facts) -> bool:
         return facts.target is not None
@@ -199,6 +200,7 @@ class ShiftSpec(CheckSpec):
     }
     table_columns = (TableColumn("shift_margin", "margin", percent=True),)
     off_reason = ""
+    by_default = ""
 
     def runs_by_default(self, facts: Facts) -> bool:
         return True

@@ -106,6 +106,7 @@ class RateShiftSpec(CheckSpec):
         },
     }
     off_reason = ""
+    by_default = ""
 
     def runs_by_default(self, facts: Facts) -> bool:
         return True

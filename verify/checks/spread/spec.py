@@ -47,6 +47,7 @@ class SpreadSpec(CheckSpec):
         },
     }
     off_reason = ""
+    by_default = ""
 
     def runs_by_default(self, facts: Facts) -> bool:
         return True
