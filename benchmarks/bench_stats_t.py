@@ -54,7 +54,8 @@ def main() -> None:
         ),
         (
             "sample_size_tost (pooled)",
-            lambda: power.sample_size_tost(0.0, 0.004, design="pooled", low=-0.002, high=0.002),
+            lambda: power.sample_size_tost(0.0, 0.004, design="pooled", low=-0.002, high=0.002,
+                                             power=0.9),
             5,
         ),
     ]

@@ -17,7 +17,7 @@ from hypothesis import strategies as st
 from scipy import special
 from statsmodels.stats.power import TTestIndPower, TTestPower
 
-from verify.stats import power
+from verify.stats import noncentral, power
 from verify.stats.errors import NotApplicableError
 
 FAST = settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
@@ -169,7 +169,7 @@ def test_nct_cdf_is_finite_in_the_far_tails(x, df, nc):
     got = power.nct_cdf(x, df, nc)
     assert math.isfinite(got) and 0.0 <= got <= 1.0
     # a second route: the normal CDF integrated over the distribution of the sample sd
-    assert got == pytest.approx(power._nct_cdf_by_integration(x, df, nc), abs=1e-12)
+    assert got == pytest.approx(noncentral._nct_cdf_by_integration(x, df, nc), abs=1e-12)
 
 
 def test_nct_cdf_agrees_with_scipy_where_scipy_is_finite():
@@ -181,7 +181,7 @@ def test_nct_cdf_agrees_with_scipy_where_scipy_is_finite():
             ref = float(special.nctdtr(df, nc, x))
         if math.isfinite(ref):
             # scipy.special.nctdtr against our integration route
-            assert power._nct_cdf_by_integration(x, df, nc) == pytest.approx(ref, abs=1e-9)
+            assert noncentral._nct_cdf_by_integration(x, df, nc) == pytest.approx(ref, abs=1e-9)
 
 
 def test_power_where_statsmodels_gives_nan():
@@ -190,8 +190,8 @@ def test_power_where_statsmodels_gives_nan():
     ours = power.power_t(1.0, 1.0, 72, design="one-sample", alpha=0.01)
     c = special.stdtrit(71, 0.995)
     nc = math.sqrt(72)
-    upper = 1.0 - power._nct_cdf_by_integration(c, 71, nc)
-    lower = power._nct_cdf_by_integration(-c, 71, nc)
+    upper = 1.0 - noncentral._nct_cdf_by_integration(c, 71, nc)
+    lower = noncentral._nct_cdf_by_integration(-c, 71, nc)
     assert ours == pytest.approx(upper + lower, abs=1e-12)
 
 
@@ -343,11 +343,11 @@ def test_sample_size_noninferiority_is_the_smallest_integer():
 
 def test_impossible_plans_raise_not_applicable():
     with pytest.raises(NotApplicableError, match="margins"):
-        power.sample_size_tost(0.7, 1.0, design="pooled", low=-0.5, high=0.5)
+        power.sample_size_tost(0.7, 1.0, design="pooled", low=-0.5, high=0.5, power=0.9)
     with pytest.raises(NotApplicableError, match="margins"):
-        power.sample_size_tost(0.5, 1.0, design="pooled", low=-0.5, high=0.5)
+        power.sample_size_tost(0.5, 1.0, design="pooled", low=-0.5, high=0.5, power=0.9)
     with pytest.raises(NotApplicableError, match="100000"):
-        power.sample_size_tost(0.0, 1.0, design="pooled", low=-0.001, high=0.001)
+        power.sample_size_tost(0.0, 1.0, design="pooled", low=-0.001, high=0.001, power=0.9)
     with pytest.raises(NotApplicableError, match="100000"):
         power.sample_size_t(0.001, 1.0, design="one-sample")
     with pytest.raises(NotApplicableError, match="zero shift"):
@@ -371,3 +371,17 @@ def test_bad_planning_inputs_raise_value_error():
         power.power_tost(0.0, 1.0, 10, 10, design="pooled", alpha=0.6, low=-1, high=1)
     with pytest.raises(ValueError, match="exceed alpha"):
         power.detectable_shift(1.0, 10, design="one-sample", power=0.01)
+
+
+def test_every_search_shares_one_default_power():
+    """The three sample-size searches and the detectable shift default to one target power
+    (they had drifted apart: 0.9 for TOST, 0.8 for the others); a caller with a planning power
+    of its own passes it."""
+    import inspect
+
+    for fn in (power.sample_size_t, power.sample_size_tost, power.sample_size_noninferiority,
+               power.detectable_shift):
+        assert inspect.signature(fn).parameters["power"].default == power.DEFAULT_POWER == 0.8
+    kw = dict(design="pooled", alpha=0.05, ratio=1.0)
+    assert (power.sample_size_tost(0.0, 1.0, low=-1.0, high=1.0, **kw)
+            == power.sample_size_tost(0.0, 1.0, low=-1.0, high=1.0, power=0.8, **kw))

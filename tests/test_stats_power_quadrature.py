@@ -13,7 +13,7 @@ import warnings
 import numpy as np
 import pytest
 
-from verify.stats import power
+from verify.stats import power, power_of_tests, sample_size
 from verify.stats.errors import StatsError
 
 GRID = [
@@ -63,10 +63,10 @@ def test_gauss_legendre_converged_at_one_degree_of_freedom(monkeypatch):
 
     default = run()
     x, w = np.polynomial.legendre.leggauss(200)
-    monkeypatch.setattr(power, "_GL_X", x)
-    monkeypatch.setattr(power, "_GL_W", w)
-    monkeypatch.setattr(power, "_GL_TAIL_X", x)
-    monkeypatch.setattr(power, "_GL_TAIL_W", w)
+    monkeypatch.setattr(power_of_tests, "_GL_X", x)
+    monkeypatch.setattr(power_of_tests, "_GL_W", w)
+    monkeypatch.setattr(power_of_tests, "_GL_TAIL_X", x)
+    monkeypatch.setattr(power_of_tests, "_GL_TAIL_W", w)
     fine = run()
     assert np.max(np.abs(default - fine)) < 1e-12
 
@@ -75,10 +75,11 @@ def test_many_lot_sizes_in_one_pass_equal_one_at_a_time():
     ns = list(range(2, 60))
     taus, dfs = [], []
     for n in ns:
-        tau, df = power._plan("welch", 0.01, n, n + 3, 0.014)
+        tau, df = power_of_tests._plan("welch", 0.01, n, n + 3, 0.014)
         taus.append(tau)
         dfs.append(df)
-    together = power._tost_power_many(0.003, -0.02, 0.025, np.array(taus), np.array(dfs), 0.05)
+    together = power_of_tests._tost_power_many(0.003, -0.02, 0.025, np.array(taus),
+                                               np.array(dfs), 0.05)
     singly = [power.power_tost(0.003, 0.01, n, n + 3, design="welch", low=-0.02, high=0.025,
                                sd_old=0.014) for n in ns]
     np.testing.assert_allclose(together, singly, rtol=0, atol=1e-15)
@@ -92,7 +93,7 @@ def test_sample_size_with_vectorised_window_equals_stepwise(design, shift, sd, m
               sd_old=sd * 1.3 if design == "welch" else None)
     fast = power.sample_size_tost(shift, sd, **kw)
     # the one-at-a-time route: the exact power with adaptive quadrature, no window
-    orig = power._smallest_n
+    orig = sample_size._smallest_n
 
     def stepwise(power_at, design_, ratio, target, *, approx=None, many=None):
         def adaptive_at(n_new, n_old):
@@ -103,7 +104,7 @@ def test_sample_size_with_vectorised_window_equals_stepwise(design, shift, sd, m
 
         return orig(adaptive_at, design_, ratio, target, approx=approx)
 
-    monkeypatch.setattr(power, "_smallest_n", stepwise)
+    monkeypatch.setattr(sample_size, "_smallest_n", stepwise)
     slow = power.sample_size_tost(shift, sd, **kw)
     assert (fast.n_new, fast.n_old) == (slow.n_new, slow.n_old)
     assert fast.power == pytest.approx(slow.power, abs=1e-12)
