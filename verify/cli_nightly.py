@@ -9,6 +9,7 @@ import sys
 import textwrap
 from collections.abc import Sequence
 
+from .cli_run import parsed_number
 from .errors import VerifyError
 
 EXAMPLE = """\
@@ -87,10 +88,7 @@ def add_nightly_arguments(parser: argparse.ArgumentParser) -> argparse.ArgumentP
 
 
 def _positive_int(text: str) -> int:
-    try:
-        n = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
+    n = parsed_number(text, int, "a whole number")
     if n < 1:
         raise argparse.ArgumentTypeError(f"must be at least 1, got {n}")
     return n
@@ -104,10 +102,7 @@ def _positive_float(text: str) -> float:
 
 
 def _non_negative_float(text: str) -> float:
-    try:
-        x = float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"expected a number of seconds, got {text!r}") from None
+    x = parsed_number(text, float, "a number of seconds")
     if not 0 <= x < 1e9:
         raise argparse.ArgumentTypeError(f"must be 0 or more, got {text!r}")
     return x

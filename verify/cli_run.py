@@ -66,11 +66,17 @@ def add_max_data_mb(p: argparse.ArgumentParser) -> None:
                         f"{DEFAULT_MAX_DATA_MB:g}); an .xlsx may expand to 8 times this")
 
 
-def _positive_mb(text: str) -> float:
+def parsed_number(text: str, convert, expected: str):
+    """``convert(text)`` for an argparse ``type``; "expected <expected>, got '<text>'" when it
+    is not one (the range checks stay with each option)."""
     try:
-        x = float(text)
+        return convert(text)
     except ValueError:
-        raise argparse.ArgumentTypeError(f"expected a number of megabytes, got {text!r}") from None
+        raise argparse.ArgumentTypeError(f"expected {expected}, got {text!r}") from None
+
+
+def _positive_mb(text: str) -> float:
+    x = parsed_number(text, float, "a number of megabytes")
     if not (x > 0 and x < 1e7):
         raise argparse.ArgumentTypeError(f"must be a number of megabytes above 0, got {text!r}")
     return x

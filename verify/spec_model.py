@@ -8,6 +8,7 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 from dataclasses import dataclass, field, fields, make_dataclass
+from functools import cache
 from pathlib import Path
 
 SIDES = ("two-sided", "lower", "upper")
@@ -63,6 +64,7 @@ class _ChecksBase:
         return tuple(f.name for f in fields(cls))
 
 
+@cache
 def _checks_class() -> type:
     """One field per registered kind (None: the check does not run), in registry order."""
     from .checks import names
@@ -79,9 +81,6 @@ def _checks_class() -> type:
     return cls
 
 
-Checks = _checks_class()
-
-
 @dataclass(frozen=True)
 class Characteristic:
     name: str
@@ -91,7 +90,7 @@ class Characteristic:
     target: float | None
     limits: tuple[float | None, float | None] | None
     side: str  # two-sided | lower | upper: which departure is harmful
-    checks: Checks
+    checks: _ChecksBase  # a Checks: one field per kind of check (see Checks)
     line: int | None = None  # line in the spec, for messages
     # normal | lognormal | weibull | box-cox | any: the model of the new parts behind
     # capability and conformance (the location and spread tests stay as they are)
@@ -256,6 +255,10 @@ class Spec:
 def __getattr__(name: str) -> object:
     """The kinds' spec dataclasses (``Margin``, ``ShiftCheck``, ...) live in their ``spec``
     hooks (``verify.checks.<package>.spec``); they stay importable from here."""
+    if name == "Checks":
+        # built on first use, not when this module loads: the registry's discovery imports
+        # the kind packages, and one of them importing this module must not meet a half-made one
+        return _checks_class()
     from .checks import kinds
 
     for k in kinds():

@@ -7,9 +7,9 @@ from collections.abc import Hashable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import special
 
-from .errors import DegenerateDataError, NotApplicableError
+from .errors import NotApplicableError
+from .one_way import one_way
 from .samples import finite_values, group_codes
 
 
@@ -80,41 +80,26 @@ def lot_effect(values: Sequence[float] | np.ndarray, lots: Sequence[Hashable]) -
     a = finite_values(values)
     labels, codes = group_codes(lots, a.size)
     k = len(labels)
-    n_total = a.size
     if k < 2:
         raise NotApplicableError(f"a lot effect needs at least 2 lots, got {k}")
     sizes = np.bincount(codes, minlength=k)
     if not np.any(sizes >= 2):
         raise NotApplicableError("no lot has 2 or more values, so within-lot variation is unknown")
-    grand = float(np.mean(a))
-    sums = np.bincount(codes, weights=a - grand, minlength=k)
-    means_c = sums / sizes  # lot means, centred on the grand mean for accuracy
-    resid = a - grand - means_c[codes]
-    ss_within = float(np.dot(resid, resid))
-    ss_between = float(np.dot(sizes, means_c**2))
-    df_b, df_w = k - 1, n_total - k
-    if not ss_within > 0.0:
-        raise DegenerateDataError(
-            "no variation within any lot (every lot's values are identical), so the lot effect "
-            "cannot be tested"
-        )
-    msb, msw = ss_between / df_b, ss_within / df_w
-    f = msb / msw
-    n0 = (n_total - float(np.dot(sizes, sizes)) / n_total) / df_b
+    ow = one_way(a, codes, sizes, refused="lot effect cannot be tested")
+    msb, msw, n0 = ow.ms_between, ow.ms_within, ow.n0
     icc = max(0.0, (msb - msw) / (msb + (n0 - 1.0) * msw))
-    p = float(special.fdtrc(df_b, df_w, f))
     return LotEffectResult(
         method="one-way ANOVA across lots",
-        statistic=float(f),
-        df_between=int(df_b),
-        df_within=int(df_w),
-        pvalue=min(1.0, max(0.0, p)),
+        statistic=float(ow.statistic),
+        df_between=int(ow.df_between),
+        df_within=int(ow.df_within),
+        pvalue=ow.pvalue,
         n_lots=int(k),
         icc=float(icc),
         var_between=float(max(0.0, (msb - msw) / n0)),
         var_within=float(msw),
         n0=float(n0),
         lot_labels=tuple(labels),
-        lot_means=tuple(float(grand + v) for v in means_c),
+        lot_means=tuple(float(ow.grand + v) for v in ow.means_centred),
         lot_sizes=tuple(int(v) for v in sizes),
     )

@@ -65,12 +65,7 @@ def d3(n: int) -> float:
     >>> d3(5)
     0.864
     """
-    n = int(n)
-    if n < 2:
-        raise NotApplicableError(f"a range needs at least 2 values, not {n}")
-    if n in D3_TABLE:
-        return D3_TABLE[n]
-    return range_sd(n)
+    return _tabled_or_integrated(n, D3_TABLE, range_sd)
 
 
 @lru_cache(maxsize=256)
@@ -99,9 +94,15 @@ def d2(n: int) -> float:
     >>> d2(5)
     2.326
     """
+    return _tabled_or_integrated(n, D2_TABLE, expected_range)
+
+
+def _tabled_or_integrated(n: int, table: dict[int, float], integrated) -> float:
+    """The tabled constant for ``n`` (the value a reader finds in the printed table), else the
+    integrated one."""
     n = int(n)
     if n < 2:
         raise NotApplicableError(f"a range needs at least 2 values, not {n}")
-    if n in D2_TABLE:
-        return D2_TABLE[n]
-    return expected_range(n)
+    if n in table:
+        return table[n]
+    return integrated(n)

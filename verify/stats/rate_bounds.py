@@ -28,6 +28,18 @@ def _counts(failures: int, inspected: int, what: str = "") -> tuple[int, int]:
     return x, n
 
 
+def _two_counts(failures_new: int, inspected_new: int, failures_old: int, inspected_old: int,
+                ) -> tuple[int, int, int, int]:
+    """Both processes' counts checked (:func:`_counts`); DegenerateDataError when a process has
+    no part inspected."""
+    x1, n1 = _counts(failures_new, inspected_new, "new")
+    x2, n2 = _counts(failures_old, inspected_old, "old")
+    if n1 == 0 or n2 == 0:
+        raise DegenerateDataError("no parts inspected in " + ("the new" if n1 == 0 else
+                                                               "the old") + " process")
+    return x1, n1, x2, n2
+
+
 def _z(level: float) -> float:
     """The standard normal quantile for a two-sided interval at ``level``."""
     return float(special.ndtri(0.5 + level / 2.0))

@@ -13,8 +13,7 @@ import math
 from dataclasses import dataclass
 
 from ._checks import check_level
-from .errors import DegenerateDataError
-from .rate_bounds import _counts, _z, wilson
+from .rate_bounds import _two_counts, _z, wilson
 
 METHODS = ("newcombe", "score")
 
@@ -59,11 +58,7 @@ def newcombe(failures_new: int, inspected_new: int, failures_old: int, inspected
     >>> round(r.low, 4), round(r.high, 4)
     (0.0524, 0.3339)
     """
-    x1, n1 = _counts(failures_new, inspected_new, "new")
-    x2, n2 = _counts(failures_old, inspected_old, "old")
-    if n1 == 0 or n2 == 0:
-        raise DegenerateDataError("no parts inspected in " + ("the new" if n1 == 0 else
-                                                               "the old") + " process")
+    x1, n1, x2, n2 = _two_counts(failures_new, inspected_new, failures_old, inspected_old)
     p1, p2 = x1 / n1, x2 / n2
     l1, u1 = wilson(x1, n1, level=level)
     l2, u2 = wilson(x2, n2, level=level)
@@ -125,11 +120,7 @@ def miettinen_nurminen(failures_new: int, inspected_new: int, failures_old: int,
     >>> round(r.low, 4), round(r.high, 4)
     (0.0528, 0.3382)
     """
-    x1, n1 = _counts(failures_new, inspected_new, "new")
-    x2, n2 = _counts(failures_old, inspected_old, "old")
-    if n1 == 0 or n2 == 0:
-        raise DegenerateDataError("no parts inspected in " + ("the new" if n1 == 0 else
-                                                               "the old") + " process")
+    x1, n1, x2, n2 = _two_counts(failures_new, inspected_new, failures_old, inspected_old)
     check_level(level)
     z = _z(level)
     d = x1 / n1 - x2 / n2

@@ -9,7 +9,7 @@ import numpy as np
 from scipy import special
 
 from .errors import DegenerateDataError, NotApplicableError
-from .rate_bounds import _counts
+from .rate_bounds import _two_counts
 
 BOSCHLOO_MAX_CELLS = 25_000_000  # n_new * n_old above which Boschloo's test is refused
 TESTS = ("fisher", "boschloo")
@@ -43,11 +43,7 @@ def higher_rate_test(failures_new: int, inspected_new: int, failures_old: int,
     hypergeometric (scipy.stats.hypergeom). ``boschloo``: Boschloo's unconditional test
     (scipy.stats.boschloo_exact), never less powerful than Fisher's.
     """
-    x1, n1 = _counts(failures_new, inspected_new, "new")
-    x2, n2 = _counts(failures_old, inspected_old, "old")
-    if n1 == 0 or n2 == 0:
-        raise DegenerateDataError("no parts inspected in " + ("the new" if n1 == 0 else
-                                                               "the old") + " process")
+    x1, n1, x2, n2 = _two_counts(failures_new, inspected_new, failures_old, inspected_old)
     if test not in TESTS:
         raise ValueError(f"test must be one of {TESTS}, not {test!r}")
     from scipy import stats  # heavy: only where a test runs

@@ -27,10 +27,10 @@ from collections.abc import Hashable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import special
 
 from .core import Interval, check_alternative
 from .errors import DegenerateDataError, NotApplicableError
+from .one_way import one_way
 from .samples import finite_values, group_codes
 from .spread import f_test_from_stats
 
@@ -126,30 +126,16 @@ def variance_components(values: ArrayLike, lots: Sequence[Hashable]) -> Variance
             f"({k} lot(s), {int(np.count_nonzero(sizes >= 2))} with 2 or more parts)"
         )
     n_total = a.size
-    grand = float(np.mean(a))
-    centred = a - grand  # centring first keeps the sums of squares accurate
-    means_c = np.bincount(codes, weights=centred, minlength=k) / sizes
-    resid = centred - means_c[codes]
-    ss_within = float(np.dot(resid, resid))
-    ss_between = float(np.dot(sizes, means_c**2))
-    df_b, df_w = k - 1, n_total - k
-    if not ss_within > 0.0:
-        raise DegenerateDataError(
-            "no variation within any lot (every lot's values are identical), so the within-lot "
-            "variance cannot be estimated"
-        )
-    msb, msw = ss_between / df_b, ss_within / df_w
-    n0 = (n_total - float(np.dot(sizes, sizes)) / n_total) / df_b
+    ow = one_way(a, codes, sizes, refused="within-lot variance cannot be estimated")
+    msb, msw, n0 = ow.ms_between, ow.ms_within, ow.n0
     raw = (msb - msw) / n0
-    f = msb / msw
-    p = float(special.fdtrc(df_b, df_w, f))
     return VarianceComponentsResult(
         method="one-way random-effects ANOVA (method of moments, n0 for unequal lots)",
         n=int(n_total),
         n_lots=int(k),
         lot_sizes=tuple(int(v) for v in sizes),
-        df_between=int(df_b),
-        df_within=int(df_w),
+        df_between=int(ow.df_between),
+        df_within=int(ow.df_within),
         ms_between=float(msb),
         ms_within=float(msw),
         n0=float(n0),
@@ -157,8 +143,8 @@ def variance_components(values: ArrayLike, lots: Sequence[Hashable]) -> Variance
         var_between=float(max(0.0, raw)),
         var_between_raw=float(raw),
         truncated=bool(raw < 0.0),
-        statistic=float(f),
-        pvalue=min(1.0, max(0.0, p)),
+        statistic=float(ow.statistic),
+        pvalue=ow.pvalue,
     )
 
 
