@@ -139,7 +139,7 @@ def plan_spec(ctx: SpecPlanning, kinds: tuple[CheckKind, ...]) -> PlanPart | Non
         A rate_shift check without an old rate to plan from, or without a margin and without
         an increase to detect; all problems together, each naming the characteristic.
     """
-    from ...evaluate_pass_fail import process_counts
+    from ...pass_fail_counts import process_counts
 
     spec, meas, opts, power = ctx.spec, ctx.measurements, ctx.options, ctx.power
     allowed_failures, rate_old, rate_detect = (opts.allowed_failures, opts.rate_old,
