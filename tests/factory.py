@@ -48,6 +48,8 @@ import numpy as np
 import pandas as pd
 from scipy import stats
 
+from verify.checks.capability.result import CapabilityDetails
+from verify.checks.spread.result import TwoSampleSpreadDetails
 from verify.model import (
     DECISION_ORDER,
     MEASUREMENT_COLUMNS,
@@ -438,7 +440,7 @@ def _spread_check(xo, xn, alpha) -> CheckResult:
         ci_high=hi,
         ci_level=0.95,
         critical_value=float(stats.f.ppf(1 - alpha, d1, d2)),
-        extra={"df_denominator": float(d2), "variance_ratio": f},
+        details=TwoSampleSpreadDetails(df_num=float(d1), df_den=float(d2), F=f),
     )
 
 
@@ -474,7 +476,12 @@ def _capability_check(x, limits, min_cpk) -> CheckResult:
         ci_high=math.inf,
         ci_level=0.95,
         critical_value=min_cpk,
-        extra={"sigma_within": sigma, "mean": mean, "n": n},
+        details=CapabilityDetails(
+            cp=None, cpk=cpk, cpl=None, cpu=None, pp=None, ppk=None, cpm=None,
+            sigma_within=sigma, sigma_overall=float(np.std(x, ddof=1)),
+            sigma_method="moving ranges", mean=mean, n=n, min_cpk=min_cpk, cpk_lower_95=lower,
+            index="cpk", judge="estimate", min=min_cpk, confidence=0.95, lower_bound=lower,
+            bound_df=None),
     )
 
 

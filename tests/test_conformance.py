@@ -54,9 +54,9 @@ def test_two_sided_pass_and_the_limits_in_json(tmp_path):
     ev, k = _run(_spec(tmp_path, new))
     m, s = float(np.mean(new)), float(np.std(new, ddof=1))
     assert k.check == "conformance" and k.outcome == "PASS"
-    assert k.extra["k"] == pytest.approx(3.354576, rel=1e-6)  # reference file, n 30, 99/95
-    assert k.ci_low == pytest.approx(m - k.extra["k"] * s, rel=1e-12)
-    assert k.ci_high == pytest.approx(m + k.extra["k"] * s, rel=1e-12)
+    assert k.details.k == pytest.approx(3.354576, rel=1e-6)  # reference file, n 30, 99/95
+    assert k.ci_low == pytest.approx(m - k.details.k * s, rel=1e-12)
+    assert k.ci_high == pytest.approx(m + k.details.k * s, rel=1e-12)
     j = next(c for c in result_dict(ev)["characteristics"][0]["checks"]
              if c["check"] == "conformance")
     for key in ("ci_low", "ci_high", "coverage", "confidence", "k", "method", "outcome",
@@ -80,7 +80,7 @@ def test_one_limit_gives_a_one_sided_bound_with_the_noncentral_t_factor(tmp_path
     assert spec.characteristics[0].checks.conformance.side == "upper"
     ev, k = _run(spec)
     want = stats.nct.ppf(0.95, 24, stats.norm.ppf(0.99) * 5.0) / 5.0  # n 25: sqrt 5
-    assert k.extra["k"] == pytest.approx(want, rel=1e-9)
+    assert k.details.k == pytest.approx(want, rel=1e-9)
     assert k.ci_low is None
     assert k.ci_high == pytest.approx(np.mean(new) + want * np.std(new, ddof=1), rel=1e-12)
     j = result_dict(ev)["characteristics"][0]["checks"][0]
@@ -91,7 +91,7 @@ def test_side_key_picks_one_limit_of_two(tmp_path):
     new = _values(25, 9.5, 0.2, 4)  # close to the lower limit only
     ev, k = _run(_spec(tmp_path, new, conformance="{side: upper, coverage: 0.9}"))
     assert k.ci_low is None and k.outcome == "PASS"
-    assert k.extra["coverage"] == 0.9 and k.extra["coverage_confidence"] == 0.95
+    assert k.details.coverage == 0.9 and k.details.coverage_confidence == 0.95
 
 
 def test_zero_bounded_upper_limit_without_a_fake_lower_limit(tmp_path):
@@ -141,7 +141,7 @@ def test_recheck_rows_rebuild_the_limits(tmp_path):
     ev, k = _run(_spec(tmp_path, new))
     rows = recheck_rows(ev, measurement_layout(ev))
     labels = {r[0]: r for r in rows if r}
-    assert labels["tolerance factor k"][1] == pytest.approx(k.extra["k"])
+    assert labels["tolerance factor k"][1] == pytest.approx(k.details.k)
     assert "Odeh/Owen" in labels["tolerance factor k"][5]
     assert labels["lower tolerance limit"][2] == pytest.approx(k.ci_low)
     assert labels["upper tolerance limit"][1].startswith("=")

@@ -8,11 +8,15 @@ reject).
 import pytest
 
 from verify import decide
+from verify.checks.capability import rule as capability_rule
+from verify.checks.conformance import rule as conformance_rule
+from verify.checks.location import rule as location_rule
+from verify.checks.spread import rule as spread_rule
 
 ALPHA = 0.05
 
 
-@pytest.mark.parametrize("rule", [decide.TARGET_MARGIN, decide.SHIFT_MARGIN])
+@pytest.mark.parametrize("rule", [location_rule.TARGET_MARGIN, location_rule.SHIFT_MARGIN])
 @pytest.mark.parametrize("side", ["two-sided", "lower", "upper"])
 @pytest.mark.parametrize(
     "p, expected",
@@ -28,15 +32,15 @@ def test_margin_rule_passes_only_below_alpha(rule, side, p, expected):
 
 
 def test_margin_rule_words_name_the_margin_and_side():
-    v = decide.TARGET_MARGIN.decide(pvalue=0.2, alpha=ALPHA, low=-0.02, high=0.02,
+    v = location_rule.TARGET_MARGIN.decide(pvalue=0.2, alpha=ALPHA, low=-0.02, high=0.02,
                                     ci=(-0.01, 0.03), unit="mm", side="two-sided")
     assert v.reason.startswith("not shown within ±0.02 mm of target (90% interval -0.01..0.03")
-    v = decide.SHIFT_MARGIN.decide(pvalue=0.2, alpha=ALPHA, low=-1.0, high=2.0,
+    v = location_rule.SHIFT_MARGIN.decide(pvalue=0.2, alpha=ALPHA, low=-1.0, high=2.0,
                                    ci=(-0.5, 2.5), unit="N", side="lower")
     assert v.reason.startswith("not shown to be at most 1 N below the old process")
 
 
-@pytest.mark.parametrize("rule", [decide.TARGET_DIFFERENCE, decide.SHIFT_DIFFERENCE])
+@pytest.mark.parametrize("rule", [location_rule.TARGET_DIFFERENCE, location_rule.SHIFT_DIFFERENCE])
 @pytest.mark.parametrize("p, expected", [(0.0001, "HOLD"), (0.0499, "HOLD"), (ALPHA, "PASS"),
                                          (0.051, "PASS"), (0.9, "PASS")])
 def test_difference_rule_holds_only_below_alpha(rule, p, expected):
@@ -50,14 +54,14 @@ def test_difference_rule_holds_only_below_alpha(rule, p, expected):
 
 
 def test_difference_rule_says_when_p_was_adjusted():
-    v = decide.SHIFT_DIFFERENCE.decide(pvalue=0.2, alpha=ALPHA, estimate=0.3, unit="",
+    v = location_rule.SHIFT_DIFFERENCE.decide(pvalue=0.2, alpha=ALPHA, estimate=0.3, unit="",
                                        detectable=None, adjusted=True)
     assert "adjusted p = 0.2000" in v.reason
 
 
 @pytest.mark.parametrize("p, expected", [(0.01, "HOLD"), (ALPHA, "PASS"), (0.3, "PASS")])
 def test_spread_rule(p, expected):
-    v = decide.SPREAD.decide(pvalue=p, alpha=ALPHA, ratio=1.4, ci=(1.05, 1.9), level=0.9,
+    v = spread_rule.SPREAD.decide(pvalue=p, alpha=ALPHA, ratio=1.4, ci=(1.05, 1.9), level=0.9,
                              method="F-test")
     assert v.outcome == expected
     assert "sd ratio new/old 1.4, 90% interval 1.05..1.9" in v.reason
@@ -66,7 +70,7 @@ def test_spread_rule(p, expected):
 @pytest.mark.parametrize("cpk, expected", [(1.2, "HOLD"), (1.3299, "HOLD"), (1.33, "PASS"),
                                            (2.0, "PASS")])
 def test_capability_rule_at_the_border(cpk, expected):
-    v = decide.CAPABILITY.decide(cpk=cpk, lower_bound=1.1, min_cpk=1.33)
+    v = capability_rule.CAPABILITY.decide(cpk=cpk, lower_bound=1.1, min_cpk=1.33)
     assert v.outcome == expected
     assert "lower 95% bound 1.1" in v.reason
 
@@ -104,12 +108,12 @@ def test_combination(outcomes, expected):
 
 def test_rules_in_words_come_from_the_rule_objects():
     words = decide.rules_in_words(0.05, "holm")
-    assert words[0] == decide.TARGET_MARGIN.describe(0.05)
+    assert words[0] == location_rule.TARGET_MARGIN.describe(0.05)
     assert any("Holm" in w for w in words)
     assert any("intersection-union" in w for w in words)
     assert "alpha = 0.05" in words[0]
     assert len(words) == 11
-    assert decide.CONFORMANCE.describe(0.05) in words
+    assert conformance_rule.CONFORMANCE.describe(0.05) in words
 
 
 def test_caution_names_the_sign_off():
@@ -130,7 +134,7 @@ def test_caution_names_the_sign_off():
     ],
 )
 def test_conformance_rule_decision_table(low, high, lower, upper, outcome, words):
-    v = decide.CONFORMANCE.decide(low=low, high=high, lower=lower, upper=upper,
+    v = conformance_rule.CONFORMANCE.decide(low=low, high=high, lower=lower, upper=upper,
                                   coverage=0.99, confidence=0.95, k=3.0, unit="mm")
     assert v.outcome == outcome and words in v.reason
     assert "99% of parts with 95% confidence" in v.reason

@@ -55,12 +55,12 @@ def test_zero_bounded_lognormal_capability_by_the_percentile_method(tmp_path):
     xm = stats.lognorm.ppf(0.5, s, 0, scale)
     xh = stats.lognorm.ppf(0.99865, s, 0, scale)
     assert cap.estimate == pytest.approx((0.1 - xm) / (xh - xm), rel=1e-5)
-    assert cap.extra["ppl"] is None  # no lower limit, and none invented
-    assert cap.extra["expected_ppm_above"] == pytest.approx(
+    assert cap.details.ppl is None  # no lower limit, and none invented
+    assert cap.details.expected_ppm_above == pytest.approx(
         1e6 * stats.lognorm.sf(0.1, s, 0, scale), rel=1e-4)
     assert "percentile" in cap.method
     conf = k["conformance"]
-    assert conf.ci_low is None and conf.extra["side"] == "upper"
+    assert conf.ci_low is None and conf.details.side == "upper"
     logs = np.log(new)
     k1 = stats.nct.ppf(0.95, 49, stats.norm.ppf(0.99) * math.sqrt(50)) / math.sqrt(50)
     assert conf.ci_high == pytest.approx(math.exp(logs.mean() + k1 * logs.std(ddof=1)),
@@ -88,7 +88,7 @@ def test_weibull_and_box_cox_run(tmp_path):
     for name in ("weibull", "box-cox"):
         ev, k = _eval(_spec(tmp_path, new, distribution=name,
                             checks=["capability: {min: 1.0}", "conformance: {}"]))
-        assert k["capability"].extra["distribution"] == name
+        assert k["capability"].details.distribution == name
         assert k["conformance"].outcome in ("PASS", "HOLD")
         assert k["conformance"].ci_high is not None
 
@@ -104,7 +104,7 @@ def test_any_uses_order_statistics_and_waits_for_enough_parts(tmp_path):
     enough = _skewed(59, 6)
     ev, k = _eval(_spec(tmp_path, enough, distribution="any", checks=[conf]))
     assert k["conformance"].ci_high == pytest.approx(enough.max())
-    assert k["conformance"].outcome == "PASS" and k["conformance"].extra["n_required"] == 59
+    assert k["conformance"].outcome == "PASS" and k["conformance"].details.n_required == 59
 
 
 def test_any_leaves_capability_out_by_default(tmp_path):

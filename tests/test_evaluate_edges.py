@@ -68,7 +68,7 @@ def test_unit_lot_with_a_pair_column_defaults_to_welch_on_lot_means(tmp_path):
     assert spec.characteristics[0].checks.shift.design == "welch"
     ev = evaluate(spec, load_measurements(spec))
     k = _check(ev)
-    assert k.extra["n_new"] == 6 and k.extra["n_old"] == 6  # lot means, not parts
+    assert k.details.n_new == 6 and k.details.n_old == 6  # lot means, not parts
 
 
 def test_detect_on_the_harmful_lower_side_gives_power_and_planned_n(tmp_path):
@@ -151,7 +151,7 @@ def test_multiplicity_figures_use_the_adjusted_level(tmp_path):
     k = _check(ev, "a")
     assert k.ci_level == pytest.approx(1 - 0.05 / 2)
     assert k.p_adjusted == pytest.approx(min(1.0, 2 * k.p_value), rel=1e-12)
-    sds = {"sd": k.extra["sd"]}
+    sds = {"sd": k.details.sd}
     unadjusted = power.detectable_shift(n_new=30, n_old=30, design="welch", alpha=0.05, **sds)
     assert k.detectable_shift > unadjusted
 

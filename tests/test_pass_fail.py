@@ -20,6 +20,7 @@ import pytest
 from scipy import stats
 
 from verify import decide
+from verify.checks.rates import rule as rates_rule
 from verify.data import load_measurements
 from verify.errors import DataError, SpecError
 from verify.evaluate import evaluate
@@ -251,10 +252,10 @@ def test_rules_in_words_include_the_rate_rules():
     assert len(words) == len(decide.rules_in_words(0.05, "holm")) + 2
     assert any(w.startswith("Rate (pass-fail)") for w in words)
     assert any(w.startswith("Rate shift (pass-fail)") for w in words)
-    v = decide.RATE.decide(failures=0, inspected=59, upper=0.0495, max_rate=0.05,
+    v = rates_rule.RATE.decide(failures=0, inspected=59, upper=0.0495, max_rate=0.05,
                            confidence=0.95)
     assert v.outcome == "PASS"
-    assert decide.RATE.decide(failures=0, inspected=58, upper=0.0503, max_rate=0.05,
+    assert rates_rule.RATE.decide(failures=0, inspected=58, upper=0.0503, max_rate=0.05,
                               confidence=0.95).outcome == "HOLD"
 
 

@@ -34,7 +34,7 @@ def test_worked_sample_matches_a_fresh_run():
     expect = {
         "matched pairs n": c.pairs,
         "mean difference d (new - old)": shift.estimate,
-        "sd of the differences": shift.extra["sd"],
+        "sd of the differences": shift.details.sd,
         "standard error sd / sqrt(n)": shift.standard_error,
         "degrees of freedom n - 1": shift.df,
         't for H0 "shift <= -1": (d + 1) / se': shift.statistic,

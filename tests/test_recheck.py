@@ -261,7 +261,7 @@ def test_engine_column_holds_the_check_results_numbers(design):
             assert engine["p (F-test, greater)"] == ch.p_value
         else:
             assert engine["Cpk (within sigma)"] == ch.estimate
-            assert engine["within sigma"] == ch.extra["sigma_within"]
+            assert engine["within sigma"] == ch.details.sigma_within
 
 
 def test_margin_rows_hold_the_margin_as_values_and_tost_uses_both_one_sided_tests():

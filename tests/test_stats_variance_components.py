@@ -182,7 +182,7 @@ def test_lot_unit_spread_uses_within_lot_variances_and_reports_components(tmp_pa
     c = ev.characteristic("x")
     sp = next(r for r in c.checks if r.check == "spread")
     assert sp.method == "F-test on pooled within-lot variances"
-    assert (sp.extra["df_num"], sp.extra["df_den"]) == (8, 192)
+    assert (sp.details.df_num, sp.details.df_den) == (8, 192)
     assert "between-lot sd ratio" in sp.reason and "within-lot sd ratio" in sp.reason
     # the location checks stay on lot means: n counts lots
     assert c.processes["old"].n == 8 and c.processes["new"].n == 8

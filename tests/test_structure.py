@@ -195,7 +195,7 @@ def test_brown_forsythe_estimate_and_interval_belong_to_its_test(tmp_path):
     # decision and interval never contradict: HOLD exactly when the lower end is above 0
     assert (sp.outcome == "HOLD") == (sp.ci_low > 0)
     assert "mean absolute deviation new - old" in sp.reason and "descriptive" in sp.reason
-    assert sp.extra["sd_ratio_descriptive"] == pytest.approx(np.std(new, ddof=1)
+    assert sp.details.sd_ratio_descriptive == pytest.approx(np.std(new, ddof=1)
                                                              / np.std(old, ddof=1))
 
 
@@ -217,7 +217,7 @@ def test_capability_criterion_keys(tmp_path, cfg, index, judge, minimum):
     ev = _run(tmp_path, _cap_rows(), "characteristics:\n  - name: x\n    unit: mm\n"
               f"    limits: [9.55, 10.45]\n    checks:\n      capability: {cfg}\n")
     cap = _check(ev, "x", "capability")
-    e = cap.extra
+    e = cap.details_mapping()
     assert (e["index"], e["judge"], e["min"]) == (index, judge, minimum)
     value = e["cpk"] if index == "cpk" else e["ppk"]
     assert cap.estimate == value
@@ -239,11 +239,11 @@ def test_lower_bound_judgement_can_hold_what_the_estimate_passes(tmp_path):
             "    checks:\n      capability: CFG\n")
     rows = _cap_rows(seed=1, n=30, sd=0.09)
     probe = _check(_run(tmp_path, rows, body.replace("CFG", "{min: 0.5}")), "x", "capability")
-    minimum = round((probe.estimate + probe.extra["lower_bound"]) / 2, 3)  # between the two
+    minimum = round((probe.estimate + probe.details.lower_bound) / 2, 3)  # between the two
     est = _run(tmp_path, rows, body.replace("CFG", f"{{min: {minimum}}}"))
     lb = _run(tmp_path, rows, body.replace("CFG", f"{{min: {minimum}, judge: lower_bound}}"))
     c_est, c_lb = _check(est, "x", "capability"), _check(lb, "x", "capability")
-    assert c_est.estimate >= minimum > c_lb.extra["lower_bound"]
+    assert c_est.estimate >= minimum > c_lb.details.lower_bound
     assert c_est.outcome == "PASS" and c_lb.outcome == "HOLD"
     assert "lower 95% bound" in c_lb.reason
 

@@ -201,7 +201,8 @@ def test_summary_has_a_column_per_check_kind(all_book):
                 assert f"{k.estimate:.3f}" in cell.value and f"{k.ci_low:.3f}" in cell.value
             if k.check == "capability":
                 assert f"{k.estimate:.2f}" in cell.value
-                assert f"{k.extra.get('min_cpk', k.critical_value):.2f}" in cell.value
+                minimum = k.details.min if k.details is not None else k.critical_value
+                assert f"{minimum:.2f}" in cell.value
         assert ws.cell(rows[c.name], cols["Decision"]).value == c.decision
     # sortable: an autofilter over exactly the table; its header repeats on every printed page
     assert ws.auto_filter.ref == f"A{head}:{get_column_letter(len(cols))}{head + len(rows)}"

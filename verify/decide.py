@@ -5,6 +5,12 @@ the JSON and the audit trail) and a ``decide(...)`` method (the logic). Both liv
 in one class, so the text and the logic cannot drift apart. Nothing here computes a statistic;
 the rules only compare results with alpha, margins and limits.
 
+Each kind of check keeps its own rule in its ``rule`` hook (``verify/checks/<package>/rule.py``:
+``rules(kind)`` for the sentences, ``review(kind, result, spec)`` for review notes); this module
+holds what every kind shares: :class:`Verdict`, the number formats of the sentences, the
+sufficiency, multiplicity, diagnostics and combination rules, and :func:`rules_in_words`, which
+loops over the registry.
+
 Outcomes are combined by :func:`combine`: HOLD if any part is HOLD, else PENDING if any part is
 PENDING, else PASS.
 """
@@ -91,203 +97,8 @@ class Verdict:
     reason: str
 
 
-# --- the rules ------------------------------------------------------------------------------
-
-
-class MarginRule:
-    """Target or shift with a margin: equivalence (or non-inferiority) must be shown."""
-
-    def __init__(self, check: str):
-        self.check = check
-        self.key = f"{check}-margin"
-        self.subject = (
-            "the new-process mean minus the target" if check == "target" else
-            "the new-process mean minus the old-process mean"
-        )
-
-    def describe(self, alpha: float) -> str:
-        what = "target" if self.check == "target" else "shift"
-        return (
-            f"{what.capitalize()} with a margin: PASS when the two one-sided tests (TOST) show "
-            f"{self.subject} inside the margin, both one-sided p-values below alpha = {alpha} "
-            f"(equivalently, the {fmt(100 * (1 - 2 * alpha))}% interval lies inside the margin); "
-            "where the spec declares only one side harmful (side: lower or upper), only that "
-            "side's one-sided test must pass (non-inferiority). Otherwise HOLD."
-        )
-
-    def decide(self, *, pvalue: float, alpha: float, low: float, high: float,
-               ci: tuple[float, float], unit: str, side: str) -> Verdict:
-        level = fmt(100 * (1 - 2 * alpha))
-        ref = "target" if self.check == "target" else "the old process"
-        lo, hi = fmt_like(ci[0], ci[1])
-        detail = f"({level}% interval {lo}..{hi}, {p_eq(pvalue)})"
-        u = f" {unit}" if unit else ""
-        if side == "two-sided":
-            claim = f"within {margin_words(low, high, unit)} of {ref}"
-        elif side == "lower":
-            claim = f"at most {fmt(-low)}{u} below {ref}"
-        else:
-            claim = f"at most {fmt(high)}{u} above {ref}"
-        if pvalue < alpha:
-            return Verdict("PASS", f"shown {claim} {detail}")
-        beyond = ("; the whole interval lies beyond the margin"
-                  if self.harm_shown(ci=ci, low=low, high=high, side=side) else "")
-        if side == "two-sided":
-            return Verdict("HOLD", f"not shown {claim} {detail}{beyond}")
-        return Verdict("HOLD", f"not shown to be {claim} {detail}{beyond}")
-
-    @staticmethod
-    def harm_shown(*, ci: tuple[float, float], low: float, high: float, side: str) -> bool:
-        """True when the (1 - 2 alpha) interval lies wholly beyond the harmful end(s) of the
-        margin: the data then show harm, not merely a lack of evidence."""
-        if side == "lower":
-            return ci[1] < low
-        if side == "upper":
-            return ci[0] > high
-        return ci[1] < low or ci[0] > high
-
-
-class DifferenceRule:
-    """Target or shift without a margin: HOLD on a significant harmful departure."""
-
-    def __init__(self, check: str):
-        self.check = check
-        self.key = f"{check}-difference"
-
-    def describe(self, alpha: float) -> str:
-        subject = ("the new-process mean differs from the target" if self.check == "target"
-                   else "the new-process mean differs from the old-process mean")
-        test = ("the one-sample t-test" if self.check == "target"
-                else "the difference test (paired, Welch or pooled t-test as the spec declares)")
-        return (
-            f"{self.check.capitalize()} without a margin: HOLD when {test} finds that {subject} "
-            f"in the harmful direction at alpha = {alpha} (two-sided unless the spec's side says "
-            "lower or upper; p-values adjusted across characteristics when the spec asks for "
-            "holm or bonferroni); otherwise PASS with a note of the smallest departure these "
-            "data would detect with 80% power. Not detecting a difference is not evidence that "
-            "nothing changed."
-        )
-
-    def decide(self, *, pvalue: float, alpha: float, estimate: float, unit: str,
-               detectable: float | None, adjusted: bool) -> Verdict:
-        which = "adjusted p" if adjusted else "p"
-        noun = "departure from target" if self.check == "target" else "shift"
-        u = f" {unit}" if unit else ""
-        est, det = fmt_like(estimate, detectable)
-        if pvalue < alpha:
-            return Verdict(
-                "HOLD", f"{noun} of {est}{u} detected in the harmful direction "
-                f"({p_eq(pvalue, which)}, alpha {alpha})")
-        note = (f"; the smallest {noun} these data detect with 80% power is {det}{u}"
-                if detectable is not None else "")
-        return Verdict("PASS", f"no {noun} detected ({p_eq(pvalue, which)}){note}")
-
-
-class SpreadRule:
-    key = "spread"
-
-    def describe(self, alpha: float) -> str:
-        return (
-            "Spread: HOLD when the one-sided test shows the new process's spread larger than the "
-            f"old one's at alpha = {alpha} (p-value adjusted with the difference tests when the "
-            "spec asks for holm or bonferroni). With data.pair declared the test runs on the "
-            "matched pairs (Pitman-Morgan) unless the spec writes spread design: independent; "
-            "with unit_of_analysis: lot it compares the pooled within-lot variances (F-test on "
-            "sum(n_i - 1) degrees of freedom), so that it does not depend on the lot sizes, and "
-            "reports the between-lot standard deviations beside it. The ratio of standard "
-            "deviations (new / old) and its interval are reported (Brown-Forsythe: the "
-            "difference of mean absolute deviations and its own interval). Otherwise PASS."
-        )
-
-    def decide(self, *, pvalue: float, alpha: float, ratio: float,
-               ci: tuple[float, float], level: float, method: str,
-               adjusted: bool = False, what: str = "sd ratio new/old",
-               note: str = "") -> Verdict:
-        which = "adjusted p" if adjusted else "p"
-        lo, hi = (fmt(ci[0]), fmt(ci[1])) if what == "sd ratio new/old" else fmt_like(*ci)
-        est = fmt(ratio) if what == "sd ratio new/old" else fmt_like(ratio)[0]
-        detail = (f"{what} {est}, {fmt(100 * level)}% interval "
-                  f"{lo}..{hi}, {method} {p_eq(pvalue, which)}{note}")
-        if pvalue < alpha:
-            return Verdict("HOLD", f"new spread larger than old ({detail})")
-        return Verdict("PASS", f"no increase in spread shown ({detail})")
-
-
-class CapabilityRule:
-    key = "capability"
-
-    def describe(self, alpha: float) -> str:
-        return (
-            "Capability: HOLD when the new process's capability index (the spec's index: Cpk "
-            "from the within-process sigma, or Ppk from the overall sd) is below the spec's "
-            "min; with judge: lower_bound, when its lower one-sided confidence bound (at the "
-            "spec's confidence) is below min. The index and its lower bound are reported "
-            "either way. Otherwise PASS."
-        )
-
-    def decide(self, *, cpk: float, lower_bound: float | None, min_cpk: float,
-               index: str = "Cpk", judge: str = "estimate",
-               confidence: float = 0.95) -> Verdict:
-        level = f"{fmt(100 * confidence)}%"
-        lb = (f", lower {level} bound {fmt(lower_bound, 3)}" if lower_bound is not None
-              else "")
-        if judge == "lower_bound":
-            if lower_bound is None:
-                return Verdict("HOLD", f"the lower {level} bound of {index} cannot be computed "
-                               f"(new {index} {fmt(cpk, 3)})")
-            head = f"the lower {level} bound of the new {index} ({fmt(cpk, 3)})"
-            if lower_bound < min_cpk:
-                return Verdict("HOLD", f"{head}, {fmt(lower_bound, 3)}, is below "
-                               f"{fmt(min_cpk)}")
-            return Verdict("PASS", f"{head}, {fmt(lower_bound, 3)}, meets {fmt(min_cpk)}")
-        if cpk < min_cpk:
-            return Verdict("HOLD", f"new {index} {fmt(cpk, 3)} is below {fmt(min_cpk)}{lb}")
-        return Verdict("PASS", f"new {index} {fmt(cpk, 3)} meets {fmt(min_cpk)}{lb}")
-
-
-class ConformanceRule:
-    """The new process's tolerance interval (or one-sided bound) against the limits."""
-
-    key = "conformance"
-
-    def describe(self, alpha: float) -> str:
-        return (
-            "Conformance: PASS when the new process's tolerance interval, which holds the "
-            "spec's coverage of the parts with the spec's confidence (ISO 16269-6), lies within "
-            "the limits: with two limits the two-sided interval mean -/+ k2 sd (exact factor, "
-            "Odeh/Owen integral); with one limit, or side: lower or upper, the one-sided bound "
-            "mean - k1 sd or mean + k1 sd (exact factor, noncentral t) against that limit. "
-            "Otherwise HOLD, naming the limit crossed. The check does not use alpha; it is not "
-            "in the multiplicity family (it must pass on its own, like an equivalence test)."
-        )
-
-    def decide(self, *, low: float | None, high: float | None, lower: float | None,
-               upper: float | None, coverage: float, confidence: float, k: float | None,
-               unit: str = "") -> Verdict:
-        u = f" {unit}" if unit else ""
-        # tolerance limits to 6 significant digits (a limit like 11.975 needs 5 to be told
-        # apart); the specification limits as written
-        lo, hi = fmt(low, 6), fmt(high, 6)
-        lsl, usl = fmt(lower, 12), fmt(upper, 12)
-        what = (f"{fmt(100 * coverage)}% of parts with {fmt(100 * confidence)}% confidence"
-                + (f", k = {fmt(k)}" if k is not None else ""))
-        if low is not None and high is not None:
-            shown = f"tolerance interval {lo}..{hi}{u} ({what})"
-        elif low is not None:
-            shown = f"lower tolerance bound {lo}{u} ({what})"
-        else:
-            shown = f"upper tolerance bound {hi}{u} ({what})"
-        crossed = []
-        if low is not None and lower is not None and low < lower:
-            crossed.append(f"below the lower limit {lsl}")
-        if high is not None and upper is not None and high > upper:
-            crossed.append(f"above the upper limit {usl}")
-        if crossed:
-            return Verdict("HOLD", f"{shown} reaches {' and '.join(crossed)}")
-        within = ("within the limits " f"{lsl}..{usl}" if low is not None and high is not None
-                  else f"within the lower limit {lsl}" if low is not None
-                  else f"within the upper limit {usl}")
-        return Verdict("PASS", f"{shown} lies {within}")
+# --- the rules common to every check kind ------------------------------------------------------
+# (each kind's own rule lives in its ``rule`` hook: ``verify/checks/<package>/rule.py``)
 
 
 def pct(x: float | None, digits: int = 4) -> str:
@@ -295,78 +106,6 @@ def pct(x: float | None, digits: int = 4) -> str:
     if x is None:
         return "n/a"
     return f"{fmt(100 * x, digits)}%"
-
-
-class RateRule:
-    """Pass-fail: the new failure rate is shown to be at most the maximum."""
-
-    key = "rate"
-
-    def describe(self, alpha: float) -> str:
-        return (
-            "Rate (pass-fail): PASS when the exact one-sided upper confidence bound of the new "
-            "process's failure rate (Clopper-Pearson: the confidence quantile of the beta "
-            "distribution with failures + 1 and passes as parameters) is at most the spec's "
-            "max; otherwise HOLD. Zero failures are no proof on their own: they show the rate "
-            "below max only when enough parts were inspected (the success-run plan). Not "
-            "adjusted for multiplicity: every such check must pass."
-        )
-
-    def decide(self, *, failures: int, inspected: int, upper: float, max_rate: float,
-               confidence: float) -> Verdict:
-        level = f"{fmt(100 * confidence)}%"
-        detail = (f"{failures} failed of {inspected}, rate {pct(failures / inspected)}, "
-                  f"upper {level} bound {pct(upper)}")
-        if upper <= max_rate:
-            return Verdict("PASS", f"failure rate shown to be at most {pct(max_rate)} "
-                           f"({detail})")
-        return Verdict("HOLD", f"failure rate not shown to be at most {pct(max_rate)} "
-                       f"({detail})")
-
-    @staticmethod
-    def harm_shown(*, lower: float, max_rate: float) -> bool:
-        """True when even the lower confidence bound exceeds max: the rate is too high."""
-        return lower > max_rate
-
-
-class RateShiftRule:
-    """Pass-fail: the new failure rate is no worse than the old one."""
-
-    key = "rate_shift"
-
-    def describe(self, alpha: float) -> str:
-        return (
-            "Rate shift (pass-fail), with a margin: PASS when the upper end of the "
-            f"{fmt(100 * (1 - 2 * alpha))}% interval for the new failure rate minus the old "
-            "one (Newcombe's hybrid score interval, or Miettinen-Nurminen with method: score) "
-            "lies below the margin; otherwise HOLD. Without a margin: HOLD when a one-sided "
-            f"exact test (Fisher's, or Boschloo's with test: boschloo) shows the new rate higher "
-            f"at alpha = {alpha} (p-values adjusted with the difference tests under holm or "
-            "bonferroni); otherwise PASS. Not detecting an increase is not evidence that "
-            "nothing changed: prefer a margin."
-        )
-
-    def decide_margin(self, *, estimate: float, ci: tuple[float, float], level: float,
-                      margin: float, method: str) -> Verdict:
-        lo, hi = fmt_like(100 * ci[0], 100 * ci[1])
-        detail = (f"difference {fmt_like(100 * estimate)[0]} points, {fmt(100 * level)}% "
-                  f"interval {lo}..{hi} points, {method}")
-        if ci[1] < margin:
-            return Verdict("PASS", f"new failure rate shown at most {fmt(100 * margin)} points "
-                           f"above the old one ({detail})")
-        beyond = "; the whole interval lies beyond the margin" if ci[0] >= margin else ""
-        return Verdict("HOLD", f"new failure rate not shown at most {fmt(100 * margin)} points "
-                       f"above the old one ({detail}){beyond}")
-
-    def decide_test(self, *, pvalue: float, alpha: float, estimate: float, method: str,
-                    adjusted: bool) -> Verdict:
-        which = "adjusted p" if adjusted else "p"
-        d = fmt_like(100 * estimate)[0]
-        if pvalue < alpha:
-            return Verdict("HOLD", f"new failure rate higher than old by {d} points "
-                           f"({method}, {p_eq(pvalue, which)}, alpha {alpha})")
-        return Verdict("PASS", f"no increase of the failure rate detected (difference {d} "
-                       f"points, {method}, {p_eq(pvalue, which)})")
 
 
 class SufficiencyRule:
@@ -443,15 +182,6 @@ class CombinationRule:
         )
 
 
-TARGET_MARGIN = MarginRule("target")
-SHIFT_MARGIN = MarginRule("shift")
-TARGET_DIFFERENCE = DifferenceRule("target")
-SHIFT_DIFFERENCE = DifferenceRule("shift")
-SPREAD = SpreadRule()
-CAPABILITY = CapabilityRule()
-CONFORMANCE = ConformanceRule()
-RATE = RateRule()
-RATE_SHIFT = RateShiftRule()
 SUFFICIENCY = SufficiencyRule()
 DIAGNOSTICS = DiagnosticsRule()
 MULTIPLICITY = MultiplicityRule()
@@ -460,18 +190,18 @@ COMBINATION = CombinationRule()
 
 def rules_in_words(alpha: float, multiplicity: str, *, pass_fail: bool = False
                    ) -> tuple[str, ...]:
-    """Every rule's sentence, in the order the workbook prints them; the pass-fail rules
-    (rate, rate shift) only where the spec has a pass-fail characteristic."""
-    rates = (RATE.describe(alpha), RATE_SHIFT.describe(alpha)) if pass_fail else ()
+    """Every rule's sentence, in the order the workbook prints them: each check kind's rules in
+    the registry's order (the pass-fail kinds only where the spec has a pass-fail
+    characteristic), then sufficiency, multiplicity, diagnostics and combination."""
+    from .checks import kinds
+
+    per_kind = tuple(
+        rule.describe(alpha)
+        for kind in kinds() if kind.measures != "pass_fail" or pass_fail
+        for rule in kind.hook("rule").rules(kind)
+    )
     return (
-        TARGET_MARGIN.describe(alpha),
-        TARGET_DIFFERENCE.describe(alpha),
-        SHIFT_MARGIN.describe(alpha),
-        SHIFT_DIFFERENCE.describe(alpha),
-        SPREAD.describe(alpha),
-        CAPABILITY.describe(alpha),
-        CONFORMANCE.describe(alpha),
-        *rates,
+        *per_kind,
         SUFFICIENCY.describe(alpha),
         MULTIPLICITY.describe(alpha, multiplicity),
         DIAGNOSTICS.describe(alpha),

@@ -121,11 +121,35 @@ class ProcessSummary:
     lot_counts: tuple[tuple[str, int, int], ...] = ()
 
 
+class CheckDetails:
+    """Base of each kind's typed, frozen result details (the dataclasses in its ``result`` hook,
+    ``verify/checks/<package>/result.py``).
+
+    A subclass is a frozen dataclass; :meth:`as_mapping` gives its fields in declared order for
+    the JSON's ``extra`` object and the characteristic sheet's rows. Fields named in
+    ``OMITTED_WHEN_NONE`` are left out of that mapping while they are None (a quantity that
+    exists only for some designs or models, rather than one that could not be computed).
+    """
+
+    OMITTED_WHEN_NONE: tuple[str, ...] = ()
+
+    def as_mapping(self) -> dict[str, float | int | str | None]:
+        from dataclasses import fields
+
+        out = {}
+        for f in fields(self):
+            value = getattr(self, f.name)
+            if value is None and f.name in self.OMITTED_WHEN_NONE:
+                continue
+            out[f.name] = value
+        return out
+
+
 @dataclass(frozen=True)
 class CheckResult:
     """One check of one characteristic, with its outcome and reason in words."""
 
-    check: str  # "target" | "shift" | "spread" | "capability"
+    check: str  # the kind's name (``verify.checks.kinds()``)
     method: str  # e.g. "TOST (Welch)", "one-sample t-test", "F-test, one-sided"
     hypothesis: str  # what is being shown, in words
     alternative: str | None
@@ -153,7 +177,14 @@ class CheckResult:
     detectable_shift: float | None = None  # smallest shift detected with 80% power
     planned_n: int | None = None  # n per process the plan asks for (target power)
     design: str | None = None  # one-sample | welch | pooled | paired
-    extra: Mapping[str, float | int | str | None] = field(default_factory=dict)
+    # the kind's own quantities (its ``result`` hook's frozen dataclass); None where the check
+    # could not be computed
+    details: CheckDetails | None = None
+
+    def details_mapping(self) -> dict[str, float | int | str | None]:
+        """The details as a mapping in declared order (empty without details): the JSON's
+        ``extra`` object."""
+        return {} if self.details is None else self.details.as_mapping()
 
 
 @dataclass(frozen=True)

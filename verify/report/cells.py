@@ -105,7 +105,7 @@ def formats_for(decimals: int | None) -> dict[str, str]:
         "value": fixed(decimals),
         "mean": fixed(d + 1),
         "sd": fixed(d + 2),
-        "shift": fixed(d + 1),
+        "difference": fixed(d + 1),  # a difference of means (new - old or new - target)
         "se": fixed(d + 2),
     }
 

@@ -11,17 +11,16 @@ from __future__ import annotations
 from openpyxl.styles import Alignment, Font
 from openpyxl.utils import get_column_letter
 
+from ..checks import kind
 from ..model import CharacteristicResult, CheckResult, Evaluation
 from .cells import (
     BOX,
-    CPK_FORMAT,
     DF_FORMAT,
     INK,
     INT_FORMAT,
     NOTE_FONT,
     P_FORMAT,
     POWER_FORMAT,
-    RATIO_FORMAT,
     STAT_FORMAT,
     TITLE_FONT,
     WRAP,
@@ -33,9 +32,10 @@ from .cells import (
     section,
 )
 from .charts import BAND_ROWS, add_charts
+from .hooks import own_block, report_hook
 from .paper import KEEP_FIRST, apply_breaks, keep_together
 from .stream_block import write_streams
-from .summary import decision_style, margin_text, put_decision_badge
+from .summary import decision_style, put_decision_badge
 
 LABEL_WIDTH = 30
 SHORT_SECTION = 12  # rows: a section this short is kept whole on a page
@@ -55,21 +55,22 @@ ALTERNATIVE_WORDS = {
 }
 
 
-def _estimate_format(r: CheckResult, fmts: dict) -> str:
-    if r.check == "spread":
-        # Brown-Forsythe estimates a difference of mean absolute deviations, in the data's unit
-        return fmts["shift"] if "brown" in (r.method or "").lower() else RATIO_FORMAT
-    if r.check == "capability":
-        return CPK_FORMAT
-    return fmts["shift"]
+def _formats(r: CheckResult, fmts: dict) -> dict:
+    """The number formats of one check's column: in the data's unit unless the kind's report
+    hook says otherwise (``sheet_formats``)."""
+    out = {"estimate": fmts["difference"], "standard_error": STAT_FORMAT, "statistic": STAT_FORMAT,
+           "critical_value": STAT_FORMAT}
+    out.update(report_hook(r.check, "sheet_formats", r, fmts, default={}))
+    return out
 
 
 def _rows_for_checks(checks, fmts):
     """(label, getter, format) for each quantity shown; rows empty for every check are dropped."""
-    est = [_estimate_format(r, fmts) for r in checks]
-    se = [fmts["se"] if r.check in ("target", "shift") else STAT_FORMAT for r in checks]
-    crit = [CPK_FORMAT if r.check == "capability" else STAT_FORMAT for r in checks]
-    stat = [CPK_FORMAT if r.check == "capability" else STAT_FORMAT for r in checks]
+    each = [_formats(r, fmts) for r in checks]
+    est = [f["estimate"] for f in each]
+    se = [f["standard_error"] for f in each]
+    crit = [f["critical_value"] for f in each]
+    stat = [f["statistic"] for f in each]
     spec = [
         ("What is shown", lambda r: r.hypothesis, None),
         ("Method", lambda r: r.method, None),
@@ -93,26 +94,23 @@ def _rows_for_checks(checks, fmts):
         (
             "Margin: low",
             lambda r: None if r.margin is None or r.alternative == "less" else r.margin[0],
-            fmts["shift"],
+            fmts["difference"],
         ),
         (
             "Margin: high",
             lambda r: None if r.margin is None or r.alternative == "greater" else r.margin[1],
-            fmts["shift"],
+            fmts["difference"],
         ),
         ("Achieved power", lambda r: r.power, POWER_FORMAT),
         ("Power of what", lambda r: r.power_note, None),
-        ("Smallest shift seen at 80% power", lambda r: r.detectable_shift, fmts["shift"]),
+        ("Smallest shift seen at 80% power", lambda r: r.detectable_shift, fmts["difference"]),
         ("Planned n per process", lambda r: r.planned_n, INT_FORMAT),
     ]
-    extra_keys = []
-    for r in checks:
-        for k in r.extra:
-            if k not in extra_keys:
-                extra_keys.append(k)
-    for k in extra_keys:
+    details = [r.details_mapping() for r in checks]
+    detail_keys = list(dict.fromkeys(k for x in details for k in x))
+    for k in detail_keys:
         label = EXTRA_LABELS.get(k, k.replace("_", " ").capitalize())
-        spec.append((label, lambda r, k=k: r.extra.get(k), None))
+        spec.append((label, lambda r, k=k: r.details_mapping().get(k), None))
     rows = []
     for label, get, fmt in spec:
         values = [get(r) for r in checks]
@@ -223,7 +221,7 @@ def _checks_table(ws, row: int, c: CharacteristicResult, checks, fmts: dict) -> 
             ws,
             row,
             j,
-            margin_text(r.margin, c.spec.side) if r.check in ("target", "shift") else None,
+            report_hook(r.check, "margin_text", r, c.spec.side, default=None),
             border=BOX,
         )
     row += 1
@@ -237,96 +235,6 @@ def _checks_table(ws, row: int, c: CharacteristicResult, checks, fmts: dict) -> 
     for j, r in enumerate(checks, start=2):
         put(ws, row, j, r.reason, align=WRAP, border=BOX)
     return row + 1
-
-
-INDEX_NAMES = {"cpk": "Cpk", "ppk": "Ppk"}
-
-
-def sigma_words(method: str | None) -> str:
-    """How the within-process sd was estimated, in plain words."""
-    m = (method or "").lower()
-    if "moving range" in m:
-        return "sd from the ranges of consecutive parts (average moving range / 1.128)"
-    if "subgroup range" in m:
-        return "sd from the ranges within each lot (subgroup ranges / d2)"
-    return method or "within-process sd"
-
-
-OVERALL_WORDS = "overall sd of all the new parts (n − 1)"
-
-
-def _capability_block(ws, row: int, c: CharacteristicResult, r: CheckResult,
-                      last_col: int) -> int:
-    """The deciding index first, with its criterion and bound; then the other indices."""
-    x = dict(r.extra or {})
-    index_key = str(x.get("index") or "cpk")
-    index = INDEX_NAMES.get(index_key, index_key)
-    minimum = x.get("min", x.get("min_cpk", r.critical_value))
-    level = x.get("confidence") or r.ci_level or 0.95
-    bound = x.get("lower_bound", x.get("cpk_lower_95", r.ci_low))
-    on_bound = str(x.get("judge") or "estimate").startswith("lower")
-    how = x.get("sigma_method") or r.method
-    sigma_used = OVERALL_WORDS if index_key == "ppk" else sigma_words(how)
-    criterion = (
-        f"its lower {level:.0%} confidence bound at least {minimum:g}"
-        if on_bound
-        else f"the estimate at least {minimum:g}"
-    ) if minimum is not None else "none declared"
-    label = Font(bold=True, color=INK)
-    rows = [
-        ("Deciding index", f"{index} = {r.estimate:.2f}" if r.estimate is not None else "n/a"),
-        ("Criterion", criterion),
-        (f"Lower {level:.0%} confidence bound", None if bound is None else f"{bound:.2f}"),
-        ("Spread behind it", sigma_used),
-        ("What is shown", r.hypothesis),
-        ("Method", r.method),
-    ]
-    for text, value in rows:
-        put(ws, row, 1, text, font=label)
-        put(ws, row, 2, "n/a" if value is None else value, align=WRAP)
-        ws.merge_cells(start_row=row, start_column=2, end_row=row, end_column=last_col)
-        row += 1
-    put(ws, row, 1, "Outcome", font=label)
-    f, fo = decision_style(r.outcome)
-    put(ws, row, 2, r.outcome, fill=f, font=fo, align=Alignment(horizontal="center"))
-    put(ws, row, 3, r.reason, align=WRAP)
-    ws.merge_cells(start_row=row, start_column=3, end_row=row, end_column=last_col)
-    row += 1
-    others = [
-        ("Cp", x.get("cp"), "within", "both limits, centring ignored"),
-        ("Cpk", x.get("cpk"), "within", "the nearer limit"),
-        ("Cpl", x.get("cpl"), "within", "the lower limit"),
-        ("Cpu", x.get("cpu"), "within", "the upper limit"),
-        ("Pp", x.get("pp"), "overall", "both limits, centring ignored"),
-        ("Ppk", x.get("ppk"), "overall", "the nearer limit"),
-        ("Cpm", x.get("cpm"), "target", "both limits, distance from the target counted"),
-    ]
-    others = [o for o in others if o[1] is not None and o[0] != index]
-    if not others:
-        return row
-    row += 1
-    header_row(ws, row, 1, ["Other indices", "Value", "Against", "Spread used"])
-    ws.merge_cells(start_row=row, start_column=4, end_row=row, end_column=last_col)
-    row += 1
-    spreads = {
-        "within": sigma_words(how),
-        "overall": OVERALL_WORDS,
-        "target": "root mean square distance of the parts from the target",
-    }
-    values = {"within": x.get("sigma_within"), "overall": x.get("sigma_overall")}
-    for name, value, kind, against in others:
-        put(ws, row, 1, name, border=BOX, font=label)
-        put(ws, row, 2, value, fmt=CPK_FORMAT, border=BOX)
-        put(ws, row, 3, against, border=BOX, align=WRAP)
-        sd = values.get(kind)
-        words = spreads[kind] + (f" = {sd:.6g}" if sd is not None else "")
-        put(ws, row, 4, words, border=BOX, align=WRAP)
-        ws.merge_cells(start_row=row, start_column=4, end_row=row, end_column=last_col)
-        row += 1
-    if x.get("n") is not None:
-        put(ws, row, 1, f"From {x['n']} new parts", font=NOTE_FONT)
-        row += 1
-    return row
 
 
 def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: int | None):
@@ -467,21 +375,23 @@ def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: 
         put(ws, row, 1, text, font=NOTE_FONT)
         row += 1
 
-    # the capability check has a block of its own below; the table holds the tests
-    tests = [r for r in c.checks if r.check != "capability"]
-    capability = next((r for r in c.checks if r.check == "capability"), None)
-    if tests or capability is None:
+    # a kind whose report hook writes a block of its own (BLOCK_TITLE, write_block) has it
+    # below the table of the tests
+    blocks = [r for r in c.checks if own_block(r.check) is not None]
+    tests = [r for r in c.checks if own_block(r.check) is None]
+    if tests or not blocks:
         row += 1
         sections.append(row)
         section(ws, row, "Checks")
         row += 1
         row = _checks_table(ws, row, c, tests, fmts)
-    if capability is not None:
+    for r in blocks:
+        hook = own_block(r.check)
         row += 1
         sections.append(row)
-        section(ws, row, "Capability of the new process")
+        section(ws, row, hook.BLOCK_TITLE)
         row += 1
-        row = _capability_block(ws, row, c, capability, last_col)
+        row = hook.write_block(kind(r.check), ws, row, c, r, last_col)
 
     if c.streams:
         row = write_streams(ws, row + 1, c, fmts, last_col)

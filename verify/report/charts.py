@@ -36,6 +36,7 @@ from openpyxl.styles import Font
 
 from ..model import CharacteristicResult, Evaluation
 from .cells import NOTE_FONT, SECTION_FONT, put
+from .hooks import has_report, report_hook
 
 MAX_POINTS = 1000
 MAX_BINS = 40
@@ -425,7 +426,7 @@ def _interval_chart(ws, c, anchor, row0, col, formats) -> tuple[int, int]:
     rows = [
         r
         for r in c.checks
-        if r.check in ("target", "shift")
+        if has_report(r.check, "interval_axis")
         and r.ci_low is not None
         and r.ci_high is not None
         and r.estimate is not None
@@ -467,17 +468,14 @@ def _interval_chart(ws, c, anchor, row0, col, formats) -> tuple[int, int]:
     chart.height, chart.width = CHART_H, CHART_W
     chart.display_blanks = "gap"  # a blank row ends one margin mark and starts the next
     block.to_chart(chart, styles)
-    whats = []
-    if any(r.check == "target" for r in rows):
-        whats.append("target: new − target")
-    if any(r.check == "shift" for r in rows):
-        whats.append("shift: new − old")
-    _axes(chart, f"difference in {c.unit} ({'; '.join(whats)})", "", formats["shift"], None)
+    # what each kind's difference is (its report hook's interval_axis), in the checks' order
+    whats = list(dict.fromkeys(report_hook(r.check, "interval_axis") for r in rows))
+    _axes(chart, f"difference in {c.unit} ({'; '.join(whats)})", "", formats["difference"], None)
     chart.x_axis.scaling.min, chart.x_axis.scaling.max = lo, hi
     chart.y_axis.scaling.min, chart.y_axis.scaling.max = 0, len(rows) + 1
     # each row named on the vertical axis: a number format that shows tick 1 as the first
-    # check's name, tick 2 as the second's and nothing elsewhere (at most two rows: target and
-    # shift; a format holds two conditions)
+    # check's name, tick 2 as the second's and nothing elsewhere (at most two rows, the two
+    # location checks; a format holds two conditions)
     names = [_row_label(k, r) for k, r in enumerate(rows, start=1)][:2]
     fmt = ";".join(f'[={k}]"{n}"' for k, n in enumerate(names, start=1)) + ';""'
     if len(names) == 1:
@@ -493,7 +491,9 @@ def _interval_chart(ws, c, anchor, row0, col, formats) -> tuple[int, int]:
 
 
 def _paired_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
-    shift = next((r for r in c.checks if r.check == "shift" and r.design == "paired"), None)
+    # the location check that ran on the matched pairs
+    shift = next((r for r in c.checks if r.design == "paired"
+                  and has_report(r.check, "interval_axis")), None)
     if shift is None or ev.spec.data.pair is None:
         return col, 0
     from ..data import paired_values
@@ -508,7 +508,7 @@ def _paired_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
     x = np.arange(1, d.size + 1)
     block = _Block(ws, row0, col, "Paired differences (new - old)")
     block.add("difference of a pair", zip(x.tolist(), d.tolist(), strict=True),
-              y_fmt=formats["shift"])
+              y_fmt=formats["difference"])
     styles = {"difference of a pair": lambda s: _style_points(s, COLOURS["new"])}
     xmax = float(d.size + 1)
     ys = d.tolist() + [0.0]
@@ -527,7 +527,7 @@ def _paired_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
     chart.title = chart_title(f"{c.name}: new − old for each of the {d.size} pairs")
     chart.height, chart.width = CHART_H, CHART_W
     block.to_chart(chart, styles)
-    _axes(chart, "pair, in production order", f"new − old ({c.unit})", "0", formats["shift"])
+    _axes(chart, "pair, in production order", f"new − old ({c.unit})", "0", formats["difference"])
     lo, hi = _nice(*_bounds(ys))
     chart.y_axis.scaling.min, chart.y_axis.scaling.max = lo, hi
     chart.x_axis.scaling.min, chart.x_axis.scaling.max = 0, xmax

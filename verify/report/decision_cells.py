@@ -2,16 +2,11 @@
 
 The decision page has a column per check kind that ran (its columns come from the check names
 present in the evaluation, in the order they first appear), and each cell shows the outcome in
-colour and, below it, the one comparison that decided it:
+colour and, below it, the one comparison that decided it: what that comparison is, and the
+column's heading, come from the kind's ``report`` hook (``cell_text``, ``heading``).
 
-* target or shift with a margin: the interval against the margin;
-* target or shift without a margin: the estimate and its p-value against alpha;
-* spread: the sd ratio (new / old) and its lower confidence bound against 1;
-* capability: the index against its minimum (and the lower bound beside it).
-
-A check kind without its own entry in :data:`CELL_TEXT` shows its outcome and its estimate when
-there is one, so a later check kind appears on the page without a change here; give it an entry
-to say more.
+A check kind whose report hook has no ``cell_text`` shows its outcome and its estimate when
+there is one, so a later check kind appears on the page without a change here.
 """
 
 from __future__ import annotations
@@ -19,8 +14,8 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 
-from ..decide import fmt_p
 from ..model import CharacteristicResult, CheckResult, Evaluation
+from .hooks import has_report, report_hook
 
 
 def num(x: float | None, decimals: int) -> str:
@@ -51,98 +46,6 @@ def margin_words(r: CheckResult, decimals: int) -> str:
     return f"within {signed(low, decimals)} to {signed(high, decimals)}"
 
 
-def _location(c: CharacteristicResult, r: CheckResult, ev: Evaluation, d: int) -> str:
-    if r.margin is not None and r.ci_low is not None and r.ci_high is not None:
-        level = f"{r.ci_level:.0%} " if r.ci_level else ""
-        return (
-            f"{level}interval {num(r.ci_low, d)} to {num(r.ci_high, d)}\n"
-            f"margin: {margin_words(r, d)}"
-        )
-    if r.estimate is not None:
-        p = r.p_adjusted if r.p_adjusted is not None else r.p_value
-        label = "p adjusted" if r.p_adjusted is not None else "p"
-        what = "new − target" if r.check == "target" else "new − old"
-        text = f"{what} {signed(r.estimate, d)}"
-        if p is not None:
-            text += f"\n{label} {fmt_p(p)} (alpha {ev.spec.alpha:g})"
-        return text
-    return ""
-
-
-def _spread(c: CharacteristicResult, r: CheckResult, ev: Evaluation, d: int) -> str:
-    if r.estimate is None:
-        return ""
-    text = f"sd ratio new/old {r.estimate:.3f}"
-    if r.ci_low is not None and r.ci_level is not None:
-        # the lower end of the two-sided (1 - 2 alpha) interval is the one-sided (1 - alpha)
-        # bound: above 1 shows a larger spread
-        one_sided = 1 - (1 - r.ci_level) / 2
-        text += f"\nlower {one_sided:.0%} bound {r.ci_low:.3f} (HOLD above 1)"
-    if r.method and "Brown-Forsythe" in r.method and r.p_value is not None:
-        text += f"\np {fmt_p(r.p_value)}"
-    return text
-
-
-def _capability(c: CharacteristicResult, r: CheckResult, ev: Evaluation, d: int) -> str:
-    if r.estimate is None:
-        return ""
-    extra = r.extra or {}
-    index = {"cpk": "Cpk", "ppk": "Ppk"}.get(str(extra.get("index") or "cpk"), "Cpk")
-    minimum = extra.get("min", extra.get("min_cpk", r.critical_value))
-    bound = extra.get("lower_bound", extra.get("cpk_lower_95", r.ci_low))
-    judge = str(extra.get("judge") or "estimate")
-    if judge.startswith("lower") and bound is not None:
-        text = f"{index} lower bound {bound:.2f}"
-        if minimum is not None:
-            text += f" vs minimum {minimum:.2f}"
-        text += f"\n(estimate {r.estimate:.2f})"
-        return text
-    text = f"{index} {r.estimate:.2f}"
-    if minimum is not None:
-        text += f" vs minimum {minimum:.2f}"
-    if bound is not None:
-        text += f"\n(lower 95% bound {bound:.2f})"
-    return text
-
-
-def _pct(x: float) -> str:
-    return f"{100 * x:.2f}%"
-
-
-def _rate(c: CharacteristicResult, r: CheckResult, ev: Evaluation, d: int) -> str:
-    """A failure rate: its exact upper bound against the maximum."""
-    if r.estimate is None:
-        return ""
-    x = r.extra or {}
-    text = f"failure rate {_pct(r.estimate)}"
-    if x.get("failures_new") is not None and x.get("n_new") is not None:
-        text += f" ({x['failures_new']} of {x['n_new']})"
-    if r.ci_high is not None:
-        level = f"{r.ci_level:.0%} " if r.ci_level else ""
-        text += f"\nupper {level}bound {_pct(r.ci_high)}"
-        if x.get("max") is not None:
-            text += f" vs max {_pct(x['max'])}"
-    return text
-
-
-def _rate_shift(c: CharacteristicResult, r: CheckResult, ev: Evaluation, d: int) -> str:
-    """A change of failure rate: the interval against the margin, or the exact test's p."""
-    if r.estimate is None:
-        return ""
-    x = r.extra or {}
-    points = f"{100 * r.estimate:+.2f}"
-    if x.get("margin") is not None and r.ci_low is not None and r.ci_high is not None:
-        level = f"{r.ci_level:.0%} " if r.ci_level else ""
-        return (f"new − old {points} points\n{level}interval {100 * r.ci_low:+.2f} to "
-                f"{100 * r.ci_high:+.2f}\nmargin: below +{100 * x['margin']:g} points")
-    p = r.p_adjusted if r.p_adjusted is not None else r.p_value
-    text = f"new − old {points} points"
-    if p is not None:
-        label = "p adjusted" if r.p_adjusted is not None else "p"
-        text += f"\n{label} {fmt_p(p)} (alpha {ev.spec.alpha:g})"
-    return text
-
-
 def _generic(c: CharacteristicResult, r: CheckResult, ev: Evaluation, d: int) -> str:
     if r.estimate is not None:
         return f"estimate {r.estimate:.4g}"
@@ -150,22 +53,6 @@ def _generic(c: CharacteristicResult, r: CheckResult, ev: Evaluation, d: int) ->
 
 
 CellText = Callable[[CharacteristicResult, CheckResult, Evaluation, int], str]
-CELL_TEXT: dict[str, CellText] = {
-    "target": _location,
-    "shift": _location,
-    "spread": _spread,
-    "capability": _capability,
-    "rate": _rate,
-    "rate_shift": _rate_shift,
-}
-HEADINGS = {
-    "target": "Target\n(new against target)",
-    "shift": "Shift\n(new against old)",
-    "spread": "Spread\n(sd new / old)",
-    "capability": "Capability\n(new process)",
-    "rate": "Failure rate\n(new process)",
-    "rate_shift": "Rate change\n(new against old)",
-}
 
 
 def check_kinds(ev: Evaluation) -> list[str]:
@@ -174,12 +61,17 @@ def check_kinds(ev: Evaluation) -> list[str]:
 
 
 def heading(kind: str) -> str:
-    return HEADINGS.get(kind, kind.replace("_", " ").capitalize())
+    """The column heading of a check kind: its report hook's ``heading``, else its name."""
+    return report_hook(kind, "heading", default=None) or kind.replace("_", " ").capitalize()
 
 
 def cell_text(c: CharacteristicResult, r: CheckResult, ev: Evaluation, decimals: int) -> str:
-    """The outcome on the first line, then the number that decided."""
-    detail = CELL_TEXT.get(r.check, _generic)(c, r, ev, decimals)
+    """The outcome on the first line, then the number that decided (the kind's report hook's
+    ``cell_text``, else its estimate)."""
+    if has_report(r.check, "cell_text"):
+        detail = report_hook(r.check, "cell_text", c, r, ev, decimals)
+    else:
+        detail = _generic(c, r, ev, decimals)
     return r.outcome + (f"\n{detail}" if detail else "")
 
 

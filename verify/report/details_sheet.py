@@ -93,7 +93,7 @@ def _rows(ev: Evaluation) -> Iterator[tuple]:
     for c in ev.characteristics:
         for r in c.checks:
             margin = r.margin or (None, None)
-            extra = r.extra or {}
+            extra = r.details_mapping()
             yield (c.name, c.decision, f"check {r.check}", r.method, r.outcome, r.estimate,
                    r.ci_low, r.ci_high, r.ci_level, r.p_value, margin[0], margin[1], r.power,
                    r.planned_n, extra.get("n_new"), extra.get("n_old"), r.reason)

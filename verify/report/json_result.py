@@ -16,6 +16,7 @@ from pathlib import Path
 import numpy as np
 
 from ..model import BeyondLimits, CheckResult, DiagnosticResult, Evaluation
+from .hooks import report_hook
 
 FORMAT = "verify-result/1"
 
@@ -81,26 +82,14 @@ def _check(c: CheckResult) -> dict:
             statistic_lower=c.statistic_lower,
             statistic_upper=c.statistic_upper,
         )
-    if c.check == "capability" and "index" in c.extra:
-        # the criterion as declared and judged: index (cpk | ppk), judge (estimate |
-        # lower_bound), min, and the lower bound at the spec's confidence
-        d.update(index=c.extra["index"], judge=c.extra["judge"], min=c.extra["min"],
-                 confidence=c.extra["confidence"], lower_bound=c.extra["lower_bound"])
-    if c.check == "conformance" and "coverage" in c.extra:
-        # ci_low / ci_high are the tolerance limits (None on the side a one-sided bound leaves
-        # open); k is the factor of mean -/+ k sd, None for distribution-free limits
-        d.update(coverage=c.extra["coverage"], confidence=c.extra["coverage_confidence"],
-                 k=c.extra.get("k"), side=c.extra.get("side"))
-    if c.check == "rate":
-        d.update(max=c.extra.get("max"), confidence=c.extra.get("confidence"))
-    if c.check == "rate_shift" and c.extra.get("margin") is not None:
-        d["margin"] = [None, c.extra["margin"]]  # only an increase of the rate is tested
+    # the kind's own fields (e.g. a criterion as declared), from its report hook
+    d.update(report_hook(c.check, "json_fields", c, default={}))
     d.update(
         power=c.power,
         power_note=c.power_note,
         detectable_shift=c.detectable_shift,
         planned_n=c.planned_n,
-        extra=dict(c.extra),
+        extra=c.details_mapping(),
     )
     return d
 

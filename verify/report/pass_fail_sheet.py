@@ -23,7 +23,7 @@ from openpyxl.drawing.text import (
 from openpyxl.styles import Alignment, Font
 from openpyxl.utils import get_column_letter
 
-from .. import decide
+from ..checks import kinds
 from ..model import CharacteristicResult, CheckResult, Evaluation
 from .cells import (
     BOX,
@@ -39,6 +39,7 @@ from .cells import (
     put,
     section,
 )
+from .hooks import report_hook
 from .summary import decision_style, put_decision_badge
 
 RATE_FORMAT = "0.00%"
@@ -65,18 +66,10 @@ def _asks(ev: Evaluation, c: CharacteristicResult) -> list[tuple[str, object, st
         rows.append(("Per-part results from", where, None))
         rows.append(("Fail results", ", ".join(s.fail_texts), None))
         rows.append(("Pass results", ", ".join(s.pass_texts), None))
-    rate, shift = s.checks.rate, s.checks.rate_shift
-    if rate is not None:
-        rows.append(("Maximum failure rate", rate.max, RATE_FORMAT))
-        rows.append(("Confidence of the upper bound", rate.confidence, "0.0%"))
-    if shift is not None:
-        if shift.margin is not None:
-            rows.append(("Largest allowed increase (margin)", shift.margin, RATE_FORMAT))
-            rows.append(("Interval method", "Newcombe hybrid score" if shift.method ==
-                         "newcombe" else "Miettinen-Nurminen score", None))
-        else:
-            rows.append(("Rate shift", "no margin: exact test of a higher new rate ("
-                         + ("Fisher" if shift.test == "fisher" else "Boschloo") + ")", None))
+    for k in kinds():
+        conf = getattr(s.checks, k.name, None)
+        if conf is not None and k.has_hook("report") and hasattr(k.hook("report"), "asks"):
+            rows.extend(k.hook("report").asks(k, conf))
     rows.append(("Harmful direction", "a higher failure rate", None))
     rows.append(("Alpha", ev.spec.alpha, "General"))
     rows.append(("Planned parts (min_n)", ev.spec.min_n_text or "none declared", None))
@@ -84,7 +77,8 @@ def _asks(ev: Evaluation, c: CharacteristicResult) -> list[tuple[str, object, st
 
 
 def _limit(r: CheckResult) -> float | None:
-    return r.extra.get("max") if r.check == "rate" else r.extra.get("margin")
+    """The number the check compares with (its report hook's ``criterion_value``)."""
+    return report_hook(r.check, "criterion_value", r, default=None)
 
 
 def write_pass_fail(ws, ev: Evaluation, c: CharacteristicResult) -> None:
@@ -177,9 +171,9 @@ def write_pass_fail(ws, ev: Evaluation, c: CharacteristicResult) -> None:
     row += 1
     section(ws, row, "The rules in words")
     row += 1
-    kinds = {r.check for r in c.checks}
-    for rule in ([decide.RATE] if "rate" in kinds else []) + (
-            [decide.RATE_SHIFT] if "rate_shift" in kinds else []):
+    present = {r.check for r in c.checks}
+    for rule in (rule for k in kinds() if k.name in present
+                 for rule in k.hook("rule").rules(k)):
         put(ws, row, 1, rule.describe(ev.spec.alpha), align=WRAP)
         ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=LAST_COL)
         row += 1

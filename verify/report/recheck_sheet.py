@@ -133,10 +133,10 @@ def detail(check: CheckResult, key: str, default: Any = None) -> Any:
     """One detail of a check result beyond its common fields (a sigma, a df, a fitted quantile).
 
     The one place the recheck code reads them: ``default`` when the result does not hold
-    ``key``.
+    ``key``. They come from the kind's typed details (``CheckResult.details``, a frozen
+    dataclass of the kind's ``result`` hook), read here by field name.
     """
-    details = check.extra or {}
-    return details.get(key, default)
+    return check.details_mapping().get(key, default)
 
 
 @dataclass

@@ -31,6 +31,7 @@ from .cells import (
     section,
 )
 from .decision_cells import beyond_text, cell_text, check_kinds, heading
+from .hooks import has_report, report_hook
 
 # up to this many characteristics the decision sheet prints on one page; beyond it the table
 # runs over pages with its header repeated
@@ -141,15 +142,6 @@ def _decision_cell(ws, ev: Evaluation, badge: tuple[int, int]) -> None:
         ws.cell(6, col).fill = PatternFill("solid", fgColor=fill_hex)
 
 
-def main_check(c: CharacteristicResult) -> CheckResult | None:
-    """The check the summary row shows: the shift, else the target, else the first."""
-    for kind in ("shift", "target"):
-        for r in c.checks:
-            if r.check == kind:
-                return r
-    return c.checks[0] if c.checks else None
-
-
 def _plan_words(ev: Evaluation) -> str:
     min_n = ev.spec.min_n_text
     unit = {"part": "parts", "lot": "lots"}.get(ev.spec.unit_of_analysis, "units")
@@ -177,20 +169,12 @@ def margin_text(margin: tuple[float, float] | None, side: str = "two-sided") -> 
     return f"{low:+g} to {high:+g}"
 
 
-def rate_limit_text(r: CheckResult) -> str:
-    """A pass-fail check's criterion: "max 1%" (rate) or "below +0.5 points" (rate_shift)."""
-    if r.check == "rate" and r.extra.get("max") is not None:
-        return f"max {100 * r.extra['max']:g}%"
-    if r.check == "rate_shift" and r.extra.get("margin") is not None:
-        return f"below +{100 * r.extra['margin']:g} points"
-    return "none (exact test)" if r.check == "rate_shift" else "none"
-
-
 def check_n(c: CharacteristicResult, r: CheckResult) -> int | None:
-    """The n a check rests on: the smaller process for a comparison, the new one otherwise."""
-    if r.check == "shift" and c.pairs is not None:
-        return c.pairs
-    ns = [p.n for k, p in c.processes.items() if r.check == "shift" or k == "new"]
+    """The n a check rests on: as the kind's report hook says (``rests_on``; e.g. the smaller
+    process for a comparison), else the new process's."""
+    if has_report(r.check, "rests_on"):
+        return report_hook(r.check, "rests_on", c, r)
+    ns = [p.n for k, p in c.processes.items() if k == "new"]
     return min(ns) if ns else None
 
 

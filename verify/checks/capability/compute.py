@@ -1,0 +1,101 @@
+"""The capability check's computation on the candidate stream's parts, calling
+:mod:`verify.stats` only: Cpk or Ppk (with its lower confidence bound) for a normal model, the
+percentile Ppk (ISO 22514-2) for a fitted non-normal one.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ...decide import fmt
+from ...model import CheckResult
+from ...stats import capability as cap
+from ...stats import distributions
+from ..drafting import CANNOT_COMPUTE, CheckInput, Draft, cannot_compute, finite, no_fit
+from .result import CapabilityDetails, PercentileCapabilityDetails
+from .rule import CAPABILITY
+
+PER_STREAM = False  # judged on the whole new process, not per data.stream sub-stream
+
+
+def draft(kind, inp: CheckInput) -> Draft:
+    """The capability check of one characteristic."""
+    ch = inp.ch
+    if ch.distribution != "normal":
+        return _draft_percentile(kind, inp)
+    conf = inp.config(kind.name)
+    cand = inp.data.candidate
+    lower, upper = ch.lower, ch.upper
+    label, level = conf.label, conf.confidence
+    judged = (f"the lower {fmt(100 * level)}% confidence bound of the new process's "
+              f"{label}" if conf.judge == "lower_bound" else f"the new process's {label}")
+    hyp = f"{judged} for {ch.name} is at least {fmt(conf.min)}"
+    subgroups = None
+    if conf.subgroup == "lot":
+        subgroups = np.asarray(cand.lots, dtype=object)
+    try:
+        r = cap.capability(cand.parts, lower=lower, upper=upper, target=ch.target,
+                           subgroups=subgroups)
+        lb95 = r.cpk_lower_bound(0.95)
+        bound = r.lower_bound(conf.index, level)
+    except CANNOT_COMPUTE as err:
+        return cannot_compute(kind.name, f"process capability ({label})", hyp, err)
+    value = r.cpk if conf.index == "cpk" else r.ppk
+    v = CAPABILITY.decide(cpk=value, lower_bound=finite(bound), min_cpk=conf.min,
+                          index=label, judge=conf.judge, confidence=level)
+    bound_df = r.sigma_within_df if conf.index == "cpk" else float(r.n - 1)
+    details = CapabilityDetails(
+        cp=finite(r.cp), cpk=r.cpk, cpl=finite(r.cpl), cpu=finite(r.cpu),
+        pp=finite(r.pp), ppk=finite(r.ppk), cpm=finite(r.cpm),
+        sigma_within=r.sigma_within, sigma_overall=r.sigma_overall,
+        sigma_method=r.sigma_method, mean=r.mean, n=r.n,
+        min_cpk=conf.min if conf.index == "cpk" else None,
+        cpk_lower_95=finite(lb95),
+        index=conf.index, judge=conf.judge, min=conf.min, confidence=level,
+        lower_bound=finite(bound), bound_df=bound_df,
+    )
+    sigma = (f"Cpk ({r.sigma_method})" if conf.index == "cpk"
+             else "Ppk (overall sample sd)")
+    judge = ("its lower bound judged" if conf.judge == "lower_bound"
+             else "the estimate judged")
+    res = CheckResult(
+        check=kind.name, method=f"{sigma}; {judge}", hypothesis=hyp,
+        alternative=None, margin=None, outcome=v.outcome, reason=v.reason, estimate=value,
+        ci_low=finite(bound), ci_high=None, ci_level=level, details=details,
+        power_note=(f"no power figure: capability compares {label} with min, not a test"
+                    if conf.judge == "estimate" else
+                    f"no power figure: the lower bound of {label} is compared with min"),
+    )
+    return Draft(result=res)
+
+
+def _draft_percentile(kind, inp: CheckInput) -> Draft:
+    """Capability of a fitted non-normal model: the percentile method (ISO 22514-2), the
+    percentile Ppk judged on its estimate against min."""
+    ch = inp.ch
+    conf = inp.config(kind.name)
+    hyp = (f"the new process's percentile Ppk ({ch.distribution} fit) for {ch.name} is at "
+           f"least {fmt(conf.min)}")
+    if inp.fit is None:
+        return no_fit(kind.name, inp, hyp)
+    f = inp.fit
+    pi = distributions.percentile_indices(f, lower=ch.lower, upper=ch.upper)
+    below, above = distributions.expected_beyond(f, lower=ch.lower, upper=ch.upper)
+    v = CAPABILITY.decide(cpk=pi.ppk, lower_bound=None, min_cpk=conf.min,
+                          index=f"percentile Ppk ({ch.distribution})")
+    details = PercentileCapabilityDetails(
+        pp=finite(pi.pp), ppl=finite(pi.ppl), ppu=finite(pi.ppu), ppk=pi.ppk,
+        x_0_135=pi.x_low, x_50=pi.x_mid, x_99_865=pi.x_high,
+        distribution=ch.distribution, fit=f.words,
+        expected_ppm_below=1e6 * below, expected_ppm_above=1e6 * above,
+        index="ppk", judge="estimate", min=conf.min, confidence=conf.confidence,
+        lower_bound=None, n=f.n,
+    )
+    res = CheckResult(
+        check=kind.name, method=f"percentile Ppk, {pi.method}; {ch.distribution} fit by "
+        "maximum likelihood; the estimate judged", hypothesis=hyp, alternative=None,
+        margin=None, outcome=v.outcome, reason=v.reason, estimate=pi.ppk, details=details,
+        power_note="no power figure: capability compares the percentile Ppk with min, not a "
+                   "test",
+    )
+    return Draft(result=res)

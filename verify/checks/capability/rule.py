@@ -1,0 +1,60 @@
+"""The rule of the capability check: the index (or its lower bound) against min.
+"""
+
+from __future__ import annotations
+
+from ...decide import Verdict, fmt
+
+
+class CapabilityRule:
+    key = "capability"
+
+    def describe(self, alpha: float) -> str:
+        return (
+            "Capability: HOLD when the new process's capability index (the spec's index: Cpk "
+            "from the within-process sigma, or Ppk from the overall sd) is below the spec's "
+            "min; with judge: lower_bound, when its lower one-sided confidence bound (at the "
+            "spec's confidence) is below min. The index and its lower bound are reported "
+            "either way. Otherwise PASS."
+        )
+
+    def decide(self, *, cpk: float, lower_bound: float | None, min_cpk: float,
+               index: str = "Cpk", judge: str = "estimate",
+               confidence: float = 0.95) -> Verdict:
+        level = f"{fmt(100 * confidence)}%"
+        lb = (f", lower {level} bound {fmt(lower_bound, 3)}" if lower_bound is not None
+              else "")
+        if judge == "lower_bound":
+            if lower_bound is None:
+                return Verdict("HOLD", f"the lower {level} bound of {index} cannot be computed "
+                               f"(new {index} {fmt(cpk, 3)})")
+            head = f"the lower {level} bound of the new {index} ({fmt(cpk, 3)})"
+            if lower_bound < min_cpk:
+                return Verdict("HOLD", f"{head}, {fmt(lower_bound, 3)}, is below "
+                               f"{fmt(min_cpk)}")
+            return Verdict("PASS", f"{head}, {fmt(lower_bound, 3)}, meets {fmt(min_cpk)}")
+        if cpk < min_cpk:
+            return Verdict("HOLD", f"new {index} {fmt(cpk, 3)} is below {fmt(min_cpk)}{lb}")
+        return Verdict("PASS", f"new {index} {fmt(cpk, 3)} meets {fmt(min_cpk)}{lb}")
+
+
+CAPABILITY = CapabilityRule()
+
+
+def rules(kind) -> tuple:
+    """The kind's rules in the order the workbook prints their sentences."""
+    return (CAPABILITY,)
+
+
+def review(kind, res, spec) -> list[str]:
+    """Review notes on a decided check (without the "review: <characteristic>: " lead): an
+    index judged on its estimate that PASSes while its lower confidence bound is below min."""
+    x = res.details
+    if res.outcome != "PASS" or x is None or x.judge != "estimate":
+        return []
+    lb = x.lower_bound
+    if lb is None or lb >= x.min:
+        return []
+    name = "Cpk" if x.index == "cpk" else "Ppk"
+    return [f"{name} meets {fmt(x.min)} but its lower {fmt(100 * x.confidence)}% bound "
+            f"{fmt(lb, 3)} does not"]

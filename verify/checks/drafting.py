@@ -1,0 +1,153 @@
+"""What every kind's ``compute`` hook receives and returns: named streams in, a draft out.
+
+A characteristic's measurements reach the checks as named :class:`Stream` objects: one declared
+reference (today the old process, ``"old"``) and the stream compared with it (today the new
+process, ``"new"``, or one of its ``data.stream`` sub-streams). A :class:`Comparison` holds one
+such pair; a check's arithmetic reads ``reference`` and ``candidate`` and never a process name,
+so that more candidate streams need no change to the checks.
+
+A compute hook returns a :class:`Draft`: the check's result before multiplicity, and, for a
+check that belongs to the multiplicity family, its family p-value and the two callables that
+finish it once the family is known (``complete`` and ``finish``).
+
+Only the typed errors of the statistics layer that say the data cannot support the computation
+(:data:`CANNOT_COMPUTE`) become a HOLD "cannot be computed"; anything else is a fault of verify
+and propagates.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any
+
+from ..stats.errors import DegenerateDataError, NotApplicableError
+
+if TYPE_CHECKING:  # annotations only: keep this module light
+    import numpy as np
+
+    from ..decide import Verdict
+    from ..model import CheckResult
+    from ..spec_model import Characteristic, Spec
+
+# the errors that mean "these data cannot support this computation" (HOLD with the reason)
+CANNOT_COMPUTE = (DegenerateDataError, NotApplicableError)
+
+
+def finite(x) -> float | None:
+    """``x`` as a float, or None where it is missing or not finite (no NaN flows on)."""
+    if x is None:
+        return None
+    x = float(x)
+    return x if math.isfinite(x) else None
+
+
+@dataclass(frozen=True)
+class Stream:
+    """The used measurements of one named stream of one characteristic.
+
+    Attributes
+    ----------
+    name : str
+        ``"old"`` (the reference today), ``"new"``, or a ``data.stream`` value.
+    values : numpy.ndarray or None
+        The analysis units (parts, or lot means with ``unit_of_analysis: lot``) in production
+        order; None for a reference stream without values.
+    parts : numpy.ndarray or None
+        The part values in production order; None for a reference stream without values.
+    lots : tuple
+        The lot of each part value.
+    counts : object, optional
+        Pass-fail characteristics: the stream's inspected and failed counts by lot
+        (:class:`verify.evaluate_pass_fail.Counts`).
+    """
+
+    name: str
+    values: np.ndarray | None
+    parts: np.ndarray | None
+    lots: tuple = ()
+    counts: Any = None
+
+
+@dataclass(frozen=True)
+class Comparison:
+    """A candidate stream against the declared reference stream.
+
+    ``pairs`` holds the matched pairs when the location check runs on them (paired shift
+    design), ``spread_pairs`` those the spread check runs on (``data.pair`` declared).
+    """
+
+    reference: Stream
+    candidate: Stream
+    pairs: Any = None
+    spread_pairs: Any = None
+
+
+@dataclass(frozen=True)
+class CheckInput:
+    """Everything a kind's ``compute.draft`` may read for one characteristic."""
+
+    spec: Spec
+    ch: Characteristic
+    data: Comparison
+    final: bool = False
+    fit: Any = None  # distributions.DistributionFit of the candidate's parts (non-normal models)
+    fit_error: str | None = None
+
+    def config(self, name: str):
+        """The spec's settings of the check called ``name`` for this characteristic."""
+        return getattr(self.ch.checks, name)
+
+
+@dataclass
+class Draft:
+    """A check computed but not yet decided (family members wait for multiplicity).
+
+    Attributes
+    ----------
+    result : CheckResult
+        The result as far as it is known.
+    family_p : float or None
+        The p-value that enters the multiplicity adjustment (family members only).
+    harm_shown : bool
+        The data show harm, not merely a lack of evidence (the check stays HOLD while planned
+        data are still arriving).
+    finish : callable or None
+        ``finish(p_adjusted, adjusted) -> Verdict``: the decision once the family is adjusted.
+        A draft with ``finish`` is a member of the family.
+    complete : callable or None
+        ``complete(alpha_used, family_size) -> dict``: the result's fields that depend on the
+        level (interval, critical value, power), run once the family's size is known.
+    family : bool
+        A test that HOLDs on significance: a member of the family unless it could not be
+        computed (then listed apart).
+    batch : dict or None
+        A question its compute hook's ``complete_batch`` answers for all drafts at once.
+    """
+
+    result: CheckResult
+    family_p: float | None = None
+    harm_shown: bool = False
+    finish: Callable[[float, bool], Verdict] | None = None
+    complete: Callable[[float, int], dict] | None = None
+    family: bool = False
+    batch: dict | None = None
+
+
+def cannot_compute(check: str, method: str, hypothesis: str, err: object, **fields) -> Draft:
+    """A HOLD "cannot be computed: <reason>" draft for data that cannot support the check."""
+    from ..model import CheckResult
+
+    res = CheckResult(
+        check=check, method=method, hypothesis=hypothesis, alternative=None, margin=None,
+        outcome="HOLD", reason=f"cannot be computed: {err}", **fields,
+    )
+    return Draft(result=res)
+
+
+def no_fit(check: str, inp: CheckInput, hypothesis: str) -> Draft:
+    """HOLD: the declared non-normal model could not be fitted to the candidate's parts."""
+    dist = inp.ch.distribution
+    return cannot_compute(check, f"{dist} fit", hypothesis,
+                          f"the {dist} fit of the new parts: {inp.fit_error}")

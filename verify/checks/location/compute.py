@@ -1,0 +1,286 @@
+"""The location checks' computation: the candidate's mean against the target (``target``) or
+against the reference stream's mean (``shift``), calling :mod:`verify.stats` only.
+
+With a margin the check is an equivalence test (TOST) or, where one side alone is harmful, a
+non-inferiority test; without one it is a t-test in the harmful direction and a member of the
+multiplicity family.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+
+from ...decide import fmt, margin_words, p_eq
+from ...model import CheckResult, DiagnosticResult
+from ...stats import equivalence, nonparametric, power, ttests
+from ...stats.core import (
+    confidence_interval,
+    critical_value,
+    mean_sd,
+    require_spread,
+    t_test_from_estimate,
+)
+from ...stats.errors import DegenerateDataError
+from ..drafting import CANNOT_COMPUTE, CheckInput, Comparison, Draft, cannot_compute, finite
+from .result import LocationDetails
+from .rule import difference_rule, margin_rule
+
+DETECT_POWER = 0.8  # the power at which the "smallest detectable shift" note is stated
+PER_STREAM = True  # runs for each data.stream sub-stream of the new process as well
+
+
+def _alternative(side: str) -> str:
+    """The direction of harm as a t-test alternative: a harmful lower value tests 'less'."""
+    return {"two-sided": "two-sided", "lower": "less", "upper": "greater"}[side]
+
+
+def _one_sample(kind) -> bool:
+    """The target check compares the candidate with a number, the shift check with a stream."""
+    return kind.name == "target"
+
+
+def _effect(design: str, ch, data: Comparison):
+    ref, cand = data.reference, data.candidate
+    if design == "one-sample":
+        return ttests.effect("one-sample", cand.values, target=ch.target)
+    if design == "paired":
+        pv = data.pairs
+        return ttests.effect("paired", pv.new, pv.old)
+    if ref.values is None:
+        raise DegenerateDataError("no old-process values")
+    # a comparison needs the spread of each process: one process with zero spread (or a single
+    # value) would let the other alone set the standard error
+    n_old, _, sd_old = mean_sd(ref.values) if ref.values.size else (0, 0.0, math.nan)
+    require_spread(n_old, sd_old, "old values")
+    n_new, _, sd_new = mean_sd(cand.values) if cand.values.size else (0, 0.0, math.nan)
+    require_spread(n_new, sd_new, "new values")
+    return ttests.effect(design, cand.values, ref.values)
+
+
+def _power_sds(e) -> dict:
+    """The sds the power functions assume: both process sds for Welch, else the common sd."""
+    if e.design == "welch" and e.sd_new is not None and e.sd_old is not None:
+        return {"sd": float(e.sd_new), "sd_old": float(e.sd_old)}
+    return {"sd": float(e.sd)}
+
+
+def _try(fn, *args, **kwargs):
+    """A planning figure, or None where it does not exist for these data (e.g. a shift outside
+    the margin): only the statistics layer's typed "cannot" errors mean that."""
+    try:
+        return fn(*args, **kwargs)
+    except CANNOT_COMPUTE:
+        return None
+
+
+def _ratio(n_new: int, n_old: int | None) -> float:
+    return 1.0 if not n_old else n_new / n_old
+
+
+def shows_empty_reference(kind) -> bool:
+    """The shift check is a difference from the reference stream: its summary is shown even
+    when the reference has no values."""
+    return not _one_sample(kind)
+
+
+def pairs_role(kind, conf) -> str | None:
+    """Which matched pairs of the :class:`Comparison` a paired shift design runs on."""
+    return "pairs" if getattr(conf, "design", None) == "paired" else None
+
+
+def draft(kind, inp: CheckInput) -> Draft:
+    """The target or shift check of one characteristic on one comparison of streams."""
+    spec, ch = inp.spec, inp.ch
+    alpha = spec.alpha
+    conf = inp.config(kind.name)
+    if _one_sample(kind):
+        design = "one-sample"
+        subject = f"the new-process mean of {ch.name} minus its target {fmt(ch.target)}"
+        noun = "departure"
+    else:
+        design = conf.design
+        subject = f"the new-process mean of {ch.name} minus the old-process mean"
+        noun = "shift"
+    margin = conf.margin
+    unit = ch.unit
+    try:
+        e = _effect(design, ch, inp.data)
+    except CANNOT_COMPUTE as err:
+        what = "TOST" if margin is not None else "t-test"
+        dr = cannot_compute(kind.name, f"{what} ({design})", subject, err, design=design)
+        dr.family = margin is None
+        return dr
+    n_new, n_old = e.n_new, e.n_old
+    sds = _power_sds(e)
+    ratio = _ratio(n_new, n_old) if design in ("welch", "pooled") else 1.0
+    common = dict(
+        estimate=e.estimate, standard_error=e.standard_error, df=e.df, design=design,
+        details=LocationDetails(n_new=n_new, n_old=n_old, sd=float(e.sd)),
+    )
+    if margin is not None:
+        return _draft_margin(kind, inp, e, subject, noun, sds, ratio, common)
+
+    # no margin: a difference test in the harmful direction. Under holm or bonferroni the
+    # interval, critical value and power figures use the Bonferroni level alpha / m, m the size
+    # of the family actually adjusted, so that they agree with the adjusted decision (for Holm
+    # they are conservative); they are filled in by ``complete`` once the family is known.
+    alternative = _alternative(ch.side)
+    r = t_test_from_estimate(e.estimate, e.standard_error, e.df, alternative=alternative,
+                             method=e.method)
+    direction = {"two-sided": "differs from", "less": "is below", "greater": "is above"}
+    hyp = f"{subject} {direction[alternative]} 0"
+    rule = difference_rule(kind)
+    res = CheckResult(
+        check=kind.name, method=r.method, hypothesis=hyp, alternative=alternative, margin=None,
+        outcome="PASS", reason="", statistic=r.statistic, p_value=r.pvalue, **common,
+    )
+    found = {}
+
+    def complete(eff_alpha, family_size):
+        ci = r.confidence_interval(1 - eff_alpha)
+        detectable = _try(power.detectable_shift, n_new=n_new, n_old=n_old, design=design,
+                          alpha=eff_alpha, alternative=alternative, power=DETECT_POWER, **sds)
+        found["detectable"] = detectable
+        pw = size = None
+        at = "" if eff_alpha == alpha else f" at the adjusted level alpha/{family_size}"
+        if conf.detect is not None:
+            # detect is a size; a harmful departure downwards is a negative shift
+            shift = -conf.detect if alternative == "less" else conf.detect
+            pw = _try(power.power_t, shift, n_new=n_new, n_old=n_old, design=design,
+                      alpha=eff_alpha, alternative=alternative, **sds)
+            size = _try(power.sample_size_t, shift, design=design, alpha=eff_alpha,
+                        alternative=alternative, power=spec.plan.power, ratio=ratio, **sds)
+            note = f"power to detect a {noun} of {fmt(conf.detect)} {unit}".rstrip() + at
+        else:
+            note = (f"no detect value declared; the {noun} detected with {DETECT_POWER:.0%} "
+                    f"power is {fmt(detectable)} {unit}".rstrip() + at)
+        return dict(ci_low=ci.low, ci_high=ci.high, ci_level=1 - eff_alpha,
+                    critical_value=r.critical_value(eff_alpha), power=finite(pw),
+                    power_note=note, detectable_shift=finite(detectable),
+                    planned_n=size.n_new if size is not None else None)
+
+    def finish(p_adj, adjusted):
+        return rule.decide(pvalue=p_adj, alpha=alpha, estimate=e.estimate, unit=unit,
+                           detectable=finite(found.get("detectable")), adjusted=adjusted)
+
+    return Draft(result=res, family_p=r.pvalue, finish=finish, complete=complete, family=True)
+
+
+def _draft_margin(kind, inp: CheckInput, e, subject: str, noun: str, sds: dict, ratio: float,
+                  common: dict) -> Draft:
+    """Equivalence (two-sided) or non-inferiority (one harmful side) against the margin."""
+    spec, ch = inp.spec, inp.ch
+    alpha = spec.alpha
+    margin = inp.config(kind.name).margin
+    unit = ch.unit
+    design = common["design"]
+    n_new, n_old = e.n_new, e.n_old
+    low, high = margin.low, margin.high
+    level = 1 - 2 * alpha
+    ci = confidence_interval(e.estimate, e.standard_error, e.df, level=level)
+    true_shift = spec.plan.true_shift
+    batch = None
+    if ch.side == "two-sided":
+        r = equivalence.tost_from_estimate(
+            e.estimate, e.standard_error, e.df, low=low, high=high,
+            method=f"TOST ({e.method})")
+        pval = r.pvalue
+        tost_fields = dict(p_lower=r.p_lower, p_upper=r.p_upper,
+                           statistic_lower=r.statistic_lower,
+                           statistic_upper=r.statistic_upper)
+        statistic = r.statistic_lower if r.p_lower >= r.p_upper else r.statistic_upper
+        hyp = f"{subject} lies inside {margin_words(low, high, unit)}"
+        alternative = "equivalence"
+        # the power and planned n are computed for all characteristics together
+        # (complete_batch)
+        batch = {"sd_old": None, **sds, "true_shift": true_shift, "n_new": n_new,
+                 "n_old": n_old, "design": design, "alpha": alpha, "low": low,
+                 "high": high, "power": spec.plan.power, "ratio": ratio}
+        pw = size = None
+    else:
+        harmful = ch.side
+        bound = low if harmful == "lower" else high
+        r = equivalence.noninferiority_from_estimate(
+            e.estimate, e.standard_error, e.df, bound=bound, harmful=harmful,
+            method=f"non-inferiority ({e.method})")
+        pval = r.pvalue
+        statistic = r.statistic
+        if harmful == "lower":
+            tost_fields = dict(p_lower=r.pvalue, statistic_lower=r.statistic)
+            hyp = f"{subject} is no lower than {fmt(bound)} {unit}".rstrip()
+        else:
+            tost_fields = dict(p_upper=r.pvalue, statistic_upper=r.statistic)
+            hyp = f"{subject} is no higher than +{fmt(bound)} {unit}".rstrip()
+        alternative = r.alternative
+        pw = _try(power.power_noninferiority, true_shift, n_new=n_new, n_old=n_old,
+                  design=design, alpha=alpha, bound=bound, harmful=harmful, **sds)
+        size = _try(power.sample_size_noninferiority, true_shift, design=design,
+                    alpha=alpha, bound=bound, harmful=harmful, power=spec.plan.power,
+                    ratio=ratio, **sds)
+    rule = margin_rule(kind)
+    verdict = rule.decide(pvalue=pval, alpha=alpha, low=low, high=high,
+                          ci=(ci.low, ci.high), unit=unit, side=ch.side)
+    res = CheckResult(
+        check=kind.name, method=r.method, hypothesis=hyp, alternative=alternative,
+        margin=(low, high), outcome=verdict.outcome, reason=verdict.reason,
+        statistic=statistic, p_value=pval, ci_low=ci.low, ci_high=ci.high, ci_level=level,
+        critical_value=critical_value(e.df, alpha, "greater"), power=finite(pw),
+        power_note=(f"power of this test if the true {noun} is "
+                    f"{fmt(true_shift)} and the sd is as observed"),
+        planned_n=size.n_new if size is not None else None, **tost_fields, **common,
+    )
+    harm = rule.harm_shown(ci=(ci.low, ci.high), low=low, high=high, side=ch.side)
+    return Draft(result=res, harm_shown=verdict.outcome == "HOLD" and harm, batch=batch)
+
+
+def complete_batch(drafts: list[Draft]) -> None:
+    """The TOST power and planned n of every equivalence draft at once: one vectorised
+    integration for all characteristics costs far less than one per check (results are the
+    same as power.power_tost and power.sample_size_tost one at a time)."""
+    asked = [dr for dr in drafts if dr.batch is not None]
+    if not asked:
+        return
+    answers = power.plan_tost_many([dr.batch for dr in asked])
+    for dr, (pw, size) in zip(asked, answers, strict=True):
+        dr.result = replace(dr.result, power=finite(pw),
+                            planned_n=size.n_new if size is not None else None)
+        dr.batch = None
+
+
+def companions(kind, inp: CheckInput, dr: Draft) -> list[DiagnosticResult]:
+    """The rank-test companion of the t-test, for sensitivity; flagged when it disagrees."""
+    res = dr.result
+    if res.p_value is None:
+        return []
+    alpha = inp.spec.alpha
+    data = inp.data
+    check = kind.name
+    alt = res.alternative if res.margin is None else "two-sided"
+    try:
+        if _one_sample(kind):
+            rt = nonparametric.wilcoxon_signed_rank(data.candidate.values - inp.ch.target,
+                                                    alternative=alt)
+            group = "new"
+        elif data.pairs is not None:
+            pv = data.pairs
+            rt = nonparametric.wilcoxon_signed_rank(pv.new - pv.old, alternative=alt)
+            group = "differences"
+        else:
+            if data.reference.values is None:
+                return []
+            rt = nonparametric.mann_whitney(data.reference.values, data.candidate.values,
+                                            alternative=alt)
+            group = "old vs new"
+    except CANNOT_COMPUTE as err:
+        return [DiagnosticResult(name="rank companion", method=f"rank test for the {check}",
+                                 group=check, flag=False, note=f"not applicable: {err}")]
+    disagree = False
+    if res.margin is None:
+        disagree = (rt.pvalue < alpha) != (res.p_value < alpha)
+    ties = f", {rt.n_zero} zero difference(s)" if getattr(rt, "n_zero", 0) else ""
+    return [DiagnosticResult(
+        "rank companion", rt.method, group, disagree,
+        (f"{check}: the rank test disagrees with the t-test ({p_eq(rt.pvalue)})"
+         if disagree else f"{check}: rank test {p_eq(rt.pvalue)}{ties}"),
+        statistic=rt.statistic, p_value=rt.pvalue)]

@@ -1,0 +1,169 @@
+"""The spread check's computation, on the structure of the data, calling :mod:`verify.stats`
+only: the matched pairs where ``data.pair`` is declared (Pitman-Morgan), the pooled within-lot
+variances with ``unit_of_analysis: lot``, else the two samples (F-test or Brown-Forsythe). A
+member of the multiplicity family: its interval level waits for the family.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+
+from ...decide import fmt, p_eq
+from ...model import CheckResult, DiagnosticResult
+from ...stats import spread
+from ...stats import variance_components as vc
+from ...stats.errors import DegenerateDataError
+from ...stats.paired_spread import pitman_morgan
+from ..drafting import CANNOT_COMPUTE, CheckInput, Draft, cannot_compute, finite
+from .result import LotSpreadDetails, PairedSpreadDetails, TwoSampleSpreadDetails
+from .rule import SPREAD
+
+PER_STREAM = True  # runs for each data.stream sub-stream of the new process as well
+
+
+def pairs_role(kind, conf) -> str | None:
+    """Which matched pairs of the :class:`Comparison` the spread test runs on (``data.pair``
+    declared: Pitman-Morgan)."""
+    return "spread_pairs" if conf.design == "paired" else None
+
+
+def draft(kind, inp: CheckInput) -> Draft:
+    """The spread check of one characteristic on one comparison of streams."""
+    spec, ch = inp.spec, inp.ch
+    alpha = spec.alpha
+    conf = inp.config(kind.name)
+    hyp = f"the new process's standard deviation of {ch.name} is larger than the old one's"
+    ref, cand = inp.data.reference, inp.data.candidate
+    pv = inp.data.spread_pairs
+    note = ""
+    what = "sd ratio new/old"
+    desc = None  # the F-test beside a Brown-Forsythe decision, descriptive only
+    try:
+        if pv is not None:
+            r = pitman_morgan(pv.old, pv.new, alternative="greater")
+            two = pitman_morgan(pv.old, pv.new, alternative="two-sided")
+            method, stat, df, est, p = r.method, r.statistic, r.df, r.estimate, r.pvalue
+            details = PairedSpreadDetails(correlation=r.correlation, pairs=len(pv.keys))
+            design = "paired"
+
+            def interval(level, _two=two):
+                return _two.confidence_interval(level)
+        elif spec.unit_of_analysis == "lot":
+            if ref.parts is None:
+                raise DegenerateDataError("no old-process values")
+            hyp = (f"the new process's within-lot standard deviation of {ch.name} is larger "
+                   "than the old one's")
+            ref_lots = np.asarray(ref.lots, dtype=object)
+            cand_lots = np.asarray(cand.lots, dtype=object)
+            w = vc.within_lot_spread(ref.parts, ref_lots, cand.parts, cand_lots,
+                                     alternative="greater")
+            two = vc.within_lot_spread(ref.parts, ref_lots, cand.parts, cand_lots,
+                                       alternative="two-sided")
+            method, stat, df, est, p = w.method, w.statistic, float(w.df_num), w.estimate, w.pvalue
+            what = "within-lot sd ratio new/old"
+            details = LotSpreadDetails(
+                df_num=w.df_num, df_den=w.df_den, F=w.statistic,
+                sd_within_lot_old=w.old.sd_within, sd_within_lot_new=w.new.sd_within,
+                sd_between_lot_old=w.old.sd_between, sd_between_lot_new=w.new.sd_between,
+                between_lot_ratio=finite(w.between_ratio),
+                compared=("pooled within-lot variances (F on sum(n_i - 1) df); the "
+                          "between-lot sds are reported beside it and do not decide"),
+            )
+            between = (fmt(w.between_ratio) if w.between_ratio is not None
+                       else "n/a (the old between-lot sd is 0)")
+            note = f"; between-lot sd ratio {between}, reported only"
+            design = "lot components"
+
+            def interval(level, _two=two):
+                return _two.confidence_interval(level)
+        else:
+            if ref.values is None:
+                raise DegenerateDataError("no old-process values")
+            f = spread.f_test(ref.values, cand.values, alternative="greater")
+            f_two = spread.f_test(ref.values, cand.values, alternative="two-sided")
+            details = TwoSampleSpreadDetails(df_num=f.df_num, df_den=f.df_den, F=f.statistic)
+            design = "two-sample"
+            if conf.design_given and spec.data.pair is not None:
+                note = "; pairs ignored: the spec declares spread design: independent"
+                details = replace(details,
+                                  pairs_ignored="spec declares spread design: independent")
+            if conf.method == "brown-forsythe":
+                b = spread.brown_forsythe(ref.values, cand.values, alternative="greater")
+                b_two = spread.brown_forsythe(ref.values, cand.values, alternative="two-sided")
+                # the estimate and interval are the Brown-Forsythe test's own: the difference
+                # of mean absolute deviations from the medians (new - old); the sd ratio and
+                # its F interval are shown beside it as descriptive figures only
+                method, stat, df, est, p = b.method, b.statistic, float(b.df_den), b.estimate, \
+                    b.pvalue
+                what = "mean absolute deviation new - old"
+                details = replace(details, mad_old=b.mad_old, mad_new=b.mad_new,
+                                  sd_ratio_descriptive=f.estimate)
+                note += f"; sd ratio {fmt(f.estimate)}, descriptive"
+
+                def interval(level, _b=b_two):
+                    return _b.confidence_interval(level)
+                desc = f_two
+            else:
+                method, stat, df, est, p = f.method, f.statistic, float(f.df_num), f.estimate, \
+                    f.pvalue
+
+                def interval(level, _f=f_two):
+                    return _f.confidence_interval(level)
+    except CANNOT_COMPUTE as err:
+        dr = cannot_compute(kind.name, "spread test", hyp, err)
+        dr.family = True
+        return dr
+    res = CheckResult(
+        check=kind.name, method=method, hypothesis=hyp, alternative="greater", margin=None,
+        outcome="PASS", reason="", estimate=est, statistic=stat, df=df, p_value=p,
+        design=design, details=details,
+        power_note="no power figure: the spec declares no spread increase that must be seen",
+    )
+    found = {}
+
+    def complete(eff_alpha, family_size):
+        # two-sided (1 - 2 alpha) interval: its lower end is the one-sided bound at alpha
+        level = 1 - 2 * eff_alpha
+        ci = interval(level)
+        found["ci"], found["level"] = (ci.low, ci.high), level
+        out = dict(ci_low=ci.low, ci_high=finite(ci.high), ci_level=level)
+        if desc is not None:
+            dci = desc.confidence_interval(level)
+            out["details"] = replace(details, sd_ratio_low_descriptive=dci.low,
+                                     sd_ratio_high_descriptive=finite(dci.high))
+        return out
+
+    def finish(p_adj, adjusted):
+        return SPREAD.decide(pvalue=p_adj, alpha=alpha, ratio=est, ci=found["ci"],
+                             level=found["level"], method=method, adjusted=adjusted,
+                             what=what, note=note)
+
+    return Draft(result=res, family_p=p, finish=finish, complete=complete, family=True)
+
+
+def companions(kind, inp: CheckInput, dr: Draft) -> list[DiagnosticResult]:
+    """The other two-sample spread test beside the deciding one (F-test or Brown-Forsythe),
+    flagged when it disagrees; for the two-sample test only, not for pairs nor for within-lot
+    variances."""
+    spec = inp.spec
+    ref, cand = inp.data.reference, inp.data.candidate
+    usable = (inp.data.spread_pairs is None and spec.unit_of_analysis != "lot"
+              and ref.values is not None)
+    if not usable or dr.result.p_value is None:
+        return []
+    alpha = spec.alpha
+    try:
+        other_bf = inp.config(kind.name).method != "brown-forsythe"
+        o = (spread.brown_forsythe(ref.values, cand.values, alternative="greater") if other_bf
+             else spread.f_test(ref.values, cand.values, alternative="greater"))
+    except CANNOT_COMPUTE as err:
+        return [DiagnosticResult(name="spread companion", method="spread companion",
+                                 group="old vs new", flag=False, note=f"not applicable: {err}")]
+    disagree = (o.pvalue < alpha) != (dr.result.p_value < alpha)
+    return [DiagnosticResult(
+        "spread companion", o.method, "old vs new", disagree,
+        (f"the {o.method} disagrees with the deciding spread test ({p_eq(o.pvalue)})"
+         if disagree else f"{o.method} {p_eq(o.pvalue)}"),
+        statistic=o.statistic, p_value=o.pvalue)]

@@ -1,0 +1,176 @@
+"""Finishing for :func:`verify.evaluate.evaluate`: the batched planning figures, the
+multiplicity family (formed, completed at its level, adjusted and decided through each draft's
+family protocol), the sufficiency rule, review notes and the combined decision of each
+characteristic.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+
+from . import decide
+from .checks import kind
+from .evaluate_gather import CANDIDATES, CharDraft, StreamDraft
+from .model import BeyondLimits, CharacteristicResult, CheckResult, StreamResult
+from .spec_model import Characteristic, Spec
+from .stats import multiplicity
+from .stats.core import mean_sd
+
+
+def complete_batches(drafts: list[CharDraft]) -> None:
+    """Let each kind's compute hook answer its batched questions (e.g. the TOST power and
+    planned n of every characteristic in one vectorised pass) for the characteristics' own
+    checks."""
+    by_hook: dict = {}
+    for d in drafts:
+        for dr in d.checks:
+            mod = kind(dr.result.check).hook("compute")
+            if hasattr(mod, "complete_batch"):
+                by_hook.setdefault(mod, []).append(dr)
+    for mod, drs in by_hook.items():
+        mod.complete_batch(drs)
+
+
+def adjust(drafts: list[CharDraft], method: str, alpha: float
+           ) -> tuple[tuple[str, ...], tuple[str, ...]]:
+    """Form the multiplicity family, complete its checks at the level it implies, adjust its
+    p-values and decide them. Returns the family's and the left-out checks' names.
+
+    The family is every computed check that HOLDs on significance (difference tests and spread
+    tests) across characteristics; a check that cannot be computed is left out of it and counts
+    nowhere (not in the adjustment, not in alpha / m).
+    """
+    def every(d):
+        # the characteristic's own checks, then each stream's, with the name the family lists
+        yield from ((d.ch.name, dr) for dr in d.checks)
+        for st in d.streams:
+            yield from ((f"{d.ch.name} [stream {st.name}]", dr) for dr in st.checks)
+
+    family = [(label, dr) for d in drafts for label, dr in every(d) if dr.finish is not None]
+    excluded = tuple(f"{label}: {dr.result.check}" for d in drafts for label, dr in every(d)
+                     if dr.family and dr.finish is None)
+    names = tuple(f"{label}: {dr.result.check}" for label, dr in family)
+    if not family:
+        return names, excluded
+    adjusted = method != "none"
+    m = len(family)
+    eff_alpha = alpha / m if adjusted else alpha
+    for _, dr in family:
+        dr.result = replace(dr.result, **dr.complete(eff_alpha, m))
+    ps = np.array([dr.family_p for _, dr in family])
+    adj = multiplicity.adjust(ps, method) if adjusted else ps
+    for (_, dr), pa in zip(family, adj, strict=True):
+        v = dr.finish(float(pa), adjusted)
+        dr.harm_shown = v.outcome == "HOLD"
+        dr.result = replace(dr.result, outcome=v.outcome, reason=v.reason,
+                            p_adjusted=float(pa) if adjusted else None)
+        dr.finish = None
+    return names, excluded
+
+
+def _beyond_words(ch: Characteristic, b: BeyondLimits) -> str:
+    """ "2 parts beyond the specification limits (1 below 11.975, 1 above 12.025); ..." """
+    sides = []
+    if b.below:
+        sides.append(f"{b.below} below {decide.fmt(ch.lower, 6)}")
+    if b.above:
+        sides.append(f"{b.above} above {decide.fmt(ch.upper, 6)}")
+    part = "part" if b.total == 1 else "parts"
+    text = f"{b.total} {part} beyond the specification limits ({', '.join(sides)} {ch.unit})"
+    if b.expected_ppm is not None:
+        text += f"; a normal model expects {decide.fmt(b.expected_ppm, 3)} ppm beyond them"
+    return text
+
+
+def finish(spec: Spec, d: CharDraft) -> CharacteristicResult:
+    """The characteristic's result: sufficiency applied, review notes, combined decision."""
+
+    checks = []
+    so_far = []
+    for dr in d.checks:
+        res = dr.result
+        if d.shortfall is not None:
+            so_far.append(f"{res.check} so far: {res.reason}")
+            v = decide.while_pending(decide.Verdict(res.outcome, res.reason),
+                                     harm_shown=dr.harm_shown, shortfall=d.shortfall)
+            res = replace(res, outcome=v.outcome, reason=v.reason)
+        checks.append(res)
+    if d.shortfall is not None and not checks:
+        checks.append(CheckResult(check="sufficiency", method="count against min_n",
+                                  hypothesis="the planned sample size is reached",
+                                  alternative=None, margin=None, outcome="PENDING",
+                                  reason=d.shortfall))
+    review = []
+    for dg in d.diagnostics:
+        if dg.flag:
+            review.append(f"review: {d.ch.name} ({dg.group}): {dg.note}")
+    for name in CANDIDATES:
+        beyond = d.processes[name].beyond_limits if name in d.processes else None
+        if beyond is not None and beyond.total:
+            review.append(f"review: {d.ch.name} ({name}): {_beyond_words(d.ch, beyond)}")
+    for res in checks:
+        k = kind(res.check)
+        notes = k.hook("rule").review(k, res, spec)
+        review.extend(f"review: {d.ch.name}: {note}" for note in notes)
+    if d.final_shortfall is not None:
+        review.append(f"review: {d.ch.name}: final run with the plan cut short "
+                      f"({d.final_shortfall})")
+    if spec.min_n is None and d.counts:
+        smallest = min(d.counts.values())
+        review.append(f"review: {d.ch.name}: no planned sample size (min_n) declared; the "
+                      f"decision rests on n = {smallest}")
+    if d.unmatched:
+        review.append(f"review: {d.ch.name}: {len(d.unmatched)} pair key(s) with one side only "
+                      f"left out of the paired analysis: {', '.join(map(str, d.unmatched[:10]))}")
+    streams = tuple(_finish_stream(d, st) for st in d.streams)
+    outcome = decide.combine([*(c.outcome for c in checks), *(st.decision for st in streams)])
+    if outcome == "PENDING" and d.shortfall is not None:
+        reasons = (d.shortfall, *so_far)
+    else:
+        own = tuple(f"{c.check}: {c.reason}" for c in checks if c.outcome == outcome)
+        named = tuple(f"stream {st.name}: {c.check}: {c.reason}" for st in streams
+                      for c in st.checks if c.outcome == outcome)
+        # a HOLD or PENDING stream leads the reasons, named: a bad cavity must not hide in the
+        # pooled data; a PASS lists the characteristic's own checks first
+        reasons = own + named if outcome == "PASS" else named + own
+        reasons = reasons or ("no checks",)
+    return CharacteristicResult(
+        name=d.ch.name, unit=d.ch.unit, decision=outcome, reasons=reasons,
+        review=tuple(review), processes=d.processes, checks=tuple(checks),
+        diagnostics=tuple(d.diagnostics), spec=d.ch, pairs=d.pairs, unmatched_pairs=d.unmatched,
+        distribution=_distribution_record(d), streams=streams,
+    )
+
+
+def _finish_stream(d: CharDraft, st: StreamDraft) -> StreamResult:
+
+    checks = []
+    for dr in st.checks:
+        res = dr.result
+        if d.shortfall is not None:
+            v = decide.while_pending(decide.Verdict(res.outcome, res.reason),
+                                     harm_shown=dr.harm_shown, shortfall=d.shortfall)
+            res = replace(res, outcome=v.outcome, reason=v.reason)
+        checks.append(res)
+    n = int(st.values.size)
+    mean = sd = None
+    if n:
+        _, mean, s = mean_sd(st.values)
+        sd = s if n >= 2 else None
+    return StreamResult(name=st.name, n=n, mean=mean, sd=sd,
+                        decision=decide.combine(c.outcome for c in checks),
+                        checks=tuple(checks))
+
+
+def _distribution_record(d: CharDraft) -> dict:
+    if d.inp.fit is not None:
+        f = d.inp.fit
+        return {"name": f.name, "parameters": dict(f.parameters), "loglik": f.loglik,
+                "gof_method": f.gof_method, "gof_statistic": f.gof_statistic,
+                "gof_pvalue": f.gof_pvalue}
+    out: dict = {"name": d.ch.distribution}
+    if d.inp.fit_error is not None:
+        out["error"] = d.inp.fit_error
+    return out

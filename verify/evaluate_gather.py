@@ -1,0 +1,192 @@
+"""Gathering for :func:`verify.evaluate.evaluate`: one characteristic's measurements as named
+streams, its process summaries, its planned-size shortfall and the kinds of check that apply.
+
+The measurements reach the checks as named :class:`~verify.checks.drafting.Stream` objects:
+the declared reference (:data:`REFERENCE`, the old process) and the candidate streams compared
+with it (:data:`CANDIDATES`: the new process; a ``data.stream`` column adds the new process's
+sub-streams, each compared with the reference by the kinds that run per stream). Each check
+reads one :class:`~verify.checks.drafting.Comparison` and never a process name.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+
+from . import decide
+from .checks import CheckKind, kinds
+from .checks.drafting import CANNOT_COMPUTE, CheckInput, Comparison, Draft, Stream
+from .data import analysis_values, paired_values, stream_values
+from .model import BeyondLimits, DiagnosticResult, Measurements, ProcessSummary
+from .spec_model import Characteristic, Spec
+from .stats import distributions
+from .stats import variance_components as vc
+from .stats.core import mean_sd
+from .stats.limits import beyond_limits
+
+REFERENCE = "old"  # the declared reference stream: every other stream is compared with it
+CANDIDATES = ("new",)  # the streams compared with the reference, today the new process
+
+
+@dataclass
+class StreamDraft:
+    """The per-stream checks of one ``data.stream`` sub-stream against the reference."""
+
+    name: str
+    values: np.ndarray
+    checks: list[Draft] = field(default_factory=list)
+
+
+@dataclass
+class CharDraft:
+    """One characteristic between gathering and finishing."""
+
+    ch: Characteristic
+    inp: CheckInput  # the streams and settings every check reads
+    processes: dict
+    checks: list[Draft] = field(default_factory=list)
+    diagnostics: list[DiagnosticResult] = field(default_factory=list)
+    shortfall: str | None = None
+    final_shortfall: str | None = None  # the shortfall a --final run overrode
+    counts: dict = field(default_factory=dict)
+    pairs: int | None = None
+    unmatched: tuple = ()
+    streams: list[StreamDraft] = field(default_factory=list)
+
+    @property
+    def data(self) -> Comparison:
+        return self.inp.data
+
+
+def applicable(ch: Characteristic) -> list[CheckKind]:
+    """The kinds of check that run for ``ch``: those its spec declares, of its measure."""
+    measures = "pass_fail" if ch.pass_fail else "measured"
+    return [k for k in kinds()
+            if k.measures == measures and getattr(ch.checks, k.name, None) is not None]
+
+
+def _hook_says(kind: CheckKind, name: str, *args, default=None):
+    """Ask the kind's compute hook an optional question (``default`` when it has no answer)."""
+    mod = kind.hook("compute")
+    fn = getattr(mod, name, None)
+    return default if fn is None else fn(kind, *args)
+
+
+def shows_reference(ch: Characteristic) -> bool:
+    """Whether a declared check is a difference from the reference (then its summary is shown
+    even when the reference has no values)."""
+    return any(_hook_says(k, "shows_empty_reference", default=False) for k in applicable(ch))
+
+
+def sufficiency(spec: Spec, d: CharDraft, counts: dict, final: bool) -> None:
+    """The shortfall against min_n (PENDING while planned units are still arriving)."""
+    plans = None if spec.min_n is None else {k: spec.planned(k) for k in counts}
+    d.shortfall = decide.SUFFICIENCY.shortfall(counts, plans, final)
+    if final:
+        d.final_shortfall = decide.SUFFICIENCY.shortfall(counts, plans, False)
+    d.counts = counts
+
+
+def _beyond(ch: Characteristic, parts: np.ndarray) -> BeyondLimits | None:
+    """Part values beyond the limits (None without limits): counted on parts, never lot means."""
+    if ch.lower is None and ch.upper is None:
+        return None
+    r = beyond_limits(parts, lower=ch.lower, upper=ch.upper)
+    return BeyondLimits(below=r.below, above=r.above, expected_ppm=r.expected_ppm,
+                        expected_ppm_below=r.expected_ppm_below,
+                        expected_ppm_above=r.expected_ppm_above)
+
+
+def _summary(process: str, values: np.ndarray, lots, n_parts: int,
+             parts: np.ndarray | None = None,
+             beyond: BeyondLimits | None = None) -> ProcessSummary:
+    n = int(values.size)
+    mean = sd = None
+    if n:
+        _, m, s = mean_sd(values)
+        mean = m
+        sd = s if n >= 2 else None
+    within = between = None
+    truncated = False
+    if parts is not None and parts.size:
+        try:
+            comp = vc.variance_components(parts, np.asarray(lots, dtype=object))
+            within, between, truncated = comp.sd_within, comp.sd_between, comp.truncated
+        except CANNOT_COMPUTE:
+            pass  # fewer than 2 lots of 2 parts, or no within-lot variation: not estimable
+    return ProcessSummary(
+        sd_within_lot=within, sd_between_lot=between, between_lot_set_to_zero=truncated,
+        process=process,
+        n=n,
+        mean=mean,
+        sd=sd,
+        lots=tuple(dict.fromkeys(str(x) for x in lots)),
+        n_parts=n_parts,
+        minimum=float(values.min()) if n else None,
+        maximum=float(values.max()) if n else None,
+        beyond_limits=beyond,
+    )
+
+
+def _stream(spec: Spec, meas: Measurements, ch: Characteristic, name: str, part_spec: Spec
+            ) -> tuple[Stream, ProcessSummary]:
+    """One named stream of ``ch`` (analysis units and parts) and its summary."""
+    units = analysis_values(meas, spec, ch.name, name)
+    parts = units if part_spec is spec else analysis_values(meas, part_spec, ch.name, name)
+    stream = Stream(name=name, values=units.values, parts=parts.values, lots=tuple(parts.lots))
+    summary = _summary(name, units.values, parts.lots, int(parts.values.size), parts.values,
+                       _beyond(ch, parts.values))
+    return stream, summary
+
+
+def gather(spec: Spec, meas: Measurements, ch: Characteristic, final: bool) -> CharDraft:
+    """The streams, summaries, fit and shortfall of one measured characteristic."""
+    part_spec = replace(spec, unit_of_analysis="part") if spec.unit_of_analysis == "lot" else spec
+    streams, summaries = {}, {}
+    for name in (*CANDIDATES, REFERENCE):
+        streams[name], summaries[name] = _stream(spec, meas, ch, name, part_spec)
+    ref = streams[REFERENCE]
+    # a reference without values holds None, so that no check reads an empty stream
+    ref = replace(ref, values=ref.values if ref.values.size else None,
+                  parts=ref.parts if ref.parts.size else None)
+    processes = {}
+    if ref.values is not None or shows_reference(ch):
+        processes[REFERENCE] = summaries[REFERENCE]
+    for name in CANDIDATES:
+        processes[name] = summaries[name]
+    # the matched pairs, for the kinds whose settings run them on pairs (data.pair declared)
+    roles = {r for k in applicable(ch)
+             if (r := _hook_says(k, "pairs_role", getattr(ch.checks, k.name))) is not None}
+    pairs = paired_values(meas, spec, ch.name) if roles else None
+    (candidate,) = CANDIDATES  # one candidate today: several would give several comparisons
+    data = Comparison(reference=ref, candidate=streams[candidate],
+                      **{role: pairs for role in roles})
+    fit = fit_error = None
+    if ch.distribution in ("lognormal", "weibull", "box-cox"):
+        try:
+            fit = distributions.fit(data.candidate.parts, ch.distribution)
+        except CANNOT_COMPUTE as err:
+            fit_error = str(err)
+    inp = CheckInput(spec=spec, ch=ch, data=data, final=final, fit=fit, fit_error=fit_error)
+    d = CharDraft(ch=ch, inp=inp, processes=processes)
+    counts = {p: s.n for p, s in processes.items()}
+    if pairs is not None:
+        # a check that runs on the pairs has as many units as there are matched pairs
+        d.pairs = len(pairs.keys)
+        d.unmatched = tuple(pairs.unmatched)
+        counts = {"pairs": d.pairs}
+    sufficiency(spec, d, counts, final)
+    return d
+
+
+def sub_streams(meas: Measurements, d: CharDraft) -> list[tuple[StreamDraft, CheckInput]]:
+    """The new process's ``data.stream`` sub-streams, each as a comparison with the reference
+    (unpaired, whole-process lots not carried)."""
+    out = []
+    for name, values in stream_values(meas, d.ch.name).items():
+        cand = Stream(name=name, values=values, parts=values, lots=())
+        inp = replace(d.inp, data=Comparison(reference=d.data.reference, candidate=cand),
+                      fit=None, fit_error=None)
+        out.append((StreamDraft(name=name, values=values), inp))
+    return out
