@@ -23,6 +23,7 @@ from __future__ import annotations
 
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
+from functools import cache
 from typing import Any
 
 
@@ -183,14 +184,17 @@ class CheckSpec:
         raise NotImplementedError
 
 
+@cache
 def check_specs(measures: str | None = None) -> tuple[CheckSpec, ...]:
     """The :class:`CheckSpec` of every registered kind, in registry order (only the kinds for
-    ``measures``, "measured" or "pass_fail", when given)."""
+    ``measures``, "measured" or "pass_fail", when given). Cached: the registry is fixed once
+    discovered, and the loader asks for every characteristic."""
     from .checks import kinds
 
     return tuple(spec_of(k.name) for k in kinds() if measures is None or k.measures == measures)
 
 
+@cache
 def spec_of(name: str) -> CheckSpec:
     """The :class:`CheckSpec` of the kind called ``name``."""
     from .checks import kind
