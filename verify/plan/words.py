@@ -1,0 +1,17 @@
+"""The plan as printed text: a title, then each part's table in the words of its kind."""
+
+from __future__ import annotations
+
+from .compute import words_hook
+from .model import Plan
+
+
+def format_table(plan: Plan) -> str:
+    """The plan as text: a title, then each part's lines (its ``plan`` hook's ``lines``)."""
+    lines = [plan.title if plan.source is None else f"{plan.source}: {plan.title}"]
+    for part in plan.parts:
+        lines.extend(words_hook(part).lines(plan, part))
+    return "\n".join(lines)
+
+
+__all__ = ["format_table"]
