@@ -49,16 +49,17 @@ def main() -> None:
     ap.add_argument("--rows", type=int, default=200_000)
     ap.add_argument("--repeat", type=int, default=3)
     args = ap.parse_args()
-    from verify.data import xlsx as vdata
+    from verify.data import load_measurements
+    from verify.data import xlsx as vxlsx
     from verify.spec import load_spec
 
     with tempfile.TemporaryDirectory() as tmp:
         spec_path = make(Path(tmp), args.rows)
         raw = (Path(tmp) / "lots.xlsx").read_bytes()
         spec = load_spec(spec_path)
-        fast = timed(lambda: vdata._xlsx_rows(raw, "lots.xlsx", None), args.repeat)
-        slow = timed(lambda: vdata._xlsx_rows_openpyxl(raw, "lots.xlsx", None), args.repeat)
-        whole = timed(lambda: vdata.load_measurements(spec), args.repeat)
+        fast = timed(lambda: vxlsx._xlsx_rows(raw, "lots.xlsx", None), args.repeat)
+        slow = timed(lambda: vxlsx._xlsx_rows_openpyxl(raw, "lots.xlsx", None), args.repeat)
+        whole = timed(lambda: load_measurements(spec), args.repeat)
         print(f"{args.rows} rows x 6 columns ({len(raw) / 1e6:.1f} MB), median of "
               f"{args.repeat}:")
         print(f"  read cells, python-calamine : {fast:6.2f} s")

@@ -12,6 +12,7 @@ result at all is an error in any column: it would read as an empty cell, "not me
 
 from __future__ import annotations
 
+from ..data.cells import _column_letter
 from ..errors import DataError, DataIssue
 
 MAX_REPORTED = 20
@@ -86,8 +87,4 @@ def _name(header: list[str], j: int) -> str | None:
 
 
 def _cell(row: int, col: int) -> str:
-    letters, col = "", col + 1
-    while col:
-        col, rem = divmod(col - 1, 26)
-        letters = chr(65 + rem) + letters
-    return f"{letters}{row}"
+    return f"{_column_letter(col)}{row}"
