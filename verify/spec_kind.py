@@ -144,7 +144,9 @@ class CheckSpec:
         When the check does not run: the reason it is off by default ("no target"), "" to
         record a plain "off", None to record nothing.
     suggested : bool
-        Named where a message lists the checks to choose from.
+        Named where a message lists the checks to choose from ("lists no check: name at least
+        one of ..."); a measured check that is suggested is also refused by name when a
+        pass-fail characteristic lists it.
     by_default : str or None
         For the schema's description of ``checks``: when the check runs if ``checks:`` is left
         out, in words after its name ("" always, " (when limits are given)"); None: only when
