@@ -6,6 +6,13 @@ from .compute import words_hook
 from .model import Plan
 
 
+def number(x: float | None) -> str:
+    """A planning number as printed (``-`` where there is none)."""
+    from ..decide import fmt
+
+    return "-" if x is None else fmt(x)
+
+
 def format_table(plan: Plan) -> str:
     """The plan as text: a title, then each part's lines (its ``plan`` hook's ``lines``)."""
     lines = [plan.title if plan.source is None else f"{plan.source}: {plan.title}"]
@@ -14,4 +21,4 @@ def format_table(plan: Plan) -> str:
     return "\n".join(lines)
 
 
-__all__ = ["format_table"]
+__all__ = ["format_table", "number"]

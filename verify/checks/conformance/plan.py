@@ -151,10 +151,7 @@ def plan_spec(ctx: SpecPlanning, kinds: tuple[CheckKind, ...]) -> PlanPart | Non
 
 def lines(plan: Plan, part: PlanPart) -> list[str]:
     """The conformance plans as printed lines, one per check."""
-    from ...decide import fmt
-
-    def num(x: float | None) -> str:
-        return "-" if x is None else fmt(x)
+    from ...plan.words import number as num
 
     out = []
     for c in part.rows:

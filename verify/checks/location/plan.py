@@ -40,7 +40,7 @@ from ...plan.model import (
     sample_sd,
     validate_numbers,
 )
-from .choice import choose_test
+from .choice import ALTERNATIVES, choose_test
 from .plan_model import Scenario
 from .plan_power import plan_scenario
 from .plan_words import lines, method_words
@@ -55,7 +55,7 @@ if TYPE_CHECKING:
 PACKAGE = __name__.rsplit(".", 2)[1]
 TARGET, SHIFT = "target", "shift"  # the two location checks
 STANDALONE_DESIGNS = ("welch", "pooled", "paired", "one-sample")
-SIDES = ("two-sided", "lower", "upper")
+SIDES = tuple(ALTERNATIVES)  # which departure is harmful
 STANDALONE_OPTION = None  # the default standalone form: asked for by no option of its own
 
 

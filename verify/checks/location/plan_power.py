@@ -1,26 +1,18 @@
 """The location checks' plan, computed: for one :class:`~.plan_model.Scenario`, the smallest
 trial reaching the wanted power, the power at the size looked at, the smallest shift a t-test
-finds there, and a power curve. The statistics are :mod:`verify.stats.power`'s (imported when
-first used, so that ``verify --help`` stays quick).
+finds there, and a power curve, by :mod:`verify.stats.power`. The old lot's size follows the
+rule of the stats layer's sample sizes (:func:`verify.stats.sample_size.old_size`).
 """
 
 from __future__ import annotations
 
 import math
 
+from ...stats.sample_size import old_size
 from .choice import EQUIVALENCE, NON_INFERIORITY
 from .plan_model import PlanRow, PowerPoint, Scenario
 
 CURVE_POINTS = 60  # about this many lot sizes on a power curve
-
-
-def old_size(design: str, n_new: int, ratio: float) -> int | None:
-    """The old lot's size for ``n_new``: the rule of :class:`verify.stats.power.SampleSize`."""
-    if design == "one-sample":
-        return None
-    if design == "paired":
-        return n_new
-    return max(2, math.ceil(n_new / ratio - 1e-9))
 
 
 def power_of(s: Scenario, n_new: int) -> float:

@@ -5,6 +5,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 
 from ...plan.model import Plan, PlanPart
+from ...plan.words import number
 from .choice import DIFFERENCE, EQUIVALENCE, NON_INFERIORITY
 from .plan_model import PlanRow, Scenario
 
@@ -64,12 +65,6 @@ def method_words(rows: Sequence[PlanRow]) -> tuple[str, ...]:
     return tuple(out)
 
 
-def _num(x: float | None) -> str:
-    from ...decide import fmt
-
-    return "-" if x is None else fmt(x)
-
-
 def _pct(p: float | None) -> str:
     return "-" if p is None else f"{100 * p:.2f}%"
 
@@ -88,10 +83,10 @@ def requirement(s: Scenario) -> str:
 
     u = f" {s.unit}" if s.unit else ""
     if s.kind == DIFFERENCE:
-        return f"detect {_num(s.detect)}{u}"
+        return f"detect {number(s.detect)}{u}"
     if s.kind == NON_INFERIORITY:
         sign = "+" if s.side == "upper" else ""
-        return f"bound {sign}{_num(s.bound)}{u}"
+        return f"bound {sign}{number(s.bound)}{u}"
     return margin_words(s.low, s.high, s.unit)
 
 
@@ -107,10 +102,10 @@ def table_rows(rows: Sequence[PlanRow]) -> list[tuple[str, ...]]:
         s = r.scenario
         n_rep = ("-" if r.eval_n_new is None else
                  _n_text(r.eval_n_new, r.eval_n_old, s.design) + f" ({s.eval_source})")
-        out.append((s.characteristic or "-", s.check, s.test, _num(s.sd), requirement(s),
-                    _num(s.true_shift), _n_text(r.n_new, r.n_old, s.design), _pct(r.power),
+        out.append((s.characteristic or "-", s.check, s.test, number(s.sd), requirement(s),
+                    number(s.true_shift), _n_text(r.n_new, r.n_old, s.design), _pct(r.power),
                     _pct(r.power_below), n_rep, _pct(r.power_at_eval),
-                    _num(r.detectable_shift)))
+                    number(r.detectable_shift)))
     return out
 
 
@@ -129,7 +124,7 @@ def lines(plan: Plan, part: PlanPart) -> list[str]:
     for r in part.rows:
         s = r.scenario
         who = f"{s.characteristic}, {s.check}" if s.characteristic else s.check
-        lines.append(f"  {who}: sd {_num(s.sd)} from {s.sd_source}")
+        lines.append(f"  {who}: sd {number(s.sd)} from {s.sd_source}")
         if r.note:
             lines.append(f"  {who}: {r.note}")
         elif not r.meets_target_at_eval and s.eval_source != "n needed":
