@@ -151,7 +151,7 @@ def test_plan_gives_the_smallest_n_for_the_assumed_mean_and_sd(tmp_path):
     old = list(_values(40, 10.0, 0.25, 10))
     spec = _spec(tmp_path, _values(5, 10.0, 0.25, 11), old=old)
     plan = vplan.plan_spec(spec, load_measurements(spec), vplan.Options(mean=10.0))
-    (c,) = plan.conformance
+    (c,) = plan.rows_of("conformance")
     sd = float(np.std(old, ddof=1))
     room = 1.0 / sd
     from verify.stats.tolerance import factor_two_sided
@@ -160,7 +160,8 @@ def test_plan_gives_the_smallest_n_for_the_assumed_mean_and_sd(tmp_path):
     assert factor_two_sided(c.n_needed - 1, 0.99, 0.95) > room
     assert "n needed" in vplan.format_table(plan)
     far = vplan.plan_spec(spec, load_measurements(spec), vplan.Options(mean=10.9))
-    assert far.conformance[0].n_needed is None and "no sample size" in far.conformance[0].note
+    (c_far,) = far.rows_of("conformance")
+    assert c_far.n_needed is None and "no sample size" in c_far.note
 
 
 def test_plan_for_distribution_free_and_lognormal_models(tmp_path):
@@ -170,7 +171,7 @@ def test_plan_for_distribution_free_and_lognormal_models(tmp_path):
     (tmp_path / "s.yaml").write_text(text.replace("    limits:", "    distribution: any\n"
                                                   "    limits:"), encoding="utf-8")
     spec = load_spec(tmp_path / "s.yaml")
-    (c,) = vplan.plan_spec(spec, load_measurements(spec), vplan.Options()).conformance
+    (c,) = vplan.plan_spec(spec, load_measurements(spec), vplan.Options()).rows_of("conformance")
     # distribution-free, one-sided 99% / 95%: 299 parts (reference file
     # nonparametric-tolerance.csv; common practice)
     assert c.n_needed == 299 and "order statistics" in c.method
@@ -178,7 +179,7 @@ def test_plan_for_distribution_free_and_lognormal_models(tmp_path):
                                                   "    limits:"), encoding="utf-8")
     spec = load_spec(tmp_path / "s.yaml")
     (c,) = vplan.plan_spec(spec, load_measurements(spec),
-                           vplan.Options(mean=0.03, sd=0.01)).conformance
+                           vplan.Options(mean=0.03, sd=0.01)).rows_of("conformance")
     s2 = math.log1p((0.01 / 0.03) ** 2)
     room = (math.log(0.1) - (math.log(0.03) - s2 / 2)) / math.sqrt(s2)
     from verify.stats.tolerance import factor_one_sided

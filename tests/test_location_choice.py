@@ -54,10 +54,10 @@ def test_unknown_side_is_refused(side):
 ])
 def test_plan_follows_the_map(margin, side):
     """The standalone plan of a check plans the test the map chooses."""
-    from verify.plan import parse_margin, plan_standalone
+    from verify.checks.location.plan import parse_margin, plan_standalone
 
     kw = {"margin": margin} if margin is not None else {"detect": 0.5}
-    (row,) = plan_standalone(sd=1.0, design="pooled", side=side, **kw).rows
+    (row,) = plan_standalone(sd=1.0, design="pooled", side=side, **kw).rows_of("location")
     expected = choose_test(None if margin is None else parse_margin(margin), side)
     s = row.scenario
     assert (s.kind, s.low, s.high, s.bound, s.alternative) == (

@@ -17,7 +17,11 @@ import numpy as np
 import openpyxl
 import pytest
 
+from verify import cli_plan
 from verify import plan as vplan
+from verify.checks.location import plan as lplan
+from verify.checks.location import plan_power
+from verify.checks.location.plan_model import PlanRow
 from verify.data import load_measurements
 from verify.errors import UsageError
 from verify.spec import load_spec
@@ -98,8 +102,8 @@ def _plan(path: Path, **opts) -> vplan.Plan:
     return vplan.plan_spec(spec, load_measurements(spec), vplan.Options(**opts))
 
 
-def _row(plan: vplan.Plan, name: str, check: str) -> vplan.PlanRow:
-    return next(r for r in plan.rows if (r.scenario.characteristic, r.scenario.check)
+def _row(plan: vplan.Plan, name: str, check: str) -> PlanRow:
+    return next(r for r in plan.rows_of("location") if (r.scenario.characteristic, r.scenario.check)
                 == (name, check))
 
 
@@ -109,7 +113,8 @@ def _row(plan: vplan.Plan, name: str, check: str) -> vplan.PlanRow:
 def test_spec_form_plans_each_check_with_the_old_process_sd(spec_path):
     bore, torque, *_ = _lots_csv(spec_path.parent / "lots.csv")  # same seed: same data
     plan = _plan(spec_path)
-    assert [(r.scenario.characteristic, r.scenario.check, r.scenario.kind) for r in plan.rows] == [
+    rows = plan.rows_of("location")
+    assert [(r.scenario.characteristic, r.scenario.check, r.scenario.kind) for r in rows] == [
         ("bore", "target", "equivalence"), ("bore", "shift", "equivalence"),
         ("torque", "shift", "difference")]
     target = _row(plan, "bore", "target")
@@ -130,11 +135,11 @@ def test_spec_form_plans_each_check_with_the_old_process_sd(spec_path):
 
 
 def test_every_n_is_the_smallest_integer_reaching_the_power(spec_path):
-    for row in _plan(spec_path, power=0.95).rows:
+    for row in _plan(spec_path, power=0.95).rows_of("location"):
         s = row.scenario
         assert row.power >= 0.95 > row.power_below
-        assert row.power == pytest.approx(vplan.power_of(s, row.n_new), rel=1e-12)
-        assert vplan.power_of(s, row.n_new - 1) < 0.95
+        assert row.power == pytest.approx(plan_power.power_of(s, row.n_new), rel=1e-12)
+        assert plan_power.power_of(s, row.n_new - 1) < 0.95
 
 
 @pytest.mark.parametrize("design", ["one-sample", "paired", "welch", "pooled"])
@@ -148,17 +153,17 @@ def test_standalone_n_is_minimal_for_every_test_and_design(design, margin, side)
         sd = None
     else:
         sd = 1.3
-    plan = vplan.plan_standalone(sd=sd, design=design, side=side, power=0.85, **kw)
-    (row,) = plan.rows
+    plan = lplan.plan_standalone(sd=sd, design=design, side=side, power=0.85, **kw)
+    (row,) = plan.rows_of("location")
     assert row.power >= 0.85 > row.power_below
-    assert vplan.power_of(row.scenario, row.n_new - 1) < 0.85
+    assert plan_power.power_of(row.scenario, row.n_new - 1) < 0.85
     expected_old = {"one-sample": None, "paired": row.n_new}.get(design, row.n_new)
     assert row.n_old == expected_old
 
 
 def test_ratio_sets_the_old_lot_size():
-    plan = vplan.plan_standalone(sd=1.0, design="pooled", margin="0.5", ratio=2.0)
-    (row,) = plan.rows
+    plan = lplan.plan_standalone(sd=1.0, design="pooled", margin="0.5", ratio=2.0)
+    (row,) = plan.rows_of("location")
     assert row.n_old == math.ceil(row.n_new / 2)
     # the same n from the stats layer directly
     ss = power.sample_size_tost(0.0, 1.0, design="pooled", low=-0.5, high=0.5, power=0.9,
@@ -198,9 +203,9 @@ def test_unit_of_analysis_lot_uses_the_sd_of_lot_means(tmp_path):
 
 def test_planning_before_the_data_file_exists_needs_sd(spec_path, tmp_out, capsys):
     (spec_path.parent / "lots.csv").unlink()
-    assert vplan.main([str(spec_path), "--out", str(tmp_out)]) == 2  # data file not found
+    assert cli_plan.main([str(spec_path), "--out", str(tmp_out)]) == 2  # data file not found
     assert "not found" in capsys.readouterr().err
-    code = vplan.main([str(spec_path), "--sd", "0.003", "--out", str(tmp_out)])
+    code = cli_plan.main([str(spec_path), "--sd", "0.003", "--out", str(tmp_out)])
     assert code == 0
     assert "the data file is not there yet" in capsys.readouterr().out
     assert (tmp_out / "press2-plan.xlsx").is_file()
@@ -246,8 +251,8 @@ def test_check_without_margin_or_detect_is_an_error_naming_it(tmp_path):
 
 
 def test_unreachable_equivalence_is_reported_not_raised():
-    plan = vplan.plan_standalone(sd=1.0, design="welch", margin="0.5", true_shift=0.6)
-    (row,) = plan.rows
+    plan = lplan.plan_standalone(sd=1.0, design="welch", margin="0.5", true_shift=0.6)
+    (row,) = plan.rows_of("location")
     assert row.n_new is None and row.power is None
     assert "not inside the equivalence margins" in row.note
     assert len(row.curve) > 10
@@ -273,19 +278,19 @@ def test_unreachable_equivalence_is_reported_not_raised():
 )
 def test_standalone_usage_errors(kw, words):
     with pytest.raises(UsageError) as exc:
-        vplan.plan_standalone(**kw)
+        lplan.plan_standalone(**kw)
     assert words in exc.value.report()
 
 
 def test_margin_forms():
-    assert vplan.parse_margin("0.5") == (-0.5, 0.5)
-    assert vplan.parse_margin("-0.2,0.3") == (-0.2, 0.3)
-    assert vplan.parse_margin("[-0.2, 0.3]") == (-0.2, 0.3)
+    assert lplan.parse_margin("0.5") == (-0.5, 0.5)
+    assert lplan.parse_margin("-0.2,0.3") == (-0.2, 0.3)
+    assert lplan.parse_margin("[-0.2, 0.3]") == (-0.2, 0.3)
 
 
 def test_non_inferiority_uses_the_harmful_bound():
-    plan = vplan.plan_standalone(sd=1.0, design="pooled", margin="-0.4,0.9", side="lower")
-    (row,) = plan.rows
+    plan = lplan.plan_standalone(sd=1.0, design="pooled", margin="-0.4,0.9", side="lower")
+    (row,) = plan.rows_of("location")
     assert row.scenario.bound == -0.4
     ss = power.sample_size_noninferiority(0.0, 1.0, design="pooled", bound=-0.4,
                                           harmful="lower", power=0.9)
@@ -329,12 +334,12 @@ def test_workbook_holds_inputs_results_method_and_a_chart_per_check(spec_path, t
     assert ws.cell(labels["Power with one unit fewer"], col).value == pytest.approx(
         row.power_below)
     charts = _chart_xml(path)
-    assert len(charts) == len(plan.rows) == 3
+    assert len(charts) == len(plan.rows_of("location")) == 3
     # our own chart: power by trial size as bars, coloured by whether they reach the wanted
     # power; no target line and no marked n
     assert all("barChart" in x for x in charts)
-    assert all(f"plan for {r.n_new} per process" in x for x, r in zip(charts, plan.rows,
-                                                                        strict=True))
+    assert all(f"plan for {r.n_new} per process" in x
+               for x, r in zip(charts, plan.rows_of("location"), strict=True))
     # the words of the plan are our own
     for x in (*texts, *charts):
         for phrase in ("target power", "n needed", "power at n"):
@@ -344,20 +349,20 @@ def test_workbook_holds_inputs_results_method_and_a_chart_per_check(spec_path, t
 def test_table_lists_every_check(spec_path):
     plan = _plan(spec_path)
     text = vplan.format_table(plan)
-    for r in plan.rows:
+    for r in plan.rows_of("location"):
         assert f"{r.scenario.characteristic} " in text
     assert "TOST (welch)" in text and "t-test (welch, less)" in text
     assert "detect 0.5 N m" in text
 
 
 def test_in_process_command_writes_atomically(spec_path, tmp_out, capsys):
-    assert vplan.main([str(spec_path), "--out", str(tmp_out)]) == 0
+    assert cli_plan.main([str(spec_path), "--out", str(tmp_out)]) == 0
     assert "bore" in capsys.readouterr().out
     assert sorted(p.name for p in tmp_out.iterdir()) == ["press2-plan.xlsx"]  # no .part left
 
 
 def test_in_process_usage_error_writes_nothing(spec_path, tmp_out, capsys):
-    code = vplan.main([str(spec_path), "--margin", "0.5", "--out", str(tmp_out)])
+    code = cli_plan.main([str(spec_path), "--margin", "0.5", "--out", str(tmp_out)])
     assert code == 2
     assert "standalone form" in capsys.readouterr().err
     assert not tmp_out.exists()
@@ -416,9 +421,9 @@ def test_cli_paired_without_pairs_and_without_pair_correlation(tmp_path):
 
 
 def test_characteristic_option_limits_the_plan(spec_path, tmp_out, capsys):
-    assert vplan.main([str(spec_path), "--characteristic", "torque", "--out",
+    assert cli_plan.main([str(spec_path), "--characteristic", "torque", "--out",
                        str(tmp_out)]) == 0
     out = capsys.readouterr().out
     assert "torque" in out and "bore " not in out
-    assert vplan.main([str(spec_path), "--characteristic", "bor", "--out", str(tmp_out)]) == 2
+    assert cli_plan.main([str(spec_path), "--characteristic", "bor", "--out", str(tmp_out)]) == 2
     assert "no such characteristic" in capsys.readouterr().err

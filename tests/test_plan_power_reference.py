@@ -14,7 +14,9 @@ import numpy as np
 import pytest
 from scipy import special
 
-from verify.plan import Scenario, plan_scenario, plan_standalone
+from verify.checks.location.plan import plan_standalone
+from verify.checks.location.plan_model import Scenario
+from verify.checks.location.plan_power import plan_scenario
 from verify.stats import power
 
 REFERENCE_DIR = Path(__file__).resolve().parents[1].parent / "shared" / "reference"
@@ -93,7 +95,7 @@ def test_standalone_form_reproduces_r_pwr():
     published = _pwr_table()["two-sample unequal n (20, 30), two-sided, d 0.1"]
     # R: pwr.t2n.test(n1=20, n2=30, d=0.1, sig.level=0.05); new lot 20, old lot 30
     plan = plan_standalone(sd=2.0, design="pooled", detect=0.2, ratio=20 / 30, n=20)
-    (row,) = plan.rows
+    (row,) = plan.rows_of("location")
     assert (row.eval_n_new, row.eval_n_old) == (20, 30)
     assert row.power_at_eval == pytest.approx(published, rel=1e-9)
 
@@ -173,7 +175,7 @@ def test_tost_power_agrees_with_simulation(design, n, shift, margin, extra):
     rng = np.random.default_rng(20240611)
     plan = plan_standalone(sd=1.0, design=design, margin=margin, true_shift=shift, n=n,
                            power=0.8)
-    (row,) = plan.rows
+    (row,) = plan.rows_of("location")
     low, high = row.scenario.low, row.scenario.high
     simulated = _simulated_tost(rng, design, n, shift, low, high)
     se = math.sqrt(row.power_at_eval * (1 - row.power_at_eval) / REPS)
@@ -185,7 +187,7 @@ def test_paired_tost_power_from_a_correlation_agrees_with_simulation():
     rng = np.random.default_rng(7)
     plan = plan_standalone(sd=1.0, design="paired", margin="0.9", pair_correlation=0.6,
                            true_shift=0.1, n=7, power=0.8)
-    (row,) = plan.rows
+    (row,) = plan.rows_of("location")
     assert row.scenario.sd == pytest.approx(math.sqrt(0.8), rel=1e-15)
     simulated = _simulated_tost(rng, "paired", 7, 0.1, -0.9, 0.9, r=0.6)
     se = math.sqrt(row.power_at_eval * (1 - row.power_at_eval) / REPS)

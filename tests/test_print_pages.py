@@ -51,9 +51,9 @@ def books(tmp_path_factory, tools):
     shutil.copytree(ROOT / "sample_lots", base / "sample_lots")
     out = base / "reports"
     main(["run", str(base / "specs"), "--out", str(out)])
-    from verify import plan as vplan
+    from verify import cli_plan
 
-    assert vplan.main([str(base / "specs" / "bushing-supplier.yaml"), "--out", str(out)]) == 0
+    assert cli_plan.main([str(base / "specs" / "bushing-supplier.yaml"), "--out", str(out)]) == 0
     from verify.digest import DigestRow, write_digest
 
     rows = [

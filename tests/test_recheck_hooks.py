@@ -1,5 +1,5 @@
 """The shape of the recheck sheet's code: one ``recheck`` hook per kind of check, a toolkit that
-names no check, and one reader of a check result's details.
+names no check, and a result's details read from its typed fields.
 
 The sheet's cells themselves are checked in ``test_recheck.py`` (their shape) and
 ``test_recheck_libreoffice.py`` (their values, recalculated); here we check how the code that
@@ -19,12 +19,11 @@ from tests.factory import make_evaluation
 from verify.checks import kinds, names
 from verify.report import recheck
 from verify.report.layout import measurement_layout
-from verify.report.recheck_sheet import FIRST_BODY_ROW, Sheet, computed_nothing, detail
+from verify.report.recheck_sheet import FIRST_BODY_ROW, Sheet, computed_nothing
 
 PKG = Path(__file__).resolve().parents[1] / "verify"
 TOOLKIT = sorted(PKG.glob("report/recheck*.py")) + [PKG / "report" / "formulas.py"]
 HOOKS = sorted(PKG.glob("checks/*/recheck.py"))
-DETAILS = {"extra", "details", "details_mapping"}  # how a result may hold its details
 
 
 def _strings(path: Path) -> set[str]:
@@ -50,16 +49,14 @@ def test_the_toolkit_names_no_check():
 
 
 @pytest.mark.parametrize("path", TOOLKIT + HOOKS, ids=lambda p: f"{p.parent.name}/{p.name}")
-def test_details_are_read_only_through_the_accessor(path):
-    # a result's details (`extra`, or the typed `details`) are read in recheck_sheet.detail
-    # and nowhere else, and no
-    # module chooses formulas by searching a method's text (`"pitman" in method`)
+def test_details_are_typed_and_no_formula_is_chosen_by_method_text(path):
+    # a result's details are read by attribute from its typed details: never through the
+    # old untyped `extra` nor the string-keyed `details_mapping()`; and no module chooses
+    # formulas by searching a method's text (`"pitman" in method`)
     tree = ast.parse(path.read_text(encoding="utf-8"))
-    reads = [n for n in ast.walk(tree) if isinstance(n, ast.Attribute) and n.attr in DETAILS]
-    if path.name == "recheck_sheet.py":
-        assert reads
-    else:
-        assert reads == [], path
+    untyped = [ast.unparse(n) for n in ast.walk(tree)
+               if isinstance(n, ast.Attribute) and n.attr in {"extra", "details_mapping"}]
+    assert untyped == [], f"{path.name}: {untyped}"
     for node in ast.walk(tree):
         if isinstance(node, ast.Compare) and any(isinstance(op, ast.In | ast.NotIn)
                                                  for op in node.ops):
@@ -68,22 +65,6 @@ def test_details_are_read_only_through_the_accessor(path):
         if isinstance(node, ast.Call) and isinstance(node.func, ast.Attribute):
             assert not (node.func.attr == "startswith" and "method" in ast.unparse(node.func)), (
                 f"{path.name}: {ast.unparse(node)}")
-
-
-def _details(ch) -> dict:
-    # the result's details as a mapping, whichever way the result stores them
-    if hasattr(ch, "details_mapping"):
-        return ch.details_mapping()
-    return dict(ch.extra or {})
-
-
-def test_detail_reads_a_key_or_its_default():
-    ev = make_evaluation("welch")
-    ch = next(c for c in ev.characteristics[0].checks if _details(c))
-    for key, value in _details(ch).items():
-        assert detail(ch, key) == value
-    assert detail(ch, "no such detail") is None
-    assert detail(ch, "no such detail", 7) == 7
 
 
 def test_computed_nothing_notes_the_reason_and_stops():

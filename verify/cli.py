@@ -277,15 +277,13 @@ def cmd_completion(args: argparse.Namespace) -> int:
 
 
 def add_plan(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
-    from .plan import DESCRIPTION, EPILOG, HELP, add_plan_arguments
+    from .cli_plan import add_plan as add
 
-    p = sub.add_parser("plan", help=HELP, description=DESCRIPTION, epilog=EPILOG,
-                       formatter_class=argparse.RawDescriptionHelpFormatter)
-    return add_plan_arguments(p)
+    return add(sub)
 
 
 def cmd_plan(args: argparse.Namespace) -> int:
-    from .plan import plan_main
+    from .cli_plan import plan_main
 
     return plan_main(args)
 

@@ -23,13 +23,13 @@ from functools import cache
 from importlib import resources
 from typing import Any
 
+from . import schema_walk
 from .schema_walk import (
     MAX_NODES,
     Document,
     Problem,
     child_path,
     forbidden_characters,
-    validate,
 )
 
 SCHEMA_RESOURCE = "spec.schema.json"
@@ -185,6 +185,33 @@ def _key_homes() -> dict[str, tuple[str, ...]]:
 
     visit(root, "", 0)
     return {k: tuple(v) for k, v in homes.items()}
+
+
+def validate(node, schema: dict | None = None) -> Document:
+    """Check a composed YAML node tree against the spec schema (or ``schema``).
+
+    Parameters
+    ----------
+    node
+        The root node from ``yaml.compose`` (a safe loader).
+    schema
+        The schema to apply; default the spec schema.
+
+    Returns
+    -------
+    Document
+        Plain values (only those that passed), their marks and every problem found; an
+        unknown key far from every key there is pointed to where it belongs in the spec schema.
+
+    Examples
+    --------
+    >>> import yaml
+    >>> doc = validate(yaml.compose("format: verify/1\\ntitle: x\\n", Loader=yaml.SafeLoader))
+    >>> sorted(p.path for p in doc.problems)
+    ['data']
+    """
+    return schema_walk.validate(node, schema if schema is not None else _schema(),
+                                key_homes=_key_homes)
 
 
 def schema_keywords(schema: dict) -> set[str]:

@@ -12,6 +12,7 @@ import difflib
 import json
 import math
 import re
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -155,8 +156,9 @@ def _mark(node: yaml.Node) -> tuple[int, int]:
 
 
 class _Validator:
-    def __init__(self, root: dict):
+    def __init__(self, root: dict, key_homes: Callable[[], dict] | None = None):
         self.root = root
+        self.key_homes = key_homes
         self.doc = Document(value=None)
         self.nodes = 0
         self.constructor = SafeConstructor()
@@ -365,7 +367,8 @@ class _Validator:
             self.doc.key_marks[kpath] = _mark(key_node)
             if key not in props:
                 if closed:
-                    self.problem(kpath, _unknown_key_message(key, props, path), _mark(key_node))
+                    self.problem(kpath, _unknown_key_message(key, props, path, self.key_homes),
+                                 _mark(key_node))
                     ok = False
                     continue
                 sub = schema.get("additionalProperties", {})
@@ -493,14 +496,13 @@ def _nearest(word: str, options) -> str | None:
     return near[0] if near else None
 
 
-def _unknown_key_message(key: str, props: dict, path: str) -> str:
+def _unknown_key_message(key: str, props: dict, path: str,
+                         key_homes: Callable[[], dict] | None) -> str:
     where = f"`{path}`" if path else "the top level"
     near = _nearest(key, props)
     if near:
         return f"unknown key '{key}' in {where}; did you mean '{near}'?"
-    from .schema import _key_homes
-
-    homes = _key_homes().get(key)
+    homes = key_homes().get(key) if key_homes is not None else None
     if homes:
         return f"unknown key '{key}' in {where}; it belongs in {' or '.join(homes)}"
     return f"unknown key '{key}' in {where}; valid keys there: {', '.join(props)}"
@@ -514,15 +516,19 @@ def _tag_message(tag: str) -> str:
             "numbers, true/false, lists and mappings")
 
 
-def validate(node: yaml.Node, schema: dict | None = None) -> Document:
-    """Check a composed YAML node tree against the spec schema.
+def validate(node: yaml.Node, schema: dict, *,
+             key_homes: Callable[[], dict[str, tuple[str, ...]]] | None = None) -> Document:
+    """Check a composed YAML node tree against ``schema``.
 
     Parameters
     ----------
     node
         The root node from ``yaml.compose`` (a safe loader).
     schema
-        The schema to apply; default the spec schema.
+        The schema to apply (:func:`verify.schema.validate` applies the spec schema).
+    key_homes
+        Called when a key is unknown and no known key is near it: every key of the schema ->
+        the paths where it belongs, so the message can point there.
 
     Returns
     -------
@@ -532,15 +538,11 @@ def validate(node: yaml.Node, schema: dict | None = None) -> Document:
     Examples
     --------
     >>> import yaml
-    >>> doc = validate(yaml.compose("format: verify/1\\ntitle: x\\n", Loader=yaml.SafeLoader))
-    >>> sorted(p.path for p in doc.problems)
-    ['characteristics', 'data']
+    >>> schema = {"type": "object", "additionalProperties": False, "required": ["title"],
+    ...           "properties": {"title": {"type": "string"}}}
+    >>> [p.path for p in validate(yaml.compose("x: 1"), schema).problems]
+    ['x', 'title']
     """
-    if schema is None:
-        from .schema import _schema
-
-        schema = _schema()
-    root = schema
-    v = _Validator(root)
-    _ok, v.doc.value = v.walk(node, root, "")
+    v = _Validator(schema, key_homes)
+    _ok, v.doc.value = v.walk(node, schema, "")
     return v.doc

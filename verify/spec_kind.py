@@ -53,6 +53,13 @@ class Facts:
     data: Any = None  # verify.spec_model.DataSpec
     unit_of_analysis: str = "part"
 
+    @property
+    def pairs_usable(self) -> bool:
+        """Pairs are declared (``data.pair``) and parts are analysed (lot means carry no pair
+        key): the paired designs are the defaults then."""
+        return (self.data is not None and self.data.pair is not None
+                and self.unit_of_analysis != "lot")
+
 
 Recorder = Callable[..., None]
 """``rec(key, value, *, default=None)``: one line of :attr:`Spec.resolved` (``default`` None:
@@ -144,7 +151,9 @@ class CheckSpec:
         When the check does not run: the reason it is off by default ("no target"), "" to
         record a plain "off", None to record nothing.
     suggested : bool
-        Named where a message lists the checks to choose from.
+        Named where a message lists the checks to choose from ("lists no check: name at least
+        one of ..."); a measured check that is suggested is also refused by name when a
+        pass-fail characteristic lists it.
     by_default : str or None
         For the schema's description of ``checks``: when the check runs if ``checks:`` is left
         out, in words after its name ("" always, " (when limits are given)"); None: only when

@@ -23,7 +23,7 @@ that apply to it (each distinct one once: the samples of both processes for meas
 characteristics, the counts for pass-fail ones), then for each of its checks the ``recheck`` hook
 of the check's kind (``verify/checks/<kind>/recheck.py``), then the multiplicity block
 (:mod:`verify.report.recheck_family`). The kinds build their rows from the toolkit:
-:mod:`verify.report.recheck_sheet` (the sheet writer, its columns, :func:`detail`),
+:mod:`verify.report.recheck_sheet` (the sheet writer, its columns, :class:`Subject`),
 :mod:`verify.report.formulas` (t, F and beta formulas, criteria),
 :mod:`verify.report.recheck_lookup` (sort-proof lookups), :mod:`verify.report.recheck_blocks`
 (samples, lot means, matched pairs) and :mod:`verify.report.recheck_within` (moving ranges, lot

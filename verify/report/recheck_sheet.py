@@ -1,4 +1,4 @@
-"""The recheck sheet's toolkit: the sheet writer, its cells, and the one reader of result details.
+"""The recheck sheet's toolkit: the sheet writer, its cells, and what a recheck hook receives.
 
 Every row of the recheck sheet has the columns of :data:`COLUMNS` (helper rows add the lot in
 column G). A string starting with ``"="`` is a formula; all other cells are values or text (no
@@ -7,8 +7,10 @@ engine's value, the difference and an agreement cell that is TRUE when
 ``|sheet - engine| <= tolerance * MAX(1, |engine|)``.
 
 A kind of check writes its rows from its ``recheck`` hook (``verify/checks/<kind>/recheck.py``)
-with :class:`Sheet`; it reads the numbers a check result keeps besides its common fields only
-through :func:`detail`, so the way results store them is known in one place.
+with :class:`Sheet`; it reads the numbers a check result keeps besides its common fields from
+the result's typed details (``CheckResult.details``, the dataclasses of the kind's ``result``
+hook) by attribute, and chooses its formulas from their type, the result's ``design`` or the
+spec's settings, never from the method's text.
 """
 
 from __future__ import annotations
@@ -127,16 +129,6 @@ class Sheet:
 
     def unavailable(self, label: str, why: str) -> None:
         self.add(as_text(label), as_text(f"not available: {why}"))
-
-
-def detail(check: CheckResult, key: str, default: Any = None) -> Any:
-    """One detail of a check result beyond its common fields (a sigma, a df, a fitted quantile).
-
-    The one place the recheck code reads them: ``default`` when the result does not hold
-    ``key``. They come from the kind's typed details (``CheckResult.details``, a frozen
-    dataclass of the kind's ``result`` hook), read here by field name.
-    """
-    return check.details_mapping().get(key, default)
 
 
 @dataclass

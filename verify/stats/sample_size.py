@@ -68,7 +68,9 @@ class SampleSize:
     target_power: float
 
 
-def _old_size(design: str, n_new: int, ratio: float) -> int | None:
+def old_size(design: str, n_new: int, ratio: float) -> int | None:
+    """The old lot's size for ``n_new`` units in the new one: none for one-sample, ``n_new``
+    for paired (pairs), ``max(2, ceil(n_new / ratio))`` for two-sample designs."""
     if design == "one-sample":
         return None
     if design == "paired":
@@ -122,7 +124,7 @@ def _smallest_n(
     n_max = _n_max(design, ratio)
 
     def pw(n: int) -> float:
-        return power_at(n, _old_size(design, n, ratio))
+        return power_at(n, old_size(design, n, ratio))
 
     if approx is not None:
         if guess is _NO_GUESS:
@@ -144,7 +146,7 @@ def _smallest_n(
             found = _step_to_smallest(step_pw, n0, target, n_max)
             if found is not None:
                 n, p = found
-                return SampleSize(n_new=n, n_old=_old_size(design, n, ratio), power=p,
+                return SampleSize(n_new=n, n_old=old_size(design, n, ratio), power=p,
                                   target_power=target)
 
     lo, hi = 1, 2  # lo falls short (or is below the minimum of 2); hi is the candidate
@@ -169,7 +171,7 @@ def _smallest_n(
         if p_prev < target:
             break
         hi, p_hi = hi - 1, p_prev
-    return SampleSize(n_new=hi, n_old=_old_size(design, hi, ratio), power=p_hi, target_power=target)
+    return SampleSize(n_new=hi, n_old=old_size(design, hi, ratio), power=p_hi, target_power=target)
 
 
 def _step_to_smallest(pw, n0: int, target: float, n_max: int, steps: int = 12):
@@ -377,7 +379,7 @@ class _TostSize(_Search):
 
     def case(self, n: int) -> tuple:
         """(delta, low, high, tau, df, alpha) of the exact power at n_new = n."""
-        tau, df = self._tau_df(n, _old_size(self.design, n, self.ratio))
+        tau, df = self._tau_df(n, old_size(self.design, n, self.ratio))
         return self.delta, self.lo, self.hi, tau, df, self.a
 
     def power_many(self, ns: list[int]) -> list[float]:
@@ -461,6 +463,7 @@ def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, SampleSize
 __all__ = [
     "MAX_N",
     "SampleSize",
+    "old_size",
     "plan_tost_many",
     "sample_size_noninferiority",
     "sample_size_t",

@@ -2,7 +2,8 @@
 
 The within sigma comes from the lot ranges when the spec's capability sets ``subgroup: lot``,
 else from the average moving range in production order; a result whose ``distribution`` is not
-normal is the percentile capability of a fitted model, rebuilt from its fitted quantiles.
+normal (``PercentileCapabilityDetails``) is the percentile capability of a fitted model, rebuilt
+from its fitted quantiles.
 """
 
 from __future__ import annotations
@@ -12,12 +13,12 @@ from verify.report.formulas import bissell_lower
 from verify.report.layout import VALUE_COLUMN
 from verify.report.recheck_blocks import prepare_samples, why_no_block
 from verify.report.recheck_lookup import used_block
-from verify.report.recheck_sheet import Sheet, Subject, as_number, computed_nothing, detail
+from verify.report.recheck_sheet import Sheet, Subject, as_number, computed_nothing
 from verify.report.recheck_within import moving_range, subgroup_sigma
 
-__all__ = ["prepare", "recheck"]
+from .result import CapabilityDetails, PercentileCapabilityDetails
 
-NORMAL = "normal"  # the distribution of the classical indices
+__all__ = ["prepare", "recheck"]
 
 # the samples of both processes, written once per characteristic before its checks
 prepare = prepare_samples
@@ -28,10 +29,10 @@ def recheck(sh: Sheet, on: Subject, check: CheckResult) -> None:
     :func:`verify.checks.location.recheck.recheck` for the parameters)."""
     if computed_nothing(sh, check):
         return
-    if detail(check, "distribution", NORMAL) != NORMAL:
-        _percentile_capability(sh, on.result, check)
+    if isinstance(check.details, PercentileCapabilityDetails):
+        _percentile_capability(sh, on.result, check, check.details)
     else:
-        _capability(sh, on.evaluation, on.layout, on.result, check)
+        _capability(sh, on.evaluation, on.layout, on.result, check, check.details)
 
 
 def _sigma_from_lots(c: CharacteristicResult) -> bool:
@@ -40,7 +41,8 @@ def _sigma_from_lots(c: CharacteristicResult) -> bool:
     return conf is not None and conf.subgroup == "lot"
 
 
-def _capability(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult) -> None:
+def _capability(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult,
+                d: CapabilityDetails) -> None:
     """Cp, Cpk, Pp, Ppk and Cpm from the new parts, with Bissell's lower bounds."""
     block = used_block(sh, ev, layout, c.name, "new")
     if block is None:
@@ -52,9 +54,9 @@ def _capability(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult)
     if lsl is None and usl is None:
         sh.unavailable("capability", "the spec gives no limits")
         return
-    n = sh.qty("new: n (parts)", f"COUNT({ref})", detail(ch, "n"), "COUNT of the new parts")
-    m = sh.qty("new: mean (parts)", f"AVERAGE({ref})", detail(ch, "mean"), "AVERAGE")
-    so = sh.qty("overall sigma", f"_xlfn.STDEV.S({ref})", detail(ch, "sigma_overall"), "STDEV.S")
+    n = sh.qty("new: n (parts)", f"COUNT({ref})", d.n, "COUNT of the new parts")
+    m = sh.qty("new: mean (parts)", f"AVERAGE({ref})", d.mean, "AVERAGE")
+    so = sh.qty("overall sigma", f"_xlfn.STDEV.S({ref})", d.sigma_overall, "STDEV.S")
     by_lot = _sigma_from_lots(c)
     if by_lot:
         found = subgroup_sigma(sh, layout, c.name, block)
@@ -64,7 +66,7 @@ def _capability(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult)
         sw = sh.qty(
             "within sigma",
             f"SUMPRODUCT({weights},{ranges})/SUM({weights})",
-            detail(ch, "sigma_within"),
+            d.sigma_within,
             "range / d2(size) over the lots, weighted d2^2 / d3^2 (the mean for equal sizes)",
         )
     else:
@@ -74,39 +76,41 @@ def _capability(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult)
         sw = sh.qty(
             "within sigma",
             f"{mr}/1.128",
-            detail(ch, "sigma_within"),
+            d.sigma_within,
             "average moving range / d2(2) = 1.128",
         )
     idx = {}
+    # the engine's one-sided, two-sided and smaller indices (it reports no one-sided Pp)
+    engines = {"c": (d.cpl, d.cpu, d.cp, d.cpk), "p": (None, None, d.pp, d.ppk)}
     for key, sigma, label in (("c", sw, "within"), ("p", so, "overall")):
+        engine = engines[key]
         lo = hi = None
         if lsl is not None:
             lo = sh.qty(
                 f"{key.upper()}pl ({label} sigma)",
                 f"({m}-{lsl})/(3*{sigma})",
-                detail(ch, f"{key}pl"),
+                engine[0],
                 "(mean - lower) / (3 sigma)",
             )
         if usl is not None:
             hi = sh.qty(
                 f"{key.upper()}pu ({label} sigma)",
                 f"({usl}-{m})/(3*{sigma})",
-                detail(ch, f"{key}pu"),
+                engine[1],
                 "(upper - mean) / (3 sigma)",
             )
         if lsl is not None and usl is not None:
             sh.qty(
                 f"{key.upper()}p ({label} sigma)",
                 f"({usl}-{lsl})/(6*{sigma})",
-                detail(ch, f"{key}p"),
+                engine[2],
                 "(upper - lower) / (6 sigma)",
             )
         both = [x for x in (lo, hi) if x is not None]
-        engine = detail(ch, "cpk", ch.estimate) if key == "c" else detail(ch, "ppk")
         idx[key] = sh.qty(
             f"{key.upper()}pk ({label} sigma)",
             f"MIN({','.join(both)})",
-            engine,
+            engine[3],
             "the smaller one-sided index",
         )
     if lsl is not None and usl is not None and c.spec.target is not None:
@@ -114,21 +118,21 @@ def _capability(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult)
         sh.qty(
             "Cpm",
             f"({usl}-{lsl})/(6*SQRT({sw}^2+({m}-{tgt})^2))",
-            detail(ch, "cpm"),
+            d.cpm,
             "(upper - lower) / (6 SQRT(sigma_within^2 + (mean - target)^2))",
         )
     # the bounds: Bissell's form on the df of the sigma behind the index (n - 1 for Ppk; the
     # effective df of the range-based within sigma for Cpk)
-    if not by_lot and detail(ch, "bound_df") is not None:
+    if not by_lot and d.bound_df is not None:
         nu = sh.qty(
             "effective df of the moving-range sigma",
             f"(4/PI())/(2*((({n}-1)*(2-4/PI())+2*MAX({n}-2,0)*(4/PI()*(SQRT(3)/2+PI()/12-1)))"
             f"/({n}-1)^2))",
-            detail(ch, "bound_df") if detail(ch, "index", "cpk") == "cpk" else None,
+            d.bound_df if d.index == "cpk" else None,
             "E(MRbar)^2 / (2 Var(MRbar)), neighbouring moving ranges correlated",
         )
-    elif detail(ch, "index", "cpk") == "cpk" and as_number(detail(ch, "bound_df")) is not None:
-        nu = sh.param("effective df of the subgroup-range sigma", detail(ch, "bound_df"),
+    elif d.index == "cpk" and as_number(d.bound_df) is not None:
+        nu = sh.param("effective df of the subgroup-range sigma", d.bound_df,
                       "the engine's sum d2^2 / (2 d3^2) over the lots (Burr's weights)")
     else:
         nu = None
@@ -137,42 +141,43 @@ def _capability(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult)
         sh.qty(
             "Cpk lower 95% bound",
             bissell_lower(cpk, "0.95", n, nu),
-            detail(ch, "cpk_lower_95", ch.ci_low),
+            d.cpk_lower_95,
             "Cpk - NORM.S.INV(0.95) SQRT(1/(9n) + Cpk^2/(2 nu)), nu the effective df",
         )
-    if detail(ch, "index") == "ppk" and as_number(detail(ch, "confidence")) is not None:
-        conf = sh.param("confidence of the lower bound", detail(ch, "confidence"), "the spec's")
+    if d.index == "ppk" and as_number(d.confidence) is not None:
+        conf = sh.param("confidence of the lower bound", d.confidence, "the spec's")
         ppk = idx["p"]
         sh.qty(
             "Ppk lower bound (Bissell)",
             bissell_lower(ppk, conf, n, f"({n}-1)"),
-            detail(ch, "lower_bound"),
+            d.lower_bound,
             "Ppk - NORM.S.INV(confidence) SQRT(1/(9n) + Ppk^2/(2(n-1)))",
         )
-    elif nu is not None and as_number(detail(ch, "confidence")) not in (None, 0.95):
-        conf = sh.param("confidence of the lower bound", detail(ch, "confidence"), "the spec's")
+    elif nu is not None and as_number(d.confidence) not in (None, 0.95):
+        conf = sh.param("confidence of the lower bound", d.confidence, "the spec's")
         sh.qty(
             "Cpk lower bound at the spec's confidence",
             bissell_lower(cpk, conf, n, nu),
-            detail(ch, "lower_bound"),
+            d.lower_bound,
             "Cpk - NORM.S.INV(confidence) SQRT(1/(9n) + Cpk^2/(2 nu))",
         )
 
 
-def _percentile_capability(sh: Sheet, c: CharacteristicResult, ch: CheckResult) -> None:
+def _percentile_capability(sh: Sheet, c: CharacteristicResult, ch: CheckResult,
+                           d: PercentileCapabilityDetails) -> None:
     """Percentile indices rebuilt from the fitted quantiles (given as values: they come from
     the maximum-likelihood fit, which the spreadsheet does not redo)."""
-    xl = sh.param("fitted 0.135% quantile", detail(ch, "x_0_135"), str(detail(ch, "fit", "")))
-    xm = sh.param("fitted median", detail(ch, "x_50"), "the same fit")
-    xh = sh.param("fitted 99.865% quantile", detail(ch, "x_99_865"), "the same fit")
+    xl = sh.param("fitted 0.135% quantile", d.x_0_135, d.fit)
+    xm = sh.param("fitted median", d.x_50, "the same fit")
+    xh = sh.param("fitted 99.865% quantile", d.x_99_865, "the same fit")
     both = []
     if c.spec.lower is not None:
         lsl = sh.param("lower limit", c.spec.lower, "the spec's")
-        both.append(sh.qty("Ppl (percentile)", f"({xm}-{lsl})/({xm}-{xl})", detail(ch, "ppl"),
+        both.append(sh.qty("Ppl (percentile)", f"({xm}-{lsl})/({xm}-{xl})", d.ppl,
                            "(median - lower) / (median - X0.135%)"))
     if c.spec.upper is not None:
         usl = sh.param("upper limit", c.spec.upper, "the spec's")
-        both.append(sh.qty("Ppu (percentile)", f"({usl}-{xm})/({xh}-{xm})", detail(ch, "ppu"),
+        both.append(sh.qty("Ppu (percentile)", f"({usl}-{xm})/({xh}-{xm})", d.ppu,
                            "(upper - median) / (X99.865% - median)"))
-    sh.qty("Ppk (percentile)", f"MIN({','.join(both)})", detail(ch, "ppk"),
+    sh.qty("Ppk (percentile)", f"MIN({','.join(both)})", d.ppk,
            "the smaller one-sided index")

@@ -12,7 +12,9 @@ from verify.model import CharacteristicResult, CheckResult
 from verify.report.layout import VALUE_COLUMN
 from verify.report.recheck_blocks import prepare_samples, why_no_block
 from verify.report.recheck_lookup import used_block
-from verify.report.recheck_sheet import Sheet, Subject, computed_nothing, detail
+from verify.report.recheck_sheet import Sheet, Subject, computed_nothing
+
+from .result import ConformanceDetails
 
 __all__ = ["prepare", "recheck"]
 
@@ -25,10 +27,11 @@ def recheck(sh: Sheet, on: Subject, check: CheckResult) -> None:
     :func:`verify.checks.location.recheck.recheck` for the parameters)."""
     if computed_nothing(sh, check):
         return
-    _conformance(sh, on.evaluation, on.layout, on.result, check)
+    _conformance(sh, on.evaluation, on.layout, on.result, check, check.details)
 
 
-def _conformance(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult) -> None:
+def _conformance(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult,
+                 d: ConformanceDetails) -> None:
     """Tolerance limits mean -/+ k sd rebuilt from the new parts; the factor k is given as a
     value with its method (no spreadsheet function computes the noncentral t quantile or the
     Odeh/Owen integral)."""
@@ -36,12 +39,12 @@ def _conformance(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult
     if block is None:
         sh.unavailable("conformance", why_no_block(layout, c.name, "new"))
         return
-    dist = detail(ch, "distribution", "normal")
-    if dist == "weibull" or (dist != "normal" and detail(ch, "k") is None and dist != "any"):
+    dist = d.distribution
+    if dist == "weibull" or (dist != "normal" and d.k is None and dist != "any"):
         sh.unavailable("tolerance limits", "Weibull limits come from pivots taken from a "
                        "seeded simulation, which the spreadsheet cannot redo")
         return
-    if detail(ch, "k") is None:
+    if d.k is None:
         sh.unavailable("tolerance factor", "distribution-free limits: the smallest and the "
                        "largest used value are the limits (MIN and MAX below)")
         ref = block.ref(VALUE_COLUMN)
@@ -51,11 +54,11 @@ def _conformance(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult
             sh.qty("upper tolerance limit", f"MAX({ref})", ch.ci_high, "MAX of the new parts")
         return
     ref = block.ref(VALUE_COLUMN)
-    sh.qty("new: n (parts)", f"COUNT({ref})", detail(ch, "n"), "COUNT of the new parts")
+    sh.qty("new: n (parts)", f"COUNT({ref})", d.n, "COUNT of the new parts")
     back = "{}"
     if dist == "normal":
-        m = sh.qty("new: mean (parts)", f"AVERAGE({ref})", detail(ch, "mean"), "AVERAGE")
-        sd = sh.qty("new: sd (parts)", f"_xlfn.STDEV.S({ref})", detail(ch, "sd_parts"),
+        m = sh.qty("new: mean (parts)", f"AVERAGE({ref})", d.mean, "AVERAGE")
+        sd = sh.qty("new: sd (parts)", f"_xlfn.STDEV.S({ref})", d.sd_parts,
                     "STDEV.S")
     else:
         # LN or a power of a whole range inside SUMPRODUCT is not evaluated as an array by
@@ -63,22 +66,22 @@ def _conformance(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult
         # LN(GEOMEAN), the transformed sd is given as the engine's value
         if dist == "lognormal":
             back = "EXP({})"
-            m = sh.qty("new: mean of ln x", f"LN(GEOMEAN({ref}))", detail(ch, "mean"),
+            m = sh.qty("new: mean of ln x", f"LN(GEOMEAN({ref}))", d.mean,
                        "LN(GEOMEAN(x)) = mean of ln x")
         else:
-            lam_value = _fit_lambda(ch)
+            lam_value = d.box_cox_lambda
             if lam_value is None:
                 sh.unavailable("tolerance limits", "the Box-Cox lambda is not recorded")
                 return
             lam = sh.param("Box-Cox lambda", lam_value, "as estimated by the engine")
             back = f"({lam}*{{}}+1)^(1/{lam})"
-            m = sh.param("new: mean of the transformed values", float(detail(ch, "mean")),
+            m = sh.param("new: mean of the transformed values", float(d.mean),
                          "the engine's value, (x^lambda - 1) / lambda averaged")
-        sd = sh.param("new: sd of the transformed values", float(detail(ch, "sd_parts")),
+        sd = sh.param("new: sd of the transformed values", float(d.sd_parts),
                       "the engine's value (n - 1 divisor)")
-    k = sh.param("tolerance factor k", float(detail(ch, "k")),
-                 f"{ch.method}; coverage {detail(ch, 'coverage')}, confidence "
-                 f"{detail(ch, 'coverage_confidence')}, n as above (a value: the spreadsheet "
+    k = sh.param("tolerance factor k", float(d.k),
+                 f"{ch.method}; coverage {d.coverage}, confidence "
+                 f"{d.coverage_confidence}, n as above (a value: the spreadsheet "
                  "has no function for it)")
     checks = []
     if ch.ci_low is not None:
@@ -95,9 +98,5 @@ def _conformance(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult
             checks.append(f"{hi}<={usl}")
     if checks:
         sh.qty("within the limits (1 = yes)", f"IF(AND({','.join(checks)}),1,0)",
-               detail(ch, "within_limits"), "AND of the comparisons with the limits")
+               d.within_limits, "AND of the comparisons with the limits")
 
-
-def _fit_lambda(ch: CheckResult) -> float | None:
-    lam = detail(ch, "box_cox_lambda")
-    return None if lam is None else float(lam)

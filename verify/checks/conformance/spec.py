@@ -58,6 +58,8 @@ class ConformanceSpec(CheckSpec):
     # the key came after the pass-fail checks' keys in the published schema: it keeps its place
     schema_order = 75
     off_reason = None  # runs only when listed: nothing to record when it does not
+    # not among the checks a message suggests; as before the registry, a pass-fail
+    # characteristic that lists it is not told off (its builder runs only pass-fail kinds)
     suggested = False
 
     def build(self, entry: dict, facts: Facts, rec: Recorder, path: str) -> ConformanceCheck:

@@ -23,16 +23,12 @@ from ...stats.core import (
 )
 from ...stats.errors import DegenerateDataError
 from ..drafting import CANNOT_COMPUTE, CheckInput, Comparison, Draft, cannot_compute, finite
+from .choice import DIFFERENCE, EQUIVALENCE, TestChoice, choose_test
 from .result import LocationDetails
 from .rule import difference_rule, margin_rule
 
 DETECT_POWER = 0.8  # the power at which the "smallest detectable shift" note is stated
 PER_STREAM = True  # runs for each data.stream sub-stream of the new process as well
-
-
-def _alternative(side: str) -> str:
-    """The direction of harm as a t-test alternative: a harmful lower value tests 'less'."""
-    return {"two-sided": "two-sided", "lower": "less", "upper": "greater"}[side]
 
 
 def _one_sample(kind) -> bool:
@@ -103,13 +99,16 @@ def draft(kind, inp: CheckInput) -> Draft:
         subject = f"the new-process mean of {ch.name} minus the old-process mean"
         noun = "shift"
     margin = conf.margin
+    # the one place that maps (margin, side) to the test: equivalence, non-inferiority or
+    # the difference test in the harmful direction
+    test = choose_test(None if margin is None else (margin.low, margin.high), ch.side)
     unit = ch.unit
     try:
         e = _effect(design, ch, inp.data)
     except CANNOT_COMPUTE as err:
-        what = "TOST" if margin is not None else "t-test"
+        what = "TOST" if test.kind != DIFFERENCE else "t-test"
         dr = cannot_compute(kind.name, f"{what} ({design})", subject, err, design=design)
-        dr.family = margin is None
+        dr.family = test.kind == DIFFERENCE
         return dr
     n_new, n_old = e.n_new, e.n_old
     sds = _power_sds(e)
@@ -118,14 +117,14 @@ def draft(kind, inp: CheckInput) -> Draft:
         estimate=e.estimate, standard_error=e.standard_error, df=e.df, design=design,
         details=LocationDetails(n_new=n_new, n_old=n_old, sd=float(e.sd)),
     )
-    if margin is not None:
-        return _draft_margin(kind, inp, e, subject, noun, sds, ratio, common)
+    if test.kind != DIFFERENCE:
+        return _draft_margin(kind, inp, test, e, subject, noun, sds, ratio, common)
 
     # no margin: a difference test in the harmful direction. Under holm or bonferroni the
     # interval, critical value and power figures use the Bonferroni level alpha / m, m the size
     # of the family actually adjusted, so that they agree with the adjusted decision (for Holm
     # they are conservative); they are filled in by ``complete`` once the family is known.
-    alternative = _alternative(ch.side)
+    alternative = test.alternative
     r = t_test_from_estimate(e.estimate, e.standard_error, e.df, alternative=alternative,
                              method=e.method)
     direction = {"two-sided": "differs from", "less": "is below", "greater": "is above"}
@@ -167,21 +166,20 @@ def draft(kind, inp: CheckInput) -> Draft:
     return Draft(result=res, family_p=r.pvalue, finish=finish, complete=complete, family=True)
 
 
-def _draft_margin(kind, inp: CheckInput, e, subject: str, noun: str, sds: dict, ratio: float,
-                  common: dict) -> Draft:
+def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun: str,
+                  sds: dict, ratio: float, common: dict) -> Draft:
     """Equivalence (two-sided) or non-inferiority (one harmful side) against the margin."""
     spec, ch = inp.spec, inp.ch
     alpha = spec.alpha
-    margin = inp.config(kind.name).margin
     unit = ch.unit
     design = common["design"]
     n_new, n_old = e.n_new, e.n_old
-    low, high = margin.low, margin.high
+    low, high = test.low, test.high
     level = 1 - 2 * alpha
     ci = confidence_interval(e.estimate, e.standard_error, e.df, level=level)
     true_shift = spec.plan.true_shift
     batch = None
-    if ch.side == "two-sided":
+    if test.kind == EQUIVALENCE:
         r = equivalence.tost_from_estimate(
             e.estimate, e.standard_error, e.df, low=low, high=high,
             method=f"TOST ({e.method})")
@@ -199,8 +197,7 @@ def _draft_margin(kind, inp: CheckInput, e, subject: str, noun: str, sds: dict, 
                  "high": high, "power": spec.plan.power, "ratio": ratio}
         pw = size = None
     else:
-        harmful = ch.side
-        bound = low if harmful == "lower" else high
+        harmful, bound = test.harmful, test.bound
         r = equivalence.noninferiority_from_estimate(
             e.estimate, e.standard_error, e.df, bound=bound, harmful=harmful,
             method=f"non-inferiority ({e.method})")
@@ -261,7 +258,7 @@ def companions(kind, inp: CheckInput, dr: Draft) -> list[DiagnosticResult]:
         if _one_sample(kind):
             rt = nonparametric.wilcoxon_signed_rank(data.candidate.values - inp.ch.target,
                                                     alternative=alt)
-            group = "new"
+            group = data.candidate.name
         elif data.pairs is not None:
             pv = data.pairs
             rt = nonparametric.wilcoxon_signed_rank(pv.new - pv.old, alternative=alt)
@@ -271,7 +268,7 @@ def companions(kind, inp: CheckInput, dr: Draft) -> list[DiagnosticResult]:
                 return []
             rt = nonparametric.mann_whitney(data.reference.values, data.candidate.values,
                                             alternative=alt)
-            group = "old vs new"
+            group = f"{data.reference.name} vs {data.candidate.name}"
     except CANNOT_COMPUTE as err:
         return [DiagnosticResult(name="rank companion", method=f"rank test for the {check}",
                                  group=check, flag=False, note=f"not applicable: {err}")]

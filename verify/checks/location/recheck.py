@@ -8,10 +8,11 @@ the harmful side's test of non-inferiority.
 
 from __future__ import annotations
 
+from verify.checks.location.result import LocationDetails
 from verify.model import CharacteristicResult, CheckResult
 from verify.report.formulas import HOW_P, HOW_Q, p_above, p_below, p_two, t_quantile
 from verify.report.recheck_blocks import pairs, prepare_samples, samples_of
-from verify.report.recheck_sheet import ALPHA_CELL, Sheet, Subject, computed_nothing, detail
+from verify.report.recheck_sheet import ALPHA_CELL, Sheet, Subject, computed_nothing
 
 __all__ = ["prepare", "recheck"]
 
@@ -191,8 +192,9 @@ def _target(sh: Sheet, c: CharacteristicResult, ch: CheckResult, samples) -> Non
 def _shift(sh: Sheet, on: Subject, ch: CheckResult, design: str) -> None:
     """The two-sample (Welch, pooled) or paired t-test (or TOST) of new against old."""
     c, samples = on.result, samples_of(on)
+    engine_sd = ch.details.sd if isinstance(ch.details, LocationDetails) else None
     if design == "paired":
-        pr = pairs(sh, on.evaluation, on.layout, c, detail(ch, "sd"))
+        pr = pairs(sh, on.evaluation, on.layout, c, engine_sd)
         if pr is None:
             return
         est = sh.qty(
@@ -225,7 +227,7 @@ def _shift(sh: Sheet, on: Subject, ch: CheckResult, design: str) -> None:
         sp = sh.qty(
             "pooled standard deviation",
             f"SQRT((({n.n}-1)*{n.sd}^2+({o.n}-1)*{o.sd}^2)/({n.n}+{o.n}-2))",
-            detail(ch, "sd"),
+            engine_sd,
             "SQRT(((n_new-1) sd_new^2 + (n_old-1) sd_old^2) / (n_new + n_old - 2))",
         )
         se = sh.qty(

@@ -24,9 +24,10 @@ from __future__ import annotations
 
 from openpyxl.utils import get_column_letter
 
+from verify.checks.rates.result import RateDetails
 from verify.model import CharacteristicResult, CheckResult
 from verify.report.layout import MEASUREMENT_HEADERS, MeasurementLayout
-from verify.report.recheck_sheet import Sheet, Subject, computed_nothing, detail
+from verify.report.recheck_sheet import Sheet, Subject, computed_nothing
 
 __all__ = ["prepare", "recheck"]
 
@@ -102,8 +103,9 @@ def _counts(sh, layout, c: CharacteristicResult, process: str) -> tuple[str, str
 
 def _rate(sh, ch: CheckResult, counts) -> None:
     n, x = counts
-    conf = sh.param("confidence C", detail(ch, "confidence"), "the spec's rate.confidence")
-    sh.param("max", detail(ch, "max"), "the spec's rate.max")
+    d: RateDetails = ch.details
+    conf = sh.param("confidence C", d.confidence, "the spec's rate.confidence")
+    sh.param("max", d.max, "the spec's rate.max")
     sh.qty("exact upper bound of the new rate", f"IF({x}>={n},1,_xlfn.BETA.INV({conf},{x}+1,"
            f"{n}-{x}))", ch.ci_high, "BETA.INV(C, x + 1, n - x) (Clopper-Pearson)")
 

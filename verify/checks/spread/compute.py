@@ -154,16 +154,17 @@ def companions(kind, inp: CheckInput, dr: Draft) -> list[DiagnosticResult]:
     if not usable or dr.result.p_value is None:
         return []
     alpha = spec.alpha
+    group = f"{ref.name} vs {cand.name}"
     try:
         other_bf = inp.config(kind.name).method != "brown-forsythe"
         o = (spread.brown_forsythe(ref.values, cand.values, alternative="greater") if other_bf
              else spread.f_test(ref.values, cand.values, alternative="greater"))
     except CANNOT_COMPUTE as err:
         return [DiagnosticResult(name="spread companion", method="spread companion",
-                                 group="old vs new", flag=False, note=f"not applicable: {err}")]
+                                 group=group, flag=False, note=f"not applicable: {err}")]
     disagree = (o.pvalue < alpha) != (dr.result.p_value < alpha)
     return [DiagnosticResult(
-        "spread companion", o.method, "old vs new", disagree,
+        "spread companion", o.method, group, disagree,
         (f"the {o.method} disagrees with the deciding spread test ({p_eq(o.pvalue)})"
          if disagree else f"{o.method} {p_eq(o.pvalue)}"),
         statistic=o.statistic, p_value=o.pvalue)]

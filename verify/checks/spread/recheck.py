@@ -1,14 +1,19 @@
 """The spread check's recheck rows: the F-test, Brown-Forsythe, Pitman-Morgan, within-lot F.
 
-The formulas follow the check result's ``design``: ``paired`` (Pitman-Morgan on the matched
-pairs), ``lot components`` (the pooled within-lot variances compared by F, with
-``unit_of_analysis: lot``), else the two samples: the F-test, or with the spec's
+The formulas follow the type of the result's details: ``PairedSpreadDetails`` (Pitman-Morgan
+on the matched pairs), ``LotSpreadDetails`` (the pooled within-lot variances compared by F,
+with ``unit_of_analysis: lot``), else the two samples: the F-test, or with the spec's
 ``method: brown-forsythe`` the Brown-Forsythe test deciding and the F-test beside it as a
 descriptive figure.
 """
 
 from __future__ import annotations
 
+from verify.checks.spread.result import (
+    LotSpreadDetails,
+    PairedSpreadDetails,
+    TwoSampleSpreadDetails,
+)
 from verify.model import CharacteristicResult, CheckResult
 from verify.report.formulas import HOW_P, HOW_Q, abs_diff, f_p_side, p_side, t_quantile
 from verify.report.recheck_blocks import (
@@ -18,13 +23,11 @@ from verify.report.recheck_blocks import (
     prepare_samples,
     samples_of,
 )
-from verify.report.recheck_sheet import Sheet, Subject, as_number, computed_nothing, detail
+from verify.report.recheck_sheet import Sheet, Subject, as_number, computed_nothing
 from verify.report.recheck_within import lot_components
 
 __all__ = ["prepare", "recheck"]
 
-PAIRED = "paired"  # design: Pitman-Morgan on the matched pairs
-LOT_COMPONENTS = "lot components"  # design: pooled within-lot variances
 BROWN_FORSYTHE = "brown-forsythe"  # the spec's method that makes Brown-Forsythe decide
 
 # the samples of both processes, written once per characteristic before its checks
@@ -36,15 +39,17 @@ def recheck(sh: Sheet, on: Subject, check: CheckResult) -> None:
     :func:`verify.checks.location.recheck.recheck` for the parameters)."""
     if computed_nothing(sh, check):
         return
-    if check.design == PAIRED:
-        _pitman_morgan(sh, on.evaluation, on.layout, on.result, check)
-    elif check.design == LOT_COMPONENTS:
-        _within_lot_spread(sh, on.layout, on.result, check)
+    d = check.details
+    if isinstance(d, PairedSpreadDetails):
+        _pitman_morgan(sh, on.evaluation, on.layout, on.result, check, d)
+    elif isinstance(d, LotSpreadDetails):
+        _within_lot_spread(sh, on.layout, on.result, check, d)
     else:
-        _spread(sh, on, check)
+        _spread(sh, on, check, d)
 
 
-def _spread(sh: Sheet, on: Subject, ch: CheckResult) -> None:
+def _spread(sh: Sheet, on: Subject, ch: CheckResult, d: TwoSampleSpreadDetails | None
+            ) -> None:
     """The F-test (or Brown-Forsythe beside it) on the two samples, or on the matched pairs
     when the shift check pairs them and the spread check was not declared independent."""
     ev, layout, c, samples = on.evaluation, on.layout, on.result, samples_of(on)
@@ -66,27 +71,25 @@ def _spread(sh: Sheet, on: Subject, ch: CheckResult) -> None:
     f = sh.qty(
         "F ratio (variance new / variance old)",
         f"{n.sd}^2/{o.sd}^2",
-        detail(ch, "F", None if brown else ch.statistic),
+        (None if brown else ch.statistic) if d is None else d.F,
         "sd_new^2 / sd_old^2",
     )
-    d1 = sh.qty("df, numerator", f"{n.n}-1", detail(ch, "df_num"), "n_new - 1")
-    d2 = sh.qty(
-        "df, denominator", f"{o.n}-1", detail(ch, "df_den", detail(ch, "df_denominator")),
-        "n_old - 1"
-    )
-    _f_rows(sh, ch, f, d1, d2, descriptive=brown)
+    d1 = sh.qty("df, numerator", f"{n.n}-1", None if d is None else d.df_num, "n_new - 1")
+    d2 = sh.qty("df, denominator", f"{o.n}-1", None if d is None else d.df_den, "n_old - 1")
+    _f_rows(sh, ch, f, d1, d2, descriptive=d if brown else None)
     if brown:
         _brown_forsythe(sh, ch, o, n)
 
 
-def _f_rows(sh: Sheet, ch: CheckResult, f: str, d1: str, d2: str, *, descriptive: bool,
-            label: str = "sd ratio") -> None:
+def _f_rows(sh: Sheet, ch: CheckResult, f: str, d1: str, d2: str, *,
+            descriptive: TwoSampleSpreadDetails | None, label: str = "sd ratio") -> None:
     """The sd ratio, the F-test's p-value and its interval from the F cell and its df cells.
 
-    ``descriptive``: the F-test stands beside a Brown-Forsythe decision; its ratio and interval
-    are compared with the engine's descriptive figures and its p-value is not the check's.
+    ``descriptive``: the details of a Brown-Forsythe decision, beside which the F-test stands;
+    its ratio and interval are compared with the engine's descriptive figures and its p-value
+    is not the check's (None: the F-test decides).
     """
-    ratio = detail(ch, "sd_ratio_descriptive") if descriptive else ch.estimate
+    ratio = descriptive.sd_ratio_descriptive if descriptive else ch.estimate
     sh.qty(f"{label} (new / old)", f"SQRT({f})", ratio, "SQRT(F)")
     if not descriptive:
         alt = ch.alternative or "greater"
@@ -95,8 +98,8 @@ def _f_rows(sh: Sheet, ch: CheckResult, f: str, d1: str, d2: str, *, descriptive
             "F.DIST.RT / F.DIST (integer df)"))
     if ch.ci_level is None:
         return
-    low = detail(ch, "sd_ratio_low_descriptive") if descriptive else ch.ci_low
-    high = detail(ch, "sd_ratio_high_descriptive") if descriptive else ch.ci_high
+    low = descriptive.sd_ratio_low_descriptive if descriptive else ch.ci_low
+    high = descriptive.sd_ratio_high_descriptive if descriptive else ch.ci_high
     what = " (descriptive)" if descriptive else ""
     level = sh.param("confidence level", ch.ci_level, "the level the engine reports")
     if as_number(high) is not None:
@@ -121,17 +124,18 @@ def _f_rows(sh: Sheet, ch: CheckResult, f: str, d1: str, d2: str, *, descriptive
         )
 
 
-def _within_lot_spread(sh: Sheet, layout, c: CharacteristicResult, ch: CheckResult) -> None:
+def _within_lot_spread(sh: Sheet, layout, c: CharacteristicResult, ch: CheckResult,
+                       d: LotSpreadDetails) -> None:
     """unit_of_analysis lot: the pooled within-lot variances, compared by F."""
     old = lot_components(sh, layout, c, "old")
     new = lot_components(sh, layout, c, "new")
     if old is None or new is None:
         return
     f = sh.qty("F ratio (pooled within-lot variance new / old)", f"{new[1]}/{old[1]}",
-               detail(ch, "F"), "MS_within new / MS_within old")
-    sh.qty("df, numerator", new[0], detail(ch, "df_num"), "new: sum(n_i - 1)")
-    sh.qty("df, denominator", old[0], detail(ch, "df_den"), "old: sum(n_i - 1)")
-    _f_rows(sh, ch, f, new[0], old[0], descriptive=False, label="within-lot sd ratio")
+               d.F, "MS_within new / MS_within old")
+    sh.qty("df, numerator", new[0], d.df_num, "new: sum(n_i - 1)")
+    sh.qty("df, denominator", old[0], d.df_den, "old: sum(n_i - 1)")
+    _f_rows(sh, ch, f, new[0], old[0], descriptive=None, label="within-lot sd ratio")
 
 
 def _brown_forsythe(sh: Sheet, ch: CheckResult, o: Sample, n: Sample) -> None:
@@ -176,7 +180,8 @@ def _brown_forsythe(sh: Sheet, ch: CheckResult, o: Sample, n: Sample) -> None:
                    "estimate + t se")
 
 
-def _pitman_morgan(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult) -> None:
+def _pitman_morgan(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult,
+                   d: PairedSpreadDetails) -> None:
     pr = pairs(sh, ev, layout, c, None)
     if pr is None:
         return
@@ -184,7 +189,7 @@ def _pitman_morgan(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResu
     vn = sh.qty("paired new: variance", f"_xlfn.VAR.S({n})", None, "VAR.S of the matched new")
     vo = sh.qty("paired old: variance", f"_xlfn.VAR.S({o})", None, "VAR.S of the matched old")
     cov = sh.qty("covariance old, new", f"_xlfn.COVARIANCE.S({o},{n})", None, "COVARIANCE.S")
-    r_on = sh.qty("correlation old, new", f"CORREL({o},{n})", detail(ch, "correlation"), "CORREL")
+    r_on = sh.qty("correlation old, new", f"CORREL({o},{n})", d.correlation, "CORREL")
     sh.qty("sd ratio (new / old)", f"SQRT({vn}/{vo})", ch.estimate, "SQRT(var_new / var_old)")
     r = sh.qty(
         "correlation of differences and sums",

@@ -1,4 +1,4 @@
-"""``verify plan`` for pass-fail characteristics: how many parts to inspect.
+"""The ``plan`` hook of the pass-fail kinds: how many parts to inspect.
 
 Two questions, one per rate check:
 
@@ -12,20 +12,31 @@ Two questions, one per rate check:
   without one, to detect an increase of ``detect`` (the check's ``detect:`` key or
   ``--rate-detect``).
 
-Self-contained so that a registry of check kinds can take it as it is; :mod:`verify.plan`
-calls it where a spec has pass-fail characteristics or the command line asks for a rate.
+The protocol is described in :mod:`verify.plan`; the workbook sheet is :mod:`.plan_sheet`.
 """
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
-from .errors import SpecIssue, UsageError
+from ...errors import SpecIssue, UsageError
+from ...plan.model import Plan, PlanPart, SpecPlanning
 
 if TYPE_CHECKING:
-    from .model import Measurements
-    from .spec_model import Spec
+    import argparse
+
+    from ...checks import CheckKind
+    from ...spec_model import Characteristic
+
+PACKAGE = __name__.rsplit(".", 2)[1]
+STANDALONE_OPTION = "rate_max"  # verify plan --rate-max P asks for the pass-fail form
+
+
+def plans(ch: Characteristic) -> bool:
+    """Whether ``ch`` is planned here: every pass-fail characteristic."""
+    return ch.pass_fail
 
 
 @dataclass(frozen=True)
@@ -60,13 +71,13 @@ class RatePlanRow:
 
 
 def _pct(x: float) -> str:
-    from .decide import fmt
+    from ...decide import fmt
 
     return f"{fmt(100 * x, 5)}%"
 
 
 def _points(x: float) -> str:
-    from .decide import fmt
+    from ...decide import fmt
 
     return f"{fmt(100 * x)} percentage points"
 
@@ -75,7 +86,7 @@ def demonstration_row(max_rate: float, confidence: float, allowed_failures: int 
                       characteristic: str | None = None,
                       n_planned: int | None = None) -> RatePlanRow:
     """The success-run (K = 0) or K-failure demonstration plan of one rate check."""
-    from .stats.rates import demonstration_n
+    from ...stats.rates import demonstration_n
 
     try:
         p = demonstration_n(max_rate, confidence, allowed_failures)
@@ -100,7 +111,7 @@ def shift_row(characteristic: str, *, rate_old: float, source: str, alpha: float
               power: float, margin: float | None, detect: float | None,
               n_planned: int | None = None) -> RatePlanRow:
     """The parts per process of one rate_shift check for ``power``."""
-    from .stats.rates import rate_shift_n
+    from ...stats.rates import rate_shift_n
 
     rate_new = None if margin is not None else min(0.999999, rate_old + detect)
     try:
@@ -119,11 +130,8 @@ def shift_row(characteristic: str, *, rate_old: float, source: str, alpha: float
     )
 
 
-def spec_rate_rows(spec: Spec, meas: Measurements | None, *, power: float,
-                   allowed_failures: int = 0, rate_old: float | None = None,
-                   rate_detect: float | None = None,
-                   characteristics: tuple[str, ...] = ()) -> list[RatePlanRow]:
-    """The rate plans of every pass-fail characteristic of ``spec``.
+def plan_spec(ctx: SpecPlanning, kinds: tuple[CheckKind, ...]) -> PlanPart | None:
+    """The rate plans of every pass-fail characteristic of ``ctx`` (the ``plan`` hook).
 
     Raises
     ------
@@ -131,12 +139,15 @@ def spec_rate_rows(spec: Spec, meas: Measurements | None, *, power: float,
         A rate_shift check without an old rate to plan from, or without a margin and without
         an increase to detect; all problems together, each naming the characteristic.
     """
-    from .evaluate_pass_fail import process_counts
+    from ...pass_fail_counts import process_counts
 
+    spec, meas, opts, power = ctx.spec, ctx.measurements, ctx.options, ctx.power
+    allowed_failures, rate_old, rate_detect = (opts.allowed_failures, opts.rate_old,
+                                               opts.rate_detect)
     rows: list[RatePlanRow] = []
     issues: list = []
-    for ch in spec.characteristics:
-        if not ch.pass_fail or (characteristics and ch.name not in characteristics):
+    for ch in ctx.characteristics:
+        if not ch.pass_fail:
             continue
         if ch.checks.rate is not None:
             rows.append(demonstration_row(ch.checks.rate.max, ch.checks.rate.confidence,
@@ -166,18 +177,20 @@ def spec_rate_rows(spec: Spec, meas: Measurements | None, *, power: float,
                               n_planned=spec.planned("new")))
     if issues:
         raise UsageError(issues)
-    return rows
+    return PlanPart(PACKAGE, tuple(rows)) if rows else None
 
 
 RATE_HEADERS = ("characteristic", "check", "what must be shown", "n needed", "min_n", "proof")
 
 
-def format_rate_table(rows) -> list[str]:
-    """The rate plans as text lines (a column-aligned table, then the basis of each)."""
+def lines(plan: Plan, part: PlanPart) -> list[str]:
+    """The rate plans as text lines (a column-aligned table, then the basis of each), after
+    an empty line."""
+    rows = part.rows
     cells = [(r.characteristic or "-", r.check, r.requirement, str(r.n),
               "-" if r.n_planned is None else str(r.n_planned), r.proof) for r in rows]
     widths = [max(len(h), *(len(c[i]) for c in cells)) for i, h in enumerate(RATE_HEADERS)]
-    out = ["  ".join(h.ljust(w) for h, w in zip(RATE_HEADERS, widths, strict=True)).rstrip()]
+    out = ["", "  ".join(h.ljust(w) for h, w in zip(RATE_HEADERS, widths, strict=True)).rstrip()]
     out += ["  ".join(c.ljust(w) for c, w in zip(row, widths, strict=True)).rstrip()
             for row in cells]
     out.append("")
@@ -188,28 +201,39 @@ def format_rate_table(rows) -> list[str]:
     return out
 
 
-def write_rate_plan_sheet(ws, rows, title: str) -> None:
-    """The pass-fail plan as a worksheet: one row per check, then the basis of each."""
-    from openpyxl.styles import Alignment
+def standalone(args: argparse.Namespace) -> Plan:
+    """``verify plan --rate-max P --confidence C [--allowed-failures K]``."""
+    other = [f"--{k.replace('_', '-')}" for k in ("sd", "sd_diff", "margin", "design", "detect",
+                                                   "ratio", "side", "rate_old", "rate_detect")
+             if getattr(args, k, None) is not None]
+    if other:
+        raise UsageError(f"{', '.join(other)} do not go with --rate-max (a pass-fail plan)")
+    p = args.rate_max
+    c = 0.95 if args.confidence is None else args.confidence
+    k = 0 if args.allowed_failures is None else args.allowed_failures
+    problems = []
+    if not (math.isfinite(p) and 0 < p < 1):
+        problems.append(f"--rate-max {p!r}: must lie strictly between 0 and 1 (0.01 is 1%)")
+    if not (math.isfinite(c) and 0 < c < 1):
+        problems.append(f"--confidence {c!r}: must lie strictly between 0 and 1")
+    if k < 0:
+        problems.append(f"--allowed-failures {k}: must be 0 or more")
+    if problems:
+        raise UsageError(problems)
+    row = demonstration_row(p, c, k)
+    return Plan(title=f"Demonstrate a failure rate of at most {p:g} with confidence {c:g}",
+                source=None, stem="plan", inputs=(("max rate", f"{p:g}", "--rate-max"),
+                                                  ("confidence", f"{c:g}", "--confidence"),
+                                                  ("allowed failures", str(k),
+                                                   "--allowed-failures")),
+                parts=(PlanPart(PACKAGE, (row,)),))
 
-    from .report.cells import NOTE_FONT, TITLE_FONT, WRAP, header_row, put
 
-    put(ws, 1, 1, "Trial plan: pass-fail characteristics", font=TITLE_FONT)
-    put(ws, 2, 1, title)
-    header_row(ws, 4, 1, ["Characteristic", "Check", "What must be shown", "Parts needed",
-                          "min_n in the spec", "Why this n", "Basis"])
-    r = 5
-    for row in rows:
-        for j, v in enumerate([row.characteristic or "-", row.check, row.requirement, row.n,
-                               row.n_planned, row.proof, row.basis], start=1):
-            put(ws, r, j, v, align=WRAP if j in (3, 6, 7) else Alignment(vertical="top"))
-        r += 1
-    put(ws, r + 1, 1, "These numbers size the trial; they decide nothing. Both plans are "
-        "exact for the assumed rates; a trial sized on an old rate that turns out higher "
-        "falls short of its power.", font=NOTE_FONT)
-    for col, w in zip("ABCDEFG", (22, 12, 40, 13, 13, 44, 50), strict=True):
-        ws.column_dimensions[col].width = w
-    ws.page_setup.orientation = "landscape"
-    ws.sheet_properties.pageSetUpPr.fitToPage = True
-    ws.page_setup.fitToWidth = 1
-    ws.page_setup.fitToHeight = 0
+def refuse_stray(args: argparse.Namespace) -> None:
+    """Without --rate-max, the options of its form have nothing to go with."""
+    if args.confidence is not None or args.allowed_failures is not None:
+        raise UsageError("--confidence and --allowed-failures go with --rate-max P")
+
+
+__all__ = ["PACKAGE", "RatePlanRow", "STANDALONE_OPTION", "demonstration_row", "lines",
+           "plan_spec", "plans", "refuse_stray", "shift_row", "standalone"]
