@@ -33,7 +33,8 @@ def test_every_kind_keeps_the_protocol(kind):
     rules = rule.rules(kind)
     assert rules and all(callable(r.describe) for r in rules)
     assert all(isinstance(r.describe(0.05), str) and r.describe(0.05) for r in rules)
-    assert list(inspect.signature(rule.review).parameters) == ["kind", "res", "spec"]
+    if hasattr(rule, "review"):  # optional: review notes on a decided check
+        assert list(inspect.signature(rule.review).parameters) == ["kind", "res", "spec"]
     report = kind.hook("report")
     assert isinstance(report.heading(kind), str) and report.heading(kind)
     assert callable(report.json_fields)

@@ -12,11 +12,13 @@ import numpy as np
 
 from . import decide
 from .checks import kind
+from .checks import names as kind_names
 from .evaluate_gather import CANDIDATES, CharDraft, StreamDraft
-from .model import BeyondLimits, CharacteristicResult, CheckResult, StreamResult
+from .model import CharacteristicResult, CheckResult, StreamResult
 from .spec_model import Characteristic, Spec
 from .stats import multiplicity
 from .stats.core import mean_sd
+from .stats.limits import BeyondLimits
 
 
 def complete_batches(drafts: list[CharDraft]) -> None:
@@ -110,9 +112,9 @@ def finish(spec: Spec, d: CharDraft) -> CharacteristicResult:
         beyond = d.processes[name].beyond_limits if name in d.processes else None
         if beyond is not None and beyond.total:
             review.append(f"review: {d.ch.name} ({name}): {_beyond_words(d.ch, beyond)}")
-    for res in checks:
-        k = kind(res.check)
-        notes = k.hook("rule").review(k, res, spec)
+    for k, res in ((kind(r.check), r) for r in checks if r.check in kind_names()):
+        review_of = getattr(k.hook("rule"), "review", None)  # optional: notes after deciding
+        notes = review_of(k, res, spec) if review_of is not None else ()
         review.extend(f"review: {d.ch.name}: {note}" for note in notes)
     if d.final_shortfall is not None:
         review.append(f"review: {d.ch.name}: final run with the plan cut short "

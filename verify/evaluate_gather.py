@@ -18,12 +18,12 @@ from . import decide
 from .checks import CheckKind, kinds
 from .checks.drafting import CANNOT_COMPUTE, CheckInput, Comparison, Draft, Stream
 from .data import analysis_values, paired_values, stream_values
-from .model import BeyondLimits, DiagnosticResult, Measurements, ProcessSummary
+from .model import DiagnosticResult, Measurements, ProcessSummary
 from .spec_model import Characteristic, Spec
 from .stats import distributions
 from .stats import variance_components as vc
 from .stats.core import mean_sd
-from .stats.limits import beyond_limits
+from .stats.limits import BeyondLimits, beyond_limits
 
 REFERENCE = "old"  # the declared reference stream: every other stream is compared with it
 CANDIDATES = ("new",)  # the streams compared with the reference, today the new process
@@ -92,10 +92,7 @@ def _beyond(ch: Characteristic, parts: np.ndarray) -> BeyondLimits | None:
     """Part values beyond the limits (None without limits): counted on parts, never lot means."""
     if ch.lower is None and ch.upper is None:
         return None
-    r = beyond_limits(parts, lower=ch.lower, upper=ch.upper)
-    return BeyondLimits(below=r.below, above=r.above, expected_ppm=r.expected_ppm,
-                        expected_ppm_below=r.expected_ppm_below,
-                        expected_ppm_above=r.expected_ppm_above)
+    return beyond_limits(parts, lower=ch.lower, upper=ch.upper)
 
 
 def _summary(process: str, values: np.ndarray, lots, n_parts: int,

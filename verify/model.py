@@ -15,6 +15,7 @@ if TYPE_CHECKING:  # pandas is heavy; only needed for annotations here
     import pandas as pd
 
     from .spec_model import Characteristic, Spec
+    from .stats.limits import BeyondLimits
 
 Decision = Literal["PASS", "HOLD", "PENDING"]
 DECISION_ORDER = {"PASS": 0, "PENDING": 1, "HOLD": 2}
@@ -79,26 +80,6 @@ class Measurements:
 
 
 @dataclass(frozen=True)
-class BeyondLimits:
-    """Parts of one process beyond the specification limits (part values, whatever the unit).
-
-    ``below``/``above`` count values strictly beyond the lower/upper limit; ``expected_ppm`` is
-    what a normal model with the process's mean and overall sd expects beyond the limits, in
-    parts per million (None when the model is undefined: fewer than 2 parts or zero spread).
-    """
-
-    below: int
-    above: int
-    expected_ppm: float | None
-    expected_ppm_below: float | None = None
-    expected_ppm_above: float | None = None
-
-    @property
-    def total(self) -> int:
-        return self.below + self.above
-
-
-@dataclass(frozen=True)
 class ProcessSummary:
     process: str  # "old" | "new"
     n: int  # units analysed (parts, or lots when unit_of_analysis is lot)
@@ -108,7 +89,9 @@ class ProcessSummary:
     n_parts: int  # measurements used, whatever the unit
     minimum: float | None = None
     maximum: float | None = None
-    beyond_limits: BeyondLimits | None = None  # None when the characteristic has no limits
+    # parts beyond the specification limits (:class:`verify.stats.limits.BeyondLimits`: counts
+    # below and above, normal-model ppm); None when the characteristic has no limits
+    beyond_limits: BeyondLimits | None = None
     # lots as variance components (one-way random-effects ANOVA on the parts); None where the
     # process has fewer than 2 lots of at least 2 parts
     sd_within_lot: float | None = None
@@ -323,3 +306,13 @@ class Evaluation:
         from .report.notebook import to_html
 
         return to_html(self)
+
+
+def __getattr__(name: str):
+    # ``from verify.model import BeyondLimits`` keeps working: the class is the statistics
+    # layer's own result, imported only when asked for (scipy is heavy for ``verify check``)
+    if name == "BeyondLimits":
+        from .stats.limits import BeyondLimits
+
+        return BeyondLimits
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")

@@ -53,6 +53,13 @@ class Facts:
     data: Any = None  # verify.spec_model.DataSpec
     unit_of_analysis: str = "part"
 
+    @property
+    def pairs_usable(self) -> bool:
+        """Pairs are declared (``data.pair``) and parts are analysed (lot means carry no pair
+        key): the paired designs are the defaults then."""
+        return (self.data is not None and self.data.pair is not None
+                and self.unit_of_analysis != "lot")
+
 
 Recorder = Callable[..., None]
 """``rec(key, value, *, default=None)``: one line of :attr:`Spec.resolved` (``default`` None:

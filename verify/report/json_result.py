@@ -15,7 +15,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..model import BeyondLimits, CheckResult, DiagnosticResult, Evaluation
+from ..model import CheckResult, DiagnosticResult, Evaluation
 from .hooks import report_hook
 
 FORMAT = "verify-result/1"
@@ -94,7 +94,7 @@ def _check(c: CheckResult) -> dict:
     return d
 
 
-def _beyond(b: BeyondLimits | None) -> dict | None:
+def _beyond(b) -> dict | None:
     """{below, above, expected_ppm}: part counts beyond the limits, normal-model ppm (or null)."""
     if b is None:
         return None

@@ -58,7 +58,3 @@ def rules(kind) -> tuple:
     """The kind's rules in the order the workbook prints their sentences."""
     return (CONFORMANCE,)
 
-
-def review(kind, res, spec) -> list[str]:
-    """Review notes on a decided check: none for this kind."""
-    return []

@@ -207,8 +207,7 @@ class ShiftSpec(CheckSpec):
 
     def build(self, entry: dict, facts: Facts, rec: Recorder, path: str) -> ShiftCheck:
         # lot means carry no pair key: with unit_of_analysis lot the default is welch
-        paired_default = facts.data.pair is not None and facts.unit_of_analysis != "lot"
-        design = entry.get("design", "paired" if paired_default else "welch")
+        design = entry.get("design", "paired" if facts.pairs_usable else "welch")
         check = ShiftCheck(design=design, margin=parse_margin(entry.get("margin"), facts.target),
                            detect=opt_float(entry.get("detect")))
         rec(f"{path}.design", design)

@@ -87,7 +87,3 @@ def rules(kind) -> tuple:
     """The kind's rules in the order the workbook prints their sentences."""
     return (_RULES[kind.name],)
 
-
-def review(kind, res, spec) -> list[str]:
-    """Review notes on a decided check: none for this kind."""
-    return []

@@ -55,8 +55,7 @@ class SpreadSpec(CheckSpec):
     def build(self, entry: dict, facts: Facts, rec: Recorder, path: str) -> SpreadCheck:
         # declared pairs decide the spread test whatever the shift design: the two variances
         # of paired data are correlated, and only a test on the pairs (Pitman-Morgan) is valid
-        pairs_usable = facts.data.pair is not None and facts.unit_of_analysis != "lot"
-        design = entry.get("design", "paired" if pairs_usable else "independent")
+        design = entry.get("design", "paired" if facts.pairs_usable else "independent")
         check = SpreadCheck(method=entry.get("method", SpreadCheck.method), design=design,
                             design_given="design" in entry)
         rec(f"{path}.method", check.method)
