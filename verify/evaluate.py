@@ -78,26 +78,23 @@ def draft_characteristic(spec: Spec, meas: Measurements, ch: Characteristic,
     registry's order; the kinds that run per stream also run on each ``data.stream``
     sub-stream (their p-values join the multiplicity family)."""
     if ch.pass_fail:
-        from . import evaluate_pass_fail  # the pass-fail gathering: counts by lot
+        from . import evaluate_pass_fail  # per-part results or per-lot counts
 
         d = evaluate_pass_fail.gather(spec, meas, ch, final)
-    else:
-        d = gather(spec, meas, ch, final)
+        d.checks = [k.hook("compute").draft(k, d.inp) for k in applicable(ch)]
+        d.diagnostics = evaluate_pass_fail.diagnostics(spec, ch, d)
+        return d
+    d = gather(spec, meas, ch, final)
     kinds = applicable(ch)
     d.checks = [k.hook("compute").draft(k, d.inp) for k in kinds]
-    if not ch.pass_fail:
-        if spec.data.stream is not None:
-            per_stream = [k for k in kinds if getattr(k.hook("compute"), "PER_STREAM", False)]
-            for st, inp in sub_streams(meas, d):
-                for k in per_stream:
-                    dr = k.hook("compute").draft(k, inp)
-                    dr.result = replace(dr.result,
-                                        hypothesis=f"stream {st.name}: {dr.result.hypothesis}")
-                    st.checks.append(dr)
-                d.streams.append(st)
-        d.diagnostics = diagnostics(spec, ch, d)
-    else:
-        from .checks.rates.diagnostics import diagnostics as pass_fail_diagnostics
-
-        d.diagnostics = pass_fail_diagnostics(spec, ch, d)
+    if spec.data.stream is not None:
+        per_stream = [k for k in kinds if getattr(k.hook("compute"), "PER_STREAM", False)]
+        for st, inp in sub_streams(meas, d):
+            for k in per_stream:
+                dr = k.hook("compute").draft(k, inp)
+                dr.result = replace(dr.result,
+                                    hypothesis=f"stream {st.name}: {dr.result.hypothesis}")
+                st.checks.append(dr)
+            d.streams.append(st)
+    d.diagnostics = diagnostics(spec, ch, d)
     return d

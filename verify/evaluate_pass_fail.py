@@ -12,6 +12,7 @@ per-lot counts, the failed count per lot row with the inspected count on rows na
 from __future__ import annotations
 
 from .checks.drafting import CheckInput, Comparison, Stream
+from .checks.rates.diagnostics import diagnostics  # noqa: F401 - failures by lot, per stream
 from .evaluate_gather import CANDIDATES, REFERENCE, CharDraft, shows_reference, sufficiency
 from .model import Measurements, ProcessSummary
 from .pass_fail_counts import Counts, process_counts  # noqa: F401 - process_counts: public here

@@ -8,6 +8,7 @@ plans, then the pass-fail plans.
 
 from __future__ import annotations
 
+import math
 from types import ModuleType
 from typing import TYPE_CHECKING
 
@@ -105,4 +106,20 @@ def plan_spec(spec: Spec, measurements: Measurements | None, opts: Options | Non
                 notes=tuple(x for p in parts for x in p.notes))
 
 
-__all__ = ["plan_hooks", "plan_spec", "sheet_hook", "words_hook"]
+def sample_sd(values) -> float | None:
+    """The sample sd of ``values``, or None when it does not exist or is 0 (planning sds)."""
+    from ..stats.core import mean_sd
+
+    if len(values) < 2:
+        return None
+    _, _, s = mean_sd(values)
+    return float(s) if math.isfinite(s) and s > 0 else None
+
+
+def check_path(spec: Spec, ch: Characteristic, check: str) -> tuple[str, int | None]:
+    """(key path of a check in the spec, line of its characteristic), for errors."""
+    i = spec.characteristics.index(ch)
+    return f"characteristics[{i}].checks.{check}", ch.line
+
+
+__all__ = ["check_path", "plan_hooks", "plan_spec", "sample_sd", "sheet_hook", "words_hook"]

@@ -153,21 +153,5 @@ def validate_numbers(*, alpha: float | None = None, power: float | None = None,
         raise UsageError(problems)
 
 
-def sample_sd(values) -> float | None:
-    """The sample sd of ``values``, or None when it does not exist or is 0 (planning sds)."""
-    from ..stats.core import mean_sd
-
-    if len(values) < 2:
-        return None
-    _, _, s = mean_sd(values)
-    return float(s) if math.isfinite(s) and s > 0 else None
-
-
-def check_path(spec: Spec, ch: Characteristic, check: str) -> tuple[str, int | None]:
-    """(key path of a check in the spec, line of its characteristic), for errors."""
-    i = spec.characteristics.index(ch)
-    return f"characteristics[{i}].checks.{check}", ch.line
-
-
 __all__ = ["DEFAULT_ALPHA", "DEFAULT_POWER", "MAX_ALPHA", "Options", "Plan", "PlanPart",
-           "SpecPlanning", "check_path", "sample_sd", "validate_numbers"]
+           "SpecPlanning", "validate_numbers"]

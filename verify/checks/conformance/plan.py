@@ -10,7 +10,8 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 from ...errors import SpecIssue, UsageError
-from ...plan.model import Plan, PlanPart, SpecPlanning, check_path, sample_sd
+from ...plan.compute import check_path, sample_sd
+from ...plan.model import Plan, PlanPart, SpecPlanning
 
 if TYPE_CHECKING:
     from ...checks import CheckKind

@@ -29,6 +29,7 @@ import re
 from typing import TYPE_CHECKING
 
 from ...errors import SpecIssue, UsageError
+from ...plan.compute import check_path, sample_sd
 from ...plan.model import (
     DEFAULT_ALPHA,
     DEFAULT_POWER,
@@ -36,8 +37,6 @@ from ...plan.model import (
     Plan,
     PlanPart,
     SpecPlanning,
-    check_path,
-    sample_sd,
     validate_numbers,
 )
 from .choice import ALTERNATIVES, choose_test
