@@ -79,3 +79,82 @@ def test_every_plan_module_is_short():
             ROOT / "stats" / "sample_size.py", ROOT / "stats" / "noncentral.py"]
     lengths = {p.name: len(p.read_text(encoding="utf-8").splitlines()) for p in mods}
     assert {name: n for name, n in lengths.items() if n >= 600} == {}
+
+
+# --- a new kind plans by adding its hooks alone ----------------------------------------------
+
+FAKE_PLAN = '''
+from verify.plan.model import PlanPart
+
+
+def plans(ch):
+    return True
+
+
+def plan_spec(ctx, kinds):
+    (kind,) = kinds
+    rows = tuple((ch.name, kind.name, len(ch.name)) for ch in ctx.characteristics)
+    return PlanPart("fake", rows, inputs=(("fake input", "1", "test"),),
+                    method=("Fake: a row per characteristic.",))
+
+
+def lines(plan, part):
+    return ["", *(f"  {name}, {check}: {n} letters" for name, check, n in part.rows)]
+'''
+
+FAKE_SHEET = '''
+def add_sheets(wb, plan, part, new_sheet):
+    ws = new_sheet("Fake plan")
+    for i, (name, check, n) in enumerate(part.rows, start=1):
+        ws.cell(i, 1, name)
+        ws.cell(i, 2, n)
+'''
+
+
+@pytest.fixture
+def fake_kind(monkeypatch):
+    """A kind package ``verify.checks.fake`` with a plan and a plan_sheet hook, registered
+    after the real kinds (as a new subpackage would be)."""
+    import importlib.machinery
+    import sys
+    import types
+
+    import verify.checks
+    import verify.plan.compute as compute
+    from verify.checks import CheckKind
+
+    for name, code in (("verify.checks.fake", ""), ("verify.checks.fake.plan", FAKE_PLAN),
+                       ("verify.checks.fake.plan_sheet", FAKE_SHEET)):
+        mod = types.ModuleType(name)
+        mod.__spec__ = importlib.machinery.ModuleSpec(name, None)
+        exec(compile(code, name, "exec"), mod.__dict__)
+        monkeypatch.setitem(sys.modules, name, mod)
+    fake = CheckKind(name="fake_check", package="fake", order=99)
+    real = verify.checks.kinds()
+    monkeypatch.setattr(compute, "kinds", lambda: (*real, fake))
+    return fake
+
+
+def test_a_new_kind_is_planned_printed_and_laid_out_through_its_hooks(fake_kind, tmp_path):
+    """plan_spec, the printed table and the workbook reach the new kind through the registry:
+    its part comes after the real ones, its words and its sheet are its own."""
+    import openpyxl
+
+    from verify.data import load_measurements
+    from verify.plan import format_table, plan_spec
+    from verify.report.plan_workbook import write_plan_workbook
+    from verify.spec import load_spec
+
+    spec = load_spec(ROOT.parent / "specs" / "bushing-supplier.yaml")
+    plan = plan_spec(spec, load_measurements(spec))
+    assert [p.package for p in plan.parts] == ["location", "conformance", "fake"]
+    names_ = [c.name for c in spec.characteristics]
+    assert plan.rows_of("fake") == tuple((n, "fake_check", len(n)) for n in names_)
+    assert plan.inputs[-1] == ("fake input", "1", "test")
+    assert plan.method[-1] == "Fake: a row per characteristic."
+    text = format_table(plan)
+    assert text.endswith("\n".join(f"  {n}, fake_check: {len(n)} letters" for n in names_))
+    write_plan_workbook(plan, tmp_path / "p.xlsx")
+    wb = openpyxl.load_workbook(tmp_path / "p.xlsx")
+    assert wb.sheetnames == ["Plan", "Power curves", "Fake plan"]
+    assert [c.value for c in wb["Fake plan"]["A"]] == names_

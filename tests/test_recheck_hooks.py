@@ -17,6 +17,7 @@ import pytest
 
 from tests.factory import make_evaluation
 from verify.checks import kinds, names
+from verify.model import CheckResult
 from verify.report import recheck
 from verify.report.layout import measurement_layout
 from verify.report.recheck_sheet import FIRST_BODY_ROW, Sheet, computed_nothing
@@ -33,12 +34,14 @@ def _strings(path: Path) -> set[str]:
 
 
 def test_every_kind_has_a_recheck_hook_with_the_protocol():
-    # the hook protocol: recheck(sh, on, check), and optionally prepare(sh, on)
+    # the hook protocol: recheck(sh, on, check), optionally prepare(sh, on) and NUMBERS
     for k in kinds():
         assert k.has_hook("recheck"), k.name
         mod = k.hook("recheck")
         assert callable(mod.recheck), k.name
         assert callable(getattr(mod, "prepare", None)), k.name
+        numbers = getattr(mod, "NUMBERS", recheck.NUMBERS)
+        assert numbers and all(hasattr(CheckResult, f) for f in numbers), k.name
 
 
 def test_the_toolkit_names_no_check():
@@ -73,17 +76,17 @@ def test_computed_nothing_notes_the_reason_and_stops():
     empty = dataclasses.replace(ch, estimate=None, p_value=None, statistic=None,
                                 reason="too few parts")
     sh = Sheet(FIRST_BODY_ROW)
-    assert computed_nothing(sh, empty)
+    assert computed_nothing(sh, empty, recheck.NUMBERS)
     assert sh.rows == [[None, None, None, None, None,
                         "the engine computed no numbers for this check: too few parts"]]
     sh = Sheet(FIRST_BODY_ROW)
-    assert not computed_nothing(sh, ch)
+    assert not computed_nothing(sh, ch, recheck.NUMBERS)
     assert sh.rows == []
 
 
 def test_recheck_rows_calls_each_hook_of_the_kinds_of_the_checks(monkeypatch):
-    # every check of a registered kind reaches its kind's hook once, in the characteristic's
-    # order; a shared prepare hook runs once per characteristic
+    # every check of a registered kind with numbers reaches its kind's hook once, in the
+    # characteristic's order; a shared prepare hook runs once per characteristic
     ev = make_evaluation("all", multiplicity="holm")
     calls: list[tuple[str, str]] = []
     prepared: list[str] = []
@@ -106,6 +109,7 @@ def test_recheck_rows_calls_each_hook_of_the_kinds_of_the_checks(monkeypatch):
     recheck.recheck_rows(ev, measurement_layout(ev))
     registered = set(names())
     expected = [(c.name, ch.check) for c in ev.characteristics for ch in c.checks
-                if ch.check in registered]
+                if ch.check in registered
+                and any(getattr(ch, f) is not None for f in recheck.NUMBERS)]
     assert calls == expected and expected
     assert prepared == [c.name for c in ev.characteristics]

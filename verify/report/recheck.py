@@ -21,7 +21,9 @@ ranges of the measurements sheet, and the sheet says so.
 The sheet names no check: for each characteristic it runs the ``prepare`` hooks of the kinds
 that apply to it (each distinct one once: the samples of both processes for measured
 characteristics, the counts for pass-fail ones), then for each of its checks the ``recheck`` hook
-of the check's kind (``verify/checks/<kind>/recheck.py``), then the multiplicity block
+of the check's kind (``verify/checks/<kind>/recheck.py``) when the engine computed numbers for
+it (one of :data:`NUMBERS`, or of the hook module's own ``NUMBERS``; else a note says why not),
+then the multiplicity block
 (:mod:`verify.report.recheck_family`). The kinds build their rows from the toolkit:
 :mod:`verify.report.recheck_sheet` (the sheet writer, its columns, :class:`Subject`),
 :mod:`verify.report.formulas` (t, F and beta formulas, criteria),
@@ -52,6 +54,7 @@ from .recheck_sheet import (
     Sheet,
     Subject,
     as_text,
+    computed_nothing,
 )
 
 __all__ = [
@@ -72,6 +75,9 @@ __all__ = [
 # (characteristic, process, production order), so sorting or filtering the measurements table
 # changes nothing; beyond it (each lookup scans the table) they read fixed row ranges.
 SORT_PROOF_MAX_ROWS = 20_000
+# a check computed nothing (and its hook is not called) when it has none of these; a hook
+# module may say otherwise with its own NUMBERS
+NUMBERS = ("estimate", "p_value", "statistic")
 
 
 def _measures(subject: Subject) -> str:
@@ -97,7 +103,9 @@ def _characteristic(sh: Sheet, on: Subject) -> None:
             continue  # not a kind of check with formulas (e.g. the sufficiency of n)
         sh.heading(f"{ch.check} check: {ch.method}")
         sh.current = (c.name, ch.check)
-        kind.hook("recheck").recheck(sh, on, ch)
+        hook = kind.hook("recheck")
+        if not computed_nothing(sh, ch, getattr(hook, "NUMBERS", NUMBERS)):
+            hook.recheck(sh, on, ch)
     sh.blank()
 
 

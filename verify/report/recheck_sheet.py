@@ -152,8 +152,7 @@ class Subject:
         return self.result.spec
 
 
-def computed_nothing(sh: Sheet, check: CheckResult,
-                     fields: tuple[str, ...] = ("estimate", "p_value", "statistic")) -> bool:
+def computed_nothing(sh: Sheet, check: CheckResult, fields: tuple[str, ...]) -> bool:
     """True (and a note on the sheet) when the engine computed none of ``fields`` for the
     check, so there is nothing to recompute."""
     if any(getattr(check, f) is not None for f in fields):

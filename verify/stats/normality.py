@@ -1,4 +1,4 @@
-"""Normality diagnostics: Shapiro-Wilk, Anderson-Darling (Stephens' p-value) and
+"""Normality diagnostics: Shapiro-Wilk, Anderson-Darling (D'Agostino and Stephens' p-value) and
 the normal probability-plot correlation. They flag; they never remove data or decide."""
 
 from __future__ import annotations

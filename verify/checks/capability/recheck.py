@@ -13,7 +13,7 @@ from verify.report.formulas import bissell_lower
 from verify.report.layout import VALUE_COLUMN
 from verify.report.recheck_blocks import prepare_samples, why_no_block
 from verify.report.recheck_lookup import used_block
-from verify.report.recheck_sheet import Sheet, Subject, as_number, computed_nothing
+from verify.report.recheck_sheet import Sheet, Subject, as_number
 from verify.report.recheck_within import moving_range, subgroup_sigma
 
 from .result import CapabilityDetails, PercentileCapabilityDetails
@@ -27,8 +27,6 @@ prepare = prepare_samples
 def recheck(sh: Sheet, on: Subject, check: CheckResult) -> None:
     """Append the rows that rebuild the capability check from the used values (see
     :func:`verify.checks.location.recheck.recheck` for the parameters)."""
-    if computed_nothing(sh, check):
-        return
     if isinstance(check.details, PercentileCapabilityDetails):
         _percentile_capability(sh, on.result, check, check.details)
     else:

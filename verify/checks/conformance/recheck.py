@@ -12,7 +12,7 @@ from verify.model import CharacteristicResult, CheckResult
 from verify.report.layout import VALUE_COLUMN
 from verify.report.recheck_blocks import prepare_samples, why_no_block
 from verify.report.recheck_lookup import used_block
-from verify.report.recheck_sheet import Sheet, Subject, computed_nothing
+from verify.report.recheck_sheet import Sheet, Subject
 
 from .result import ConformanceDetails
 
@@ -25,8 +25,6 @@ prepare = prepare_samples
 def recheck(sh: Sheet, on: Subject, check: CheckResult) -> None:
     """Append the rows that rebuild the conformance check from the used values (see
     :func:`verify.checks.location.recheck.recheck` for the parameters)."""
-    if computed_nothing(sh, check):
-        return
     _conformance(sh, on.evaluation, on.layout, on.result, check, check.details)
 
 

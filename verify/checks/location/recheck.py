@@ -12,7 +12,7 @@ from verify.checks.location.result import LocationDetails
 from verify.model import CharacteristicResult, CheckResult
 from verify.report.formulas import HOW_P, HOW_Q, p_above, p_below, p_two, t_quantile
 from verify.report.recheck_blocks import pairs, prepare_samples, samples_of
-from verify.report.recheck_sheet import ALPHA_CELL, Sheet, Subject, computed_nothing
+from verify.report.recheck_sheet import ALPHA_CELL, Sheet, Subject
 
 __all__ = ["prepare", "recheck"]
 
@@ -25,6 +25,9 @@ prepare = prepare_samples
 def recheck(sh: Sheet, on: Subject, check: CheckResult) -> None:
     """Append the rows that rebuild one location check from the used values.
 
+    The recheck sheet calls it for each check of this kind that has numbers (one of
+    ``verify.report.recheck.NUMBERS``), after the check's heading.
+
     Parameters
     ----------
     sh : Sheet
@@ -35,8 +38,6 @@ def recheck(sh: Sheet, on: Subject, check: CheckResult) -> None:
     check : CheckResult
         The engine's result; its numbers go in the "Engine" column.
     """
-    if computed_nothing(sh, check):
-        return
     if check.design == ONE_SAMPLE:
         _target(sh, on.result, check, samples_of(on))
     else:

@@ -27,10 +27,11 @@ from openpyxl.utils import get_column_letter
 from verify.checks.rates.result import RateDetails
 from verify.model import CharacteristicResult, CheckResult
 from verify.report.layout import MEASUREMENT_HEADERS, MeasurementLayout
-from verify.report.recheck_sheet import Sheet, Subject, computed_nothing
+from verify.report.recheck_sheet import Sheet, Subject
 
 __all__ = ["prepare", "recheck"]
 
+NUMBERS = ("estimate",)  # a pass-fail check computed nothing when it has no estimate
 COUNTS = "counts"  # key of Subject.prepared: (n cell, x cell) by process, or None
 FISHER = "fisher"  # rate_shift test: Fisher's exact test (else Boschloo's)
 SCORE = "score"  # rate_shift method: the Miettinen-Nurminen score interval (else Newcombe)
@@ -45,8 +46,6 @@ def prepare(sh: Sheet, on: Subject) -> None:
 def recheck(sh: Sheet, on: Subject, check: CheckResult) -> None:
     """Append the rows that rebuild one pass-fail check from the counts ``prepare`` wrote (see
     :func:`verify.checks.location.recheck.recheck` for the parameters)."""
-    if computed_nothing(sh, check, ("estimate",)):
-        return
     counts = on.prepared[COUNTS]
     if check.check == "rate":
         _rate(sh, check, counts["new"])

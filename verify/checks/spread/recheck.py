@@ -23,7 +23,7 @@ from verify.report.recheck_blocks import (
     prepare_samples,
     samples_of,
 )
-from verify.report.recheck_sheet import Sheet, Subject, as_number, computed_nothing
+from verify.report.recheck_sheet import Sheet, Subject, as_number
 from verify.report.recheck_within import lot_components
 
 __all__ = ["prepare", "recheck"]
@@ -37,8 +37,6 @@ prepare = prepare_samples
 def recheck(sh: Sheet, on: Subject, check: CheckResult) -> None:
     """Append the rows that rebuild the spread check from the used values (see
     :func:`verify.checks.location.recheck.recheck` for the parameters)."""
-    if computed_nothing(sh, check):
-        return
     d = check.details
     if isinstance(d, PairedSpreadDetails):
         _pitman_morgan(sh, on.evaluation, on.layout, on.result, check, d)
