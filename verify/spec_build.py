@@ -189,7 +189,7 @@ def _build_characteristic(c: dict, p: str, data: DataSpec, unit: str, doc: Docum
         rec(f"{p}.match", match)
     rec(f"{p}.unit", c["unit"])
     if c.get("kind") == "pass-fail":
-        return _build_pass_fail(c, p, data, doc, rec, column, match)
+        return _build_pass_fail(c, p, data, unit, doc, rec, column, match)
     target = float(c[TARGET_KEY]) if TARGET_KEY in c else None
     if target is not None:
         rec(f"{p}.target", target)
@@ -214,8 +214,8 @@ def _build_characteristic(c: dict, p: str, data: DataSpec, unit: str, doc: Docum
     )
 
 
-def _build_pass_fail(c: dict, p: str, data: DataSpec, doc: Document, rec, column, match
-                     ) -> Characteristic:
+def _build_pass_fail(c: dict, p: str, data: DataSpec, unit: str, doc: Document, rec, column,
+                     match) -> Characteristic:
     """A pass-fail characteristic: its results or counts, and the rate checks."""
     name = c["name"]
     rec(f"{p}.kind", "pass-fail", default=False)
@@ -231,7 +231,8 @@ def _build_pass_fail(c: dict, p: str, data: DataSpec, doc: Document, rec, column
         ok = _texts(c["pass"], doc, f"{p}.pass")
         rec(f"{p}.fail", list(fail))
         rec(f"{p}.pass", list(ok))
-    checks = _build_checks(c, p, "pass_fail", Facts(side="upper", data=data), rec)
+    facts = Facts(side="upper", data=data, unit_of_analysis=unit)
+    checks = _build_checks(c, p, "pass_fail", facts, rec)
     return Characteristic(
         name=name, unit=c["unit"], column=column, match=match, target=None, limits=None,
         side="upper", checks=checks,
