@@ -8,9 +8,9 @@ parts to inspect.
 
 The package is split by topic: :mod:`~verify.plan.model` (the frozen plan),
 :mod:`~verify.plan.compute` (a spec's plan, looping over the registry of check kinds),
-:mod:`~verify.plan.words` (the printed table). The command line is :mod:`verify.cli_plan`; the workbook
-:mod:`verify.report.plan_workbook`. Nothing here names a check: each kind package plans its
-own checks in its ``plan`` hook.
+:mod:`~verify.plan.words` (the printed table). The command line is :mod:`verify.cli_plan`;
+the workbook :mod:`verify.report.plan_workbook`. Nothing here names a check: each kind package
+plans its own checks in its ``plan`` hook.
 
 The ``plan`` hook protocol (``verify/checks/<package>/plan.py``; all functions module-level):
 
