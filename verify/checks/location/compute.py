@@ -22,7 +22,15 @@ from ...stats.core import (
     t_test_from_estimate,
 )
 from ...stats.errors import DegenerateDataError
-from ..drafting import CANNOT_COMPUTE, CheckInput, Comparison, Draft, cannot_compute, finite
+from ..drafting import (
+    CANNOT_COMPUTE,
+    CheckInput,
+    Comparison,
+    Draft,
+    cannot_compute,
+    finite,
+    not_applicable,
+)
 from .choice import DIFFERENCE, EQUIVALENCE, TestChoice, choose_test
 from .result import LocationDetails
 from .rule import difference_rule, margin_rule
@@ -270,8 +278,7 @@ def companions(kind, inp: CheckInput, dr: Draft) -> list[DiagnosticResult]:
                                             alternative=alt)
             group = f"{data.reference.name} vs {data.candidate.name}"
     except CANNOT_COMPUTE as err:
-        return [DiagnosticResult(name="rank companion", method=f"rank test for the {check}",
-                                 group=check, flag=False, note=f"not applicable: {err}")]
+        return [not_applicable("rank companion", f"rank test for the {check}", check, err)]
     disagree = False
     if res.margin is None:
         disagree = (rt.pvalue < alpha) != (res.p_value < alpha)
