@@ -66,6 +66,15 @@ def _formats(r: CheckResult, fmts: dict) -> dict:
     return out
 
 
+def _kind_rows(checks) -> list:
+    """The rows the checks' kinds add to the table, each once, in the checks' order."""
+    rows: dict = {}
+    for r in checks:
+        for label, get, fmt in report_hook(r.check, "sheet_rows", default=[]):
+            rows.setdefault(label, (label, get, fmt))
+    return list(rows.values())
+
+
 def _rows_for_checks(checks, fmts):
     """(label, getter, format) for each quantity shown; rows empty for every check are dropped."""
     each = [_formats(r, fmts) for r in checks]
@@ -84,10 +93,8 @@ def _rows_for_checks(checks, fmts):
         ("Degrees of freedom", lambda r: r.df, DF_FORMAT),
         ("p-value", lambda r: r.p_value, P_FORMAT),
         ("p-value, adjusted", lambda r: r.p_adjusted, P_FORMAT),
-        ("TOST: statistic, lower test", lambda r: r.statistic_lower, STAT_FORMAT),
-        ("TOST: p-value, lower test", lambda r: r.p_lower, P_FORMAT),
-        ("TOST: statistic, upper test", lambda r: r.statistic_upper, STAT_FORMAT),
-        ("TOST: p-value, upper test", lambda r: r.p_upper, P_FORMAT),
+        # the kinds' own rows (report hook ``sheet_rows``), e.g. TOST's one-sided tests
+        *_kind_rows(checks),
         ("Interval: low", lambda r: r.ci_low, est),
         ("Interval: high", lambda r: r.ci_high, est),
         ("Interval: confidence", lambda r: r.ci_level, "0%"),

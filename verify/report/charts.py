@@ -46,7 +46,7 @@ BAND_ROWS = 19  # rows a band of charts takes (15 pt rows: 285 pt, the chart 255
 ROW_PT = 15.0  # the height of the rows under the charts, in points
 COLOURS = {"old": "5B7C99", "new": "D9822B"}
 LINE_COLOURS = {
-    "target": "2E7D57",
+    "target value": "2E7D57",  # the characteristic's target
     "limit": "A3392B",
     "margin": "A3392B",
     "zero": "6B7680",
@@ -292,7 +292,7 @@ def _production_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
     spec = c.spec
     xmax = float(x0 + 1)
     lines = [
-        ("target", spec.target, "target", None),
+        ("target", spec.target, "target value", None),
         ("lower limit", spec.lower, "limit", "dash"),
         ("upper limit", spec.upper, "limit", "dash"),
     ]
@@ -378,7 +378,7 @@ def _histogram(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
     for label, x, kind in (
         ("lower limit", spec.lower, "limit"),
         ("upper limit", spec.upper, "limit"),
-        ("target", spec.target, "target"),
+        ("target", spec.target, "target value"),
     ):
         if x is None:
             continue

@@ -121,12 +121,10 @@ def draft(kind, inp: CheckInput) -> Draft:
     n_new, n_old = e.n_new, e.n_old
     sds = _power_sds(e)
     ratio = _ratio(n_new, n_old) if design in ("welch", "pooled") else 1.0
-    common = dict(
-        estimate=e.estimate, standard_error=e.standard_error, df=e.df, design=design,
-        details=LocationDetails(n_new=n_new, n_old=n_old, sd=float(e.sd)),
-    )
+    details = LocationDetails(n_new=n_new, n_old=n_old, sd=float(e.sd))
+    common = dict(estimate=e.estimate, standard_error=e.standard_error, df=e.df, design=design)
     if test.kind != DIFFERENCE:
-        return _draft_margin(kind, inp, test, e, subject, noun, sds, ratio, common)
+        return _draft_margin(kind, inp, test, e, subject, noun, sds, ratio, common, details)
 
     # no margin: a difference test in the harmful direction. Under holm or bonferroni the
     # interval, critical value and power figures use the Bonferroni level alpha / m, m the size
@@ -140,7 +138,8 @@ def draft(kind, inp: CheckInput) -> Draft:
     rule = difference_rule(kind)
     res = CheckResult(
         check=kind.name, method=r.method, hypothesis=hyp, alternative=alternative, margin=None,
-        outcome="PASS", reason="", statistic=r.statistic, p_value=r.pvalue, **common,
+        outcome="PASS", reason="", statistic=r.statistic, p_value=r.pvalue, details=details,
+        **common,
     )
     found = {}
 
@@ -175,7 +174,7 @@ def draft(kind, inp: CheckInput) -> Draft:
 
 
 def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun: str,
-                  sds: dict, ratio: float, common: dict) -> Draft:
+                  sds: dict, ratio: float, common: dict, details: LocationDetails) -> Draft:
     """Equivalence (two-sided) or non-inferiority (one harmful side) against the margin."""
     spec, ch = inp.spec, inp.ch
     alpha = spec.alpha
@@ -233,7 +232,8 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
         critical_value=critical_value(e.df, alpha, "greater"), power=finite(pw),
         power_note=(f"power of this test if the true {noun} is "
                     f"{fmt(true_shift)} and the sd is as observed"),
-        planned_n=size.n_new if size is not None else None, **tost_fields, **common,
+        planned_n=size.n_new if size is not None else None,
+        details=replace(details, **tost_fields), **common,
     )
     harm = rule.harm_shown(ci=(ci.low, ci.high), low=low, high=high, side=ch.side)
     return Draft(result=res, harm_shown=verdict.outcome == "HOLD" and harm, batch=batch)

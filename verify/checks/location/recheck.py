@@ -63,7 +63,8 @@ def _one_sided(
     lower = side == "lower"
     word, op, tail = ("low", "<=", ">=") if lower else ("high", ">=", "<=")
     t_engine, p_engine = (
-        (ch.statistic_lower, ch.p_lower) if lower else (ch.statistic_upper, ch.p_upper)
+        (ch.details.statistic_lower, ch.details.p_lower) if lower
+        else (ch.details.statistic_upper, ch.details.p_upper)
     )
     t = sh.qty(
         f"t, {side} one-sided test", f"({est}-{bound})/{se}", t_engine, f"(estimate - {word}) / se"
