@@ -49,6 +49,7 @@ import pandas as pd
 from scipy import stats
 
 from verify.checks.capability.result import CapabilityDetails
+from verify.checks.location.result import LocationDetails
 from verify.checks.spread.result import TwoSampleSpreadDetails
 from verify.model import (
     DECISION_ORDER,
@@ -260,10 +261,9 @@ def _target_check(x, target, margin, side, alpha, plan_power, decimals) -> Check
             ci_high=float(hi),
             ci_level=level,
             critical_value=tc,
-            p_lower=p_low,
-            p_upper=p_up,
-            statistic_lower=float(s_low),
-            statistic_upper=float(s_up),
+            details=LocationDetails(n_new=n, n_old=None, sd=sd, p_lower=p_low, p_upper=p_up,
+                                    statistic_lower=float(s_low),
+                                    statistic_upper=float(s_up)),
             power=power,
             power_note="power of TOST to show the mean within the margin if it sits on target",
             planned_n=_planned_n(sd, margin.low, margin.high, alpha, plan_power, two=False),
@@ -355,10 +355,9 @@ def _shift_check(xo, xn, design, margin, side, alpha, plan_power, decimals) -> C
             ci_high=float(hi),
             ci_level=level,
             critical_value=tc,
-            p_lower=p_low,
-            p_upper=p_up,
-            statistic_lower=float(s_low),
-            statistic_upper=float(s_up),
+            details=LocationDetails(n_new=nn, n_old=no, sd=sd_plan, p_lower=p_low, p_upper=p_up,
+                                    statistic_lower=float(s_low),
+                                    statistic_upper=float(s_up)),
             power=_power_tost(se, df, margin.low, margin.high, alpha),
             power_note="power of TOST to show equivalence if the true shift is 0",
             planned_n=_planned_n(

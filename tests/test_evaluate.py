@@ -84,8 +84,8 @@ def test_welch_tost_matches_statsmodels(evaluations):
     # statsmodels: ttost_ind(new, old, low, high, usevar="unequal") -> (p, lower, upper)
     p, lower, upper = ttost_ind(new, old, low, high, usevar="unequal")
     assert shift.p_value == pytest.approx(p, rel=1e-9)
-    assert shift.p_lower == pytest.approx(lower[1], rel=1e-9)
-    assert shift.p_upper == pytest.approx(upper[1], rel=1e-9)
+    assert shift.details.p_lower == pytest.approx(lower[1], rel=1e-9)
+    assert shift.details.p_upper == pytest.approx(upper[1], rel=1e-9)
     assert shift.df == pytest.approx(lower[2], rel=1e-12)
 
 

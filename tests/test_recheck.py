@@ -250,8 +250,8 @@ def test_engine_column_holds_the_check_results_numbers(design):
             assert ch.df in engine.values()
             if ch.margin is not None:
                 assert engine["p (TOST)"] == ch.p_value
-                assert engine["p, lower one-sided test (H0: effect <= low)"] == ch.p_lower
-                assert engine["p, upper one-sided test (H0: effect >= high)"] == ch.p_upper
+                assert engine["p, lower one-sided test (H0: effect <= low)"] == ch.details.p_lower
+                assert engine["p, upper one-sided test (H0: effect >= high)"] == ch.details.p_upper
                 assert engine["interval: low"] == ch.ci_low
                 assert engine["interval: high"] == ch.ci_high
             else:

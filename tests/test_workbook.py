@@ -323,7 +323,7 @@ def test_characteristic_sheet_content_and_charts(all_book):
     shift = c.checks[shift_col - 2]
     assert ws.cell(labels["p-value"], shift_col).value == shift.p_value
     assert ws.cell(labels["Degrees of freedom"], shift_col).value == shift.df
-    assert ws.cell(labels["TOST: p-value, lower test"], shift_col).value == shift.p_lower
+    assert ws.cell(labels["TOST: p-value, lower test"], shift_col).value == shift.details.p_lower
     assert ws.cell(labels["Interval: low"], shift_col).value == shift.ci_low
     assert ws.cell(labels["Critical value"], shift_col).value == shift.critical_value
     assert ws.cell(labels["Achieved power"], shift_col).value == shift.power

@@ -9,7 +9,7 @@ import numpy as np
 
 from . import decide
 from .checks import kind
-from .checks.drafting import CANNOT_COMPUTE, finite
+from .checks.drafting import CANNOT_COMPUTE, finite, not_applicable
 from .evaluate_gather import CharDraft
 from .model import DiagnosticResult
 from .spec_model import Characteristic, Spec
@@ -25,11 +25,6 @@ def _lot_count_words(n_lots: int, n_values: int) -> str:
         lots = "1 lot" if n_lots == 1 else f"{n_lots} lots"
         return f"only {lots}: lot-to-lot variation is barely represented"
     return f"{n_lots} lots"
-
-
-def _diag_na(name, method, group, err) -> DiagnosticResult:
-    return DiagnosticResult(name=name, method=method, group=group, flag=False,
-                            note=f"not applicable: {err}")
 
 
 def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[DiagnosticResult]:
@@ -56,7 +51,7 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
                  f"no departure from normality detected ({decide.p_eq(sw.pvalue)})"),
                 statistic=sw.statistic, p_value=sw.pvalue))
         except CANNOT_COMPUTE as err:
-            out.append(_diag_na("normality", "Shapiro-Wilk", group, err))
+            out.append(not_applicable("normality", "Shapiro-Wilk", group, err))
         sw_applies = out[-1].p_value is not None
         try:
             ad = diag.anderson_darling(x)
@@ -66,7 +61,7 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
                 f"Anderson-Darling {decide.p_eq(ad.pvalue)}",
                 statistic=ad.statistic, p_value=ad.pvalue))
         except CANNOT_COMPUTE as err:
-            out.append(_diag_na("normality", "Anderson-Darling", group, err))
+            out.append(not_applicable("normality", "Anderson-Darling", group, err))
     part_groups = [(cand.name, cand.parts, cand.lots)]
     if ref.parts is not None:
         part_groups.insert(0, (ref.name, ref.parts, ref.lots))
@@ -85,7 +80,7 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
                 statistic=g.statistic, p_value=g.pvalue,
                 extra={"value": g.value, "lot": str(lot)}))
         except CANNOT_COMPUTE as err:
-            out.append(_diag_na("outliers", "Grubbs", group, err))
+            out.append(not_applicable("outliers", "Grubbs", group, err))
         n_lots = len(set(lots))
         out.append(DiagnosticResult(
             "lot count", "count of lots", group, n_lots < 3,
@@ -103,7 +98,7 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
                     statistic=le.statistic, p_value=le.pvalue,
                     extra={"icc": le.icc, "n_lots": le.n_lots}))
             except CANNOT_COMPUTE as err:
-                out.append(_diag_na("lot effect", "one-way ANOVA across lots", group, err))
+                out.append(not_applicable("lot effect", "one-way ANOVA across lots", group, err))
         try:
             st = diag.individuals_chart(x)
             flag = bool(st.beyond) or st.longest_run >= RUN_LENGTH_FLAG
@@ -120,7 +115,7 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
                 extra={"centre": st.centre, "lcl": st.lcl, "ucl": st.ucl,
                        "longest_run": st.longest_run}))
         except CANNOT_COMPUTE as err:
-            out.append(_diag_na("stability", "individuals chart", group, err))
+            out.append(not_applicable("stability", "individuals chart", group, err))
     try:
         allv = cand.parts if ref.parts is None else np.concatenate([ref.parts, cand.parts])
         tol = (ch.upper - ch.lower) if (ch.lower is not None and ch.upper is not None) else None
@@ -134,7 +129,7 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
             extra={"distinct": rs.distinct, "step_over_tenth_tolerance":
                    finite(rs.step_over_tenth_tolerance)}))
     except CANNOT_COMPUTE as err:
-        out.append(_diag_na("resolution", "measurement resolution", "all", err))
+        out.append(not_applicable("resolution", "measurement resolution", "all", err))
     if len(d.streams) >= 2:
         out.append(_stream_effect(d, alpha))
     if d.inp.fit is not None:
@@ -147,7 +142,7 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
             statistic=f.gof_statistic, p_value=f.gof_pvalue,
             extra={k: v for k, v in f.parameters}))
     elif d.inp.fit_error is not None:
-        out.append(_diag_na("distribution fit", f"{ch.distribution} fit", "new",
+        out.append(not_applicable("distribution fit", f"{ch.distribution} fit", "new",
                             d.inp.fit_error))
     out.extend(companions(d))
     return out
@@ -174,7 +169,7 @@ def _stream_effect(d: CharDraft, alpha: float) -> DiagnosticResult:
     try:
         r = diag.lot_effect(values, labels)
     except CANNOT_COMPUTE as err:
-        return _diag_na("stream effect", "one-way ANOVA across the new streams", "new", err)
+        return not_applicable("stream effect", "one-way ANOVA across the new streams", "new", err)
     centre = float(np.mean(values))
     far = max((st for st in d.streams if st.values.size),
               key=lambda st: abs(float(np.mean(st.values)) - centre))

@@ -115,6 +115,8 @@ class CheckDetails:
     """
 
     OMITTED_WHEN_NONE: tuple[str, ...] = ()
+    # fields the JSON and the sheets show under names of their own (not in the mapping)
+    SHOWN_APART: tuple[str, ...] = ()
 
     def as_mapping(self) -> dict[str, float | int | str | None]:
         from dataclasses import fields
@@ -122,6 +124,8 @@ class CheckDetails:
         out = {}
         for f in fields(self):
             value = getattr(self, f.name)
+            if f.name in self.SHOWN_APART:
+                continue
             if value is None and f.name in self.OMITTED_WHEN_NONE:
                 continue
             out[f.name] = value
@@ -149,11 +153,6 @@ class CheckResult:
     ci_high: float | None = None
     ci_level: float | None = None
     critical_value: float | None = None
-    # TOST only
-    p_lower: float | None = None
-    p_upper: float | None = None
-    statistic_lower: float | None = None
-    statistic_upper: float | None = None
     # planning
     power: float | None = None  # achieved power where it applies
     power_note: str | None = None  # what the power is the power *of*

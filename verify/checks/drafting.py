@@ -135,6 +135,15 @@ class Draft:
     batch: dict | None = None
 
 
+def not_applicable(name: str, method: str, group: str, err: object):
+    """A diagnostic (or companion) that does not apply to these data: unflagged, with the
+    reason in words."""
+    from ..model import DiagnosticResult
+
+    return DiagnosticResult(name=name, method=method, group=group, flag=False,
+                            note=f"not applicable: {err}")
+
+
 def cannot_compute(check: str, method: str, hypothesis: str, err: object, **fields) -> Draft:
     """A HOLD "cannot be computed: <reason>" draft for data that cannot support the check."""
     from ..model import CheckResult

@@ -6,11 +6,11 @@ units per process reaching a target power, the power at the spec's ``min_n`` and
 shift found there; for conformance the parts a process needs to pass; for pass-fail rates the
 parts to inspect.
 
-The package is split by topic: :mod:`~verify.plan.model` (the frozen plan), :mod:`~verify.plan.
-compute` (a spec's plan, looping over the registry of check kinds), :mod:`~verify.plan.words`
-(the printed table). The command line is :mod:`verify.cli_plan`; the workbook
-:mod:`verify.report.plan_workbook`. Nothing here names a check: each kind package plans its
-own checks in its ``plan`` hook.
+The package is split by topic: :mod:`~verify.plan.model` (the frozen plan),
+:mod:`~verify.plan.compute` (a spec's plan, looping over the registry of check kinds),
+:mod:`~verify.plan.words` (the printed table). The command line is :mod:`verify.cli_plan`;
+the workbook :mod:`verify.report.plan_workbook`. Nothing here names a check: each kind package
+plans its own checks in its ``plan`` hook.
 
 The ``plan`` hook protocol (``verify/checks/<package>/plan.py``; all functions module-level):
 

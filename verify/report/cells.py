@@ -205,6 +205,25 @@ def section(ws, row: int, title: str, col: int = 1) -> None:
 _RESERVED = {"history"}
 
 
+DIAGNOSTIC_HEADERS = ["Diagnostic", "Method", "Group", "Statistic", "p-value", "Flag", "Note"]
+
+
+def diagnostic_rows(ws, row: int, diagnostics, last_col: int, stat_format) -> int:
+    """A row per diagnostic (the note merged to ``last_col``, a flag in bold brown); the
+    statistic's number format is ``stat_format(diagnostic)``. Returns the next free row."""
+    for d in diagnostics:
+        values = [d.name, d.method, d.group, d.statistic, d.p_value,
+                  "review" if d.flag else "no", d.note]
+        fl = [None, None, None, stat_format(d), P_FORMAT, None, None]
+        for j, (v, fm) in enumerate(zip(values, fl, strict=True), start=1):
+            put(ws, row, j, v, fmt=fm, border=BOX, align=WRAP if j in (2, 7) else None)
+        if d.flag:
+            ws.cell(row, 6).font = Font(bold=True, color="8A4B00")
+        ws.merge_cells(start_row=row, start_column=7, end_row=row, end_column=last_col)
+        row += 1
+    return row
+
+
 def sheet_name(name: str, taken: set[str], *, fallback: str = "Sheet") -> str:
     """A sheet name by Excel's rules, unique (case-insensitively) against ``taken``.
 

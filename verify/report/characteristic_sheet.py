@@ -16,6 +16,7 @@ from ..model import CharacteristicResult, CheckResult, Evaluation
 from .cells import (
     BOX,
     DF_FORMAT,
+    DIAGNOSTIC_HEADERS,
     INK,
     INT_FORMAT,
     NOTE_FONT,
@@ -24,6 +25,7 @@ from .cells import (
     STAT_FORMAT,
     TITLE_FONT,
     WRAP,
+    diagnostic_rows,
     fit_rows,
     formats_for,
     header_row,
@@ -64,6 +66,15 @@ def _formats(r: CheckResult, fmts: dict) -> dict:
     return out
 
 
+def _kind_rows(checks) -> list:
+    """The rows the checks' kinds add to the table, each once, in the checks' order."""
+    rows: dict = {}
+    for r in checks:
+        for label, get, fmt in report_hook(r.check, "sheet_rows", default=[]):
+            rows.setdefault(label, (label, get, fmt))
+    return list(rows.values())
+
+
 def _rows_for_checks(checks, fmts):
     """(label, getter, format) for each quantity shown; rows empty for every check are dropped."""
     each = [_formats(r, fmts) for r in checks]
@@ -82,10 +93,8 @@ def _rows_for_checks(checks, fmts):
         ("Degrees of freedom", lambda r: r.df, DF_FORMAT),
         ("p-value", lambda r: r.p_value, P_FORMAT),
         ("p-value, adjusted", lambda r: r.p_adjusted, P_FORMAT),
-        ("TOST: statistic, lower test", lambda r: r.statistic_lower, STAT_FORMAT),
-        ("TOST: p-value, lower test", lambda r: r.p_lower, P_FORMAT),
-        ("TOST: statistic, upper test", lambda r: r.statistic_upper, STAT_FORMAT),
-        ("TOST: p-value, upper test", lambda r: r.p_upper, P_FORMAT),
+        # the kinds' own rows (report hook ``sheet_rows``), e.g. TOST's one-sided tests
+        *_kind_rows(checks),
         ("Interval: low", lambda r: r.ci_low, est),
         ("Interval: high", lambda r: r.ci_high, est),
         ("Interval: confidence", lambda r: r.ci_level, "0%"),
@@ -400,29 +409,15 @@ def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: 
     section(ws, row, "Diagnostics (they never decide alone; a flag asks for review)")
     row += 1
     if c.diagnostics:
-        header_row(
-            ws, row, 1, ["Diagnostic", "Method", "Group", "Statistic", "p-value", "Flag", "Note"]
-        )
+        header_row(ws, row, 1, DIAGNOSTIC_HEADERS)
         ws.merge_cells(start_row=row, start_column=7, end_row=row, end_column=last_col)
         row += 1
-        for d in c.diagnostics:
-            values = [
-                d.name,
-                d.method,
-                d.group,
-                d.statistic,
-                d.p_value,
-                "review" if d.flag else "no",
-                d.note,
-            ]
+
+        def stat_format(d):
             whole = d.statistic is not None and float(d.statistic).is_integer()
-            fl = [None, None, None, INT_FORMAT if whole else STAT_FORMAT, P_FORMAT, None, None]
-            for j, (v, fm) in enumerate(zip(values, fl, strict=True), start=1):
-                put(ws, row, j, v, fmt=fm, border=BOX, align=WRAP if j in (2, 7) else None)
-            if d.flag:
-                ws.cell(row, 6).font = Font(bold=True, color="8A4B00")
-            ws.merge_cells(start_row=row, start_column=7, end_row=row, end_column=last_col)
-            row += 1
+            return INT_FORMAT if whole else STAT_FORMAT
+
+        row = diagnostic_rows(ws, row, c.diagnostics, last_col, stat_format)
     else:
         put(ws, row, 1, "No diagnostics were run.", font=NOTE_FONT)
         row += 1

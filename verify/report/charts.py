@@ -46,7 +46,7 @@ BAND_ROWS = 19  # rows a band of charts takes (15 pt rows: 285 pt, the chart 255
 ROW_PT = 15.0  # the height of the rows under the charts, in points
 COLOURS = {"old": "5B7C99", "new": "D9822B"}
 LINE_COLOURS = {
-    "target": "2E7D57",
+    "target value": "2E7D57",  # the characteristic's target
     "limit": "A3392B",
     "margin": "A3392B",
     "zero": "6B7680",
@@ -78,16 +78,18 @@ def chart_title(text: str, size: int = 1000) -> Title:
     return Title(tx=Text(rich=RichText(p=[para])), overlay=False)
 
 
-def _style_points(s: Series, colour: str) -> None:
+def style_points(s: Series, colour: str, size: int = 4) -> None:
+    """Points without a line, in one colour."""
     s.marker.symbol = "circle"
-    s.marker.size = 4
+    s.marker.size = size
     s.marker.graphicalProperties.solidFill = colour
     s.marker.graphicalProperties.line.solidFill = colour
     s.graphicalProperties.line.noFill = True
     s.smooth = False
 
 
-def _style_line(s: Series, colour: str, dash: str | None = None, width: int = 19050) -> None:
+def style_line(s: Series, colour: str, dash: str | None = None, width: int = 19050) -> None:
+    """A line without markers (``dash`` e.g. "dash"; ``width`` in EMU)."""
     s.marker.symbol = "none"
     s.graphicalProperties.line.solidFill = colour
     s.graphicalProperties.line.width = width
@@ -283,14 +285,14 @@ def _production_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
             Reference(ws, min_col=col, min_row=first, max_row=r - 1),
             title=f"{p} process",
         )
-        _style_points(s, COLOURS[p])
+        style_points(s, COLOURS[p])
         chart.series.append(s)
         ys.extend(pts.tolist())
     # reference lines: two points each, across the whole run
     spec = c.spec
     xmax = float(x0 + 1)
     lines = [
-        ("target", spec.target, "target", None),
+        ("target", spec.target, "target value", None),
         ("lower limit", spec.lower, "limit", "dash"),
         ("upper limit", spec.upper, "limit", "dash"),
     ]
@@ -316,10 +318,10 @@ def _production_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
         if y is None:
             continue
         block.add(label, [(0.0, y), (xmax, y)])
-        styles[label] = lambda s, k=kind, d=dash: _style_line(s, LINE_COLOURS[k], d)
+        styles[label] = lambda s, k=kind, d=dash: style_line(s, LINE_COLOURS[k], d)
     if boundaries and len(boundaries) <= MAX_LOT_LINES and not note:
         block.add("lot boundaries", _vertical_lines(boundaries, lo, hi))
-        styles["lot boundaries"] = lambda s: _style_line(s, LINE_COLOURS["lot"], None, 9525)
+        styles["lot boundaries"] = lambda s: style_line(s, LINE_COLOURS["lot"], None, 9525)
     chart.display_blanks = "gap"
     block.to_chart(chart, styles)
     _axes(chart, "position in production order", f"{c.name} ({c.unit})", "0", formats["value"])
@@ -369,19 +371,19 @@ def _histogram(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
         pts.append((edges[-1], 0.0))
         name = f"{p} process (n = {groups[p].size})"
         block.add(name, pts, y_fmt="0.0")
-        styles[name] = lambda s, p=p: _style_line(s, COLOURS[p], None, 25400)
+        styles[name] = lambda s, p=p: style_line(s, COLOURS[p], None, 25400)
     xs = [float(edges[0]), float(edges[-1])]
     spec = c.spec
     y_hi = _nice(0.0, top * 1.1)[1]
     for label, x, kind in (
         ("lower limit", spec.lower, "limit"),
         ("upper limit", spec.upper, "limit"),
-        ("target", spec.target, "target"),
+        ("target", spec.target, "target value"),
     ):
         if x is None:
             continue
         block.add(label, [(x, 0.0), (x, y_hi)])
-        styles[label] = lambda s, k=kind: _style_line(
+        styles[label] = lambda s, k=kind: style_line(
             s, LINE_COLOURS[k], "dash" if k == "limit" else None
         )
         xs.append(float(x))
@@ -449,19 +451,19 @@ def _interval_chart(ws, c, anchor, row0, col, formats) -> tuple[int, int]:
         name = _row_label(k, res)
         block.add(name, [(clip(res.ci_low), k), (clip(res.ci_high), k)])
         colour = palette[(k - 1) % len(palette)]
-        styles[name] = lambda s, colour=colour: _style_line(s, colour, None, 38100)
+        styles[name] = lambda s, colour=colour: style_line(s, colour, None, 38100)
         est.append((res.estimate, k))
         for m in existing_margin_ends(res):
             marks += [(m, k - 0.3), (m, k + 0.3), (None, None)]
     block.add("estimate", est)
-    styles["estimate"] = lambda s: _style_points(s, "1F2A33")
+    styles["estimate"] = lambda s: style_points(s, "1F2A33")
     if marks:
         block.add("margin (only the ends that exist)", marks)
-        styles["margin (only the ends that exist)"] = lambda s: _style_line(
+        styles["margin (only the ends that exist)"] = lambda s: style_line(
             s, LINE_COLOURS["margin"], None, 28575
         )
     block.add("zero", [(0.0, 0.5), (0.0, len(rows) + 0.5)])
-    styles["zero"] = lambda s: _style_line(s, LINE_COLOURS["zero"], "dash")
+    styles["zero"] = lambda s: style_line(s, LINE_COLOURS["zero"], "dash")
     chart = ScatterChart()
     chart.style = 2
     chart.title = chart_title(f"{c.name}: intervals against the margins")
@@ -509,18 +511,18 @@ def _paired_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
     block = _Block(ws, row0, col, "Paired differences (new - old)")
     block.add("difference of a pair", zip(x.tolist(), d.tolist(), strict=True),
               y_fmt=formats["difference"])
-    styles = {"difference of a pair": lambda s: _style_points(s, COLOURS["new"])}
+    styles = {"difference of a pair": lambda s: style_points(s, COLOURS["new"])}
     xmax = float(d.size + 1)
     ys = d.tolist() + [0.0]
     block.add("zero", [(0.0, 0.0), (xmax, 0.0)])
-    styles["zero"] = lambda s: _style_line(s, LINE_COLOURS["zero"], "dash")
+    styles["zero"] = lambda s: style_line(s, LINE_COLOURS["zero"], "dash")
     if shift.estimate is not None:
         block.add("mean difference", [(0.0, shift.estimate), (xmax, shift.estimate)])
-        styles["mean difference"] = lambda s: _style_line(s, LINE_COLOURS["mean"])
+        styles["mean difference"] = lambda s: style_line(s, LINE_COLOURS["mean"])
     for m in existing_margin_ends(shift):
         name = f"margin for the mean difference ({m:+g})"
         block.add(name, [(0.0, m), (xmax, m)])
-        styles[name] = lambda s: _style_line(s, LINE_COLOURS["margin"], None, 28575)
+        styles[name] = lambda s: style_line(s, LINE_COLOURS["margin"], None, 28575)
         ys.append(m)
     chart = ScatterChart()
     chart.style = 2

@@ -75,13 +75,6 @@ def _check(c: CheckResult) -> dict:
         "outcome": c.outcome,
         "reason": c.reason,
     }
-    if c.margin is not None:
-        d.update(
-            p_lower=c.p_lower,
-            p_upper=c.p_upper,
-            statistic_lower=c.statistic_lower,
-            statistic_upper=c.statistic_upper,
-        )
     # the kind's own fields (e.g. a criterion as declared), from its report hook
     d.update(report_hook(c.check, "json_fields", c, default={}))
     d.update(

@@ -27,6 +27,7 @@ from ..checks import kinds
 from ..model import CharacteristicResult, CheckResult, Evaluation
 from .cells import (
     BOX,
+    DIAGNOSTIC_HEADERS,
     INK,
     INT_FORMAT,
     NOTE_FONT,
@@ -34,11 +35,13 @@ from .cells import (
     SECTION_FONT,
     TITLE_FONT,
     WRAP,
+    diagnostic_rows,
     fit_rows,
     header_row,
     put,
     section,
 )
+from .charts import style_line, style_points
 from .hooks import report_hook
 from .summary import decision_style, put_decision_badge
 
@@ -181,20 +184,10 @@ def write_pass_fail(ws, ev: Evaluation, c: CharacteristicResult) -> None:
     row += 1
     section(ws, row, "Diagnostics (they never decide alone; a flag asks for review)")
     row += 1
-    header_row(ws, row, 1, ["Diagnostic", "Method", "Group", "Statistic", "p-value", "Flag",
-                            "Note"])
+    header_row(ws, row, 1, DIAGNOSTIC_HEADERS)
     ws.merge_cells(start_row=row, start_column=7, end_row=row, end_column=LAST_COL)
     row += 1
-    for d in c.diagnostics:
-        values = [d.name, d.method, d.group, d.statistic, d.p_value,
-                  "review" if d.flag else "no", d.note]
-        fl = [None, None, None, "0.000", P_FORMAT, None, None]
-        for j, (v, fm) in enumerate(zip(values, fl, strict=True), start=1):
-            put(ws, row, j, v, fmt=fm, border=BOX, align=WRAP if j in (2, 7) else None)
-        if d.flag:
-            ws.cell(row, 6).font = Font(bold=True, color="8A4B00")
-        ws.merge_cells(start_row=row, start_column=7, end_row=row, end_column=LAST_COL)
-        row += 1
+    row = diagnostic_rows(ws, row, c.diagnostics, LAST_COL, lambda d: "0.000")
 
     fit_rows(ws)
     row += 1
@@ -210,15 +203,6 @@ def write_pass_fail(ws, ev: Evaluation, c: CharacteristicResult) -> None:
     ws.oddFooter.left.text = f"{c.name}: verify run {ev.run.run_id}"
     ws.oddFooter.right.text = "page &P of &N"
     ws.sheet_view.showGridLines = False
-
-
-def _line(s: Series, colour: str, width: int, dash: str | None = None) -> None:
-    s.marker.symbol = "none"
-    s.graphicalProperties.line.solidFill = colour
-    s.graphicalProperties.line.width = width
-    if dash:
-        s.graphicalProperties.line.dashStyle = dash
-    s.smooth = False
 
 
 def _interval_chart(ws, c: CharacteristicResult, row0: int, col: int) -> int:
@@ -251,16 +235,17 @@ def _interval_chart(ws, c: CharacteristicResult, row0: int, col: int) -> int:
     for k, res in enumerate(rows, start=1):
         low = res.ci_low if res.ci_low is not None else 0.0
         add(f"{k}: {res.check} {res.ci_level:.0%} interval", [(low, k), (res.ci_high, k)],
-            lambda s, k=k: _line(s, PALETTE[(k - 1) % 2], 38100))
+            lambda s, k=k: style_line(s, PALETTE[(k - 1) % 2], width=38100))
         limit = _limit(res)
         xs += [low, res.ci_high, res.estimate] + ([limit] if limit is not None else [])
         if limit is not None:
             marks += [(limit, k - 0.3), (limit, k + 0.3), (None, None)]
-    add("estimate", [(res.estimate, k) for k, res in enumerate(rows, start=1)], _points)
+    add("estimate", [(res.estimate, k) for k, res in enumerate(rows, start=1)],
+        lambda s: style_points(s, INK, size=6))
     if marks:
-        add("max or margin", marks, lambda s: _line(s, LIMIT_COLOUR, 28575))
-    add("zero", [(0.0, 0.5), (0.0, len(rows) + 0.5)], lambda s: _line(s, "6B7680", 19050,
-                                                                      "dash"))
+        add("max or margin", marks, lambda s: style_line(s, LIMIT_COLOUR, width=28575))
+    add("zero", [(0.0, 0.5), (0.0, len(rows) + 0.5)],
+        lambda s: style_line(s, "6B7680", width=19050, dash="dash"))
     chart = ScatterChart()
     # a modest title font: the default squeezes the plot
     cp = CharacterProperties(sz=1000, b=True)
@@ -293,12 +278,3 @@ def _interval_chart(ws, c: CharacteristicResult, row0: int, col: int) -> int:
     chart.legend.position = "b"
     ws.add_chart(chart, f"A{row0}")
     return 18
-
-
-def _points(s: Series) -> None:
-    s.marker.symbol = "circle"
-    s.marker.size = 6
-    s.marker.graphicalProperties.solidFill = INK
-    s.marker.graphicalProperties.line.solidFill = INK
-    s.graphicalProperties.line.noFill = True
-    s.smooth = False

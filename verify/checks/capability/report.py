@@ -119,7 +119,7 @@ def write_block(kind, ws, row: int, c, r, last_col: int) -> int:
         ("Cpu", _get(x, "cpu"), "within", "the upper limit"),
         ("Pp", _get(x, "pp"), "overall", "both limits, centring ignored"),
         ("Ppk", _get(x, "ppk"), "overall", "the nearer limit"),
-        ("Cpm", _get(x, "cpm"), "target", "both limits, distance from the target counted"),
+        ("Cpm", _get(x, "cpm"), "about target", "both limits, distance from the target counted"),
     ]
     others = [o for o in others if o[1] is not None and o[0] != index]
     if not others:
@@ -131,7 +131,7 @@ def write_block(kind, ws, row: int, c, r, last_col: int) -> int:
     spreads = {
         "within": sigma_words(how),
         "overall": OVERALL_WORDS,
-        "target": "root mean square distance of the parts from the target",
+        "about target": "root mean square distance of the parts from the target",
     }
     values = {"within": _get(x, "sigma_within"), "overall": _get(x, "sigma_overall")}
     for name, value, kind, against in others:

@@ -22,7 +22,15 @@ from ...stats.core import (
     t_test_from_estimate,
 )
 from ...stats.errors import DegenerateDataError
-from ..drafting import CANNOT_COMPUTE, CheckInput, Comparison, Draft, cannot_compute, finite
+from ..drafting import (
+    CANNOT_COMPUTE,
+    CheckInput,
+    Comparison,
+    Draft,
+    cannot_compute,
+    finite,
+    not_applicable,
+)
 from .choice import DIFFERENCE, EQUIVALENCE, TestChoice, choose_test
 from .result import LocationDetails
 from .rule import difference_rule, margin_rule
@@ -113,12 +121,10 @@ def draft(kind, inp: CheckInput) -> Draft:
     n_new, n_old = e.n_new, e.n_old
     sds = _power_sds(e)
     ratio = _ratio(n_new, n_old) if design in ("welch", "pooled") else 1.0
-    common = dict(
-        estimate=e.estimate, standard_error=e.standard_error, df=e.df, design=design,
-        details=LocationDetails(n_new=n_new, n_old=n_old, sd=float(e.sd)),
-    )
+    details = LocationDetails(n_new=n_new, n_old=n_old, sd=float(e.sd))
+    common = dict(estimate=e.estimate, standard_error=e.standard_error, df=e.df, design=design)
     if test.kind != DIFFERENCE:
-        return _draft_margin(kind, inp, test, e, subject, noun, sds, ratio, common)
+        return _draft_margin(kind, inp, test, e, subject, noun, sds, ratio, common, details)
 
     # no margin: a difference test in the harmful direction. Under holm or bonferroni the
     # interval, critical value and power figures use the Bonferroni level alpha / m, m the size
@@ -132,7 +138,8 @@ def draft(kind, inp: CheckInput) -> Draft:
     rule = difference_rule(kind)
     res = CheckResult(
         check=kind.name, method=r.method, hypothesis=hyp, alternative=alternative, margin=None,
-        outcome="PASS", reason="", statistic=r.statistic, p_value=r.pvalue, **common,
+        outcome="PASS", reason="", statistic=r.statistic, p_value=r.pvalue, details=details,
+        **common,
     )
     found = {}
 
@@ -167,7 +174,7 @@ def draft(kind, inp: CheckInput) -> Draft:
 
 
 def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun: str,
-                  sds: dict, ratio: float, common: dict) -> Draft:
+                  sds: dict, ratio: float, common: dict, details: LocationDetails) -> Draft:
     """Equivalence (two-sided) or non-inferiority (one harmful side) against the margin."""
     spec, ch = inp.spec, inp.ch
     alpha = spec.alpha
@@ -225,7 +232,8 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
         critical_value=critical_value(e.df, alpha, "greater"), power=finite(pw),
         power_note=(f"power of this test if the true {noun} is "
                     f"{fmt(true_shift)} and the sd is as observed"),
-        planned_n=size.n_new if size is not None else None, **tost_fields, **common,
+        planned_n=size.n_new if size is not None else None,
+        details=replace(details, **tost_fields), **common,
     )
     harm = rule.harm_shown(ci=(ci.low, ci.high), low=low, high=high, side=ch.side)
     return Draft(result=res, harm_shown=verdict.outcome == "HOLD" and harm, batch=batch)
@@ -270,8 +278,7 @@ def companions(kind, inp: CheckInput, dr: Draft) -> list[DiagnosticResult]:
                                             alternative=alt)
             group = f"{data.reference.name} vs {data.candidate.name}"
     except CANNOT_COMPUTE as err:
-        return [DiagnosticResult(name="rank companion", method=f"rank test for the {check}",
-                                 group=check, flag=False, note=f"not applicable: {err}")]
+        return [not_applicable("rank companion", f"rank test for the {check}", check, err)]
     disagree = False
     if res.margin is None:
         disagree = (rt.pvalue < alpha) != (res.p_value < alpha)

@@ -14,7 +14,7 @@ from verify.report.formulas import HOW_P, HOW_Q, p_above, p_below, p_two, t_quan
 from verify.report.recheck_blocks import pairs, prepare_samples, samples_of
 from verify.report.recheck_sheet import ALPHA_CELL, Sheet, Subject
 
-__all__ = ["prepare", "recheck"]
+__all__ = ["prepare", "reads_aligned_pairs", "recheck"]
 
 ONE_SAMPLE = "one-sample"  # the design of a check against the target
 
@@ -44,6 +44,12 @@ def recheck(sh: Sheet, on: Subject, check: CheckResult) -> None:
         _shift(sh, on, check, check.design or _spec_design(on))
 
 
+def reads_aligned_pairs(settings) -> bool:
+    """Whether the check with these settings reads the matched pairs as two aligned ranges of
+    the measurements sheet (the paired design), so the sheet lists them side by side by key."""
+    return getattr(settings, "design", None) == "paired"
+
+
 def _spec_design(on: Subject) -> str:
     shift = on.spec.checks.shift
     return shift.design if shift else "welch"
@@ -57,7 +63,8 @@ def _one_sided(
     lower = side == "lower"
     word, op, tail = ("low", "<=", ">=") if lower else ("high", ">=", "<=")
     t_engine, p_engine = (
-        (ch.statistic_lower, ch.p_lower) if lower else (ch.statistic_upper, ch.p_upper)
+        (ch.details.statistic_lower, ch.details.p_lower) if lower
+        else (ch.details.statistic_upper, ch.details.p_upper)
     )
     t = sh.qty(
         f"t, {side} one-sided test", f"({est}-{bound})/{se}", t_engine, f"(estimate - {word}) / se"

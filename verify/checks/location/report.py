@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from ...report.cells import P_FORMAT, STAT_FORMAT
 from ...report.decision_cells import margin_words, num, signed
 from ...report.summary import margin_text as written_margin
 
@@ -42,8 +43,27 @@ def interval_axis(kind, *_) -> str:
 
 
 def json_fields(kind, r) -> dict:
-    """No fields of the kind's own beside the common ones (the TOST fields are common)."""
-    return {}
+    """With a margin, the one-sided tests against its ends (TOST; one of them for
+    non-inferiority)."""
+    x = r.details
+    if r.margin is None or x is None:
+        return {}
+    return {"p_lower": x.p_lower, "p_upper": x.p_upper, "statistic_lower": x.statistic_lower,
+            "statistic_upper": x.statistic_upper}
+
+
+def _tost(name: str):
+    return lambda r: getattr(r.details, name, None)
+
+
+def sheet_rows(kind) -> list:
+    """The check table's rows of the kind's own, after the p-values: TOST's one-sided tests."""
+    return [
+        ("TOST: statistic, lower test", _tost("statistic_lower"), STAT_FORMAT),
+        ("TOST: p-value, lower test", _tost("p_lower"), P_FORMAT),
+        ("TOST: statistic, upper test", _tost("statistic_upper"), STAT_FORMAT),
+        ("TOST: p-value, upper test", _tost("p_upper"), P_FORMAT),
+    ]
 
 
 def sheet_formats(kind, r, fmts: dict) -> dict:

@@ -6,7 +6,7 @@ from __future__ import annotations
 from ...decide import fmt, p_eq, pct
 from ...model import DiagnosticResult
 from ...stats import rates
-from ..drafting import CANNOT_COMPUTE
+from ..drafting import CANNOT_COMPUTE, not_applicable
 
 
 def diagnostics(spec, ch, d) -> list[DiagnosticResult]:
@@ -30,9 +30,8 @@ def diagnostics(spec, ch, d) -> list[DiagnosticResult]:
                 statistic=h.statistic, p_value=h.pvalue,
                 extra={"df": h.df, "lots": h.lots, "min_expected": h.min_expected}))
         except CANNOT_COMPUTE as err:
-            out.append(DiagnosticResult("failures by lot", "chi-square test of equal rates "
-                                        "across lots", group, False,
-                                        f"not applicable: {err}"))
+            out.append(not_applicable("failures by lot", "chi-square test of equal rates "
+                                      "across lots", group, err))
         if c.n and c.failures == 0:
             level = ch.checks.rate.confidence if ch.checks.rate is not None else 0.95
             upper = rates.clopper_pearson(0, c.n, level=level).high

@@ -16,7 +16,7 @@ from ...stats import spread
 from ...stats import variance_components as vc
 from ...stats.errors import DegenerateDataError
 from ...stats.paired_spread import pitman_morgan
-from ..drafting import CANNOT_COMPUTE, CheckInput, Draft, cannot_compute, finite
+from ..drafting import CANNOT_COMPUTE, CheckInput, Draft, cannot_compute, finite, not_applicable
 from .result import LotSpreadDetails, PairedSpreadDetails, TwoSampleSpreadDetails
 from .rule import SPREAD
 
@@ -160,8 +160,7 @@ def companions(kind, inp: CheckInput, dr: Draft) -> list[DiagnosticResult]:
         o = (spread.brown_forsythe(ref.values, cand.values, alternative="greater") if other_bf
              else spread.f_test(ref.values, cand.values, alternative="greater"))
     except CANNOT_COMPUTE as err:
-        return [DiagnosticResult(name="spread companion", method="spread companion",
-                                 group=group, flag=False, note=f"not applicable: {err}")]
+        return [not_applicable("spread companion", "spread companion", group, err)]
     disagree = (o.pvalue < alpha) != (dr.result.p_value < alpha)
     return [DiagnosticResult(
         "spread companion", o.method, group, disagree,
