@@ -17,6 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
+from ..checks import kinds
 from ..model import Evaluation
 
 SUMMARY_SHEET = "Decision"
@@ -123,6 +124,20 @@ def used_rows(table: pd.DataFrame, used: np.ndarray, name: str, process: str) ->
     return table.iloc[pos] if pos is not None else table.iloc[:0]
 
 
+def _aligned_pairs(c) -> bool:
+    """Whether a check of this characteristic reads its matched pairs as two aligned ranges
+    (its kind's recheck hook says so from the check's settings, ``reads_aligned_pairs``): the
+    sheet then lists the matched pairs of both processes sorted by pair key."""
+    for k in kinds():
+        settings = c.spec.checks.get(k.name)
+        if settings is None or not k.has_hook("recheck"):
+            continue
+        ask = getattr(k.hook("recheck"), "reads_aligned_pairs", None)
+        if ask is not None and ask(settings):
+            return True
+    return False
+
+
 def measurement_layout(evaluation: Evaluation, *, rows_per_sheet: int = EXCEL_MAX_ROWS - 1):
     """Order the tidy table for the sheet and find the blocks the recheck formulas use.
 
@@ -143,8 +158,7 @@ def measurement_layout(evaluation: Evaluation, *, rows_per_sheet: int = EXCEL_MA
     t["_m"] = 1
     t["_k"] = ""
     for c in evaluation.characteristics:
-        shift = c.spec.checks.shift
-        if shift is None or shift.design != "paired":
+        if not _aligned_pairs(c):
             continue
         sel = (t["characteristic"] == c.name) & t["used"] & t["process"].isin(["old", "new"])
         sub = t.loc[sel]
@@ -192,8 +206,7 @@ def measurement_layout(evaluation: Evaluation, *, rows_per_sheet: int = EXCEL_MA
     for c in evaluation.characteristics:
         for p in ("old", "new"):
             used[(c.name, p)] = block_at(groups.get((c.name, p)))
-        shift = c.spec.checks.shift
-        if shift is not None and shift.design == "paired":
+        if _aligned_pairs(c):
             sel = (t["characteristic"] == c.name) & t["used"]
             keys = t.loc[sel & (t["process"] == "old"), "pair"]
             keys_new = t.loc[sel & (t["process"] == "new"), "pair"]

@@ -15,6 +15,7 @@ from verify.report.recheck_blocks import prepare_samples, why_no_block
 from verify.report.recheck_lookup import used_block
 from verify.report.recheck_sheet import Sheet, Subject, as_number
 from verify.report.recheck_within import moving_range, subgroup_sigma
+from verify.spec_model import TARGET_KEY
 
 from .result import CapabilityDetails, PercentileCapabilityDetails
 
@@ -112,7 +113,8 @@ def _capability(sh: Sheet, ev, layout, c: CharacteristicResult, ch: CheckResult,
             "the smaller one-sided index",
         )
     if lsl is not None and usl is not None and c.spec.target is not None:
-        tgt = sh.param("target", c.spec.target, "the spec's target")
+        # labelled with the characteristic's key for its nominal value
+        tgt = sh.param(TARGET_KEY, c.spec.target, "the spec's target")
         sh.qty(
             "Cpm",
             f"({usl}-{lsl})/(6*SQRT({sw}^2+({m}-{tgt})^2))",

@@ -14,7 +14,7 @@ from verify.report.formulas import HOW_P, HOW_Q, p_above, p_below, p_two, t_quan
 from verify.report.recheck_blocks import pairs, prepare_samples, samples_of
 from verify.report.recheck_sheet import ALPHA_CELL, Sheet, Subject
 
-__all__ = ["prepare", "recheck"]
+__all__ = ["prepare", "reads_aligned_pairs", "recheck"]
 
 ONE_SAMPLE = "one-sample"  # the design of a check against the target
 
@@ -42,6 +42,12 @@ def recheck(sh: Sheet, on: Subject, check: CheckResult) -> None:
         _target(sh, on.result, check, samples_of(on))
     else:
         _shift(sh, on, check, check.design or _spec_design(on))
+
+
+def reads_aligned_pairs(settings) -> bool:
+    """Whether the check with these settings reads the matched pairs as two aligned ranges of
+    the measurements sheet (the paired design), so the sheet lists them side by side by key."""
+    return getattr(settings, "design", None) == "paired"
 
 
 def _spec_design(on: Subject) -> str:

@@ -49,13 +49,14 @@ def recheck(sh: Sheet, on: Subject, check: CheckResult) -> None:
 def _spread(sh: Sheet, on: Subject, ch: CheckResult, d: TwoSampleSpreadDetails | None
             ) -> None:
     """The F-test (or Brown-Forsythe beside it) on the two samples, or on the matched pairs
-    when the shift check pairs them and the spread check was not declared independent."""
+    when the characteristic's checks run on pairs and the spread check was not declared
+    independent."""
     ev, layout, c, samples = on.evaluation, on.layout, on.result, samples_of(on)
-    shift = c.spec.checks.shift
     sp = c.spec.checks.spread
     opted_out = sp is not None and sp.design == "independent" and sp.design_given
-    if c.pairs is not None and shift is not None and shift.design == "paired" and not opted_out:
-        # an F-test reported on paired data runs on the matched pairs only
+    if c.pairs is not None and not opted_out:
+        # the characteristic's values are matched pairs (a check runs on them) and the spread
+        # check did not knowingly ignore them: an F-test on paired data runs on the pairs only
         pr = pairs(sh, ev, layout, c, None)
         if pr is None:
             return
