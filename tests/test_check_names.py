@@ -28,8 +28,6 @@ NOT_A_CHECK: dict[tuple[str, str], str] = {
     ("verify/report/charts.py", "target"): "the characteristic's nominal value drawn as a line",
     ("verify/report/json_result.py", "target"): "the characteristic's nominal value in the JSON",
     ("verify/report/json_result.py", "rate"): "a process's observed failure rate in the JSON",
-    ("verify/checks/capability/report.py", "target"): "Cpm's distance from the nominal value",
-    ("verify/checks/capability/recheck.py", "target"): "the nominal value Cpm is measured from",
     ("verify/stats/ttests.py", "target"): "the name of the one-sample t-test's argument",
     ("verify/stats/capability.py", "target"): "the name of the capability function's argument",
     ("verify/stats/power_of_tests.py", "shift"): "the name of the power function's argument",
