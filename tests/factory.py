@@ -303,6 +303,18 @@ def _target_check(x, target, margin, side, alpha, plan_power, decimals) -> Check
     )
 
 
+def _engine_sd(xo, xn, design) -> float:
+    """The sd a shift check's standard error rests on: of the differences for pairs (n - 1),
+    the pooled sd for a pooled design, the root mean square of the two sds otherwise."""
+    if design == "paired":
+        return float(np.std(xn - xo, ddof=1))
+    so, sn = float(np.std(xo, ddof=1)), float(np.std(xn, ddof=1))
+    if design == "pooled":
+        no, nn = xo.size, xn.size
+        return math.sqrt(((no - 1) * so**2 + (nn - 1) * sn**2) / (no + nn - 2))
+    return math.sqrt((so**2 + sn**2) / 2)
+
+
 def _shift_check(xo, xn, design, margin, side, alpha, plan_power, decimals) -> CheckResult:
     no, nn = xo.size, xn.size
     so, sn = float(np.std(xo, ddof=1)), float(np.std(xn, ddof=1))
@@ -326,9 +338,6 @@ def _shift_check(xo, xn, design, margin, side, alpha, plan_power, decimals) -> C
         df = float((vo + vn) ** 2 / (vo**2 / (no - 1) + vn**2 / (nn - 1)))
         method = "Welch two-sample t-test"
     sd_plan = math.sqrt((so**2 + sn**2) / 2) if design != "paired" else float(np.std(xn - xo))
-    # the sd the engine reports in its details: of the differences (n - 1) for pairs, pooled
-    # otherwise (the recheck sheet compares it with its own)
-    sd_details = float(np.std(xn - xo, ddof=1)) if design == "paired" else sd_plan
     if margin is not None:
         s_low, s_up, p_low, p_up, tc, lo, hi = _tost(est, se, df, margin.low, margin.high, alpha)
         p = max(p_low, p_up)
@@ -358,8 +367,8 @@ def _shift_check(xo, xn, design, margin, side, alpha, plan_power, decimals) -> C
             ci_high=float(hi),
             ci_level=level,
             critical_value=tc,
-            details=LocationDetails(n_new=nn, n_old=no, sd=sd_details, p_lower=p_low,
-                                    p_upper=p_up,
+            details=LocationDetails(n_new=nn, n_old=None if design == "paired" else no,
+                                    sd=_engine_sd(xo, xn, design), p_lower=p_low, p_upper=p_up,
                                     statistic_lower=float(s_low),
                                     statistic_upper=float(s_up)),
             power=_power_tost(se, df, margin.low, margin.high, alpha),

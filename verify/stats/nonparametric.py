@@ -32,7 +32,7 @@ from scipy import special
 
 from .core import check_alternative
 from .errors import DegenerateDataError
-from .samples import finite_values, snap_to_grid
+from .samples import finite_values, median, snap_to_grid
 
 ArrayLike = Sequence[float] | np.ndarray
 
@@ -101,11 +101,21 @@ def average_ranks(a: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """1-based ranks of ``a`` with ties given their average rank, and the size of each group of
     equal values (in sorted order), from one stable argsort."""
     n = a.size
+    if n == 0:
+        return np.empty(0, dtype=float), np.zeros(1, dtype=np.intp)
     order = np.argsort(a, kind="stable")
     s = a[order]
-    starts = np.flatnonzero(np.concatenate(([True], s[1:] != s[:-1])))
-    sizes = np.diff(np.append(starts, n))
+    new_value = np.empty(n, dtype=bool)
+    new_value[:1] = True
+    np.not_equal(s[1:], s[:-1], out=new_value[1:])
+    starts = np.flatnonzero(new_value)
     ranks = np.empty(n, dtype=float)
+    if starts.size == n:  # no ties: the sorted positions are the ranks (i + (1 + 1) / 2 exactly)
+        ranks[order] = np.arange(1.0, n + 1.0)
+        return ranks, np.ones(n, dtype=np.intp)
+    sizes = np.empty(starts.size, dtype=np.intp)
+    np.subtract(starts[1:], starts[:-1], out=sizes[:-1])
+    sizes[-1] = n - starts[-1]
     # a group of size k starting at 0-based position i holds ranks i+1 .. i+k: average i+(k+1)/2
     ranks[order] = np.repeat(starts + (sizes + 1) / 2.0, sizes)
     return ranks, sizes
@@ -115,7 +125,7 @@ def _tie_counts(sizes: np.ndarray) -> tuple[int, int]:
     """(number of tie groups, number of values in them) from the sizes of groups of equal
     values."""
     tied = sizes[sizes > 1]
-    return int(tied.size), int(tied.sum())
+    return int(tied.size), int(np.add.reduce(tied))
 
 
 @lru_cache(maxsize=64)
@@ -184,27 +194,18 @@ def _upper_pairs(n: int) -> tuple[np.ndarray, np.ndarray]:
     return np.triu_indices(n)
 
 
-def _median(v: np.ndarray) -> float:
-    """The median by partition (as numpy's median: the mean of the two middle values)."""
-    h = v.size // 2
-    if v.size % 2:
-        return float(np.partition(v, h)[h])
-    p = np.partition(v, (h - 1, h))
-    return float((p[h - 1] + p[h]) / 2.0)
-
-
 def _walsh_median(d: np.ndarray) -> float | None:
     n = d.size
     if n * (n + 1) // 2 > HL_MAX_PAIRS:
         return None
     i, j = _upper_pairs(n)
-    return _median((d[i] + d[j]) / 2.0)
+    return median((d[i] + d[j]) / 2.0)
 
 
 def _shift_median(old: np.ndarray, new: np.ndarray) -> float | None:
     if old.size * new.size > HL_MAX_PAIRS:
         return None
-    return _median(np.subtract.outer(new, old).ravel())
+    return median(np.subtract.outer(new, old).ravel())
 
 
 def _clip_p(p: float) -> float:
@@ -257,7 +258,7 @@ def wilcoxon_signed_rank(
     # first, as one group that is not a tie of the ranked differences
     nonzero_sizes = sizes[1:] if (zero_method == "pratt" and n_zero) else sizes
     groups, tied_values = _tie_counts(nonzero_sizes)
-    w_plus = float(np.sum(ranks[ranked_units > 0]))
+    w_plus = float(np.add.reduce(ranks[ranked_units > 0]))
     n_nonzero = int(np.count_nonzero(nonzero))
     exact = (
         groups == 0
@@ -326,7 +327,7 @@ def mann_whitney(
     groups, tied_values = _tie_counts(sizes)
     n_old, n_new = int(a.size), int(b.size)
     exact = groups == 0 and n_old < EXACT_MAX_N and n_new < EXACT_MAX_N
-    u_new = float(np.sum(ranks[n_old:]) - n_new * (n_new + 1) / 2.0)
+    u_new = float(np.add.reduce(ranks[n_old:]) - n_new * (n_new + 1) / 2.0)
     if exact:
         pvalue = _exact_p(rank_sum_counts(n_old, n_new), math.comb(n_old + n_new, n_old),
                           u_new, alternative)

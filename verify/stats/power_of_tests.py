@@ -244,11 +244,18 @@ def _tost_power_many(delta, lo, hi, taus: np.ndarray, dfs: np.ndarray, alpha) ->
     upper_z = (np.asarray(hi, dtype=float) - delta) / taus
     lower_z = (np.asarray(lo, dtype=float) - delta) / taus
     s_max = (upper_z - lower_z) / (2.0 * c)
-    s_lo = np.sqrt(2.0 * special.gammaincinv(h, 1e-20) / dfs)
-    s_hi = np.minimum(np.sqrt(2.0 * special.gammainccinv(h, 1e-20) / dfs), s_max)
-    cuts = np.column_stack([
-        np.sqrt(2.0 * special.gammaincinv(h, q) / dfs) for q in (1e-9, 0.25, 0.5)
-    ] + [np.sqrt(2.0 * special.gammainccinv(h, q) / dfs) for q in (0.25, 1e-9)] + [
+    # the quantiles of S depend on df alone, and the cases share few distinct df (the lot sizes
+    # around each guess, one df per design and size): each is inverted once, then spread out
+    udf, back = np.unique(dfs, return_inverse=True)
+    uh = 0.5 * udf
+
+    def s_at(inverse, q):  # the quantile of S, per case
+        return np.sqrt(2.0 * inverse(uh, q) / udf)[back]
+
+    s_lo = s_at(special.gammaincinv, 1e-20)
+    s_hi = np.minimum(s_at(special.gammainccinv, 1e-20), s_max)
+    cuts = np.column_stack([s_at(special.gammaincinv, q) for q in (1e-9, 0.25, 0.5)]
+                           + [s_at(special.gammainccinv, q) for q in (0.25, 1e-9)] + [
         z / c + k / c for z in (upper_z, -lower_z) for k in (-3.0, 0.0, 3.0)
     ])
     # the pieces of every case at once: its edges sorted, cuts outside (s_lo, s_hi) clipped
@@ -260,7 +267,7 @@ def _tost_power_many(delta, lo, hi, taus: np.ndarray, dfs: np.ndarray, alpha) ->
     tail = (right <= cuts[:, [0]]) | (left >= cuts[:, [4]])  # beyond the 1e-9 quantiles
     owner = np.broadcast_to(np.arange(taus.size)[:, None], left.shape)
     out = np.zeros(taus.size)
-    k0_all = np.array([_sd_ratio_log_constant(float(d)) for d in dfs])
+    k0_all = np.array([_sd_ratio_log_constant(d) for d in udf.tolist()])[back]
     for is_tail in (False, True):
         sel = keep & (tail == is_tail)
         if not sel.any():
