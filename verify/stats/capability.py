@@ -233,7 +233,7 @@ def within_sigma(
     if subgroups is None:
         if x.size < 2:
             raise DegenerateDataError(f"{x.size} value: a moving range needs at least 2")
-        mr_bar = float(np.mean(np.abs(np.diff(x))))
+        mr_bar = float(np.add.reduce(np.abs(x[1:] - x[:-1]))) / (x.size - 1)  # np.mean(|diff|)
         if not mr_bar > 0.0:
             raise DegenerateDataError("all values are identical: the moving range is zero")
         return (mr_bar / D2_TABLE[2], "average moving range / d2(2) = 1.128", None,

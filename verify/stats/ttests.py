@@ -119,9 +119,11 @@ def _as_values(x: object, what: str) -> np.ndarray:
         raise DegenerateDataError(f"the {what} values must be numbers ({exc})") from None
     if arr.ndim != 1:
         raise ValueError(f"the {what} values must be a one-dimensional sequence")
-    if not np.all(np.isfinite(arr)):
-        raise DegenerateDataError(f"the {what} values must all be finite numbers (no NaN or inf)")
-    if arr.size and float(np.max(np.abs(arr))) > _LARGEST:
+    # one pass: the largest |value| is NaN or infinite exactly when a value is
+    if arr.size and not float(np.maximum.reduce(np.abs(arr))) <= _LARGEST:
+        if not np.isfinite(arr).all():
+            raise DegenerateDataError(
+                f"the {what} values must all be finite numbers (no NaN or inf)")
         # beyond this, squares of deviations overflow and no spread can be computed
         raise DegenerateDataError(f"the {what} values are too large (above {_LARGEST:g})")
     return arr
