@@ -13,14 +13,15 @@ Hooks are modules beside the kind's ``__init__``, one per topic, imported only w
 ========== ==================================================================================
 hook       what it holds
 ========== ==================================================================================
-``spec``   its spec keys (JSON Schema fragment), defaults, and the parsed spec dataclass
+``spec``   its spec keys (JSON Schema fragment), defaults, the parsed spec dataclass, its
+           semantic checks and its words for ``verify check`` (``verify.spec_kind``)
 ``compute`` its draft: computation from the gathered streams, calling ``verify.stats`` only
 ``result`` its typed, frozen result details (no untyped ``extra`` dict)
 ``rule``   its rule: the sentence in words and the decision (PASS / HOLD / PENDING)
-``report`` its rows for the characteristic sheet, its decision-page cell, its JSON fields, its
-           words for ``verify check``
+``report`` its rows for the characteristic sheet, its decision-page cell, its JSON fields
+           (``verify.report.hooks``)
 ``recheck`` its live spreadsheet formulas on the Recheck sheet
-``plan``   its planning function for ``verify plan``
+``plan``   its planning for ``verify plan`` (``plan_sheet``: its part of the plan workbook)
 ========== ==================================================================================
 
 Adding a kind is one new subpackage plus its tests; see DEVELOPERS.md.
