@@ -11,7 +11,6 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-import numpy as np
 import pandas as pd
 
 from ..model import CharacteristicResult, Evaluation, ProcessSummary
@@ -23,7 +22,7 @@ from .formulas import (
     string_literal,
 )
 from .layout import LOT_COLUMN, VALUE_COLUMN, Block, MeasurementLayout, used_rows
-from .recheck_lookup import Helper, lookup, lot_cell, used_block
+from .recheck_lookup import Helper, lookup, lot_cell, used_block, used_flags
 from .recheck_sheet import MAX_HELPER_ROWS, Sheet, Subject, as_text
 
 SAMPLES = "samples"  # key of Subject.prepared: the samples of the processes, by process
@@ -51,22 +50,6 @@ class Pairs:
 
 def block_rows(layout: MeasurementLayout, name: str, process: str) -> pd.DataFrame:
     return used_rows(layout.table, used_flags(layout.table, "used"), name, process)
-
-
-_FLAGS: dict[tuple[int, str], tuple] = {}
-
-
-def used_flags(t: pd.DataFrame, column: str) -> np.ndarray:
-    """The used-row flags of a table, one array per table (so the row groups are cached)."""
-    hit = _FLAGS.get((id(t), column))
-    if hit is None or hit[0] is not t:
-        flags = t[column].to_numpy(dtype=bool)
-        if column == "excluded":
-            flags = ~flags
-        if len(_FLAGS) >= 8:
-            _FLAGS.clear()
-        hit = _FLAGS[(id(t), column)] = (t, flags)
-    return hit[1]
 
 
 def why_no_block(layout: MeasurementLayout, name: str, process: str) -> str:

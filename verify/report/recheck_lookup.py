@@ -15,11 +15,12 @@ import re
 from collections.abc import Mapping
 from dataclasses import dataclass
 
+import numpy as np
 import pandas as pd
 
 from ..model import Evaluation
 from .formulas import as_written, criteria_safe, criterion, string_literal
-from .layout import LOT_COLUMN, VALUE_COLUMN, MeasurementLayout
+from .layout import LOT_COLUMN, VALUE_COLUMN, MeasurementLayout, used_rows
 from .recheck_sheet import Sheet, as_text
 
 HELPER_HEADING = "Values looked up from the measurements table"
@@ -29,6 +30,22 @@ TOKEN = re.compile(r"\u27e6(\d+)\u27e7")  # a helper row's index, numbered once 
 
 def tok(i: int) -> str:
     return f"\u27e6{i}\u27e7"
+
+
+_FLAGS: dict[tuple[int, str], tuple] = {}
+
+
+def used_flags(t: pd.DataFrame, column: str) -> np.ndarray:
+    """The used-row flags of a table, one array per table (so the row groups are cached)."""
+    hit = _FLAGS.get((id(t), column))
+    if hit is None or hit[0] is not t:
+        flags = t[column].to_numpy(dtype=bool)
+        if column == "excluded":
+            flags = ~flags
+        if len(_FLAGS) >= 8:
+            _FLAGS.clear()
+        hit = _FLAGS[(id(t), column)] = (t, flags)
+    return hit[1]
 
 
 @dataclass(frozen=True)
@@ -128,7 +145,9 @@ def used_block(sh: Sheet, ev: Evaluation, layout: MeasurementLayout, name: str,
     key = (name, process)
     if key not in sh.samples:
         t = ev.measurements.table
-        sel = t[(t["characteristic"] == name) & (t["process"] == process) & ~t["excluded"]]
+        # the rows of (name, process) from the table's cached groups: a mask over the whole
+        # table per characteristic would cost characteristics x rows
+        sel = used_rows(t, used_flags(t, "excluded"), name, process)
         sel = sel.sort_values(["order", "source_row"], kind="stable")  # as the engine orders
         if sel.empty:
             sh.samples[key] = None

@@ -17,8 +17,8 @@ from .formulas import (
     string_literal,
 )
 from .layout import LOT_COLUMN, VALUE_COLUMN, Block, MeasurementLayout, used_rows
-from .recheck_blocks import block_rows, lots_of, used_flags, why_no_block
-from .recheck_lookup import Helper
+from .recheck_blocks import block_rows, lots_of, why_no_block
+from .recheck_lookup import Helper, used_flags
 from .recheck_sheet import MAX_HELPER_ROWS, Sheet
 
 D2_CONSTANTS = (  # d2(n) for n = 2..25, the same tabled constants the engine uses (common practice)
@@ -91,8 +91,12 @@ def _production_order(layout: MeasurementLayout, ev: Evaluation, name: str, proc
     """The used rows in the engine's production order and the same rows in sheet order."""
     t = ev.measurements.table
     sel = used_rows(t, used_flags(t, "excluded"), name, process)
-    sel = sel.sort_values(["order", "source_row"], kind="stable")  # as the engine orders them
-    return sel, block_rows(layout, name, process).sort_values(["sheet", "row"], kind="stable")
+    lt = block_rows(layout, name, process)
+    # stable sorts of the few rows by numpy keys: a pandas sort per characteristic costs more
+    # than the rows (np.lexsort sorts by its last key first and is stable)
+    by_order = np.lexsort((sel["source_row"].to_numpy(), sel["order"].to_numpy()))
+    by_row = np.lexsort((lt["row"].to_numpy(), lt["sheet"].to_numpy(dtype=str)))
+    return sel.iloc[by_order], lt.iloc[by_row]
 
 
 def _same_rows(a: pd.DataFrame, b: pd.DataFrame) -> bool:
