@@ -132,3 +132,34 @@ def test_each_process_is_modelled_by_the_declared_distribution_in_the_json(tmp_p
         assert b["expected_ppm"] == want.expected_ppm
         assert (b["note"] is None) == (dist != "any")
     json.dumps(j)
+
+
+def test_any_says_in_words_that_there_is_no_model_where_the_model_is_shown(tmp_path):
+    from verify.report.decision_cells import beyond_text
+
+    spec = _spec(tmp_path, "any")
+    spec_text = (tmp_path / "s.yaml").read_text(encoding="utf-8")
+    (tmp_path / "s.yaml").write_text(spec_text.replace("[null, 0.15]", "[null, 0.06]"),
+                                     encoding="utf-8")
+    spec = load_spec(tmp_path / "s.yaml")
+    ev = evaluate(spec, load_measurements(spec))
+    c = ev.characteristic("vestige")
+    seen = int(np.count_nonzero(np.round(SKEWED[40:], 5) > 0.06))
+    assert seen > 0  # the invented parts do cross this limit
+    note = next(r for r in c.review if "(new):" in r and "beyond the specification" in r)
+    assert note.endswith("; distribution any: no model, so no expected ppm")
+    text, flagged = beyond_text(c)
+    assert flagged and text.split("\n")[0] == f"new: {seen} above; no model (any)"
+
+
+def test_lognormal_review_note_names_its_model(tmp_path):
+    spec = _spec(tmp_path, "lognormal")
+    spec_text = (tmp_path / "s.yaml").read_text(encoding="utf-8")
+    (tmp_path / "s.yaml").write_text(spec_text.replace("[null, 0.15]", "[null, 0.06]"),
+                                     encoding="utf-8")
+    spec = load_spec(tmp_path / "s.yaml")
+    ev = evaluate(spec, load_measurements(spec))
+    note = next(r for r in ev.characteristic("vestige").review
+                if "(new):" in r and "beyond the specification" in r)
+    assert "; a lognormal model expects " in note and "normal model" not in note.replace(
+        "lognormal model", "")
