@@ -99,7 +99,9 @@ def test_demo_part_beyond_a_limit_is_counted_and_noted(demo_run):
     # characteristics without beyond parts carry zeros, not nulls; none without limits
     for ch in doc["characteristics"]:
         for p in ch["processes"].values():
-            assert set(p["beyond_limits"]) == {"below", "above", "expected_ppm"}
+            assert set(p["beyond_limits"]) == {"below", "above", "expected_ppm", "model", "note"}
+            # the model is the characteristic's distribution (issue 16); normal by default
+            assert p["beyond_limits"]["model"] == ch["distribution"]["name"] == "normal"
     wb = openpyxl.load_workbook(out / "bushing-supplier.xlsx")
     text = [str(v) for row in wb[L.SUMMARY_SHEET].iter_rows(values_only=True) for v in row if v]
     assert any(t.startswith("new: 1 below") for t in text)

@@ -82,7 +82,9 @@ def _beyond_words(ch: Characteristic, b: BeyondLimits) -> str:
     part = "part" if b.total == 1 else "parts"
     text = f"{b.total} {part} beyond the specification limits ({', '.join(sides)} {ch.unit})"
     if b.expected_ppm is not None:
-        text += f"; a normal model expects {decide.fmt(b.expected_ppm, 3)} ppm beyond them"
+        text += f"; a {b.model} model expects {decide.fmt(b.expected_ppm, 3)} ppm beyond them"
+    elif b.note is not None:
+        text += f"; {b.note}"
     return text
 
 

@@ -89,10 +89,11 @@ def sufficiency(spec: Spec, d: CharDraft, counts: dict, final: bool) -> None:
 
 
 def _beyond(ch: Characteristic, parts: np.ndarray) -> BeyondLimits | None:
-    """Part values beyond the limits (None without limits): counted on parts, never lot means."""
+    """Part values beyond the limits (None without limits): counted on parts, never lot means;
+    the expected ppm from the characteristic's declared distribution fitted to these parts."""
     if ch.lower is None and ch.upper is None:
         return None
-    return beyond_limits(parts, lower=ch.lower, upper=ch.upper)
+    return beyond_limits(parts, lower=ch.lower, upper=ch.upper, distribution=ch.distribution)
 
 
 def _summary(process: str, values: np.ndarray, lots, n_parts: int,

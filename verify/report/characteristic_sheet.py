@@ -175,7 +175,8 @@ EXTRA_LABELS = {
 
 
 def _beyond_table(ws, row: int, c: CharacteristicResult, fmts: dict) -> int:
-    """Parts beyond the specification limits per process, beside the normal model's ppm."""
+    """Parts beyond the specification limits per process, beside the model's ppm (the
+    characteristic's distribution; its note where it gives none)."""
     procs = [(k, c.processes[k]) for k in ("old", "new") if k in c.processes]
     if not any(p.beyond_limits is not None for _k, p in procs):
         return row
@@ -189,7 +190,7 @@ def _beyond_table(ws, row: int, c: CharacteristicResult, fmts: dict) -> int:
             "Parts beyond the limits",
             "below " + ("none" if s.lower is None else f"{s.lower:g}"),
             "above " + ("none" if s.upper is None else f"{s.upper:g}"),
-            "expected (normal model), ppm",
+            f"expected ({c.spec.distribution} model), ppm",
             "of parts",
         ],
     )
@@ -205,7 +206,10 @@ def _beyond_table(ws, row: int, c: CharacteristicResult, fmts: dict) -> int:
             font=font)
         put(ws, row, 3, b.above if s.upper is not None else None, fmt=INT_FORMAT, border=BOX,
             font=font)
-        put(ws, row, 4, b.expected_ppm, fmt=PPM_FORMAT, border=BOX)
+        if b.expected_ppm is None and b.note is not None:
+            put(ws, row, 4, b.note, border=BOX, font=NOTE_FONT, align=WRAP)
+        else:
+            put(ws, row, 4, b.expected_ppm, fmt=PPM_FORMAT, border=BOX)
         put(ws, row, 5, p.n_parts, fmt=INT_FORMAT, border=BOX)
         row += 1
     return row

@@ -7,6 +7,11 @@ column's heading, come from the kind's ``report`` hook (``cell_text``, ``heading
 
 A check kind whose report hook has no ``cell_text`` shows its outcome and its estimate when
 there is one, so a later check kind appears on the page without a change here.
+
+With a ``data.stream`` column the new process's streams are checked one by one as well; when a
+stream's check of the column's kind is worse than the pooled result, the cell leads with that
+outcome and names the stream(s) ("HOLD (stream C3)"), then shows the pooled result below it,
+so a row decided HOLD by one cavity does not read as a pooled PASS.
 """
 
 from __future__ import annotations
@@ -14,6 +19,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 
+from ..decide import combine
 from ..model import CharacteristicResult, CheckResult, Evaluation
 from .hooks import has_report, report_hook
 
@@ -65,14 +71,31 @@ def heading(kind: str) -> str:
     return report_hook(kind, "heading", default=None) or kind.replace("_", " ").capitalize()
 
 
+def cell_outcome(c: CharacteristicResult, r: CheckResult) -> tuple[str, tuple[str, ...]]:
+    """The cell's outcome: the worst of the pooled check ``r`` and the same kind's check in each
+    stream of the new process, and the streams that make it worse than the pooled one."""
+    per_stream = [(st.name, k.outcome) for st in c.streams for k in st.checks
+                  if k.check == r.check]
+    worst = combine([r.outcome, *(o for _n, o in per_stream)])
+    if worst == r.outcome:
+        return r.outcome, ()
+    return worst, tuple(n for n, o in per_stream if o == worst)
+
+
 def cell_text(c: CharacteristicResult, r: CheckResult, ev: Evaluation, decimals: int) -> str:
     """The outcome on the first line, then the number that decided (the kind's report hook's
-    ``cell_text``, else its estimate)."""
+    ``cell_text``, else its estimate). A stream worse than the pooled result leads, named, with
+    the pooled outcome below it."""
     if has_report(r.check, "cell_text"):
         detail = report_hook(r.check, "cell_text", c, r, ev, decimals)
     else:
         detail = _generic(c, r, ev, decimals)
-    return r.outcome + (f"\n{detail}" if detail else "")
+    outcome, streams = cell_outcome(c, r)
+    head = r.outcome
+    if streams:
+        label = "stream" if len(streams) == 1 else "streams"
+        head = f"{outcome} ({label} {', '.join(streams)})\npooled: {r.outcome}"
+    return head + (f"\n{detail}" if detail else "")
 
 
 def beyond_text(c: CharacteristicResult) -> tuple[str, bool]:
@@ -92,7 +115,10 @@ def beyond_text(c: CharacteristicResult) -> tuple[str, bool]:
         if b.above:
             sides.append(f"{b.above} above")
         seen = ", ".join(sides) if sides else "none"
-        ppm = "" if b.expected_ppm is None else f"; model {ppm_text(b.expected_ppm)}"
+        if b.expected_ppm is not None:
+            ppm = f"; {b.model} {ppm_text(b.expected_ppm)}"
+        else:
+            ppm = "; no model (any)" if b.model == "any" else f"; no {b.model} fit"
         lines.append(f"{key}: {seen}{ppm}")
         flag = flag or (key == "new" and b.total > 0)
     return "\n".join(lines), flag

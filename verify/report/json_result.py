@@ -88,10 +88,12 @@ def _check(c: CheckResult) -> dict:
 
 
 def _beyond(b) -> dict | None:
-    """{below, above, expected_ppm}: part counts beyond the limits, normal-model ppm (or null)."""
+    """{below, above, expected_ppm, model, note}: part counts beyond the limits, the ppm the
+    model (the characteristic's distribution) expects, or null with the note saying why."""
     if b is None:
         return None
-    return {"below": b.below, "above": b.above, "expected_ppm": b.expected_ppm}
+    return {"below": b.below, "above": b.above, "expected_ppm": b.expected_ppm,
+            "model": b.model, "note": b.note}
 
 
 def _diag(g: DiagnosticResult) -> dict:

@@ -30,7 +30,7 @@ from .cells import (
     quote_sheet,
     section,
 )
-from .decision_cells import beyond_text, cell_text, check_kinds, heading
+from .decision_cells import beyond_text, cell_outcome, cell_text, check_kinds, heading
 from .hooks import has_report, report_hook
 
 # up to this many characteristics the decision sheet prints on one page; beyond it the table
@@ -234,7 +234,7 @@ def _columns(ev: Evaluation, kinds: list[str]) -> list[tuple[str, float]]:
     """(header, width) of the characteristics table: fixed columns, a column per check kind."""
     unit_w = max(6, *(len(c.unit) + 2 for c in ev.characteristics)) if ev.characteristics else 6
     fixed = [("Characteristic", 24), ("Unit", min(unit_w, 24)), ("n old", 7), ("n new", 7)]
-    tail = [("Parts beyond limits\n(model: normal, ppm)", 24), ("Decision", 11)]
+    tail = [("Parts beyond limits\n(seen; model, ppm)", 24), ("Decision", 11)]
     room = 165 - sum(w for _h, w in fixed + tail)
     check_w = min(40, max(25, room / max(1, len(kinds))))
     return fixed + [(heading(k), check_w) for k in kinds] + tail
@@ -474,7 +474,9 @@ def _characteristic_row(
         if r is None:
             put(ws, row, col, "not run", font=NOTE_FONT, align=WRAP)
         else:
-            tint = PatternFill("solid", fgColor=OUTCOME_TINTS.get(r.outcome, "FFFFFF"))
+            # the tint of the worst of the pooled check and its streams (the cell's first line)
+            tint = PatternFill("solid",
+                               fgColor=OUTCOME_TINTS.get(cell_outcome(c, r)[0], "FFFFFF"))
             put(ws, row, col, cell_text(c, r, ev, d), fill=tint, align=WRAP,
                 font=Font(color=INK))
         col += 1

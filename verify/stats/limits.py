@@ -1,4 +1,4 @@
-"""Parts beyond the specification limits: the count seen and the fraction a normal model expects.
+"""Parts beyond the specification limits: the count seen and the fraction a model expects.
 
 A part counts as beyond a limit when its value is strictly below the lower limit or strictly
 above the upper one (a value on a limit is within it: common practice for drawing tolerances).
@@ -9,6 +9,12 @@ overall sample sd (n - 1) of the same values:
 
 where Phi is the standard normal distribution function (``scipy.special.ndtr``, accurate far in
 its lower tail, so both terms are written as lower tails). A side without a limit adds nothing.
+
+With a declared non-normal ``distribution`` (lognormal, weibull, box-cox) the expected fraction
+comes from that distribution fitted by maximum likelihood to the same values
+(:func:`verify.stats.distributions.fit`, :func:`~verify.stats.distributions.expected_beyond`);
+with ``any`` there is no model and no expected ppm (``note`` says so), as when a fit cannot be
+made (``note`` gives the fit's error).
 """
 
 from __future__ import annotations
@@ -19,14 +25,16 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special
 
+from . import distributions
 from .core import mean_sd
+from .errors import DegenerateDataError, NotApplicableError
 
 ArrayLike = Sequence[float] | np.ndarray
 
 
 @dataclass(frozen=True)
 class BeyondLimits:
-    """Counts beyond each limit and the normal model's expectation.
+    """Counts beyond each limit and the model's expectation.
 
     Attributes
     ----------
@@ -35,10 +43,16 @@ class BeyondLimits:
     below, above : int
         Values strictly below the lower limit, strictly above the upper limit (0 without one).
     expected_ppm : float or None
-        Parts per million the normal model expects beyond the limits; None when fewer than 2
-        values or zero spread leave the model undefined.
+        Parts per million the model expects beyond the limits; None when the model is
+        undefined (fewer than 2 values, zero spread, a fit that cannot be made) or when there
+        is no model (``any``).
     expected_ppm_below, expected_ppm_above : float or None
         The same, per side (0.0 for a side without a limit).
+    model : str
+        The distribution behind ``expected_ppm``: normal, lognormal, weibull, box-cox, or any
+        (no model).
+    note : str or None
+        Why ``expected_ppm`` is None, in words (None when it is a number).
     """
 
     n: int
@@ -47,6 +61,8 @@ class BeyondLimits:
     expected_ppm: float | None
     expected_ppm_below: float | None = None
     expected_ppm_above: float | None = None
+    model: str = "normal"
+    note: str | None = None
 
     @property
     def total(self) -> int:
@@ -72,9 +88,10 @@ def normal_ppm_beyond(
 
 
 def beyond_limits(
-    values: ArrayLike, *, lower: float | None, upper: float | None
+    values: ArrayLike, *, lower: float | None, upper: float | None,
+    distribution: str = "normal",
 ) -> BeyondLimits:
-    """Count values beyond the limits and the normal model's expected ppm.
+    """Count values beyond the limits and the expected ppm of the declared distribution.
 
     Parameters
     ----------
@@ -82,6 +99,9 @@ def beyond_limits(
         Part values (non-finite values are left out).
     lower, upper : float or None
         The specification limits; None for a side without one.
+    distribution : str
+        The model of the expected ppm: normal (sample mean and sd), lognormal, weibull or
+        box-cox (fitted to ``values`` by maximum likelihood), or any (no model: no ppm).
 
     Examples
     --------
@@ -93,12 +113,30 @@ def beyond_limits(
     v = v[np.isfinite(v)]
     below = int(np.count_nonzero(v < lower)) if lower is not None else 0
     above = int(np.count_nonzero(v > upper)) if upper is not None else 0
+    if distribution not in distributions.NAMES:
+        raise ValueError(f"distribution must be one of {distributions.NAMES}, "
+                         f"got {distribution!r}")
     ppm = ppm_lo = ppm_hi = None
-    if v.size >= 2:
-        _, m, s = mean_sd(v)
-        if s > 0:
-            ppm_lo, ppm_hi = normal_ppm_beyond(m, s, lower=lower, upper=upper)
-            ppm = ppm_lo + ppm_hi
+    note = None
+    if distribution == "any":
+        note = "distribution any: no model, so no expected ppm"
+    elif distribution == "normal":
+        if v.size >= 2:
+            _, m, s = mean_sd(v)
+            if s > 0:
+                ppm_lo, ppm_hi = normal_ppm_beyond(m, s, lower=lower, upper=upper)
+        if ppm_lo is None:
+            note = "the normal model needs at least 2 values with a spread"
+    else:
+        try:
+            f = distributions.fit(v, distribution)
+        except (DegenerateDataError, NotApplicableError) as err:
+            note = f"no {distribution} fit: {err}"
+        else:
+            lo, hi = distributions.expected_beyond(f, lower=lower, upper=upper)
+            ppm_lo, ppm_hi = 1e6 * lo, 1e6 * hi
+    if ppm_lo is not None:
+        ppm = ppm_lo + ppm_hi
     return BeyondLimits(
         n=int(v.size),
         below=below,
@@ -106,4 +144,6 @@ def beyond_limits(
         expected_ppm=ppm,
         expected_ppm_below=ppm_lo,
         expected_ppm_above=ppm_hi,
+        model=distribution,
+        note=note,
     )
