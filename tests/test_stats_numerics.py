@@ -178,3 +178,21 @@ def test_mean_sd_keeps_its_accuracy_under_a_large_offset(seed, n, offset):
     # adding the offset itself rounds each value to about offset * 1.1e-16
     assert m1 - offset == pytest.approx(m0, abs=4e-16 * (offset + 1))
     assert s1 == pytest.approx(s0, rel=1e-15 * (offset + 1) * 10 / s0 + 1e-14)
+
+
+@pytest.mark.parametrize("values", [[1e200, 1.0, 2.0], [-3e160, 0.0, 1.0]])
+def test_mean_sd_refuses_values_whose_squares_overflow_with_the_reason(values):
+    # a squared deviation of 1e200 is beyond the largest double (about 1.8e308, IEEE 754):
+    # the sum of squares would be infinite and the spread would read as "zero spread"
+    from verify.stats.core import mean_sd
+    from verify.stats.errors import DegenerateDataError
+
+    with pytest.raises(DegenerateDataError, match="too large for a mean and standard deviation"):
+        mean_sd(np.array(values))
+
+
+def test_mean_sd_keeps_values_just_inside_the_magnitude_limit():
+    from verify.stats.core import MAX_MAGNITUDE, mean_sd
+
+    n, m, sd = mean_sd(np.array([MAX_MAGNITUDE, -MAX_MAGNITUDE]))
+    assert (n, m) == (2, 0.0) and math.isfinite(sd) and sd > 1e150

@@ -178,6 +178,9 @@ def t_test_from_estimate(
 # --- numerics -------------------------------------------------------------------------------
 
 
+MAX_MAGNITUDE = 1e150  # |value| above which squared deviations could overflow
+
+
 def mean_sd(x: np.ndarray) -> tuple[int, float, float]:
     """n, mean and sample sd (n - 1) by a two-pass method with a correction term.
 
@@ -193,6 +196,13 @@ def mean_sd(x: np.ndarray) -> tuple[int, float, float]:
     total = float(np.add.reduce(x))
     if not math.isfinite(total) and not np.isfinite(x).all():
         raise DegenerateDataError("values must be finite numbers")
+    # squares of deviations overflow a double beyond about 1.3e154: refuse such values with
+    # the reason rather than let an infinite sum of squares pass for "zero spread"
+    if not (-MAX_MAGNITUDE <= float(np.minimum.reduce(x))
+            and float(np.maximum.reduce(x)) <= MAX_MAGNITUDE):
+        raise DegenerateDataError(
+            f"values beyond +/-{MAX_MAGNITUDE:g} are too large for a mean and standard deviation "
+            "in double precision: check the unit and the data")
     m = total / n
     d = x - m
     m = m + float(np.add.reduce(d)) / n  # second-pass correction of the mean
