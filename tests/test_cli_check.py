@@ -112,6 +112,18 @@ def test_check_paired_prints_pairs(capsys):
     assert "pairs: 39 matched, 1 unmatched (FB-0619/2)" in out
 
 
+def test_check_names_the_method_a_fitted_model_is_judged_by(capsys):
+    # the demo's gate_vestige declares distribution: lognormal, so capability is the
+    # percentile Ppk (ISO 22514-2) and conformance uses the fitted model's limits
+    assert main(["check", str(SPECS / "closure-mould.yaml")]) == 0
+    out = capsys.readouterr().out
+    assert ("check capability: new percentile Ppk (lognormal fit, ISO 22514-2) at least 1.33"
+            in out)
+    assert "coverage 0.99 at confidence 0.95 (lognormal fit, limits transformed back)" in out
+    # cap_height is normal: its capability line keeps the sigma it is computed with
+    assert "check capability: new Cpk at least 1.33 (moving-range sigma" in out
+
+
 def test_check_missing_path_and_empty_folder(tmp_path, capsys):
     assert main(["check", str(tmp_path / "nope.yaml")]) == 2
     assert "no such file or folder" in capsys.readouterr().err

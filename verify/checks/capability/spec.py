@@ -133,6 +133,11 @@ class CapabilitySpec(CheckSpec):
 
     def words(self, settings: CapabilityCheck, c, spec) -> str:
         cap = settings
+        dist = getattr(c, "distribution", "normal")
+        if dist != "normal":
+            # a fitted non-normal model is judged by the percentile index (the compute hook)
+            return (f"new percentile Ppk ({dist} fit, ISO 22514-2) at least {cap.min:g} "
+                    "(the estimate judged)")
         how = ("overall sd" if cap.index == "ppk" else "within-lot sigma"
                if cap.subgroup == "lot" else "moving-range sigma")
         judged = (f"lower {cap.confidence:.0%} bound of new {cap.label}"

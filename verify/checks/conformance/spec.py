@@ -95,8 +95,11 @@ class ConformanceSpec(CheckSpec):
         cf = settings
         shape = ("two-sided tolerance interval within both limits" if cf.side == "two-sided"
                  else f"{cf.side} tolerance bound within the {cf.side} limit")
-        return (f"{shape}, coverage {cf.coverage:g} at confidence {cf.confidence:g} (exact "
-                "normal factor)")
+        dist = getattr(c, "distribution", "normal")
+        how = ("exact normal factor" if dist == "normal"
+               else "distribution-free, order statistics" if dist == "any"
+               else f"{dist} fit, limits transformed back")
+        return f"{shape}, coverage {cf.coverage:g} at confidence {cf.confidence:g} ({how})"
 
 
 SPECS = {s.name: s for s in (ConformanceSpec(),)}
