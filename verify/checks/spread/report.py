@@ -16,7 +16,7 @@ def _brown_forsythe(r) -> bool:
 
 def cell_text(kind, c, r, ev, d: int) -> str:
     """The decision page's cell: the sd ratio and its lower confidence bound against 1."""
-    from ...decide import fmt_p
+    from ...decide import fmt, fmt_p
 
     if r.estimate is None:
         return ""
@@ -25,7 +25,9 @@ def cell_text(kind, c, r, ev, d: int) -> str:
         # the lower end of the two-sided (1 - 2 alpha) interval is the one-sided (1 - alpha)
         # bound: above 1 shows a larger spread
         one_sided = 1 - (1 - r.ci_level) / 2
-        text += f"\nlower {one_sided:.0%} bound {r.ci_low:.3f} (HOLD above 1)"
+        # fmt, not a whole percent: under holm or bonferroni the level is 1 - alpha/m, e.g.
+        # 99.5%, which a whole percent would print as 100%
+        text += f"\nlower {fmt(100 * one_sided)}% bound {r.ci_low:.3f} (HOLD above 1)"
     if r.method and "Brown-Forsythe" in r.method and r.p_value is not None:
         text += f"\np {fmt_p(r.p_value)}"
     return text
