@@ -7,48 +7,17 @@ The data are invented here (seeded): four cavities, C3 runs 0.08 mm off against 
 
 from __future__ import annotations
 
-import numpy as np
 import openpyxl
+from stream_case import _data
 
 from verify.data import load_measurements
 from verify.evaluate import evaluate
 from verify.report.decision_cells import cell_outcome, cell_text
 from verify.runner import prepare, write_outputs
-from verify.spec import load_spec
-
-SPEC = """\
-format: verify/1
-title: four-cavity mould
-data:
-  file: d.csv
-  lot: lot
-  process: process
-  old: old
-  new: new
-  stream: cavity
-multiplicity: holm
-characteristics:
-  - name: x
-    unit: mm
-    target: 10
-    limits: [9.7, 10.3]
-    checks:
-      shift: {margin: 0.05}
-      spread: {}
-"""
 
 
 def _spec(tmp_path, off):
-    rng = np.random.default_rng(12)
-    rows = [f"L{i // 10},old,,{rng.normal(10, 0.05):.4f}" for i in range(40)]
-    for i in range(60):
-        cav = f"C{i % 4 + 1}"
-        mu = 10.0 + (off if cav == "C3" else 0.0)
-        rows.append(f"N{i // 15},new,{cav},{rng.normal(mu, 0.05):.4f}")
-    (tmp_path / "d.csv").write_text("lot,process,cavity,x\n" + "\n".join(rows) + "\n",
-                                    encoding="utf-8")
-    (tmp_path / "s.yaml").write_text(SPEC, encoding="utf-8")
-    return load_spec(tmp_path / "s.yaml")
+    return _data(tmp_path, off=off)
 
 
 def _shift(ev):

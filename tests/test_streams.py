@@ -10,10 +10,10 @@ from __future__ import annotations
 import json
 import math
 
-import numpy as np
 import openpyxl
 import pytest
 from scipy import stats
+from stream_case import SPEC, _data
 
 from verify.cli import main
 from verify.data import load_measurements
@@ -22,40 +22,6 @@ from verify.evaluate import evaluate
 from verify.report.json_result import result_dict
 from verify.runner import prepare, write_outputs
 from verify.spec import load_spec
-
-SPEC = """\
-format: verify/1
-title: four-cavity mould
-data:
-  file: d.csv
-  lot: lot
-  process: process
-  old: old
-  new: new
-  stream: cavity
-multiplicity: holm
-characteristics:
-  - name: x
-    unit: mm
-    target: 10
-    limits: [9.7, 10.3]
-    checks:
-      shift: {margin: 0.05}
-      spread: {}
-"""
-
-
-def _data(tmp_path, *, off=0.08, spec=SPEC, blank_row=None):
-    rng = np.random.default_rng(12)
-    rows = [f"L{i // 10},old,,{rng.normal(10, 0.05):.4f}" for i in range(40)]
-    for i in range(60):
-        cav = f"C{i % 4 + 1}"
-        mu = 10.0 + (off if cav == "C3" else 0.0)
-        rows.append(f"N{i // 15},new,{'' if i == blank_row else cav},{rng.normal(mu, 0.05):.4f}")
-    (tmp_path / "d.csv").write_text("lot,process,cavity,x\n" + "\n".join(rows) + "\n",
-                                    encoding="utf-8")
-    (tmp_path / "s.yaml").write_text(spec, encoding="utf-8")
-    return load_spec(tmp_path / "s.yaml")
 
 
 def _eval(spec):
