@@ -53,6 +53,13 @@ PALETTE = ("245E7A", "7A4E9C")
 LIMIT_COLOUR = "A3392B"
 
 
+
+def _boxed_row(ws, row: int, values: list, formats: list) -> int:
+    """One boxed table row from column 1; the next row."""
+    for j, (v, fm) in enumerate(zip(values, formats, strict=True), start=1):
+        put(ws, row, j, v, fmt=fm, border=BOX)
+    return row + 1
+
 def _bold(ws, row: int, col: int, text: str) -> None:
     put(ws, row, col, text, font=Font(bold=True, color=INK))
 
@@ -115,11 +122,8 @@ def write_pass_fail(ws, ev: Evaluation, c: CharacteristicResult) -> None:
         p = c.processes.get(key)
         if p is None:
             continue
-        for j, (v, fm) in enumerate(zip([key, p.n, p.failures, p.rate, len(p.lots)],
-                                        [None, INT_FORMAT, INT_FORMAT, RATE_FORMAT, INT_FORMAT],
-                                        strict=True), start=1):
-            put(ws, row, j, v, fmt=fm, border=BOX)
-        row += 1
+        row = _boxed_row(ws, row, [key, p.n, p.failures, p.rate, len(p.lots)],
+                         [None, INT_FORMAT, INT_FORMAT, RATE_FORMAT, INT_FORMAT])
 
     row += 1
     section(ws, row, "Counts by lot")
@@ -131,11 +135,8 @@ def write_pass_fail(ws, ev: Evaluation, c: CharacteristicResult) -> None:
         if p is None:
             continue
         for lot, n, x in p.lot_counts[:MAX_LOT_ROWS]:
-            for j, (v, fm) in enumerate(zip([key, lot, n, x, x / n if n else None],
-                                            [None, None, INT_FORMAT, INT_FORMAT, RATE_FORMAT],
-                                            strict=True), start=1):
-                put(ws, row, j, v, fmt=fm, border=BOX)
-            row += 1
+            row = _boxed_row(ws, row, [key, lot, n, x, x / n if n else None],
+                             [None, None, INT_FORMAT, INT_FORMAT, RATE_FORMAT])
         if len(p.lot_counts) > MAX_LOT_ROWS:
             put(ws, row, 1, f"{key}: {len(p.lot_counts) - MAX_LOT_ROWS} more lots on the "
                 "measurements sheet", font=NOTE_FONT)
