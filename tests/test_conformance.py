@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import json
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -186,3 +187,22 @@ def test_plan_for_distribution_free_and_lognormal_models(tmp_path):
 
     assert factor_one_sided(c.n_needed, 0.99, 0.95) <= room
     assert factor_one_sided(c.n_needed - 1, 0.99, 0.95) > room
+
+
+def test_plan_workbook_prints_the_parts_a_conformance_check_needs(tmp_path):
+    # the answer (n needed) must sit inside the Plan sheet's print area: it stood in the 13th
+    # column of a table printed only to the 6th
+    import openpyxl
+    from openpyxl.utils import column_index_from_string
+
+    from verify.cli import main
+
+    spec = Path(__file__).resolve().parents[1] / "specs" / "bushing-supplier.yaml"
+    assert main(["plan", str(spec), "--out", str(tmp_path)]) == 0
+    ws = openpyxl.load_workbook(tmp_path / "bushing-supplier-plan.xlsx").worksheets[0]
+    area = str(ws.print_area).split("!")[-1].replace("$", "")
+    last_col = column_index_from_string("".join(ch for ch in area.split(":")[1] if ch.isalpha()))
+    (cell,) = [c for row in ws.iter_rows() for c in row if c.value == "n needed (new parts)"]
+    answer = ws.cell(cell.row, cell.column + 1)
+    assert isinstance(answer.value, int) and answer.value >= 2
+    assert answer.column <= last_col
