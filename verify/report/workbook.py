@@ -50,7 +50,7 @@ from .layout import (
 from .measurements_sheet import add_placeholders, decimals_by_characteristic
 from .recheck import HELPER_HEADING, recheck_rows
 from .safe_text import escape_json_for_xml, xml_safe_evaluation
-from .sheet_xml import save
+from .sheet_xml import gc_paused, save
 from .styles import StyleBook
 from .summary import DECISION_COLOURS, write_summary
 from .xlsx_fast import StreamedSheet, t_element
@@ -61,6 +61,7 @@ RECORD_CHUNK_COUNT_CELL = "B1"
 SPEC_LINE_COUNT_CELL = "C2"
 
 
+@gc_paused()  # (a burst of objects: see sheet_xml.gc_paused)
 def write_workbook(
     evaluation: Evaluation,
     path,
