@@ -421,7 +421,8 @@ def _approx_many(setups: list[_TostSize], ns: list[int]) -> list[float]:
         alphas.append(1.0 - q.a)
     df = np.array(dfs)
     if not np.isfinite(df).all():  # t_quantile and t_cdf switch to the normal there
-        return [q.approx_at(n, old_size(q.design, n, q.ratio)) for q, n in zip(setups, ns)]
+        return [q.approx_at(n, old_size(q.design, n, q.ratio))
+                for q, n in zip(setups, ns, strict=True)]
     tau = np.array(taus)
     c = special.stdtrit(df, np.array(alphas))
     p = special.stdtr(df, np.array(highs) / tau - c) - special.stdtr(df, np.array(lows) / tau + c)

@@ -85,7 +85,7 @@ def snap_to_grid(a: np.ndarray, digits: int = RESOLUTION_DIGITS) -> tuple[np.nda
     holds exactly) and the quantum. Used so that float noise (0.1 + 0.2 versus 0.3) neither
     creates a distinct value nor breaks a tie. All-zero input gives quantum 1.
     """
-    scale_ref = float(np.max(np.abs(a))) if a.size else 0.0
+    scale_ref = float(np.maximum.reduce(np.abs(a))) if a.size else 0.0
     if scale_ref == 0.0:
         return np.zeros_like(a, dtype=float), 1.0
     quantum = 10.0 ** (math.floor(math.log10(scale_ref)) - (digits - 1))
