@@ -192,12 +192,25 @@ def _search(design: str, ratio: float, target: float):
 def _step_to_smallest(pw, n0: int, target: float, n_max: int, steps: int = 12):
     """From a guess n0, walk with the exact power to the smallest n reaching ``target``:
     (n, power), or None when the guess was too far off (the caller then searches fully)."""
-    n, p = n0, pw(n0)
+    walk = _steps(n0, target, n_max, steps)
+    try:
+        n = next(walk)
+        while True:
+            n = walk.send(pw(n))
+    except StopIteration as stop:
+        return stop.value
+
+
+def _steps(n0: int, target: float, n_max: int, steps: int = 12):
+    """:func:`_step_to_smallest` as a generator (yields each n whose power it needs, is sent
+    that power, returns its answer), so that many walks can run in step."""
+    n = n0
+    p = yield n0
     if p >= target:
         for _ in range(steps):
             if n <= 2:
                 return n, p
-            p_prev = pw(n - 1)
+            p_prev = yield n - 1
             if p_prev < target:
                 return n, p
             n, p = n - 1, p_prev
@@ -205,7 +218,7 @@ def _step_to_smallest(pw, n0: int, target: float, n_max: int, steps: int = 12):
     for _ in range(steps):
         if n >= n_max:
             return None
-        n, p = n + 1, pw(n + 1)
+        n, p = n + 1, (yield n + 1)
         if p >= target:
             return n, p
     return None
@@ -464,15 +477,17 @@ def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, SampleSize
     ``n_new``, ``n_old``, ``design``, ``alpha``, ``low``, ``high``, ``sd_old``) plus the target
     ``power`` and ``ratio`` of the sample-size search. Returns (power, sample size) per
     question, each equal to the one-at-a-time call's result, or None where that call raises a
-    :class:`~verify.stats.errors.StatsError` or ``ValueError``. The exact powers of every
-    question (its lot sizes and the lot sizes around each sample-size guess) are integrated
-    together, which costs far less than one pass per question.
+    :class:`~verify.stats.errors.StatsError` or ``ValueError``. The questions' searches run in
+    step: each step's approximate powers are computed together, then each step's exact powers
+    (the walk from each guess, and the powers at the questions' own lot sizes) are integrated
+    together, which costs far less than one pass per question and integrates only the lot
+    sizes a walk asks for.
     """
     from .errors import StatsError
 
     cases: list[tuple] = []
     owners: list[tuple[int, int | None]] = []  # (question, n) per case; n None: the power
-    sizes: list[tuple[int, _TostSize, int | None]] = []
+    sizes: list[tuple[int, _TostSize]] = []
     setups: list[tuple[int, _TostSize]] = []
     for i, q in enumerate(questions):
         try:
@@ -491,29 +506,48 @@ def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, SampleSize
                                         sd_old=q["sd_old"])))
         except (StatsError, ValueError):
             pass
-    # every question's guess by the approximation, the searches run in step
+    # every question's guess by the approximation, the searches run in step; then from each
+    # guess the walks with the exact power run in step too, each round's powers integrated
+    # together (the powers at the questions' own lot sizes join the first round)
+    powers: list[float | None] = [None] * len(questions)
+    walks: dict[int, tuple] = {}  # question -> (setup, walk, n asked)
     for (i, setup), n0 in zip(setups, _guesses([s for _, s in setups]), strict=True):
         if n0 is not None:
-            for n in _window(setup.design, setup.ratio, n0):
-                cases.append(setup.case(n))
-                owners.append((i, n))
-        sizes.append((i, setup, n0))
-    values = _tost_power_cases(cases)
-    powers: list[float | None] = [None] * len(questions)
-    known: dict[int, dict[int, float]] = {}
-    for (i, n), v in zip(owners, values.tolist(), strict=True):
-        if n is None:
+            walk = _steps(n0, setup.target, _n_max(setup.design, setup.ratio))
+            walks[i] = (setup, walk, next(walk))
+        sizes.append((i, setup))
+    found: dict[int, tuple[int, float] | None] = {}
+    while walks:
+        for i, (setup, _, n) in walks.items():
+            cases.append(setup.case(n))
+            owners.append((i, n))
+        values = _tost_power_cases(cases).tolist()
+        asked = {}
+        for (i, n), v in zip(owners, values, strict=True):
+            if n is None:
+                powers[i] = v
+                continue
+            setup, walk, _ = walks[i]
+            try:
+                asked[i] = (setup, walk, walk.send(v))
+            except StopIteration as stop:
+                found[i] = stop.value
+        walks = asked
+        cases, owners = [], []
+    if cases:  # no walk at all: only the powers at the questions' lot sizes
+        for (i, _), v in zip(owners, _tost_power_cases(cases).tolist(), strict=True):
             powers[i] = v
-        else:
-            known.setdefault(i, {})[n] = v
     results: list[SampleSize | None] = [None] * len(questions)
-    for i, setup, n0 in sizes:
-        mine = known.get(i, {})
+    for i, setup in sizes:
+        hit = found.get(i)
         try:
-            results[i] = _smallest_n(setup.power_at, setup.design, setup.ratio, setup.target,
-                                     approx=setup.approx_at,
-                                     many=lambda ns, mine=mine: [mine[n] for n in ns],
-                                     guess=n0)
+            if hit is not None:
+                n, p = hit
+                results[i] = SampleSize(n_new=n, n_old=old_size(setup.design, n, setup.ratio),
+                                        power=p, target_power=setup.target)
+            else:  # no guess, or the guess too far off: the plain search with the exact power
+                results[i] = _smallest_n(setup.power_at, setup.design, setup.ratio,
+                                         setup.target)
         except (StatsError, ValueError):
             results[i] = None
     return list(zip(powers, results, strict=True))

@@ -38,18 +38,25 @@ def finite_values(x: object, what: str = "values") -> np.ndarray:
 def group_codes(labels: object, n: int, what: str = "lot labels") -> tuple[list, np.ndarray]:
     """Labels in order of first appearance and an integer code per value.
 
-    The codes of a tuple of labels (immutable) are remembered, read-only: the statistics of a
-    sample's lots share them."""
+    The codes of a tuple of text labels are remembered by content, read-only: the statistics
+    of a sample's lots share them, and so do the characteristics measured on the same parts."""
     if type(labels) is tuple:
-        hit = _memo.recall("group_codes", labels)
+        hit = _CODES.get(labels)
         if hit is None:
             hit = _group_codes(labels, n, what)
-            hit[1].flags.writeable = False
-            _memo.remember("group_codes", labels, hit)
-        elif hit[1].size != n:
+            if all(type(v) is str for v in labels):  # equal only if the same text
+                hit[1].flags.writeable = False
+                if len(_CODES) >= 256:
+                    _CODES.clear()
+                _CODES[labels] = hit
+            return list(hit[0]), hit[1]
+        if hit[1].size != n:
             _group_codes(labels, n, what)  # raises: the labels do not match the values
         return list(hit[0]), hit[1]
     return _group_codes(labels, n, what)
+
+
+_CODES: dict[tuple, tuple[list, np.ndarray]] = {}
 
 
 def _group_codes(labels: object, n: int, what: str) -> tuple[list, np.ndarray]:
