@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import contextlib
 import datetime as dt
+import io
 import re
 import zipfile
 from pathlib import Path
@@ -37,15 +38,22 @@ from verify.report import sheet_xml
 from verify.report.cells import put
 from verify.report.sheet_xml import full_precision_numbers, save
 from verify.report.workbook import write_workbook
-from verify.report.xlsx_fast import openpyxl_package, splice
+from verify.report.xlsx_fast import splice
 
 STAMP = dt.datetime(2025, 3, 4, 5, 6, 7)
+
+
+def _openpyxl_save(wb) -> bytes:
+    """openpyxl's own ``Workbook.save`` (every cell, temporary files, deflate)."""
+    buf = io.BytesIO()
+    wb.save(buf)
+    return buf.getvalue()
 
 
 def _reference_save(wb, path: Path) -> None:
     """openpyxl's writer for every cell (no streaming), then the same splice."""
     with full_precision_numbers():
-        package = openpyxl_package(wb)
+        package = _openpyxl_save(wb)
     splice(package, [], path, timestamp=STAMP)
 
 
@@ -328,15 +336,33 @@ def _openpyxl_writes_cells(wb, streamed):
 def test_workbook_of_an_evaluation_equals_openpyxls_writing(tmp_path, monkeypatch, design,
                                                             detail):
     """The whole package (every sheet, style sheet, charts, tables) is the same as when
-    openpyxl writes every cell, apart from the spelling of dimension and empty sheetData."""
+    openpyxl's Workbook.save writes every cell, apart from the spelling of dimension and empty
+    sheetData."""
     ev = make_evaluation(design, seed=5)
     fast, ref = tmp_path / "fast.xlsx", tmp_path / "ref.xlsx"
     write_workbook(ev, fast, record_json='{"format": "verify-result/1"}', detail=detail)
     with monkeypatch.context() as m:
         m.setattr(sheet_xml, "stream_cells", _openpyxl_writes_cells)
+        m.setattr(sheet_xml, "openpyxl_package", _openpyxl_save)
         write_workbook(ev, ref, record_json='{"format": "verify-result/1"}', detail=detail)
     a, b = _parts(fast), _parts(ref)
     assert a.keys() == b.keys()
     for name in a:
         assert _norm(a[name]) == _norm(b[name]), name
     assert a != b  # (the first really streamed its sheets)
+
+
+@pytest.mark.parametrize("detail", ["auto", "compact"])
+def test_rows_of_every_sheet_are_unique_and_ascending(tmp_path, detail):
+    """ECMA-376 Part 1, 18.3.1.73: a row's r is its 1-based index; rows are written in order,
+    each once (Excel repairs a file that gives a row twice). The compact Details sheet's
+    placeholder once held an empty row 4 before the streamed row 4."""
+    ev = make_evaluation("all", seed=5)
+    path = tmp_path / "wb.xlsx"
+    write_workbook(ev, path, record_json='{"format": "verify-result/1"}', detail=detail)
+    with zipfile.ZipFile(path) as z:
+        sheets = [n for n in z.namelist() if n.startswith("xl/worksheets/sheet")]
+        assert sheets
+        for name in sheets:
+            rows = [int(r) for r in re.findall(rb'<row r="(\d+)"', z.read(name))]
+            assert rows == sorted(set(rows)), name
