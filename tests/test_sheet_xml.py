@@ -288,6 +288,16 @@ def test_what_is_not_written_here_is_left_to_openpyxl_whole(tmp_path, kind):
     assert _streamed(fast, 1) and not _streamed(fast, 2) and _streamed(fast, 3)
 
 
+def test_dimension_is_openpyxls():
+    wb = _values_book()
+    assert sheet_xml._dimension(wb.active) == wb.active.calculate_dimension() == "A1:C19"
+    ws = wb.create_sheet("Sparse")
+    assert sheet_xml._dimension(ws) == ws.calculate_dimension() == "A1:A1"
+    ws.cell(7, 30)
+    ws.cell(3, 4)
+    assert sheet_xml._dimension(ws) == ws.calculate_dimension() == "D3:AD7"
+
+
 def test_cells_are_back_in_the_workbook_after_the_save(tmp_path):
     wb = _values_book()
     ws = wb.active

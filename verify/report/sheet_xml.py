@@ -259,6 +259,15 @@ def _init_tables(ws) -> None:
                 warn("Column headings are missing, file may not be readable", stacklevel=2)
 
 
+def _dimension(ws) -> str:
+    """``ws.calculate_dimension()`` (the range of the cell objects), with C-level min/max."""
+    if not ws._cells:
+        return "A1:A1"
+    rows, cols = zip(*ws._cells, strict=True)
+    return (f"{get_column_letter(min(cols))}{min(rows)}:"
+            f"{get_column_letter(max(cols))}{max(rows)}")
+
+
 @contextlib.contextmanager
 def _hyperlinks_from(pending: dict[int, list]) -> Iterator[None]:
     """Let openpyxl's sheet writer find the hyperlinks of the cells written here.
@@ -303,7 +312,7 @@ def stream_cells(wb, streamed: list[StreamedSheet]) -> Iterator[list[StreamedShe
                 if placeholder is not None:
                     out.append(placeholder)
                 continue
-            dimension = ws.calculate_dimension()
+            dimension = _dimension(ws)
             links: list = []
             try:
                 xml = sheet_rows(ws, links, styles)
