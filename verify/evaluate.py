@@ -11,9 +11,8 @@ finishes each characteristic (:mod:`verify.evaluate_finish`). The numbers come f
 
 from __future__ import annotations
 
-from dataclasses import replace
-
 from . import decide
+from .checks.drafting import replaced
 from .evaluate_diagnostics import diagnostics
 from .evaluate_finish import adjust, complete_batches, finish
 from .evaluate_gather import CharDraft, applicable, gather, sub_streams
@@ -92,7 +91,7 @@ def draft_characteristic(spec: Spec, meas: Measurements, ch: Characteristic,
         for st, inp in sub_streams(meas, d):
             for k in per_stream:
                 dr = k.hook("compute").draft(k, inp)
-                dr.result = replace(dr.result,
+                dr.result = replaced(dr.result,
                                     hypothesis=f"stream {st.name}: {dr.result.hypothesis}")
                 st.checks.append(dr)
             d.streams.append(st)

@@ -15,6 +15,7 @@ from typing import Literal
 import numpy as np
 from scipy import special
 
+from . import _memo
 from .errors import DegenerateDataError
 
 Alternative = Literal["two-sided", "less", "greater"]
@@ -185,8 +186,19 @@ def mean_sd(x: np.ndarray) -> tuple[int, float, float]:
     """n, mean and sample sd (n - 1) by a two-pass method with a correction term.
 
     The corrected two-pass algorithm (Chan, Golub and LeVeque, 1983) reaches the NIST StRD
-    certified digits where the naive sum of squares fails.
+    certified digits where the naive sum of squares fails. A read-only sample's summary is
+    remembered (:mod:`verify.stats._memo`): the statistics of one sample share it.
     """
+    if _memo.frozen(x):
+        hit = _memo.recall("mean_sd", x)
+        if hit is None:
+            hit = _mean_sd(x)
+            _memo.remember("mean_sd", x, hit)
+        return hit
+    return _mean_sd(x)
+
+
+def _mean_sd(x: np.ndarray) -> tuple[int, float, float]:
     x = np.asarray(x, dtype=float)
     n = int(x.size)
     if n == 0:

@@ -83,7 +83,7 @@ def lot_effect(values: Sequence[float] | np.ndarray, lots: Sequence[Hashable]) -
     if k < 2:
         raise NotApplicableError(f"a lot effect needs at least 2 lots, got {k}")
     sizes = np.bincount(codes, minlength=k)
-    if not np.any(sizes >= 2):
+    if not np.logical_or.reduce(sizes >= 2):
         raise NotApplicableError("no lot has 2 or more values, so within-lot variation is unknown")
     ow = one_way(a, codes, sizes, refused="lot effect cannot be tested")
     msb, msw, n0 = ow.ms_between, ow.ms_within, ow.n0

@@ -248,7 +248,7 @@ def wilcoxon_signed_rank(
     units, _ = snap_to_grid(raw)
     nonzero = units != 0
     n_zero = int(np.count_nonzero(~nonzero))
-    if not np.any(nonzero):
+    if not np.logical_or.reduce(nonzero):
         raise DegenerateDataError(
             f"all {raw.size} differences are zero: the signed-rank test has nothing to rank"
         )
@@ -280,7 +280,7 @@ def wilcoxon_signed_rank(
             var -= z0 * (z0 + 1.0) * (2.0 * z0 + 1.0)
             sizes = sizes[1:]  # the zeros sort first: their group is no tie of the ranked
         t = sizes.astype(float)
-        se = math.sqrt((var - float(np.sum(t**3 - t)) / 2.0) / 24.0)
+        se = math.sqrt((var - float(np.add.reduce(t**3 - t)) / 2.0) / 24.0)
         pvalue = _normal_p(w_plus - mean, se, alternative)
         how = "normal approximation, tie and continuity corrected"
     zeros = "zeros dropped" if zero_method == "wilcox" else "zeros ranked then dropped (Pratt)"
@@ -321,7 +321,7 @@ def mann_whitney(
     a = finite_values(old, "old values")
     b = finite_values(new, "new values")
     units, _ = snap_to_grid(np.concatenate((a, b)))
-    if np.all(units == units[0]):
+    if np.logical_and.reduce(units == units[0]):
         raise DegenerateDataError("all values are identical: the rank test has no information")
     ranks, sizes = average_ranks(units)
     groups, tied_values = _tie_counts(sizes)
@@ -337,7 +337,7 @@ def mann_whitney(
         t = sizes.astype(float)
         big_n = float(n_old + n_new)
         se = math.sqrt(n_old * n_new / 12.0
-                       * ((big_n + 1.0) - float(np.sum(t**3 - t)) / (big_n * (big_n - 1.0))))
+                       * ((big_n + 1.0) - float(np.add.reduce(t**3 - t)) / (big_n * (big_n - 1.0))))
         pvalue = _normal_p(u_new - n_old * n_new / 2.0, se, alternative)
     how = "exact" if exact else "normal approximation, tie and continuity corrected"
     return RankTestResult(

@@ -44,7 +44,7 @@ def _normality_input(x: object, n_min: int, n_max: int | None, method: str) -> n
     if n < n_min or (n_max is not None and n > n_max):
         limits = f"{n_min} <= n <= {n_max}" if n_max is not None else f"n >= {n_min}"
         raise NotApplicableError(f"{method} needs {limits} values, got {n}")
-    if np.all(a == a[0]):
+    if np.logical_and.reduce(a == a[0]):
         raise DegenerateDataError(
             f"all {n} values are identical: zero spread, so normality cannot be judged"
         )

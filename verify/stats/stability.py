@@ -60,7 +60,7 @@ class StabilityResult:
 
 def _longest_run(sign: np.ndarray) -> tuple[int, str | None, int | None]:
     """Longest run of equal non-zero signs in ``sign`` (values -1, 0, +1)."""
-    if sign.size == 0 or not np.any(sign):
+    if sign.size == 0 or not np.logical_or.reduce(sign != 0):
         return 0, None, None
     change = np.flatnonzero(sign[1:] != sign[:-1]) + 1
     starts = np.concatenate(([0], change))

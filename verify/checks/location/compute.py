@@ -9,7 +9,6 @@ multiplicity family.
 from __future__ import annotations
 
 import math
-from dataclasses import replace
 
 from ...decide import fmt, margin_words, p_eq
 from ...model import CheckResult, DiagnosticResult
@@ -30,6 +29,7 @@ from ..drafting import (
     cannot_compute,
     finite,
     not_applicable,
+    replaced,
 )
 from .choice import DIFFERENCE, EQUIVALENCE, TestChoice, choose_test
 from .result import LocationDetails
@@ -233,7 +233,7 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
         power_note=(f"power of this test if the true {noun} is "
                     f"{fmt(true_shift)} and the sd is as observed"),
         planned_n=size.n_new if size is not None else None,
-        details=replace(details, **tost_fields), **common,
+        details=replaced(details, **tost_fields), **common,
     )
     harm = rule.harm_shown(ci=(ci.low, ci.high), low=low, high=high, side=ch.side)
     return Draft(result=res, harm_shown=verdict.outcome == "HOLD" and harm, batch=batch)
@@ -248,7 +248,7 @@ def complete_batch(drafts: list[Draft]) -> None:
         return
     answers = power.plan_tost_many([dr.batch for dr in asked])
     for dr, (pw, size) in zip(asked, answers, strict=True):
-        dr.result = replace(dr.result, power=finite(pw),
+        dr.result = replaced(dr.result, power=finite(pw),
                             planned_n=size.n_new if size is not None else None)
         dr.batch = None
 
