@@ -37,6 +37,8 @@ from ..model import CharacteristicResult, Evaluation
 from .cell_styles import shared_font, style
 from .cells import NOTE_FONT, SECTION_FONT, put
 from .hooks import has_report, report_hook
+from .layout import in_production_order, used_rows
+from .recheck_lookup import used_flags
 
 MAX_POINTS = 1000
 MAX_BINS = 40
@@ -63,12 +65,25 @@ def _col_letter(col: int) -> str:
     return get_column_letter(col)
 
 
+_SERIES: dict = {}
+
+
 def _series_values(ev: Evaluation, name: str, process: str):
-    """Used values and lots of one process in production order."""
+    """Used values and lots of one process in production order (remembered per table: the
+    production chart and the histogram both ask)."""
     t = ev.measurements.table
-    sel = t[(t["characteristic"] == name) & (t["process"] == process) & ~t["excluded"]]
-    sel = sel.sort_values(["order", "source_row"], kind="stable")
-    return sel["value"].to_numpy(dtype=float), sel["lot"].astype(str).to_numpy(dtype=object)
+    key = (id(t), name, process)
+    hit = _SERIES.get(key)
+    if hit is not None and hit[0] is t:
+        return hit[1]
+    # the rows (characteristic == name) & (process == process) & ~excluded, from the table's
+    # cached row groups rather than a mask over the whole table per question
+    sel = in_production_order(used_rows(t, used_flags(t, "excluded"), name, process))
+    out = sel["value"].to_numpy(dtype=float), sel["lot"].astype(str).to_numpy(dtype=object)
+    if len(_SERIES) >= 64:
+        _SERIES.clear()
+    _SERIES[key] = (t, out)
+    return out
 
 
 def chart_title(text: str, size: int = 1000) -> Title:
