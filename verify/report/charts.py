@@ -34,7 +34,7 @@ from openpyxl.drawing.text import (
 )
 
 from ..model import CharacteristicResult, Evaluation
-from .cell_styles import shared_font, style
+from .cell_styles import row_dimension, shared_font, style
 from .cells import NOTE_FONT, SECTION_FONT, put
 from .hooks import has_report, report_hook
 from .layout import used_positions
@@ -197,7 +197,7 @@ def add_charts(
     bands = (drawn + 1) // 2
     # rows of a known height, so that a chart's extent in rows is fixed on every program
     for r in range(anchor_row, anchor_row + BAND_ROWS * bands):
-        ws.row_dimensions[r].height = ROW_PT
+        row_dimension(ws, r).ht = ROW_PT
     return BAND_ROWS * bands
 
 

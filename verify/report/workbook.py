@@ -34,6 +34,7 @@ from pathlib import Path
 
 from ..model import Evaluation
 from .audit_sheet import write_audit
+from .cell_styles import row_dimension
 from .cells import EXCEL_CELL_MAX, XML_ILLEGAL, clean_text, page_setup, put, sheet_name
 from .characteristic_sheet import write_characteristic
 from .details_sheet import DETAILS_SHEET, details_placeholder, per_characteristic_sheets
@@ -325,8 +326,9 @@ def _write_recheck(ws, ev: Evaluation, layout: MeasurementLayout) -> None:
     if heading is not None:
         ws.sheet_properties.outlinePr.summaryBelow = False
         for i in range(heading + 1, len(rows) + 1):
-            ws.row_dimensions[i].outline_level = 1
-            ws.row_dimensions[i].hidden = True
+            dim = row_dimension(ws, i)
+            dim.outlineLevel = 1
+            dim.hidden = True
 
 
 def _recheck_as_table(ws, n_rows: int) -> None:
