@@ -24,7 +24,6 @@ from .history import (
     _digest_path,
     _output_names,
     _sweep_strays,
-    anchor_result,
 )
 from .record import _entry_from, _record_text, _unchanged
 from .tasks import (
@@ -221,12 +220,9 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
             entry, record = _entry_from(run_id, task, outcome)
             entry, record = ledger.append(entry, record=record)
             # the files go into place only now that an entry names them
-            problem = _commit(entry, outcome)
+            problem = _commit(entry, outcome, ledger_path)
             if problem is not None:
                 progress.note(problem)
-            elif entry.state == "RUN":
-                anchor_result(entry.result_path, Path(task.out_dir) / "latest.json",
-                              ledger_path, entry)
             rec_text = record.describe() if record is not None else _record_text(
                 ledger, entry.record_id)
             finish(_row(info[task.spec_key], entry, rec_text))

@@ -98,7 +98,9 @@ def run_task(task: Task) -> Outcome:
 
         ev = keep_snapshots(ev, out_dir.parent / SNAPSHOT_DIR if task.snapshot else None)
         workbook, result = history_paths(out_dir, ev.decision, task.run_id)
-        staged = stage_outputs(ev, workbook, result)  # renamed by the parent, after the ledger
+        # renamed by the parent, after the ledger; the parent anchors the result to its
+        # ledger entry and syncs it then
+        staged = stage_outputs(ev, workbook, result, sync_result=False)
         return Outcome(
             spec_key=task.spec_key, started=started, finished=_utc(),
             spec_sha256=ev.spec.sha256, data_files=files, decision=ev.decision,
