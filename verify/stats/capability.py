@@ -36,6 +36,7 @@ from __future__ import annotations
 import math
 from collections.abc import Hashable, Sequence
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 from scipy import special
@@ -49,6 +50,7 @@ from .samples import finite_values, group_codes
 ArrayLike = Sequence[float] | np.ndarray
 
 
+@lru_cache(maxsize=1024)  # the same few quantiles for every characteristic of a layout
 def _chi2_quantile(p: float, df: float) -> float:
     return float(special.chdtri(df, 1.0 - p))  # chdtri takes the upper-tail probability
 

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import lru_cache
 from typing import Literal
 
 import numpy as np
@@ -49,8 +50,10 @@ def t_sf(t: float, df: float) -> float:
     return t_cdf(-t, df)
 
 
+@lru_cache(maxsize=1024)
 def t_quantile(p: float, df: float) -> float:
-    """The p-quantile of Student's t."""
+    """The p-quantile of Student's t (remembered: the characteristics of a layout ask for the
+    same few quantiles again and again)."""
     if not 0.0 < p < 1.0:
         raise ValueError(f"quantile probability must lie in (0, 1), not {p}")
     if math.isinf(df):

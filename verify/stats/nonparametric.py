@@ -167,10 +167,34 @@ def _tail_at_most(counts: tuple[int, ...], k: int) -> int:
     return sum(counts[: max(k + 1, 0)])
 
 
-def _exact_p(counts: tuple[int, ...], total: int, stat: float, alternative: str) -> float:
-    """P(S >= stat) ("greater"), P(S <= stat) ("less") or twice the smaller, capped at 1."""
-    hi = _tail_at_least(counts, math.floor(stat)) / total
-    lo = _tail_at_most(counts, math.ceil(stat)) / total
+@lru_cache(maxsize=64)
+def _signed_rank_sums(n: int) -> tuple[int, ...]:
+    return _running_sums(signed_rank_counts(n))
+
+
+@lru_cache(maxsize=64)
+def _rank_sum_sums(m: int, n: int) -> tuple[int, ...]:
+    return _running_sums(rank_sum_counts(m, n))
+
+
+def _running_sums(counts: tuple[int, ...]) -> tuple[int, ...]:
+    """(0, c0, c0 + c1, ...): exact integers, so that a tail is one subtraction (the same
+    integer as its sum)."""
+    out = [0]
+    for c in counts:
+        out.append(out[-1] + c)
+    return tuple(out)
+
+
+def _exact_p(sums: tuple[int, ...], total: int, stat: float, alternative: str) -> float:
+    """P(S >= stat) ("greater"), P(S <= stat) ("less") or twice the smaller, capped at 1, from
+    the running sums of the null counts (:func:`_running_sums`: the tails
+    :func:`_tail_at_least` and :func:`_tail_at_most` as one subtraction)."""
+    size = len(sums) - 1
+    at_least = sums[size] - sums[min(max(math.floor(stat), 0), size)]
+    at_most = sums[min(max(math.ceil(stat) + 1, 0), size)]
+    hi = at_least / total
+    lo = at_most / total
     if alternative == "greater":
         return hi
     if alternative == "less":
@@ -266,7 +290,7 @@ def wilcoxon_signed_rank(
         and (zero_method == "wilcox" or n_zero == 0)
     )
     if exact:
-        pvalue = _exact_p(signed_rank_counts(n_nonzero), 2**n_nonzero, w_plus, alternative)
+        pvalue = _exact_p(_signed_rank_sums(n_nonzero), 2**n_nonzero, w_plus, alternative)
         how = "exact"
     else:
         # normal approximation: mean n(n+1)/4, variance n(n+1)(2n+1)/24 less the tie term;
@@ -329,7 +353,7 @@ def mann_whitney(
     exact = groups == 0 and n_old < EXACT_MAX_N and n_new < EXACT_MAX_N
     u_new = float(np.add.reduce(ranks[n_old:]) - n_new * (n_new + 1) / 2.0)
     if exact:
-        pvalue = _exact_p(rank_sum_counts(n_old, n_new), math.comb(n_old + n_new, n_old),
+        pvalue = _exact_p(_rank_sum_sums(n_old, n_new), math.comb(n_old + n_new, n_old),
                           u_new, alternative)
     else:
         # normal approximation with the tie-corrected variance
