@@ -41,6 +41,7 @@ from functools import lru_cache
 import numpy as np
 from scipy import special
 
+from . import _memo
 from ._checks import check_level
 from .core import Interval, mean_sd
 from .errors import DegenerateDataError, NotApplicableError
@@ -235,7 +236,9 @@ def within_sigma(
     if subgroups is None:
         if x.size < 2:
             raise DegenerateDataError(f"{x.size} value: a moving range needs at least 2")
-        mr_bar = float(np.add.reduce(np.abs(x[1:] - x[:-1]))) / (x.size - 1)  # np.mean(|diff|)
+        mr_bar = _memo.recall("mr_bar", x) if _memo.frozen(x) else None  # (stats.batch)
+        if mr_bar is None:
+            mr_bar = float(np.add.reduce(np.abs(x[1:] - x[:-1]))) / (x.size - 1)  # np.mean(|diff|)
         if not mr_bar > 0.0:
             raise DegenerateDataError("all values are identical: the moving range is zero")
         return (mr_bar / D2_TABLE[2], "average moving range / d2(2) = 1.128", None,

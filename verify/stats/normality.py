@@ -10,6 +10,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special
 
+from . import _memo
 from .core import mean_sd
 from .errors import DegenerateDataError, NotApplicableError
 from .samples import finite_values
@@ -128,6 +129,10 @@ def anderson_darling(x: Sequence[float] | np.ndarray) -> NormalityResult:
     >>> 0 < r.pvalue <= 1
     True
     """
+    if _memo.frozen(x):  # computed with the other samples of a layout (stats.batch)
+        hit = _memo.recall("anderson_darling", x)
+        if hit is not None:
+            return hit
     a = _normality_input(x, 8, None, "the Anderson-Darling test")
     n, m, s = mean_sd(a)
     w = np.sort((a - m) / s)

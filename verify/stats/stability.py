@@ -11,6 +11,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special
 
+from . import _memo
 from .core import mean_sd, require_spread
 from .errors import DegenerateDataError
 from .range_constants import D2_TABLE
@@ -87,6 +88,10 @@ def individuals_chart(x: Sequence[float] | np.ndarray) -> StabilityResult:
     >>> round(r.sigma, 4), r.beyond
     (0.1773, ())
     """
+    if _memo.frozen(x):  # computed with the other samples of a layout (stats.batch)
+        hit = _memo.recall("individuals_chart", x)
+        if hit is not None:
+            return hit
     a = finite_values(x)
     n = a.size
     if n < 2:
