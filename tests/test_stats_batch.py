@@ -1,11 +1,13 @@
-"""The per-sample diagnostics computed for many samples at once (``verify.stats.batch``) equal
-the one-sample functions' results bit for bit, on random data and on the edge cases (ties, long
-runs, an outlier, points beyond the chart limits, n = 2 and 3, constant data, values at the
-centre line, non-finite values, lengths with a single sample).
+"""The per-sample diagnostics and rank statistics computed for many samples at once
+(``verify.stats.batch``) equal the one-sample functions' results bit for bit, on random data and
+on the edge cases (ties, long runs, an outlier, points beyond the chart limits, n = 2 and 3,
+constant data, values at the centre line, zero differences, non-finite values, lengths with a
+single sample).
 
 The reference is the one-sample route of this package (``individuals_chart``,
-``anderson_darling``, ``grubbs``), itself checked against published values in
-tests/test_stats_diagnostics.py.
+``anderson_darling``, ``grubbs``, ``wilcoxon_signed_rank``, ``mann_whitney``), itself checked
+against published values and scipy in tests/test_stats_diagnostics.py and
+tests/test_stats_nonparametric.py.
 """
 
 from __future__ import annotations
@@ -100,4 +102,67 @@ def test_the_moving_range_the_capability_reads_is_the_charts():
     batch.prefetch(frozen)
     assert all(_memo.recall("mr_bar", f) is not None for f in frozen)
     assert [capability(f, lower=9.95, upper=10.05, target=10.0) for f in frozen] == plain
+    _memo.forget()
+
+
+def _rank_cases():
+    rng = np.random.default_rng(99)
+    xs = [rng.normal(10.0, 0.01, 30) for _ in range(4)]
+    xs += [np.round(rng.normal(10.0, 0.01, 30), 3) for _ in range(4)]  # ties
+    xs += [np.round(rng.normal(10.0, 0.01, 30), 2)]  # many ties, zero differences from 10
+    xs += [np.full(30, 10.0), np.full(30, 10.5)]  # constant (all zero differences once)
+    xs += [10.0 + np.r_[np.full(15, -0.01), np.full(15, 0.01)]]  # two tie groups
+    return xs
+
+
+@pytest.mark.parametrize("target", [10.0, 10.004, 0.0])
+def test_batched_signed_ranks_equal_the_one_sample_route(target):
+    from verify.stats.nonparametric import signed_rank_about, wilcoxon_signed_rank
+
+    xs = _rank_cases()
+    frozen = [_memo.freeze(x.copy()) for x in xs]
+    _memo.forget()
+    batch.prefetch_ranks([("signed_rank", f, target) for f in frozen]
+                         + [("signed_rank", np.arange(4.0), 1.0), ("other", None, None)])
+    assert sum(_memo.recall("signed_rank", f) is not None for f in frozen) >= 6
+    for x, f in zip(xs, frozen, strict=True):
+        for alt in ("two-sided", "less", "greater"):
+            assert _batched(signed_rank_about, f, target=target, alternative=alt) == \
+                _plain(wilcoxon_signed_rank, x - target, alternative=alt)
+    _memo.forget()
+
+
+def test_batched_signed_ranks_at_small_and_large_n():
+    from verify.stats.nonparametric import signed_rank_about, wilcoxon_signed_rank
+
+    rng = np.random.default_rng(4)
+    for n in (2, 3, 7, 50):
+        xs = [np.round(rng.normal(0.0, 1.0, n), 1) + 0.05 for _ in range(6)]
+        frozen = [_memo.freeze(x.copy()) for x in xs]
+        _memo.forget()
+        batch.prefetch_ranks([("signed_rank", f, 0.0) for f in frozen])
+        for x, f in zip(xs, frozen, strict=True):
+            assert _batched(signed_rank_about, f, target=0.0) == _plain(wilcoxon_signed_rank, x)
+    _memo.forget()
+
+
+@pytest.mark.parametrize(("n_old", "n_new"), [(30, 30), (12, 20), (2, 3), (60, 55)])
+def test_batched_rank_sums_equal_the_one_sample_route(n_old, n_new):
+    from verify.stats.nonparametric import mann_whitney
+
+    rng = np.random.default_rng(n_old * 100 + n_new)
+    pairs = []
+    for digits in (6, 3, 2, 2, 1):
+        pairs.append((np.round(rng.normal(10.0, 0.01, n_old), digits),
+                      np.round(rng.normal(10.003, 0.01, n_new), digits)))
+    pairs.append((np.full(n_old, 4.0), np.full(n_new, 4.0)))  # identical: refused
+    pairs.append((np.full(n_old, 4.0), np.full(n_new, 5.0)))
+    frozen = [(_memo.freeze(a.copy()), _memo.freeze(b.copy())) for a, b in pairs]
+    _memo.forget()
+    batch.prefetch_ranks([("rank_sum", a, b) for a, b in frozen])
+    assert sum(_memo.recall("rank_sum", a) is not None for a, _ in frozen) >= 5
+    for (a, b), (fa, fb) in zip(pairs, frozen, strict=True):
+        for alt in ("two-sided", "less", "greater"):
+            assert _batched(mann_whitney, fa, new=fb, alternative=alt) == \
+                _plain(mann_whitney, a, new=b.copy(), alternative=alt)
     _memo.forget()

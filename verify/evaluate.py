@@ -48,6 +48,9 @@ def evaluate(
     # measures the same parts on every characteristic (the results are the one-sample ones)
     batch.prefetch([x for d in gathered if not d.ch.pass_fail
                     for st in (d.data.reference, d.data.candidate) for x in (st.values, st.parts)])
+    # and the rank statistics the kinds' companions will ask for (their hooks say which)
+    batch.prefetch_ranks([q for d in gathered if not d.ch.pass_fail for k in applicable(d.ch)
+                          for q in _rank_requests(k, d.inp)])
     drafts = [draft_characteristic(spec, measurements, d) for d in gathered]
     complete_batches(drafts)
     family, excluded = adjust(drafts, spec.multiplicity, spec.alpha)
@@ -76,6 +79,11 @@ def evaluate(
         family=family,
         family_excluded=excluded,
     )
+
+
+def _rank_requests(kind, inp) -> list:
+    fn = getattr(kind.hook("compute"), "rank_requests", None)
+    return [] if fn is None else fn(kind, inp)
 
 
 def gather_characteristic(spec: Spec, meas: Measurements, ch: Characteristic,
