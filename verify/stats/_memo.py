@@ -25,7 +25,8 @@ def frozen(x: object) -> bool:
 
 
 def recall(topic: str, x: object):
-    """The remembered ``topic`` of ``x`` (a frozen array or a tuple), or None."""
+    """The remembered ``topic`` of ``x``, or None. Only frozen arrays are ever remembered (and
+    the entry holds the array, so that its id is not reused): any other ``x`` finds none."""
     hit = _CACHE.get((topic, id(x)))
     if hit is not None and hit[0] is x:
         return hit[1]
@@ -33,7 +34,9 @@ def recall(topic: str, x: object):
 
 
 def remember(topic: str, x: object, value: object) -> None:
-    """Remember ``value`` as the ``topic`` of ``x`` (a frozen array or a tuple)."""
+    """Remember ``value`` as the ``topic`` of ``x`` if it is a frozen array (else nothing)."""
+    if not frozen(x):
+        return
     if len(_CACHE) >= MAX_ENTRIES:
         _CACHE.clear()
     _CACHE[(topic, id(x))] = (x, value)

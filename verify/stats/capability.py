@@ -236,7 +236,7 @@ def within_sigma(
     if subgroups is None:
         if x.size < 2:
             raise DegenerateDataError(f"{x.size} value: a moving range needs at least 2")
-        mr_bar = _memo.recall("mr_bar", x) if _memo.frozen(x) else None  # (stats.batch)
+        mr_bar = _memo.recall("mr_bar", x)  # the individuals chart's (stats.batch)
         if mr_bar is None:
             mr_bar = float(np.add.reduce(np.abs(x[1:] - x[:-1]))) / (x.size - 1)  # np.mean(|diff|)
         if not mr_bar > 0.0:

@@ -192,13 +192,11 @@ def mean_sd(x: np.ndarray) -> tuple[int, float, float]:
     certified digits where the naive sum of squares fails. A read-only sample's summary is
     remembered (:mod:`verify.stats._memo`): the statistics of one sample share it.
     """
-    if _memo.frozen(x):
-        hit = _memo.recall("mean_sd", x)
-        if hit is None:
-            hit = _mean_sd(x)
-            _memo.remember("mean_sd", x, hit)
-        return hit
-    return _mean_sd(x)
+    hit = _memo.recall("mean_sd", x)
+    if hit is None:
+        hit = _mean_sd(x)
+        _memo.remember("mean_sd", x, hit)  # (only a read-only sample is remembered)
+    return hit
 
 
 def _mean_sd(x: np.ndarray) -> tuple[int, float, float]:

@@ -278,11 +278,10 @@ def signed_rank_about(x: ArrayLike, target: float, *, alternative: str = "two-si
     """:func:`wilcoxon_signed_rank` of ``x - target`` (zeros dropped); for a read-only ``x``
     whose ranks were computed with other samples (:func:`verify.stats.batch.prefetch_ranks`)
     from those."""
-    if _memo.frozen(x):
-        hit = _memo.recall("signed_rank", x)
-        if hit is not None and hit[0] == target:
-            check_alternative(alternative)
-            return _signed_rank_result(hit[1], alternative)
+    hit = _memo.recall("signed_rank", x)
+    if hit is not None and hit[0] == target:
+        check_alternative(alternative)
+        return _signed_rank_result(hit[1], alternative)
     return wilcoxon_signed_rank(np.asarray(x, dtype=float) - target, alternative=alternative)
 
 
@@ -390,10 +389,9 @@ def mann_whitney(
     (19.0, True, 0.0159, 1.3)
     """
     check_alternative(alternative)
-    if _memo.frozen(old) and _memo.frozen(new):
-        hit = _memo.recall("rank_sum", old)
-        if hit is not None and hit[0] is new:
-            return _rank_sum_result(hit[1], alternative)
+    hit = _memo.recall("rank_sum", old)
+    if hit is not None and hit[0] is new:
+        return _rank_sum_result(hit[1], alternative)
     a = finite_values(old, "old values")
     b = finite_values(new, "new values")
     units, _ = snap_to_grid(np.concatenate((a, b)))

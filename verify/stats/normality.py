@@ -129,10 +129,9 @@ def anderson_darling(x: Sequence[float] | np.ndarray) -> NormalityResult:
     >>> 0 < r.pvalue <= 1
     True
     """
-    if _memo.frozen(x):  # computed with the other samples of a layout (stats.batch)
-        hit = _memo.recall("anderson_darling", x)
-        if hit is not None:
-            return hit
+    hit = _memo.recall("anderson_darling", x)  # computed with the layout's other samples
+    if hit is not None:  # (stats.batch)
+        return hit
     a = _normality_input(x, 8, None, "the Anderson-Darling test")
     n, m, s = mean_sd(a)
     w = np.sort((a - m) / s)

@@ -77,8 +77,8 @@ def grubbs(x: Sequence[float] | np.ndarray, *, alternative: str = "two-sided") -
     (2.4688, 7)
     """
     check_alternative(alternative)
-    if alternative == "two-sided" and _memo.frozen(x):  # computed with the other samples of
-        hit = _memo.recall("grubbs two-sided", x)  # a layout (stats.batch)
+    if alternative == "two-sided":  # computed with the layout's other samples (stats.batch)
+        hit = _memo.recall("grubbs two-sided", x)
         if hit is not None:
             return hit
     a = finite_values(x)

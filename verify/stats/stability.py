@@ -88,10 +88,9 @@ def individuals_chart(x: Sequence[float] | np.ndarray) -> StabilityResult:
     >>> round(r.sigma, 4), r.beyond
     (0.1773, ())
     """
-    if _memo.frozen(x):  # computed with the other samples of a layout (stats.batch)
-        hit = _memo.recall("individuals_chart", x)
-        if hit is not None:
-            return hit
+    hit = _memo.recall("individuals_chart", x)  # computed with the layout's other samples
+    if hit is not None:  # (stats.batch)
+        return hit
     a = finite_values(x)
     n = a.size
     if n < 2:
