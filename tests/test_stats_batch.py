@@ -5,9 +5,9 @@ constant data, values at the centre line, zero differences, non-finite values, l
 single sample).
 
 The reference is the one-sample route of this package (``individuals_chart``,
-``anderson_darling``, ``grubbs``, ``wilcoxon_signed_rank``, ``mann_whitney``), itself checked
-against published values and scipy in tests/test_stats_diagnostics.py and
-tests/test_stats_nonparametric.py.
+``anderson_darling``, ``shapiro_wilk``, ``grubbs``, ``wilcoxon_signed_rank``,
+``mann_whitney``), itself checked against published values and scipy in
+tests/test_stats_diagnostics.py and tests/test_stats_nonparametric.py.
 """
 
 from __future__ import annotations
@@ -16,7 +16,7 @@ import numpy as np
 import pytest
 
 from verify.stats import _memo, batch
-from verify.stats.diagnostics import anderson_darling, grubbs, individuals_chart
+from verify.stats.diagnostics import anderson_darling, grubbs, individuals_chart, shapiro_wilk
 from verify.stats.errors import StatsError
 
 
@@ -69,6 +69,7 @@ def test_batched_diagnostics_equal_the_one_sample_ones():
     for x, f in zip(samples, frozen, strict=True):
         assert _batched(individuals_chart, f) == _plain(individuals_chart, x)
         assert _batched(anderson_darling, f) == _plain(anderson_darling, x)
+        assert _batched(shapiro_wilk, f) == _plain(shapiro_wilk, x)
         assert _batched(grubbs, f) == _plain(grubbs, x)
         assert _batched(grubbs, f, alternative="greater") == _plain(grubbs, x,
                                                                    alternative="greater")
@@ -87,6 +88,7 @@ def test_batched_diagnostics_on_random_layouts(seed):
     for x, f in zip(samples, frozen, strict=True):
         assert _batched(individuals_chart, f) == _plain(individuals_chart, x)
         assert _batched(anderson_darling, f) == _plain(anderson_darling, x)
+        assert _batched(shapiro_wilk, f) == _plain(shapiro_wilk, x)
         assert _batched(grubbs, f) == _plain(grubbs, x)
     _memo.forget()
 

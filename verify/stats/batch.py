@@ -47,27 +47,34 @@ def prefetch(samples) -> None:
             continue
         by_n.setdefault(x.size, {})[id(x)] = x
     for n, group in by_n.items():
-        rows = [x for x in group.values() if _usable(x)]
-        if len(rows) >= MIN_ROWS and n >= 3:
-            _stacked(rows, n)
-
-
-def _usable(x: np.ndarray) -> bool:
-    """Finite, within the magnitude mean_sd accepts, with a spread: what every diagnostic here
-    needs (anything else goes to the one-sample route and its error)."""
-    lo, hi = float(np.minimum.reduce(x)), float(np.maximum.reduce(x))
-    if not (-MAX_MAGNITUDE <= lo and hi <= MAX_MAGNITUDE) or lo == hi:
-        return False  # (NaN fails the comparisons too)
-    sd = mean_sd(x)[2]
-    return math.isfinite(sd) and sd > 0.0
+        if len(group) >= MIN_ROWS and n >= 3:
+            _stacked(list(group.values()), n)
 
 
 def _stacked(rows: list[np.ndarray], n: int) -> None:
     x = np.stack(rows)  # (k, n), C-contiguous
-    summaries = [mean_sd(r) for r in rows]  # remembered: computed once per sample anyway
+    # finite, within the magnitude mean_sd accepts, with a spread: what every diagnostic here
+    # needs (anything else goes to the one-sample route and its error; NaN fails the tests)
+    lo, hi = np.minimum.reduce(x, axis=1), np.maximum.reduce(x, axis=1)
+    ok = (-MAX_MAGNITUDE <= lo) & (hi <= MAX_MAGNITUDE) & (lo != hi)
+    keep = []
+    for r, good in enumerate(ok.tolist()):
+        if good:
+            sd = mean_sd(rows[r])[2]  # remembered: computed once per sample anyway
+            keep.append(math.isfinite(sd) and sd > 0.0)
+        else:
+            keep.append(False)
+    if sum(keep) < MIN_ROWS:
+        return
+    if not all(keep):
+        rows = [r for r, good in zip(rows, keep, strict=True) if good]
+        x = x[np.array(keep)]
+    summaries = [mean_sd(r) for r in rows]
     m = np.array([s[1] for s in summaries])
     s = np.array([s[2] for s in summaries])
     _charts(rows, x, m, n)
+    if n <= 5000:
+        _shapiro_wilk(rows, x, n)
     if n >= 8:
         _anderson_darling(rows, x, m, s, n)
     if n >= GRUBBS_MIN_N:
@@ -86,6 +93,7 @@ def _charts(rows, x, m, n) -> None:
     run_len = np.bincount(run_id.ravel())[run_id]
     run_len[sign == 0] = 0
     longest = run_len.max(axis=1).tolist()
+    lo_hi = np.column_stack((np.minimum.reduce(x, axis=1), np.maximum.reduce(x, axis=1))).tolist()
     start = run_len.argmax(axis=1).tolist()
     for i, a in enumerate(rows):
         mr_bar = float(mr[i]) / (n - 1)
@@ -95,7 +103,8 @@ def _charts(rows, x, m, n) -> None:
         centre = float(m[i])
         sigma = mr_bar / D2_TABLE[2]
         ucl, lcl = centre + 3.0 * sigma, centre - 3.0 * sigma
-        beyond = tuple(np.flatnonzero((a > ucl) | (a < lcl)).tolist())
+        beyond = tuple(np.flatnonzero((a > ucl) | (a < lcl)).tolist()) if (
+            lo_hi[i][0] < lcl or lo_hi[i][1] > ucl) else ()
         if longest[i] == 0:
             length, side, first = 0, None, None
         else:
@@ -104,6 +113,22 @@ def _charts(rows, x, m, n) -> None:
         _memo.remember("individuals_chart", a, StabilityResult(
             n=int(n), centre=centre, mr_bar=mr_bar, sigma=float(sigma), ucl=float(ucl),
             lcl=float(lcl), beyond=beyond, longest_run=length, run_side=side, run_start=first))
+
+
+def _shapiro_wilk(rows, x, n) -> None:
+    """shapiro_wilk of each row (see normality._swilk): the rows sorted together, less each
+    sample's own middle value, then scipy's routine row by row."""
+    try:
+        from scipy.stats._ansari_swilk_statistics import swilk
+    except ImportError:  # pragma: no cover - left to the one-sample route
+        return
+    y = np.sort(x, axis=1)
+    y -= x[:, n // 2][:, None]
+    for r, a in enumerate(rows):
+        w, pw, _ = swilk(y[r], np.zeros(n // 2, dtype=np.float64), 0)
+        _memo.remember("shapiro_wilk", a, NormalityResult(
+            method="Shapiro-Wilk normality test", statistic=float(w),
+            pvalue=float(min(1.0, max(0.0, float(pw)))), n=int(n)))
 
 
 def _anderson_darling(rows, x, m, s, n) -> None:
