@@ -97,6 +97,30 @@ def _step(book: _Book, wb, kind: str, a: int, b, make) -> int:
     return hit
 
 
+_STARTS: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+
+
+def _add_range(ws, mcr, start_was_merged: bool) -> None:
+    """``ws.merged_cells.add(mcr)``: added unless a merged range already holds it, without
+    comparing it with every range (which made a sheet's merges cost their number squared).
+
+    A range can only hold ``mcr`` if it covers ``mcr``'s top-left cell: then that cell is a
+    MergedCell (merging replaced it) or the range's own top-left cell. The top-left cells of
+    the sheet's ranges are kept here, rebuilt whenever ranges were added some other way.
+    """
+    ranges = ws.merged_cells.ranges
+    known = _STARTS.get(ws)
+    if known is None or known[0] != len(ranges):
+        known = (len(ranges), {(r.min_row, r.min_col) for r in ranges})
+    corner = (mcr.min_row, mcr.min_col)
+    if start_was_merged or corner in known[1]:
+        ws.merged_cells.add(mcr)  # openpyxl's own test
+    else:
+        ranges.add(mcr)
+    known[1].add(corner)
+    _STARTS[ws] = (len(ranges), known[1])
+
+
 def merge(ws, start_row: int, start_column: int, end_row: int, end_column: int) -> None:
     """Merge a range as ``ws.merge_cells(start_row=..., ...)`` does, with the same result."""
     if start_row == end_row and start_column == end_column:
@@ -108,6 +132,7 @@ def merge(ws, start_row: int, start_column: int, end_row: int, end_column: int) 
     borders = wb._borders
     cells = ws._cells
     start = cells.get((start_row, start_column))
+    start_was_merged = isinstance(start, MergedCell)
     if start is None:
         start = ws.cell(row=start_row, column=start_column)
     end = cells.get((end_row, end_column))
@@ -132,7 +157,7 @@ def merge(ws, start_row: int, start_column: int, end_row: int, end_column: int) 
             return borders.add(borders[s] + Border(right=far.right, bottom=far.bottom))
 
         start._style[_BORDER] = _step(book, wb, "corner", s, e, corner)
-    ws.merged_cells.add(mcr)
+    _add_range(ws, mcr, start_was_merged)
 
     # Worksheet._clean_merge_range: every cell but the top-left becomes a MergedCell
     for row in range(start_row, end_row + 1):

@@ -152,30 +152,34 @@ def put(
     Strings are forced to the text type (no formulas, no error values). Numbers keep full
     precision; ``fmt`` sets only how they look.
     """
-    cell = ws.cell(row=row, column=col)
+    cell = ws._cells.get((row, col))
+    if cell is None:
+        cell = ws.cell(row=row, column=col)
+    # Values are stored as openpyxl's ``cell.value = ...`` stores them (its type codes: "n"
+    # number, "b" logical, "s" text) without its per-value type dispatch; text has been made
+    # safe by clean_text, which leaves nothing for openpyxl's own check of text to refuse.
     number = None  # the number format, set only on a number
     right = False
     if value is None:
         pass
     elif isinstance(value, (bool, np.bool_)):
-        cell.value = bool(value)
+        cell._value, cell.data_type = bool(value), "b"
     elif isinstance(value, (int, np.integer)):
-        cell.value = int(value)
+        cell._value, cell.data_type = int(value), "n"
         number = fmt or None
     elif isinstance(value, (float, np.floating)):
         x = float(value)
         if math.isnan(x):
             pass
         elif math.isinf(x):
-            cell.value = infinity_text(x)
-            cell.data_type = "s"
+            cell._value, cell.data_type = infinity_text(x), "s"
             right = True
         else:
-            cell.value = x
+            cell._value, cell.data_type = x, "n"
             number = fmt or None
     else:
-        cell.value = clean_text(value)
-        cell.data_type = "s"  # never a formula, never an error value
+        # never a formula, never an error value
+        cell._value, cell.data_type = clean_text(value), "s"
     # each distinct combination of style parts is looked up once per workbook (cell_styles)
     style(cell, fmt=number, right=right, font=font, fill=fill, align=align, border=border)
     return cell
@@ -283,27 +287,31 @@ def fit_rows(ws, *, line_height: float = 14.5) -> None:
     cells = ws._cells
     if not ws._current_row:
         return
-    # every cell of the used rectangle exists afterwards, as when iterating ws.iter_rows()
-    # (which creates the missing ones)
-    max_row, max_col = ws.max_row, ws.max_column
-    if len(cells) < max_row * max_col:
-        for r in range(1, max_row + 1):
-            for c in range(1, max_col + 1):
-                if (r, c) not in cells:
-                    ws._get_cell(r, c)
-    by_row: dict[int, list] = {}
-    for (r, c), cell in cells.items():
-        if cell._value is not None and c <= max_col:
-            by_row.setdefault(r, []).append((c, cell))
-    for r in sorted(by_row):
-        row = [cell for _c, cell in sorted(by_row[r], key=lambda x: x[0])]
+    max_row = ws.max_row
+    # Every row from 1 to the last has a cell afterwards, and A1 exists, as when this iterated
+    # ws.iter_rows() (which creates every missing cell of the used rectangle): the saved sheet
+    # keeps the same (empty) row elements and dimension. Empty unstyled cells are not saved,
+    # so one per row is enough.
+    rows_present = {r for r, _c in cells}
+    if (1, 1) not in cells:
+        ws._get_cell(1, 1)
+    for r in range(1, max_row + 1):
+        if r not in rows_present:
+            ws._get_cell(r, 1)
+    valued = sorted((rc, cell) for rc, cell in cells.items() if cell._value is not None)
+    i, n = 0, len(valued)
+    while i < n:
+        r = valued[i][0][0]
+        j = i
+        while j < n and valued[j][0][0] == r:
+            j += 1
+        row = [cell for _rc, cell in valued[i:j]]
+        i = j
         need = 1
         font_scale = 1.0
         for cell in row:
             value = cell._value
-            if not isinstance(value, str):
-                continue
-            if not alignment_of(cell).wrap_text:
+            if not isinstance(value, str) or not alignment_of(cell).wrap_text:
                 continue
             own = width(cell.column)
             cap, n_rows = spans.get((r, cell.column), (own, 1))

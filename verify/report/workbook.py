@@ -28,10 +28,7 @@ from ``Evaluation.run.started``, never the clock, so the same Evaluation gives t
 
 from __future__ import annotations
 
-import contextlib
 import datetime as dt
-import io
-import math
 from collections.abc import Iterator
 from pathlib import Path
 
@@ -53,9 +50,10 @@ from .layout import (
 from .measurements_sheet import add_placeholders, decimals_by_characteristic
 from .recheck import HELPER_HEADING, recheck_rows
 from .safe_text import escape_json_for_xml, xml_safe_evaluation
+from .sheet_xml import gc_paused, save
 from .styles import StyleBook
 from .summary import DECISION_COLOURS, write_summary
-from .xlsx_fast import StreamedSheet, splice, t_element
+from .xlsx_fast import StreamedSheet, t_element
 
 RECORD_SHEET = "_record"
 RECORD_CHUNK = 32_000
@@ -63,6 +61,7 @@ RECORD_CHUNK_COUNT_CELL = "B1"
 SPEC_LINE_COUNT_CELL = "C2"
 
 
+@gc_paused()  # (a burst of objects: see sheet_xml.gc_paused)
 def write_workbook(
     evaluation: Evaluation,
     path,
@@ -169,35 +168,7 @@ def write_workbook(
     props.description = clean_text(f"run {ev.run.run_id}: {ev.decision}")
     wb.calculation.fullCalcOnLoad = True  # formulas carry no cached values: compute on open
 
-    buf = io.BytesIO()
-    with full_precision_numbers():
-        wb.save(buf)
-    splice(buf.getvalue(), streamed, Path(path), timestamp=started)
-
-
-@contextlib.contextmanager
-def full_precision_numbers():
-    """Make openpyxl store floats with every digit while the workbook is saved.
-
-    openpyxl writes numbers through ``"%.16g" % value``, which drops the 17th significant
-    digit that some doubles need (12.000433333333332 would come back as 12.00043333333333).
-    Stored values must never be rounded, so during the save the cell writer formats floats
-    with ``repr`` (the shortest text that reads back as the same double).
-    """
-    from openpyxl.cell import _writer
-
-    original = _writer.safe_string
-
-    def exact(value):
-        if isinstance(value, float) and math.isfinite(value):
-            return repr(value)
-        return original(value)
-
-    _writer.safe_string = exact
-    try:
-        yield
-    finally:
-        _writer.safe_string = original
+    save(wb, streamed, Path(path), timestamp=started)
 
 
 def _timestamp(text: str) -> dt.datetime:
