@@ -87,7 +87,7 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
             _lot_count_words(n_lots, x.size), statistic=float(n_lots)))
         if spec.unit_of_analysis == "part":
             try:
-                le = diag.lot_effect(x, np.asarray(lots, dtype=object))
+                le = diag.lot_effect(x, lots)
                 flag = le.pvalue < alpha
                 out.append(DiagnosticResult(
                     "lot effect", le.method, group, flag,

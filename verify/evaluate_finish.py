@@ -6,13 +6,12 @@ characteristic.
 
 from __future__ import annotations
 
-from dataclasses import replace
-
 import numpy as np
 
 from . import decide
 from .checks import kind
 from .checks import names as kind_names
+from .checks.drafting import replaced
 from .evaluate_gather import CANDIDATES, CharDraft, StreamDraft
 from .model import CharacteristicResult, CheckResult, StreamResult
 from .spec_model import Characteristic, Spec
@@ -60,13 +59,13 @@ def adjust(drafts: list[CharDraft], method: str, alpha: float
     m = len(family)
     eff_alpha = alpha / m if adjusted else alpha
     for _, dr in family:
-        dr.result = replace(dr.result, **dr.complete(eff_alpha, m))
+        dr.result = replaced(dr.result, **dr.complete(eff_alpha, m))
     ps = np.array([dr.family_p for _, dr in family])
     adj = multiplicity.adjust(ps, method) if adjusted else ps
     for (_, dr), pa in zip(family, adj, strict=True):
         v = dr.finish(float(pa), adjusted)
         dr.harm_shown = v.outcome == "HOLD"
-        dr.result = replace(dr.result, outcome=v.outcome, reason=v.reason,
+        dr.result = replaced(dr.result, outcome=v.outcome, reason=v.reason,
                             p_adjusted=float(pa) if adjusted else None)
         dr.finish = None
     return names, excluded
@@ -99,7 +98,7 @@ def finish(spec: Spec, d: CharDraft) -> CharacteristicResult:
             so_far.append(f"{res.check} so far: {res.reason}")
             v = decide.while_pending(decide.Verdict(res.outcome, res.reason),
                                      harm_shown=dr.harm_shown, shortfall=d.shortfall)
-            res = replace(res, outcome=v.outcome, reason=v.reason)
+            res = replaced(res, outcome=v.outcome, reason=v.reason)
         checks.append(res)
     if d.shortfall is not None and not checks:
         checks.append(CheckResult(check="sufficiency", method="count against min_n",
@@ -156,7 +155,7 @@ def _finish_stream(d: CharDraft, st: StreamDraft) -> StreamResult:
         if d.shortfall is not None:
             v = decide.while_pending(decide.Verdict(res.outcome, res.reason),
                                      harm_shown=dr.harm_shown, shortfall=d.shortfall)
-            res = replace(res, outcome=v.outcome, reason=v.reason)
+            res = replaced(res, outcome=v.outcome, reason=v.reason)
         checks.append(res)
     n = int(st.values.size)
     mean = sd = None

@@ -22,6 +22,7 @@ from .model import DiagnosticResult, Measurements, ProcessSummary
 from .spec_model import Characteristic, Spec
 from .stats import distributions
 from .stats import variance_components as vc
+from .stats._memo import freeze
 from .stats.core import mean_sd
 from .stats.limits import BeyondLimits, beyond_limits
 
@@ -109,7 +110,7 @@ def _summary(process: str, values: np.ndarray, lots, n_parts: int,
     truncated = False
     if parts is not None and parts.size:
         try:
-            comp = vc.variance_components(parts, np.asarray(lots, dtype=object))
+            comp = vc.variance_components(parts, lots)
             within, between, truncated = comp.sd_within, comp.sd_between, comp.truncated
         except CANNOT_COMPUTE:
             pass  # fewer than 2 lots of 2 parts, or no within-lot variation: not estimable
@@ -119,7 +120,7 @@ def _summary(process: str, values: np.ndarray, lots, n_parts: int,
         n=n,
         mean=mean,
         sd=sd,
-        lots=tuple(dict.fromkeys(str(x) for x in lots)),
+        lots=tuple(dict.fromkeys(map(str, lots))),
         n_parts=n_parts,
         minimum=float(values.min()) if n else None,
         maximum=float(values.max()) if n else None,
@@ -132,9 +133,13 @@ def _stream(spec: Spec, meas: Measurements, ch: Characteristic, name: str, part_
     """One named stream of ``ch`` (analysis units and parts) and its summary."""
     units = analysis_values(meas, spec, ch.name, name)
     parts = units if part_spec is spec else analysis_values(meas, part_spec, ch.name, name)
-    stream = Stream(name=name, values=units.values, parts=parts.values, lots=tuple(parts.lots))
-    summary = _summary(name, units.values, parts.lots, int(parts.values.size), parts.values,
-                       _beyond(ch, parts.values))
+    # read-only samples: the statistics remember what they derive from one (its mean and sd,
+    # its lots' codes) instead of deriving it again for each check and diagnostic
+    values = freeze(units.values)
+    part_values = values if parts is units else freeze(parts.values)
+    stream = Stream(name=name, values=values, parts=part_values, lots=tuple(parts.lots))
+    summary = _summary(name, values, stream.lots, int(part_values.size), part_values,
+                       _beyond(ch, part_values))
     return stream, summary
 
 

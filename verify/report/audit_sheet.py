@@ -9,9 +9,8 @@ caution.
 
 from __future__ import annotations
 
-from openpyxl.styles import Alignment, Font
-
 from ..model import Evaluation
+from .cell_styles import alignment_of, merge, shared_alignment, shared_font, style
 from .cells import (
     INK,
     INT_FORMAT,
@@ -26,7 +25,7 @@ from .cells import (
 )
 from .paper import keep_sections
 
-_LABEL = Font(bold=True, color=INK)
+_LABEL = shared_font(bold=True, color=INK)
 
 
 def _pairs(ws, row: int, items) -> int:
@@ -56,8 +55,8 @@ def write_audit(ws, ev: Evaluation) -> None:
     put(ws, 1, 1, "Audit trail", font=TITLE_FONT)
     put(ws, 2, 1, "Everything needed to trace this decision and to replay the run.", font=NOTE_FONT)
     # the caution first: a heading at the foot of a page cannot lose it there
-    put(ws, 3, 1, ev.caution, font=Font(bold=True, color=INK), align=WRAP)
-    ws.merge_cells(start_row=3, start_column=1, end_row=3, end_column=8)
+    put(ws, 3, 1, ev.caution, font=shared_font(bold=True, color=INK), align=WRAP)
+    merge(ws, 3, 1, 3, 8)
     ws.row_dimensions[3].height = 15 * max(2, -(-len(ev.caution) // 170))
     run = ev.run
     row = 5
@@ -243,15 +242,16 @@ def write_audit(ws, ev: Evaluation) -> None:
     for i, rule in enumerate(ev.rules, start=1):
         put(ws, row, 1, f"Rule {i}", font=_LABEL)
         put(ws, row, 2, rule, align=WRAP)
-        ws.merge_cells(start_row=row, start_column=2, end_row=row, end_column=8)
+        merge(ws, row, 2, row, 8)
         ws.row_dimensions[row].height = 15 * max(1, -(-len(rule) // 150))
         row += 1
     last = row - 1
     fit_rows(ws)
     for r in range(1, last + 1):  # a label reads beside the top of its (wrapped) value
         cell = ws.cell(r, 1)
-        if cell.value is not None and cell.alignment.vertical is None:
-            cell.alignment = Alignment(vertical="top", wrap_text=cell.alignment.wrap_text)
+        if cell.value is not None and alignment_of(cell).vertical is None:
+            a = alignment_of(cell)
+            style(cell, align=shared_alignment(vertical="top", wrap_text=a.wrap_text))
     page_setup(ws, f"A1:H{last}", landscape=True, footer=f"verify run {ev.run.run_id}")
     keep_sections(ws, last_row=last, last_col=8)
 

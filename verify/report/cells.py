@@ -19,6 +19,7 @@ from collections.abc import Iterable
 import numpy as np
 from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 
+from .cell_styles import align_top, alignment_of, font_of, merge, style
 from .safe_text import XML_ILLEGAL as XML_ILLEGAL  # re-exported for the sheet writers
 from .safe_text import xml_safe
 
@@ -51,6 +52,10 @@ HEADER = PatternFill("solid", fgColor=HEADER_FILL)
 TITLE_FONT = Font(bold=True, size=16, color=ACCENT)
 SECTION_FONT = Font(bold=True, size=12, color=ACCENT)
 NOTE_FONT = Font(italic=True, color=MUTED)
+FLAG_FONT = Font(bold=True, color="8A4B00")  # a diagnostic's flag, a part beyond the limits
+LABEL_FONT = Font(bold=True, color=INK)  # a row's label in a table
+CENTRE = Alignment(horizontal="center")
+LEFT = Alignment(horizontal="left")
 WRAP = Alignment(wrap_text=True, vertical="top")
 TOP = Alignment(vertical="top")
 
@@ -147,38 +152,36 @@ def put(
     Strings are forced to the text type (no formulas, no error values). Numbers keep full
     precision; ``fmt`` sets only how they look.
     """
-    cell = ws.cell(row=row, column=col)
+    cell = ws._cells.get((row, col))
+    if cell is None:
+        cell = ws.cell(row=row, column=col)
+    # Values are stored as openpyxl's ``cell.value = ...`` stores them (its type codes: "n"
+    # number, "b" logical, "s" text) without its per-value type dispatch; text has been made
+    # safe by clean_text, which leaves nothing for openpyxl's own check of text to refuse.
+    number = None  # the number format, set only on a number
+    right = False
     if value is None:
         pass
     elif isinstance(value, (bool, np.bool_)):
-        cell.value = bool(value)
+        cell._value, cell.data_type = bool(value), "b"
     elif isinstance(value, (int, np.integer)):
-        cell.value = int(value)
-        if fmt:
-            cell.number_format = fmt
+        cell._value, cell.data_type = int(value), "n"
+        number = fmt or None
     elif isinstance(value, (float, np.floating)):
         x = float(value)
         if math.isnan(x):
             pass
         elif math.isinf(x):
-            cell.value = infinity_text(x)
-            cell.data_type = "s"
-            cell.alignment = Alignment(horizontal="right")
+            cell._value, cell.data_type = infinity_text(x), "s"
+            right = True
         else:
-            cell.value = x
-            if fmt:
-                cell.number_format = fmt
+            cell._value, cell.data_type = x, "n"
+            number = fmt or None
     else:
-        cell.value = clean_text(value)
-        cell.data_type = "s"  # never a formula, never an error value
-    if font is not None:
-        cell.font = font
-    if fill is not None:
-        cell.fill = fill
-    if align is not None:
-        cell.alignment = align
-    if border is not None:
-        cell.border = border
+        # never a formula, never an error value
+        cell._value, cell.data_type = clean_text(value), "s"
+    # each distinct combination of style parts is looked up once per workbook (cell_styles)
+    style(cell, fmt=number, right=right, font=font, fill=fill, align=align, border=border)
     return cell
 
 
@@ -218,8 +221,8 @@ def diagnostic_rows(ws, row: int, diagnostics, last_col: int, stat_format) -> in
         for j, (v, fm) in enumerate(zip(values, fl, strict=True), start=1):
             put(ws, row, j, v, fmt=fm, border=BOX, align=WRAP if j in (2, 7) else None)
         if d.flag:
-            ws.cell(row, 6).font = Font(bold=True, color="8A4B00")
-        ws.merge_cells(start_row=row, start_column=7, end_row=row, end_column=last_col)
+            style(ws.cell(row, 6), font=FLAG_FONT)
+        merge(ws, row, 7, row, last_col)
         row += 1
     return row
 
@@ -266,9 +269,14 @@ def fit_rows(ws, *, line_height: float = 14.5) -> None:
     """
     from openpyxl.utils import get_column_letter
 
+    widths: dict[int, float] = {}
+
     def width(col: int) -> float:
-        w = ws.column_dimensions[get_column_letter(col)].width
-        return float(w) if w else 8.43
+        w = widths.get(col)
+        if w is None:
+            w = ws.column_dimensions[get_column_letter(col)].width
+            w = widths[col] = float(w) if w else 8.43
+        return w
 
     spans = {}
     for rng in ws.merged_cells.ranges:
@@ -276,33 +284,53 @@ def fit_rows(ws, *, line_height: float = 14.5) -> None:
             sum(width(c) for c in range(rng.min_col, rng.max_col + 1)),
             rng.max_row - rng.min_row + 1,
         )
-    for row in ws.iter_rows():
+    cells = ws._cells
+    if not ws._current_row:
+        return
+    max_row = ws.max_row
+    # Every row from 1 to the last has a cell afterwards, and A1 exists, as when this iterated
+    # ws.iter_rows() (which creates every missing cell of the used rectangle): the saved sheet
+    # keeps the same (empty) row elements and dimension. Empty unstyled cells are not saved,
+    # so one per row is enough.
+    rows_present = {r for r, _c in cells}
+    if (1, 1) not in cells:
+        ws._get_cell(1, 1)
+    for r in range(1, max_row + 1):
+        if r not in rows_present:
+            ws._get_cell(r, 1)
+    valued = sorted((rc, cell) for rc, cell in cells.items() if cell._value is not None)
+    i, n = 0, len(valued)
+    while i < n:
+        r = valued[i][0][0]
+        j = i
+        while j < n and valued[j][0][0] == r:
+            j += 1
+        row = [cell for _rc, cell in valued[i:j]]
+        i = j
         need = 1
         font_scale = 1.0
         for cell in row:
-            if not isinstance(cell.value, str) or not cell.alignment.wrap_text:
+            value = cell._value
+            if not isinstance(value, str) or not alignment_of(cell).wrap_text:
                 continue
-            cap, n_rows = spans.get((cell.row, cell.column), (width(cell.column), 1))
-            size = (cell.font.sz or 11) / 11
+            own = width(cell.column)
+            cap, n_rows = spans.get((r, cell.column), (own, 1))
+            size = (font_of(cell).sz or 11) / 11
             lines = sum(
                 max(1, math.ceil(len(part) * size / max(cap * 1.05, 1)))
-                for part in cell.value.split("\n")
+                for part in value.split("\n")
             )
             lines = math.ceil(lines / n_rows)  # a cell merged down shares the rows
             if lines > need:
                 need, font_scale = lines, max(1.0, size)
         if need > 1:
-            r = row[0].row
             h = need * line_height * font_scale + 2
             current = ws.row_dimensions[r].height
             if current is None or current < h:
                 ws.row_dimensions[r].height = h
             for cell in row:  # in a tall row, everything reads from the top
-                if cell.value is not None and cell.alignment.vertical is None:
-                    a = cell.alignment
-                    cell.alignment = Alignment(
-                        horizontal=a.horizontal, vertical="top", wrap_text=a.wrap_text
-                    )
+                if alignment_of(cell).vertical is None:
+                    align_top(cell)
 
 
 # --- paper ------------------------------------------------------------------------------------

@@ -8,11 +8,11 @@ printed area).
 
 from __future__ import annotations
 
-from openpyxl.styles import Alignment, Font
 from openpyxl.utils import get_column_letter
 
 from ..checks import kind
 from ..model import CharacteristicResult, CheckResult, Evaluation
+from .cell_styles import merge, shared_alignment, shared_font
 from .cells import (
     BOX,
     DF_FORMAT,
@@ -200,7 +200,7 @@ def _beyond_table(ws, row: int, c: CharacteristicResult, fmts: dict) -> int:
         if b is None:
             continue
         flagged = key == "new" and b.total > 0
-        font = Font(bold=True, color="8A4B00") if flagged else None
+        font = shared_font(bold=True, color="8A4B00") if flagged else None
         put(ws, row, 1, key, border=BOX, font=font)
         put(ws, row, 2, b.below if s.lower is not None else None, fmt=INT_FORMAT, border=BOX,
             font=font)
@@ -220,15 +220,15 @@ def _checks_table(ws, row: int, c: CharacteristicResult, checks, fmts: dict) -> 
     if not checks:
         put(ws, row, 1, "No checks ran for this characteristic.", font=NOTE_FONT)
         return row + 1
-    put(ws, row, 1, "Check", font=Font(bold=True, color=INK), border=BOX)
+    put(ws, row, 1, "Check", font=shared_font(bold=True, color=INK), border=BOX)
     header_row(ws, row, 2, [r.check for r in checks])
     row += 1
     for label, values, fl in _rows_for_checks(checks, fmts):
-        put(ws, row, 1, label, font=Font(bold=True, color=INK), border=BOX, align=WRAP)
+        put(ws, row, 1, label, font=shared_font(bold=True, color=INK), border=BOX, align=WRAP)
         for j, (v, fm) in enumerate(zip(values, fl, strict=True), start=2):
             put(ws, row, j, v, fmt=fm, border=BOX, align=WRAP if isinstance(v, str) else None)
         row += 1
-    put(ws, row, 1, "Margin as written", font=Font(bold=True, color=INK), border=BOX)
+    put(ws, row, 1, "Margin as written", font=shared_font(bold=True, color=INK), border=BOX)
     for j, r in enumerate(checks, start=2):
         put(
             ws,
@@ -238,13 +238,13 @@ def _checks_table(ws, row: int, c: CharacteristicResult, checks, fmts: dict) -> 
             border=BOX,
         )
     row += 1
-    put(ws, row, 1, "Outcome", font=Font(bold=True, color=INK), border=BOX)
+    put(ws, row, 1, "Outcome", font=shared_font(bold=True, color=INK), border=BOX)
     for j, r in enumerate(checks, start=2):
         f, fo = decision_style(r.outcome)
         put(ws, row, j, r.outcome, fill=f, font=fo, border=BOX,
-            align=Alignment(horizontal="center"))
+            align=shared_alignment(horizontal="center"))
     row += 1
-    put(ws, row, 1, "Reason", font=Font(bold=True, color=INK), border=BOX)
+    put(ws, row, 1, "Reason", font=shared_font(bold=True, color=INK), border=BOX)
     for j, r in enumerate(checks, start=2):
         put(ws, row, j, r.reason, align=WRAP, border=BOX)
     return row + 1
@@ -265,11 +265,11 @@ def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: 
     row = 2
     for reason in c.reasons:
         put(ws, row, 1, reason, align=WRAP)
-        ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=last_col)
+        merge(ws, row, 1, row, last_col)
         row += 1
     for note in c.review:
-        put(ws, row, 1, note, align=WRAP, font=Font(italic=True, color="8A4B00"))
-        ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=last_col)
+        put(ws, row, 1, note, align=WRAP, font=shared_font(italic=True, color="8A4B00"))
+        merge(ws, row, 1, row, last_col)
         row += 1
 
     row += 1
@@ -292,14 +292,14 @@ def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: 
         ),
     ]
     for label, value, fmt in asks:
-        put(ws, row, 1, label, font=Font(bold=True, color=INK))
+        put(ws, row, 1, label, font=shared_font(bold=True, color=INK))
         put(
             ws,
             row,
             2,
             "none" if value is None else value,
             fmt=fmt,
-            align=Alignment(horizontal="left"),
+            align=shared_alignment(horizontal="left"),
         )
         row += 1
 
@@ -414,7 +414,7 @@ def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: 
     row += 1
     if c.diagnostics:
         header_row(ws, row, 1, DIAGNOSTIC_HEADERS)
-        ws.merge_cells(start_row=row, start_column=7, end_row=row, end_column=last_col)
+        merge(ws, row, 7, row, last_col)
         row += 1
 
         def stat_format(d):

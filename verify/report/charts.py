@@ -32,9 +32,9 @@ from openpyxl.drawing.text import (
     ParagraphProperties,
     RegularTextRun,
 )
-from openpyxl.styles import Font
 
 from ..model import CharacteristicResult, Evaluation
+from .cell_styles import shared_font, style
 from .cells import NOTE_FONT, SECTION_FONT, put
 from .hooks import has_report, report_hook
 
@@ -191,9 +191,9 @@ class _Block:
 
     def __init__(self, ws, row: int, col: int, title: str):
         self.ws, self.col, self.row = ws, col, row
-        put(ws, row, col, title, font=Font(bold=True))
+        put(ws, row, col, title, font=shared_font(bold=True))
         for j, h in enumerate(["Series", "x", "y"]):
-            put(ws, row + 1, col + j, h, font=Font(bold=True))
+            put(ws, row + 1, col + j, h, font=shared_font(bold=True))
         self.row = row + 2
         self.series: list[tuple[str, int, int]] = []
 
@@ -205,7 +205,7 @@ class _Block:
                 self.ws.cell(self.row, self.col + 1, float(x))
                 cell = self.ws.cell(self.row, self.col + 2, float(y))
                 if y_fmt:
-                    cell.number_format = y_fmt
+                    style(cell, fmt=y_fmt)
             self.row += 1
         self.series.append((name, first, self.row - 1))
 
@@ -262,10 +262,10 @@ def _production_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
         x0 += v.size
     if not blocks:
         return col, 0
-    put(ws, row0, col, "Production order", font=Font(bold=True))
+    put(ws, row0, col, "Production order", font=shared_font(bold=True))
     header = ["Position", "Value", "Lot", "Process"]
     for j, h in enumerate(header):
-        put(ws, row0 + 1, col + j, h, font=Font(bold=True))
+        put(ws, row0 + 1, col + j, h, font=shared_font(bold=True))
     r = row0 + 2
     chart = ScatterChart()
     chart.title = chart_title(f"{c.name} in production order: old, then new{note}")
@@ -276,7 +276,7 @@ def _production_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
         first = r
         for xi, yi, lot in zip(x.tolist(), pts.tolist(), lots.tolist(), strict=True):
             ws.cell(r, col, xi)
-            ws.cell(r, col + 1, yi).number_format = formats["mean"]
+            style(ws.cell(r, col + 1, yi), fmt=formats["mean"])
             put(ws, r, col + 2, lot)
             put(ws, r, col + 3, p)
             r += 1

@@ -53,7 +53,9 @@ def details_placeholder(ws, ev: Evaluation, styles) -> StreamedSheet:
     header_row(ws, HEADER_ROW, 1, [h for h, _ in COLUMNS])
     for j, (_h, width) in enumerate(COLUMNS, start=1):
         ws.column_dimensions[get_column_letter(j)].width = width
-    ws.freeze_panes = ws.cell(HEADER_ROW + 1, 2)
+    # by reference, not ws.cell(): a cell object would make openpyxl write an empty row 4 in
+    # the placeholder, before the streamed row 4 (a row given twice)
+    ws.freeze_panes = f"B{HEADER_ROW + 1}"
     from .cells import page_setup
 
     page_setup(ws, None, landscape=True, title_rows=f"{HEADER_ROW}:{HEADER_ROW}",

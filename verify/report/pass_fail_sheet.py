@@ -20,11 +20,11 @@ from openpyxl.drawing.text import (
     ParagraphProperties,
     RegularTextRun,
 )
-from openpyxl.styles import Alignment, Font
 from openpyxl.utils import get_column_letter
 
 from ..checks import kinds
 from ..model import CharacteristicResult, CheckResult, Evaluation
+from .cell_styles import merge, shared_alignment, shared_font
 from .cells import (
     BOX,
     DIAGNOSTIC_HEADERS,
@@ -61,7 +61,7 @@ def _boxed_row(ws, row: int, values: list, formats: list) -> int:
     return row + 1
 
 def _bold(ws, row: int, col: int, text: str) -> None:
-    put(ws, row, col, text, font=Font(bold=True, color=INK))
+    put(ws, row, col, text, font=shared_font(bold=True, color=INK))
 
 
 def _asks(ev: Evaluation, c: CharacteristicResult) -> list[tuple[str, object, str | None]]:
@@ -100,9 +100,9 @@ def write_pass_fail(ws, ev: Evaluation, c: CharacteristicResult) -> None:
     ws.row_dimensions[1].height = 26
     row = 2
     for text, font in [(r, None) for r in c.reasons] + [
-            (n, Font(italic=True, color="8A4B00")) for n in c.review]:
+            (n, shared_font(italic=True, color="8A4B00")) for n in c.review]:
         put(ws, row, 1, text, align=WRAP, font=font)
-        ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=LAST_COL)
+        merge(ws, row, 1, row, LAST_COL)
         row += 1
 
     row += 1
@@ -110,7 +110,7 @@ def write_pass_fail(ws, ev: Evaluation, c: CharacteristicResult) -> None:
     row += 1
     for label, value, fmt in _asks(ev, c):
         _bold(ws, row, 1, label)
-        put(ws, row, 2, value, fmt=fmt, align=Alignment(horizontal="left"))
+        put(ws, row, 2, value, fmt=fmt, align=shared_alignment(horizontal="left"))
         row += 1
 
     row += 1
@@ -157,10 +157,10 @@ def write_pass_fail(ws, ev: Evaluation, c: CharacteristicResult) -> None:
             put(ws, row, j, v, fmt=fm, border=BOX, align=WRAP if j == 2 else None)
         f, fo = decision_style(r.outcome)
         put(ws, row, 9, r.outcome, fill=f, font=fo, border=BOX,
-            align=Alignment(horizontal="center"))
+            align=shared_alignment(horizontal="center"))
         row += 1
         put(ws, row, 2, f"What is shown: {r.hypothesis}. {r.reason}", align=WRAP)
-        ws.merge_cells(start_row=row, start_column=2, end_row=row, end_column=LAST_COL)
+        merge(ws, row, 2, row, LAST_COL)
         row += 1
         if r.power_note:
             put(ws, row, 2, r.power_note, font=NOTE_FONT)
@@ -179,14 +179,14 @@ def write_pass_fail(ws, ev: Evaluation, c: CharacteristicResult) -> None:
     for rule in (rule for k in kinds() if k.name in present
                  for rule in k.hook("rule").rules(k)):
         put(ws, row, 1, rule.describe(ev.spec.alpha), align=WRAP)
-        ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=LAST_COL)
+        merge(ws, row, 1, row, LAST_COL)
         row += 1
 
     row += 1
     section(ws, row, "Diagnostics (they never decide alone; a flag asks for review)")
     row += 1
     header_row(ws, row, 1, DIAGNOSTIC_HEADERS)
-    ws.merge_cells(start_row=row, start_column=7, end_row=row, end_column=LAST_COL)
+    merge(ws, row, 7, row, LAST_COL)
     row += 1
     row = diagnostic_rows(ws, row, c.diagnostics, LAST_COL, lambda d: "0.000")
 
@@ -216,7 +216,7 @@ def _interval_chart(ws, c: CharacteristicResult, row0: int, col: int) -> int:
         return 1
     put(ws, row0 - 1, col, "Chart data (what the chart draws; not results)", font=SECTION_FONT)
     for j, h in enumerate(["Series", "x", "y"]):
-        put(ws, row0, col + j, h, font=Font(bold=True))
+        put(ws, row0, col + j, h, font=shared_font(bold=True))
     r = row0 + 1
     series: list[tuple[str, int, int, object]] = []
 

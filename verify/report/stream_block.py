@@ -9,10 +9,10 @@ so that a stream that runs off stands out. Layout only: the numbers come from th
 from __future__ import annotations
 
 from openpyxl.chart import BarChart, Reference
-from openpyxl.styles import Alignment
 
 from ..decide import combine
 from ..model import CharacteristicResult
+from .cell_styles import merge, shared_alignment
 from .cells import BOX, INT_FORMAT, NOTE_FONT, WRAP, header_row, put, section
 from .summary import decision_style
 
@@ -41,7 +41,7 @@ def write_streams(ws, row: int, c: CharacteristicResult, fmts: dict, last_col: i
             outcome = st.decision if kind is None else (k.outcome if k is not None else None)
             fill, font = decision_style(outcome) if outcome else (None, None)
             put(ws, row, j, outcome or "", fill=fill, font=font, border=BOX,
-                align=Alignment(horizontal="center"))
+                align=shared_alignment(horizontal="center"))
         row += 1
     last = row - 1
     # the reason of each stream's worst check, a full-width line each
@@ -49,7 +49,7 @@ def write_streams(ws, row: int, c: CharacteristicResult, fmts: dict, last_col: i
         worst = combine(k.outcome for k in st.checks)
         reason = next((f"{k.check}: {k.reason}" for k in st.checks if k.outcome == worst), "")
         put(ws, row, 1, f"{st.name}: {st.decision} - {reason}", align=WRAP)
-        ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=last_col)
+        merge(ws, row, 1, row, last_col)
         ws.row_dimensions[row].height = 15 * (1 + len(reason) // 150)
         row += 1
     old = c.processes.get("old")

@@ -7,11 +7,12 @@ monitoring, multiplicity, continued measurement sheets), the caution, and a blan
 
 from __future__ import annotations
 
-from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
+from openpyxl.styles import Border, Font, PatternFill, Side
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.hyperlink import Hyperlink
 
 from ..model import CharacteristicResult, CheckResult, Evaluation
+from .cell_styles import alignment_of, merge, shared_alignment, shared_fill, shared_font, style
 from .cells import (
     BOX,
     CAUTION_EDGE,
@@ -59,7 +60,7 @@ SIGN_OFF = (
 
 def decision_style(decision: str) -> tuple[PatternFill, Font]:
     fill, text = DECISION_COLOURS.get(decision, ("7F7F7F", "FFFFFF"))
-    return PatternFill("solid", fgColor=fill), Font(bold=True, color=text)
+    return shared_fill("solid", fgColor=fill), shared_font(bold=True, color=text)
 
 
 def put_decision_badge(ws, row: int, col: int, decision: str, size: int) -> PatternFill:
@@ -71,8 +72,8 @@ def put_decision_badge(ws, row: int, col: int, decision: str, size: int) -> Patt
         col,
         decision,
         fill=fill,
-        font=Font(bold=True, size=size, color=font.color),
-        align=Alignment(horizontal="center", vertical="center"),
+        font=shared_font(bold=True, size=size, color=font.color),
+        align=shared_alignment(horizontal="center", vertical="center"),
     )
     return fill
 
@@ -109,37 +110,37 @@ def _decision_cell(ws, ev: Evaluation, badge: tuple[int, int]) -> None:
         label = "Overall decision" if st is None else (
             "Decision of record (this run)" if st.kind == "RECORD"
             else "Provisional (no record yet)")
-        put(ws, 2, c0, label, font=Font(bold=True, color=INK))
-        ws.merge_cells(start_row=2, start_column=c0, end_row=2, end_column=c1)
+        put(ws, 2, c0, label, font=shared_font(bold=True, color=INK))
+        merge(ws, 2, c0, 2, c1)
         fill = put_decision_badge(ws, 3, c0, ev.decision, size=26)
         _name_cell(ws, DECISION_CELL_NAME, 3, c0)
-        ws.merge_cells(start_row=3, start_column=c0, end_row=6, end_column=c1)
+        merge(ws, 3, c0, 6, c1)
         for r in range(3, 7):
             for col in range(c0, c1 + 1):
-                ws.cell(r, col).fill = fill
+                style(ws.cell(r, col), fill=fill)
         return
-    put(ws, 2, c0, "Decision of record", font=Font(bold=True, color=INK))
-    ws.merge_cells(start_row=2, start_column=c0, end_row=2, end_column=c1)
+    put(ws, 2, c0, "Decision of record", font=shared_font(bold=True, color=INK))
+    merge(ws, 2, c0, 2, c1)
     fill = put_decision_badge(ws, 3, c0, st.decision or "", size=26)
     _name_cell(ws, DECISION_CELL_NAME, 3, c0)
-    ws.merge_cells(start_row=3, start_column=c0, end_row=4, end_column=c1)
+    merge(ws, 3, c0, 4, c1)
     for r in range(3, 5):
         for col in range(c0, c1 + 1):
-            ws.cell(r, col).fill = fill
+            style(ws.cell(r, col), fill=fill)
     put(ws, 5, c0, f"on {(st.decided or '')[:10]}, run {st.run_id}", align=WRAP,
-        font=Font(bold=True, color=INK, size=9))
-    ws.merge_cells(start_row=5, start_column=c0, end_row=5, end_column=c1)
+        font=shared_font(bold=True, color=INK, size=9))
+    merge(ws, 5, c0, 5, c1)
     if st.drift:
         text, fill_hex, ink = (f"DRIFT: these newer data would decide {ev.decision}",
                                *DRIFT_COLOURS)
     else:
         text, fill_hex, ink = (f"no drift: these newer data also decide {ev.decision}",
                                "FFFFFF", INK)
-    put(ws, 6, c0, text, align=WRAP, fill=PatternFill("solid", fgColor=fill_hex),
-        font=Font(bold=True, color=ink))
-    ws.merge_cells(start_row=6, start_column=c0, end_row=6, end_column=c1)
+    put(ws, 6, c0, text, align=WRAP, fill=shared_fill("solid", fgColor=fill_hex),
+        font=shared_font(bold=True, color=ink))
+    merge(ws, 6, c0, 6, c1)
     for col in range(c0, c1 + 1):
-        ws.cell(6, col).fill = PatternFill("solid", fgColor=fill_hex)
+        style(ws.cell(6, col), fill=shared_fill("solid", fgColor=fill_hex))
 
 
 def _plan_words(ev: Evaluation) -> str:
@@ -291,16 +292,17 @@ def write_summary(
         ("Planned n", _plan_words(ev)),
     )
     for i, (label, value) in enumerate(info, start=2):
-        put(ws, i, 1, label, font=Font(bold=True, color=INK))
-        put(ws, i, 2, value, align=Alignment(vertical="top"))
-        ws.merge_cells(start_row=i, start_column=2, end_row=i, end_column=badge[0] - 2)
+        put(ws, i, 1, label, font=shared_font(bold=True, color=INK))
+        put(ws, i, 2, value, align=shared_alignment(vertical="top"))
+        merge(ws, i, 2, i, badge[0] - 2)
     # the overall decision: a large coloured cell (on a monitoring workbook, the decision of
     # record; these data's own outcome shows only as drift, in its own colour)
     _decision_cell(ws, ev, badge)
     reasons = "\n".join(ev.reasons) if ev.reasons else "Every characteristic passed."
-    put(ws, 7, 1, "Why", font=Font(bold=True, color=INK), align=Alignment(vertical="top"))
-    put(ws, 7, 2, reasons, align=WRAP, font=Font(bold=True, color=INK))
-    ws.merge_cells(start_row=7, start_column=2, end_row=7, end_column=last_col)
+    put(ws, 7, 1, "Why", font=shared_font(bold=True, color=INK),
+        align=shared_alignment(vertical="top"))
+    put(ws, 7, 2, reasons, align=WRAP, font=shared_font(bold=True, color=INK))
+    merge(ws, 7, 2, 7, last_col)
 
     row = 9
     section(ws, row, "Characteristics: every check, with the number that decided it")
@@ -331,7 +333,7 @@ def write_summary(
     if notes:
         blocks.append(("Trials smaller than planned", notes, None))
     if ev.monitoring:
-        blocks.append(("Monitoring", [ev.monitoring], Font(bold=True, color=INK)))
+        blocks.append(("Monitoring", [ev.monitoring], shared_font(bold=True, color=INK)))
     blocks.append(("Multiplicity", multiplicity_text(ev), None))
     if len(measurement_sheets) > 1:
         blocks.append(
@@ -343,7 +345,7 @@ def write_summary(
                     f"{len(measurement_sheets)} sheets: {', '.join(measurement_sheets)}. "
                     "None are left out."
                 ],
-                Font(bold=True, color=INK),
+                shared_font(bold=True, color=INK),
             )
         )
     breaks = []
@@ -353,7 +355,7 @@ def write_summary(
         row += 1
         for line in lines:
             put(ws, row, 1, line, align=WRAP, font=font)
-            ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=last_col)
+            merge(ws, row, 1, row, last_col)
             row += 1
 
     # the caution, prominent
@@ -366,14 +368,14 @@ def write_summary(
         row,
         1,
         ev.caution,
-        font=Font(bold=True, size=12, color=INK),
-        fill=PatternFill("solid", fgColor=CAUTION_FILL),
-        align=Alignment(wrap_text=True, vertical="center"),
+        font=shared_font(bold=True, size=12, color=INK),
+        fill=shared_fill("solid", fgColor=CAUTION_FILL),
+        align=shared_alignment(wrap_text=True, vertical="center"),
     )
-    ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=last_col)
+    merge(ws, row, 1, row, last_col)
     for col in range(1, last_col + 1):
-        ws.cell(row, col).border = box
-        ws.cell(row, col).fill = PatternFill("solid", fgColor=CAUTION_FILL)
+        style(ws.cell(row, col), border=box)
+        style(ws.cell(row, col), fill=shared_fill("solid", fgColor=CAUTION_FILL))
     ws.row_dimensions[row].height = max(34, _height(ev.caution, 170, 16))
     row += 2
 
@@ -382,8 +384,8 @@ def write_summary(
         # only the workbook of the run that made the decision of record is signed
         section(ws, row, "Not for sign-off")
         row += 1
-        put(ws, row, 1, not_for_signing, align=WRAP, font=Font(bold=True, color=INK))
-        ws.merge_cells(start_row=row, start_column=1, end_row=row, end_column=last_col)
+        put(ws, row, 1, not_for_signing, align=WRAP, font=shared_font(bold=True, color=INK))
+        merge(ws, row, 1, row, last_col)
         ws.row_dimensions[row].height = _height(not_for_signing, 200)
         row += 1
     else:
@@ -395,16 +397,16 @@ def write_summary(
         for (a, b), label in zip(groups, labels, strict=True):
             header_row(ws, row, a, [label] + [""] * (b - a))
             if b > a:
-                ws.merge_cells(start_row=row, start_column=a, end_row=row, end_column=b)
+                merge(ws, row, a, row, b)
         row += 1
         for role, meaning in SIGN_OFF:
-            put(ws, row, 1, role, font=Font(bold=True, color=INK), align=WRAP)
+            put(ws, row, 1, role, font=shared_font(bold=True, color=INK), align=WRAP)
             put(ws, row, groups[1][0], meaning, align=WRAP, font=NOTE_FONT)
             for a, b in groups:
                 if b > a:
-                    ws.merge_cells(start_row=row, start_column=a, end_row=row, end_column=b)
+                    merge(ws, row, a, row, b)
             for col in range(1, last_col + 1):
-                ws.cell(row, col).border = BOX
+                style(ws.cell(row, col), border=BOX)
             ws.row_dimensions[row].height = 44
             row += 1
     last = row - 1
@@ -463,7 +465,7 @@ def _characteristic_row(
         name_cell.hyperlink = Hyperlink(
             ref=name_cell.coordinate, location=f"{quote_sheet(sheet)}!A1"
         )
-        name_cell.font = Font(color="245E7A", underline="single")
+        style(name_cell, font=shared_font(color="245E7A", underline="single"))
     put(ws, row, 2, c.unit, align=WRAP)
     put(ws, row, 3, old.n if old else None, fmt=INT_FORMAT)
     put(ws, row, 4, new.n if new else None, fmt=INT_FORMAT)
@@ -475,22 +477,23 @@ def _characteristic_row(
             put(ws, row, col, "not run", font=NOTE_FONT, align=WRAP)
         else:
             # the tint of the worst of the pooled check and its streams (the cell's first line)
-            tint = PatternFill("solid",
+            tint = shared_fill("solid",
                                fgColor=OUTCOME_TINTS.get(cell_outcome(c, r)[0], "FFFFFF"))
             put(ws, row, col, cell_text(c, r, ev, d), fill=tint, align=WRAP,
-                font=Font(color=INK))
+                font=shared_font(color=INK))
         col += 1
     text, flagged = beyond_text(c)
     put(ws, row, col, text, align=WRAP,
-        fill=PatternFill("solid", fgColor=OUTCOME_TINTS["PENDING"]) if flagged else None,
-        font=Font(bold=flagged, color=INK))
+        fill=shared_fill("solid", fgColor=OUTCOME_TINTS["PENDING"]) if flagged else None,
+        font=shared_font(bold=flagged, color=INK))
     col += 1
     fill, font = decision_style(c.decision)
     put(ws, row, col, c.decision, fill=fill, font=font,
-        align=Alignment(horizontal="center", vertical="top"))
+        align=shared_alignment(horizontal="center", vertical="top"))
     for j in range(1, col + 1):
         cell = ws.cell(row, j)
-        cell.border = BOX
-        if cell.alignment.vertical is None:
-            cell.alignment = Alignment(vertical="top", horizontal=cell.alignment.horizontal,
-                                       wrap_text=cell.alignment.wrap_text)
+        style(cell, border=BOX)
+        a = alignment_of(cell)
+        if a.vertical is None:
+            style(cell, align=shared_alignment(vertical="top", horizontal=a.horizontal,
+                                               wrap_text=a.wrap_text))

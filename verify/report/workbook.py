@@ -28,10 +28,7 @@ from ``Evaluation.run.started``, never the clock, so the same Evaluation gives t
 
 from __future__ import annotations
 
-import contextlib
 import datetime as dt
-import io
-import math
 from collections.abc import Iterator
 from pathlib import Path
 
@@ -53,9 +50,10 @@ from .layout import (
 from .measurements_sheet import add_placeholders, decimals_by_characteristic
 from .recheck import HELPER_HEADING, recheck_rows
 from .safe_text import escape_json_for_xml, xml_safe_evaluation
+from .sheet_xml import gc_paused, save
 from .styles import StyleBook
 from .summary import DECISION_COLOURS, write_summary
-from .xlsx_fast import StreamedSheet, splice, t_element
+from .xlsx_fast import StreamedSheet, t_element
 
 RECORD_SHEET = "_record"
 RECORD_CHUNK = 32_000
@@ -63,6 +61,7 @@ RECORD_CHUNK_COUNT_CELL = "B1"
 SPEC_LINE_COUNT_CELL = "C2"
 
 
+@gc_paused()  # (a burst of objects: see sheet_xml.gc_paused)
 def write_workbook(
     evaluation: Evaluation,
     path,
@@ -169,35 +168,7 @@ def write_workbook(
     props.description = clean_text(f"run {ev.run.run_id}: {ev.decision}")
     wb.calculation.fullCalcOnLoad = True  # formulas carry no cached values: compute on open
 
-    buf = io.BytesIO()
-    with full_precision_numbers():
-        wb.save(buf)
-    splice(buf.getvalue(), streamed, Path(path), timestamp=started)
-
-
-@contextlib.contextmanager
-def full_precision_numbers():
-    """Make openpyxl store floats with every digit while the workbook is saved.
-
-    openpyxl writes numbers through ``"%.16g" % value``, which drops the 17th significant
-    digit that some doubles need (12.000433333333332 would come back as 12.00043333333333).
-    Stored values must never be rounded, so during the save the cell writer formats floats
-    with ``repr`` (the shortest text that reads back as the same double).
-    """
-    from openpyxl.cell import _writer
-
-    original = _writer.safe_string
-
-    def exact(value):
-        if isinstance(value, float) and math.isfinite(value):
-            return repr(value)
-        return original(value)
-
-    _writer.safe_string = exact
-    try:
-        yield
-    finally:
-        _writer.safe_string = original
+    save(wb, streamed, Path(path), timestamp=started)
 
 
 def _timestamp(text: str) -> dt.datetime:
@@ -359,33 +330,31 @@ def _recheck_as_table(ws, n_rows: int) -> None:
 
     (No conditional colours on the Agrees column: LibreOffice 7.4 stops converting such a
     sheet when a cell-value rule compares the logical results with TRUE.)"""
-    from openpyxl.styles import Alignment, Font
     from openpyxl.utils import get_column_letter
 
+    from .cell_styles import merge, shared_alignment, shared_font, style
     from .cells import HEADER, HEADER_FONT, fit_rows, page_setup
     from .recheck import COLUMNS, HEADER_ROW, SUMMARY_ROW
 
     for j, w in enumerate((44, 21, 21, 12, 9, 64), start=1):
         ws.column_dimensions[get_column_letter(j)].width = w
     for j in range(1, len(COLUMNS) + 1):
-        cell = ws.cell(HEADER_ROW, j)
-        cell.font, cell.fill = HEADER_FONT, HEADER
-        cell.alignment = Alignment(wrap_text=True, vertical="bottom")
-    ws.cell(1, 1).font = Font(bold=True, size=13)
+        style(ws.cell(HEADER_ROW, j), font=HEADER_FONT, fill=HEADER,
+              align=shared_alignment(wrap_text=True, vertical="bottom"))
+    style(ws.cell(1, 1), font=shared_font(bold=True, size=13))
     if all(ws.cell(2, j).value is None for j in range(2, len(COLUMNS) + 1)):
         # the explanation line: wrapped across the table's width
-        ws.merge_cells(start_row=2, start_column=1, end_row=2, end_column=len(COLUMNS))
-        ws.cell(2, 1).alignment = Alignment(wrap_text=True, vertical="top")
-    # one style object per distinct style, not one per cell (building them per cell was a
-    # measured share of the recheck sheet's cost)
-    bold, centre = Font(bold=True), Alignment(horizontal="center")
-    wrap_top = Alignment(wrap_text=True, vertical="top")
+        merge(ws, 2, 1, 2, len(COLUMNS))
+        style(ws.cell(2, 1), align=shared_alignment(wrap_text=True, vertical="top"))
+    # each distinct style looked up once per workbook, not per cell (cell_styles)
+    bold, centre = shared_font(bold=True), shared_alignment(horizontal="center")
+    wrap_top = shared_alignment(wrap_text=True, vertical="top")
     for r in (SUMMARY_ROW, *range(HEADER_ROW + 1, n_rows + 1)):
         a, b = ws.cell(r, 1), ws.cell(r, 2)
         if isinstance(a.value, str) and b.value is None and ws.cell(r, 3).value is None:
-            a.font = bold  # a block's heading: the characteristic or check
-        ws.cell(r, 5).alignment = centre
-        ws.cell(r, 6).alignment = wrap_top
+            style(a, font=bold)  # a block's heading: the characteristic or check
+        style(ws.cell(r, 5), align=centre)
+        style(ws.cell(r, 6), align=wrap_top)
     fit_rows(ws)
     ws.freeze_panes = f"A{HEADER_ROW + 1}"
     ws.print_options.gridLines = True

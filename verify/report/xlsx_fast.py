@@ -97,11 +97,21 @@ def _sheet_parts(zin: zipfile.ZipFile) -> dict[str, str]:
 _CONTROL_BYTES = re.compile(rb"[\x00-\x08\x0b\x0c\x0e-\x1f]")
 
 
+_CONTROL_CHARS = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f]")
+
+
 def _guard_controls(data: bytes) -> bytes:
     """Replace any XML-illegal control byte by U+FFFD (UTF-8), visibly."""
     if _CONTROL_BYTES.search(data) is None:
         return data
     return _CONTROL_BYTES.sub("\ufffd".encode(), data)
+
+
+def guard_text_controls(text: str) -> str:
+    """The same guard on text about to be encoded (these characters are single UTF-8 bytes)."""
+    if _CONTROL_CHARS.search(text) is None:
+        return text
+    return _CONTROL_CHARS.sub("\ufffd", text)
 
 
 _SHEETDATA_EMPTY = re.compile(rb"<sheetData\s*/>")
@@ -195,6 +205,48 @@ def splice(
                     for chunk in sheet.rows():
                         fh.write(chunk.encode("utf-8"))
                     fh.write(tail)
+
+
+def openpyxl_package(wb) -> bytes:
+    """The package openpyxl writes for ``wb``, its parts stored uncompressed.
+
+    :func:`splice` reads every part back and deflates it once into the final file; letting
+    openpyxl deflate them first (as ``Workbook.save`` does) only to inflate them again was
+    pure cost. (``Workbook.save`` also sets the modified time to the clock: splice sets both
+    document times from the run's start anyway.)
+    """
+    buf = io.BytesIO()
+    archive = zipfile.ZipFile(buf, "w", zipfile.ZIP_STORED, allowZip64=True)
+    _in_memory_writer()(wb, archive).save()  # closes the archive
+    return buf.getvalue()
+
+
+def _in_memory_writer():
+    """openpyxl's ExcelWriter with each worksheet written to memory instead of a temporary file.
+
+    ``ExcelWriter.write_worksheet`` (openpyxl 3.1) writes every sheet to a named temporary
+    file, adds the file to the archive and deletes it: three file-system calls a sheet, which
+    on a busy disk cost more than writing the sheet. ``WorksheetWriter`` takes a BytesIO as
+    well (its ``read`` returns the bytes); the rest is that method's code unchanged.
+    """
+    from openpyxl.drawing.spreadsheet_drawing import SpreadsheetDrawing
+    from openpyxl.worksheet._writer import WorksheetWriter
+    from openpyxl.writer.excel import ExcelWriter
+
+    class InMemory(ExcelWriter):
+        def write_worksheet(self, ws):
+            if self.workbook.write_only:
+                return super().write_worksheet(ws)
+            ws._drawing = SpreadsheetDrawing()
+            ws._drawing.charts = ws._charts
+            ws._drawing.images = ws._images
+            writer = WorksheetWriter(ws, out=io.BytesIO())
+            writer.write()
+            ws._rels = writer._rels
+            self._archive.writestr(ws.path[1:], writer.read())
+            self.manifest.append(ws)
+
+    return InMemory
 
 
 def _set_level(info: zipfile.ZipInfo, level: int) -> None:

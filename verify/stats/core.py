@@ -10,11 +10,13 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import lru_cache
 from typing import Literal
 
 import numpy as np
 from scipy import special
 
+from . import _memo
 from .errors import DegenerateDataError
 
 Alternative = Literal["two-sided", "less", "greater"]
@@ -48,8 +50,10 @@ def t_sf(t: float, df: float) -> float:
     return t_cdf(-t, df)
 
 
+@lru_cache(maxsize=1024)
 def t_quantile(p: float, df: float) -> float:
-    """The p-quantile of Student's t."""
+    """The p-quantile of Student's t (remembered: the characteristics of a layout ask for the
+    same few quantiles again and again)."""
     if not 0.0 < p < 1.0:
         raise ValueError(f"quantile probability must lie in (0, 1), not {p}")
     if math.isinf(df):
@@ -185,8 +189,17 @@ def mean_sd(x: np.ndarray) -> tuple[int, float, float]:
     """n, mean and sample sd (n - 1) by a two-pass method with a correction term.
 
     The corrected two-pass algorithm (Chan, Golub and LeVeque, 1983) reaches the NIST StRD
-    certified digits where the naive sum of squares fails.
+    certified digits where the naive sum of squares fails. A read-only sample's summary is
+    remembered (:mod:`verify.stats._memo`): the statistics of one sample share it.
     """
+    hit = _memo.recall("mean_sd", x)
+    if hit is None:
+        hit = _mean_sd(x)
+        _memo.remember("mean_sd", x, hit)  # (only a read-only sample is remembered)
+    return hit
+
+
+def _mean_sd(x: np.ndarray) -> tuple[int, float, float]:
     x = np.asarray(x, dtype=float)
     n = int(x.size)
     if n == 0:

@@ -110,7 +110,8 @@ def beyond_limits(
     (1, 1)
     """
     v = np.asarray(values, dtype=float)
-    v = v[np.isfinite(v)]
+    if v.ndim != 1 or not np.logical_and.reduce(np.isfinite(v)):
+        v = v[np.isfinite(v)]  # (all finite: the sample itself, whose mean and sd are known)
     below = int(np.count_nonzero(v < lower)) if lower is not None else 0
     above = int(np.count_nonzero(v > upper)) if upper is not None else 0
     if distribution not in distributions.NAMES:

@@ -83,7 +83,7 @@ def lot_effect(values: Sequence[float] | np.ndarray, lots: Sequence[Hashable]) -
     if k < 2:
         raise NotApplicableError(f"a lot effect needs at least 2 lots, got {k}")
     sizes = np.bincount(codes, minlength=k)
-    if not np.any(sizes >= 2):
+    if not np.logical_or.reduce(sizes >= 2):
         raise NotApplicableError("no lot has 2 or more values, so within-lot variation is unknown")
     ow = one_way(a, codes, sizes, refused="lot effect cannot be tested")
     msb, msw, n0 = ow.ms_between, ow.ms_within, ow.n0
@@ -100,6 +100,6 @@ def lot_effect(values: Sequence[float] | np.ndarray, lots: Sequence[Hashable]) -
         var_within=float(msw),
         n0=float(n0),
         lot_labels=tuple(labels),
-        lot_means=tuple(float(ow.grand + v) for v in ow.means_centred),
-        lot_sizes=tuple(int(v) for v in sizes),
+        lot_means=tuple((ow.grand + ow.means_centred).tolist()),
+        lot_sizes=tuple(sizes.tolist()),
     )

@@ -11,6 +11,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special
 
+from . import _memo
 from .errors import DegenerateDataError
 
 
@@ -36,10 +37,22 @@ def one_way(a: np.ndarray, codes: np.ndarray, sizes: np.ndarray, *, refused: str
     """The one-way ANOVA of ``a`` in the groups ``codes`` (0..k-1; ``sizes`` their counts).
 
     Raises DegenerateDataError "no variation within any lot (...), so the ``refused``" when
-    every group's values are identical.
+    every group's values are identical. The result for a read-only sample in read-only codes
+    (a gathered sample in its lots) is remembered: the lot-effect diagnostic and the variance
+    components of one sample share it.
     """
+    hit = _memo.recall("one_way", a)
+    if hit is not None and hit[0] is codes:
+        return hit[1]
+    ow = _one_way(a, codes, sizes, refused)
+    if not codes.flags.writeable:
+        _memo.remember("one_way", a, (codes, ow))  # (only a read-only a is remembered)
+    return ow
+
+
+def _one_way(a: np.ndarray, codes: np.ndarray, sizes: np.ndarray, refused: str) -> OneWay:
     k, n_total = len(sizes), a.size
-    grand = float(np.mean(a))
+    grand = float(np.add.reduce(a)) / n_total  # np.mean's arithmetic, without its wrapper
     centred = a - grand
     means_c = np.bincount(codes, weights=centred, minlength=k) / sizes
     resid = centred - means_c[codes]

@@ -59,7 +59,7 @@ def resolution(
     distinct = int(grid.size)
     if distinct < 2:
         return ResolutionResult(int(a.size), distinct, None, tolerance, None)
-    step_units = float(np.min(np.diff(grid)))
+    step_units = float(np.minimum.reduce(grid[1:] - grid[:-1]))  # np.min(np.diff(grid))
     step = float(f"{step_units * quantum:.{RESOLUTION_DIGITS}g}")
     ratio = None if tolerance is None else step / (tolerance / 10.0)
     return ResolutionResult(int(a.size), distinct, step, tolerance, ratio)

@@ -19,6 +19,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
+from scipy import special
 
 from ._checks import check_harmful, check_margins, finite, positive
 from .core import check_alternative, t_cdf, t_quantile
@@ -149,25 +150,39 @@ def _smallest_n(
                 return SampleSize(n_new=n, n_old=old_size(design, n, ratio), power=p,
                                   target_power=target)
 
+    search = _search(design, ratio, target)
+    try:
+        n = next(search)
+        while True:
+            n = search.send(pw(n))
+    except StopIteration as stop:
+        return stop.value
+
+
+def _search(design: str, ratio: float, target: float):
+    """The plain search as a generator: it yields each n_new whose power it needs, is sent
+    that power, and returns the :class:`SampleSize` (so that many searches can run in step,
+    their powers computed together: :func:`_guesses`)."""
+    n_max = _n_max(design, ratio)
     lo, hi = 1, 2  # lo falls short (or is below the minimum of 2); hi is the candidate
-    p_hi = pw(hi)
+    p_hi = yield hi
     while p_hi < target:
         if hi >= n_max:
             raise NotApplicableError(
                 f"more than {MAX_N} units per process would be needed to reach power {target:g}"
             )
         lo, hi = hi, min(2 * hi, n_max)
-        p_hi = pw(hi)
+        p_hi = yield hi
     while hi - lo > 1:
         mid = (lo + hi) // 2
-        p_mid = pw(mid)
+        p_mid = yield mid
         if p_mid >= target:
             hi, p_hi = mid, p_mid
         else:
             lo = mid
     # guard against a non-monotone step: make sure one fewer does not already suffice
     while hi > 2:
-        p_prev = pw(hi - 1)
+        p_prev = yield hi - 1
         if p_prev < target:
             break
         hi, p_hi = hi - 1, p_prev
@@ -177,12 +192,25 @@ def _smallest_n(
 def _step_to_smallest(pw, n0: int, target: float, n_max: int, steps: int = 12):
     """From a guess n0, walk with the exact power to the smallest n reaching ``target``:
     (n, power), or None when the guess was too far off (the caller then searches fully)."""
-    n, p = n0, pw(n0)
+    walk = _steps(n0, target, n_max, steps)
+    try:
+        n = next(walk)
+        while True:
+            n = walk.send(pw(n))
+    except StopIteration as stop:
+        return stop.value
+
+
+def _steps(n0: int, target: float, n_max: int, steps: int = 12):
+    """:func:`_step_to_smallest` as a generator (yields each n whose power it needs, is sent
+    that power, returns its answer), so that many walks can run in step."""
+    n = n0
+    p = yield n0
     if p >= target:
         for _ in range(steps):
             if n <= 2:
                 return n, p
-            p_prev = pw(n - 1)
+            p_prev = yield n - 1
             if p_prev < target:
                 return n, p
             n, p = n - 1, p_prev
@@ -190,7 +218,7 @@ def _step_to_smallest(pw, n0: int, target: float, n_max: int, steps: int = 12):
     for _ in range(steps):
         if n >= n_max:
             return None
-        n, p = n + 1, pw(n + 1)
+        n, p = n + 1, (yield n + 1)
         if p >= target:
             return n, p
     return None
@@ -393,6 +421,47 @@ class _TostSize(_Search):
             return None
 
 
+def _approx_many(setups: list[_TostSize], ns: list[int]) -> list[float]:
+    """:meth:`_TostSize.approx_at` of each setup at its n_new, the t distribution's functions
+    called once for all (the same arithmetic element by element, so the same values)."""
+    taus, dfs, lows, highs, alphas = [], [], [], [], []
+    for q, n in zip(setups, ns, strict=True):
+        tau, df = q._tau_df(n, old_size(q.design, n, q.ratio))
+        taus.append(tau)
+        dfs.append(df)
+        highs.append(q.hi - q.delta)
+        lows.append(q.lo - q.delta)
+        alphas.append(1.0 - q.a)
+    df = np.array(dfs)
+    if not np.isfinite(df).all():  # t_quantile and t_cdf switch to the normal there
+        return [q.approx_at(n, old_size(q.design, n, q.ratio))
+                for q, n in zip(setups, ns, strict=True)]
+    tau = np.array(taus)
+    c = special.stdtrit(df, np.array(alphas))
+    p = special.stdtr(df, np.array(highs) / tau - c) - special.stdtr(df, np.array(lows) / tau + c)
+    return [_clip01(v) for v in p.tolist()]
+
+
+def _guesses(setups: list[_TostSize]) -> list[int | None]:
+    """:meth:`_TostSize.guess` of every setup: the searches run in step, each step's
+    approximate powers computed together (:func:`_approx_many`)."""
+    out: list[int | None] = [None] * len(setups)
+    searches = {i: _search(q.design, q.ratio, q.target) for i, q in enumerate(setups)}
+    asked = {i: next(g) for i, g in searches.items()}
+    while asked:
+        ids = list(asked)
+        powers = _approx_many([setups[i] for i in ids], [asked[i] for i in ids])
+        asked = {}
+        for i, p in zip(ids, powers, strict=True):
+            try:
+                asked[i] = searches[i].send(p)
+            except StopIteration as stop:
+                out[i] = stop.value.n_new
+            except NotApplicableError:
+                out[i] = None
+    return out
+
+
 def _tost_power_cases(cases: list[tuple]) -> np.ndarray:
     """Exact TOST power for cases (delta, low, high, tau, df, alpha) in one pass."""
     if not cases:
@@ -408,15 +477,18 @@ def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, SampleSize
     ``n_new``, ``n_old``, ``design``, ``alpha``, ``low``, ``high``, ``sd_old``) plus the target
     ``power`` and ``ratio`` of the sample-size search. Returns (power, sample size) per
     question, each equal to the one-at-a-time call's result, or None where that call raises a
-    :class:`~verify.stats.errors.StatsError` or ``ValueError``. The exact powers of every
-    question (its lot sizes and the lot sizes around each sample-size guess) are integrated
-    together, which costs far less than one pass per question.
+    :class:`~verify.stats.errors.StatsError` or ``ValueError``. The questions' searches run in
+    step: each step's approximate powers are computed together, then each step's exact powers
+    (the walk from each guess, and the powers at the questions' own lot sizes) are integrated
+    together, which costs far less than one pass per question and integrates only the lot
+    sizes a walk asks for.
     """
     from .errors import StatsError
 
     cases: list[tuple] = []
     owners: list[tuple[int, int | None]] = []  # (question, n) per case; n None: the power
-    sizes: list[tuple[int, _TostSize, int | None]] = []
+    sizes: list[tuple[int, _TostSize]] = []
+    setups: list[tuple[int, _TostSize]] = []
     for i, q in enumerate(questions):
         try:
             a = _alpha(q["alpha"], 0.5)
@@ -428,33 +500,54 @@ def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, SampleSize
         except (StatsError, ValueError):
             pass
         try:
-            setup = _TostSize(q["true_shift"], q["sd"], design=q["design"], alpha=q["alpha"],
-                              low=q["low"], high=q["high"], power=q["power"],
-                              ratio=q["ratio"], sd_old=q["sd_old"])
-            n0 = setup.guess()
-            if n0 is not None:
-                for n in _window(q["design"], setup.ratio, n0):
-                    cases.append(setup.case(n))
-                    owners.append((i, n))
-            sizes.append((i, setup, n0))
+            setups.append((i, _TostSize(q["true_shift"], q["sd"], design=q["design"],
+                                        alpha=q["alpha"], low=q["low"], high=q["high"],
+                                        power=q["power"], ratio=q["ratio"],
+                                        sd_old=q["sd_old"])))
         except (StatsError, ValueError):
             pass
-    values = _tost_power_cases(cases)
+    # every question's guess by the approximation, the searches run in step; then from each
+    # guess the walks with the exact power run in step too, each round's powers integrated
+    # together (the powers at the questions' own lot sizes join the first round)
     powers: list[float | None] = [None] * len(questions)
-    known: dict[int, dict[int, float]] = {}
-    for (i, n), v in zip(owners, values.tolist(), strict=True):
-        if n is None:
+    walks: dict[int, tuple] = {}  # question -> (setup, walk, n asked)
+    for (i, setup), n0 in zip(setups, _guesses([s for _, s in setups]), strict=True):
+        if n0 is not None:
+            walk = _steps(n0, setup.target, _n_max(setup.design, setup.ratio))
+            walks[i] = (setup, walk, next(walk))
+        sizes.append((i, setup))
+    found: dict[int, tuple[int, float] | None] = {}
+    while walks:
+        for i, (setup, _, n) in walks.items():
+            cases.append(setup.case(n))
+            owners.append((i, n))
+        values = _tost_power_cases(cases).tolist()
+        asked = {}
+        for (i, n), v in zip(owners, values, strict=True):
+            if n is None:
+                powers[i] = v
+                continue
+            setup, walk, _ = walks[i]
+            try:
+                asked[i] = (setup, walk, walk.send(v))
+            except StopIteration as stop:
+                found[i] = stop.value
+        walks = asked
+        cases, owners = [], []
+    if cases:  # no walk at all: only the powers at the questions' lot sizes
+        for (i, _), v in zip(owners, _tost_power_cases(cases).tolist(), strict=True):
             powers[i] = v
-        else:
-            known.setdefault(i, {})[n] = v
     results: list[SampleSize | None] = [None] * len(questions)
-    for i, setup, n0 in sizes:
-        mine = known.get(i, {})
+    for i, setup in sizes:
+        hit = found.get(i)
         try:
-            results[i] = _smallest_n(setup.power_at, setup.design, setup.ratio, setup.target,
-                                     approx=setup.approx_at,
-                                     many=lambda ns, mine=mine: [mine[n] for n in ns],
-                                     guess=n0)
+            if hit is not None:
+                n, p = hit
+                results[i] = SampleSize(n_new=n, n_old=old_size(setup.design, n, setup.ratio),
+                                        power=p, target_power=setup.target)
+            else:  # no guess, or the guess too far off: the plain search with the exact power
+                results[i] = _smallest_n(setup.power_at, setup.design, setup.ratio,
+                                         setup.target)
         except (StatsError, ValueError):
             results[i] = None
     return list(zip(powers, results, strict=True))

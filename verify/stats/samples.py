@@ -10,11 +10,15 @@ from collections.abc import Hashable
 
 import numpy as np
 
+from . import _memo
 from .errors import DegenerateDataError
 
 
 def finite_values(x: object, what: str = "values") -> np.ndarray:
-    """``x`` as a 1-D float array; DegenerateDataError when empty or not all finite."""
+    """``x`` as a 1-D float array; DegenerateDataError when empty or not all finite (a
+    read-only float sample found finite once is not checked again)."""
+    if _memo.recall("finite", x) is not None:
+        return x
     try:
         a = np.asarray(x, dtype=float)
     except (TypeError, ValueError) as exc:
@@ -26,11 +30,36 @@ def finite_values(x: object, what: str = "values") -> np.ndarray:
     if not math.isfinite(float(np.add.reduce(a))) and not np.isfinite(a).all():
         bad = int(np.count_nonzero(~np.isfinite(a)))
         raise DegenerateDataError(f"the {what} must be finite numbers ({bad} are NaN or infinite)")
+    if a is x and _memo.frozen(a):
+        _memo.remember("finite", a, True)
     return a
 
 
 def group_codes(labels: object, n: int, what: str = "lot labels") -> tuple[list, np.ndarray]:
-    """Labels in order of first appearance and an integer code per value."""
+    """Labels in order of first appearance and an integer code per value.
+
+    The codes of a tuple of text labels are remembered by content, read-only: the statistics
+    of a sample's lots share them, and so do the characteristics measured on the same parts."""
+    if type(labels) is tuple:
+        hit = _CODES.get(labels)
+        if hit is None:
+            hit = _group_codes(labels, n, what)
+            if all(type(v) is str for v in labels):  # equal only if the same text
+                hit[1].flags.writeable = False
+                if len(_CODES) >= 256:
+                    _CODES.clear()
+                _CODES[labels] = hit
+            return list(hit[0]), hit[1]
+        if hit[1].size != n:
+            _group_codes(labels, n, what)  # raises: the labels do not match the values
+        return list(hit[0]), hit[1]
+    return _group_codes(labels, n, what)
+
+
+_CODES: dict[tuple, tuple[list, np.ndarray]] = {}
+
+
+def _group_codes(labels: object, n: int, what: str) -> tuple[list, np.ndarray]:
     lab = list(labels) if not isinstance(labels, np.ndarray) else labels.tolist()
     if len(lab) != n:
         raise ValueError(f"{len(lab)} {what} for {n} values: give one label per value")
@@ -63,7 +92,7 @@ def snap_to_grid(a: np.ndarray, digits: int = RESOLUTION_DIGITS) -> tuple[np.nda
     holds exactly) and the quantum. Used so that float noise (0.1 + 0.2 versus 0.3) neither
     creates a distinct value nor breaks a tie. All-zero input gives quantum 1.
     """
-    scale_ref = float(np.max(np.abs(a))) if a.size else 0.0
+    scale_ref = float(np.maximum.reduce(np.abs(a))) if a.size else 0.0
     if scale_ref == 0.0:
         return np.zeros_like(a, dtype=float), 1.0
     quantum = 10.0 ** (math.floor(math.log10(scale_ref)) - (digits - 1))

@@ -351,10 +351,10 @@ def brown_forsythe_groups(groups: Sequence[ArrayLike]) -> BrownForsytheGroupsRes
     zs = [_abs_dev_from_median(g) for g in arrays]
     sizes = np.array([z.size for z in zs])
     n_total = int(sizes.sum())
-    means = np.array([float(np.mean(z)) for z in zs])
-    grand = float(np.sum(sizes * means) / n_total)
-    ss_b = float(np.sum(sizes * (means - grand) ** 2))
-    ss_w = float(sum(np.sum((z - m) ** 2) for z, m in zip(zs, means, strict=True)))
+    means = np.array([float(np.add.reduce(z)) / z.size for z in zs])  # np.mean's arithmetic
+    grand = float(np.add.reduce(sizes * means) / n_total)
+    ss_b = float(np.add.reduce(sizes * (means - grand) ** 2))
+    ss_w = float(sum(np.add.reduce((z - m) ** 2) for z, m in zip(zs, means, strict=True)))
     dfn, dfd = k - 1, n_total - k
     if not ss_w > 0.0:
         raise DegenerateDataError(

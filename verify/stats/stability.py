@@ -11,6 +11,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special
 
+from . import _memo
 from .core import mean_sd, require_spread
 from .errors import DegenerateDataError
 from .range_constants import D2_TABLE
@@ -60,7 +61,7 @@ class StabilityResult:
 
 def _longest_run(sign: np.ndarray) -> tuple[int, str | None, int | None]:
     """Longest run of equal non-zero signs in ``sign`` (values -1, 0, +1)."""
-    if sign.size == 0 or not np.any(sign):
+    if sign.size == 0 or not np.logical_or.reduce(sign != 0):
         return 0, None, None
     change = np.flatnonzero(sign[1:] != sign[:-1]) + 1
     starts = np.concatenate(([0], change))
@@ -87,6 +88,9 @@ def individuals_chart(x: Sequence[float] | np.ndarray) -> StabilityResult:
     >>> round(r.sigma, 4), r.beyond
     (0.1773, ())
     """
+    hit = _memo.recall("individuals_chart", x)  # computed with the layout's other samples
+    if hit is not None:  # (stats.batch)
+        return hit
     a = finite_values(x)
     n = a.size
     if n < 2:

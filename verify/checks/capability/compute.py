@@ -5,8 +5,6 @@ percentile Ppk (ISO 22514-2) for a fitted non-normal one.
 
 from __future__ import annotations
 
-import numpy as np
-
 from ...decide import fmt
 from ...model import CheckResult
 from ...stats import capability as cap
@@ -16,7 +14,6 @@ from .result import CapabilityDetails, PercentileCapabilityDetails
 from .rule import CAPABILITY
 
 PER_STREAM = False  # judged on the whole new process, not per data.stream sub-stream
-
 
 def draft(kind, inp: CheckInput) -> Draft:
     """The capability check of one characteristic."""
@@ -32,7 +29,7 @@ def draft(kind, inp: CheckInput) -> Draft:
     hyp = f"{judged} for {ch.name} is at least {fmt(conf.min)}"
     subgroups = None
     if conf.subgroup == "lot":
-        subgroups = np.asarray(cand.lots, dtype=object)
+        subgroups = cand.lots  # a tuple: its codes are remembered
     try:
         r = cap.capability(cand.parts, lower=lower, upper=upper, target=ch.target,
                            subgroups=subgroups)
@@ -67,7 +64,6 @@ def draft(kind, inp: CheckInput) -> Draft:
                     f"no power figure: the lower bound of {label} is compared with min"),
     )
     return Draft(result=res)
-
 
 def _draft_percentile(kind, inp: CheckInput) -> Draft:
     """Capability of a fitted non-normal model: the percentile method (ISO 22514-2), the

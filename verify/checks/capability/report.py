@@ -4,8 +4,7 @@ its criterion and bound, then the other indices)."""
 
 from __future__ import annotations
 
-from openpyxl.styles import Alignment, Font
-
+from ...report.cell_styles import merge, shared_alignment, shared_font
 from ...report.cells import BOX, CPK_FORMAT, INK, NOTE_FONT, WRAP, header_row, put
 from ...report.summary import decision_style
 
@@ -92,7 +91,7 @@ def write_block(kind, ws, row: int, c, r, last_col: int) -> int:
         if on_bound
         else f"the estimate at least {minimum:g}"
     ) if minimum is not None else "none declared"
-    label = Font(bold=True, color=INK)
+    label = shared_font(bold=True, color=INK)
     rows = [
         ("Deciding index", f"{index} = {r.estimate:.2f}" if r.estimate is not None else "n/a"),
         ("Criterion", criterion),
@@ -104,13 +103,13 @@ def write_block(kind, ws, row: int, c, r, last_col: int) -> int:
     for text, value in rows:
         put(ws, row, 1, text, font=label)
         put(ws, row, 2, "n/a" if value is None else value, align=WRAP)
-        ws.merge_cells(start_row=row, start_column=2, end_row=row, end_column=last_col)
+        merge(ws, row, 2, row, last_col)
         row += 1
     put(ws, row, 1, "Outcome", font=label)
     f, fo = decision_style(r.outcome)
-    put(ws, row, 2, r.outcome, fill=f, font=fo, align=Alignment(horizontal="center"))
+    put(ws, row, 2, r.outcome, fill=f, font=fo, align=shared_alignment(horizontal="center"))
     put(ws, row, 3, r.reason, align=WRAP)
-    ws.merge_cells(start_row=row, start_column=3, end_row=row, end_column=last_col)
+    merge(ws, row, 3, row, last_col)
     row += 1
     others = [
         ("Cp", _get(x, "cp"), "within", "both limits, centring ignored"),
@@ -126,7 +125,7 @@ def write_block(kind, ws, row: int, c, r, last_col: int) -> int:
         return row
     row += 1
     header_row(ws, row, 1, ["Other indices", "Value", "Against", "Spread used"])
-    ws.merge_cells(start_row=row, start_column=4, end_row=row, end_column=last_col)
+    merge(ws, row, 4, row, last_col)
     row += 1
     spreads = {
         "within": sigma_words(how),
@@ -141,7 +140,7 @@ def write_block(kind, ws, row: int, c, r, last_col: int) -> int:
         sd = values.get(kind)
         words = spreads[kind] + (f" = {sd:.6g}" if sd is not None else "")
         put(ws, row, 4, words, border=BOX, align=WRAP)
-        ws.merge_cells(start_row=row, start_column=4, end_row=row, end_column=last_col)
+        merge(ws, row, 4, row, last_col)
         row += 1
     if _get(x, "n") is not None:
         put(ws, row, 1, f"From {x.n} new parts", font=NOTE_FONT)

@@ -9,7 +9,6 @@ multiplicity family.
 from __future__ import annotations
 
 import math
-from dataclasses import replace
 
 from ...decide import fmt, margin_words, p_eq
 from ...model import CheckResult, DiagnosticResult
@@ -30,6 +29,7 @@ from ..drafting import (
     cannot_compute,
     finite,
     not_applicable,
+    replaced,
 )
 from .choice import DIFFERENCE, EQUIVALENCE, TestChoice, choose_test
 from .result import LocationDetails
@@ -233,7 +233,7 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
         power_note=(f"power of this test if the true {noun} is "
                     f"{fmt(true_shift)} and the sd is as observed"),
         planned_n=size.n_new if size is not None else None,
-        details=replace(details, **tost_fields), **common,
+        details=replaced(details, **tost_fields), **common,
     )
     harm = rule.harm_shown(ci=(ci.low, ci.high), low=low, high=high, side=ch.side)
     return Draft(result=res, harm_shown=verdict.outcome == "HOLD" and harm, batch=batch)
@@ -248,9 +248,23 @@ def complete_batch(drafts: list[Draft]) -> None:
         return
     answers = power.plan_tost_many([dr.batch for dr in asked])
     for dr, (pw, size) in zip(asked, answers, strict=True):
-        dr.result = replace(dr.result, power=finite(pw),
+        dr.result = replaced(dr.result, power=finite(pw),
                             planned_n=size.n_new if size is not None else None)
         dr.batch = None
+
+
+def rank_requests(kind, inp: CheckInput) -> list[tuple]:
+    """The rank statistics :func:`companions` will ask for, so that the evaluation can compute
+    those of all characteristics together (``verify.stats.batch.prefetch_ranks``)."""
+    data = inp.data
+    if data.candidate.values is None:
+        return []
+    if _one_sample(kind):
+        return [] if inp.ch.target is None else [
+            ("signed_rank", data.candidate.values, inp.ch.target)]
+    if data.pairs is not None or data.reference.values is None:
+        return []
+    return [("rank_sum", data.reference.values, data.candidate.values)]
 
 
 def companions(kind, inp: CheckInput, dr: Draft) -> list[DiagnosticResult]:
@@ -264,8 +278,8 @@ def companions(kind, inp: CheckInput, dr: Draft) -> list[DiagnosticResult]:
     alt = res.alternative if res.margin is None else "two-sided"
     try:
         if _one_sample(kind):
-            rt = nonparametric.wilcoxon_signed_rank(data.candidate.values - inp.ch.target,
-                                                    alternative=alt)
+            rt = nonparametric.signed_rank_about(data.candidate.values, inp.ch.target,
+                                                 alternative=alt)
             group = data.candidate.name
         elif data.pairs is not None:
             pv = data.pairs

@@ -8,8 +8,6 @@ from __future__ import annotations
 
 from dataclasses import replace
 
-import numpy as np
-
 from ...decide import fmt, p_eq
 from ...model import CheckResult, DiagnosticResult
 from ...stats import spread
@@ -55,8 +53,7 @@ def draft(kind, inp: CheckInput) -> Draft:
                 raise DegenerateDataError("no old-process values")
             hyp = (f"the new process's within-lot standard deviation of {ch.name} is larger "
                    "than the old one's")
-            ref_lots = np.asarray(ref.lots, dtype=object)
-            cand_lots = np.asarray(cand.lots, dtype=object)
+            ref_lots, cand_lots = ref.lots, cand.lots  # tuples: their codes are remembered
             w = vc.within_lot_spread(ref.parts, ref_lots, cand.parts, cand_lots,
                                      alternative="greater")
             two = vc.within_lot_spread(ref.parts, ref_lots, cand.parts, cand_lots,

@@ -1,0 +1,124 @@
+"""The cached style setting and merging (verify.report.cell_styles) leave a workbook exactly as
+openpyxl's own setters and ``Worksheet.merge_cells`` do: the same cells (``MergedCell`` under a
+merge), the same style index arrays, the same lists of fonts, fills, borders, alignments and
+protections in the same order, the same merged ranges. Reference: openpyxl 3.1's
+``StyleableObject`` descriptors and ``MergedCellRange.format``, run side by side."""
+
+from __future__ import annotations
+
+import random
+
+from openpyxl import Workbook
+from openpyxl.cell.cell import MergedCell
+from openpyxl.styles import Alignment, Border, Font, PatternFill, Protection, Side
+
+from verify.report.cell_styles import (
+    align_top,
+    merge,
+    shared_alignment,
+    shared_fill,
+    shared_font,
+    style,
+)
+
+THIN = Side(style="thin", color="B7C3CC")
+MEDIUM = Side(style="medium", color="9A6B12")
+FONTS = [None, Font(bold=True), Font(italic=True, color="6B7680"), Font(size=16)]
+FILLS = [None, PatternFill("solid", fgColor="DCE6EC"), PatternFill("solid", fgColor="2E7D57")]
+BORDERS = [None, Border(left=THIN, right=THIN, top=THIN, bottom=THIN),
+           Border(left=MEDIUM, right=MEDIUM, top=MEDIUM, bottom=MEDIUM), Border(bottom=THIN)]
+ALIGNS = [None, Alignment(wrap_text=True, vertical="top"), Alignment(horizontal="center")]
+FORMATS = [None, "0.000", "0", '[<0.0001]"< 0.0001";0.0000', "0.0%"]
+
+
+def _state(wb):
+    sheets = []
+    for ws in wb.worksheets:
+        cells = {k: (type(c).__name__, None if c._style is None else tuple(c._style),
+                     getattr(c, "_value", None))
+                 for k, c in ws._cells.items()}
+        merged = sorted(str(r) for r in ws.merged_cells.ranges)
+        sheets.append((cells, merged))
+    lists = [list(getattr(wb, name)) for name in
+             ("_fonts", "_fills", "_borders", "_alignments", "_protections", "_number_formats")]
+    return sheets, lists
+
+
+def _plain(cell, fmt, font, fill, align, border):
+    if fmt is not None:
+        cell.number_format = fmt
+    if font is not None:
+        cell.font = font
+    if fill is not None:
+        cell.fill = fill
+    if align is not None:
+        cell.alignment = align
+    if border is not None:
+        cell.border = border
+
+
+def _script(seed: int):
+    rng = random.Random(seed)
+    steps = []
+    for _ in range(300):
+        r, c = rng.randint(1, 12), rng.randint(1, 8)
+        if rng.random() < 0.2:
+            steps.append(("merge", r, c, r + rng.choice([0, 0, 1, 3]), c + rng.randint(0, 4)))
+        elif rng.random() < 0.1:
+            steps.append(("top", r, c))
+        else:
+            steps.append(("style", r, c, rng.choice(FORMATS), rng.choice(FONTS),
+                          rng.choice(FILLS), rng.choice(ALIGNS), rng.choice(BORDERS)))
+    return steps
+
+
+def test_styles_and_merges_match_openpyxl():
+    for seed in range(6):
+        wa, wb = Workbook(), Workbook()
+        a, b = wa.active, wb.active
+        for step in _script(seed):
+            if step[0] == "style":
+                _, r, c, *parts = step
+                ca, cb = a.cell(r, c), b.cell(r, c)
+                if isinstance(ca, MergedCell):
+                    continue
+                ca.value = cb.value = f"{r},{c}"
+                _plain(ca, *parts)
+                fmt, font, fill, align, border = parts
+                style(cb, fmt=fmt, font=font, fill=fill, align=align, border=border)
+            elif step[0] == "top":
+                _, r, c = step
+                ca, cb = a.cell(r, c), b.cell(r, c)
+                if isinstance(ca, MergedCell):
+                    continue
+                al = ca.alignment
+                ca.alignment = Alignment(horizontal=al.horizontal, vertical="top",
+                                         wrap_text=al.wrap_text)
+                align_top(cb)
+            else:
+                _, r1, c1, r2, c2 = step
+                a.merge_cells(start_row=r1, start_column=c1, end_row=r2, end_column=c2)
+                merge(b, r1, c1, r2, c2)
+        assert _state(wa) == _state(wb), seed
+
+
+def test_merge_spreads_a_protection_and_a_box():
+    wa, wb = Workbook(), Workbook()
+    box = Border(left=MEDIUM, right=MEDIUM, top=MEDIUM, bottom=MEDIUM)
+    for ws in (wa.active, wb.active):
+        ws.cell(3, 2).protection = Protection(locked=False)
+        ws.cell(3, 2).border = box
+        ws.cell(5, 6).border = Border(right=THIN, bottom=THIN)
+    wa.active.merge_cells(start_row=3, start_column=2, end_row=5, end_column=6)
+    merge(wb.active, 3, 2, 5, 6)
+    assert _state(wa) == _state(wb)
+    # every cell of the range carries the protection; the edges carry the sides
+    assert wb.active.cell(4, 4).protection.locked is False
+    assert wb.active.cell(5, 4).border.bottom.style == "medium"
+
+
+def test_shared_style_objects_are_one_object_per_value():
+    assert shared_font(bold=True, color="1F2A33") is shared_font(color="1F2A33", bold=True)
+    assert shared_font(bold=True) == Font(bold=True)
+    assert shared_fill("solid", fgColor="DCE6EC") == PatternFill("solid", fgColor="DCE6EC")
+    assert shared_alignment(horizontal="center") is shared_alignment(horizontal="center")

@@ -1,0 +1,214 @@
+"""The evaluation's shortcuts give exactly what the plain routes give.
+
+- A read-only sample's mean and sd, finiteness and one-way ANOVA are remembered
+  (``verify.stats._memo``); the remembered answer must equal the plain computation bit for bit
+  and a writeable array must never be remembered (it may change).
+- The codes of a tuple of text lot labels are remembered by content.
+- The TOST sample-size searches of many questions run in step (``sample_size._guesses``,
+  ``_approx_many``, ``plan_tost_many``): each answer must equal the one-at-a-time search's.
+- ``checks.drafting.replaced`` copies a frozen result as ``dataclasses.replace`` does.
+
+The references are the plain routes of this package, themselves checked against published
+values in tests/test_stats_*.py.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+
+import numpy as np
+import pytest
+
+from verify.checks.drafting import replaced
+from verify.model import CheckResult
+from verify.stats import _memo, nonparametric, sample_size
+from verify.stats import variance_components as vc
+from verify.stats.core import mean_sd
+from verify.stats.diagnostics import lot_effect
+from verify.stats.errors import DegenerateDataError
+from verify.stats.samples import finite_values, group_codes
+
+
+def _samples():
+    rng = np.random.default_rng(17)
+    yield rng.normal(10.0, 0.01, 30)
+    yield np.round(rng.normal(10.0, 0.01, 30), 2)  # ties
+    yield np.array([3.0, 3.0])  # n = 2, constant
+    yield np.array([1.0, 2.0])  # n = 2
+    yield np.full(7, 2.5)  # constant
+    yield np.array([1e-300, 2e-300, 3e-300])
+    yield rng.normal(0.0, 1e6, 101)
+
+
+@pytest.mark.parametrize("x", list(_samples()))
+def test_a_frozen_sample_gives_the_plain_mean_and_sd(x):
+    plain = mean_sd(x.copy())
+    frozen = _memo.freeze(x.copy())
+    assert not frozen.flags.writeable
+    first, second = mean_sd(frozen), mean_sd(frozen)
+    assert first == plain and second == plain or (
+        np.isnan(plain[2]) and first[:2] == plain[:2] and np.isnan(first[2]))
+    assert finite_values(frozen) is frozen and finite_values(frozen) is frozen
+
+
+def test_a_writeable_array_is_never_remembered():
+    x = np.array([1.0, 2.0, 3.0, 4.0])
+    assert mean_sd(x) == (4, 2.5, mean_sd(np.array([1.0, 2.0, 3.0, 4.0]))[2])
+    x[0] = 9.0
+    assert mean_sd(x)[1] == 4.5
+    x[1] = np.nan
+    with pytest.raises(DegenerateDataError):
+        finite_values(x)
+
+
+def test_a_frozen_sample_with_nan_is_refused_every_time():
+    x = _memo.freeze(np.array([1.0, np.nan, 2.0]))
+    for _ in range(2):
+        with pytest.raises(DegenerateDataError):
+            finite_values(x)
+        with pytest.raises(DegenerateDataError):
+            mean_sd(x)
+
+
+def test_freeze_copies_a_view_and_keeps_an_owner():
+    base = np.arange(6.0)
+    view = base[1:4]
+    frozen = _memo.freeze(view)
+    assert frozen is not view and frozen.flags.owndata and not frozen.flags.writeable
+    assert base.flags.writeable  # the original is left alone
+    owner = np.arange(3.0)
+    assert _memo.freeze(owner) is owner and not owner.flags.writeable
+    assert not _memo.frozen(np.arange(3.0)) and not _memo.frozen([1.0, 2.0])
+
+
+def test_lot_statistics_of_a_frozen_sample_equal_the_plain_ones():
+    rng = np.random.default_rng(5)
+    x = np.round(rng.normal(10.0, 0.01, 30), 3)
+    lots = tuple(f"lot-{i // 7}" for i in range(30))
+    plain_le = lot_effect(x.copy(), np.asarray(lots, dtype=object))
+    plain_vc = vc.variance_components(x.copy(), list(lots))
+    frozen = _memo.freeze(x.copy())
+    for _ in range(2):  # the second time from the memo
+        assert vc.variance_components(frozen, lots) == plain_vc
+        got = lot_effect(frozen, lots)
+        assert got == plain_le
+
+
+def test_remembered_lot_codes_equal_the_plain_ones_and_stay_intact():
+    lots = tuple(f"L{i % 4}" for i in range(12))
+    labels, codes = group_codes(lots, 12)
+    plain_labels, plain_codes = group_codes(list(lots), 12)
+    assert labels == plain_labels and np.array_equal(codes, plain_codes)
+    labels.append("spoilt")  # the caller's list is its own
+    again_labels, again_codes = group_codes(tuple(lots), 12)  # an equal tuple: shared
+    assert again_labels == plain_labels and again_codes is codes
+    assert not codes.flags.writeable
+    with pytest.raises(ValueError, match="give one label per value"):
+        group_codes(lots, 11)
+
+
+def test_labels_that_are_not_text_keep_their_own_objects():
+    a = group_codes((1, 2, 1), 3)
+    b = group_codes((1.0, 2.0, 1.0), 3)
+    assert [type(v) for v in a[0]] == [int, int] and [type(v) for v in b[0]] == [float, float]
+
+
+def _setups(seed: int, count: int):
+    rng = np.random.default_rng(seed)
+    out = []
+    for i in range(count):
+        design = ("one-sample", "paired", "pooled", "welch")[i % 4]
+        two = design in ("pooled", "welch")
+        try:
+            out.append(sample_size._TostSize(
+                float(rng.choice([0.0, 0.002, -0.006, 0.0099])), float(rng.uniform(1e-4, 0.03)),
+                design=design, alpha=float(rng.choice([0.05, 0.01, 0.1])), low=-0.01,
+                high=float(rng.choice([0.01, 0.02])), power=float(rng.choice([0.8, 0.9])),
+                ratio=float(rng.choice([1.0, 0.5, 2.0])) if two else 1.0,
+                sd_old=float(rng.uniform(1e-4, 0.03)) if design == "welch" else None))
+        except Exception:  # a question no lot size answers: not a setup
+            continue
+    return out
+
+
+def test_searches_in_step_give_each_guess_exactly():
+    setups = _setups(11, 60)
+    assert len(setups) > 40
+    assert sample_size._guesses(setups) == [q.guess() for q in setups]
+
+
+def test_approximate_powers_together_equal_one_at_a_time():
+    setups = _setups(12, 40)
+    ns = [2, 3, 5, 8, 13, 30, 200, 5000] * 5
+    ns = ns[:len(setups)]
+    together = sample_size._approx_many(setups, ns)
+    singly = [q.approx_at(n, sample_size.old_size(q.design, n, q.ratio))
+              for q, n in zip(setups, ns, strict=True)]
+    assert together == singly
+
+
+def test_tost_planning_together_equals_the_one_at_a_time_search_exactly():
+    rng = np.random.default_rng(21)
+    questions = []
+    for i in range(40):
+        design = ("one-sample", "paired", "pooled", "welch")[i % 4]
+        n = int(rng.integers(2, 60))
+        questions.append(dict(
+            true_shift=float(rng.choice([0.0, 0.003, -0.008, 0.0195])),
+            sd=float(rng.uniform(0.0005, 0.03)), n_new=n,
+            n_old=None if design == "one-sample" else (n if design == "paired" else n + 2),
+            design=design, alpha=0.05, low=-0.02, high=0.02, power=float(rng.choice([0.8, 0.9])),
+            ratio=1.0, sd_old=float(rng.uniform(0.0005, 0.03)) if design == "welch" else None))
+    together = sample_size.plan_tost_many(questions)
+    for q, (pw, size) in zip(questions, together, strict=True):
+        try:
+            ref = sample_size.sample_size_tost(
+                q["true_shift"], q["sd"], design=q["design"], alpha=q["alpha"], low=q["low"],
+                high=q["high"], power=q["power"], ratio=q["ratio"], sd_old=q["sd_old"])
+        except Exception:
+            ref = None
+        assert size == ref
+        assert pw == sample_size.power_tost(q["true_shift"], q["sd"], q["n_new"], q["n_old"],
+                                            design=q["design"], alpha=q["alpha"], low=q["low"],
+                                            high=q["high"], sd_old=q["sd_old"])
+
+
+def test_replaced_copies_as_dataclasses_replace_does():
+    res = CheckResult(check="shift", method="t", hypothesis="h", alternative=None, margin=None,
+                      outcome="PASS", reason="r", estimate=1.5)
+    fast = replaced(res, outcome="HOLD", reason="because", p_value=0.01)
+    assert fast == dataclasses.replace(res, outcome="HOLD", reason="because", p_value=0.01)
+    assert type(fast) is CheckResult and res.outcome == "PASS"
+    with pytest.raises(TypeError):
+        replaced(res, no_such_field=1)
+
+
+@pytest.mark.parametrize(("counts", "total"), [
+    (nonparametric.signed_rank_counts(9), 2**9),
+    (nonparametric.signed_rank_counts(1), 2),
+    (nonparametric.rank_sum_counts(4, 7), math.comb(11, 4)),
+    (nonparametric.rank_sum_counts(30, 30), math.comb(60, 30)),
+])
+def test_exact_tails_from_running_sums_equal_the_summed_tails(counts, total):
+    sums = nonparametric._running_sums(counts)
+    top = len(counts) - 1
+    for stat in [-3.0, -0.5, 0.0, 0.5, 1.0, 2.5, top / 2, top / 2 + 0.5, top - 1.0, top, top + 4.0]:
+        for alt in ("two-sided", "less", "greater"):
+            hi = nonparametric._tail_at_least(counts, math.floor(stat)) / total
+            lo = nonparametric._tail_at_most(counts, math.ceil(stat)) / total
+            want = hi if alt == "greater" else lo if alt == "less" else min(1.0, 2.0 * min(hi, lo))
+            assert nonparametric._exact_p(sums, total, stat, alt) == want
+
+
+def test_remembered_quantiles_equal_fresh_ones():
+    from scipy import special
+
+    from verify.stats.capability import _chi2_quantile
+    from verify.stats.core import t_quantile
+
+    for p, df in [(0.975, 29.0), (0.95, 57.3), (0.025, 2.0), (0.975, 29.0)]:
+        assert t_quantile(p, df) == float(special.stdtrit(df, p))
+        assert _chi2_quantile(p, df) == float(special.chdtri(df, 1.0 - p))
+    with pytest.raises(ValueError):
+        t_quantile(1.0, 5.0)

@@ -1,0 +1,404 @@
+"""Every worksheet's cells written as XML by string building, spliced in at save time.
+
+openpyxl serializes each cell through ElementTree (et_xmlfile, without lxml): about 10 us a
+cell, which made the save of a 9,000-cell workbook cost more than loading and evaluating its
+spec. :func:`stream_cells` writes the same ``<row>``/``<c>`` XML with plain string building,
+then takes the cells out of the worksheet while openpyxl saves it, so openpyxl writes only the
+sheet's frame (widths, views, merges, conditional formats, validations, print settings,
+drawings, tables); :func:`verify.report.xlsx_fast.splice` inserts the rows into its
+``<sheetData>``, as for the streamed measurements.
+
+The XML is what openpyxl 3.1's own writer (``openpyxl/cell/_writer.py``, ``etree_write_cell``
+and ``openpyxl/worksheet/_writer.py``, ``write_row``) produces for the same cells, byte for
+byte (tests/test_sheet_xml.py compares the two):
+
+- a cell is written when it has a value, a style or a comment; a row is written when it has a
+  cell object or a row dimension, with the dimension's attributes (``ht``, ``customHeight``,
+  ``hidden``, ``outlineLevel``, ...);
+- ``r``, then ``s`` (the cell's style registered in the workbook's ``cellXfs`` exactly as
+  openpyxl does, in the same order, so the style sheet is the same), then ``t``: ``inlineStr``
+  for text, nothing for a formula, else the data type (``n``, ``b``, ``e``);
+- text as an inline string (text stays text: a cell of type ``s`` whose text starts with
+  ``=`` is never a formula), ``xml:space="preserve"`` when it has leading or trailing blanks;
+  ``&``, ``<`` and ``>`` escaped;
+- numbers as the save writes them (:func:`number_text`: floats with every digit);
+- a formula as ``<f>`` without the ``=``, and an empty ``<v />``;
+- the cells' hyperlinks are handed to openpyxl's writer of the sheet's ``<hyperlinks>`` (it
+  collects them from the cells it writes, and there are none left).
+
+Whatever this module does not write exactly (array and data-table formulas, rich text,
+dates, comments, an unknown data type) leaves that sheet to openpyxl whole; its
+styles are still registered at the point openpyxl would have registered them, so the style
+sheet keeps its order.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import gc
+import math
+from collections.abc import Iterator
+from itertools import chain
+from types import NoneType
+
+from openpyxl.compat import safe_string
+from openpyxl.utils import get_column_letter
+
+from .xlsx_fast import StreamedSheet, guard_text_controls, openpyxl_package, splice
+
+_CDATA = str.maketrans({"&": "&amp;", "<": "&lt;", ">": "&gt;"})
+# ElementTree's attribute escaping (xml.etree.ElementTree._escape_attrib)
+_ATTRIB = str.maketrans(
+    {"&": "&amp;", "<": "&lt;", ">": "&gt;", '"': "&quot;", "\r": "&#13;", "\n": "&#10;",
+     "\t": "&#09;"}
+)
+
+
+def number_text(value) -> str:
+    """A cell's ``<v>`` text as the workbook's save writes it.
+
+    openpyxl formats numbers with ``"%.16g"``, which drops the 17th significant digit some
+    doubles need; the save (:func:`full_precision_numbers`) writes
+    finite floats with ``repr`` instead (the shortest text that reads back as the same
+    double). Everything else (integers, booleans as 1/0, NaN and infinities as empty) is
+    openpyxl's ``safe_string``.
+    """
+    if isinstance(value, float) and math.isfinite(value):
+        return repr(value)
+    return safe_string(value)
+
+
+def _cdata(text: str) -> str:
+    if "&" in text or "<" in text or ">" in text:
+        return text.translate(_CDATA)
+    return text
+
+
+class _Unsupported(Exception):
+    """A cell this module does not serialize exactly: openpyxl writes the sheet."""
+
+
+def _row_head(row_idx: int, dim, heads: dict) -> str:
+    """``<row r=".." ...`` with the row dimension's attributes, as openpyxl writes them.
+
+    openpyxl: ``attrs = {"r": ...}; attrs.update(dims.get(row_idx, {}))``: iterating a
+    RowDimension yields its set fields as text, in ``__fields__`` order, and registers its
+    style (the ``s`` field). Without a style (index 0, not written) the attributes depend only
+    on the fields read for the key, so they are built once per distinct key.
+    """
+    if dim is None:
+        return f'<row r="{row_idx}"'
+    style = dim._style
+    if style is None or not any(style):
+        key = (dim.hidden, dim.outlineLevel, dim.collapsed, dim.ht, dim.thickBot, dim.thickTop)
+        tail = heads.get(key)
+        if tail is None:
+            tail = heads[key] = "".join(f' {k}="{v.translate(_ATTRIB)}"' for k, v in dim)
+        return f'<row r="{row_idx}"{tail}'
+    return f'<row r="{row_idx}"' + "".join(f' {k}="{v.translate(_ATTRIB)}"' for k, v in dim)
+
+
+class _Styles:
+    """The ``s`` attribute of each distinct cell style, registered on first sight.
+
+    openpyxl's writer calls ``wb._cell_styles.add(cell._style)`` for every styled cell; only
+    the first call for a style appends it, so registering each distinct style on its first
+    appearance, in the same cell order, gives the same indices in the same order.
+    """
+
+    def __init__(self, wb):
+        self._add = wb._cell_styles.add
+        self._attr: dict[bytes, str] = {}
+        self.heads: dict[tuple, str] = {}
+
+    def attr(self, style) -> str:
+        key = style.tobytes()
+        attr = self._attr.get(key)
+        if attr is None:
+            attr = self._attr[key] = f' s="{self._add(style)}"' if any(style) else ""
+        return attr
+
+
+def sheet_rows(ws, links: list | None = None, styles: _Styles | None = None) -> str:
+    """The ``<row>`` elements of ``ws``'s sheetData, as openpyxl would write them.
+
+    Registers the cells' styles in the workbook as openpyxl's writer does, and appends the
+    hyperlinks of the cells written to ``links`` in the order openpyxl collects them. Raises
+    :class:`_Unsupported` for a cell this module does not write exactly. ``styles`` carries
+    the style attributes from sheet to sheet of one workbook.
+    """
+    from openpyxl.cell.rich_text import CellRichText
+
+    if links is None:
+        links = []
+    if styles is None:
+        styles = _Styles(ws.parent)
+    style_attr = styles.attr
+    heads = styles.heads
+    isfinite = math.isfinite
+    dims = ws.row_dimensions
+    by_row: dict[int, list] = {}
+    for (row, col), cell in sorted(ws._cells.items()):
+        lst = by_row.get(row)
+        if lst is None:
+            by_row[row] = [(col, cell)]
+        else:
+            lst.append((col, cell))
+    for row in dims.keys() - by_row.keys():
+        by_row[row] = []
+    letters: dict[int, str] = {}
+    out: list[str] = []
+    append = out.append
+    for row_idx in sorted(by_row):
+        append(_row_head(row_idx, dims.get(row_idx), heads))
+        append(">")
+        rs = str(row_idx)
+        for col, cell in by_row[row_idx]:
+            if cell._comment is not None:
+                raise _Unsupported("comment")
+            value = cell._value
+            style = cell._style
+            s = "" if style is None else style_attr(style)
+            if value is None and not s:
+                continue
+            if cell.hyperlink:
+                links.append(cell.hyperlink)
+            letter = letters.get(col)
+            if letter is None:
+                letter = letters[col] = get_column_letter(col)
+            dt = cell.data_type
+            if dt == "s":
+                if type(value) is not str:
+                    if isinstance(value, CellRichText) or not isinstance(value, (str, NoneType)):
+                        raise _Unsupported("rich text, or a text cell holding another type")
+                if value is None or value == "":
+                    append(f'<c r="{letter}{rs}"{s} t="inlineStr" />')
+                    continue
+                stripped = value.strip()
+                preserve = stripped and stripped != value  # openpyxl.xml.functions.whitespace
+                if "&" in value or "<" in value or ">" in value:
+                    value = value.translate(_CDATA)
+                if preserve:
+                    append(f'<c r="{letter}{rs}"{s} t="inlineStr"><is><t xml:space="preserve">'
+                           f"{value}</t></is></c>")
+                else:
+                    append(f'<c r="{letter}{rs}"{s} t="inlineStr"><is><t>{value}</t></is></c>')
+            elif dt == "n":
+                t = type(value)
+                if t is float:
+                    if isfinite(value):
+                        append(f'<c r="{letter}{rs}"{s} t="n"><v>{value!r}</v></c>')
+                    else:
+                        append(f'<c r="{letter}{rs}"{s} t="n"><v /></c>')
+                elif t is int:  # (openpyxl: "%.16g" % value)
+                    append(f'<c r="{letter}{rs}"{s} t="n"><v>{value:.16g}</v></c>')
+                elif value is None:
+                    append(f'<c r="{letter}{rs}"{s} t="n" />')
+                else:
+                    append(_other_cell(f'{letter}{rs}', s, dt, value))
+            elif dt == "f":
+                if value is None:
+                    append(f'<c r="{letter}{rs}"{s} />')
+                    continue
+                if type(value) is not str:
+                    raise _Unsupported("array or data-table formula")
+                append(f'<c r="{letter}{rs}"{s}><f>{_cdata(value[1:])}</f><v /></c>')
+            elif dt == "b" or dt == "e":
+                append(_other_cell(f'{letter}{rs}', s, dt, value))
+            else:
+                raise _Unsupported(f"data type {dt!r}")
+        append("</row>")  # (openpyxl writes an empty row so too: start and end tags)
+    return "".join(out)
+
+
+def _other_cell(ref: str, s: str, dt: str, value) -> str:
+    """A cell of type n (not int or float), b or e, by openpyxl's general rule."""
+    if value is None or value == "":
+        return f'<c r="{ref}"{s} t="{dt}" />'
+    text = number_text(value) if dt != "e" else safe_string(value)
+    if text:
+        return f'<c r="{ref}"{s} t="{dt}"><v>{_cdata(text)}</v></c>'
+    return f'<c r="{ref}"{s} t="{dt}"><v /></c>'
+
+
+def _register_styles(ws) -> None:
+    """Register ``ws``'s styles in the order openpyxl's writer will (for a sheet it writes)."""
+    cell_styles = ws.parent._cell_styles
+    dims = ws.row_dimensions
+    by_row: dict[int, list] = {}
+    for (row, _col), cell in sorted(ws._cells.items()):
+        by_row.setdefault(row, []).append(cell)
+    for r in sorted(by_row.keys() | dims.keys()):
+        dim = dims.get(r)
+        if dim is not None:
+            dict(dim)
+        for cell in by_row.get(r, ()):
+            style = cell._style
+            if style is not None and any(style):
+                cell_styles.add(style)
+
+
+def _init_tables(ws) -> None:
+    """Give tables without columns their header names from the cells, as openpyxl's
+    ``WorksheetWriter.write_tables`` does at save (it would find no cells there later)."""
+    from warnings import warn
+
+    for table in ws.tables.values():
+        if table.tableColumns:
+            continue
+        table._initialise_columns()
+        if table.headerRowCount:
+            try:
+                row = ws[table.ref][0]
+                for cell, col in zip(row, table.tableColumns, strict=False):
+                    if cell.data_type != "s":
+                        warn("File may not be readable: column headings must be strings.",
+                             stacklevel=2)
+                    col.name = str(cell.value)
+            except TypeError:
+                warn("Column headings are missing, file may not be readable", stacklevel=2)
+
+
+def _dimension(ws) -> str:
+    """``ws.calculate_dimension()`` (the range of the cell objects), with C-level min/max."""
+    if not ws._cells:
+        return "A1:A1"
+    rows, cols = zip(*ws._cells, strict=True)
+    return (f"{get_column_letter(min(cols))}{min(rows)}:"
+            f"{get_column_letter(max(cols))}{max(rows)}")
+
+
+@contextlib.contextmanager
+def _hyperlinks_from(pending: dict[int, list]) -> Iterator[None]:
+    """Let openpyxl's sheet writer find the hyperlinks of the cells written here.
+
+    ``WorksheetWriter`` gathers a sheet's hyperlinks while it writes the cells, then writes
+    ``<hyperlinks>`` (and their relationships) after the rows; the streamed sheets' links are
+    put where it would have gathered them.
+    """
+    from openpyxl.worksheet._writer import WorksheetWriter
+
+    original = WorksheetWriter.write_hyperlinks
+
+    def write_hyperlinks(self):
+        self.ws._hyperlinks.extend(pending.get(id(self.ws), ()))
+        return original(self)
+
+    WorksheetWriter.write_hyperlinks = write_hyperlinks
+    try:
+        yield
+    finally:
+        WorksheetWriter.write_hyperlinks = original
+
+
+@contextlib.contextmanager
+def stream_cells(wb, streamed: list[StreamedSheet]) -> Iterator[list[StreamedSheet]]:
+    """While the block runs, every worksheet's cells are out of the workbook, written as rows.
+
+    Yields the sheets for :func:`~verify.report.xlsx_fast.splice`: ``streamed`` (the
+    placeholders' own rows now follow the rows openpyxl would have written there) and one
+    per other worksheet with cells or row dimensions. Save the workbook inside the block; the
+    cells and row dimensions are put back on leaving it.
+    """
+    by_title = {s.title: s for s in streamed}
+    out: list[StreamedSheet] = []
+    taken: list[tuple] = []
+    pending: dict[int, list] = {}
+    styles = _Styles(wb)
+    try:
+        for ws in wb.worksheets:
+            placeholder = by_title.pop(ws.title, None)
+            if not ws._cells and not ws.row_dimensions:
+                if placeholder is not None:
+                    out.append(placeholder)
+                continue
+            dimension = _dimension(ws)
+            links: list = []
+            try:
+                xml = sheet_rows(ws, links, styles)
+            except _Unsupported:
+                _register_styles(ws)
+                if placeholder is not None:
+                    out.append(placeholder)
+                continue
+            _init_tables(ws)
+            xml = guard_text_controls(xml)
+            if links:
+                pending[id(ws)] = links
+            taken.append((ws, ws._cells, dict(ws.row_dimensions)))
+            ws._cells = {}
+            ws.row_dimensions.clear()
+            if placeholder is None:
+                out.append(StreamedSheet(ws.title, (lambda x=xml: (x,)), dimension))
+            else:
+                out.append(StreamedSheet(
+                    ws.title,
+                    (lambda x=xml, p=placeholder: chain((x,), p.rows())),
+                    placeholder.dimension,
+                ))
+        out.extend(by_title.values())  # (no such sheet: splice names it)
+        with _hyperlinks_from(pending):
+            yield out
+    finally:
+        for ws, cells, dims in taken:
+            ws._cells = cells
+            ws.row_dimensions.update(dims)
+
+
+@contextlib.contextmanager
+def full_precision_numbers():
+    """Make openpyxl store floats with every digit while the workbook is saved.
+
+    openpyxl writes numbers through ``"%.16g" % value``, which drops the 17th significant
+    digit that some doubles need (12.000433333333332 would come back as 12.00043333333333).
+    Stored values must never be rounded, so during the save the cell writer formats floats
+    with ``repr`` (:func:`number_text`), as the cells written here are.
+    """
+    from openpyxl.cell import _writer
+
+    original = _writer.safe_string
+    _writer.safe_string = number_text
+    try:
+        yield
+    finally:
+        _writer.safe_string = original
+
+
+@contextlib.contextmanager
+def gc_paused() -> Iterator[None]:
+    """Pause the cyclic garbage collector while a workbook is built and saved.
+
+    A workbook is tens of thousands of openpyxl objects made in a burst; the allocations set
+    off collections of the older generations, each walking every object the process holds
+    (the workbook, the evaluation, pandas' and scipy's module state). Measured on the nightly
+    benchmark's specs: about 7 collections of generation 1 and 0.6 full ones per workbook,
+    costing the string building here more than half its time. Nothing made here needs the
+    collector: reference counting frees it; cycles left over wait for the next collection.
+    Usable as a decorator; the collector's state before is restored.
+    """
+    enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if enabled:
+            gc.enable()
+
+
+def save(wb, streamed: list[StreamedSheet], path, *, timestamp) -> None:
+    """Save a built workbook to ``path``: cells as XML here, the rest by openpyxl, spliced.
+
+    Parameters
+    ----------
+    wb : openpyxl.Workbook
+        The built workbook (its streamed sheets as placeholders).
+    streamed : list of StreamedSheet
+        The placeholders' rows.
+    path : path-like
+        Where to write.
+    timestamp : datetime
+        The run's start (UTC): every zip entry's time and the document's times.
+    """
+    with full_precision_numbers(), stream_cells(wb, streamed) as sheets:
+        package = openpyxl_package(wb)
+    splice(package, sheets, path, timestamp=timestamp)

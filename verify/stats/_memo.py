@@ -1,0 +1,56 @@
+"""Per-sample memos: what a statistic derives from a sample alone (its n, mean and sd, that it
+is finite), computed once per sample however many statistics read it.
+
+An evaluation hands the same sample to a dozen statistics (t-test, spread, capability,
+normality, outliers, stability, ...); each needs the mean and sd, each checks the values are
+finite. Only a **read-only array that owns its data** is remembered: such an array cannot
+change behind the memo's back (the evaluation marks the samples it gathers read-only); any
+other input is computed every time. The memo holds its arrays (so an id is never reused while
+its entry lives) and is emptied when it reaches :data:`MAX_ENTRIES` or an evaluation ends
+(:func:`forget`).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+MAX_ENTRIES = 16384
+
+_CACHE: dict[tuple[str, int], tuple[object, object]] = {}
+
+
+def frozen(x: object) -> bool:
+    """Whether ``x`` is a float array that cannot change: read-only and owning its data."""
+    return type(x) is np.ndarray and not x.flags.writeable and x.flags.owndata
+
+
+def recall(topic: str, x: object):
+    """The remembered ``topic`` of ``x``, or None. Only frozen arrays are ever remembered (and
+    the entry holds the array, so that its id is not reused): any other ``x`` finds none."""
+    hit = _CACHE.get((topic, id(x)))
+    if hit is not None and hit[0] is x:
+        return hit[1]
+    return None
+
+
+def remember(topic: str, x: object, value: object) -> None:
+    """Remember ``value`` as the ``topic`` of ``x`` if it is a frozen array (else nothing)."""
+    if not frozen(x):
+        return
+    if len(_CACHE) >= MAX_ENTRIES:
+        _CACHE.clear()
+    _CACHE[(topic, id(x))] = (x, value)
+
+
+def forget() -> None:
+    """Empty the memo (an evaluation does when it is finished with its samples)."""
+    _CACHE.clear()
+
+
+def freeze(x: np.ndarray) -> np.ndarray:
+    """``x`` made read-only (in place; an array that does not own its data is copied first),
+    so that the statistics may remember what they derive from it."""
+    if not x.flags.owndata:
+        x = x.copy()
+    x.flags.writeable = False
+    return x
