@@ -13,9 +13,10 @@ sheet meets Excel's 1,048,576-row limit.
 
 Every run is the real command in a fresh process (``python -m verify.nightly``), so the times
 include interpreter start-up and imports. CPU is the user + system time of the command and all
-its worker processes (steadier than the wall time on a shared machine). Peak memory is the largest resident set of the
-command and its worker processes (``resource.getrusage(RUSAGE_CHILDREN).ru_maxrss`` measured in
-a small wrapper process, so one run's peak is not mixed with another's).
+its worker processes (steadier than the wall time on a shared machine). Peak memory is the
+largest resident set of the command and its worker processes
+(``resource.getrusage(RUSAGE_CHILDREN).ru_maxrss`` measured in a small wrapper process, so one
+run's peak is not mixed with another's).
 
 Usage::
 
