@@ -15,13 +15,14 @@ values in tests/test_stats_*.py.
 from __future__ import annotations
 
 import dataclasses
+import math
 
 import numpy as np
 import pytest
 
 from verify.checks.drafting import replaced
 from verify.model import CheckResult
-from verify.stats import _memo, sample_size
+from verify.stats import _memo, nonparametric, sample_size
 from verify.stats import variance_components as vc
 from verify.stats.core import mean_sd
 from verify.stats.diagnostics import lot_effect
@@ -181,3 +182,33 @@ def test_replaced_copies_as_dataclasses_replace_does():
     assert type(fast) is CheckResult and res.outcome == "PASS"
     with pytest.raises(TypeError):
         replaced(res, no_such_field=1)
+
+
+@pytest.mark.parametrize(("counts", "total"), [
+    (nonparametric.signed_rank_counts(9), 2**9),
+    (nonparametric.signed_rank_counts(1), 2),
+    (nonparametric.rank_sum_counts(4, 7), math.comb(11, 4)),
+    (nonparametric.rank_sum_counts(30, 30), math.comb(60, 30)),
+])
+def test_exact_tails_from_running_sums_equal_the_summed_tails(counts, total):
+    sums = nonparametric._running_sums(counts)
+    top = len(counts) - 1
+    for stat in [-3.0, -0.5, 0.0, 0.5, 1.0, 2.5, top / 2, top / 2 + 0.5, top - 1.0, top, top + 4.0]:
+        for alt in ("two-sided", "less", "greater"):
+            hi = nonparametric._tail_at_least(counts, math.floor(stat)) / total
+            lo = nonparametric._tail_at_most(counts, math.ceil(stat)) / total
+            want = hi if alt == "greater" else lo if alt == "less" else min(1.0, 2.0 * min(hi, lo))
+            assert nonparametric._exact_p(sums, total, stat, alt) == want
+
+
+def test_remembered_quantiles_equal_fresh_ones():
+    from scipy import special
+
+    from verify.stats.capability import _chi2_quantile
+    from verify.stats.core import t_quantile
+
+    for p, df in [(0.975, 29.0), (0.95, 57.3), (0.025, 2.0), (0.975, 29.0)]:
+        assert t_quantile(p, df) == float(special.stdtrit(df, p))
+        assert _chi2_quantile(p, df) == float(special.chdtri(df, 1.0 - p))
+    with pytest.raises(ValueError):
+        t_quantile(1.0, 5.0)

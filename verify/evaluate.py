@@ -18,6 +18,7 @@ from .evaluate_finish import adjust, complete_batches, finish
 from .evaluate_gather import CharDraft, applicable, gather, sub_streams
 from .model import Evaluation, Measurements, RunInfo
 from .spec_model import Characteristic, Spec
+from .stats import _memo, batch
 
 
 def evaluate(
@@ -41,11 +42,20 @@ def evaluate(
         from .audit import run_info
 
         run = run_info(spec, measurements, command="(library call)")
-    drafts = [draft_characteristic(spec, measurements, ch, final)
-              for ch in spec.characteristics]
+    gathered = [gather_characteristic(spec, measurements, ch, final)
+                for ch in spec.characteristics]
+    # the per-sample diagnostics of all characteristics' samples computed together: a layout
+    # measures the same parts on every characteristic (the results are the one-sample ones)
+    batch.prefetch([x for d in gathered if not d.ch.pass_fail
+                    for st in (d.data.reference, d.data.candidate) for x in (st.values, st.parts)])
+    # and the rank statistics the kinds' companions will ask for (their hooks say which)
+    batch.prefetch_ranks([q for d in gathered if not d.ch.pass_fail for k in applicable(d.ch)
+                          for q in _rank_requests(k, d.inp)])
+    drafts = [draft_characteristic(spec, measurements, d) for d in gathered]
     complete_batches(drafts)
     family, excluded = adjust(drafts, spec.multiplicity, spec.alpha)
     results = tuple(finish(spec, d) for d in drafts)
+    _memo.forget()  # what the statistics remembered of this evaluation's samples
     decision = decide.combine(r.decision for r in results)
     # one line per characteristic not PASS: its leading reason (the full list stays with it)
     reasons = tuple(
@@ -71,19 +81,32 @@ def evaluate(
     )
 
 
-def draft_characteristic(spec: Spec, meas: Measurements, ch: Characteristic,
-                         final: bool) -> CharDraft:
-    """Gather one characteristic and draft every kind of check its spec declares, in the
-    registry's order; the kinds that run per stream also run on each ``data.stream``
-    sub-stream (their p-values join the multiplicity family)."""
+def _rank_requests(kind, inp) -> list:
+    fn = getattr(kind.hook("compute"), "rank_requests", None)
+    return [] if fn is None else fn(kind, inp)
+
+
+def gather_characteristic(spec: Spec, meas: Measurements, ch: Characteristic,
+                          final: bool) -> CharDraft:
+    """Gather one characteristic: its streams (or, pass-fail, its counts)."""
     if ch.pass_fail:
         from . import evaluate_pass_fail  # per-part results or per-lot counts
 
-        d = evaluate_pass_fail.gather(spec, meas, ch, final)
+        return evaluate_pass_fail.gather(spec, meas, ch, final)
+    return gather(spec, meas, ch, final)
+
+
+def draft_characteristic(spec: Spec, meas: Measurements, d: CharDraft) -> CharDraft:
+    """Draft every kind of check the gathered characteristic's spec declares, in the
+    registry's order; the kinds that run per stream also run on each ``data.stream``
+    sub-stream (their p-values join the multiplicity family)."""
+    ch = d.ch
+    if ch.pass_fail:
+        from . import evaluate_pass_fail
+
         d.checks = [k.hook("compute").draft(k, d.inp) for k in applicable(ch)]
         d.diagnostics = evaluate_pass_fail.diagnostics(spec, ch, d)
         return d
-    d = gather(spec, meas, ch, final)
     kinds = applicable(ch)
     d.checks = [k.hook("compute").draft(k, d.inp) for k in kinds]
     if spec.data.stream is not None:

@@ -6,14 +6,15 @@ normality, outliers, stability, ...); each needs the mean and sd, each checks th
 finite. Only a **read-only array that owns its data** is remembered: such an array cannot
 change behind the memo's back (the evaluation marks the samples it gathers read-only); any
 other input is computed every time. The memo holds its arrays (so an id is never reused while
-its entry lives) and is emptied when it reaches :data:`MAX_ENTRIES`.
+its entry lives) and is emptied when it reaches :data:`MAX_ENTRIES` or an evaluation ends
+(:func:`forget`).
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-MAX_ENTRIES = 2048
+MAX_ENTRIES = 16384
 
 _CACHE: dict[tuple[str, int], tuple[object, object]] = {}
 
@@ -24,7 +25,8 @@ def frozen(x: object) -> bool:
 
 
 def recall(topic: str, x: object):
-    """The remembered ``topic`` of ``x`` (a frozen array or a tuple), or None."""
+    """The remembered ``topic`` of ``x``, or None. Only frozen arrays are ever remembered (and
+    the entry holds the array, so that its id is not reused): any other ``x`` finds none."""
     hit = _CACHE.get((topic, id(x)))
     if hit is not None and hit[0] is x:
         return hit[1]
@@ -32,10 +34,17 @@ def recall(topic: str, x: object):
 
 
 def remember(topic: str, x: object, value: object) -> None:
-    """Remember ``value`` as the ``topic`` of ``x`` (a frozen array or a tuple)."""
+    """Remember ``value`` as the ``topic`` of ``x`` if it is a frozen array (else nothing)."""
+    if not frozen(x):
+        return
     if len(_CACHE) >= MAX_ENTRIES:
         _CACHE.clear()
     _CACHE[(topic, id(x))] = (x, value)
+
+
+def forget() -> None:
+    """Empty the memo (an evaluation does when it is finished with its samples)."""
+    _CACHE.clear()
 
 
 def freeze(x: np.ndarray) -> np.ndarray:

@@ -36,10 +36,12 @@ from __future__ import annotations
 import math
 from collections.abc import Hashable, Sequence
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 from scipy import special
 
+from . import _memo
 from ._checks import check_level
 from .core import Interval, mean_sd
 from .errors import DegenerateDataError, NotApplicableError
@@ -49,6 +51,7 @@ from .samples import finite_values, group_codes
 ArrayLike = Sequence[float] | np.ndarray
 
 
+@lru_cache(maxsize=1024)  # the same few quantiles for every characteristic of a layout
 def _chi2_quantile(p: float, df: float) -> float:
     return float(special.chdtri(df, 1.0 - p))  # chdtri takes the upper-tail probability
 
@@ -233,7 +236,9 @@ def within_sigma(
     if subgroups is None:
         if x.size < 2:
             raise DegenerateDataError(f"{x.size} value: a moving range needs at least 2")
-        mr_bar = float(np.add.reduce(np.abs(x[1:] - x[:-1]))) / (x.size - 1)  # np.mean(|diff|)
+        mr_bar = _memo.recall("mr_bar", x)  # the individuals chart's (stats.batch)
+        if mr_bar is None:
+            mr_bar = float(np.add.reduce(np.abs(x[1:] - x[:-1]))) / (x.size - 1)  # np.mean(|diff|)
         if not mr_bar > 0.0:
             raise DegenerateDataError("all values are identical: the moving range is zero")
         return (mr_bar / D2_TABLE[2], "average moving range / d2(2) = 1.128", None,

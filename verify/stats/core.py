@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import lru_cache
 from typing import Literal
 
 import numpy as np
@@ -49,8 +50,10 @@ def t_sf(t: float, df: float) -> float:
     return t_cdf(-t, df)
 
 
+@lru_cache(maxsize=1024)
 def t_quantile(p: float, df: float) -> float:
-    """The p-quantile of Student's t."""
+    """The p-quantile of Student's t (remembered: the characteristics of a layout ask for the
+    same few quantiles again and again)."""
     if not 0.0 < p < 1.0:
         raise ValueError(f"quantile probability must lie in (0, 1), not {p}")
     if math.isinf(df):
@@ -189,13 +192,11 @@ def mean_sd(x: np.ndarray) -> tuple[int, float, float]:
     certified digits where the naive sum of squares fails. A read-only sample's summary is
     remembered (:mod:`verify.stats._memo`): the statistics of one sample share it.
     """
-    if _memo.frozen(x):
-        hit = _memo.recall("mean_sd", x)
-        if hit is None:
-            hit = _mean_sd(x)
-            _memo.remember("mean_sd", x, hit)
-        return hit
-    return _mean_sd(x)
+    hit = _memo.recall("mean_sd", x)
+    if hit is None:
+        hit = _mean_sd(x)
+        _memo.remember("mean_sd", x, hit)  # (only a read-only sample is remembered)
+    return hit
 
 
 def _mean_sd(x: np.ndarray) -> tuple[int, float, float]:

@@ -100,6 +100,6 @@ def lot_effect(values: Sequence[float] | np.ndarray, lots: Sequence[Hashable]) -
         var_within=float(msw),
         n0=float(n0),
         lot_labels=tuple(labels),
-        lot_means=tuple(float(ow.grand + v) for v in ow.means_centred),
-        lot_sizes=tuple(int(v) for v in sizes),
+        lot_means=tuple((ow.grand + ow.means_centred).tolist()),
+        lot_sizes=tuple(sizes.tolist()),
     )

@@ -30,6 +30,7 @@ from functools import lru_cache
 import numpy as np
 from scipy import special
 
+from . import _memo
 from .core import check_alternative
 from .errors import DegenerateDataError
 from .samples import finite_values, median, snap_to_grid
@@ -167,10 +168,34 @@ def _tail_at_most(counts: tuple[int, ...], k: int) -> int:
     return sum(counts[: max(k + 1, 0)])
 
 
-def _exact_p(counts: tuple[int, ...], total: int, stat: float, alternative: str) -> float:
-    """P(S >= stat) ("greater"), P(S <= stat) ("less") or twice the smaller, capped at 1."""
-    hi = _tail_at_least(counts, math.floor(stat)) / total
-    lo = _tail_at_most(counts, math.ceil(stat)) / total
+@lru_cache(maxsize=64)
+def _signed_rank_sums(n: int) -> tuple[int, ...]:
+    return _running_sums(signed_rank_counts(n))
+
+
+@lru_cache(maxsize=64)
+def _rank_sum_sums(m: int, n: int) -> tuple[int, ...]:
+    return _running_sums(rank_sum_counts(m, n))
+
+
+def _running_sums(counts: tuple[int, ...]) -> tuple[int, ...]:
+    """(0, c0, c0 + c1, ...): exact integers, so that a tail is one subtraction (the same
+    integer as its sum)."""
+    out = [0]
+    for c in counts:
+        out.append(out[-1] + c)
+    return tuple(out)
+
+
+def _exact_p(sums: tuple[int, ...], total: int, stat: float, alternative: str) -> float:
+    """P(S >= stat) ("greater"), P(S <= stat) ("less") or twice the smaller, capped at 1, from
+    the running sums of the null counts (:func:`_running_sums`: the tails
+    :func:`_tail_at_least` and :func:`_tail_at_most` as one subtraction)."""
+    size = len(sums) - 1
+    at_least = sums[size] - sums[min(max(math.floor(stat), 0), size)]
+    at_most = sums[min(max(math.ceil(stat) + 1, 0), size)]
+    hi = at_least / total
+    lo = at_most / total
     if alternative == "greater":
         return hi
     if alternative == "less":
@@ -245,6 +270,39 @@ def wilcoxon_signed_rank(
     if zero_method not in ZERO_METHODS:
         raise ValueError(f"zero_method must be one of {ZERO_METHODS}, not {zero_method!r}")
     raw = finite_values(d, "differences")
+    return _signed_rank_result(_signed_rank_core(raw, zero_method), alternative)
+
+
+def signed_rank_about(x: ArrayLike, target: float, *, alternative: str = "two-sided"
+                      ) -> RankTestResult:
+    """:func:`wilcoxon_signed_rank` of ``x - target`` (zeros dropped); for a read-only ``x``
+    whose ranks were computed with other samples (:func:`verify.stats.batch.prefetch_ranks`)
+    from those."""
+    hit = _memo.recall("signed_rank", x)
+    if hit is not None and hit[0] == target:
+        check_alternative(alternative)
+        return _signed_rank_result(hit[1], alternative)
+    return wilcoxon_signed_rank(np.asarray(x, dtype=float) - target, alternative=alternative)
+
+
+@dataclass(frozen=True)
+class _SignedRank:
+    """What the signed-rank test derives from the differences, whatever the alternative."""
+
+    w_plus: float
+    n: int  # values ranked
+    n_zero: int
+    groups: int
+    tied_values: int
+    exact: bool
+    n_nonzero: int
+    mean: float | None  # the normal approximation's (None when exact)
+    se: float | None
+    estimate: float | None
+    zero_method: str
+
+
+def _signed_rank_core(raw: np.ndarray, zero_method: str) -> _SignedRank:
     units, _ = snap_to_grid(raw)
     nonzero = units != 0
     n_zero = int(np.count_nonzero(~nonzero))
@@ -265,10 +323,8 @@ def wilcoxon_signed_rank(
         and n_nonzero <= EXACT_MAX_N
         and (zero_method == "wilcox" or n_zero == 0)
     )
-    if exact:
-        pvalue = _exact_p(signed_rank_counts(n_nonzero), 2**n_nonzero, w_plus, alternative)
-        how = "exact"
-    else:
+    mean = se = None
+    if not exact:
         # normal approximation: mean n(n+1)/4, variance n(n+1)(2n+1)/24 less the tie term;
         # Pratt ranks the zeros and then takes their share out of both (Cureton 1967)
         n = float(ranked_units.size)
@@ -279,23 +335,36 @@ def wilcoxon_signed_rank(
             mean -= z0 * (z0 + 1.0) * 0.25
             var -= z0 * (z0 + 1.0) * (2.0 * z0 + 1.0)
             sizes = sizes[1:]  # the zeros sort first: their group is no tie of the ranked
-        t = sizes.astype(float)
-        se = math.sqrt((var - float(np.add.reduce(t**3 - t)) / 2.0) / 24.0)
-        pvalue = _normal_p(w_plus - mean, se, alternative)
+        se = _signed_rank_se(var, sizes)
+    return _SignedRank(w_plus, int(ranked_units.size), n_zero, groups, tied_values, bool(exact),
+                       n_nonzero, mean, se, _walsh_median(raw), zero_method)
+
+
+def _signed_rank_se(var: float, sizes: np.ndarray) -> float:
+    t = sizes.astype(float)
+    return math.sqrt((var - float(np.add.reduce(t**3 - t)) / 2.0) / 24.0)
+
+
+def _signed_rank_result(c: _SignedRank, alternative: str) -> RankTestResult:
+    if c.exact:
+        pvalue = _exact_p(_signed_rank_sums(c.n_nonzero), 2**c.n_nonzero, c.w_plus, alternative)
+        how = "exact"
+    else:
+        pvalue = _normal_p(c.w_plus - c.mean, c.se, alternative)
         how = "normal approximation, tie and continuity corrected"
-    zeros = "zeros dropped" if zero_method == "wilcox" else "zeros ranked then dropped (Pratt)"
+    zeros = "zeros dropped" if c.zero_method == "wilcox" else "zeros ranked then dropped (Pratt)"
     return RankTestResult(
         method=f"Wilcoxon signed-rank test ({zeros}; {how})",
-        statistic=w_plus,
+        statistic=c.w_plus,
         pvalue=_clip_p(pvalue),
         alternative=alternative,
-        n=int(ranked_units.size),
-        n_zero=n_zero,
-        n_tied_groups=groups,
-        n_tied_values=tied_values,
-        exact=bool(exact),
-        estimate=_walsh_median(raw),
-        zero_method=zero_method,
+        n=c.n,
+        n_zero=c.n_zero,
+        n_tied_groups=c.groups,
+        n_tied_values=c.tied_values,
+        exact=c.exact,
+        estimate=c.estimate,
+        zero_method=c.zero_method,
     )
 
 
@@ -304,7 +373,9 @@ def mann_whitney(
 ) -> RankTestResult:
     """Mann-Whitney (Wilcoxon rank-sum) test, new against old.
 
-    ``"greater"``: new values tend to be larger than old ones.
+    ``"greater"``: new values tend to be larger than old ones. For two read-only samples whose
+    ranks were computed with other pairs (:func:`verify.stats.batch.prefetch_ranks`), from
+    those.
 
     Raises
     ------
@@ -318,6 +389,9 @@ def mann_whitney(
     (19.0, True, 0.0159, 1.3)
     """
     check_alternative(alternative)
+    hit = _memo.recall("rank_sum", old)
+    if hit is not None and hit[0] is new:
+        return _rank_sum_result(hit[1], alternative)
     a = finite_values(old, "old values")
     b = finite_values(new, "new values")
     units, _ = snap_to_grid(np.concatenate((a, b)))
@@ -328,29 +402,52 @@ def mann_whitney(
     n_old, n_new = int(a.size), int(b.size)
     exact = groups == 0 and n_old < EXACT_MAX_N and n_new < EXACT_MAX_N
     u_new = float(np.add.reduce(ranks[n_old:]) - n_new * (n_new + 1) / 2.0)
-    if exact:
-        pvalue = _exact_p(rank_sum_counts(n_old, n_new), math.comb(n_old + n_new, n_old),
-                          u_new, alternative)
+    se = None if exact else _rank_sum_se(n_old, n_new, sizes)
+    return _rank_sum_result(_RankSum(u_new, n_old, n_new, groups, tied_values, bool(exact), se,
+                                     _shift_median(a, b)), alternative)
+
+
+@dataclass(frozen=True)
+class _RankSum:
+    """What the rank-sum test derives from the two samples, whatever the alternative."""
+
+    u_new: float
+    n_old: int
+    n_new: int
+    groups: int
+    tied_values: int
+    exact: bool
+    se: float | None  # the normal approximation's (None when exact)
+    estimate: float | None
+
+
+def _rank_sum_se(n_old: int, n_new: int, sizes: np.ndarray) -> float:
+    # normal approximation with the tie-corrected variance
+    # n_old n_new / 12 ((N + 1) - sum(t^3 - t) / (N (N - 1)))
+    t = sizes.astype(float)
+    big_n = float(n_old + n_new)
+    return math.sqrt(n_old * n_new / 12.0
+                     * ((big_n + 1.0) - float(np.add.reduce(t**3 - t)) / (big_n * (big_n - 1.0))))
+
+
+def _rank_sum_result(c: _RankSum, alternative: str) -> RankTestResult:
+    if c.exact:
+        pvalue = _exact_p(_rank_sum_sums(c.n_old, c.n_new), math.comb(c.n_old + c.n_new, c.n_old),
+                          c.u_new, alternative)
     else:
-        # normal approximation with the tie-corrected variance
-        # n_old n_new / 12 ((N + 1) - sum(t^3 - t) / (N (N - 1)))
-        t = sizes.astype(float)
-        big_n = float(n_old + n_new)
-        se = math.sqrt(n_old * n_new / 12.0
-                       * ((big_n + 1.0) - float(np.add.reduce(t**3 - t)) / (big_n * (big_n - 1.0))))
-        pvalue = _normal_p(u_new - n_old * n_new / 2.0, se, alternative)
-    how = "exact" if exact else "normal approximation, tie and continuity corrected"
+        pvalue = _normal_p(c.u_new - c.n_old * c.n_new / 2.0, c.se, alternative)
+    how = "exact" if c.exact else "normal approximation, tie and continuity corrected"
     return RankTestResult(
         method=f"Mann-Whitney rank-sum test ({how})",
-        statistic=u_new,
+        statistic=c.u_new,
         pvalue=_clip_p(pvalue),
         alternative=alternative,
-        n=int(a.size + b.size),
+        n=c.n_old + c.n_new,
         n_zero=0,
-        n_tied_groups=groups,
-        n_tied_values=tied_values,
-        exact=bool(exact),
-        estimate=_shift_median(a, b),
-        n_old=int(a.size),
-        n_new=int(b.size),
+        n_tied_groups=c.groups,
+        n_tied_values=c.tied_values,
+        exact=c.exact,
+        estimate=c.estimate,
+        n_old=c.n_old,
+        n_new=c.n_new,
     )

@@ -10,6 +10,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special
 
+from . import _memo
 from .core import mean_sd
 from .errors import DegenerateDataError, NotApplicableError
 from .samples import finite_values
@@ -67,6 +68,9 @@ def shapiro_wilk(x: Sequence[float] | np.ndarray) -> NormalityResult:
     >>> round(r.statistic, 5)
     0.78881
     """
+    hit = _memo.recall("shapiro_wilk", x)  # computed with the layout's other samples
+    if hit is not None:  # (stats.batch)
+        return hit
     a = _normality_input(x, 3, 5000, "the Shapiro-Wilk test")
     w, pw = _swilk(a)
     return NormalityResult(
@@ -128,6 +132,9 @@ def anderson_darling(x: Sequence[float] | np.ndarray) -> NormalityResult:
     >>> 0 < r.pvalue <= 1
     True
     """
+    hit = _memo.recall("anderson_darling", x)  # computed with the layout's other samples
+    if hit is not None:  # (stats.batch)
+        return hit
     a = _normality_input(x, 8, None, "the Anderson-Darling test")
     n, m, s = mean_sd(a)
     w = np.sort((a - m) / s)

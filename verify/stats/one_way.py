@@ -41,14 +41,13 @@ def one_way(a: np.ndarray, codes: np.ndarray, sizes: np.ndarray, *, refused: str
     (a gathered sample in its lots) is remembered: the lot-effect diagnostic and the variance
     components of one sample share it.
     """
-    if _memo.frozen(a) and not codes.flags.writeable:
-        hit = _memo.recall("one_way", a)
-        if hit is not None and hit[0] is codes:
-            return hit[1]
-        ow = _one_way(a, codes, sizes, refused)
-        _memo.remember("one_way", a, (codes, ow))
-        return ow
-    return _one_way(a, codes, sizes, refused)
+    hit = _memo.recall("one_way", a)
+    if hit is not None and hit[0] is codes:
+        return hit[1]
+    ow = _one_way(a, codes, sizes, refused)
+    if not codes.flags.writeable:
+        _memo.remember("one_way", a, (codes, ow))  # (only a read-only a is remembered)
+    return ow
 
 
 def _one_way(a: np.ndarray, codes: np.ndarray, sizes: np.ndarray, refused: str) -> OneWay:

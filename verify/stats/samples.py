@@ -17,7 +17,7 @@ from .errors import DegenerateDataError
 def finite_values(x: object, what: str = "values") -> np.ndarray:
     """``x`` as a 1-D float array; DegenerateDataError when empty or not all finite (a
     read-only float sample found finite once is not checked again)."""
-    if _memo.frozen(x) and _memo.recall("finite", x) is not None:
+    if _memo.recall("finite", x) is not None:
         return x
     try:
         a = np.asarray(x, dtype=float)

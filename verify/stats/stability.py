@@ -11,6 +11,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special
 
+from . import _memo
 from .core import mean_sd, require_spread
 from .errors import DegenerateDataError
 from .range_constants import D2_TABLE
@@ -87,6 +88,9 @@ def individuals_chart(x: Sequence[float] | np.ndarray) -> StabilityResult:
     >>> round(r.sigma, 4), r.beyond
     (0.1773, ())
     """
+    hit = _memo.recall("individuals_chart", x)  # computed with the layout's other samples
+    if hit is not None:  # (stats.batch)
+        return hit
     a = finite_values(x)
     n = a.size
     if n < 2:

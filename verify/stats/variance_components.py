@@ -133,7 +133,7 @@ def variance_components(values: ArrayLike, lots: Sequence[Hashable]) -> Variance
         method="one-way random-effects ANOVA (method of moments, n0 for unequal lots)",
         n=int(n_total),
         n_lots=int(k),
-        lot_sizes=tuple(int(v) for v in sizes),
+        lot_sizes=tuple(sizes.tolist()),
         df_between=int(ow.df_between),
         df_within=int(ow.df_within),
         ms_between=float(msb),

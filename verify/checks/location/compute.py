@@ -253,6 +253,20 @@ def complete_batch(drafts: list[Draft]) -> None:
         dr.batch = None
 
 
+def rank_requests(kind, inp: CheckInput) -> list[tuple]:
+    """The rank statistics :func:`companions` will ask for, so that the evaluation can compute
+    those of all characteristics together (``verify.stats.batch.prefetch_ranks``)."""
+    data = inp.data
+    if data.candidate.values is None:
+        return []
+    if _one_sample(kind):
+        return [] if inp.ch.target is None else [
+            ("signed_rank", data.candidate.values, inp.ch.target)]
+    if data.pairs is not None or data.reference.values is None:
+        return []
+    return [("rank_sum", data.reference.values, data.candidate.values)]
+
+
 def companions(kind, inp: CheckInput, dr: Draft) -> list[DiagnosticResult]:
     """The rank-test companion of the t-test, for sensitivity; flagged when it disagrees."""
     res = dr.result
@@ -264,8 +278,8 @@ def companions(kind, inp: CheckInput, dr: Draft) -> list[DiagnosticResult]:
     alt = res.alternative if res.margin is None else "two-sided"
     try:
         if _one_sample(kind):
-            rt = nonparametric.wilcoxon_signed_rank(data.candidate.values - inp.ch.target,
-                                                    alternative=alt)
+            rt = nonparametric.signed_rank_about(data.candidate.values, inp.ch.target,
+                                                 alternative=alt)
             group = data.candidate.name
         elif data.pairs is not None:
             pv = data.pairs

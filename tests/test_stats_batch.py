@@ -1,0 +1,170 @@
+"""The per-sample diagnostics and rank statistics computed for many samples at once
+(``verify.stats.batch``) equal the one-sample functions' results bit for bit, on random data and
+on the edge cases (ties, long runs, an outlier, points beyond the chart limits, n = 2 and 3,
+constant data, values at the centre line, zero differences, non-finite values, lengths with a
+single sample).
+
+The reference is the one-sample route of this package (``individuals_chart``,
+``anderson_darling``, ``shapiro_wilk``, ``grubbs``, ``wilcoxon_signed_rank``,
+``mann_whitney``), itself checked against published values and scipy in
+tests/test_stats_diagnostics.py and tests/test_stats_nonparametric.py.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from verify.stats import _memo, batch
+from verify.stats.diagnostics import anderson_darling, grubbs, individuals_chart, shapiro_wilk
+from verify.stats.errors import StatsError
+
+
+def _plain(fn, x, **kw):
+    try:
+        return fn(np.array(x, dtype=float), **kw)  # a writeable copy: never remembered
+    except StatsError as err:
+        return type(err), str(err)
+
+
+def _batched(fn, x, **kw):
+    try:
+        return fn(x, **kw)
+    except StatsError as err:
+        return type(err), str(err)
+
+
+def _samples():
+    rng = np.random.default_rng(2024)
+    out = []
+    for n in (30, 30, 30, 12, 12, 50):
+        out.append(rng.normal(10.0, 0.01, n))
+        out.append(np.round(rng.normal(10.0, 0.01, n), 2))  # many ties
+    x = rng.normal(0.0, 1.0, 30)
+    x[7] = 9.0  # an outlier beyond the chart limits
+    out.append(x)
+    out.append(np.r_[np.full(15, 1.0), np.full(15, 2.0)])  # two long runs
+    out.append(np.r_[np.arange(10.0), np.full(20, 4.5)])  # values on the centre line
+    out.append(np.array([1.0, 1.0, 1.0, 1.0, 2.0, 1.0, 1.0, 1.0]))
+    out.append(np.full(30, 3.25))  # constant: refused by the one-sample route
+    out.append(np.array([1.0, 2.0]))  # n = 2
+    out.append(np.array([1.0, 2.0]))
+    out.append(np.array([1.0, 2.0, 4.0]))  # n = 3
+    out.append(np.array([5.0, 2.0, 4.0]))
+    out.append(np.array([1.0, np.nan, 2.0, 3.0, 4.0, 5.0, 6.0, 7.0]))  # refused
+    out.append(np.array([1.0, np.inf, 2.0, 3.0, 4.0, 5.0, 6.0, 7.0]))
+    out.append(np.array([1e200, 2e200, 3e200, 4e200, 5e200, 6e200, 7e200, 8e200]))
+    out.append(np.array([0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9]))  # a length alone
+    out.append(rng.normal(0.0, 1e-9, 30) + 1e6)
+    return out
+
+
+def test_batched_diagnostics_equal_the_one_sample_ones():
+    samples = _samples()
+    frozen = [_memo.freeze(x.copy()) for x in samples]
+    _memo.forget()
+    batch.prefetch(frozen + [None, np.arange(5.0)])  # None and writeable arrays are skipped
+    remembered = sum(_memo.recall("individuals_chart", x) is not None for x in frozen)
+    assert remembered >= 15  # the batched route did run
+    for x, f in zip(samples, frozen, strict=True):
+        assert _batched(individuals_chart, f) == _plain(individuals_chart, x)
+        assert _batched(anderson_darling, f) == _plain(anderson_darling, x)
+        assert _batched(shapiro_wilk, f) == _plain(shapiro_wilk, x)
+        assert _batched(grubbs, f) == _plain(grubbs, x)
+        assert _batched(grubbs, f, alternative="greater") == _plain(grubbs, x,
+                                                                   alternative="greater")
+    _memo.forget()
+
+
+@pytest.mark.parametrize("seed", range(5))
+def test_batched_diagnostics_on_random_layouts(seed):
+    rng = np.random.default_rng(seed)
+    n = int(rng.integers(3, 80))
+    samples = [np.round(rng.normal(0.0, float(rng.uniform(0.001, 10.0)), n),
+                        int(rng.integers(1, 6))) for _ in range(int(rng.integers(2, 40)))]
+    frozen = [_memo.freeze(x.copy()) for x in samples]
+    _memo.forget()
+    batch.prefetch(frozen)
+    for x, f in zip(samples, frozen, strict=True):
+        assert _batched(individuals_chart, f) == _plain(individuals_chart, x)
+        assert _batched(anderson_darling, f) == _plain(anderson_darling, x)
+        assert _batched(shapiro_wilk, f) == _plain(shapiro_wilk, x)
+        assert _batched(grubbs, f) == _plain(grubbs, x)
+    _memo.forget()
+
+
+def test_the_moving_range_the_capability_reads_is_the_charts():
+    from verify.stats.capability import capability
+
+    rng = np.random.default_rng(8)
+    xs = [rng.normal(10.0, 0.01, 25) for _ in range(4)]
+    plain = [capability(x.copy(), lower=9.95, upper=10.05, target=10.0) for x in xs]
+    frozen = [_memo.freeze(x.copy()) for x in xs]
+    _memo.forget()
+    batch.prefetch(frozen)
+    assert all(_memo.recall("mr_bar", f) is not None for f in frozen)
+    assert [capability(f, lower=9.95, upper=10.05, target=10.0) for f in frozen] == plain
+    _memo.forget()
+
+
+def _rank_cases():
+    rng = np.random.default_rng(99)
+    xs = [rng.normal(10.0, 0.01, 30) for _ in range(4)]
+    xs += [np.round(rng.normal(10.0, 0.01, 30), 3) for _ in range(4)]  # ties
+    xs += [np.round(rng.normal(10.0, 0.01, 30), 2)]  # many ties, zero differences from 10
+    xs += [np.full(30, 10.0), np.full(30, 10.5)]  # constant (all zero differences once)
+    xs += [10.0 + np.r_[np.full(15, -0.01), np.full(15, 0.01)]]  # two tie groups
+    return xs
+
+
+@pytest.mark.parametrize("target", [10.0, 10.004, 0.0])
+def test_batched_signed_ranks_equal_the_one_sample_route(target):
+    from verify.stats.nonparametric import signed_rank_about, wilcoxon_signed_rank
+
+    xs = _rank_cases()
+    frozen = [_memo.freeze(x.copy()) for x in xs]
+    _memo.forget()
+    batch.prefetch_ranks([("signed_rank", f, target) for f in frozen]
+                         + [("signed_rank", np.arange(4.0), 1.0), ("other", None, None)])
+    assert sum(_memo.recall("signed_rank", f) is not None for f in frozen) >= 6
+    for x, f in zip(xs, frozen, strict=True):
+        for alt in ("two-sided", "less", "greater"):
+            assert _batched(signed_rank_about, f, target=target, alternative=alt) == \
+                _plain(wilcoxon_signed_rank, x - target, alternative=alt)
+    _memo.forget()
+
+
+def test_batched_signed_ranks_at_small_and_large_n():
+    from verify.stats.nonparametric import signed_rank_about, wilcoxon_signed_rank
+
+    rng = np.random.default_rng(4)
+    for n in (2, 3, 7, 50):
+        xs = [np.round(rng.normal(0.0, 1.0, n), 1) + 0.05 for _ in range(6)]
+        frozen = [_memo.freeze(x.copy()) for x in xs]
+        _memo.forget()
+        batch.prefetch_ranks([("signed_rank", f, 0.0) for f in frozen])
+        for x, f in zip(xs, frozen, strict=True):
+            assert _batched(signed_rank_about, f, target=0.0) == _plain(wilcoxon_signed_rank, x)
+    _memo.forget()
+
+
+@pytest.mark.parametrize(("n_old", "n_new"), [(30, 30), (12, 20), (2, 3), (60, 55)])
+def test_batched_rank_sums_equal_the_one_sample_route(n_old, n_new):
+    from verify.stats.nonparametric import mann_whitney
+
+    rng = np.random.default_rng(n_old * 100 + n_new)
+    pairs = []
+    for digits in (6, 3, 2, 2, 1):
+        pairs.append((np.round(rng.normal(10.0, 0.01, n_old), digits),
+                      np.round(rng.normal(10.003, 0.01, n_new), digits)))
+    pairs.append((np.full(n_old, 4.0), np.full(n_new, 4.0)))  # identical: refused
+    pairs.append((np.full(n_old, 4.0), np.full(n_new, 5.0)))
+    frozen = [(_memo.freeze(a.copy()), _memo.freeze(b.copy())) for a, b in pairs]
+    _memo.forget()
+    batch.prefetch_ranks([("rank_sum", a, b) for a, b in frozen])
+    assert sum(_memo.recall("rank_sum", a) is not None for a, _ in frozen) >= 5
+    for (a, b), (fa, fb) in zip(pairs, frozen, strict=True):
+        for alt in ("two-sided", "less", "greater"):
+            assert _batched(mann_whitney, fa, new=fb, alternative=alt) == \
+                _plain(mann_whitney, a, new=b.copy(), alternative=alt)
+    _memo.forget()

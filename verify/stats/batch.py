@@ -1,0 +1,295 @@
+"""Per-sample diagnostics of many samples at once, remembered for the one-sample calls.
+
+A dimensional layout measures the same parts on every characteristic: an evaluation hands
+hundreds of samples of one length to the same diagnostics. :func:`prefetch` stacks the
+read-only samples (:mod:`verify.stats._memo`) of each length into one array and computes
+the individuals chart, the Anderson-Darling test and the two-sided Grubbs test of every row
+together; each row's result is remembered, and :func:`~verify.stats.stability.individuals_chart`,
+:func:`~verify.stats.normality.anderson_darling` and :func:`~verify.stats.outliers.grubbs`
+return it for that sample.
+
+The results are the one-sample functions' own, bit for bit: the arithmetic is the same element
+by element, every reduction runs along a row of a C-contiguous array (numpy then sums each
+row exactly as it sums a 1-D array: pairwise, in the same order), and the scalar steps (the
+p-values, the limits) are the same Python code on the same numbers. A sample the one-sample
+function would refuse (too few values, no spread, non-finite values) is left to it, so that it
+raises its own error. tests/test_stats_batch.py holds the two routes together.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from scipy import special
+
+from . import _memo, nonparametric
+from .core import MAX_MAGNITUDE, mean_sd
+from .normality import NormalityResult, _ad_pvalue
+from .outliers import _GRUBBS_SIDE, GRUBBS_MIN_N, GrubbsResult, grubbs_pvalue
+from .range_constants import D2_TABLE
+from .samples import RESOLUTION_DIGITS
+from .stability import StabilityResult
+
+MIN_ROWS = 2  # fewer samples of a length gain nothing from stacking
+
+
+def prefetch(samples) -> None:
+    """Compute and remember the per-sample diagnostics of every read-only sample given.
+
+    Samples that are not read-only, or whose diagnostics are remembered already, are skipped;
+    so are lengths with fewer than :data:`MIN_ROWS` samples.
+    """
+    by_n: dict[int, dict[int, np.ndarray]] = {}
+    for x in samples:
+        if (x is None or not _memo.frozen(x) or x.ndim != 1 or x.dtype != np.float64
+                or _memo.recall("individuals_chart", x) is not None):
+            continue
+        by_n.setdefault(x.size, {})[id(x)] = x
+    for n, group in by_n.items():
+        if len(group) >= MIN_ROWS and n >= 3:
+            _stacked(list(group.values()), n)
+
+
+def _stacked(rows: list[np.ndarray], n: int) -> None:
+    x = np.stack(rows)  # (k, n), C-contiguous
+    # finite, within the magnitude mean_sd accepts, with a spread: what every diagnostic here
+    # needs (anything else goes to the one-sample route and its error; NaN fails the tests)
+    lo, hi = np.minimum.reduce(x, axis=1), np.maximum.reduce(x, axis=1)
+    ok = (-MAX_MAGNITUDE <= lo) & (hi <= MAX_MAGNITUDE) & (lo != hi)
+    keep = []
+    for r, good in enumerate(ok.tolist()):
+        if good:
+            sd = mean_sd(rows[r])[2]  # remembered: computed once per sample anyway
+            keep.append(math.isfinite(sd) and sd > 0.0)
+        else:
+            keep.append(False)
+    if sum(keep) < MIN_ROWS:
+        return
+    if not all(keep):
+        rows = [r for r, good in zip(rows, keep, strict=True) if good]
+        x = x[np.array(keep)]
+    summaries = [mean_sd(r) for r in rows]
+    m = np.array([s[1] for s in summaries])
+    s = np.array([s[2] for s in summaries])
+    _charts(rows, x, m, n)
+    if n <= 5000:
+        _shapiro_wilk(rows, x, n)
+    if n >= 8:
+        _anderson_darling(rows, x, m, s, n)
+    if n >= GRUBBS_MIN_N:
+        _grubbs(rows, x, m, s, n)
+
+
+def _charts(rows, x, m, n) -> None:
+    """individuals_chart of each row (see stability.individuals_chart)."""
+    mr = np.add.reduce(np.ascontiguousarray(np.abs(x[:, 1:] - x[:, :-1])), axis=1)
+    centre_col = m[:, None]
+    sign = np.sign(x - centre_col).astype(int)
+    # the run each value belongs to, numbered across all rows, and each run's length
+    change = np.ones(sign.shape, dtype=bool)
+    np.not_equal(sign[:, 1:], sign[:, :-1], out=change[:, 1:])
+    run_id = np.cumsum(change.ravel()).reshape(sign.shape) - 1
+    run_len = np.bincount(run_id.ravel())[run_id]
+    run_len[sign == 0] = 0
+    longest = run_len.max(axis=1).tolist()
+    lo_hi = np.column_stack((np.minimum.reduce(x, axis=1), np.maximum.reduce(x, axis=1))).tolist()
+    start = run_len.argmax(axis=1).tolist()
+    for i, a in enumerate(rows):
+        mr_bar = float(mr[i]) / (n - 1)
+        if not mr_bar > 0.0:
+            continue  # the one-sample route raises its own error
+        _memo.remember("mr_bar", a, mr_bar)
+        centre = float(m[i])
+        sigma = mr_bar / D2_TABLE[2]
+        ucl, lcl = centre + 3.0 * sigma, centre - 3.0 * sigma
+        beyond = tuple(np.flatnonzero((a > ucl) | (a < lcl)).tolist()) if (
+            lo_hi[i][0] < lcl or lo_hi[i][1] > ucl) else ()
+        if longest[i] == 0:
+            length, side, first = 0, None, None
+        else:
+            length, first = int(longest[i]), int(start[i])
+            side = "above" if sign[i, first] > 0 else "below"
+        _memo.remember("individuals_chart", a, StabilityResult(
+            n=int(n), centre=centre, mr_bar=mr_bar, sigma=float(sigma), ucl=float(ucl),
+            lcl=float(lcl), beyond=beyond, longest_run=length, run_side=side, run_start=first))
+
+
+def _shapiro_wilk(rows, x, n) -> None:
+    """shapiro_wilk of each row (see normality._swilk): the rows sorted together, less each
+    sample's own middle value, then scipy's routine row by row."""
+    try:
+        from scipy.stats._ansari_swilk_statistics import swilk
+    except ImportError:  # pragma: no cover - left to the one-sample route
+        return
+    y = np.sort(x, axis=1)
+    y -= x[:, n // 2][:, None]
+    for r, a in enumerate(rows):
+        w, pw, _ = swilk(y[r], np.zeros(n // 2, dtype=np.float64), 0)
+        _memo.remember("shapiro_wilk", a, NormalityResult(
+            method="Shapiro-Wilk normality test", statistic=float(w),
+            pvalue=float(min(1.0, max(0.0, float(pw)))), n=int(n)))
+
+
+def _anderson_darling(rows, x, m, s, n) -> None:
+    """anderson_darling of each row (see normality.anderson_darling)."""
+    w = np.sort((x - m[:, None]) / s[:, None], axis=1)
+    i = np.arange(1, n + 1)
+    terms = np.ascontiguousarray(
+        (2 * i - 1) * (special.log_ndtr(w) + special.log_ndtr(-w[:, ::-1])))
+    sums = np.add.reduce(terms, axis=1).tolist()
+    for a, total in zip(rows, sums, strict=True):
+        a2 = float(-n - np.float64(total) / n)
+        a_star = a2 * (1.0 + 0.75 / n + 2.25 / n**2)
+        _memo.remember("anderson_darling", a, NormalityResult(
+            method="Anderson-Darling normality test (mean and sd estimated)", statistic=a2,
+            pvalue=_ad_pvalue(a_star), n=int(n), adjusted_statistic=float(a_star)))
+
+
+def _grubbs(rows, x, m, s, n) -> None:
+    """The two-sided grubbs of each row (see outliers.grubbs)."""
+    idx = np.argmax(np.abs(x - m[:, None]), axis=1).tolist()
+    for r, (a, j) in enumerate(zip(rows, idx, strict=True)):
+        mi, si = float(m[r]), float(s[r])
+        g = float(abs(a[j] - mi) / si)
+        _memo.remember("grubbs two-sided", a, GrubbsResult(
+            method=f"Grubbs outlier test ({_GRUBBS_SIDE['two-sided']})", statistic=g,
+            index=j, value=float(a[j]), n=int(n), alternative="two-sided",
+            pvalue=grubbs_pvalue(g, n, alternative="two-sided")))
+
+
+# --- rank tests ------------------------------------------------------------------------------
+
+
+def prefetch_ranks(requests) -> None:
+    """Compute and remember the rank-test statistics of many samples together.
+
+    ``requests`` holds ``("signed_rank", x, target)`` (the signed-rank test of ``x - target``,
+    zeros dropped: :func:`~verify.stats.nonparametric.signed_rank_about`) and
+    ``("rank_sum", old, new)`` (:func:`~verify.stats.nonparametric.mann_whitney`), for
+    read-only samples; anything else, and any row the one-sample route would treat apart
+    (non-finite values, zero differences, identical values, values near the float floor), is
+    left to the one-sample route.
+    """
+    signed: dict[tuple, list] = {}
+    pairs: dict[tuple, list] = {}
+    for kind, x, y in requests:
+        if kind == "signed_rank" and _memo.frozen(x) and x.ndim == 1 and x.dtype == np.float64:
+            if _memo.recall("signed_rank", x) is None:
+                signed.setdefault(x.size, {})[(id(x), float(y))] = (x, float(y))
+        elif (kind == "rank_sum" and _memo.frozen(x) and _memo.frozen(y) and x.ndim == 1
+              and y.ndim == 1 and x.dtype == np.float64 and y.dtype == np.float64):
+            if _memo.recall("rank_sum", x) is None:
+                pairs.setdefault((x.size, y.size), {})[(id(x), id(y))] = (x, y)
+    for n, group in signed.items():
+        if len(group) >= MIN_ROWS and 2 <= n <= nonparametric.EXACT_MAX_N:
+            _signed_ranks(list(group.values()), n)
+    for (n_old, n_new), group in pairs.items():
+        if len(group) >= MIN_ROWS and n_old >= 1 and n_new >= 1:
+            _rank_sums(list(group.values()), n_old, n_new)
+
+
+def _snapped(d: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """samples.snap_to_grid of each row, and which rows it handles as the usual case (a
+    positive largest magnitude, a quantum above the float floor, finite values)."""
+    scale = np.maximum.reduce(np.abs(d), axis=1).tolist()
+    quanta, ok = [], []
+    for ref in scale:
+        good = math.isfinite(ref) and ref > 0.0
+        q = 10.0 ** (math.floor(math.log10(ref)) - (RESOLUTION_DIGITS - 1)) if good else 1.0
+        good = good and q >= 1e-290
+        quanta.append(q if good else 1.0)
+        ok.append(good)
+    return np.round(d / np.array(quanta)[:, None]), np.array(ok, dtype=bool)
+
+
+def _average_ranks(a: np.ndarray):
+    """nonparametric.average_ranks of each row: the ranks, the size of each value's group of
+    equal values (in sorted order) and where a group starts (in sorted order)."""
+    k, width = a.shape
+    order = np.argsort(a, axis=1, kind="stable")
+    s = np.take_along_axis(a, order, axis=1)
+    new_value = np.ones((k, width), dtype=bool)
+    np.not_equal(s[:, 1:], s[:, :-1], out=new_value[:, 1:])
+    run_id = np.cumsum(new_value.ravel()).reshape(k, width) - 1
+    size = np.bincount(run_id.ravel())[run_id]
+    pos = np.broadcast_to(np.arange(width), (k, width))
+    start = np.maximum.accumulate(np.where(new_value, pos, 0), axis=1)
+    ranks = np.empty((k, width))
+    # a group of size t starting at 0-based position i holds ranks i+1 .. i+t: average
+    # i + (t + 1) / 2, the same float as the one-sample route's
+    np.put_along_axis(ranks, order, start + (size + 1) / 2.0, axis=1)
+    return ranks, size, new_value
+
+
+def _ties(size: np.ndarray, new_value: np.ndarray):
+    tied = size > 1
+    return (tied & new_value).sum(axis=1).tolist(), tied.sum(axis=1).tolist()
+
+
+def _row_medians(v: np.ndarray) -> list[float]:
+    """samples.median of each row: order statistics, whatever selection finds them."""
+    h = v.shape[1] // 2
+    if v.shape[1] % 2:
+        return [float(x) for x in np.partition(v, h, axis=1)[:, h]]
+    p = np.partition(v, (h - 1, h), axis=1)
+    return [float((lo + hi) / 2.0) for lo, hi in zip(p[:, h - 1], p[:, h], strict=True)]
+
+
+def _signed_ranks(rows: list[tuple[np.ndarray, float]], n: int) -> None:
+    x = np.stack([r[0] for r in rows])
+    d = x - np.array([r[1] for r in rows])[:, None]  # x - target, element by element
+    units, ok = _snapped(d)
+    ok &= np.logical_and.reduce(np.isfinite(d), axis=1)
+    ok &= np.logical_and.reduce(units != 0, axis=1)  # a zero difference: the one-sample route
+    if not ok.any():
+        return
+    d, units = d[ok], units[ok]
+    rows = [r for r, good in zip(rows, ok.tolist(), strict=True) if good]
+    ranks, size, new_value = _average_ranks(np.abs(units))
+    # the ranks are halves far below 2^53: their sum is exact in any order
+    w_plus = np.where(units > 0, ranks, 0.0).sum(axis=1).tolist()
+    groups, tied_values = _ties(size, new_value)
+    estimates = [None] * len(rows)
+    if n * (n + 1) // 2 <= nonparametric.HL_MAX_PAIRS:
+        i, j = nonparametric._upper_pairs(n)
+        estimates = _row_medians((d[:, i] + d[:, j]) / 2.0)
+    fn = float(n)
+    for r, (x_r, target) in enumerate(rows):
+        exact = groups[r] == 0  # n <= EXACT_MAX_N and no zeros here
+        mean = se = None
+        if not exact:
+            mean = fn * (fn + 1.0) * 0.25
+            var = fn * (fn + 1.0) * (2.0 * fn + 1.0)
+            se = nonparametric._signed_rank_se(var, size[r][new_value[r]])
+        _memo.remember("signed_rank", x_r, (target, nonparametric._SignedRank(
+            float(w_plus[r]), n, 0, int(groups[r]), int(tied_values[r]), bool(exact), n, mean,
+            se, estimates[r], "wilcox")))
+
+
+def _rank_sums(rows: list[tuple[np.ndarray, np.ndarray]], n_old: int, n_new: int) -> None:
+    old = np.stack([r[0] for r in rows])
+    new = np.stack([r[1] for r in rows])
+    both = np.concatenate((old, new), axis=1)
+    units, ok = _snapped(both)
+    ok &= np.logical_and.reduce(np.isfinite(both), axis=1)
+    ok &= ~np.logical_and.reduce(units == units[:, :1], axis=1)  # identical: the one route
+    if not ok.any():
+        return
+    old, new, units = old[ok], new[ok], units[ok]
+    rows = [r for r, good in zip(rows, ok.tolist(), strict=True) if good]
+    ranks, size, new_value = _average_ranks(units)
+    rank_sums = ranks[:, n_old:].sum(axis=1).tolist()  # exact: halves far below 2^53
+    groups, tied_values = _ties(size, new_value)
+    estimates = [None] * len(rows)
+    if n_old * n_new <= nonparametric.HL_MAX_PAIRS:
+        estimates = _row_medians((new[:, :, None] - old[:, None, :]).reshape(len(rows), -1))
+    small = n_old < nonparametric.EXACT_MAX_N and n_new < nonparametric.EXACT_MAX_N
+    for r, (a, b) in enumerate(rows):
+        exact = groups[r] == 0 and small
+        u_new = float(np.float64(rank_sums[r]) - n_new * (n_new + 1) / 2.0)
+        se = None if exact else nonparametric._rank_sum_se(n_old, n_new,
+                                                            size[r][new_value[r]])
+        _memo.remember("rank_sum", a, (b, nonparametric._RankSum(
+            u_new, n_old, n_new, int(groups[r]), int(tied_values[r]), bool(exact), se,
+            estimates[r])))
