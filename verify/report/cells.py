@@ -19,7 +19,15 @@ from collections.abc import Iterable
 import numpy as np
 from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 
-from .cell_styles import align_top, alignment_of, font_of, merge, row_dimension, style
+from .cell_styles import (
+    align_top,
+    alignment_of,
+    cell_at,
+    font_of,
+    merge,
+    row_dimension,
+    style,
+)
 from .safe_text import XML_ILLEGAL as XML_ILLEGAL  # re-exported for the sheet writers
 from .safe_text import xml_safe
 
@@ -152,15 +160,22 @@ def put(
     Strings are forced to the text type (no formulas, no error values). Numbers keep full
     precision; ``fmt`` sets only how they look.
     """
-    cell = ws._cells.get((row, col))
-    if cell is None:
-        cell = ws.cell(row=row, column=col)
+    cell = cell_at(ws, row, col)
     # Values are stored as openpyxl's ``cell.value = ...`` stores them (its type codes: "n"
     # number, "b" logical, "s" text) without its per-value type dispatch; text has been made
     # safe by clean_text, which leaves nothing for openpyxl's own check of text to refuse.
     number = None  # the number format, set only on a number
     right = False
-    if value is None:
+    kind = type(value)
+    if kind is str:  # the common types first, then the general tests below
+        cell._value, cell.data_type = clean_text(value), "s"
+    elif kind is float and math.isfinite(value):
+        cell._value, cell.data_type = value, "n"
+        number = fmt or None
+    elif kind is int:
+        cell._value, cell.data_type = value, "n"
+        number = fmt or None
+    elif value is None:
         pass
     elif isinstance(value, (bool, np.bool_)):
         cell._value, cell.data_type = bool(value), "b"
