@@ -270,7 +270,8 @@ def stage_outputs(ev: Evaluation, workbook: Path, result: Path, *,
     again (and syncs it) before the commit: the nightly run adds the ledger's anchor.
     """
     from .audit import sha256_file
-    from .report.json_result import dumps, result_dict, with_key
+    from .report.json_result import result_dict
+    from .report.json_text import dumps, with_key
     from .report.workbook import write_workbook
 
     tmp_wb = _temp_beside(workbook)
