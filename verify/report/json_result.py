@@ -16,7 +16,7 @@ import numpy as np
 
 from ..model import CheckResult, DiagnosticResult, Evaluation
 from .hooks import report_hook
-from .json_text import dumps, with_key  # noqa: F401 - the result's text (json_text)
+from .json_text import _string, dumps, with_key  # noqa: F401 - the result's text (json_text)
 
 FORMAT = "verify-result/1"
 
@@ -175,6 +175,70 @@ def traceability(ev: Evaluation) -> dict | None:
 
 def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
     """The JSON result as a dict. ``workbook`` adds {path, sha256} of the workbook written."""
+    return _clean(_document(ev, workbook))
+
+
+def result_text(ev: Evaluation) -> str:
+    """``dumps(result_dict(ev))``, written in one pass: the values are cleaned as they are
+    written (:func:`_encode_clean`), without building the cleaned copy of the document."""
+    out: list[str] = []
+    _encode_clean(_document(ev, None), "\n", out)
+    out.append("\n")
+    return "".join(out)
+
+
+def _encode_clean(o, nl: str, out: list[str]) -> None:
+    """Append the text ``dumps`` writes for ``_clean(o)`` (the same rules, value by value)."""
+    t = type(o)
+    if t is str:
+        out.append(_string(o))
+    elif o is None:
+        out.append("null")
+    elif t is float:
+        out.append(float.__repr__(o) if math.isfinite(o) else "null")
+    elif t is int:
+        out.append(int.__repr__(o))
+    elif o is True:
+        out.append("true")
+    elif o is False:
+        out.append("false")
+    elif t is dict or isinstance(o, Mapping):
+        if not o:
+            out.append("{}")
+            return
+        mark = len(out)
+        inner = nl + "  "
+        sep = "{" + inner
+        for k, v in o.items():
+            if type(k) is not str:  # as _clean: keys made text, a later equal key wins
+                del out[mark:]
+                _encode_clean({str(k): v for k, v in o.items()}, nl, out)
+                return
+            out.append(sep)
+            out.append(_string(k))
+            out.append(": ")
+            _encode_clean(v, inner, out)
+            sep = "," + inner
+        out.append(nl + "}")
+    elif t is list or t is tuple or isinstance(o, (list, tuple)):
+        if not o:
+            out.append("[]")
+            return
+        inner = nl + "  "
+        sep = "[" + inner
+        for v in o:
+            out.append(sep)
+            _encode_clean(v, inner, out)
+            sep = "," + inner
+        out.append(nl + "]")
+    elif isinstance(o, str):
+        out.append(_string(o))
+    else:
+        _encode_clean(_num(o), nl, out)
+
+
+def _document(ev: Evaluation, workbook: Mapping | None) -> dict:
+    """The JSON result before :func:`_clean` (numpy numbers, tuples, non-finite floats)."""
     spec = ev.spec
     run = ev.run
     doc = {
@@ -286,4 +350,4 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
     }
     if workbook is not None:
         doc["workbook"] = dict(workbook)
-    return _clean(doc)
+    return doc
