@@ -12,9 +12,11 @@ with its time and peak memory (goal: under 45 s and 1 GB), and how its workbook'
 sheet meets Excel's 1,048,576-row limit.
 
 Every run is the real command in a fresh process (``python -m verify.nightly``), so the times
-include interpreter start-up and imports. Peak memory is the largest resident set of the
-command and its worker processes (``resource.getrusage(RUSAGE_CHILDREN).ru_maxrss`` measured in
-a small wrapper process, so one run's peak is not mixed with another's).
+include interpreter start-up and imports. CPU is the user + system time of the command and all
+its worker processes (steadier than the wall time on a shared machine). Peak memory is the
+largest resident set of the command and its worker processes
+(``resource.getrusage(RUSAGE_CHILDREN).ru_maxrss`` measured in a small wrapper process, so one
+run's peak is not mixed with another's).
 
 Usage::
 
@@ -43,8 +45,10 @@ _WRAPPER = (
     "t0 = time.perf_counter()\n"
     "p = subprocess.run(sys.argv[1:], stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)\n"
     "dt = time.perf_counter() - t0\n"
-    "peak = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss\n"
+    "ru = resource.getrusage(resource.RUSAGE_CHILDREN)\n"
+    "peak, cpu = ru.ru_maxrss, ru.ru_utime + ru.ru_stime\n"
     "import json; print(json.dumps({'rc': p.returncode, 'seconds': dt, 'peak_kib': peak,\n"
+    "                               'cpu': cpu,\n"
     "                               'stdout': p.stdout[-2000:], 'stderr': p.stderr[-2000:]}))\n"
 )
 
@@ -187,8 +191,9 @@ def main(argv: list[str] | None = None) -> None:
             for label, res, goal in (("first run", first, ""),
                                      ("all unchanged", same, "  (goal < 2 s)"),
                                      ("one spec changed", one, "")):
-                print(f"  --jobs {jobs}  {label:<17} {res['seconds']:7.2f} s  largest process "
-                      f"{res['peak_kib'] / 1024:6.0f} MiB  [{_summary_line(res)}]{goal}")
+                print(f"  --jobs {jobs}  {label:<17} {res['seconds']:7.2f} s  CPU "
+                      f"{res['cpu']:6.2f} s  largest process {res['peak_kib'] / 1024:6.0f} MiB  "
+                      f"[{_summary_line(res)}]{goal}")
         if opts.large:
             big = tmp / "large"
             t0 = time.perf_counter()
@@ -196,7 +201,8 @@ def main(argv: list[str] | None = None) -> None:
             gen = time.perf_counter() - t0
             res = run(big / "specs", big / "out")
             print(f"large spec: {opts.large:,} measurements (data generated in {gen:.1f} s): "
-                  f"{res['seconds']:.2f} s, largest process {res['peak_kib'] / 1024:.0f} MiB "
+                  f"{res['seconds']:.2f} s (CPU {res['cpu']:.2f} s), largest process "
+                  f"{res['peak_kib'] / 1024:.0f} MiB "
                   "(goal < 45 s and < 1024 MiB)")
             sheets = _measurement_sheets(big / "out")
             limit = 1_048_576

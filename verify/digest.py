@@ -159,14 +159,19 @@ def write_digest(path: Path, rows: Sequence[DigestRow], *, run: Sequence[tuple[s
 
     from .report.cells import clean_text
 
-    def put(r: int, c: int, value, **style):
+    stamps = _Stamps()
+
+    def put(r: int, c: int, value, key=None, **style):
         if isinstance(value, str):
             value = clean_text(value)  # spec paths and messages may hold control characters
         cell = ws.cell(row=r, column=c, value=value)
         if isinstance(value, str):
             cell.data_type = "s"  # text from input files is never a formula
-        for k, v in style.items():
-            setattr(cell, k, v)
+        if key is not None:
+            stamps.apply(cell, key, style)
+        else:
+            for k, v in style.items():
+                setattr(cell, k, v)
         return cell
 
     put(1, 1, "Nightly digest", font=Font(bold=True, size=14))
@@ -183,7 +188,9 @@ def write_digest(path: Path, rows: Sequence[DigestRow], *, run: Sequence[tuple[s
     for i, row in enumerate(rows, start=header_row + 1):
         values = _values(row)
         for c, (h, v) in enumerate(zip(_HEADERS, values, strict=True), start=1):
-            put(i, c, v, alignment=Alignment(vertical="top", wrap_text=h in WRAPPED))
+            wrap = h in WRAPPED
+            put(i, c, v, key=("row", wrap),
+                alignment=Alignment(vertical="top", wrap_text=wrap))
         key = "ERROR" if row.state == "ERROR" else row.decision
         if key in _FILL:
             fill = PatternFill("solid", fgColor=_FILL[key])
@@ -225,6 +232,31 @@ def write_digest(path: Path, rows: Sequence[DigestRow], *, run: Sequence[tuple[s
     wb.save(path)
 
 
+class _Stamps:
+    """Cell styles set once per kind of cell, then copied to the cells of that kind.
+
+    openpyxl hashes and compares a style object against its registry on every assignment;
+    copying the first cell's style ids (what the assignments stored) gives every later cell of
+    the kind the same styles, in the same file, without that work.
+    """
+
+    def __init__(self):
+        self._ids: dict = {}
+
+    def apply(self, cell, key, style: dict) -> None:
+        """Give ``cell`` (fresh, unstyled) the styles in ``style`` (attribute: value), which are
+        the same for every cell of ``key``."""
+        from copy import copy
+
+        ids = self._ids.get(key)
+        if ids is None:
+            for k, v in style.items():
+                setattr(cell, k, v)
+            self._ids[key] = copy(cell._style)
+        else:
+            cell._style = copy(ids)
+
+
 def _values(row: DigestRow) -> tuple:
     """The row's cells in _HEADERS order."""
     by = {
@@ -247,6 +279,9 @@ def _by_spec(ws, rows: Sequence[DigestRow]) -> None:
 
     ws.column_dimensions["A"].width = 22
     ws.column_dimensions["B"].width = 80
+    stamps = _Stamps()
+    label_style = {"font": Font(bold=True), "alignment": Alignment(vertical="top")}
+    value_style = {"alignment": Alignment(vertical="top", wrap_text=True, horizontal="left")}
     r = 1
     for row in rows:
         cell = ws.cell(row=r, column=1, value=row.name)
@@ -255,12 +290,11 @@ def _by_spec(ws, rows: Sequence[DigestRow]) -> None:
         for h, v in zip(_HEADERS[1:], _values(row)[1:], strict=True):
             if v in ("", None):
                 continue
-            ws.cell(row=r, column=1, value=h).font = Font(bold=True)
-            ws.cell(row=r, column=1).alignment = Alignment(vertical="top")
+            stamps.apply(ws.cell(row=r, column=1, value=h), "label", label_style)
             cell = ws.cell(row=r, column=2, value=v)
             if isinstance(v, str):
                 cell.data_type = "s"  # text from input files is never a formula
-            cell.alignment = Alignment(vertical="top", wrap_text=True, horizontal="left")
+            stamps.apply(cell, "value", value_style)
             lines = sum(max(1, -(-len(part) // 90)) for part in str(v).split("\n"))
             ws.row_dimensions[r].height = 15 * lines
             r += 1

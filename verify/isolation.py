@@ -65,6 +65,7 @@ def _worker_main(tasks, lifeline) -> None:  # pragma: no cover - runs in the wor
         try:
             func, arg = tasks.recv()
         except (EOFError, OSError):
+            _leave()
             return
         try:
             reply = ("ok", func(arg))
@@ -74,6 +75,23 @@ def _worker_main(tasks, lifeline) -> None:  # pragma: no cover - runs in the wor
             tasks.send(reply)
         except (OSError, ValueError):
             return
+
+
+def _leave() -> None:  # pragma: no cover - runs in the worker process
+    """End a worker whose pipe was closed (no job runs, every job's files are closed).
+
+    The interpreter's own shutdown (tearing down numpy, pandas, scipy, ...) takes most of a
+    second of a worker that evaluated specs, while its parent waits for it; there is nothing
+    left to clean up, so the process ends at once after flushing its standard streams.
+    """
+    import sys
+
+    for stream in (sys.stdout, sys.stderr):
+        try:
+            stream.flush()
+        except (AttributeError, OSError, ValueError):
+            pass
+    os._exit(0)
 
 
 class _Worker:
@@ -93,7 +111,7 @@ class _Worker:
         self.deadline = time.monotonic() + timeout
         self.tasks.send((job.func, job.arg))
 
-    def stop(self, *, kill: bool) -> None:
+    def stop(self, *, kill: bool, wait: bool = True) -> None:
         for conn in (self.tasks, self.lifeline):
             try:
                 conn.close()
@@ -101,6 +119,10 @@ class _Worker:
                 pass
         if kill and self.proc.is_alive():
             self.proc.kill()
+        if wait:
+            self.join()
+
+    def join(self) -> None:
         self.proc.join(KILL_WAIT)
         if self.proc.is_alive():  # pragma: no cover - a worker that ignores its lifeline
             self.proc.kill()
@@ -128,26 +150,71 @@ def run_isolated(jobs: Iterable[Job], *, workers: int, timeout: float,
     >>> dict(run_isolated([Job("a", abs, -2)], workers=1, timeout=60))  # doctest: +SKIP
     {'a': 2}
     """
-    import multiprocessing as mp
-    from multiprocessing.connection import wait
+    with Pool(workers=workers, timeout=timeout) as pool:
+        for job in jobs:
+            pool.submit(job)
+        for job, result in pool.results():
+            yield job.key, result
 
-    queue = list(jobs)
-    queue.reverse()  # pop() from the end keeps the given order
-    if not queue:
-        return
-    ctx = mp.get_context("spawn")
-    pool: list[_Worker] = []
-    idle: list[_Worker] = []
-    try:
-        for _ in range(min(workers, len(queue))):
-            w = _Worker(ctx)
-            pool.append(w)
-            idle.append(w)
-        while queue or any(w.job is not None for w in pool):
-            while queue and idle:
-                w = idle.pop()
-                w.give(queue.pop(), timeout)
-            busy = [w for w in pool if w.job is not None]
+
+class Pool:
+    """The pool behind :func:`run_isolated`, to which jobs may be added while results come in.
+
+    Jobs start in the order submitted; a worker is started when a job waits and fewer than
+    ``workers`` exist, and it keeps running further jobs (a worker that imported heavy
+    libraries for one job keeps them for the next). :meth:`results` yields ``(job, result)``
+    in completion order until no job waits or runs; a job submitted meanwhile (for instance in
+    answer to a result) is run in the same pass. Leaving the ``with`` block stops the workers
+    (killing any still busy).
+
+    Examples
+    --------
+    >>> with Pool(workers=2, timeout=60) as pool:  # doctest: +SKIP
+    ...     pool.submit(Job("a", abs, -2))
+    ...     [(job.key, result) for job, result in pool.results()]
+    [('a', 2)]
+    """
+
+    def __init__(self, *, workers: int, timeout: float):
+        import multiprocessing as mp
+        from collections import deque
+
+        self.workers = max(1, int(workers))
+        self.timeout = timeout
+        self._queue: deque[Job] = deque()
+        self._ctx = mp.get_context("spawn")
+        self._pool: list[_Worker] = []
+        self._idle: list[_Worker] = []
+
+    def __enter__(self) -> Pool:
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
+
+    def submit(self, job: Job) -> None:
+        """Queue ``job``; it starts when a worker is free (in the order submitted)."""
+        self._queue.append(job)
+
+    def _dispatch(self) -> None:
+        while self._queue and (self._idle or len(self._pool) < self.workers):
+            if self._idle:
+                w = self._idle.pop()
+            else:
+                w = _Worker(self._ctx)
+                self._pool.append(w)
+            w.give(self._queue.popleft(), self.timeout)
+
+    def results(self) -> Iterator[tuple[Job, Any]]:
+        """``(job, result)`` as each job finishes, until no job waits or runs."""
+        from multiprocessing.connection import wait
+
+        timeout = self.timeout
+        while True:
+            self._dispatch()
+            busy = [w for w in self._pool if w.job is not None]
+            if not busy:
+                return
             now = time.monotonic()
             wait_for = max(0.0, min(w.deadline for w in busy) - now)
             ready = wait([x for w in busy for x in (w.tasks, w.proc.sentinel)],
@@ -175,15 +242,20 @@ def run_isolated(jobs: Iterable[Job], *, workers: int, timeout: float,
                 job = w.job
                 w.job = None
                 if usable:
-                    idle.append(w)
-                else:
+                    self._idle.append(w)
+                else:  # a fresh worker takes the next job (started by _dispatch)
                     w.stop(kill=True)
-                    pool.remove(w)
-                    if queue:
-                        fresh = _Worker(ctx)
-                        pool.append(fresh)
-                        idle.append(fresh)
-                yield job.key, result
-    finally:
-        for w in pool:  # normal end: closing the pipes stops them; early end: kill
-            w.stop(kill=w.job is not None)
+                    self._pool.remove(w)
+                yield job, result
+
+    def close(self) -> None:
+        """Stop every worker: idle ones end when their pipes close, busy ones are killed.
+
+        All are told first and then waited for, so they wind down at the same time.
+        """
+        pool, self._pool, self._idle = self._pool, [], []
+        self._queue.clear()
+        for w in pool:
+            w.stop(kill=w.job is not None, wait=False)
+        for w in pool:
+            w.join()

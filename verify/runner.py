@@ -262,11 +262,15 @@ def _temp_beside(target: Path, suffix: str = ".part") -> Path:
 
 
 def stage_outputs(ev: Evaluation, workbook: Path, result: Path, *,
-                  detail: str = "auto") -> Staged:
+                  detail: str = "auto", sync_result: bool = True) -> Staged:
     """Write the workbook and the JSON result (which records the workbook's sha256) to
-    temporary files; :meth:`Staged.commit` renames them into place."""
+    temporary files; :meth:`Staged.commit` renames them into place.
+
+    ``sync_result=False`` leaves the temporary result unsynced, for a caller that writes it
+    again (and syncs it) before the commit: the nightly run adds the ledger's anchor.
+    """
     from .audit import sha256_file
-    from .report.json_result import dumps, result_dict
+    from .report.json_result import dumps, result_dict, with_key
     from .report.workbook import write_workbook
 
     tmp_wb = _temp_beside(workbook)
@@ -274,15 +278,19 @@ def stage_outputs(ev: Evaluation, workbook: Path, result: Path, *,
     extras: list[tuple[Path, Path]] = []
     try:
         extras = _stage_snapshots(ev, result)
+        # the document is built and written once: the workbook keeps it as its record, and the
+        # result file is the same text with the workbook's path and sha256 added at the end
+        record = dumps(result_dict(ev))
         # the workbook's zip and document times come from the run's start, so reruns under
         # SOURCE_DATE_EPOCH are byte-identical
-        write_workbook(ev, tmp_wb, record_json=dumps(result_dict(ev)), detail=detail)
+        write_workbook(ev, tmp_wb, record_json=record, detail=detail)
         _fsync(tmp_wb)
         digest = sha256_file(tmp_wb)
         tmp_res = _temp_beside(result)
-        doc = result_dict(ev, workbook={"path": str(workbook), "sha256": digest})
-        tmp_res.write_text(dumps(doc), encoding="utf-8")
-        _fsync(tmp_res)
+        text = with_key(record, "workbook", {"path": str(workbook), "sha256": digest})
+        tmp_res.write_text(text, encoding="utf-8")
+        if sync_result:
+            _fsync(tmp_res)
     except BaseException:
         for p in (tmp_wb, tmp_res, *(t for t, _ in extras)):
             if p is not None:

@@ -32,28 +32,34 @@ def history_paths(out_dir: Path, decision: str, run_id: str) -> tuple[Path, Path
         n += 1
 
 
+def ledger_anchor(ledger_path: Path, entry: Entry) -> dict | None:
+    """The result's ``ledger`` key: the ledger path, the entry's id, chain position and hash."""
+    if entry.row_hash is None:
+        return None
+    return {"path": str(ledger_path), "entry_id": entry.id, "chain_position": entry.chain_seq,
+            "head": entry.row_hash}
+
+
 def anchor_result(result_path: str | None, latest: Path | None, ledger_path: Path,
                   entry: Entry) -> None:
     """Add the ledger's chain head after this spec's entry to its result JSON (and latest.json).
 
-    The JSON is written before its ledger entry exists; the parent adds ``ledger`` (the ledger
-    path, the entry id, its chain position and hash) once the entry is stored, so a result
-    anchors the chain up to itself. Replay ignores this key.
+    The JSON is written before its ledger entry exists; the ``ledger`` key (the ledger path,
+    the entry id, its chain position and hash) is added once the entry is stored, so a result
+    anchors the chain up to itself. Replay ignores this key. (A nightly run adds it to the
+    staged result before renaming it into place: :func:`_commit`.)
     """
-    import json
-
+    from ..report.json_result import with_key
     from ..runner import write_text_atomic
 
-    if result_path is None or entry.row_hash is None:
+    anchor = ledger_anchor(ledger_path, entry)
+    if result_path is None or anchor is None:
         return
     path = Path(result_path)
     try:
-        doc = json.loads(path.read_text(encoding="utf-8"))
+        text = with_key(path.read_text(encoding="utf-8"), "ledger", anchor)
     except (OSError, ValueError):
         return  # the result stays as written; the ledger still holds the entry
-    doc["ledger"] = {"path": str(ledger_path), "entry_id": entry.id,
-                     "chain_position": entry.chain_seq, "head": entry.row_hash}
-    text = json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
     write_text_atomic(path, text)
     if latest is not None:
         write_text_atomic(latest, text)
@@ -101,9 +107,16 @@ def _clean_partials(out: Path) -> int:
     return n
 
 
-def _commit(entry: Entry, outcome: Outcome) -> str | None:
-    """Rename a spec's staged outputs into place (after its ledger entry is written) and
-    refresh its latest.json; the problem in words when that fails."""
+def _commit(entry: Entry, outcome: Outcome, ledger_path: Path) -> str | None:
+    """Anchor a spec's staged result to its ledger entry, rename the staged outputs into place
+    (after the entry is written) and refresh its latest.json; the problem in words when that
+    fails.
+
+    The worker left the result unsynced (``stage_outputs(sync_result=False)``): the anchored
+    text is written over it and synced here, before any rename, so the result appears in
+    place complete and anchored (one write, no later rewrite of the file in place).
+    """
+    from ..report.json_result import with_key
     from ..runner import Staged, commit_all, write_text_atomic
 
     if outcome.tmp_workbook is None or outcome.tmp_result is None:
@@ -113,10 +126,21 @@ def _commit(entry: Entry, outcome: Outcome) -> str | None:
                     outcome.workbook_sha256 or "",
                     tuple((Path(t), Path(g)) for t, g in outcome.tmp_extras))
     try:
+        try:
+            text = staged.tmp_result.read_text(encoding="utf-8")
+            anchor = ledger_anchor(ledger_path, entry) if entry.state == "RUN" else None
+            if anchor is not None:
+                text = with_key(text, "ledger", anchor)
+            with open(staged.tmp_result, "w", encoding="utf-8") as f:
+                f.write(text)
+                f.flush()
+                os.fsync(f.fileno())
+        except BaseException:
+            staged.discard()
+            raise
         commit_all([staged])
-        result = Path(outcome.result_path)
-        write_text_atomic(result.parent / "latest.json", result.read_text(encoding="utf-8"))
-    except (OSError, VerifyError) as exc:
+        write_text_atomic(staged.result.parent / "latest.json", text)
+    except (OSError, ValueError, VerifyError) as exc:
         return f"{entry.spec_path}: the result was recorded but could not be put in place: {exc}"
     return None
 

@@ -10,12 +10,13 @@ import os
 import sys
 import time
 import uuid
-from collections.abc import Iterator, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass, replace
 from pathlib import Path
 
 from .. import __version__
 from ..errors import UsageError
+from ..isolation import Failed, Pool
 from ..ledger import Entry, Ledger, LedgerLock, RunRow
 from .fingerprints import Probe, ProbeTask, probe
 from .history import (
@@ -24,7 +25,6 @@ from .history import (
     _digest_path,
     _output_names,
     _sweep_strays,
-    anchor_result,
 )
 from .record import _entry_from, _record_text, _unchanged
 from .tasks import (
@@ -32,11 +32,12 @@ from .tasks import (
     DEFAULT_OUT,
     DEFAULT_SPEC_TIMEOUT,
     QUARANTINE,
+    Outcome,
     Task,
     _stamp,
     _utc,
 )
-from .worker import _run_tasks
+from .worker import _outcome, _task_job
 
 
 @dataclass
@@ -105,22 +106,13 @@ def _triage(ledger: Ledger, ctx: _Context, path: Path, key: str, name: str,
         max_data_mb=ctx.max_data_mb, snapshot=ctx.snapshot)
 
 
-def _probes(specs: Sequence[tuple[Path, str]], ctx: _Context, jobs: int, timeout: float,
-            ) -> Iterator[tuple[str, Probe, str]]:
-    """Fingerprint every spec in workers (light: no heavy import); (key, probe, started)."""
-    from ..isolation import Failed, Job, run_isolated
+def _probe_jobs(specs: Sequence[Path], keys: Sequence[str], ctx: _Context) -> list:
+    """A fingerprinting job per spec (light: no heavy import in the worker)."""
+    from ..isolation import Job
 
-    started = {key: _utc() for _, key in specs}
-    job_list = [Job(key, probe, ProbeTask(str(path), ctx.results.get(key),
-                                          str(ctx.root) if ctx.root is not None else None,
-                                          ctx.max_data_mb))
-                for path, key in specs]
-    paths = {key: path for path, key in specs}
-    for key, result in run_isolated(job_list, workers=jobs, timeout=timeout):
-        if isinstance(result, Failed):
-            result = Probe(None, f"{paths[key]}: reading the spec and hashing its data files "
-                                 f"{result.reason}")
-        yield key, result, started[key]
+    root = str(ctx.root) if ctx.root is not None else None
+    return [Job(key, probe, ProbeTask(str(path), ctx.results.get(key), root, ctx.max_data_mb))
+            for path, key in zip(specs, keys, strict=True)]
 
 
 def _exit_status(rows: Sequence) -> int:
@@ -199,37 +191,67 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
                        snapshot=snapshot)
         for path, key, name in zip(specs, keys, names, strict=True):
             info[key] = _Spec(key, path, name, results.get(key))
-        triaged_by_key: dict[str, Entry | Task] = {}
-        for key, found, when in _probes(list(zip(specs, keys, strict=True)), ctx, jobs,
-                                        spec_timeout):
-            triaged_by_key[key] = _triage(ledger, ctx, info[key].path, key, info[key].name,
-                                          found, when)
-        for key in keys:  # entries in the order the specs were found
-            triaged = triaged_by_key[key]
-            if isinstance(triaged, Task):
-                tasks.append(triaged)
-            else:
-                entry, _ = ledger.append(triaged)
-                finish(_row(info[key], entry, _record_text(ledger, entry.record_id)))
+        probe_started = {key: _utc() for key in keys}
+        by_key: dict[str, Task] = {}
 
-        if tasks:
-            progress.note(f"evaluating {len(tasks)} of {len(specs)} spec(s) in "
-                          f"{min(jobs, len(tasks))} worker process(es)")
-        by_key = {t.spec_key: t for t in tasks}
-        for outcome in _run_tasks(tasks, jobs, spec_timeout):
+        def record(outcome: Outcome) -> None:
             task = by_key[outcome.spec_key]
-            entry, record = _entry_from(run_id, task, outcome)
-            entry, record = ledger.append(entry, record=record)
+            entry, rec = _entry_from(run_id, task, outcome)
+            entry, rec = ledger.append(entry, record=rec)
             # the files go into place only now that an entry names them
-            problem = _commit(entry, outcome)
+            problem = _commit(entry, outcome, ledger_path)
             if problem is not None:
                 progress.note(problem)
-            elif entry.state == "RUN":
-                anchor_result(entry.result_path, Path(task.out_dir) / "latest.json",
-                              ledger_path, entry)
-            rec_text = record.describe() if record is not None else _record_text(
+            rec_text = rec.describe() if rec is not None else _record_text(
                 ledger, entry.record_id)
             finish(_row(info[task.spec_key], entry, rec_text))
+
+        # One pool does both passes: every spec is fingerprinted first (light jobs, queued
+        # first), and a spec that must run is queued as soon as its fingerprint is judged, so
+        # the same workers go on to evaluate without a second pool's start-up.
+        triaged_by_key: dict[str, Entry | Task] = {}
+        held: list[Outcome] = []  # outcomes back before the last fingerprint (kept in order)
+        with Pool(workers=jobs, timeout=spec_timeout) as pool:
+            for job in _probe_jobs(specs, keys, ctx):
+                pool.submit(job)
+            waiting = len(keys)
+            task_started: dict[str, str] = {}
+            for job, result in pool.results():
+                key = job.key
+                if job.func is not probe:  # an evaluation
+                    outcome = _outcome(by_key[key], result, task_started[key])
+                    if waiting:
+                        held.append(outcome)
+                    else:
+                        record(outcome)
+                    continue
+                if isinstance(result, Failed):
+                    result = Probe(None, f"{info[key].path}: reading the spec and hashing its "
+                                         f"data files {result.reason}")
+                triaged = _triage(ledger, ctx, info[key].path, key, info[key].name, result,
+                                  probe_started[key])
+                triaged_by_key[key] = triaged
+                if isinstance(triaged, Task):
+                    tasks.append(triaged)
+                    by_key[key] = triaged
+                    task_started[key] = _utc()
+                    pool.submit(_task_job(triaged))
+                waiting -= 1
+                if waiting:
+                    continue
+                # every spec judged: the entries of those that do not run, in the order the
+                # specs were found, then the evaluations in the order they finish
+                for k in keys:
+                    triaged = triaged_by_key[k]
+                    if not isinstance(triaged, Task):
+                        entry, _ = ledger.append(triaged)
+                        finish(_row(info[k], entry, _record_text(ledger, entry.record_id)))
+                if tasks:
+                    progress.note(f"evaluating {len(tasks)} of {len(specs)} spec(s) in "
+                                  f"{min(jobs, len(tasks))} worker process(es)")
+                for outcome in held:
+                    record(outcome)
+                held.clear()
 
         rows = [rows_by_name[n] for n in names if n in rows_by_name]
         status = _exit_status(rows)

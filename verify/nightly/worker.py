@@ -98,7 +98,9 @@ def run_task(task: Task) -> Outcome:
 
         ev = keep_snapshots(ev, out_dir.parent / SNAPSHOT_DIR if task.snapshot else None)
         workbook, result = history_paths(out_dir, ev.decision, task.run_id)
-        staged = stage_outputs(ev, workbook, result)  # renamed by the parent, after the ledger
+        # renamed by the parent, after the ledger; the parent anchors the result to its
+        # ledger entry and syncs it then
+        staged = stage_outputs(ev, workbook, result, sync_result=False)
         return Outcome(
             spec_key=task.spec_key, started=started, finished=_utc(),
             spec_sha256=ev.spec.sha256, data_files=files, decision=ev.decision,
@@ -127,19 +129,33 @@ def _worker_run(task: Task) -> Outcome:
     return run_task(task)
 
 
+def _task_job(task: Task):
+    """The pool job that evaluates ``task`` (:func:`_worker_run` in a worker)."""
+    from ..isolation import Job
+
+    return Job(task.spec_key, _worker_run, task)
+
+
+def _outcome(task: Task, result, started: str) -> Outcome:
+    """The worker's :class:`Outcome`, or an ERROR outcome when the job failed in the pool (it
+    timed out or killed its worker: whatever it left in its folder is removed)."""
+    from ..isolation import Failed
+
+    if isinstance(result, Failed):
+        _remove_partials(Path(task.out_dir))
+        return Outcome(task.spec_key, started, _utc(),
+                       error=f"{task.spec_path}: {result.reason}; nothing was written")
+    return result
+
+
 def _run_tasks(tasks: Sequence[Task], jobs: int, timeout: float = DEFAULT_SPEC_TIMEOUT,
                ) -> Iterator[Outcome]:
     """Yield outcomes as workers finish; a spec that times out or kills its worker costs only
     itself (:mod:`verify.isolation`)."""
-    from ..isolation import Failed, Job, run_isolated
+    from ..isolation import run_isolated
 
     by_key = {t.spec_key: t for t in tasks}
     starts = {t.spec_key: _utc() for t in tasks}
-    for key, result in run_isolated([Job(t.spec_key, _worker_run, t) for t in tasks],
-                                    workers=jobs, timeout=timeout):
-        if isinstance(result, Failed):
-            _remove_partials(Path(by_key[key].out_dir))
-            yield Outcome(key, starts[key], _utc(),
-                          error=f"{by_key[key].spec_path}: {result.reason}; nothing was written")
-        else:
-            yield result
+    for key, result in run_isolated([_task_job(t) for t in tasks], workers=jobs,
+                                    timeout=timeout):
+        yield _outcome(by_key[key], result, starts[key])

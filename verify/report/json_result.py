@@ -33,11 +33,22 @@ def _num(x):
 
 
 def _clean(obj):
+    # the plain types first, by exact type (a result holds thousands of them); the general
+    # rules below give the same for them
+    t = type(obj)
+    if t is str or obj is None or t is int or t is bool:
+        return obj
+    if t is float:
+        return obj if math.isfinite(obj) else None
+    if t is dict:
+        return {k if type(k) is str else str(k): _clean(v) for k, v in obj.items()}
+    if t is list or t is tuple:
+        return [_clean(v) for v in obj]
     if isinstance(obj, Mapping):
         return {str(k): _clean(v) for k, v in obj.items()}
     if isinstance(obj, (list, tuple)):
         return [_clean(v) for v in obj]
-    if isinstance(obj, str) or obj is None:
+    if isinstance(obj, str):
         return obj
     return _num(obj)
 
@@ -279,5 +290,98 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
 
 
 def dumps(doc: dict) -> str:
-    """Serialise with full-precision floats; refuses NaN (a NaN must never reach a report)."""
-    return json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    """Serialise with full-precision floats; refuses NaN (a NaN must never reach a report).
+
+    The text is exactly ``json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False)``
+    and a newline. A document of plain dicts, lists, strings, numbers, booleans and None (what
+    :func:`result_dict` gives) is written by :func:`_encode`, several times faster than the
+    standard library's indenting encoder (which is pure Python); anything else goes to
+    ``json.dumps`` itself, which also raises its own errors.
+    """
+    out: list[str] = []
+    try:
+        _encode(doc, "\n", out)
+    except _NotPlain:
+        return json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    out.append("\n")
+    return "".join(out)
+
+
+class _NotPlain(Exception):
+    """A value :func:`_encode` leaves to ``json.dumps``."""
+
+
+_string = json.encoder.encode_basestring  # the C function when available (as json.dumps uses)
+_INF = float("inf")
+
+
+def _encode(o, nl: str, out: list[str]) -> None:
+    """Append the JSON text of ``o`` as ``json.dumps(indent=2, ensure_ascii=False)`` writes it
+    (``nl``: a newline and the current indentation); raises :class:`_NotPlain` otherwise."""
+    t = type(o)
+    if t is str:
+        out.append(_string(o))
+    elif t is float:
+        if o != o or o == _INF or o == -_INF:
+            raise _NotPlain  # json.dumps refuses it (allow_nan=False) with its own message
+        out.append(float.__repr__(o))
+    elif t is int:
+        out.append(int.__repr__(o))
+    elif o is None:
+        out.append("null")
+    elif o is True:
+        out.append("true")
+    elif o is False:
+        out.append("false")
+    elif t is dict:
+        if not o:
+            out.append("{}")
+            return
+        inner = nl + "  "
+        sep = "{" + inner
+        for k, v in o.items():
+            if type(k) is not str:
+                raise _NotPlain
+            out.append(sep)
+            out.append(_string(k))
+            out.append(": ")
+            _encode(v, inner, out)
+            sep = "," + inner
+        out.append(nl + "}")
+    elif t is list or t is tuple:
+        if not o:
+            out.append("[]")
+            return
+        inner = nl + "  "
+        sep = "[" + inner
+        for v in o:
+            out.append(sep)
+            _encode(v, inner, out)
+            sep = "," + inner
+        out.append(nl + "]")
+    else:
+        raise _NotPlain
+
+
+def with_key(text: str, key: str, value) -> str:
+    """``text`` (a document as :func:`dumps` wrote it) with ``key: value`` added at its end.
+
+    The same text as serialising the document with the key added, without reading the text
+    back: the result's ``workbook`` (known once the workbook is written) and the nightly run's
+    ``ledger`` anchor are added this way. A document that already holds ``key`` at its top
+    level (or is not an object) is read back and written again.
+    """
+    if not text.endswith("\n}\n") or f'\n  {_string(key)}: ' in text:
+        doc = json.loads(text)
+        doc[key] = value
+        return dumps(_clean(doc))
+    out = [text[:-3], ",\n  ", _string(key), ": "]
+    value = _clean(value)
+    try:
+        _encode(value, "\n  ", out)
+    except _NotPlain:
+        doc = json.loads(text)
+        doc[key] = value
+        return dumps(doc)
+    out.append("\n}\n")
+    return "".join(out)

@@ -46,7 +46,6 @@ from openpyxl.utils import get_column_letter
 
 from .xlsx_fast import StreamedSheet, guard_text_controls, openpyxl_package, splice
 
-_CDATA = str.maketrans({"&": "&amp;", "<": "&lt;", ">": "&gt;"})
 # ElementTree's attribute escaping (xml.etree.ElementTree._escape_attrib)
 _ATTRIB = str.maketrans(
     {"&": "&amp;", "<": "&lt;", ">": "&gt;", '"': "&quot;", "\r": "&#13;", "\n": "&#10;",
@@ -69,8 +68,9 @@ def number_text(value) -> str:
 
 
 def _cdata(text: str) -> str:
+    """ElementTree's escaping of element text (``&``, ``<``, ``>``)."""
     if "&" in text or "<" in text or ">" in text:
-        return text.translate(_CDATA)
+        return text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
     return text
 
 
@@ -137,77 +137,87 @@ def sheet_rows(ws, links: list | None = None, styles: _Styles | None = None) -> 
     heads = styles.heads
     isfinite = math.isfinite
     dims = ws.row_dimensions
-    by_row: dict[int, list] = {}
-    for (row, col), cell in sorted(ws._cells.items()):
-        lst = by_row.get(row)
-        if lst is None:
-            by_row[row] = [(col, cell)]
-        else:
-            lst.append((col, cell))
-    for row in dims.keys() - by_row.keys():
-        by_row[row] = []
+    # rows in order: those with cell objects, merged with those that have only a dimension
+    # (openpyxl writes both; a row with a dimension and cells once)
+    dim_rows = sorted(dims.keys())
+    n_dims = len(dim_rows)
+    di = 0
     letters: dict[int, str] = {}
     out: list[str] = []
     append = out.append
-    for row_idx in sorted(by_row):
-        append(_row_head(row_idx, dims.get(row_idx), heads))
-        append(">")
-        rs = str(row_idx)
-        for col, cell in by_row[row_idx]:
-            if cell._comment is not None:
-                raise _Unsupported("comment")
-            value = cell._value
-            style = cell._style
-            s = "" if style is None else style_attr(style)
-            if value is None and not s:
+    cur = 0
+    rs = ""
+    for (row, col), cell in sorted(ws._cells.items()):
+        if row != cur:
+            if cur:
+                append("</row>")
+            while di < n_dims and dim_rows[di] <= row:
+                r = dim_rows[di]
+                di += 1
+                if r < row:  # (openpyxl writes an empty row with start and end tags)
+                    append(_row_head(r, dims.get(r), heads))
+                    append("></row>")
+            append(_row_head(row, dims.get(row), heads))
+            append(">")
+            cur = row
+            rs = str(row)
+        if cell._comment is not None:
+            raise _Unsupported("comment")
+        value = cell._value
+        style = cell._style
+        s = "" if style is None else style_attr(style)
+        if value is None and not s:
+            continue
+        if cell.hyperlink:
+            links.append(cell.hyperlink)
+        letter = letters.get(col)
+        if letter is None:
+            letter = letters[col] = get_column_letter(col)
+        dt = cell.data_type
+        if dt == "s":
+            if type(value) is not str:
+                if isinstance(value, CellRichText) or not isinstance(value, (str, NoneType)):
+                    raise _Unsupported("rich text, or a text cell holding another type")
+            if value is None or value == "":
+                append(f'<c r="{letter}{rs}"{s} t="inlineStr" />')
                 continue
-            if cell.hyperlink:
-                links.append(cell.hyperlink)
-            letter = letters.get(col)
-            if letter is None:
-                letter = letters[col] = get_column_letter(col)
-            dt = cell.data_type
-            if dt == "s":
-                if type(value) is not str:
-                    if isinstance(value, CellRichText) or not isinstance(value, (str, NoneType)):
-                        raise _Unsupported("rich text, or a text cell holding another type")
-                if value is None or value == "":
-                    append(f'<c r="{letter}{rs}"{s} t="inlineStr" />')
-                    continue
-                stripped = value.strip()
-                preserve = stripped and stripped != value  # openpyxl.xml.functions.whitespace
-                if "&" in value or "<" in value or ">" in value:
-                    value = value.translate(_CDATA)
-                if preserve:
-                    append(f'<c r="{letter}{rs}"{s} t="inlineStr"><is><t xml:space="preserve">'
-                           f"{value}</t></is></c>")
-                else:
-                    append(f'<c r="{letter}{rs}"{s} t="inlineStr"><is><t>{value}</t></is></c>')
-            elif dt == "n":
-                t = type(value)
-                if t is float:
-                    if isfinite(value):
-                        append(f'<c r="{letter}{rs}"{s} t="n"><v>{value!r}</v></c>')
-                    else:
-                        append(f'<c r="{letter}{rs}"{s} t="n"><v /></c>')
-                elif t is int:  # (openpyxl: "%.16g" % value)
-                    append(f'<c r="{letter}{rs}"{s} t="n"><v>{value:.16g}</v></c>')
-                elif value is None:
-                    append(f'<c r="{letter}{rs}"{s} t="n" />')
-                else:
-                    append(_other_cell(f'{letter}{rs}', s, dt, value))
-            elif dt == "f":
-                if value is None:
-                    append(f'<c r="{letter}{rs}"{s} />')
-                    continue
-                if type(value) is not str:
-                    raise _Unsupported("array or data-table formula")
-                append(f'<c r="{letter}{rs}"{s}><f>{_cdata(value[1:])}</f><v /></c>')
-            elif dt == "b" or dt == "e":
-                append(_other_cell(f'{letter}{rs}', s, dt, value))
+            stripped = value.strip()
+            preserve = stripped and stripped != value  # openpyxl.xml.functions.whitespace
+            value = _cdata(value)
+            if preserve:
+                append(f'<c r="{letter}{rs}"{s} t="inlineStr"><is><t xml:space="preserve">'
+                       f"{value}</t></is></c>")
             else:
-                raise _Unsupported(f"data type {dt!r}")
-        append("</row>")  # (openpyxl writes an empty row so too: start and end tags)
+                append(f'<c r="{letter}{rs}"{s} t="inlineStr"><is><t>{value}</t></is></c>')
+        elif dt == "n":
+            t = type(value)
+            if t is float:
+                if isfinite(value):
+                    append(f'<c r="{letter}{rs}"{s} t="n"><v>{value!r}</v></c>')
+                else:
+                    append(f'<c r="{letter}{rs}"{s} t="n"><v /></c>')
+            elif t is int:  # (openpyxl: "%.16g" % value)
+                append(f'<c r="{letter}{rs}"{s} t="n"><v>{value:.16g}</v></c>')
+            elif value is None:
+                append(f'<c r="{letter}{rs}"{s} t="n" />')
+            else:
+                append(_other_cell(f'{letter}{rs}', s, dt, value))
+        elif dt == "f":
+            if value is None:
+                append(f'<c r="{letter}{rs}"{s} />')
+                continue
+            if type(value) is not str:
+                raise _Unsupported("array or data-table formula")
+            append(f'<c r="{letter}{rs}"{s}><f>{_cdata(value[1:])}</f><v /></c>')
+        elif dt == "b" or dt == "e":
+            append(_other_cell(f'{letter}{rs}', s, dt, value))
+        else:
+            raise _Unsupported(f"data type {dt!r}")
+    if cur:
+        append("</row>")
+    for r in dim_rows[di:]:
+        append(_row_head(r, dims.get(r), heads))
+        append("></row>")
     return "".join(out)
 
 
