@@ -43,7 +43,7 @@ from verify.report.xlsx_fast import splice
 STAMP = dt.datetime(2025, 3, 4, 5, 6, 7)
 
 
-def _openpyxl_save(wb) -> bytes:
+def _openpyxl_save(wb, _worksheet_writer=None) -> bytes:
     """openpyxl's own ``Workbook.save`` (every cell, temporary files, deflate)."""
     buf = io.BytesIO()
     wb.save(buf)
@@ -217,10 +217,17 @@ def test_empty_sheet_and_sheet_of_row_heights_only(tmp_path):
         wb = openpyxl.Workbook()
         wb.active.title = "Empty"
         wb.create_sheet("Heights").row_dimensions[2].height = 40
+        around = wb.create_sheet("Around")  # heights before, between, on and after the cells
+        for r, h in ((1, 20), (3, 22), (4, 24), (8, 30)):
+            around.row_dimensions[r].height = h
+        for r in (2, 4, 6):
+            put(around, r, 2, f"row {r}")
         return wb
 
     fast, _ = _compare(build, tmp_path)
-    assert not _streamed(fast, 1) and _streamed(fast, 2)
+    assert not _streamed(fast, 1) and _streamed(fast, 2) and _streamed(fast, 3)
+    rows = re.findall(r'<row r="(\d+)"', _sheet_xml(fast, 3))
+    assert rows == ["1", "2", "3", "4", "6", "8"]
     assert "<sheetData" in _sheet_xml(fast, 1) and "<row" not in _sheet_xml(fast, 1)
     assert openpyxl.load_workbook(fast)["Heights"].row_dimensions[2].height == 40
 

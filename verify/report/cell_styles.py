@@ -27,6 +27,7 @@ from openpyxl.cell.cell import MergedCell
 from openpyxl.styles import Alignment, Border, Font, PatternFill
 from openpyxl.styles.cell_style import StyleArray
 from openpyxl.worksheet.cell_range import CellRange
+from openpyxl.worksheet.dimensions import RowDimension
 from openpyxl.worksheet.merge import MergedCellRange
 
 RIGHT = Alignment(horizontal="right")  # an infinite bound's text, aligned as a number
@@ -246,3 +247,26 @@ def shared_fill(*args, **kw) -> PatternFill:
 def shared_alignment(*args, **kw) -> Alignment:
     """``Alignment(*args, **kw)``, shared like :func:`shared_font`."""
     return _shared(Alignment, args, tuple(sorted(kw.items())))
+
+
+_ROW_STATE: dict = {}
+
+
+def row_dimension(ws, r: int):
+    """``ws.row_dimensions[r]``, created as openpyxl creates a missing one (a RowDimension with
+    its defaults) but with the state copied from a template rather than set through its
+    checked attributes one by one (each sheet asks for every row: a measured share of the
+    cost of building a sheet)."""
+    dims = ws.row_dimensions
+    d = dict.get(dims, r)
+    if d is not None:
+        return d
+    if not _ROW_STATE:
+        _ROW_STATE.update(RowDimension(worksheet=None).__dict__)
+    d = RowDimension.__new__(RowDimension)
+    d.__dict__.update(_ROW_STATE)
+    d.__dict__["index"] = r  # what the row dimensions' dictionary sets on every access
+    d.parent = ws
+    d._style = None
+    dict.__setitem__(dims, r, d)
+    return d

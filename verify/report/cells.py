@@ -19,7 +19,7 @@ from collections.abc import Iterable
 import numpy as np
 from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 
-from .cell_styles import align_top, alignment_of, font_of, merge, style
+from .cell_styles import align_top, alignment_of, font_of, merge, row_dimension, style
 from .safe_text import XML_ILLEGAL as XML_ILLEGAL  # re-exported for the sheet writers
 from .safe_text import xml_safe
 
@@ -325,9 +325,9 @@ def fit_rows(ws, *, line_height: float = 14.5) -> None:
                 need, font_scale = lines, max(1.0, size)
         if need > 1:
             h = need * line_height * font_scale + 2
-            current = ws.row_dimensions[r].height
-            if current is None or current < h:
-                ws.row_dimensions[r].height = h
+            dim = row_dimension(ws, r)
+            if dim.ht is None or dim.ht < h:
+                dim.ht = h
             for cell in row:  # in a tall row, everything reads from the top
                 if alignment_of(cell).vertical is None:
                     align_top(cell)

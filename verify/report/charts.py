@@ -34,9 +34,11 @@ from openpyxl.drawing.text import (
 )
 
 from ..model import CharacteristicResult, Evaluation
-from .cell_styles import shared_font, style
+from .cell_styles import row_dimension, shared_font, style
 from .cells import NOTE_FONT, SECTION_FONT, put
 from .hooks import has_report, report_hook
+from .layout import used_positions
+from .recheck_lookup import used_flags
 
 MAX_POINTS = 1000
 MAX_BINS = 40
@@ -63,12 +65,38 @@ def _col_letter(col: int) -> str:
     return get_column_letter(col)
 
 
+_COLUMNS: dict = {}
+
+
+def _columns(t):
+    """The table's value, lot (as text), order and source-row columns as arrays, once per
+    table (a chart asks for one characteristic and process at a time)."""
+    hit = _COLUMNS.get(id(t))
+    if hit is None or hit[0] is not t:
+        cols = (t["value"].to_numpy(dtype=float), t["lot"].astype(str).to_numpy(dtype=object),
+                t["order"], t["source_row"])
+        if len(_COLUMNS) >= 8:
+            _COLUMNS.clear()
+        hit = _COLUMNS[id(t)] = (t, cols)
+    return hit[1]
+
+
 def _series_values(ev: Evaluation, name: str, process: str):
     """Used values and lots of one process in production order."""
     t = ev.measurements.table
-    sel = t[(t["characteristic"] == name) & (t["process"] == process) & ~t["excluded"]]
-    sel = sel.sort_values(["order", "source_row"], kind="stable")
-    return sel["value"].to_numpy(dtype=float), sel["lot"].astype(str).to_numpy(dtype=object)
+    # the rows (characteristic == name) & (process == process) & ~excluded, from the table's
+    # cached row groups rather than a mask over the whole table per question
+    pos = used_positions(t, used_flags(t, "excluded")).get((name, process))
+    values, lots, order, source = _columns(t)
+    if pos is None or len(pos) == 0:
+        return values[:0], lots[:0]
+    if order.dtype.kind in "iu" and source.dtype.kind in "iu":
+        # sorted by order, then source row, stably (np.lexsort sorts by its last key first)
+        pos = pos[np.lexsort((source.to_numpy()[pos], order.to_numpy()[pos]))]
+    else:
+        pos = pos[t.iloc[pos].reset_index(drop=True).sort_values(
+            ["order", "source_row"], kind="stable").index.to_numpy()]
+    return values[pos], lots[pos]
 
 
 def chart_title(text: str, size: int = 1000) -> Title:
@@ -169,7 +197,7 @@ def add_charts(
     bands = (drawn + 1) // 2
     # rows of a known height, so that a chart's extent in rows is fixed on every program
     for r in range(anchor_row, anchor_row + BAND_ROWS * bands):
-        ws.row_dimensions[r].height = ROW_PT
+        row_dimension(ws, r).ht = ROW_PT
     return BAND_ROWS * bands
 
 

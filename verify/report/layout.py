@@ -124,6 +124,16 @@ def used_rows(table: pd.DataFrame, used: np.ndarray, name: str, process: str) ->
     return table.iloc[pos] if pos is not None else table.iloc[:0]
 
 
+def in_production_order(rows: pd.DataFrame) -> pd.DataFrame:
+    """``rows.sort_values(["order", "source_row"], kind="stable")``: by numpy's stable
+    lexsort when both are integer columns (a pandas sort per sample cost more than its rows)."""
+    order, source = rows["order"], rows["source_row"]
+    if order.dtype.kind in "iu" and source.dtype.kind in "iu":
+        # np.lexsort sorts by its last key first and is stable, as the pandas sort
+        return rows.iloc[np.lexsort((source.to_numpy(), order.to_numpy()))]
+    return rows.sort_values(["order", "source_row"], kind="stable")
+
+
 def _aligned_pairs(c) -> bool:
     """Whether a check of this characteristic reads its matched pairs as two aligned ranges
     (its kind's recheck hook says so from the check's settings, ``reads_aligned_pairs``): the

@@ -15,6 +15,8 @@ import math
 
 from openpyxl.utils import get_column_letter
 
+from .cell_styles import row_dimension
+
 # points (1/72 inch): A4's width (210 mm) and US Letter's length (11 in)
 PAPER_SHORT, PAPER_LONG = 595.0, 792.0
 DEFAULT_ROW_PT = 15.0
@@ -48,15 +50,16 @@ def page_rows_pt(ws, last_col: int) -> float:
 
 
 def row_pt(ws, r: int) -> float:
-    h = ws.row_dimensions[r].height
+    h = row_dimension(ws, r).ht
     return DEFAULT_ROW_PT if h is None else float(h)
 
 
 def fix_heights(ws, first: int, last: int) -> None:
     """Give rows without a height the default one explicitly (programs differ otherwise)."""
     for r in range(first, last + 1):
-        if ws.row_dimensions[r].height is None:
-            ws.row_dimensions[r].height = DEFAULT_ROW_PT
+        d = row_dimension(ws, r)
+        if d.ht is None:
+            d.ht = DEFAULT_ROW_PT
 
 
 def keep_together(

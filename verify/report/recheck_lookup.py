@@ -20,7 +20,13 @@ import pandas as pd
 
 from ..model import Evaluation
 from .formulas import as_written, criteria_safe, criterion, string_literal
-from .layout import LOT_COLUMN, VALUE_COLUMN, MeasurementLayout, used_rows
+from .layout import (
+    LOT_COLUMN,
+    VALUE_COLUMN,
+    MeasurementLayout,
+    in_production_order,
+    used_rows,
+)
 from .recheck_sheet import Sheet, as_text
 
 HELPER_HEADING = "Values looked up from the measurements table"
@@ -129,7 +135,12 @@ def lot_cell(lot: str) -> str | None:
 
 def helper_rows(sh: Sheet, name: str, process: str, rows: pd.DataFrame, label) -> Helper:
     first = len(sh.helpers)
-    for _, r in rows.iterrows():
+    # each row as a mapping of the columns read, with the values ``rows.iterrows()`` gives
+    # (object conversion: Python ints, floats and strings), without a Series per row
+    keys = [k for k in ("order", "source_row", "source_file", "lot") if k in rows.columns]
+    columns = [rows[k].to_numpy(dtype=object) for k in keys]
+    for values in zip(*columns, strict=True):
+        r = dict(zip(keys, values, strict=True))
         sh.helpers.append([as_text(label(r)), "=" + lookup(sh.table, name, process, r), None,
                            None, None, None, lot_cell(str(r["lot"]))])
     return Helper(first, len(sh.helpers) - 1)
@@ -148,7 +159,7 @@ def used_block(sh: Sheet, ev: Evaluation, layout: MeasurementLayout, name: str,
         # the rows of (name, process) from the table's cached groups: a mask over the whole
         # table per characteristic would cost characteristics x rows
         sel = used_rows(t, used_flags(t, "excluded"), name, process)
-        sel = sel.sort_values(["order", "source_row"], kind="stable")  # as the engine orders
+        sel = in_production_order(sel)  # as the engine orders
         if sel.empty:
             sh.samples[key] = None
         else:

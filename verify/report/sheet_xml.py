@@ -46,7 +46,6 @@ from openpyxl.utils import get_column_letter
 
 from .xlsx_fast import StreamedSheet, guard_text_controls, openpyxl_package, splice
 
-_CDATA = str.maketrans({"&": "&amp;", "<": "&lt;", ">": "&gt;"})
 # ElementTree's attribute escaping (xml.etree.ElementTree._escape_attrib)
 _ATTRIB = str.maketrans(
     {"&": "&amp;", "<": "&lt;", ">": "&gt;", '"': "&quot;", "\r": "&#13;", "\n": "&#10;",
@@ -69,8 +68,9 @@ def number_text(value) -> str:
 
 
 def _cdata(text: str) -> str:
+    """ElementTree's escaping of element text (``&``, ``<``, ``>``)."""
     if "&" in text or "<" in text or ">" in text:
-        return text.translate(_CDATA)
+        return text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
     return text
 
 
@@ -137,77 +137,87 @@ def sheet_rows(ws, links: list | None = None, styles: _Styles | None = None) -> 
     heads = styles.heads
     isfinite = math.isfinite
     dims = ws.row_dimensions
-    by_row: dict[int, list] = {}
-    for (row, col), cell in sorted(ws._cells.items()):
-        lst = by_row.get(row)
-        if lst is None:
-            by_row[row] = [(col, cell)]
-        else:
-            lst.append((col, cell))
-    for row in dims.keys() - by_row.keys():
-        by_row[row] = []
+    # rows in order: those with cell objects, merged with those that have only a dimension
+    # (openpyxl writes both; a row with a dimension and cells once)
+    dim_rows = sorted(dims.keys())
+    n_dims = len(dim_rows)
+    di = 0
     letters: dict[int, str] = {}
     out: list[str] = []
     append = out.append
-    for row_idx in sorted(by_row):
-        append(_row_head(row_idx, dims.get(row_idx), heads))
-        append(">")
-        rs = str(row_idx)
-        for col, cell in by_row[row_idx]:
-            if cell._comment is not None:
-                raise _Unsupported("comment")
-            value = cell._value
-            style = cell._style
-            s = "" if style is None else style_attr(style)
-            if value is None and not s:
+    cur = 0
+    rs = ""
+    for (row, col), cell in sorted(ws._cells.items()):
+        if row != cur:
+            if cur:
+                append("</row>")
+            while di < n_dims and dim_rows[di] <= row:
+                r = dim_rows[di]
+                di += 1
+                if r < row:  # (openpyxl writes an empty row with start and end tags)
+                    append(_row_head(r, dims.get(r), heads))
+                    append("></row>")
+            append(_row_head(row, dims.get(row), heads))
+            append(">")
+            cur = row
+            rs = str(row)
+        if cell._comment is not None:
+            raise _Unsupported("comment")
+        value = cell._value
+        style = cell._style
+        s = "" if style is None else style_attr(style)
+        if value is None and not s:
+            continue
+        if cell.hyperlink:
+            links.append(cell.hyperlink)
+        letter = letters.get(col)
+        if letter is None:
+            letter = letters[col] = get_column_letter(col)
+        dt = cell.data_type
+        if dt == "s":
+            if type(value) is not str:
+                if isinstance(value, CellRichText) or not isinstance(value, (str, NoneType)):
+                    raise _Unsupported("rich text, or a text cell holding another type")
+            if value is None or value == "":
+                append(f'<c r="{letter}{rs}"{s} t="inlineStr" />')
                 continue
-            if cell.hyperlink:
-                links.append(cell.hyperlink)
-            letter = letters.get(col)
-            if letter is None:
-                letter = letters[col] = get_column_letter(col)
-            dt = cell.data_type
-            if dt == "s":
-                if type(value) is not str:
-                    if isinstance(value, CellRichText) or not isinstance(value, (str, NoneType)):
-                        raise _Unsupported("rich text, or a text cell holding another type")
-                if value is None or value == "":
-                    append(f'<c r="{letter}{rs}"{s} t="inlineStr" />')
-                    continue
-                stripped = value.strip()
-                preserve = stripped and stripped != value  # openpyxl.xml.functions.whitespace
-                if "&" in value or "<" in value or ">" in value:
-                    value = value.translate(_CDATA)
-                if preserve:
-                    append(f'<c r="{letter}{rs}"{s} t="inlineStr"><is><t xml:space="preserve">'
-                           f"{value}</t></is></c>")
-                else:
-                    append(f'<c r="{letter}{rs}"{s} t="inlineStr"><is><t>{value}</t></is></c>')
-            elif dt == "n":
-                t = type(value)
-                if t is float:
-                    if isfinite(value):
-                        append(f'<c r="{letter}{rs}"{s} t="n"><v>{value!r}</v></c>')
-                    else:
-                        append(f'<c r="{letter}{rs}"{s} t="n"><v /></c>')
-                elif t is int:  # (openpyxl: "%.16g" % value)
-                    append(f'<c r="{letter}{rs}"{s} t="n"><v>{value:.16g}</v></c>')
-                elif value is None:
-                    append(f'<c r="{letter}{rs}"{s} t="n" />')
-                else:
-                    append(_other_cell(f'{letter}{rs}', s, dt, value))
-            elif dt == "f":
-                if value is None:
-                    append(f'<c r="{letter}{rs}"{s} />')
-                    continue
-                if type(value) is not str:
-                    raise _Unsupported("array or data-table formula")
-                append(f'<c r="{letter}{rs}"{s}><f>{_cdata(value[1:])}</f><v /></c>')
-            elif dt == "b" or dt == "e":
-                append(_other_cell(f'{letter}{rs}', s, dt, value))
+            stripped = value.strip()
+            preserve = stripped and stripped != value  # openpyxl.xml.functions.whitespace
+            value = _cdata(value)
+            if preserve:
+                append(f'<c r="{letter}{rs}"{s} t="inlineStr"><is><t xml:space="preserve">'
+                       f"{value}</t></is></c>")
             else:
-                raise _Unsupported(f"data type {dt!r}")
-        append("</row>")  # (openpyxl writes an empty row so too: start and end tags)
+                append(f'<c r="{letter}{rs}"{s} t="inlineStr"><is><t>{value}</t></is></c>')
+        elif dt == "n":
+            t = type(value)
+            if t is float:
+                if isfinite(value):
+                    append(f'<c r="{letter}{rs}"{s} t="n"><v>{value!r}</v></c>')
+                else:
+                    append(f'<c r="{letter}{rs}"{s} t="n"><v /></c>')
+            elif t is int:  # (openpyxl: "%.16g" % value)
+                append(f'<c r="{letter}{rs}"{s} t="n"><v>{value:.16g}</v></c>')
+            elif value is None:
+                append(f'<c r="{letter}{rs}"{s} t="n" />')
+            else:
+                append(_other_cell(f'{letter}{rs}', s, dt, value))
+        elif dt == "f":
+            if value is None:
+                append(f'<c r="{letter}{rs}"{s} />')
+                continue
+            if type(value) is not str:
+                raise _Unsupported("array or data-table formula")
+            append(f'<c r="{letter}{rs}"{s}><f>{_cdata(value[1:])}</f><v /></c>')
+        elif dt == "b" or dt == "e":
+            append(_other_cell(f'{letter}{rs}', s, dt, value))
+        else:
+            raise _Unsupported(f"data type {dt!r}")
+    if cur:
+        append("</row>")
+    for r in dim_rows[di:]:
+        append(_row_head(r, dims.get(r), heads))
+        append("></row>")
     return "".join(out)
 
 
@@ -268,27 +278,39 @@ def _dimension(ws) -> str:
             f"{get_column_letter(max(cols))}{max(rows)}")
 
 
-@contextlib.contextmanager
-def _hyperlinks_from(pending: dict[int, list]) -> Iterator[None]:
-    """Let openpyxl's sheet writer find the hyperlinks of the cells written here.
+_LINKS = "_verify_streamed_hyperlinks"
+
+
+def _worksheet_writer():
+    """openpyxl's WorksheetWriter that also finds the hyperlinks of the cells written here.
 
     ``WorksheetWriter`` gathers a sheet's hyperlinks while it writes the cells, then writes
-    ``<hyperlinks>`` (and their relationships) after the rows; the streamed sheets' links are
-    put where it would have gathered them.
+    ``<hyperlinks>`` (and their relationships) after the rows; :func:`stream_cells` leaves the
+    streamed sheet's links on the worksheet, and this writer puts them where openpyxl's own
+    gathering would have (a subclass for this save, not a patch of openpyxl's class). Its
+    ``<mergeCells>`` are built without openpyxl's object per range (the same elements).
     """
     from openpyxl.worksheet._writer import WorksheetWriter
+    from openpyxl.xml.functions import Element, SubElement
 
-    original = WorksheetWriter.write_hyperlinks
+    class Writer(WorksheetWriter):
+        def write_hyperlinks(self):
+            self.ws._hyperlinks.extend(getattr(self.ws, _LINKS, ()))
+            return super().write_hyperlinks()
 
-    def write_hyperlinks(self):
-        self.ws._hyperlinks.extend(pending.get(id(self.ws), ()))
-        return original(self)
+        def write_merged_cells(self):
+            # openpyxl: MergeCells(mergeCell=[MergeCell(str(ref)) for ref in ...]).to_tree():
+            # the same elements built directly (a MergeCell object per range cost 3 ms a
+            # workbook of the nightly benchmark)
+            merged = self.ws.merged_cells
+            if merged:
+                refs = [str(ref) for ref in merged]
+                el = Element("mergeCells", {"count": str(len(refs))})
+                for ref in refs:
+                    SubElement(el, "mergeCell", {"ref": ref})
+                self.xf.send(el)
 
-    WorksheetWriter.write_hyperlinks = write_hyperlinks
-    try:
-        yield
-    finally:
-        WorksheetWriter.write_hyperlinks = original
+    return Writer
 
 
 @contextlib.contextmanager
@@ -303,7 +325,6 @@ def stream_cells(wb, streamed: list[StreamedSheet]) -> Iterator[list[StreamedShe
     by_title = {s.title: s for s in streamed}
     out: list[StreamedSheet] = []
     taken: list[tuple] = []
-    pending: dict[int, list] = {}
     styles = _Styles(wb)
     try:
         for ws in wb.worksheets:
@@ -324,7 +345,7 @@ def stream_cells(wb, streamed: list[StreamedSheet]) -> Iterator[list[StreamedShe
             _init_tables(ws)
             xml = guard_text_controls(xml)
             if links:
-                pending[id(ws)] = links
+                setattr(ws, _LINKS, links)
             taken.append((ws, ws._cells, dict(ws.row_dimensions)))
             ws._cells = {}
             ws.row_dimensions.clear()
@@ -337,12 +358,13 @@ def stream_cells(wb, streamed: list[StreamedSheet]) -> Iterator[list[StreamedShe
                     placeholder.dimension,
                 ))
         out.extend(by_title.values())  # (no such sheet: splice names it)
-        with _hyperlinks_from(pending):
-            yield out
+        yield out
     finally:
         for ws, cells, dims in taken:
             ws._cells = cells
             ws.row_dimensions.update(dims)
+            if hasattr(ws, _LINKS):
+                delattr(ws, _LINKS)
 
 
 @contextlib.contextmanager
@@ -400,5 +422,5 @@ def save(wb, streamed: list[StreamedSheet], path, *, timestamp) -> None:
         The run's start (UTC): every zip entry's time and the document's times.
     """
     with full_precision_numbers(), stream_cells(wb, streamed) as sheets:
-        package = openpyxl_package(wb)
+        package = openpyxl_package(wb, _worksheet_writer())
     splice(package, sheets, path, timestamp=timestamp)

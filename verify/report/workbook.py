@@ -34,6 +34,7 @@ from pathlib import Path
 
 from ..model import Evaluation
 from .audit_sheet import write_audit
+from .cell_styles import row_dimension
 from .cells import EXCEL_CELL_MAX, XML_ILLEGAL, clean_text, page_setup, put, sheet_name
 from .characteristic_sheet import write_characteristic
 from .details_sheet import DETAILS_SHEET, details_placeholder, per_characteristic_sheets
@@ -295,13 +296,17 @@ def read_record(wb) -> str | None:
 
 def _write_recheck(ws, ev: Evaluation, layout: MeasurementLayout) -> None:
     rows = recheck_rows(ev, layout)
+    cells = ws._cells
     widths: dict[int, int] = {}
     for i, values in enumerate(rows, start=1):
         for j, v in enumerate(values, start=1):
             if v is None:
                 continue
             if isinstance(v, str) and v.startswith("=") and len(v) > 1:
-                ws.cell(row=i, column=j).value = v  # a formula, as recheck_rows asks
+                cell = cells.get((i, j))
+                if cell is None:
+                    cell = ws.cell(row=i, column=j)
+                cell.value = v  # a formula, as recheck_rows asks
                 widths[j] = max(widths.get(j, 0), 14)
                 continue
             put(ws, i, j, v)  # text stays text, numbers keep full precision
@@ -321,8 +326,9 @@ def _write_recheck(ws, ev: Evaluation, layout: MeasurementLayout) -> None:
     if heading is not None:
         ws.sheet_properties.outlinePr.summaryBelow = False
         for i in range(heading + 1, len(rows) + 1):
-            ws.row_dimensions[i].outline_level = 1
-            ws.row_dimensions[i].hidden = True
+            dim = row_dimension(ws, i)
+            dim.outlineLevel = 1
+            dim.hidden = True
 
 
 def _recheck_as_table(ws, n_rows: int) -> None:
@@ -349,10 +355,15 @@ def _recheck_as_table(ws, n_rows: int) -> None:
     # each distinct style looked up once per workbook, not per cell (cell_styles)
     bold, centre = shared_font(bold=True), shared_alignment(horizontal="center")
     wrap_top = shared_alignment(wrap_text=True, vertical="top")
+    cells = ws._cells
+
+    def value(r: int, c: int):  # without creating the cell (an empty one is not saved)
+        cell = cells.get((r, c))
+        return None if cell is None else cell.value
+
     for r in (SUMMARY_ROW, *range(HEADER_ROW + 1, n_rows + 1)):
-        a, b = ws.cell(r, 1), ws.cell(r, 2)
-        if isinstance(a.value, str) and b.value is None and ws.cell(r, 3).value is None:
-            style(a, font=bold)  # a block's heading: the characteristic or check
+        if isinstance(value(r, 1), str) and value(r, 2) is None and value(r, 3) is None:
+            style(cells[r, 1], font=bold)  # a block's heading: the characteristic or check
         style(ws.cell(r, 5), align=centre)
         style(ws.cell(r, 6), align=wrap_top)
     fit_rows(ws)

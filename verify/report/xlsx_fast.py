@@ -34,12 +34,19 @@ _NS_MAIN = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
 _NS_REL = "http://schemas.openxmlformats.org/officeDocument/2006/relationships"
 _NS_PKG_REL = "http://schemas.openxmlformats.org/package/2006/relationships"
 
-_ESCAPES = str.maketrans({"&": "&amp;", "<": "&lt;", ">": "&gt;", "\r": "&#13;"})
-
-
 def xml_text(text: str) -> str:
-    """Escape text for an XML element; replace visibly what XML cannot carry; keep CR."""
-    return xml_legal(text).translate(_ESCAPES)
+    """Escape text for an XML element; replace visibly what XML cannot carry; keep CR.
+
+    (Four ``str.replace`` scans: about ten times faster than ``str.translate`` with a table of
+    replacements on long text such as the record's 32,000-character chunks.)
+    """
+    return (
+        xml_legal(text)
+        .replace("&", "&amp;")
+        .replace("<", "&lt;")
+        .replace(">", "&gt;")
+        .replace("\r", "&#13;")
+    )
 
 
 def t_element(text: str) -> str:
@@ -207,7 +214,7 @@ def splice(
                     fh.write(tail)
 
 
-def openpyxl_package(wb) -> bytes:
+def openpyxl_package(wb, worksheet_writer=None) -> bytes:
     """The package openpyxl writes for ``wb``, its parts stored uncompressed.
 
     :func:`splice` reads every part back and deflates it once into the final file; letting
@@ -217,17 +224,18 @@ def openpyxl_package(wb) -> bytes:
     """
     buf = io.BytesIO()
     archive = zipfile.ZipFile(buf, "w", zipfile.ZIP_STORED, allowZip64=True)
-    _in_memory_writer()(wb, archive).save()  # closes the archive
+    _in_memory_writer(worksheet_writer)(wb, archive).save()  # closes the archive
     return buf.getvalue()
 
 
-def _in_memory_writer():
+def _in_memory_writer(worksheet_writer=None):
     """openpyxl's ExcelWriter with each worksheet written to memory instead of a temporary file.
 
     ``ExcelWriter.write_worksheet`` (openpyxl 3.1) writes every sheet to a named temporary
     file, adds the file to the archive and deletes it: three file-system calls a sheet, which
     on a busy disk cost more than writing the sheet. ``WorksheetWriter`` takes a BytesIO as
     well (its ``read`` returns the bytes); the rest is that method's code unchanged.
+    ``worksheet_writer`` replaces openpyxl's ``WorksheetWriter`` (a subclass of it).
     """
     from openpyxl.drawing.spreadsheet_drawing import SpreadsheetDrawing
     from openpyxl.worksheet._writer import WorksheetWriter
@@ -240,7 +248,7 @@ def _in_memory_writer():
             ws._drawing = SpreadsheetDrawing()
             ws._drawing.charts = ws._charts
             ws._drawing.images = ws._images
-            writer = WorksheetWriter(ws, out=io.BytesIO())
+            writer = (worksheet_writer or WorksheetWriter)(ws, out=io.BytesIO())
             writer.write()
             ws._rels = writer._rels
             self._archive.writestr(ws.path[1:], writer.read())
