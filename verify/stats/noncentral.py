@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Iterable
+from functools import lru_cache
 
 from scipy import integrate, special
 
@@ -49,6 +50,7 @@ def _sd_ratio_logpdf(df: float) -> Callable[[float], float]:
     return logpdf
 
 
+@lru_cache(maxsize=4096)  # a pure function of df, asked again for every case of that df
 def _sd_ratio_log_constant(df: float) -> float:
     """log(2 h^h / Gamma(h)) - h with h = df / 2, by Stirling's form of Gamma(h)."""
     h = 0.5 * df

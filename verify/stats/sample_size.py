@@ -424,22 +424,23 @@ class _TostSize(_Search):
 def _approx_many(setups: list[_TostSize], ns: list[int]) -> list[float]:
     """:meth:`_TostSize.approx_at` of each setup at its n_new, the t distribution's functions
     called once for all (the same arithmetic element by element, so the same values)."""
-    taus, dfs, lows, highs, alphas = [], [], [], [], []
+    taus, dfs = [], []
     for q, n in zip(setups, ns, strict=True):
         tau, df = q._tau_df(n, old_size(q.design, n, q.ratio))
         taus.append(tau)
         dfs.append(df)
-        highs.append(q.hi - q.delta)
-        lows.append(q.lo - q.delta)
-        alphas.append(1.0 - q.a)
     df = np.array(dfs)
     if not np.isfinite(df).all():  # t_quantile and t_cdf switch to the normal there
         return [q.approx_at(n, old_size(q.design, n, q.ratio))
                 for q, n in zip(setups, ns, strict=True)]
     tau = np.array(taus)
-    c = special.stdtrit(df, np.array(alphas))
-    p = special.stdtr(df, np.array(highs) / tau - c) - special.stdtr(df, np.array(lows) / tau + c)
-    return [_clip01(v) for v in p.tolist()]
+    c = special.stdtrit(df, np.array([1.0 - q.a for q in setups]))
+    p = special.stdtr(df, np.array([q.hi - q.delta for q in setups]) / tau - c) \
+        - special.stdtr(df, np.array([q.lo - q.delta for q in setups]) / tau + c)
+    # _clip01 of each: min(1, max(0, p)), a NaN becoming 0 as there
+    p = np.clip(p, 0.0, 1.0)
+    p[np.isnan(p)] = 0.0
+    return p.tolist()
 
 
 def _guesses(setups: list[_TostSize]) -> list[int | None]:
