@@ -124,14 +124,50 @@ def used_rows(table: pd.DataFrame, used: np.ndarray, name: str, process: str) ->
     return table.iloc[pos] if pos is not None else table.iloc[:0]
 
 
-def in_production_order(rows: pd.DataFrame) -> pd.DataFrame:
-    """``rows.sort_values(["order", "source_row"], kind="stable")``: by numpy's stable
-    lexsort when both are integer columns (a pandas sort per sample cost more than its rows)."""
-    order, source = rows["order"], rows["source_row"]
+_FLAGS: dict[tuple[int, str], tuple] = {}
+
+
+def used_flags(t: pd.DataFrame, column: str) -> np.ndarray:
+    """The used-row flags of a table, one array per table (so the row groups are cached)."""
+    hit = _FLAGS.get((id(t), column))
+    if hit is None or hit[0] is not t:
+        flags = t[column].to_numpy(dtype=bool)
+        if column == "excluded":
+            flags = ~flags
+        if len(_FLAGS) >= 8:
+            _FLAGS.clear()
+        hit = _FLAGS[(id(t), column)] = (t, flags)
+    return hit[1]
+
+
+_COLUMNS: dict = {}
+
+
+def object_column(t: pd.DataFrame, name: str) -> np.ndarray:
+    """``t[name].to_numpy(dtype=object)`` (Python ints, floats and strings, as ``iterrows``
+    gives them), made once per table."""
+    hit = _COLUMNS.get((id(t), name))
+    if hit is None or hit[0] is not t:
+        if len(_COLUMNS) >= 32:
+            _COLUMNS.clear()
+        hit = _COLUMNS[(id(t), name)] = (t, t[name].to_numpy(dtype=object))
+    return hit[1]
+
+
+def production_positions(t: pd.DataFrame, name: str, process: str) -> np.ndarray:
+    """The positions of the used rows of one characteristic and process of the evaluation's
+    table ``t`` in production order: the rows
+    ``used_rows(t, ~t["excluded"], name, process).sort_values(["order", "source_row"],
+    kind="stable")`` holds, as positions (no DataFrame per question)."""
+    pos = used_positions(t, used_flags(t, "excluded")).get((name, process))
+    if pos is None or len(pos) == 0:
+        return np.zeros(0, dtype=np.intp)
+    order, source = t["order"], t["source_row"]
     if order.dtype.kind in "iu" and source.dtype.kind in "iu":
         # np.lexsort sorts by its last key first and is stable, as the pandas sort
-        return rows.iloc[np.lexsort((source.to_numpy(), order.to_numpy()))]
-    return rows.sort_values(["order", "source_row"], kind="stable")
+        return pos[np.lexsort((source.to_numpy()[pos], order.to_numpy()[pos]))]
+    sub = t.iloc[pos].reset_index(drop=True)
+    return pos[sub.sort_values(["order", "source_row"], kind="stable").index.to_numpy()]
 
 
 def _aligned_pairs(c) -> bool:
