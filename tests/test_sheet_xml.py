@@ -43,7 +43,7 @@ from verify.report.xlsx_fast import splice
 STAMP = dt.datetime(2025, 3, 4, 5, 6, 7)
 
 
-def _openpyxl_save(wb) -> bytes:
+def _openpyxl_save(wb, _worksheet_writer=None) -> bytes:
     """openpyxl's own ``Workbook.save`` (every cell, temporary files, deflate)."""
     buf = io.BytesIO()
     wb.save(buf)

@@ -278,27 +278,39 @@ def _dimension(ws) -> str:
             f"{get_column_letter(max(cols))}{max(rows)}")
 
 
-@contextlib.contextmanager
-def _hyperlinks_from(pending: dict[int, list]) -> Iterator[None]:
-    """Let openpyxl's sheet writer find the hyperlinks of the cells written here.
+_LINKS = "_verify_streamed_hyperlinks"
+
+
+def _worksheet_writer():
+    """openpyxl's WorksheetWriter that also finds the hyperlinks of the cells written here.
 
     ``WorksheetWriter`` gathers a sheet's hyperlinks while it writes the cells, then writes
-    ``<hyperlinks>`` (and their relationships) after the rows; the streamed sheets' links are
-    put where it would have gathered them.
+    ``<hyperlinks>`` (and their relationships) after the rows; :func:`stream_cells` leaves the
+    streamed sheet's links on the worksheet, and this writer puts them where openpyxl's own
+    gathering would have (a subclass for this save, not a patch of openpyxl's class). Its
+    ``<mergeCells>`` are built without openpyxl's object per range (the same elements).
     """
     from openpyxl.worksheet._writer import WorksheetWriter
+    from openpyxl.xml.functions import Element, SubElement
 
-    original = WorksheetWriter.write_hyperlinks
+    class Writer(WorksheetWriter):
+        def write_hyperlinks(self):
+            self.ws._hyperlinks.extend(getattr(self.ws, _LINKS, ()))
+            return super().write_hyperlinks()
 
-    def write_hyperlinks(self):
-        self.ws._hyperlinks.extend(pending.get(id(self.ws), ()))
-        return original(self)
+        def write_merged_cells(self):
+            # openpyxl: MergeCells(mergeCell=[MergeCell(str(ref)) for ref in ...]).to_tree():
+            # the same elements built directly (a MergeCell object per range cost 3 ms a
+            # workbook of the nightly benchmark)
+            merged = self.ws.merged_cells
+            if merged:
+                refs = [str(ref) for ref in merged]
+                el = Element("mergeCells", {"count": str(len(refs))})
+                for ref in refs:
+                    SubElement(el, "mergeCell", {"ref": ref})
+                self.xf.send(el)
 
-    WorksheetWriter.write_hyperlinks = write_hyperlinks
-    try:
-        yield
-    finally:
-        WorksheetWriter.write_hyperlinks = original
+    return Writer
 
 
 @contextlib.contextmanager
@@ -313,7 +325,6 @@ def stream_cells(wb, streamed: list[StreamedSheet]) -> Iterator[list[StreamedShe
     by_title = {s.title: s for s in streamed}
     out: list[StreamedSheet] = []
     taken: list[tuple] = []
-    pending: dict[int, list] = {}
     styles = _Styles(wb)
     try:
         for ws in wb.worksheets:
@@ -334,7 +345,7 @@ def stream_cells(wb, streamed: list[StreamedSheet]) -> Iterator[list[StreamedShe
             _init_tables(ws)
             xml = guard_text_controls(xml)
             if links:
-                pending[id(ws)] = links
+                setattr(ws, _LINKS, links)
             taken.append((ws, ws._cells, dict(ws.row_dimensions)))
             ws._cells = {}
             ws.row_dimensions.clear()
@@ -347,12 +358,13 @@ def stream_cells(wb, streamed: list[StreamedSheet]) -> Iterator[list[StreamedShe
                     placeholder.dimension,
                 ))
         out.extend(by_title.values())  # (no such sheet: splice names it)
-        with _hyperlinks_from(pending):
-            yield out
+        yield out
     finally:
         for ws, cells, dims in taken:
             ws._cells = cells
             ws.row_dimensions.update(dims)
+            if hasattr(ws, _LINKS):
+                delattr(ws, _LINKS)
 
 
 @contextlib.contextmanager
@@ -410,5 +422,5 @@ def save(wb, streamed: list[StreamedSheet], path, *, timestamp) -> None:
         The run's start (UTC): every zip entry's time and the document's times.
     """
     with full_precision_numbers(), stream_cells(wb, streamed) as sheets:
-        package = openpyxl_package(wb)
+        package = openpyxl_package(wb, _worksheet_writer())
     splice(package, sheets, path, timestamp=timestamp)

@@ -214,7 +214,7 @@ def splice(
                     fh.write(tail)
 
 
-def openpyxl_package(wb) -> bytes:
+def openpyxl_package(wb, worksheet_writer=None) -> bytes:
     """The package openpyxl writes for ``wb``, its parts stored uncompressed.
 
     :func:`splice` reads every part back and deflates it once into the final file; letting
@@ -224,17 +224,18 @@ def openpyxl_package(wb) -> bytes:
     """
     buf = io.BytesIO()
     archive = zipfile.ZipFile(buf, "w", zipfile.ZIP_STORED, allowZip64=True)
-    _in_memory_writer()(wb, archive).save()  # closes the archive
+    _in_memory_writer(worksheet_writer)(wb, archive).save()  # closes the archive
     return buf.getvalue()
 
 
-def _in_memory_writer():
+def _in_memory_writer(worksheet_writer=None):
     """openpyxl's ExcelWriter with each worksheet written to memory instead of a temporary file.
 
     ``ExcelWriter.write_worksheet`` (openpyxl 3.1) writes every sheet to a named temporary
     file, adds the file to the archive and deletes it: three file-system calls a sheet, which
     on a busy disk cost more than writing the sheet. ``WorksheetWriter`` takes a BytesIO as
     well (its ``read`` returns the bytes); the rest is that method's code unchanged.
+    ``worksheet_writer`` replaces openpyxl's ``WorksheetWriter`` (a subclass of it).
     """
     from openpyxl.drawing.spreadsheet_drawing import SpreadsheetDrawing
     from openpyxl.worksheet._writer import WorksheetWriter
@@ -247,7 +248,7 @@ def _in_memory_writer():
             ws._drawing = SpreadsheetDrawing()
             ws._drawing.charts = ws._charts
             ws._drawing.images = ws._images
-            writer = WorksheetWriter(ws, out=io.BytesIO())
+            writer = (worksheet_writer or WorksheetWriter)(ws, out=io.BytesIO())
             writer.write()
             ws._rels = writer._rels
             self._archive.writestr(ws.path[1:], writer.read())
