@@ -270,7 +270,8 @@ def stage_outputs(ev: Evaluation, workbook: Path, result: Path, *,
     again (and syncs it) before the commit: the nightly run adds the ledger's anchor.
     """
     from .audit import sha256_file
-    from .report.json_result import dumps, result_dict, with_key
+    from .report.json_result import result_text
+    from .report.json_text import with_key
     from .report.workbook import write_workbook
 
     tmp_wb = _temp_beside(workbook)
@@ -280,7 +281,7 @@ def stage_outputs(ev: Evaluation, workbook: Path, result: Path, *,
         extras = _stage_snapshots(ev, result)
         # the document is built and written once: the workbook keeps it as its record, and the
         # result file is the same text with the workbook's path and sha256 added at the end
-        record = dumps(result_dict(ev))
+        record = result_text(ev)
         # the workbook's zip and document times come from the run's start, so reruns under
         # SOURCE_DATE_EPOCH are byte-identical
         write_workbook(ev, tmp_wb, record_json=record, detail=detail)

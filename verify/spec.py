@@ -26,13 +26,13 @@ keeps the entry points.
 from __future__ import annotations
 
 import os
-from collections.abc import Iterable
 from pathlib import Path
 
 from . import spec_table
-from .errors import SpecError, SpecIssue, UsageError
+from .errors import SpecError, SpecIssue
 from .schema import forbidden_characters, validate
 from .spec_build import build as _build
+from .spec_files import SPEC_SUFFIXES, find_specs
 from .spec_kind import fmt as _fmt  # noqa: F401 - older callers import it from here
 from .spec_model import Spec
 from .spec_semantics import DATA_SUFFIXES, DEFAULT_MISSING
@@ -41,58 +41,8 @@ from .spec_yaml import MAX_LINE_LENGTH, MAX_NESTING, SpecLoader
 from .spec_yaml import compose as _compose
 from .spec_yaml import read_text as _read_text
 
-SPEC_SUFFIXES = (".yaml", ".yml")
-
 __all__ = ["load_spec", "find_specs", "SpecLoader", "SPEC_SUFFIXES", "DATA_SUFFIXES",
            "DEFAULT_MISSING", "MAX_LINE_LENGTH", "MAX_NESTING"]
-
-
-# -- finding spec files ---------------------------------------------------------------------
-
-
-def find_specs(paths: Iterable[str | os.PathLike]) -> list[Path]:
-    """The spec files named by ``paths``: files as given, ``*.yaml``/``*.yml`` under folders.
-
-    Folders are searched recursively (hidden folders skipped) and their files sorted; a file
-    named twice is listed once.
-
-    Raises
-    ------
-    UsageError
-        A path does not exist, or no spec file was found at all.
-
-    Examples
-    --------
-    >>> find_specs(["specs/bushing-supplier.yaml"])  # doctest: +SKIP
-    [PosixPath('specs/bushing-supplier.yaml')]
-    """
-    found: list[Path] = []
-    problems: list[str] = []
-    given = [Path(p) for p in paths]
-    for p in given:
-        if p.is_dir():
-            hits = sorted(
-                f for f in p.rglob("*")
-                if f.suffix.lower() in SPEC_SUFFIXES and f.is_file()
-                and not any(part.startswith(".") for part in f.relative_to(p).parts)
-            )
-            found.extend(hits)
-        elif p.is_file():
-            found.append(p)
-        elif p.exists():
-            from .safe_open import kind_of
-
-            problems.append(f"{p}: is {kind_of(p.stat().st_mode)}, not a spec file or a folder "
-                            "of specs")
-        else:
-            problems.append(f"{p}: no such file or folder")
-    if problems:
-        raise UsageError(problems)
-    unique = list(dict.fromkeys(found))
-    if not unique:
-        names = ", ".join(str(p) for p in given) or "(no paths given)"
-        raise UsageError(f"no spec files (*.yaml, *.yml) found in {names}")
-    return unique
 
 
 # -- load_spec ------------------------------------------------------------------------------

@@ -49,7 +49,7 @@ def anchor_result(result_path: str | None, latest: Path | None, ledger_path: Pat
     anchors the chain up to itself. Replay ignores this key. (A nightly run adds it to the
     staged result before renaming it into place: :func:`_commit`.)
     """
-    from ..report.json_result import with_key
+    from ..report.json_text import with_key
     from ..runner import write_text_atomic
 
     anchor = ledger_anchor(ledger_path, entry)
@@ -116,7 +116,7 @@ def _commit(entry: Entry, outcome: Outcome, ledger_path: Path) -> str | None:
     text is written over it and synced here, before any rename, so the result appears in
     place complete and anchored (one write, no later rewrite of the file in place).
     """
-    from ..report.json_result import with_key
+    from ..report.json_text import with_key
     from ..runner import Staged, commit_all, write_text_atomic
 
     if outcome.tmp_workbook is None or outcome.tmp_result is None:

@@ -143,7 +143,7 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
     from ..audit import command_line
     from ..digest import DigestRow, Progress, summary_line, write_digest
     from ..runner import atomic_path
-    from ..spec import find_specs
+    from ..spec_files import find_specs
 
     t0 = time.monotonic()
     out = Path(out)

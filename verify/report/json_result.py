@@ -7,7 +7,6 @@ README ("The JSON result").
 
 from __future__ import annotations
 
-import json
 import math
 import numbers
 from collections.abc import Mapping
@@ -17,6 +16,7 @@ import numpy as np
 
 from ..model import CheckResult, DiagnosticResult, Evaluation
 from .hooks import report_hook
+from .json_text import _string, dumps, with_key  # noqa: F401 - the result's text (json_text)
 
 FORMAT = "verify-result/1"
 
@@ -175,6 +175,70 @@ def traceability(ev: Evaluation) -> dict | None:
 
 def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
     """The JSON result as a dict. ``workbook`` adds {path, sha256} of the workbook written."""
+    return _clean(_document(ev, workbook))
+
+
+def result_text(ev: Evaluation) -> str:
+    """``dumps(result_dict(ev))``, written in one pass: the values are cleaned as they are
+    written (:func:`_encode_clean`), without building the cleaned copy of the document."""
+    out: list[str] = []
+    _encode_clean(_document(ev, None), "\n", out)
+    out.append("\n")
+    return "".join(out)
+
+
+def _encode_clean(o, nl: str, out: list[str]) -> None:
+    """Append the text ``dumps`` writes for ``_clean(o)`` (the same rules, value by value)."""
+    t = type(o)
+    if t is str:
+        out.append(_string(o))
+    elif o is None:
+        out.append("null")
+    elif t is float:
+        out.append(float.__repr__(o) if math.isfinite(o) else "null")
+    elif t is int:
+        out.append(int.__repr__(o))
+    elif o is True:
+        out.append("true")
+    elif o is False:
+        out.append("false")
+    elif t is dict or isinstance(o, Mapping):
+        if not o:
+            out.append("{}")
+            return
+        mark = len(out)
+        inner = nl + "  "
+        sep = "{" + inner
+        for k, v in o.items():
+            if type(k) is not str:  # as _clean: keys made text, a later equal key wins
+                del out[mark:]
+                _encode_clean({str(k): v for k, v in o.items()}, nl, out)
+                return
+            out.append(sep)
+            out.append(_string(k))
+            out.append(": ")
+            _encode_clean(v, inner, out)
+            sep = "," + inner
+        out.append(nl + "}")
+    elif t is list or t is tuple or isinstance(o, (list, tuple)):
+        if not o:
+            out.append("[]")
+            return
+        inner = nl + "  "
+        sep = "[" + inner
+        for v in o:
+            out.append(sep)
+            _encode_clean(v, inner, out)
+            sep = "," + inner
+        out.append(nl + "]")
+    elif isinstance(o, str):
+        out.append(_string(o))
+    else:
+        _encode_clean(_num(o), nl, out)
+
+
+def _document(ev: Evaluation, workbook: Mapping | None) -> dict:
+    """The JSON result before :func:`_clean` (numpy numbers, tuples, non-finite floats)."""
     spec = ev.spec
     run = ev.run
     doc = {
@@ -286,102 +350,4 @@ def result_dict(ev: Evaluation, *, workbook: Mapping | None = None) -> dict:
     }
     if workbook is not None:
         doc["workbook"] = dict(workbook)
-    return _clean(doc)
-
-
-def dumps(doc: dict) -> str:
-    """Serialise with full-precision floats; refuses NaN (a NaN must never reach a report).
-
-    The text is exactly ``json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False)``
-    and a newline. A document of plain dicts, lists, strings, numbers, booleans and None (what
-    :func:`result_dict` gives) is written by :func:`_encode`, several times faster than the
-    standard library's indenting encoder (which is pure Python); anything else goes to
-    ``json.dumps`` itself, which also raises its own errors.
-    """
-    out: list[str] = []
-    try:
-        _encode(doc, "\n", out)
-    except _NotPlain:
-        return json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
-    out.append("\n")
-    return "".join(out)
-
-
-class _NotPlain(Exception):
-    """A value :func:`_encode` leaves to ``json.dumps``."""
-
-
-_string = json.encoder.encode_basestring  # the C function when available (as json.dumps uses)
-_INF = float("inf")
-
-
-def _encode(o, nl: str, out: list[str]) -> None:
-    """Append the JSON text of ``o`` as ``json.dumps(indent=2, ensure_ascii=False)`` writes it
-    (``nl``: a newline and the current indentation); raises :class:`_NotPlain` otherwise."""
-    t = type(o)
-    if t is str:
-        out.append(_string(o))
-    elif t is float:
-        if o != o or o == _INF or o == -_INF:
-            raise _NotPlain  # json.dumps refuses it (allow_nan=False) with its own message
-        out.append(float.__repr__(o))
-    elif t is int:
-        out.append(int.__repr__(o))
-    elif o is None:
-        out.append("null")
-    elif o is True:
-        out.append("true")
-    elif o is False:
-        out.append("false")
-    elif t is dict:
-        if not o:
-            out.append("{}")
-            return
-        inner = nl + "  "
-        sep = "{" + inner
-        for k, v in o.items():
-            if type(k) is not str:
-                raise _NotPlain
-            out.append(sep)
-            out.append(_string(k))
-            out.append(": ")
-            _encode(v, inner, out)
-            sep = "," + inner
-        out.append(nl + "}")
-    elif t is list or t is tuple:
-        if not o:
-            out.append("[]")
-            return
-        inner = nl + "  "
-        sep = "[" + inner
-        for v in o:
-            out.append(sep)
-            _encode(v, inner, out)
-            sep = "," + inner
-        out.append(nl + "]")
-    else:
-        raise _NotPlain
-
-
-def with_key(text: str, key: str, value) -> str:
-    """``text`` (a document as :func:`dumps` wrote it) with ``key: value`` added at its end.
-
-    The same text as serialising the document with the key added, without reading the text
-    back: the result's ``workbook`` (known once the workbook is written) and the nightly run's
-    ``ledger`` anchor are added this way. A document that already holds ``key`` at its top
-    level (or is not an object) is read back and written again.
-    """
-    if not text.endswith("\n}\n") or f'\n  {_string(key)}: ' in text:
-        doc = json.loads(text)
-        doc[key] = value
-        return dumps(_clean(doc))
-    out = [text[:-3], ",\n  ", _string(key), ": "]
-    value = _clean(value)
-    try:
-        _encode(value, "\n  ", out)
-    except _NotPlain:
-        doc = json.loads(text)
-        doc[key] = value
-        return dumps(doc)
-    out.append("\n}\n")
-    return "".join(out)
+    return doc
