@@ -23,7 +23,7 @@ from __future__ import annotations
 import functools
 import weakref
 
-from openpyxl.cell.cell import MergedCell
+from openpyxl.cell.cell import Cell, MergedCell
 from openpyxl.styles import Alignment, Border, Font, PatternFill
 from openpyxl.styles.cell_style import StyleArray
 from openpyxl.worksheet.cell_range import CellRange
@@ -270,3 +270,38 @@ def row_dimension(ws, r: int):
     d._style = None
     dict.__setitem__(dims, r, d)
     return d
+
+
+def cell_at(ws, row: int, column: int):
+    """``ws.cell(row, column)``: the cell, created empty when missing exactly as openpyxl's
+    ``Worksheet._get_cell`` creates it, without its call layers (every written cell passes
+    here)."""
+    cell = ws._cells.get((row, column))
+    if cell is not None:
+        return cell
+    if not (0 < row < 1048577 and column > 0):
+        return ws.cell(row=row, column=column)  # openpyxl's own error
+    cell = Cell.__new__(Cell)
+    cell.parent = ws
+    cell._style = None
+    cell.row = row
+    cell.column = column
+    cell._value = None
+    cell._hyperlink = None
+    cell.data_type = "n"
+    cell._comment = None
+    if row > ws._current_row:
+        ws._current_row = row
+    ws._cells[row, column] = cell
+    return cell
+
+
+def store(ws, row: int, column: int, value):
+    """``ws.cell(row, column, value)`` (a number stored as openpyxl stores it, NaN included);
+    returns the cell."""
+    cell = cell_at(ws, row, column)
+    if type(value) is float or type(value) is int:
+        cell._value, cell.data_type = value, "n"
+    elif value is not None:
+        cell.value = value
+    return cell

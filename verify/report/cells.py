@@ -19,7 +19,13 @@ from collections.abc import Iterable
 import numpy as np
 from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 
-from .cell_styles import align_top, alignment_of, font_of, merge, row_dimension, style
+from .cell_styles import (
+    align_top,
+    cell_at,
+    merge,
+    row_dimension,
+    style,
+)
 from .safe_text import XML_ILLEGAL as XML_ILLEGAL  # re-exported for the sheet writers
 from .safe_text import xml_safe
 
@@ -152,15 +158,22 @@ def put(
     Strings are forced to the text type (no formulas, no error values). Numbers keep full
     precision; ``fmt`` sets only how they look.
     """
-    cell = ws._cells.get((row, col))
-    if cell is None:
-        cell = ws.cell(row=row, column=col)
+    cell = cell_at(ws, row, col)
     # Values are stored as openpyxl's ``cell.value = ...`` stores them (its type codes: "n"
     # number, "b" logical, "s" text) without its per-value type dispatch; text has been made
     # safe by clean_text, which leaves nothing for openpyxl's own check of text to refuse.
     number = None  # the number format, set only on a number
     right = False
-    if value is None:
+    kind = type(value)
+    if kind is str:  # the common types first, then the general tests below
+        cell._value, cell.data_type = clean_text(value), "s"
+    elif kind is float and math.isfinite(value):
+        cell._value, cell.data_type = value, "n"
+        number = fmt or None
+    elif kind is int:
+        cell._value, cell.data_type = value, "n"
+        number = fmt or None
+    elif value is None:
         pass
     elif isinstance(value, (bool, np.bool_)):
         cell._value, cell.data_type = bool(value), "b"
@@ -299,6 +312,11 @@ def fit_rows(ws, *, line_height: float = 14.5) -> None:
         if r not in rows_present:
             ws._get_cell(r, 1)
     valued = sorted((rc, cell) for rc, cell in cells.items() if cell._value is not None)
+    # the alignments and fonts by their index in the workbook's lists (an unstyled cell has
+    # the defaults at index 0), read once per index rather than through a proxy per cell
+    aligns, fonts = ws.parent._alignments, ws.parent._fonts
+    wraps: dict[int, bool] = {}
+    sizes: dict[int, float] = {}
     i, n = 0, len(valued)
     while i < n:
         r = valued[i][0][0]
@@ -311,11 +329,21 @@ def fit_rows(ws, *, line_height: float = 14.5) -> None:
         font_scale = 1.0
         for cell in row:
             value = cell._value
-            if not isinstance(value, str) or not alignment_of(cell).wrap_text:
+            if not isinstance(value, str):
+                continue
+            st = cell._style
+            a = 0 if st is None else st[5]
+            wrap = wraps.get(a)
+            if wrap is None:
+                wrap = wraps[a] = bool(aligns[a].wrap_text)
+            if not wrap:
                 continue
             own = width(cell.column)
             cap, n_rows = spans.get((r, cell.column), (own, 1))
-            size = (font_of(cell).sz or 11) / 11
+            f = st[0]  # a wrapped cell has a style array
+            size = sizes.get(f)
+            if size is None:
+                size = sizes[f] = (fonts[f].sz or 11) / 11
             lines = sum(
                 max(1, math.ceil(len(part) * size / max(cap * 1.05, 1)))
                 for part in value.split("\n")
@@ -329,7 +357,8 @@ def fit_rows(ws, *, line_height: float = 14.5) -> None:
             if dim.ht is None or dim.ht < h:
                 dim.ht = h
             for cell in row:  # in a tall row, everything reads from the top
-                if alignment_of(cell).vertical is None:
+                st = cell._style
+                if aligns[0 if st is None else st[5]].vertical is None:
                     align_top(cell)
 
 

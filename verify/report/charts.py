@@ -34,7 +34,7 @@ from openpyxl.drawing.text import (
 )
 
 from ..model import CharacteristicResult, Evaluation
-from .cell_styles import row_dimension, shared_font, style
+from .cell_styles import row_dimension, shared_font, store, style
 from .cells import NOTE_FONT, SECTION_FONT, put
 from .hooks import has_report, report_hook
 from .layout import used_positions
@@ -230,8 +230,8 @@ class _Block:
         for x, y in pts:
             put(self.ws, self.row, self.col, name)
             if x is not None and y is not None:
-                self.ws.cell(self.row, self.col + 1, float(x))
-                cell = self.ws.cell(self.row, self.col + 2, float(y))
+                store(self.ws, self.row, self.col + 1, float(x))
+                cell = store(self.ws, self.row, self.col + 2, float(y))
                 if y_fmt:
                     style(cell, fmt=y_fmt)
             self.row += 1
@@ -303,8 +303,8 @@ def _production_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
     for p, x, pts, lots in blocks:
         first = r
         for xi, yi, lot in zip(x.tolist(), pts.tolist(), lots.tolist(), strict=True):
-            ws.cell(r, col, xi)
-            style(ws.cell(r, col + 1, yi), fmt=formats["mean"])
+            store(ws, r, col, xi)
+            style(store(ws, r, col + 1, yi), fmt=formats["mean"])
             put(ws, r, col + 2, lot)
             put(ws, r, col + 3, p)
             r += 1

@@ -16,7 +16,13 @@ from .formulas import (
     lot_names_problem,
     string_literal,
 )
-from .layout import LOT_COLUMN, VALUE_COLUMN, Block, MeasurementLayout, used_rows
+from .layout import (
+    LOT_COLUMN,
+    VALUE_COLUMN,
+    Block,
+    MeasurementLayout,
+    used_positions,
+)
 from .recheck_blocks import block_rows, lots_of, why_no_block
 from .recheck_lookup import Helper, used_flags
 from .recheck_sheet import MAX_HELPER_ROWS, Sheet
@@ -87,24 +93,57 @@ def lot_components(sh: Sheet, layout, c: CharacteristicResult, process: str
     return dfw, msw
 
 
+_ARRAYS: dict = {}
+
+
+def _arrays(t: pd.DataFrame, *names: str) -> dict:
+    """Columns of a table as arrays, made once per table: ``source_row``, ``order``, ``row``
+    as they are, ``source_file`` as text, ``sheet`` as numpy text (its sort key)."""
+    hit = _ARRAYS.get(id(t))
+    if hit is None or hit[0] is not t:
+        if len(_ARRAYS) >= 8:
+            _ARRAYS.clear()
+        hit = _ARRAYS[id(t)] = (t, {})
+    cols = hit[1]
+    for name in names:
+        if name not in cols:
+            if name == "source_file":
+                cols[name] = t[name].astype(str).to_numpy()
+            elif name == "sheet":
+                cols[name] = t[name].to_numpy(dtype=str)
+            else:
+                cols[name] = t[name].to_numpy()
+    return cols
+
+
 def _production_order(layout: MeasurementLayout, ev: Evaluation, name: str, process: str):
-    """The used rows in the engine's production order and the same rows in sheet order."""
+    """The used rows in the engine's production order and the same rows in sheet order, as
+    positions into the evaluation's table and the layout's table."""
     t = ev.measurements.table
-    sel = used_rows(t, used_flags(t, "excluded"), name, process)
-    lt = block_rows(layout, name, process)
-    # stable sorts of the few rows by numpy keys: a pandas sort per characteristic costs more
-    # than the rows (np.lexsort sorts by its last key first and is stable)
-    by_order = np.lexsort((sel["source_row"].to_numpy(), sel["order"].to_numpy()))
-    by_row = np.lexsort((lt["row"].to_numpy(), lt["sheet"].to_numpy(dtype=str)))
-    return sel.iloc[by_order], lt.iloc[by_row]
+    pos = used_positions(t, used_flags(t, "excluded")).get((name, process))
+    if pos is None:
+        pos = np.zeros(0, dtype=np.intp)
+    lt = layout.table
+    lpos = used_positions(lt, used_flags(lt, "used")).get((name, process))
+    if lpos is None:
+        lpos = np.zeros(0, dtype=np.intp)
+    # stable sorts of the few rows by numpy keys (np.lexsort sorts by its last key first and
+    # is stable): a pandas sort per characteristic costs more than the rows
+    a = _arrays(t, "source_row", "order", "source_file")
+    b = _arrays(lt, "row", "sheet", "source_row", "source_file")
+    by_order = pos[np.lexsort((a["source_row"][pos], a["order"][pos]))]
+    by_row = lpos[np.lexsort((b["row"][lpos], b["sheet"][lpos]))]
+    return by_order, by_row
 
 
-def _same_rows(a: pd.DataFrame, b: pd.DataFrame) -> bool:
-    return len(a) == len(b) and bool(
-        np.array_equal(a["source_row"].to_numpy(), b["source_row"].to_numpy())
-        and np.array_equal(
-            a["source_file"].astype(str).to_numpy(), b["source_file"].astype(str).to_numpy()
-        )
+def _same_rows(ev: Evaluation, layout: MeasurementLayout, sel, lt) -> bool:
+    """Whether the rows at positions ``sel`` (evaluation's table) and ``lt`` (layout's table)
+    are the same source rows in the same order."""
+    a = _arrays(ev.measurements.table, "source_row", "source_file")
+    b = _arrays(layout.table, "source_row", "source_file")
+    return len(sel) == len(lt) and bool(
+        np.array_equal(a["source_row"][sel], b["source_row"][lt])
+        and np.array_equal(a["source_file"][sel], b["source_file"][lt])
     )
 
 
@@ -141,8 +180,8 @@ def moving_range(sh: Sheet, ev, layout, name: str, block: Block, n: str) -> str 
             None,
             "SUMPRODUCT(ABS(x[i+1] - x[i])) / (n - 1), the values looked up in production order",
         )
-    sel, lt = _production_order(layout, ev, name, "new")
-    if _same_rows(sel, lt):  # the block lists the values in production order
+    sel_pos, lt_pos = _production_order(layout, ev, name, "new")
+    if _same_rows(ev, layout, sel_pos, lt_pos):  # the block lists the values in production order
         a = Block(block.sheet, block.first + 1, block.last).ref(VALUE_COLUMN)
         b = Block(block.sheet, block.first, block.last - 1).ref(VALUE_COLUMN)
         return sh.qty(
@@ -151,6 +190,7 @@ def moving_range(sh: Sheet, ev, layout, name: str, block: Block, n: str) -> str 
             None,
             "SUMPRODUCT(ABS(x[i+1] - x[i])) / (n - 1), rows in production order",
         )
+    sel, lt = ev.measurements.table.iloc[sel_pos], layout.table.iloc[lt_pos]
     if len(sel) - 1 > MAX_HELPER_ROWS:
         sh.unavailable(
             "average moving range",

@@ -34,7 +34,7 @@ from pathlib import Path
 
 from ..model import Evaluation
 from .audit_sheet import write_audit
-from .cell_styles import row_dimension
+from .cell_styles import cell_at, row_dimension
 from .cells import EXCEL_CELL_MAX, XML_ILLEGAL, clean_text, page_setup, put, sheet_name
 from .characteristic_sheet import write_characteristic
 from .details_sheet import DETAILS_SHEET, details_placeholder, per_characteristic_sheets
@@ -296,17 +296,13 @@ def read_record(wb) -> str | None:
 
 def _write_recheck(ws, ev: Evaluation, layout: MeasurementLayout) -> None:
     rows = recheck_rows(ev, layout)
-    cells = ws._cells
     widths: dict[int, int] = {}
     for i, values in enumerate(rows, start=1):
         for j, v in enumerate(values, start=1):
             if v is None:
                 continue
             if isinstance(v, str) and v.startswith("=") and len(v) > 1:
-                cell = cells.get((i, j))
-                if cell is None:
-                    cell = ws.cell(row=i, column=j)
-                cell.value = v  # a formula, as recheck_rows asks
+                cell_at(ws, i, j).value = v  # a formula, as recheck_rows asks
                 widths[j] = max(widths.get(j, 0), 14)
                 continue
             put(ws, i, j, v)  # text stays text, numbers keep full precision
@@ -364,8 +360,8 @@ def _recheck_as_table(ws, n_rows: int) -> None:
     for r in (SUMMARY_ROW, *range(HEADER_ROW + 1, n_rows + 1)):
         if isinstance(value(r, 1), str) and value(r, 2) is None and value(r, 3) is None:
             style(cells[r, 1], font=bold)  # a block's heading: the characteristic or check
-        style(ws.cell(r, 5), align=centre)
-        style(ws.cell(r, 6), align=wrap_top)
+        style(cell_at(ws, r, 5), align=centre)
+        style(cell_at(ws, r, 6), align=wrap_top)
     fit_rows(ws)
     ws.freeze_panes = f"A{HEADER_ROW + 1}"
     ws.print_options.gridLines = True
