@@ -29,6 +29,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from openpyxl.comments import Comment
 from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
+from openpyxl.worksheet.datavalidation import DataValidation
 from openpyxl.worksheet.formula import ArrayFormula
 from openpyxl.worksheet.hyperlink import Hyperlink
 from openpyxl.worksheet.table import Table
@@ -173,11 +174,16 @@ def test_xml_illegal_control_characters_are_replaced_visibly(tmp_path):
         # openpyxl refuses these on assignment; a cell reached around that check still must
         # not break the file: the same guard as for openpyxl's parts (U+FFFD)
         ws["A1"]._value = "bell\x07 and nul\x00 here"
+        # and one in the frame openpyxl writes around the rows (a validation's prompt)
+        dv = DataValidation(type="whole", prompt="prompt\x01", showInputMessage=True)
+        dv.add("A1")
+        ws.add_data_validation(dv)
         return wb
 
     fast, _ = _compare(build, tmp_path)
     assert _streamed(fast)
     assert openpyxl.load_workbook(fast).active["A1"].value == "bell\ufffd and nul\ufffd here"
+    assert "\x01" not in _sheet_xml(fast) and 'prompt="prompt\ufffd"' in _sheet_xml(fast)
 
 
 def test_row_dimensions_styles_merges_and_empty_rows(tmp_path):

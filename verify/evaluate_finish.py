@@ -113,7 +113,8 @@ def finish(spec: Spec, d: CharDraft) -> CharacteristicResult:
         beyond = d.processes[name].beyond_limits if name in d.processes else None
         if beyond is not None and beyond.total:
             review.append(f"review: {d.ch.name} ({name}): {_beyond_words(d.ch, beyond)}")
-    for k, res in ((kind(r.check), r) for r in checks if r.check in kind_names()):
+    known = kind_names()
+    for k, res in ((kind(r.check), r) for r in checks if r.check in known):
         review_of = getattr(k.hook("rule"), "review", None)  # optional: notes after deciding
         notes = review_of(k, res, spec) if review_of is not None else ()
         review.extend(f"review: {d.ch.name}: {note}" for note in notes)

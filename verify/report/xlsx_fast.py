@@ -202,8 +202,11 @@ def splice(
                         data = _core_properties(data, w3c)
                     zout.writestr(out, data, compresslevel=6)
                     continue
+                # the placeholder's frame gets the guard too (header and footer text, ...):
+                # every sheet is streamed now, so this is where openpyxl's sheet XML passes
                 data = _DIMENSION.sub(
-                    f'<dimension ref="{sheet.dimension}"/>'.encode(), data, count=1
+                    f'<dimension ref="{sheet.dimension}"/>'.encode(), _guard_controls(data),
+                    count=1,
                 )
                 head, tail = _split_placeholder(data)
                 _set_level(out, compresslevel)
