@@ -37,8 +37,7 @@ from ..model import CharacteristicResult, Evaluation
 from .cell_styles import row_dimension, shared_font, store, style
 from .cells import NOTE_FONT, SECTION_FONT, put
 from .hooks import has_report, report_hook
-from .layout import used_positions
-from .recheck_lookup import used_flags
+from .layout import production_positions
 
 MAX_POINTS = 1000
 MAX_BINS = 40
@@ -69,12 +68,11 @@ _COLUMNS: dict = {}
 
 
 def _columns(t):
-    """The table's value, lot (as text), order and source-row columns as arrays, once per
-    table (a chart asks for one characteristic and process at a time)."""
+    """The table's value and lot (as text) columns as arrays, once per table (a chart asks
+    for one characteristic and process at a time)."""
     hit = _COLUMNS.get(id(t))
     if hit is None or hit[0] is not t:
-        cols = (t["value"].to_numpy(dtype=float), t["lot"].astype(str).to_numpy(dtype=object),
-                t["order"], t["source_row"])
+        cols = (t["value"].to_numpy(dtype=float), t["lot"].astype(str).to_numpy(dtype=object))
         if len(_COLUMNS) >= 8:
             _COLUMNS.clear()
         hit = _COLUMNS[id(t)] = (t, cols)
@@ -86,16 +84,8 @@ def _series_values(ev: Evaluation, name: str, process: str):
     t = ev.measurements.table
     # the rows (characteristic == name) & (process == process) & ~excluded, from the table's
     # cached row groups rather than a mask over the whole table per question
-    pos = used_positions(t, used_flags(t, "excluded")).get((name, process))
-    values, lots, order, source = _columns(t)
-    if pos is None or len(pos) == 0:
-        return values[:0], lots[:0]
-    if order.dtype.kind in "iu" and source.dtype.kind in "iu":
-        # sorted by order, then source row, stably (np.lexsort sorts by its last key first)
-        pos = pos[np.lexsort((source.to_numpy()[pos], order.to_numpy()[pos]))]
-    else:
-        pos = pos[t.iloc[pos].reset_index(drop=True).sort_values(
-            ["order", "source_row"], kind="stable").index.to_numpy()]
+    pos = production_positions(t, name, process)
+    values, lots = _columns(t)
     return values[pos], lots[pos]
 
 

@@ -124,14 +124,50 @@ def used_rows(table: pd.DataFrame, used: np.ndarray, name: str, process: str) ->
     return table.iloc[pos] if pos is not None else table.iloc[:0]
 
 
-def in_production_order(rows: pd.DataFrame) -> pd.DataFrame:
-    """``rows.sort_values(["order", "source_row"], kind="stable")``: by numpy's stable
-    lexsort when both are integer columns (a pandas sort per sample cost more than its rows)."""
-    order, source = rows["order"], rows["source_row"]
+_FLAGS: dict[tuple[int, str], tuple] = {}
+
+
+def used_flags(t: pd.DataFrame, column: str) -> np.ndarray:
+    """The used-row flags of a table, one array per table (so the row groups are cached)."""
+    hit = _FLAGS.get((id(t), column))
+    if hit is None or hit[0] is not t:
+        flags = t[column].to_numpy(dtype=bool)
+        if column == "excluded":
+            flags = ~flags
+        if len(_FLAGS) >= 8:
+            _FLAGS.clear()
+        hit = _FLAGS[(id(t), column)] = (t, flags)
+    return hit[1]
+
+
+_COLUMNS: dict = {}
+
+
+def object_column(t: pd.DataFrame, name: str) -> np.ndarray:
+    """``t[name].to_numpy(dtype=object)`` (Python ints, floats and strings, as ``iterrows``
+    gives them), made once per table."""
+    hit = _COLUMNS.get((id(t), name))
+    if hit is None or hit[0] is not t:
+        if len(_COLUMNS) >= 32:
+            _COLUMNS.clear()
+        hit = _COLUMNS[(id(t), name)] = (t, t[name].to_numpy(dtype=object))
+    return hit[1]
+
+
+def production_positions(t: pd.DataFrame, name: str, process: str) -> np.ndarray:
+    """The positions of the used rows of one characteristic and process of the evaluation's
+    table ``t`` in production order: the rows
+    ``used_rows(t, ~t["excluded"], name, process).sort_values(["order", "source_row"],
+    kind="stable")`` holds, as positions (no DataFrame per question)."""
+    pos = used_positions(t, used_flags(t, "excluded")).get((name, process))
+    if pos is None or len(pos) == 0:
+        return np.zeros(0, dtype=np.intp)
+    order, source = t["order"], t["source_row"]
     if order.dtype.kind in "iu" and source.dtype.kind in "iu":
         # np.lexsort sorts by its last key first and is stable, as the pandas sort
-        return rows.iloc[np.lexsort((source.to_numpy(), order.to_numpy()))]
-    return rows.sort_values(["order", "source_row"], kind="stable")
+        return pos[np.lexsort((source.to_numpy()[pos], order.to_numpy()[pos]))]
+    sub = t.iloc[pos].reset_index(drop=True)
+    return pos[sub.sort_values(["order", "source_row"], kind="stable").index.to_numpy()]
 
 
 def _aligned_pairs(c) -> bool:
@@ -148,42 +184,73 @@ def _aligned_pairs(c) -> bool:
     return False
 
 
+def _sheet_order(evaluation: Evaluation, t: pd.DataFrame) -> np.ndarray:
+    """The positions of ``t``'s rows in sheet order: by characteristic (spec order), process
+    (old, new, others), used before excluded, matched pairs first sorted by pair key (where a
+    check reads aligned pairs), then production order and source row; stable.
+
+    Sorted by numpy's stable lexsort on integer keys (the pair keys as their rank among the
+    sorted distinct keys) when the order and source row are integer columns, as the stable
+    multi-column pandas sort orders them; else by that pandas sort.
+    """
+    n = len(t)
+    char_rank = {c.name: i for i, c in enumerate(evaluation.spec.characteristics)}
+    proc_rank = {"old": 0, "new": 1}
+    used = ~t["excluded"].astype(bool).to_numpy()
+    keys = {
+        "_c": t["characteristic"].map(char_rank).fillna(len(char_rank)).astype(int).to_numpy(),
+        "_p": t["process"].map(proc_rank).fillna(2).astype(int).to_numpy(),
+        "_u": (~used).astype(int),
+        # matched-pair rank: 0 for matched pairs (sorted by key), 1 otherwise
+        "_m": np.ones(n, dtype=int),
+        "_k": np.full(n, "", dtype=object),
+    }
+    paired = False
+    for c in evaluation.characteristics:
+        if not _aligned_pairs(c):
+            continue
+        paired = True
+        sel = (t["characteristic"] == c.name).to_numpy() & used & t["process"].isin(
+            ["old", "new"]).to_numpy()
+        sub = t.loc[sel]
+        counts = sub.groupby("pair")["process"].nunique()
+        matched = set(counts.index[counts == 2])
+        is_matched = sel & t["pair"].isin(matched).to_numpy()
+        keys["_m"][is_matched] = 0
+        keys["_k"][is_matched] = t.loc[is_matched, "pair"].astype(str).to_numpy()
+    order, source = t["order"], t["source_row"]
+    if order.dtype.kind in "iu" and source.dtype.kind in "iu":
+        sort_keys = [source.to_numpy(), order.to_numpy()]
+        if paired:
+            sort_keys += [np.unique(keys["_k"], return_inverse=True)[1].ravel(), keys["_m"]]
+        sort_keys += [keys["_u"], keys["_p"], keys["_c"]]
+        return np.lexsort(sort_keys)  # (by its last key first, stably)
+    frame = pd.DataFrame({**keys, "order": order.to_numpy(), "source_row": source.to_numpy()})
+    frame = frame.sort_values(["_c", "_p", "_u", "_m", "_k", "order", "source_row"],
+                              kind="stable")
+    return frame.index.to_numpy()
+
+
 def measurement_layout(evaluation: Evaluation, *, rows_per_sheet: int = EXCEL_MAX_ROWS - 1):
     """Order the tidy table for the sheet and find the blocks the recheck formulas use.
 
     ``rows_per_sheet`` data rows go on each sheet (Excel's limit less the header); beyond it the
     table continues on ``Measurements (2)`` and so on, never silently cut.
     """
-    t = evaluation.measurements.table.copy()
+    t = evaluation.measurements.table
     trace = getattr(evaluation.measurements, "trace", None)
     if trace is not None:  # part, process as written, corrections, kept columns
         t = t.join(trace)
+    t = t.iloc[_sheet_order(evaluation, t)].reset_index(drop=True)
     t["used"] = ~t["excluded"].astype(bool)
-    char_rank = {c.name: i for i, c in enumerate(evaluation.spec.characteristics)}
-    proc_rank = {"old": 0, "new": 1}
-    t["_c"] = t["characteristic"].map(char_rank).fillna(len(char_rank)).astype(int)
-    t["_p"] = t["process"].map(proc_rank).fillna(2).astype(int)
-    t["_u"] = (~t["used"]).astype(int)
-    # matched-pair rank: 0 for matched pairs (sorted by key), 1 otherwise
-    t["_m"] = 1
-    t["_k"] = ""
-    for c in evaluation.characteristics:
-        if not _aligned_pairs(c):
-            continue
-        sel = (t["characteristic"] == c.name) & t["used"] & t["process"].isin(["old", "new"])
-        sub = t.loc[sel]
-        counts = sub.groupby("pair")["process"].nunique()
-        matched = set(counts.index[counts == 2])
-        is_matched = sel & t["pair"].isin(matched)
-        t.loc[is_matched, "_m"] = 0
-        t.loc[is_matched, "_k"] = t.loc[is_matched, "pair"].astype(str)
-    t = t.sort_values(["_c", "_p", "_u", "_m", "_k", "order", "source_row"], kind="stable")
-    t = t.drop(columns=["_c", "_p", "_u", "_m", "_k"]).reset_index(drop=True)
 
     n = len(t)
     idx = np.arange(n)
     sheet_no = idx // rows_per_sheet
-    t["sheet"] = [_sheet_name(i) for i in sheet_no] if n else []
+    if n and n <= rows_per_sheet:
+        t["sheet"] = [_sheet_name(0)] * n
+    else:
+        t["sheet"] = [_sheet_name(i) for i in sheet_no] if n else []
     t["row"] = idx % rows_per_sheet + 2
     sheets = tuple(_sheet_name(i) for i in range(int(sheet_no[-1]) + 1)) if n else (
         MEASUREMENTS_SHEET,

@@ -15,7 +15,6 @@ import re
 from collections.abc import Mapping
 from dataclasses import dataclass
 
-import numpy as np
 import pandas as pd
 
 from ..model import Evaluation
@@ -24,9 +23,10 @@ from .layout import (
     LOT_COLUMN,
     VALUE_COLUMN,
     MeasurementLayout,
-    in_production_order,
-    used_rows,
+    object_column,
+    production_positions,
 )
+from .layout import used_flags as used_flags  # (re-exported: the recheck blocks use it)
 from .recheck_sheet import Sheet, as_text
 
 HELPER_HEADING = "Values looked up from the measurements table"
@@ -36,22 +36,6 @@ TOKEN = re.compile(r"\u27e6(\d+)\u27e7")  # a helper row's index, numbered once 
 
 def tok(i: int) -> str:
     return f"\u27e6{i}\u27e7"
-
-
-_FLAGS: dict[tuple[int, str], tuple] = {}
-
-
-def used_flags(t: pd.DataFrame, column: str) -> np.ndarray:
-    """The used-row flags of a table, one array per table (so the row groups are cached)."""
-    hit = _FLAGS.get((id(t), column))
-    if hit is None or hit[0] is not t:
-        flags = t[column].to_numpy(dtype=bool)
-        if column == "excluded":
-            flags = ~flags
-        if len(_FLAGS) >= 8:
-            _FLAGS.clear()
-        hit = _FLAGS[(id(t), column)] = (t, flags)
-    return hit[1]
 
 
 @dataclass(frozen=True)
@@ -133,12 +117,13 @@ def lot_cell(lot: str) -> str | None:
     return "=" + string_literal(lot) if lot.startswith("=") else (lot or None)
 
 
-def helper_rows(sh: Sheet, name: str, process: str, rows: pd.DataFrame, label) -> Helper:
+def helper_rows(sh: Sheet, name: str, process: str, t: pd.DataFrame, pos, label) -> Helper:
+    """Helper rows looking up the rows at positions ``pos`` of the evaluation's table ``t``."""
     first = len(sh.helpers)
-    # each row as a mapping of the columns read, with the values ``rows.iterrows()`` gives
-    # (object conversion: Python ints, floats and strings), without a Series per row
-    keys = [k for k in ("order", "source_row", "source_file", "lot") if k in rows.columns]
-    columns = [rows[k].to_numpy(dtype=object) for k in keys]
+    # each row as a mapping of the columns read, with the values ``iterrows()`` gives (object
+    # conversion: Python ints, floats and strings), without a Series per row
+    keys = [k for k in ("order", "source_row", "source_file", "lot") if k in t.columns]
+    columns = [object_column(t, k)[pos] for k in keys]
     for values in zip(*columns, strict=True):
         r = dict(zip(keys, values, strict=True))
         sh.helpers.append([as_text(label(r)), "=" + lookup(sh.table, name, process, r), None,
@@ -158,13 +143,12 @@ def used_block(sh: Sheet, ev: Evaluation, layout: MeasurementLayout, name: str,
         t = ev.measurements.table
         # the rows of (name, process) from the table's cached groups: a mask over the whole
         # table per characteristic would cost characteristics x rows
-        sel = used_rows(t, used_flags(t, "excluded"), name, process)
-        sel = in_production_order(sel)  # as the engine orders
-        if sel.empty:
+        pos = production_positions(t, name, process)  # as the engine orders
+        if len(pos) == 0:
             sh.samples[key] = None
         else:
             sh.samples[key] = helper_rows(
-                sh, name, process, sel,
+                sh, name, process, t, pos,
                 lambda r: f"{name}, {process}, production order {int(r['order']) + ORDER_BASE}, "
                           f"source row {int(r['source_row'])}")
     return sh.samples[key]

@@ -118,9 +118,10 @@ def _charts(rows, x, m, n) -> None:
 def _shapiro_wilk(rows, x, n) -> None:
     """shapiro_wilk of each row (see normality._swilk): the rows sorted together, less each
     sample's own middle value, then scipy's routine row by row."""
-    try:
-        from scipy.stats._ansari_swilk_statistics import swilk
-    except ImportError:  # pragma: no cover - left to the one-sample route
+    from .normality import _swilk_routine  # scipy's routine without importing scipy.stats
+
+    swilk = _swilk_routine()
+    if swilk is None:  # pragma: no cover - left to the one-sample route
         return
     y = np.sort(x, axis=1)
     y -= x[:, n // 2][:, None]

@@ -6,6 +6,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 from scipy import special
@@ -86,9 +87,8 @@ def _swilk(a: np.ndarray) -> tuple[float, float]:
     preparation as ``scipy.stats.shapiro`` (sorted, less a central value): the public wrapper
     costs several times the computation, and importing ``scipy.stats`` for it costs most of a
     second at start-up. Falls back to the public function if scipy moves the routine."""
-    try:
-        from scipy.stats._ansari_swilk_statistics import swilk
-    except ImportError:  # pragma: no cover - a scipy that moved the routine
+    swilk = _swilk_routine()
+    if swilk is None:  # pragma: no cover - a scipy that moved the routine
         from scipy import stats
 
         res = stats.shapiro(a)
@@ -97,6 +97,39 @@ def _swilk(a: np.ndarray) -> tuple[float, float]:
     y -= a[a.size // 2]  # as scipy.stats.shapiro: subtract a value near the median
     w, pw, _ = swilk(y, np.zeros(a.size // 2, dtype=np.float64), 0)
     return float(w), float(pw)
+
+
+@lru_cache(maxsize=1)
+def _swilk_routine():
+    """scipy's compiled Royston routine, or None when scipy moved it.
+
+    ``from scipy.stats._ansari_swilk_statistics import swilk`` runs the ``scipy.stats``
+    package's ``__init__`` first (about 0.7 s of CPU: every distribution, scipy.optimize,
+    scipy.spatial); the extension file is loaded directly instead (under a millisecond).
+    """
+    import importlib.machinery
+    import importlib.util
+    import os
+
+    import scipy
+
+    folder = os.path.join(os.path.dirname(scipy.__file__), "stats")
+    for suffix in importlib.machinery.EXTENSION_SUFFIXES:
+        path = os.path.join(folder, "_ansari_swilk_statistics" + suffix)
+        if os.path.isfile(path):
+            try:
+                spec = importlib.util.spec_from_file_location(
+                    "scipy.stats._ansari_swilk_statistics", path)
+                module = importlib.util.module_from_spec(spec)
+                spec.loader.exec_module(module)
+                return module.swilk
+            except (ImportError, AttributeError, OSError):  # pragma: no cover
+                break
+    try:  # pragma: no cover - the routine elsewhere than beside scipy/stats/__init__.py
+        from scipy.stats._ansari_swilk_statistics import swilk
+    except ImportError:  # pragma: no cover
+        return None
+    return swilk  # pragma: no cover
 
 
 def _ad_pvalue(a_star: float) -> float:
