@@ -166,6 +166,27 @@ def test_values_escaping_numbers_booleans_formulas(tmp_path):
     assert '<c r="A11" t="inlineStr"><is><t>=SUM(A1:A2)</t></is></c>' in xml
 
 
+def test_numpy_numbers_are_written_as_numbers(tmp_path):
+    """numpy 2 spells a float64's repr "np.float64(1.5)"; a cell holding one (openpyxl takes
+    it as a number) must still carry the number's shortest text."""
+    import numpy as np
+
+    def build():
+        wb = openpyxl.Workbook()
+        ws = wb.active
+        ws["A1"] = np.float64(0.1) * 3
+        ws["A2"] = np.int64(7)
+        ws["A3"] = np.float32(1.5)
+        return wb
+
+    fast, _ = _compare(build, tmp_path)
+    assert _streamed(fast)
+    ws = openpyxl.load_workbook(fast).active
+    assert ws["A1"].value == 0.30000000000000004 and ws["A2"].value == 7
+    assert ws["A3"].value == 1.5
+    assert "<v>0.30000000000000004</v>" in _sheet_xml(fast)
+
+
 def test_xml_illegal_control_characters_are_replaced_visibly(tmp_path):
     def build():
         wb = openpyxl.Workbook()

@@ -63,7 +63,8 @@ def number_text(value) -> str:
     openpyxl's ``safe_string``.
     """
     if isinstance(value, float) and math.isfinite(value):
-        return repr(value)
+        # float(): numpy's float64 is a float whose repr is "np.float64(...)" (numpy 2)
+        return repr(float(value))
     return safe_string(value)
 
 
