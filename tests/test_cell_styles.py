@@ -122,3 +122,50 @@ def test_shared_style_objects_are_one_object_per_value():
     assert shared_font(bold=True) == Font(bold=True)
     assert shared_fill("solid", fgColor="DCE6EC") == PatternFill("solid", fgColor="DCE6EC")
     assert shared_alignment(horizontal="center") is shared_alignment(horizontal="center")
+
+
+def test_cells_numbers_formulas_and_row_dimensions_as_openpyxl_makes_them():
+    """cell_at, store, set_formula and row_dimension leave the same objects as ws.cell,
+    ws.cell(row, col, value), cell.value = "=..." and ws.row_dimensions[r] (openpyxl 3.1's
+    Worksheet._get_cell, Cell._bind_value and DimensionHolder)."""
+    from openpyxl.cell.cell import IllegalCharacterError
+
+    from verify.report.cell_styles import cell_at, row_dimension, set_formula, store
+
+    wa, wb = Workbook(), Workbook()
+    a, b = wa.active, wb.active
+    for r, c, v in [(3, 2, 1.5), (7, 1, float("nan")), (2, 5, 4), (9, 3, "text"), (4, 4, None),
+                    (12, 2, True)]:
+        a.cell(r, c, v)
+        store(b, r, c, v)
+    a.cell(5, 6)
+    cell_at(b, 5, 6)
+    for r, c, f in [(6, 1, "=SUM(A1:A3)"), (8, 2, "=1+" + "1" * 40000)]:
+        a.cell(r, c).value = f
+        set_formula(cell_at(b, r, c), f)
+    for r, h in [(2, 15.0), (30, None), (4, 44)]:
+        da, db = a.row_dimensions[r], row_dimension(b, r)
+        if h is not None:
+            da.height = h
+            db.ht = h
+    row_dimension(b, 31).outlineLevel = 1
+    a.row_dimensions[31].outline_level = 1
+
+    def cells(ws):
+        return {k: (c.row, c.column, c._value, c.data_type, c._style, c._hyperlink, c._comment)
+                for k, c in ws._cells.items()}
+
+    def dims(ws):
+        return {k: (dict(d), d.__dict__, d._style) for k, d in ws.row_dimensions.items()}
+
+    assert cells(a) == cells(b)
+    assert list(a._cells) == list(b._cells)  # created in the same order
+    assert a._current_row == b._current_row and a.max_row == b.max_row
+    assert dims(a) == dims(b) and list(a.row_dimensions) == list(b.row_dimensions)
+    # text openpyxl refuses is refused as before
+    try:
+        set_formula(cell_at(b, 1, 1), "=A1\x01")
+    except IllegalCharacterError:
+        pass
+    else:
+        raise AssertionError("a control character in a formula must be refused")
