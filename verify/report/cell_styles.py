@@ -23,7 +23,7 @@ from __future__ import annotations
 import functools
 import weakref
 
-from openpyxl.cell.cell import Cell, MergedCell
+from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE, Cell, MergedCell
 from openpyxl.styles import Alignment, Border, Font, PatternFill
 from openpyxl.styles.cell_style import StyleArray
 from openpyxl.worksheet.cell_range import CellRange
@@ -50,10 +50,16 @@ class _Book:
 _BOOKS: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
 
 
+_LAST: list = [lambda: None, None]  # the workbook asked for last (weakly) and its _Book
+
+
 def _book(wb) -> _Book:
+    if _LAST[0]() is wb:  # a sheet asks for its workbook thousands of times in a row
+        return _LAST[1]
     book = _BOOKS.get(wb)
     if book is None:
         book = _BOOKS[wb] = _Book()
+    _LAST[0], _LAST[1] = weakref.ref(wb), book
     return book
 
 
@@ -305,3 +311,13 @@ def store(ws, row: int, column: int, value):
     elif value is not None:
         cell.value = value
     return cell
+
+
+def set_formula(cell, text: str) -> None:
+    """``cell.value = text`` for a formula (``text`` starts with "=" and is longer than that):
+    stored as openpyxl stores it, without its per-value type dispatch; text its own check would
+    cut or refuse takes openpyxl's path."""
+    if type(text) is not str or len(text) > 32767 or ILLEGAL_CHARACTERS_RE.search(text):
+        cell.value = text
+        return
+    cell._value, cell.data_type = text, "f"

@@ -34,7 +34,7 @@ from pathlib import Path
 
 from ..model import Evaluation
 from .audit_sheet import write_audit
-from .cell_styles import cell_at, row_dimension
+from .cell_styles import cell_at, row_dimension, set_formula
 from .cells import EXCEL_CELL_MAX, XML_ILLEGAL, clean_text, page_setup, put, sheet_name
 from .characteristic_sheet import write_characteristic
 from .details_sheet import DETAILS_SHEET, details_placeholder, per_characteristic_sheets
@@ -301,15 +301,19 @@ def _write_recheck(ws, ev: Evaluation, layout: MeasurementLayout) -> None:
         for j, v in enumerate(values, start=1):
             if v is None:
                 continue
-            if isinstance(v, str) and v.startswith("=") and len(v) > 1:
-                cell_at(ws, i, j).value = v  # a formula, as recheck_rows asks
-                widths[j] = max(widths.get(j, 0), 14)
-                continue
-            put(ws, i, j, v)  # text stays text, numbers keep full precision
-            if isinstance(v, (int, float)) and not isinstance(v, bool):
-                widths[j] = max(widths.get(j, 0), 16)
+            if isinstance(v, str):
+                if len(v) > 1 and v.startswith("="):
+                    set_formula(cell_at(ws, i, j), v)  # a formula, as recheck_rows asks
+                    w = 14
+                else:
+                    put(ws, i, j, v)  # text stays text
+                    w = min(60, len(v) + 2)
             else:
-                widths[j] = max(widths.get(j, 0), min(60, len(str(v)) + 2))
+                put(ws, i, j, v)  # numbers keep full precision
+                w = (16 if isinstance(v, (int, float)) and not isinstance(v, bool)
+                     else min(60, len(str(v)) + 2))
+            if w > widths.get(j, 0):
+                widths[j] = w
     from openpyxl.utils import get_column_letter
 
     for j, w in widths.items():
