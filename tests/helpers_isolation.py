@@ -30,3 +30,8 @@ def worker_pid(seconds: float):
         f.write(f"{pid}\n")
     time.sleep(seconds)
     return pid
+
+
+def own_pid(_):
+    """The pid of the worker running the job."""
+    return os.getpid()

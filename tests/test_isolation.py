@@ -13,9 +13,9 @@ import time
 from pathlib import Path
 
 import pytest
-from helpers_isolation import die, echo, raise_value_error, sleep_then
+from helpers_isolation import die, echo, own_pid, raise_value_error, sleep_then
 
-from verify.isolation import Failed, Job, run_isolated
+from verify.isolation import Failed, Job, Pool, run_isolated
 
 TESTS = Path(__file__).resolve().parent
 
@@ -40,6 +40,34 @@ def test_a_worker_that_dies_or_raises_costs_only_its_job():
     assert "exit status 9" in got["dies"].reason
     assert isinstance(got["raises"], Failed) and "ValueError: bad" in got["raises"].reason
     assert got["ok"] == 3
+
+
+def test_a_job_submitted_while_results_come_in_runs_in_the_same_workers():
+    # the nightly run queues a spec's evaluation when its fingerprint comes back: the pool
+    # must run it in the same pass, on a worker that ran an earlier job (no second pool)
+    got = {}
+    with Pool(workers=1, timeout=120) as pool:
+        pool.submit(Job("first", own_pid, None))
+        for job, result in pool.results():
+            got[job.key] = result
+            if job.key == "first":
+                pool.submit(Job("second", own_pid, None))
+                pool.submit(Job("echo", echo, 7))
+    assert set(got) == {"first", "second", "echo"} and got["echo"] == 7
+    assert got["first"] == got["second"]  # one worker, kept for the next job
+    deadline = time.monotonic() + 30  # leaving the pool stops its worker
+    while _alive(got["first"]) and time.monotonic() < deadline:
+        time.sleep(0.1)
+    assert not _alive(got["first"])
+
+
+def test_a_dead_worker_is_replaced_when_a_job_waits():
+    with Pool(workers=1, timeout=120) as pool:
+        pool.submit(Job("dies", die, 3))
+        pool.submit(Job("after", own_pid, None))
+        got = {job.key: result for job, result in pool.results()}
+    assert isinstance(got["dies"], Failed) and "exit status 3" in got["dies"].reason
+    assert isinstance(got["after"], int)  # a fresh worker took it
 
 
 def _alive(pid: int) -> bool:
