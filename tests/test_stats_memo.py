@@ -212,3 +212,27 @@ def test_remembered_quantiles_equal_fresh_ones():
         assert _chi2_quantile(p, df) == float(special.chdtri(df, 1.0 - p))
     with pytest.raises(ValueError):
         t_quantile(1.0, 5.0)
+
+
+def test_an_evaluation_that_fails_leaves_nothing_remembered(tmp_path, monkeypatch):
+    """The memo is emptied when an evaluation ends, also when it ends by an error (it holds
+    the samples' arrays: a long-lived notebook must not keep them)."""
+    import importlib
+
+    from helpers_spec import write_case
+
+    from verify.data import load_measurements
+    from verify.spec import load_spec
+
+    spec = load_spec(write_case(tmp_path))
+    meas = load_measurements(spec)
+    ev_module = importlib.import_module("verify.evaluate")
+
+    def broken(spec, draft):
+        assert _memo._CACHE, "the drafts ran on remembered samples"
+        raise RuntimeError("finishing failed")
+
+    monkeypatch.setattr(ev_module, "finish", broken)
+    with pytest.raises(RuntimeError, match="finishing failed"):
+        ev_module.evaluate(spec, meas)
+    assert _memo._CACHE == {}

@@ -42,20 +42,23 @@ def evaluate(
         from .audit import run_info
 
         run = run_info(spec, measurements, command="(library call)")
-    gathered = [gather_characteristic(spec, measurements, ch, final)
-                for ch in spec.characteristics]
-    # the per-sample diagnostics of all characteristics' samples computed together: a layout
-    # measures the same parts on every characteristic (the results are the one-sample ones)
-    batch.prefetch([x for d in gathered if not d.ch.pass_fail
-                    for st in (d.data.reference, d.data.candidate) for x in (st.values, st.parts)])
-    # and the rank statistics the kinds' companions will ask for (their hooks say which)
-    batch.prefetch_ranks([q for d in gathered if not d.ch.pass_fail for k in applicable(d.ch)
-                          for q in _rank_requests(k, d.inp)])
-    drafts = [draft_characteristic(spec, measurements, d) for d in gathered]
-    complete_batches(drafts)
-    family, excluded = adjust(drafts, spec.multiplicity, spec.alpha)
-    results = tuple(finish(spec, d) for d in drafts)
-    _memo.forget()  # what the statistics remembered of this evaluation's samples
+    try:
+        gathered = [gather_characteristic(spec, measurements, ch, final)
+                    for ch in spec.characteristics]
+        # the per-sample diagnostics of all characteristics' samples computed together: a layout
+        # measures the same parts on every characteristic (the results are the one-sample ones)
+        batch.prefetch([x for d in gathered if not d.ch.pass_fail
+                        for st in (d.data.reference, d.data.candidate)
+                        for x in (st.values, st.parts)])
+        # and the rank statistics the kinds' companions will ask for (their hooks say which)
+        batch.prefetch_ranks([q for d in gathered if not d.ch.pass_fail for k in applicable(d.ch)
+                              for q in _rank_requests(k, d.inp)])
+        drafts = [draft_characteristic(spec, measurements, d) for d in gathered]
+        complete_batches(drafts)
+        family, excluded = adjust(drafts, spec.multiplicity, spec.alpha)
+        results = tuple(finish(spec, d) for d in drafts)
+    finally:  # what the statistics remembered of this evaluation's samples, also on an error
+        _memo.forget()
     decision = decide.combine(r.decision for r in results)
     # one line per characteristic not PASS: its leading reason (the full list stays with it)
     reasons = tuple(
