@@ -40,15 +40,20 @@ def combine(outcomes) -> str:
     return worst
 
 
+_G_SPECS = {d: f".{d}g" for d in range(1, 18)}  # fmt's format specs, built once
+
+
 def fmt(x: float | None, digits: int = 4) -> str:
     """A number for a sentence: 4 significant digits, no trailing noise."""
     if x is None:
         return "n/a"
+    if x == 0:  # (before the infinity test: zero is the commoner; neither is the other)
+        return "0"
     if math.isinf(x):
         return "inf" if x > 0 else "-inf"
-    if x == 0:
-        return "0"
-    return f"{x:.{digits}g}"
+    # format(x, ".4g") is what f"{x:.{digits}g}" computes, without building the spec per call
+    spec = _G_SPECS.get(digits)
+    return format(x, spec if spec is not None else f".{digits}g")
 
 
 def fmt_like(*values: float | None) -> list[str]:
