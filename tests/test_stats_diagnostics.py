@@ -343,6 +343,30 @@ def test_resolution_edge_cases():
         resolution([1.0, np.inf])
 
 
+def _resolution_by_unique(x, tolerance):
+    """The plain route: np.unique's grid and np.diff's smallest gap (numpy's documented
+    functions), that resolution() must match exactly."""
+    from verify.stats.samples import RESOLUTION_DIGITS, finite_values, snap_to_grid
+
+    units, quantum = snap_to_grid(finite_values(x))
+    grid = np.unique(units)
+    if grid.size < 2:
+        return (int(grid.size), None, None)
+    step = float(f"{float(np.min(np.diff(grid))) * quantum:.{RESOLUTION_DIGITS}g}")
+    return (int(grid.size), step, None if tolerance is None else step / (tolerance / 10.0))
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.lists(st.sampled_from([-2.5, -0.0, 0.0, 0.1, 0.2, 0.1 + 0.2, 0.3, 1e-9, 7.125, 1e6])
+                | st.floats(-1e6, 1e6), min_size=1, max_size=40),
+       st.one_of(st.none(), st.sampled_from([0.05, 1.0, 20.0])))
+def test_resolution_equals_the_unique_grid_route(x, tolerance):
+    # the sorted-gaps route of resolution() against np.unique + np.diff: identical counts and
+    # steps (ties, signed zeros, float noise, one distinct value)
+    r = resolution(x, tolerance=tolerance)
+    assert (r.distinct, r.step, r.step_over_tenth_tolerance) == _resolution_by_unique(x, tolerance)
+
+
 @pytest.mark.parametrize("n", [3, 4, 11, 30, 200, 5000])
 def test_shapiro_wilk_direct_route_equals_scipy_shapiro(n):
     from scipy import stats

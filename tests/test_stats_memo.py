@@ -7,6 +7,7 @@
 - The TOST sample-size searches of many questions run in step (``sample_size._guesses``,
   ``_approx_many``, ``plan_tost_many``): each answer must equal the one-at-a-time search's.
 - ``checks.drafting.replaced`` copies a frozen result as ``dataclasses.replace`` does.
+- ``checks.drafting.diagnostic`` builds a DiagnosticResult as its constructor does.
 
 The references are the plain routes of this package, themselves checked against published
 values in tests/test_stats_*.py.
@@ -20,8 +21,9 @@ import math
 import numpy as np
 import pytest
 
-from verify.checks.drafting import replaced
-from verify.model import CheckResult
+from verify.checks import drafting
+from verify.checks.drafting import diagnostic, not_applicable, replaced
+from verify.model import CheckResult, DiagnosticResult
 from verify.stats import _memo, nonparametric, sample_size
 from verify.stats import variance_components as vc
 from verify.stats.core import mean_sd
@@ -182,6 +184,58 @@ def test_replaced_copies_as_dataclasses_replace_does():
     assert type(fast) is CheckResult and res.outcome == "PASS"
     with pytest.raises(TypeError):
         replaced(res, no_such_field=1)
+
+
+@pytest.mark.parametrize("args", [
+    (("normality", "Shapiro-Wilk", "new", True, "departs"), {"statistic": 0.91, "p_value": 0.02}),
+    (("lot count", "count of lots", "old", False, "3 lots"), {"statistic": 3.0}),
+    (("outliers", "Grubbs", "new", False, "none"),
+     {"statistic": 2.1, "p_value": 0.4, "extra": {"value": 25.1, "lot": "L7"}}),
+    (("resolution", "measurement resolution", "all", False, "12 distinct values"), {}),
+])
+def test_diagnostic_builds_what_the_constructor_builds(args):
+    positional, keywords = args
+    fast = diagnostic(*positional, **keywords)
+    plain = DiagnosticResult(*positional, **keywords)
+    assert type(fast) is DiagnosticResult and fast == plain
+    # the same fields in the same order (what dataclasses.asdict and the JSON writer walk)
+    assert list(vars(fast).items()) == list(vars(plain).items())
+    assert repr(fast) == repr(plain)
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        fast.flag = not fast.flag  # still frozen
+    if "extra" not in keywords:  # the default: a new empty dict per result, never shared
+        assert fast.extra == {} and fast.extra is not diagnostic(*positional).extra
+
+
+def test_diagnostic_falls_back_to_the_constructor_for_another_class(monkeypatch):
+    # a class whose fields are not diagnostic()'s (or that validates) is always called
+    @dataclasses.dataclass(frozen=True)
+    class Checked:
+        name: str
+        method: str
+        group: str
+        flag: bool
+        note: str
+        statistic: float | None = None
+        p_value: float | None = None
+        extra: dict = dataclasses.field(default_factory=dict)
+
+        def __post_init__(self):
+            if not self.note:
+                raise ValueError("a note is required")
+
+    monkeypatch.setattr(drafting, "_DIAGNOSTIC_CLASS", [])
+    monkeypatch.setattr("verify.model.DiagnosticResult", Checked)
+    assert diagnostic("a", "b", "c", False, "d", p_value=0.5) == Checked("a", "b", "c", False, "d",
+                                                                          p_value=0.5)
+    with pytest.raises(ValueError, match="note"):
+        diagnostic("a", "b", "c", False, "")
+
+
+def test_not_applicable_is_an_unflagged_diagnostic_with_the_reason():
+    got = not_applicable("stability", "individuals chart", "new", "2 values")
+    assert got == DiagnosticResult(name="stability", method="individuals chart", group="new",
+                                   flag=False, note="not applicable: 2 values")
 
 
 @pytest.mark.parametrize(("counts", "total"), [

@@ -9,7 +9,7 @@ import numpy as np
 
 from . import decide
 from .checks import kind
-from .checks.drafting import CANNOT_COMPUTE, finite, not_applicable
+from .checks.drafting import CANNOT_COMPUTE, diagnostic, finite, not_applicable
 from .evaluate_gather import CharDraft
 from .model import DiagnosticResult
 from .spec_model import Characteristic, Spec
@@ -44,7 +44,7 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
         try:
             sw = diag.shapiro_wilk(x)
             flag = sw.pvalue < alpha
-            out.append(DiagnosticResult(
+            out.append(diagnostic(
                 "normality", sw.method, group, flag,
                 (f"{group} values depart from a normal distribution ({decide.p_eq(sw.pvalue)})"
                  "; compare with the rank-test companion" if flag else
@@ -56,7 +56,7 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
         try:
             ad = diag.anderson_darling(x)
             # a companion to Shapiro-Wilk: it flags only where Shapiro-Wilk does not apply
-            out.append(DiagnosticResult(
+            out.append(diagnostic(
                 "normality", ad.method, group, ad.pvalue < alpha and not sw_applies,
                 f"Anderson-Darling {decide.p_eq(ad.pvalue)}",
                 statistic=ad.statistic, p_value=ad.pvalue))
@@ -70,7 +70,7 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
             g = diag.grubbs(x, alternative="two-sided")
             flag = g.pvalue < alpha
             lot = lots[g.index] if g.index < len(lots) else "?"
-            out.append(DiagnosticResult(
+            out.append(diagnostic(
                 "outliers", g.method, group, flag,
                 (f"possible outlier {decide.fmt(g.value)} in lot {lot} "
                  f"(G = {decide.fmt(g.statistic)}, {decide.p_eq(g.pvalue)}); "
@@ -82,14 +82,14 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
         except CANNOT_COMPUTE as err:
             out.append(not_applicable("outliers", "Grubbs", group, err))
         n_lots = len(set(lots))
-        out.append(DiagnosticResult(
+        out.append(diagnostic(
             "lot count", "count of lots", group, n_lots < 3,
             _lot_count_words(n_lots, x.size), statistic=float(n_lots)))
         if spec.unit_of_analysis == "part":
             try:
                 le = diag.lot_effect(x, lots)
                 flag = le.pvalue < alpha
-                out.append(DiagnosticResult(
+                out.append(diagnostic(
                     "lot effect", le.method, group, flag,
                     (f"lots differ ({decide.p_eq(le.pvalue)}, intraclass correlation "
                      f"{decide.fmt(le.icc, 3)}): parts of one lot are not independent; "
@@ -107,7 +107,7 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
                 parts.append(f"{len(st.beyond)} point(s) beyond the control-chart limits")
             if st.longest_run >= RUN_LENGTH_FLAG:
                 parts.append(f"a run of {st.longest_run} on one side of the centre line")
-            out.append(DiagnosticResult(
+            out.append(diagnostic(
                 "stability", "individuals chart (moving-range limits)", group, flag,
                 ("not stable: " + ", ".join(parts)) if flag else
                 f"in control (longest run {st.longest_run})",
@@ -121,7 +121,7 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
         tol = (ch.upper - ch.lower) if (ch.lower is not None and ch.upper is not None) else None
         rs = diag.resolution(allv, tolerance=tol)
         coarse = rs.step_over_tenth_tolerance is not None and rs.step_over_tenth_tolerance > 1.0
-        out.append(DiagnosticResult(
+        out.append(diagnostic(
             "resolution", "measurement resolution", "all", coarse,
             (f"coarse: the smallest step {decide.fmt(rs.step)} exceeds a tenth of the tolerance"
              if coarse else f"{rs.distinct} distinct values, smallest step {decide.fmt(rs.step)}"),
@@ -135,7 +135,7 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
     if d.inp.fit is not None:
         f = d.inp.fit
         bad = f.gof_pvalue < alpha
-        out.append(DiagnosticResult(
+        out.append(diagnostic(
             "distribution fit", f.gof_method, "new", bad,
             (f"the declared {f.name} model does not fit the new parts: {f.words}" if bad
              else f"fitted {f.words}"),
@@ -177,6 +177,6 @@ def _stream_effect(d: CharDraft, alpha: float) -> DiagnosticResult:
     note = (f"the new streams differ ({decide.p_eq(r.pvalue)}); furthest from the pooled new "
             f"mean: stream {far.name} (mean {decide.fmt(float(np.mean(far.values)))})" if flag
             else f"no difference between the new streams detected ({decide.p_eq(r.pvalue)})")
-    return DiagnosticResult("stream effect", "one-way ANOVA across the new streams", "new",
-                            flag, note, statistic=r.statistic, p_value=r.pvalue,
+    return diagnostic("stream effect", "one-way ANOVA across the new streams", "new",
+    flag, note, statistic=r.statistic, p_value=r.pvalue,
                             extra={"streams": len(d.streams), "furthest": far.name})

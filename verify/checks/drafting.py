@@ -161,13 +161,43 @@ def replaced(obj, **changes):
     return new
 
 
+_DIAGNOSTIC_FIELDS = ("name", "method", "group", "flag", "note", "statistic", "p_value", "extra")
+_DIAGNOSTIC_CLASS: list = []  # [DiagnosticResult, whether diagnostic() may fill it directly]
+
+
+def diagnostic(name: str, method: str, group: str, flag: bool, note: str,
+               statistic: float | None = None, p_value: float | None = None,
+               extra: dict | None = None):
+    """``DiagnosticResult(name, method, group, flag, note, statistic, p_value, extra)``
+    without the frozen dataclass's ``__init__`` (one ``object.__setattr__`` per field; an
+    evaluation builds thousands): the same values, in the same field order, into a new
+    instance, as :func:`replaced` copies one. ``extra`` None is a new empty dict, the field's
+    default. Should the class's fields differ from these, or the class validate
+    (``__post_init__``) or use slots, the class itself is called."""
+    if not _DIAGNOSTIC_CLASS:
+        from dataclasses import fields
+
+        from ..model import DiagnosticResult
+
+        direct = (tuple(f.name for f in fields(DiagnosticResult)) == _DIAGNOSTIC_FIELDS
+                  and not hasattr(DiagnosticResult, "__post_init__")
+                  and not hasattr(DiagnosticResult, "__slots__"))
+        _DIAGNOSTIC_CLASS[:] = [DiagnosticResult, direct]
+    cls, direct = _DIAGNOSTIC_CLASS
+    if not direct:
+        return cls(name, method, group, flag, note, statistic=statistic, p_value=p_value,
+                   **({} if extra is None else {"extra": extra}))
+    new = object.__new__(cls)
+    new.__dict__.update(name=name, method=method, group=group, flag=flag, note=note,
+                        statistic=statistic, p_value=p_value,
+                        extra={} if extra is None else extra)
+    return new
+
+
 def not_applicable(name: str, method: str, group: str, err: object):
     """A diagnostic (or companion) that does not apply to these data: unflagged, with the
     reason in words."""
-    from ..model import DiagnosticResult
-
-    return DiagnosticResult(name=name, method=method, group=group, flag=False,
-                            note=f"not applicable: {err}")
+    return diagnostic(name, method, group, False, f"not applicable: {err}")
 
 
 def cannot_compute(check: str, method: str, hypothesis: str, err: object, **fields) -> Draft:

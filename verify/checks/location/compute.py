@@ -27,6 +27,7 @@ from ..drafting import (
     Comparison,
     Draft,
     cannot_compute,
+    diagnostic,
     finite,
     not_applicable,
     replaced,
@@ -297,7 +298,7 @@ def companions(kind, inp: CheckInput, dr: Draft) -> list[DiagnosticResult]:
     if res.margin is None:
         disagree = (rt.pvalue < alpha) != (res.p_value < alpha)
     ties = f", {rt.n_zero} zero difference(s)" if getattr(rt, "n_zero", 0) else ""
-    return [DiagnosticResult(
+    return [diagnostic(
         "rank companion", rt.method, group, disagree,
         (f"{check}: the rank test disagrees with the t-test ({p_eq(rt.pvalue)})"
          if disagree else f"{check}: rank test {p_eq(rt.pvalue)}{ties}"),

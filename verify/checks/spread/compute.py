@@ -14,7 +14,15 @@ from ...stats import spread
 from ...stats import variance_components as vc
 from ...stats.errors import DegenerateDataError
 from ...stats.paired_spread import pitman_morgan
-from ..drafting import CANNOT_COMPUTE, CheckInput, Draft, cannot_compute, finite, not_applicable
+from ..drafting import (
+    CANNOT_COMPUTE,
+    CheckInput,
+    Draft,
+    cannot_compute,
+    diagnostic,
+    finite,
+    not_applicable,
+)
 from .result import LotSpreadDetails, PairedSpreadDetails, TwoSampleSpreadDetails
 from .rule import SPREAD
 
@@ -159,7 +167,7 @@ def companions(kind, inp: CheckInput, dr: Draft) -> list[DiagnosticResult]:
     except CANNOT_COMPUTE as err:
         return [not_applicable("spread companion", "spread companion", group, err)]
     disagree = (o.pvalue < alpha) != (dr.result.p_value < alpha)
-    return [DiagnosticResult(
+    return [diagnostic(
         "spread companion", o.method, group, disagree,
         (f"the {o.method} disagrees with the deciding spread test ({p_eq(o.pvalue)})"
          if disagree else f"{o.method} {p_eq(o.pvalue)}"),
