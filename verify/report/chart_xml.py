@@ -240,6 +240,10 @@ def scatter_chart_xml(chart) -> bytes | None:
     """
     from openpyxl.chart import ScatterChart
 
+    from .chart_model import ScatterPlan
+
+    if isinstance(chart, ScatterPlan):
+        return chart.xml()  # the characteristic charts' own plain-data route
     try:
         if type(chart) is not ScatterChart or chart._charts != [chart]:
             raise _Unsupported

@@ -23,19 +23,19 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from openpyxl.chart import Reference, ScatterChart, Series
-from openpyxl.chart.text import RichText, Text
-from openpyxl.chart.title import Title
-from openpyxl.drawing.text import (
-    CharacterProperties,
-    Paragraph,
-    ParagraphProperties,
-    RegularTextRun,
-)
 
 from ..model import CharacteristicResult, Evaluation
 from .cell_styles import row_dimension, shared_font, store, style
 from .cells import NOTE_FONT, SECTION_FONT, put
+from .chart_model import (  # noqa: F401  (chart_title, style_*: other sheets' charts)
+    ScatterPlan,
+    cell_range,
+    chart_title,
+    line,
+    points,
+    style_line,
+    style_points,
+)
 from .hooks import has_report, report_hook
 from .layout import production_positions
 
@@ -89,49 +89,12 @@ def _series_values(ev: Evaluation, name: str, process: str):
     return values[pos], lots[pos]
 
 
-def chart_title(text: str, size: int = 1000) -> Title:
-    """A chart title in a modest font (the default is large enough to squeeze the plot)."""
-    cp = CharacterProperties(sz=size, b=True)
-    para = Paragraph(pPr=ParagraphProperties(defRPr=cp), r=[RegularTextRun(rPr=cp, t=text)])
-    return Title(tx=Text(rich=RichText(p=[para])), overlay=False)
-
-
-def style_points(s: Series, colour: str, size: int = 4) -> None:
-    """Points without a line, in one colour."""
-    s.marker.symbol = "circle"
-    s.marker.size = size
-    s.marker.graphicalProperties.solidFill = colour
-    s.marker.graphicalProperties.line.solidFill = colour
-    s.graphicalProperties.line.noFill = True
-    s.smooth = False
-
-
-def style_line(s: Series, colour: str, dash: str | None = None, width: int = 19050) -> None:
-    """A line without markers (``dash`` e.g. "dash"; ``width`` in EMU)."""
-    s.marker.symbol = "none"
-    s.graphicalProperties.line.solidFill = colour
-    s.graphicalProperties.line.width = width
-    if dash:
-        s.graphicalProperties.line.dashStyle = dash
-    s.smooth = False
-
-
-def _axes(chart, x_title: str, y_title: str, x_fmt: str | None, y_fmt: str | None) -> None:
-    chart.x_axis.title = x_title
-    chart.y_axis.title = y_title
-    chart.x_axis.delete = False
-    chart.y_axis.delete = False
-    if x_fmt:
-        chart.x_axis.number_format = x_fmt
-        chart.x_axis.numFmt.sourceLinked = False
-    if y_fmt:
-        chart.y_axis.number_format = y_fmt
-        chart.y_axis.numFmt.sourceLinked = False
-    # no vertical grid: vertical lines on these charts mean something (lot ends, limits)
-    chart.x_axis.majorGridlines = None
-    # tick labels at the low edge, wherever the axes cross (differences run below zero)
-    chart.x_axis.tickLblPos = "low"
-    chart.y_axis.tickLblPos = "low"
+def _axes(chart: ScatterPlan, x_title: str, y_title: str, x_fmt, y_fmt) -> None:
+    # both axes shown, tick labels at the low edge wherever the axes cross (differences run
+    # below zero) - ScatterPlan's axes always are; no vertical grid: vertical lines on these
+    # charts mean something (lot ends, limits) - its x axis has none
+    chart.x.title, chart.y.title = x_title, y_title
+    chart.x.fmt, chart.y.fmt = x_fmt or None, y_fmt or None
 
 
 def _bounds(values, pad: float = 0.08) -> tuple[float, float]:
@@ -227,15 +190,10 @@ class _Block:
             self.row += 1
         self.series.append((name, first, self.row - 1))
 
-    def to_chart(self, chart, styles: dict) -> None:
+    def to_chart(self, chart: ScatterPlan, styles: dict) -> None:
         for name, a, b in self.series:
-            s = Series(
-                Reference(self.ws, min_col=self.col + 2, min_row=a, max_row=b),
-                Reference(self.ws, min_col=self.col + 1, min_row=a, max_row=b),
-                title=name,
-            )
-            styles[name](s)
-            chart.series.append(s)
+            xref = cell_range(self.ws, self.col + 1, a, b)
+            chart.add(name, xref, cell_range(self.ws, self.col + 2, a, b), styles[name])
 
 
 def _vertical_lines(xs, lo: float, hi: float) -> list:
@@ -285,10 +243,7 @@ def _production_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
     for j, h in enumerate(header):
         put(ws, row0 + 1, col + j, h, font=shared_font(bold=True))
     r = row0 + 2
-    chart = ScatterChart()
-    chart.title = chart_title(f"{c.name} in production order: old, then new{note}")
-    chart.style = 2
-    chart.height, chart.width = CHART_H, CHART_W
+    chart = ScatterPlan(f"{c.name} in production order: old, then new{note}", CHART_W, CHART_H)
     ys = []
     for p, x, pts, lots in blocks:
         first = r
@@ -298,13 +253,12 @@ def _production_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
             put(ws, r, col + 2, lot)
             put(ws, r, col + 3, p)
             r += 1
-        s = Series(
-            Reference(ws, min_col=col + 1, min_row=first, max_row=r - 1),
-            Reference(ws, min_col=col, min_row=first, max_row=r - 1),
-            title=f"{p} process",
+        chart.add(
+            f"{p} process",
+            cell_range(ws, col, first, r - 1),
+            cell_range(ws, col + 1, first, r - 1),
+            points(COLOURS[p]),
         )
-        style_points(s, COLOURS[p])
-        chart.series.append(s)
         ys.extend(pts.tolist())
     # reference lines: two points each, across the whole run
     spec = c.spec
@@ -336,16 +290,15 @@ def _production_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
         if y is None:
             continue
         block.add(label, [(0.0, y), (xmax, y)])
-        styles[label] = lambda s, k=kind, d=dash: style_line(s, LINE_COLOURS[k], d)
+        styles[label] = line(LINE_COLOURS[kind], dash)
     if boundaries and len(boundaries) <= MAX_LOT_LINES and not note:
         block.add("lot boundaries", _vertical_lines(boundaries, lo, hi))
-        styles["lot boundaries"] = lambda s: style_line(s, LINE_COLOURS["lot"], None, 9525)
-    chart.display_blanks = "gap"
+        styles["lot boundaries"] = line(LINE_COLOURS["lot"], None, 9525)
+    chart.gaps = True
     block.to_chart(chart, styles)
     _axes(chart, "position in production order", f"{c.name} ({c.unit})", "0", formats["value"])
-    chart.y_axis.scaling.min, chart.y_axis.scaling.max = lo, hi
-    chart.x_axis.scaling.min, chart.x_axis.scaling.max = 0, xmax
-    chart.legend.position = "b"
+    chart.y.lo, chart.y.hi = lo, hi
+    chart.x.lo, chart.x.hi = 0, xmax
     ws.add_chart(chart, anchor)
     return col + len(header), 1
 
@@ -389,7 +342,7 @@ def _histogram(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
         pts.append((edges[-1], 0.0))
         name = f"{p} process (n = {groups[p].size})"
         block.add(name, pts, y_fmt="0.0")
-        styles[name] = lambda s, p=p: style_line(s, COLOURS[p], None, 25400)
+        styles[name] = line(COLOURS[p], None, 25400)
     xs = [float(edges[0]), float(edges[-1])]
     spec = c.spec
     y_hi = _nice(0.0, top * 1.1)[1]
@@ -401,20 +354,14 @@ def _histogram(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
         if x is None:
             continue
         block.add(label, [(x, 0.0), (x, y_hi)])
-        styles[label] = lambda s, k=kind: style_line(
-            s, LINE_COLOURS[k], "dash" if k == "limit" else None
-        )
+        styles[label] = line(LINE_COLOURS[kind], "dash" if kind == "limit" else None)
         xs.append(float(x))
-    chart = ScatterChart()
-    chart.style = 2
-    chart.title = chart_title(f"{c.name}: share of each process's parts per bin")
-    chart.height, chart.width = CHART_H, CHART_W
+    chart = ScatterPlan(f"{c.name}: share of each process's parts per bin", CHART_W, CHART_H)
     block.to_chart(chart, styles)
     _axes(chart, f"{c.name} ({c.unit})", "% of the process's parts", formats["value"], "0")
     lo, hi = _nice(*_bounds(xs, pad=0.03))
-    chart.x_axis.scaling.min, chart.x_axis.scaling.max = lo, hi
-    chart.y_axis.scaling.min, chart.y_axis.scaling.max = 0, y_hi
-    chart.legend.position = "b"
+    chart.x.lo, chart.x.hi = lo, hi
+    chart.y.lo, chart.y.hi = 0, y_hi
     ws.add_chart(chart, anchor)
     return col + 3, 1
 
@@ -469,30 +416,25 @@ def _interval_chart(ws, c, anchor, row0, col, formats) -> tuple[int, int]:
         name = _row_label(k, res)
         block.add(name, [(clip(res.ci_low), k), (clip(res.ci_high), k)])
         colour = palette[(k - 1) % len(palette)]
-        styles[name] = lambda s, colour=colour: style_line(s, colour, None, 38100)
+        styles[name] = line(colour, None, 38100)
         est.append((res.estimate, k))
         for m in existing_margin_ends(res):
             marks += [(m, k - 0.3), (m, k + 0.3), (None, None)]
     block.add("estimate", est)
-    styles["estimate"] = lambda s: style_points(s, "1F2A33")
+    styles["estimate"] = points("1F2A33")
     if marks:
         block.add("margin (only the ends that exist)", marks)
-        styles["margin (only the ends that exist)"] = lambda s: style_line(
-            s, LINE_COLOURS["margin"], None, 28575
-        )
+        styles["margin (only the ends that exist)"] = line(LINE_COLOURS["margin"], None, 28575)
     block.add("zero", [(0.0, 0.5), (0.0, len(rows) + 0.5)])
-    styles["zero"] = lambda s: style_line(s, LINE_COLOURS["zero"], "dash")
-    chart = ScatterChart()
-    chart.style = 2
-    chart.title = chart_title(f"{c.name}: intervals against the margins")
-    chart.height, chart.width = CHART_H, CHART_W
-    chart.display_blanks = "gap"  # a blank row ends one margin mark and starts the next
+    styles["zero"] = line(LINE_COLOURS["zero"], "dash")
+    chart = ScatterPlan(f"{c.name}: intervals against the margins", CHART_W, CHART_H)
+    chart.gaps = True  # a blank row ends one margin mark and starts the next
     block.to_chart(chart, styles)
     # what each kind's difference is (its report hook's interval_axis), in the checks' order
     whats = list(dict.fromkeys(report_hook(r.check, "interval_axis") for r in rows))
     _axes(chart, f"difference in {c.unit} ({'; '.join(whats)})", "", formats["difference"], None)
-    chart.x_axis.scaling.min, chart.x_axis.scaling.max = lo, hi
-    chart.y_axis.scaling.min, chart.y_axis.scaling.max = 0, len(rows) + 1
+    chart.x.lo, chart.x.hi = lo, hi
+    chart.y.lo, chart.y.hi = 0, len(rows) + 1
     # each row named on the vertical axis: a number format that shows tick 1 as the first
     # check's name, tick 2 as the second's and nothing elsewhere (at most two rows, the two
     # location checks; a format holds two conditions)
@@ -500,20 +442,18 @@ def _interval_chart(ws, c, anchor, row0, col, formats) -> tuple[int, int]:
     fmt = ";".join(f'[={k}]"{n}"' for k, n in enumerate(names, start=1)) + ';""'
     if len(names) == 1:
         fmt = f'[=1]"{names[0]}";[=0]"";""'
-    chart.y_axis.number_format = fmt
-    chart.y_axis.numFmt.sourceLinked = False
-    chart.y_axis.majorUnit = 1
-    chart.y_axis.majorGridlines = None
-    chart.y_axis.delete = False
-    chart.legend.position = "b"
+    chart.y.fmt = fmt
+    chart.y.major_unit = 1
+    chart.y.grid = False
     ws.add_chart(chart, anchor)
     return col + 3, 1
 
 
 def _paired_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
     # the location check that ran on the matched pairs
-    shift = next((r for r in c.checks if r.design == "paired"
-                  and has_report(r.check, "interval_axis")), None)
+    shift = next(
+        (r for r in c.checks if r.design == "paired" and has_report(r.check, "interval_axis")), None
+    )
     if shift is None or ev.spec.data.pair is None:
         return col, 0
     from ..data import paired_values
@@ -527,30 +467,29 @@ def _paired_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
     d = np.asarray(pv.new, dtype=float) - np.asarray(pv.old, dtype=float)
     x = np.arange(1, d.size + 1)
     block = _Block(ws, row0, col, "Paired differences (new - old)")
-    block.add("difference of a pair", zip(x.tolist(), d.tolist(), strict=True),
-              y_fmt=formats["difference"])
-    styles = {"difference of a pair": lambda s: style_points(s, COLOURS["new"])}
+    block.add(
+        "difference of a pair",
+        zip(x.tolist(), d.tolist(), strict=True),
+        y_fmt=formats["difference"],
+    )
+    styles = {"difference of a pair": points(COLOURS["new"])}
     xmax = float(d.size + 1)
     ys = d.tolist() + [0.0]
     block.add("zero", [(0.0, 0.0), (xmax, 0.0)])
-    styles["zero"] = lambda s: style_line(s, LINE_COLOURS["zero"], "dash")
+    styles["zero"] = line(LINE_COLOURS["zero"], "dash")
     if shift.estimate is not None:
         block.add("mean difference", [(0.0, shift.estimate), (xmax, shift.estimate)])
-        styles["mean difference"] = lambda s: style_line(s, LINE_COLOURS["mean"])
+        styles["mean difference"] = line(LINE_COLOURS["mean"])
     for m in existing_margin_ends(shift):
         name = f"margin for the mean difference ({m:+g})"
         block.add(name, [(0.0, m), (xmax, m)])
-        styles[name] = lambda s: style_line(s, LINE_COLOURS["margin"], None, 28575)
+        styles[name] = line(LINE_COLOURS["margin"], None, 28575)
         ys.append(m)
-    chart = ScatterChart()
-    chart.style = 2
-    chart.title = chart_title(f"{c.name}: new − old for each of the {d.size} pairs")
-    chart.height, chart.width = CHART_H, CHART_W
+    chart = ScatterPlan(f"{c.name}: new − old for each of the {d.size} pairs", CHART_W, CHART_H)
     block.to_chart(chart, styles)
     _axes(chart, "pair, in production order", f"new − old ({c.unit})", "0", formats["difference"])
     lo, hi = _nice(*_bounds(ys))
-    chart.y_axis.scaling.min, chart.y_axis.scaling.max = lo, hi
-    chart.x_axis.scaling.min, chart.x_axis.scaling.max = 0, xmax
-    chart.legend.position = "b"
+    chart.y.lo, chart.y.hi = lo, hi
+    chart.x.lo, chart.x.hi = 0, xmax
     ws.add_chart(chart, anchor)
     return col + 3, 1
