@@ -37,6 +37,10 @@ from .hooks import has_report, report_hook
 # up to this many characteristics the decision sheet prints on one page; beyond it the table
 # runs over pages with its header repeated
 ONE_PAGE_CHARACTERISTICS = 12
+# the "Why" cell lists at most this many characteristics that did not pass (HOLD first): a
+# cell is one row, and 300 lines would run off the printed page; the rest are counted there
+# and every reason stands in the Reasons block below the table (one row each)
+WHY_LINES = 12
 DECISION_CELL_NAME = "overall_decision"  # a defined name: where the overall decision is
 
 SIGN_OFF = (
@@ -141,6 +145,35 @@ def _decision_cell(ws, ev: Evaluation, badge: tuple[int, int]) -> None:
     merge(ws, 6, c0, 6, c1)
     for col in range(c0, c1 + 1):
         style(ws.cell(6, col), fill=shared_fill("solid", fgColor=fill_hex))
+
+
+def why_text(ev: Evaluation, limit: int = WHY_LINES) -> str:
+    """The decision page's "Why": the leading reason of each characteristic that did not pass,
+    HOLD before the others (each group in the characteristics' order), at most ``limit``
+    lines; beyond them one line counts the rest by decision and points to the Reasons block,
+    which lists them all.
+
+    ``ev.reasons`` holds one line per characteristic not PASS, ``"<name>: <decision> - ..."``.
+    """
+    if not ev.reasons:
+        return "Every characteristic passed."
+    if len(ev.reasons) <= limit:
+        return "\n".join(ev.reasons)
+    heads = [(f"{c.name}: {c.decision} - ", c.decision) for c in ev.characteristics
+             if c.decision != "PASS"]
+
+    def decision(line: str) -> str:
+        return next((d for head, d in heads if line.startswith(head)), "other")
+
+    lines = [(decision(text), k, text) for k, text in enumerate(ev.reasons)]
+    shown = sorted(lines, key=lambda x: (x[0] != "HOLD", x[1]))[: limit - 1]
+    kept = {k for _, k, _ in shown}
+    rest = [d for d, k, _ in lines if k not in kept]
+    counts = ", ".join(f"{rest.count(d)} {d}"
+                       for d in dict.fromkeys(sorted(rest, key=lambda d: d != "HOLD")))
+    return "\n".join([text for _, k, text in lines if k in kept] + [
+        f"... and {len(rest)} more characteristics not passing ({counts}): every reason is "
+        "listed under Reasons below the table"])
 
 
 def _plan_words(ev: Evaluation) -> str:
@@ -298,7 +331,7 @@ def write_summary(
     # the overall decision: a large coloured cell (on a monitoring workbook, the decision of
     # record; these data's own outcome shows only as drift, in its own colour)
     _decision_cell(ws, ev, badge)
-    reasons = "\n".join(ev.reasons) if ev.reasons else "Every characteristic passed."
+    reasons = why_text(ev)
     put(ws, 7, 1, "Why", font=shared_font(bold=True, color=INK),
         align=shared_alignment(vertical="top"))
     put(ws, 7, 2, reasons, align=WRAP, font=shared_font(bold=True, color=INK))
