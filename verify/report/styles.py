@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from openpyxl.styles import Alignment, Font
 
+from .cell_styles import style
 from .cells import MUTED
 
 _EXCLUDED_FONT = Font(italic=True, color=MUTED)
@@ -32,12 +33,7 @@ class StyleBook:
             raise RuntimeError(f"style {key} was not registered before the workbook was saved")
         cell = self._ws.cell(row=self._next_row, column=1)
         self._next_row += 1
-        if fmt is not None:
-            cell.number_format = fmt
-        if font is not None:
-            cell.font = font
-        if align is not None:
-            cell.alignment = align
+        style(cell, fmt=fmt, font=font, align=align)
         sid = int(cell.style_id)
         self._cache[key] = sid
         return sid
