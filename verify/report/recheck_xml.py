@@ -8,8 +8,8 @@ workbook's cost per characteristic. :class:`Body` writes the rows below the colu
 gives, byte for byte:
 
 - the cells: those holding a value, and the Agrees and How cells of every row, which the
-  table styles (centred; wrapped, from the top); a block's heading (text in the first column
-  only) in bold;
+  table styles (a logical number format, centred; wrapped, from the top); a block's heading
+  (text in the first column only) in bold;
 - the row heights :func:`verify.report.cells.fit_rows` gives (wrapped text counted against the
   column width), and in a tall row every valued cell read from the top
   (:func:`~verify.report.cell_styles.align_top`); the folded helper rows' outline level;
@@ -123,10 +123,11 @@ class Body:
     def max_column(self) -> int:
         return max([_HOW, *(v[-1][0] for v in self.valued if v)])
 
-    def style_rows(self, ws, *, bold, centre, wrap_top) -> None:
+    def style_rows(self, ws, *, bold, agrees: dict, wrap_top) -> None:
         """The table's styles, as ``_recheck_as_table`` sets them on each body row: a heading
         (text in the first column, nothing in the second and third) in bold, the Agrees cell
-        centred, the How cell wrapped from the top."""
+        with the style parts ``agrees`` (its number format, centred), the How cell wrapped
+        from the top."""
         memo = _Memo(ws)
         out = self.styles
         for valued in self.valued:
@@ -134,7 +135,7 @@ class Body:
             st: dict[int, tuple | None] = {}
             if 1 in cols and 2 not in cols and 3 not in cols:  # (a formula is a str too)
                 st[1] = memo.style(None, font=bold)
-            st[_AGREES] = memo.style(None, align=centre)
+            st[_AGREES] = memo.style(None, **agrees)
             st[_HOW] = memo.style(None, align=wrap_top)
             out.append(st)
         self._memo = memo
@@ -289,7 +290,7 @@ class _Memo:
         return cell
 
     def style(self, s: tuple | None, **parts) -> tuple:
-        key = (s, "style", tuple((k, id(v)) for k, v in parts.items()))
+        key = (s, "style", tuple((k, v if type(v) is str else id(v)) for k, v in parts.items()))
         hit = self._done.get(key)
         if hit is None:
             cell = self._start(s)
