@@ -331,6 +331,13 @@ def _write_recheck(ws, ev: Evaluation, layout: MeasurementLayout) -> None:
             dim.hidden = True
 
 
+# The Agrees cells hold comparisons. Excel shows a logical result as TRUE or FALSE whatever the
+# number format; LibreOffice keeps it as 1 or 0 and shows it through the cell's number format, so
+# in a General cell it printed 1 where the sheet's note says TRUE. This format (LibreOffice's own
+# code for logical values) makes both print TRUE and FALSE.
+AGREES_FORMAT = '"TRUE";"TRUE";"FALSE"'
+
+
 def _recheck_as_table(ws, n_rows: int) -> None:
     """Print the recheck sheet as a readable table: widths, heading, grid, header repeated.
 
@@ -364,7 +371,7 @@ def _recheck_as_table(ws, n_rows: int) -> None:
     for r in (SUMMARY_ROW, *range(HEADER_ROW + 1, n_rows + 1)):
         if isinstance(value(r, 1), str) and value(r, 2) is None and value(r, 3) is None:
             style(cells[r, 1], font=bold)  # a block's heading: the characteristic or check
-        style(cell_at(ws, r, 5), align=centre)
+        style(cell_at(ws, r, 5), fmt=AGREES_FORMAT, align=centre)
         style(cell_at(ws, r, 6), align=wrap_top)
     fit_rows(ws)
     ws.freeze_panes = f"A{HEADER_ROW + 1}"
