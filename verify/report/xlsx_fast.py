@@ -75,12 +75,16 @@ class StreamedSheet:
     """Rows to insert into a placeholder sheet, after the rows openpyxl wrote there.
 
     ``rows`` yields chunks of ``<row>`` XML, in row order; ``dimension`` is the sheet's used
-    range (e.g. ``A1:J500001``).
+    range (e.g. ``A1:J500001``). ``register``, when given, is called at the save with the
+    function that gives a cell style's ``s`` attribute (registering the style in the
+    workbook), after the styles of the cells openpyxl holds for the sheet and before ``rows``:
+    rows whose styles are registered in sheet order, as openpyxl's writer registers them.
     """
 
     title: str
     rows: Callable[[], Iterable[str]]
     dimension: str
+    register: Callable[[Callable], None] | None = None
 
 
 def _sheet_parts(zin: zipfile.ZipFile) -> dict[str, str]:
