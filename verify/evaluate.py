@@ -11,6 +11,8 @@ finishes each characteristic (:mod:`verify.evaluate_finish`). The numbers come f
 
 from __future__ import annotations
 
+import gc
+
 from . import decide
 from .checks.drafting import replaced
 from .evaluate_diagnostics import diagnostics
@@ -42,6 +44,12 @@ def evaluate(
         from .audit import run_info
 
         run = run_info(spec, measurements, command="(library call)")
+    # a burst of small objects (results, sentences, drafts) that reference counting frees: the
+    # cyclic collector's passes over everything the process holds would cost about a tenth of
+    # the evaluation (one full pass per dozen evaluations, each walking pandas' and scipy's
+    # state); it is paused here, as while a workbook is built, and its state restored
+    collecting = gc.isenabled()
+    gc.disable()
     try:
         gathered = [gather_characteristic(spec, measurements, ch, final)
                     for ch in spec.characteristics]
@@ -59,6 +67,8 @@ def evaluate(
         results = tuple(finish(spec, d) for d in drafts)
     finally:  # what the statistics remembered of this evaluation's samples, also on an error
         _memo.forget()
+        if collecting:
+            gc.enable()
     decision = decide.combine(r.decision for r in results)
     # one line per characteristic not PASS: its leading reason (the full list stays with it)
     reasons = tuple(

@@ -231,10 +231,13 @@ def _ties(size: np.ndarray, new_value: np.ndarray):
 def _row_medians(v: np.ndarray) -> list[float]:
     """samples.median of each row: order statistics, whatever selection finds them."""
     h = v.shape[1] // 2
+    p = v.copy()  # (np.partition's copy, without its wrapper)
     if v.shape[1] % 2:
-        return [float(x) for x in np.partition(v, h, axis=1)[:, h]]
-    p = np.partition(v, (h - 1, h), axis=1)
-    return [float((lo + hi) / 2.0) for lo, hi in zip(p[:, h - 1], p[:, h], strict=True)]
+        p.partition(h, axis=1)
+        return p[:, h].tolist()
+    p.partition((h - 1, h), axis=1)
+    # (lo + hi) / 2.0 of each row, element by element: the floats the one-sample route gives
+    return ((p[:, h - 1] + p[:, h]) / 2.0).tolist()
 
 
 def _signed_ranks(rows: list[tuple[np.ndarray, float]], n: int) -> None:

@@ -76,9 +76,11 @@ def median(a: np.ndarray) -> float:
     (without its axis handling and NaN checks, which cost more than the partition at small n).
     """
     h = a.size // 2
+    p = a.copy()  # np.partition's copy, partitioned in place without its wrapper
     if a.size % 2:
-        return float(np.partition(a, h)[h])
-    p = np.partition(a, (h - 1, h))
+        p.partition(h)
+        return float(p[h])
+    p.partition((h - 1, h))
     return float((p[h - 1] + p[h]) / 2.0)
 
 
