@@ -168,3 +168,30 @@ def test_batched_rank_sums_equal_the_one_sample_route(n_old, n_new):
             assert _batched(mann_whitney, fa, new=fb, alternative=alt) == \
                 _plain(mann_whitney, a, new=b.copy(), alternative=alt)
     _memo.forget()
+
+
+@pytest.mark.parametrize(("n_old", "n_new"), [(30, 30), (12, 21), (2, 3), (60, 55), (2, 2)])
+def test_batched_brown_forsythe_equals_the_one_sample_route(n_old, n_new):
+    # the sums the Brown-Forsythe test reads (medians, absolute deviations, their means and
+    # sum of squares) computed for many pairs together give the same test, bit for bit
+    from verify.stats.spread import brown_forsythe
+
+    rng = np.random.default_rng(n_old * 7 + n_new)
+    pairs = []
+    for digits in (6, 3, 2, 1):
+        pairs.append((np.round(rng.normal(10.0, 0.01, n_old), digits),
+                      np.round(rng.normal(10.003, 0.02, n_new), digits)))
+    pairs.append((rng.normal(0.0, 1.0, n_old) * 1e-9 + 1e6, rng.normal(0.0, 3.0, n_new)))
+    pairs.append((np.full(n_old, 4.0), np.full(n_new, 4.0)))  # no variation: refused
+    bad = rng.normal(0.0, 1.0, n_old)
+    bad[0] = np.nan
+    pairs.append((bad, rng.normal(0.0, 1.0, n_new)))  # non-finite: left to the one route
+    frozen = [(_memo.freeze(a.copy()), _memo.freeze(b.copy())) for a, b in pairs]
+    _memo.forget()
+    batch.prefetch_ranks([("brown_forsythe", a, b) for a, b in frozen])
+    assert sum(_memo.recall("brown_forsythe", a) is not None for a, _ in frozen) == 6
+    for (a, b), (fa, fb) in zip(pairs, frozen, strict=True):
+        for alt in ("two-sided", "less", "greater"):
+            assert _batched(brown_forsythe, fa, new=fb, alternative=alt) == \
+                _plain(brown_forsythe, a, new=b.copy(), alternative=alt)
+    _memo.forget()

@@ -167,14 +167,23 @@ def prefetch_ranks(requests) -> None:
 
     ``requests`` holds ``("signed_rank", x, target)`` (the signed-rank test of ``x - target``,
     zeros dropped: :func:`~verify.stats.nonparametric.signed_rank_about`) and
-    ``("rank_sum", old, new)`` (:func:`~verify.stats.nonparametric.mann_whitney`), for
+    ``("rank_sum", old, new)`` (:func:`~verify.stats.nonparametric.mann_whitney`), and
+    ``("brown_forsythe", old, new)`` (the sums :func:`~verify.stats.spread.brown_forsythe` reads:
+    the absolute deviations from each sample's median, their means and sum of squares), for
     read-only samples; anything else, and any row the one-sample route would treat apart
     (non-finite values, zero differences, identical values, values near the float floor), is
     left to the one-sample route.
     """
     signed: dict[tuple, list] = {}
     pairs: dict[tuple, list] = {}
+    spreads: dict[tuple, dict] = {}
     for kind, x, y in requests:
+        if kind == "brown_forsythe":
+            if (_memo.frozen(x) and _memo.frozen(y) and x.ndim == 1 and y.ndim == 1
+                    and x.dtype == np.float64 and y.dtype == np.float64
+                    and _memo.recall("brown_forsythe", x) is None):
+                spreads.setdefault((x.size, y.size), {})[(id(x), id(y))] = (x, y)
+            continue
         if kind == "signed_rank" and _memo.frozen(x) and x.ndim == 1 and x.dtype == np.float64:
             if _memo.recall("signed_rank", x) is None:
                 signed.setdefault(x.size, {})[(id(x), float(y))] = (x, float(y))
@@ -188,6 +197,9 @@ def prefetch_ranks(requests) -> None:
     for (n_old, n_new), group in pairs.items():
         if len(group) >= MIN_ROWS and n_old >= 1 and n_new >= 1:
             _rank_sums(list(group.values()), n_old, n_new)
+    for (n_old, n_new), group in spreads.items():
+        if len(group) >= MIN_ROWS and n_old >= 2 and n_new >= 2:
+            _brown_forsythe_sums(list(group.values()), n_old, n_new)
 
 
 def _snapped(d: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -297,3 +309,28 @@ def _rank_sums(rows: list[tuple[np.ndarray, np.ndarray]], n_old: int, n_new: int
         _memo.remember("rank_sum", a, (b, nonparametric._RankSum(
             u_new, n_old, n_new, int(groups[r]), int(tied_values[r]), bool(exact), se,
             estimates[r])))
+
+
+def _brown_forsythe_sums(rows: list[tuple[np.ndarray, np.ndarray]], n_old: int,
+                         n_new: int) -> None:
+    """spread._brown_forsythe_sums of each (old, new): each sample's row median (as
+    samples.median), the absolute deviations from it, their means and squared deviations
+    summed along C-contiguous rows (as the 1-D sums add); rows with a non-finite value are left
+    to the one-sample route and its error."""
+    old = np.stack([r[0] for r in rows])
+    new = np.stack([r[1] for r in rows])
+    ok = (np.logical_and.reduce(np.isfinite(old), axis=1)
+          & np.logical_and.reduce(np.isfinite(new), axis=1))
+    if not ok.any():
+        return
+    if not ok.all():
+        old, new = old[ok], new[ok]
+        rows = [r for r, good in zip(rows, ok.tolist(), strict=True) if good]
+    za = np.abs(old - np.array(_row_medians(old))[:, None])
+    zb = np.abs(new - np.array(_row_medians(new))[:, None])
+    ma = np.add.reduce(za, axis=1) / n_old  # float(sum) / n: the same division in float64
+    mb = np.add.reduce(zb, axis=1) / n_new
+    ss = (np.add.reduce(np.ascontiguousarray((za - ma[:, None]) ** 2), axis=1)
+          + np.add.reduce(np.ascontiguousarray((zb - mb[:, None]) ** 2), axis=1))
+    for (a, b), m_a, m_b, s2 in zip(rows, ma.tolist(), mb.tolist(), ss.tolist(), strict=True):
+        _memo.remember("brown_forsythe", a, (b, (n_old, n_new, m_a, m_b, s2)))
