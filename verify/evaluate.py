@@ -17,7 +17,7 @@ from . import decide
 from .checks.drafting import replaced
 from .evaluate_diagnostics import diagnostics
 from .evaluate_finish import adjust, complete_batches, finish
-from .evaluate_gather import CharDraft, applicable, gather, sub_streams
+from .evaluate_gather import CharDraft, applicable, gather, samples_in_lots, sub_streams, summarize
 from .model import Evaluation, Measurements, RunInfo
 from .spec_model import Characteristic, Spec
 from .stats import _memo, batch
@@ -53,11 +53,15 @@ def evaluate(
     try:
         gathered = [gather_characteristic(spec, measurements, ch, final)
                     for ch in spec.characteristics]
+        measured = [d for d in gathered if not d.ch.pass_fail]
         # the per-sample diagnostics of all characteristics' samples computed together: a layout
-        # measures the same parts on every characteristic (the results are the one-sample ones)
-        batch.prefetch([x for d in gathered if not d.ch.pass_fail
-                        for st in (d.data.reference, d.data.candidate)
-                        for x in (st.values, st.parts)])
+        # measures the same parts on every characteristic (the results are the one-sample ones),
+        # and the one-way analyses of their lots, which the process summaries read
+        batch.prefetch([x for d in measured for st in (d.data.reference, d.data.candidate)
+                        for x in (st.values, st.parts)],
+                       in_lots=[q for d in measured for q in samples_in_lots(d)])
+        for d in measured:
+            summarize(d)
         # and the rank statistics the kinds' companions will ask for (their hooks say which)
         batch.prefetch_ranks([q for d in gathered if not d.ch.pass_fail for k in applicable(d.ch)
                               for q in _rank_requests(k, d.inp)])
