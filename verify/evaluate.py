@@ -47,9 +47,19 @@ def evaluate(
     # a burst of small objects (results, sentences, drafts) that reference counting frees: the
     # cyclic collector's passes over everything the process holds would cost about a tenth of
     # the evaluation (one full pass per dozen evaluations, each walking pandas' and scipy's
-    # state); it is paused here, as while a workbook is built, and its state restored
+    # state); it is paused here, as while a workbook is built, and its state restored once the
+    # drafts are gone (the first collection then walks the result, not the drafts as well)
     collecting = gc.isenabled()
     gc.disable()
+    try:
+        return _evaluate(spec, measurements, final, run)
+    finally:
+        if collecting:
+            gc.enable()
+
+
+def _evaluate(spec: Spec, measurements: Measurements, final: bool, run: RunInfo) -> Evaluation:
+    """:func:`evaluate` with the collector paused (its drafts freed when this returns)."""
     try:
         gathered = [gather_characteristic(spec, measurements, ch, final)
                     for ch in spec.characteristics]
@@ -71,8 +81,6 @@ def evaluate(
         results = tuple(finish(spec, d) for d in drafts)
     finally:  # what the statistics remembered of this evaluation's samples, also on an error
         _memo.forget()
-        if collecting:
-            gc.enable()
     decision = decide.combine(r.decision for r in results)
     # one line per characteristic not PASS: its leading reason (the full list stays with it)
     reasons = tuple(
