@@ -59,6 +59,19 @@ def group_codes(labels: object, n: int, what: str = "lot labels") -> tuple[list,
 _CODES: dict[tuple, tuple[list, np.ndarray]] = {}
 
 
+def group_sizes(codes: np.ndarray, k: int) -> np.ndarray:
+    """The count of each code 0..k-1, ``np.bincount(codes, minlength=k)``; for read-only
+    codes (remembered by content: :func:`group_codes`) remembered, read-only, with them."""
+    hit = _memo.recall("group_sizes", codes)
+    if hit is not None and hit.size == k:
+        return hit
+    sizes = np.bincount(codes, minlength=k)
+    if _memo.frozen(codes):
+        sizes.flags.writeable = False
+        _memo.remember("group_sizes", codes, sizes)
+    return sizes
+
+
 def _group_codes(labels: object, n: int, what: str) -> tuple[list, np.ndarray]:
     lab = list(labels) if not isinstance(labels, np.ndarray) else labels.tolist()
     if len(lab) != n:
