@@ -114,6 +114,7 @@ BODY = [
     ["Looked-up value", "Value", None, None, None, None, "Lot"],
     ["x", "=SUMIFS(A1:A2,B1:B2,1)", None, None, None, None, "L-01 " * 20],
     ["y", 3, None, None, None, "wrapped " * 30, 12345678901234567890],
+    ["z", 4, None, None, None, "=" + "LEN(A1)+" * 30 + "1"],  # a long formula in a wrapped cell
 ]
 
 

@@ -28,7 +28,7 @@ None). tests/test_recheck_xml.py compares both routes' files part by part.
 from __future__ import annotations
 
 import math
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 
 from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE, Cell
 from openpyxl.styles.cell_style import StyleArray
@@ -40,7 +40,6 @@ from .cells import EXCEL_CELL_MAX, clean_text
 from .sheet_xml import _cdata, _row_head
 from .xlsx_fast import StreamedSheet
 
-_FORMULA, _TEXT, _NUMBER = 0, 1, 2
 _AGREES, _HOW = 5, 6  # the columns the table styles on every row
 
 
@@ -50,19 +49,26 @@ class Body:
     Build with :meth:`build`; then, in the cell route's order, :meth:`style_rows` (the table's
     styles), :meth:`fit` (heights), :meth:`fold` (outline); :meth:`streamed` gives the rows for
     the save.
+
+    A row's styles and height depend only on its *shape*: which columns hold a value, whether
+    it is a heading, its height and whether it is folded. Each distinct shape (a few dozen on
+    a sheet of tens of thousands of rows) is styled once and written by a function compiled for
+    it (:func:`_shape_writer`), which takes the row's number and its cells' texts.
     """
 
     def __init__(self, first_row: int):
         self.first_row = first_row
-        # per row: [(column, kind, value as stored)] for the cells holding a value, by column
-        self.valued: list[list[tuple[int, int, object]]] = []
-        self.xml: list[list[tuple[int, str]]] = []  # per row: (column, text after s="..")
-        self.styles: list[dict[int, tuple | None]] = []  # per row: column -> style tuple
+        self.cols: list[tuple[int, ...]] = []  # per row: the columns holding a value
+        self.rests: list[list[str]] = []  # per row: each valued cell's XML after its s=".."
+        self.texts: list[list[tuple[int, str]]] = []  # per row: (column, text or formula)
+        self.heading: list[bool] = []  # per row: text in column A, nothing in B and C
         self.widths: dict[int, int] = {}  # column -> width asked for (columns beyond the table)
         self.heights: dict[int, float] = {}  # body index -> row height
         self.folded: set[int] = set()  # body indices of the folded helper rows
-        self._attrs: list[str] | None = None
-        self._keys: dict[tuple, int] = {}
+        self._base: dict[int, tuple | None] = {}  # (the table's styles, by role: see _role)
+        self._tall: dict[tuple, tuple] = {}  # (columns, heading) -> styles in a tall row
+        self._memo: _Memo | None = None
+        self._shapes: dict[tuple, tuple] | None = None  # shape -> (its cells, writer)
 
     @classmethod
     def build(cls, rows: list[list], first_row: int, fixed_columns: int) -> Body | None:
@@ -71,11 +77,16 @@ class Body:
         (the table sets its own)."""
         body = cls(first_row)
         widths = body.widths
+        all_cols, all_rests, all_texts, headings = body.cols, body.rests, body.texts, body.heading
         text_xml: dict[str, tuple[str, int, str]] = {}  # text -> its XML, width, stored text
+        isfinite = math.isfinite
         for values in rows:
-            valued = []
-            xml = []
-            for j, v in enumerate(values, start=1):
+            cols = []
+            rests = []
+            texts = []
+            j = 0
+            for v in values:
+                j += 1
                 if v is None:
                     continue
                 t = type(v)
@@ -83,62 +94,76 @@ class Body:
                     if len(v) > 1 and v[0] == "=":
                         if len(v) > EXCEL_CELL_MAX or ILLEGAL_CHARACTERS_RE.search(v):
                             return None  # (openpyxl's own value check decides these)
-                        valued.append((j, _FORMULA, v))
-                        xml.append((j, f"><f>{_cdata(v[1:])}</f><v /></c>"))
+                        rests.append(f"><f>{_cdata(v[1:])}</f><v /></c>")
+                        texts.append((j, v))  # (fit_rows measures a formula's text too)
                         w = 14
                     else:
                         hit = text_xml.get(v)
                         if hit is None:
                             stored = clean_text(v)
                             hit = text_xml[v] = (_text_cell(stored), min(60, len(v) + 2), stored)
-                        valued.append((j, _TEXT, hit[2]))
-                        xml.append((j, hit[0]))
+                        rests.append(hit[0])
+                        texts.append((j, hit[2]))
                         w = hit[1]
                 elif t is float:
-                    if not math.isfinite(v):
+                    if not isfinite(v):
                         return None  # NaN leaves a bare cell, an infinity is text: cell route
-                    valued.append((j, _NUMBER, v))
-                    xml.append((j, f' t="n"><v>{v!r}</v></c>'))
+                    rests.append(f' t="n"><v>{v!r}</v></c>')
                     w = 16
                 elif t is int:
-                    valued.append((j, _NUMBER, v))
-                    xml.append((j, f' t="n"><v>{v:.16g}</v></c>'))
+                    rests.append(f' t="n"><v>{v:.16g}</v></c>')
                     w = 16
                 else:
                     return None
+                cols.append(j)
                 if j > fixed_columns and w > widths.get(j, 0):
                     widths[j] = w
-            body.valued.append(valued)
-            body.xml.append(xml)
+            all_cols.append(tuple(cols))
+            all_rests.append(rests)
+            all_texts.append(texts)
+            # (a formula is a str as well)
+            headings.append(bool(cols) and cols[0] == 1 and (len(cols) == 1 or cols[1] > 3))
         return body
 
     def __len__(self) -> int:
-        return len(self.valued)
+        return len(self.cols)
 
     @property
     def last_row(self) -> int:
-        return self.first_row + len(self.valued) - 1
+        return self.first_row + len(self.cols) - 1
 
     @property
     def max_column(self) -> int:
-        return max([_HOW, *(v[-1][0] for v in self.valued if v)])
+        return max([_HOW, *(c[-1] for c in self.cols if c)])
 
     def style_rows(self, ws, *, bold, agrees: dict, wrap_top) -> None:
         """The table's styles, as ``_recheck_as_table`` sets them on each body row: a heading
         (text in the first column, nothing in the second and third) in bold, the Agrees cell
         with the style parts ``agrees`` (its number format, centred), the How cell wrapped
-        from the top."""
-        memo = _Memo(ws)
-        out = self.styles
-        for valued in self.valued:
-            cols = {j: kind for j, kind, _v in valued}
-            st: dict[int, tuple | None] = {}
-            if 1 in cols and 2 not in cols and 3 not in cols:  # (a formula is a str too)
-                st[1] = memo.style(None, font=bold)
-            st[_AGREES] = memo.style(None, **agrees)
-            st[_HOW] = memo.style(None, align=wrap_top)
-            out.append(st)
-        self._memo = memo
+        from the top.
+
+        The cell route styles each row in turn (the bold first, then the Agrees, then the How
+        cell); only the first use of each style adds to the workbook's lists, so each is done
+        here once, in the order of those first uses."""
+        memo = self._memo = _Memo(ws)
+        if not self.cols:
+            return
+        first_heading = next((i for i, h in enumerate(self.heading) if h), None)
+        base = self._base
+        if first_heading == 0:
+            base[1] = memo.style(None, font=bold)
+        base[_AGREES] = memo.style(None, **agrees)
+        base[_HOW] = memo.style(None, align=wrap_top)
+        if first_heading is not None and first_heading > 0:
+            base[1] = memo.style(None, font=bold)
+
+    def _style(self, j: int, heading: bool) -> tuple | None:
+        """A cell's style from the table (before the heights)."""
+        if j == 1:
+            return self._base[1] if heading else None
+        if j == _AGREES or j == _HOW:
+            return self._base[j]
+        return None
 
     def fit(self, ws, *, line_height: float = 14.5) -> None:
         """Row heights and top alignment as :func:`~verify.report.cells.fit_rows` gives them
@@ -155,99 +180,135 @@ class Body:
                 w = col_widths[col] = float(w) if w else 8.43
             return w
 
-        wraps: dict[int, bool] = {}
-        sizes: dict[int, float] = {}
-        for i, valued in enumerate(self.valued):
-            st = self.styles[i]
+        wrapping: dict[tuple, tuple | None] = {}  # (column, heading) -> (width, size) if wrapped
+        lines_of: dict[tuple, int] = {}
+        heights, tall = self.heights, self._tall
+        style_of = self._style
+        for i, texts in enumerate(self.texts):
+            if not texts:
+                continue
+            heading = self.heading[i]
             need = 1
             font_scale = 1.0
-            for j, kind, v in valued:
-                if kind != _TEXT:
+            for j, v in texts:
+                how = wrapping.get((j, heading), False)
+                if how is False:
+                    s = style_of(j, heading)
+                    how = None
+                    if aligns[0 if s is None else s[5]].wrap_text:
+                        how = (width(j), (fonts[0 if s is None else s[0]].sz or 11) / 11)
+                    wrapping[(j, heading)] = how
+                if how is None:
                     continue
-                s = st.get(j)
-                a = 0 if s is None else s[5]
-                wrap = wraps.get(a)
-                if wrap is None:
-                    wrap = wraps[a] = bool(aligns[a].wrap_text)
-                if not wrap:
-                    continue
-                f = 0 if s is None else s[0]
-                size = sizes.get(f)
-                if size is None:
-                    size = sizes[f] = (fonts[f].sz or 11) / 11
-                cap = width(j)
-                lines = sum(max(1, math.ceil(len(part) * size / max(cap * 1.05, 1)))
-                            for part in v.split("\n"))
+                cap, size = how
+                key = (v, cap, size)
+                lines = lines_of.get(key)
+                if lines is None:
+                    lines = lines_of[key] = sum(
+                        max(1, math.ceil(len(part) * size / max(cap * 1.05, 1)))
+                        for part in v.split("\n"))
                 if lines > need:
                     need, font_scale = lines, max(1.0, size)
             if need > 1:
-                self.heights[i] = need * line_height * font_scale + 2
-                for j, _kind, _v in valued:  # in a tall row, everything reads from the top
-                    s = st.get(j)
-                    if aligns[0 if s is None else s[5]].vertical is None:
-                        st[j] = memo.top(s)
+                heights[i] = need * line_height * font_scale + 2
+                key = (self.cols[i], heading)
+                if key not in tall:  # in a tall row, everything reads from the top
+                    styles = []
+                    for j in key[0]:
+                        s = style_of(j, heading)
+                        if aligns[0 if s is None else s[5]].vertical is None:
+                            s = memo.top(s)
+                        styles.append(s)
+                    tall[key] = tuple(styles)
 
     def fold(self, row: int) -> None:
         """Fold body row ``row`` (a sheet row) into the helper rows' outline group."""
         self.folded.add(row - self.first_row)
 
+    def _shape_cells(self, cols: tuple, heading: bool, is_tall: bool) -> list[tuple]:
+        """(column, style, index of its text among the row's valued cells or None) for each
+        cell of a row of this shape: the valued ones and the table's styled ones, by column."""
+        valued = dict(zip(cols, self._tall[(cols, heading)] if is_tall
+                          else [self._style(j, heading) for j in cols], strict=True))
+        out = []
+        for j in sorted(set(cols) | {_AGREES, _HOW}):
+            if j in valued:
+                out.append((j, valued[j], cols.index(j)))
+            else:
+                out.append((j, self._style(j, heading), None))
+        return out
+
+    def _shape_keys(self) -> Iterator[tuple[int, tuple]]:
+        heights, folded = self.heights, self.folded
+        for i, cols in enumerate(self.cols):
+            yield i, (cols, self.heading[i], heights.get(i), i in folded)
+
     def register(self, attr) -> None:
         """Register the body's cell styles in the workbook at the save, in cell order, as the
-        cell route's writer does (``attr`` gives a style's ``s`` attribute)."""
-        keys: dict[tuple, int] = {}
-        attrs: list[str] = []
-        for st in self.styles:
-            for j in sorted(st):
-                s = st[j]
-                if s is not None and s not in keys:
-                    keys[s] = len(attrs)
-                    attrs.append(attr(StyleArray(s)))
-        self._keys, self._attrs = keys, attrs
+        cell route's writer does (``attr`` gives a style's ``s`` attribute), and compile a
+        writer for each row shape. (A shape's styles were all seen at its first row, so taking
+        the shapes in the order of their first rows registers the styles in cell order.)"""
+        attrs: dict[tuple, str] = {}
+        shapes: dict[tuple, tuple] = {}
+        heads: dict = {}
+        for _i, shape in self._shape_keys():
+            if shape in shapes:
+                continue
+            cols, heading, height, is_folded = shape
+            cells = []
+            for j, s, k in self._shape_cells(cols, heading, height is not None):
+                a = ""
+                if s is not None:
+                    a = attrs.get(s)
+                    if a is None:
+                        a = attrs[s] = attr(StyleArray(s))
+                if k is None and not a:
+                    continue  # an empty cell without a style is not written
+                cells.append((get_column_letter(j), a, k))
+            shapes[shape] = (cells, _shape_writer(_row_tail((height, is_folded), heads), cells))
+        self._shapes = shapes
 
     def rows(self) -> Iterator[str]:
         """The body's ``<row>`` elements, in chunks (after :meth:`register`)."""
-        if self._attrs is None:
+        shapes = self._shapes
+        if shapes is None:
             raise RuntimeError("the recheck body's styles were not registered before its rows")
-        keys, attrs = self._keys, self._attrs
-        attr_of = {s: attrs[k] for s, k in keys.items()}
-        attr_of[None] = ""
-        tails: dict[tuple, str] = {}
-        heads: dict = {}
-        letters: dict[int, str] = {}
+        rests = self.rests
         out: list[str] = []
         append = out.append
-        heights, folded = self.heights, self.folded
         r = self.first_row
-        for i, xml in enumerate(self.xml):
-            st = self.styles[i]
-            key = (heights.get(i), i in folded)
-            tail = tails.get(key)
-            if tail is None:
-                tail = tails[key] = _row_tail(key, heads)
-            rs = str(r)
-            append(f'<row r="{rs}"{tail}>')
-            # the valued cells and the styled ones, by column
-            cols = dict(xml)
-            for j in sorted(cols.keys() | st.keys()):
-                letter = letters.get(j)
-                if letter is None:
-                    letter = letters[j] = get_column_letter(j)
-                a = attr_of[st.get(j)]
-                rest = cols.get(j)
-                if rest is None:  # a styled cell without a value
-                    if a:
-                        append(f'<c r="{letter}{rs}"{a} t="n" />')
-                    continue
-                append(f'<c r="{letter}{rs}"{a}{rest}')
-            append("</row>")
-            r += 1
-            if len(out) > 8192:
+        for i, shape in self._shape_keys():
+            append(shapes[shape][1](str(r + i), *rests[i]))
+            if len(out) >= 4096:
                 yield "".join(out)
                 out.clear()
         yield "".join(out)
 
     def streamed(self, title: str, dimension: str) -> StreamedSheet:
         return StreamedSheet(title, self.rows, dimension, register=self.register)
+
+
+def _shape_writer(tail: str, cells: list[tuple]) -> Callable[..., str]:
+    """``f(r, *texts)``: the ``<row>`` element of sheet row ``r`` (its number as text) for a
+    row shape: ``<row r=".."`` and ``tail``, then for each cell (letter, ``s`` attribute, index
+    of its text or None for an empty styled cell) ``<c r="{letter}{r}"{s}`` and its text, or
+    `` t="n" />`` when empty (as sheet_xml.sheet_rows writes a styled empty cell).
+
+    An f-string compiled for the shape: the attributes and the row's tail are constants bound
+    by name, the source holds nothing but markup, column letters and argument names."""
+    names = {"T": tail}
+    parts = []
+    for n, (letter, a, k) in enumerate(cells):
+        names[f"S{n}"] = a
+        rest = f"{{c{k}}}" if k is not None else ' t="n" />'
+        parts.append(f'<c r="{letter}{{r}}"{{S{n}}}{rest}')
+    n_texts = sum(k is not None for _l, _a, k in cells)
+    args = ", ".join(["r", *(f"c{k}" for k in range(n_texts))])
+    source = (f"def row({args}):\n"
+              f"    return f'<row r=\"{{r}}\"{{T}}>{''.join(parts)}</row>'\n")
+    namespace = dict(names)
+    exec(compile(source, "<verify.report.recheck_xml row shape>", "exec"), namespace)
+    return namespace["row"]
 
 
 def _text_cell(value: str) -> str:
