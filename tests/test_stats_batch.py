@@ -224,3 +224,22 @@ def test_batched_one_way_equals_the_one_sample_route(lot_sizes):
         for fn in (lot_effect, variance_components):
             assert _batched(fn, f, lots=lots) == _plain(fn, x, lots=list(lots))
     _memo.forget()
+
+
+def test_batched_means_and_sds_equal_the_one_sample_route():
+    # the corrected two-pass mean and sd of every stacked sample, computed together, are the
+    # floats core.mean_sd computes for the sample alone
+    from verify.stats.core import _mean_sd
+
+    samples = _samples()
+    frozen = [_memo.freeze(np.array(x, dtype=float)) for x in samples]
+    _memo.forget()
+    batch.prefetch(frozen)
+    found = 0
+    for x, f in zip(samples, frozen, strict=True):
+        hit = _memo.recall("mean_sd", f)
+        if hit is not None:
+            found += 1
+            assert hit == _mean_sd(np.array(x, dtype=float))
+    assert found >= 14
+    _memo.forget()

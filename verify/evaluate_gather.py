@@ -125,8 +125,8 @@ def _summary(process: str, values: np.ndarray, lots, n_parts: int,
         sd=sd,
         lots=tuple(dict.fromkeys(map(str, lots))),
         n_parts=n_parts,
-        minimum=float(values.min()) if n else None,
-        maximum=float(values.max()) if n else None,
+        minimum=float(np.minimum.reduce(values)) if n else None,  # values.min(), unwrapped
+        maximum=float(np.maximum.reduce(values)) if n else None,
         beyond_limits=beyond,
     )
 

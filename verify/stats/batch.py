@@ -61,6 +61,8 @@ def _stacked(rows: list[np.ndarray], n: int) -> None:
     # needs (anything else goes to the one-sample route and its error; NaN fails the tests)
     lo, hi = np.minimum.reduce(x, axis=1), np.maximum.reduce(x, axis=1)
     ok = (-MAX_MAGNITUDE <= lo) & (hi <= MAX_MAGNITUDE) & (lo != hi)
+    if ok.any():
+        _mean_sds([r for r, good in zip(rows, ok.tolist(), strict=True) if good], x[ok], n)
     keep = []
     for r, good in enumerate(ok.tolist()):
         if good:
@@ -83,6 +85,28 @@ def _stacked(rows: list[np.ndarray], n: int) -> None:
         _anderson_darling(rows, x, m, s, n)
     if n >= GRUBBS_MIN_N:
         _grubbs(rows, x, m, s, n)
+
+
+def _mean_sds(rows: list[np.ndarray], x: np.ndarray, n: int) -> None:
+    """core.mean_sd of each row of ``x`` (finite, within core.MAX_MAGNITUDE), remembered for
+    its sample: the corrected two-pass sums along C-contiguous rows (as the 1-D sums add),
+    the scalar steps in the same Python arithmetic."""
+    total = np.add.reduce(x, axis=1)
+    m = total / n
+    d = np.ascontiguousarray(x - m[:, None])
+    m = m + np.add.reduce(d, axis=1) / n  # second-pass correction of the mean
+    means = m.tolist()
+    if n < 2:
+        for a, mean in zip(rows, means, strict=True):
+            _memo.remember("mean_sd", a, (n, mean, math.nan))
+        return
+    d = np.ascontiguousarray(x - m[:, None])
+    squares = np.add.reduce(d * d, axis=1).tolist()
+    sums = np.add.reduce(d, axis=1).tolist()
+    for a, mean, sq, sm in zip(rows, means, squares, sums, strict=True):
+        if _memo.recall("mean_sd", a) is None:
+            ss = sq - sm ** 2 / n
+            _memo.remember("mean_sd", a, (n, mean, math.sqrt(max(ss, 0.0) / (n - 1))))
 
 
 def _one_ways(in_lots) -> None:
