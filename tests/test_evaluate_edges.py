@@ -167,3 +167,46 @@ def test_one_sided_margin_is_written_with_its_untested_end_null(tmp_path):
                 "      shift: {margin: 2.0}\n")
     doc = json.loads(json.dumps(result_dict(ev)))
     assert doc["characteristics"][0]["checks"][0]["margin"] == [-2.0, None]
+
+
+def test_the_garbage_collector_is_paused_during_an_evaluation_and_restored(tmp_path,
+                                                                          monkeypatch):
+    # evaluate pauses the cyclic collector (a burst of short-lived objects) and must hand the
+    # process back as it found it: enabled stays enabled, disabled stays disabled, also when
+    # the evaluation fails
+    import gc
+    import sys
+
+    evaluate_module = sys.modules["verify.evaluate"]
+    rng = np.random.default_rng(3)
+    spec = _spec(tmp_path, _rows(np.round(10 + rng.normal(0, 0.05, 12), 3),
+                                 np.round(10 + rng.normal(0, 0.05, 12), 3)),
+                 "characteristics:\n  - name: x\n    unit: mm\n    checks:\n      shift: {}\n")
+    meas = load_measurements(spec)
+    seen = []
+    real = evaluate_module.draft_characteristic
+
+    def spy(*args):
+        seen.append(gc.isenabled())
+        return real(*args)
+
+    monkeypatch.setattr(evaluate_module, "draft_characteristic", spy)
+    was = gc.isenabled()
+    try:
+        gc.enable()
+        evaluate(spec, meas)
+        assert seen == [False] and gc.isenabled()
+        gc.disable()
+        evaluate(spec, meas)
+        assert seen == [False, False] and not gc.isenabled()
+        gc.enable()
+
+        def fail(*args):
+            raise RuntimeError("boom")
+
+        monkeypatch.setattr(evaluate_module, "draft_characteristic", fail)
+        with pytest.raises(RuntimeError, match="boom"):
+            evaluate(spec, meas)
+        assert gc.isenabled()
+    finally:
+        (gc.enable if was else gc.disable)()

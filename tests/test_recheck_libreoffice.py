@@ -136,6 +136,14 @@ class Checked:
     unavailable: list  # (label, reason) of rows saying the recheck is not available
 
 
+def is_true(value) -> bool:
+    """A recalculated Agrees cell that holds TRUE. The cells carry a logical number format
+    (``workbook.AGREES_FORMAT``) so that LibreOffice prints TRUE, not 1; LibreOffice then saves
+    the comparison's result as the number 1 under that format rather than as a logical. Either
+    is TRUE; 0, FALSE, an error or an empty cell is not."""
+    return value is True or (type(value) in (int, float) and value == 1)
+
+
 def assert_recheck_agrees(name: str, formulas: list[list], recalculated: Path) -> Checked:
     ws = openpyxl.load_workbook(recalculated, data_only=True)[RECHECK_SHEET]
     values = [[c.value for c in row] for row in ws.iter_rows()]
@@ -171,11 +179,11 @@ def assert_recheck_agrees(name: str, formulas: list[list], recalculated: Path) -
                 continue  # reported above
             if abs(b - engine) > TOLERANCE * max(1.0, abs(engine)):
                 problems.append(f"row {r} {first!r}: sheet {b!r} vs engine {engine!r} ({f_b})")
-            if agrees is not True:
+            if not is_true(agrees):
                 problems.append(f"row {r} {first!r}: Agrees is {agrees!r}")
     assert compared > 0, f"{name}: no rows compared"
     assert not problems, f"{name}:\n" + "\n".join(problems)
-    assert val(SUMMARY_ROW, 5) is True, (
+    assert is_true(val(SUMMARY_ROW, 5)), (
         f"{name}: summary says {val(SUMMARY_ROW, 2)} of {val(SUMMARY_ROW, 3)} agree"
     )
     return Checked(name, compared, headings, labels, by_section, unavailable)
@@ -436,3 +444,43 @@ def test_spreadsheet_reproduces_published_rate_values(soffice, tmp_path, referen
     # Fisher's one-sided p for 0 new of 59 against 2 old of 40 is 1 (no new failure)
     assert sheet("parts", "Fisher one-sided p (new rate higher)") == pytest.approx(1.0)
     assert any(h.startswith("rate_shift check: Newcombe") for h in got.headings)
+
+
+# --- what LibreOffice prints in the Agrees column -------------------------------------------------
+
+
+def test_agrees_cells_print_true_not_1_in_libreoffice(soffice, tmp_path):
+    """LibreOffice keeps a comparison's result as 1 or 0 and prints it through the cell's number
+    format: in a General cell the Agrees column printed 1 where the sheet's note says TRUE (seen
+    rendering the demo workbooks). The column carries a logical format; here LibreOffice writes
+    the sheet as text as shown (CSV filter option 'save cell contents as shown'), and every
+    compared row and the summary must read TRUE."""
+    from verify.report.workbook import AGREES_FORMAT
+
+    out = tmp_path / "reports"
+    proc = subprocess.run(
+        [sys.executable, "-m", "verify", "run", str(REPO / "specs" / "closure-mould.yaml"),
+         "--out", str(out)], capture_output=True, text=True, cwd=REPO, timeout=600,
+    )
+    book = out / "closure-mould.xlsx"
+    assert book.exists(), f"exit {proc.returncode}\n{proc.stdout}\n{proc.stderr}"
+    formulas = sheet_rows(book)
+    ws = openpyxl.load_workbook(book)[RECHECK_SHEET]
+    compared = [r for r, row in enumerate(formulas, start=1)
+                if len(row) > 4 and isinstance(row[4], str) and row[4].startswith("=ABS(")]
+    assert compared and all(ws.cell(r, 5).number_format == AGREES_FORMAT for r in compared)
+    assert ws.cell(SUMMARY_ROW, 5).number_format == AGREES_FORMAT
+
+    csv_dir, profile = tmp_path / "csv", tmp_path / "lo-profile-csv"
+    # 44 comma, 34 quote, 76 UTF-8, from line 1, ..., 9th token true: contents as shown,
+    # last token -1: every sheet to <stem>-<sheet>.csv
+    filt = "csv:Text - txt - csv (StarCalc):44,34,76,1,,0,false,true,true,false,false,-1"
+    subprocess.run([soffice, f"-env:UserInstallation={profile.as_uri()}", "--headless",
+                    "--norestore", "--convert-to", filt, "--outdir", str(csv_dir), str(book)],
+                   capture_output=True, text=True, timeout=600)
+    shown_file = csv_dir / f"closure-mould-{RECHECK_SHEET}.csv"
+    assert shown_file.exists(), f"LibreOffice wrote {sorted(p.name for p in csv_dir.glob('*'))}"
+    with shown_file.open(encoding="utf-8", newline="") as f:
+        shown = list(csv.reader(f))
+    assert [r for r in compared if shown[r - 1][4] != "TRUE"] == []
+    assert shown[SUMMARY_ROW - 1][4] == "TRUE"

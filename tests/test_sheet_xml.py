@@ -35,7 +35,7 @@ from openpyxl.worksheet.hyperlink import Hyperlink
 from openpyxl.worksheet.table import Table
 
 from tests.factory import make_evaluation
-from verify.report import sheet_xml
+from verify.report import recheck_xml, sheet_xml
 from verify.report.cells import put
 from verify.report.sheet_xml import full_precision_numbers, save
 from verify.report.workbook import write_workbook
@@ -388,6 +388,8 @@ def test_workbook_of_an_evaluation_equals_openpyxls_writing(tmp_path, monkeypatc
     with monkeypatch.context() as m:
         m.setattr(sheet_xml, "stream_cells", _openpyxl_writes_cells)
         m.setattr(sheet_xml, "openpyxl_package", _openpyxl_save)
+        # the recheck sheet's body as cells too (recheck_xml writes it as rows otherwise)
+        m.setattr(recheck_xml.Body, "build", classmethod(lambda cls, *a, **k: None))
         write_workbook(ev, ref, record_json='{"format": "verify-result/1"}', detail=detail)
     a, b = _parts(fast), _parts(ref)
     assert a.keys() == b.keys()
@@ -410,3 +412,26 @@ def test_rows_of_every_sheet_are_unique_and_ascending(tmp_path, detail):
         for name in sheets:
             rows = [int(r) for r in re.findall(rb'<row r="(\d+)"', z.read(name))]
             assert rows == sorted(set(rows)), name
+
+
+# --- the streamed rows' writer ----------------------------------------------------------------
+
+
+@settings(max_examples=60, deadline=None)
+@given(n=st.integers(min_value=1, max_value=30), r=st.integers(min_value=1, max_value=1048576),
+       text=st.text(max_size=20))
+def test_row_writer_equals_the_format_template_it_replaced(n, r, text):
+    """xlsx_fast.row_writer against the measurements sheet's former ``str.format`` template
+    (the same row element: ``<row r>`` and each cell's reference, then the given rest, which
+    may hold braces or quotes: it is an argument, never part of a template)."""
+    from openpyxl.utils import get_column_letter
+
+    from verify.report.xlsx_fast import row_writer
+
+    template = (
+        '<row r="{0}">'
+        + "".join(f'<c r="{get_column_letter(j)}{{0}}"{{{j}}}' for j in range(1, n + 1))
+        + "</row>"
+    ).format
+    cells = [f'{{}}"{text}"{j}/>' for j in range(n)]
+    assert row_writer(n)(str(r), *cells) == template(r, *cells)

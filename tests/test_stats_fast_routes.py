@@ -13,7 +13,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import stats
 
-from verify.stats import power_of_tests, spread
+from verify.stats import noncentral, power_of_tests, spread
 from verify.stats.errors import DegenerateDataError
 from verify.stats.nonparametric import average_ranks
 from verify.stats.samples import median
@@ -73,3 +73,44 @@ def test_tost_power_with_shared_df_equals_each_case_alone():
     alone = [power_of_tests._tost_power_many(d, lo, hi, np.array([tau]), np.array([df]), a)[0]
              for d, lo, hi, tau, df, a in cases]
     assert together.tolist() == [float(x) for x in alone]
+
+
+def test_tost_power_pieces_in_place_equal_the_plain_expressions():
+    # _pieces evaluates the quadrature nodes in place; each piece's sum must be the float the
+    # plain expressions (the integrand as the adaptive route writes it) give, bit for bit
+    from scipy import special
+
+    rng = np.random.default_rng(5)
+    p = 50
+    left = rng.uniform(0.05, 1.5, p)
+    right = left + rng.uniform(0.01, 1.0, p)
+    df = rng.uniform(1.5, 80.0, p)
+    k0 = np.array([noncentral._sd_ratio_log_constant(d) for d in df])
+    c = special.stdtrit(df, 0.95)
+    up, low = rng.uniform(1.0, 9.0, p), rng.uniform(-9.0, -1.0, p)
+    gx, gw = power_of_tests._GL_X, power_of_tests._GL_W
+    log_l, log_r = np.log(left), np.log(right)
+    half, mid = 0.5 * (log_r - log_l), 0.5 * (log_r + log_l)
+    t = mid[:, None] + half[:, None] * gx
+    e = np.expm1(t)
+    nodes = 1.0 + e
+    weights = half[:, None] * gw * nodes
+    logpdf = k0[:, None] - (0.5 * df)[:, None] * e * (2.0 + e) + (df[:, None] - 1.0) * t
+    g = special.ndtr(up[:, None] - c[:, None] * nodes) - special.ndtr(low[:, None]
+                                                                      + c[:, None] * nodes)
+    plain = np.add.reduce(g * np.exp(logpdf) * weights, axis=1)
+    fast = power_of_tests._pieces(mid, half, gx, gw, k0, 0.5 * df, df - 1.0, c, up, low)
+    assert fast.tolist() == plain.tolist()
+
+
+def test_tost_power_is_the_same_whatever_the_block_of_pieces(monkeypatch):
+    # the pieces are integrated in blocks (cache-sized); the sums per case are added in the
+    # same order whatever the block, so the powers are the same floats
+    cases = [(0.002, -0.02, 0.025, *power_of_tests._plan("welch", sd, n, n + 2, 1.2 * sd), 0.05)
+             for sd in (0.006, 0.01, 0.014) for n in (5, 12, 30, 31, 90)]
+    cols = np.array(cases, dtype=float).T
+    results = []
+    for block in (1, 7, 128, 10**6):
+        monkeypatch.setattr(power_of_tests, "_BLOCK", block)
+        results.append(power_of_tests._tost_power_many(*cols).tolist())
+    assert all(r == results[0] for r in results)

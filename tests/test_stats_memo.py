@@ -290,3 +290,20 @@ def test_an_evaluation_that_fails_leaves_nothing_remembered(tmp_path, monkeypatc
     with pytest.raises(RuntimeError, match="finishing failed"):
         ev_module.evaluate(spec, meas)
     assert _memo._CACHE == {}
+
+
+def test_group_sizes_are_bincount_and_remembered_only_for_read_only_codes():
+    # the counts per lot code that the lot statistics share: np.bincount's, remembered (and
+    # read-only) with codes that cannot change, recomputed for codes that can
+    from verify.stats.samples import group_codes, group_sizes
+
+    lots = ("B", "A", "B", "C", "A", "B")
+    _, codes = group_codes(lots, len(lots))  # a tuple of text: remembered, read-only
+    _memo.forget()
+    first = group_sizes(codes, 3)
+    assert first.tolist() == np.bincount(codes, minlength=3).tolist() == [3, 2, 1]
+    assert group_sizes(codes, 3) is first and not first.flags.writeable
+    loose = np.array([0, 1, 0, 2, 1, 0])
+    again = group_sizes(loose, 4)
+    assert again.tolist() == [3, 2, 1, 0] and group_sizes(loose, 4) is not again
+    _memo.forget()

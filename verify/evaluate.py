@@ -11,11 +11,13 @@ finishes each characteristic (:mod:`verify.evaluate_finish`). The numbers come f
 
 from __future__ import annotations
 
+import gc
+
 from . import decide
 from .checks.drafting import replaced
 from .evaluate_diagnostics import diagnostics
 from .evaluate_finish import adjust, complete_batches, finish
-from .evaluate_gather import CharDraft, applicable, gather, sub_streams
+from .evaluate_gather import CharDraft, applicable, gather, samples_in_lots, sub_streams, summarize
 from .model import Evaluation, Measurements, RunInfo
 from .spec_model import Characteristic, Spec
 from .stats import _memo, batch
@@ -42,14 +44,34 @@ def evaluate(
         from .audit import run_info
 
         run = run_info(spec, measurements, command="(library call)")
+    # a burst of small objects (results, sentences, drafts) that reference counting frees: the
+    # cyclic collector's passes over everything the process holds would cost about a tenth of
+    # the evaluation (one full pass per dozen evaluations, each walking pandas' and scipy's
+    # state); it is paused here, as while a workbook is built, and its state restored once the
+    # drafts are gone (the first collection then walks the result, not the drafts as well)
+    collecting = gc.isenabled()
+    gc.disable()
+    try:
+        return _evaluate(spec, measurements, final, run)
+    finally:
+        if collecting:
+            gc.enable()
+
+
+def _evaluate(spec: Spec, measurements: Measurements, final: bool, run: RunInfo) -> Evaluation:
+    """:func:`evaluate` with the collector paused (its drafts freed when this returns)."""
     try:
         gathered = [gather_characteristic(spec, measurements, ch, final)
                     for ch in spec.characteristics]
+        measured = [d for d in gathered if not d.ch.pass_fail]
         # the per-sample diagnostics of all characteristics' samples computed together: a layout
-        # measures the same parts on every characteristic (the results are the one-sample ones)
-        batch.prefetch([x for d in gathered if not d.ch.pass_fail
-                        for st in (d.data.reference, d.data.candidate)
-                        for x in (st.values, st.parts)])
+        # measures the same parts on every characteristic (the results are the one-sample ones),
+        # and the one-way analyses of their lots, which the process summaries read
+        batch.prefetch([x for d in measured for st in (d.data.reference, d.data.candidate)
+                        for x in (st.values, st.parts)],
+                       in_lots=[q for d in measured for q in samples_in_lots(d)])
+        for d in measured:
+            summarize(d)
         # and the rank statistics the kinds' companions will ask for (their hooks say which)
         batch.prefetch_ranks([q for d in gathered if not d.ch.pass_fail for k in applicable(d.ch)
                               for q in _rank_requests(k, d.inp)])

@@ -45,7 +45,7 @@ class CharDraft:
 
     ch: Characteristic
     inp: CheckInput  # the streams and settings every check reads
-    processes: dict
+    processes: dict  # name -> ProcessSummary (measured: filled by summarize)
     checks: list[Draft] = field(default_factory=list)
     diagnostics: list[DiagnosticResult] = field(default_factory=list)
     shortfall: str | None = None
@@ -54,6 +54,9 @@ class CharDraft:
     pairs: int | None = None
     unmatched: tuple = ()
     streams: list[StreamDraft] = field(default_factory=list)
+    # measured: the gathered streams whose summaries the characteristic shows, as gathered
+    # (a reference without values included when a check is a difference from it)
+    shown: dict = field(default_factory=dict)
 
     @property
     def data(self) -> Comparison:
@@ -122,42 +125,39 @@ def _summary(process: str, values: np.ndarray, lots, n_parts: int,
         sd=sd,
         lots=tuple(dict.fromkeys(map(str, lots))),
         n_parts=n_parts,
-        minimum=float(values.min()) if n else None,
-        maximum=float(values.max()) if n else None,
+        minimum=float(np.minimum.reduce(values)) if n else None,  # values.min(), unwrapped
+        maximum=float(np.maximum.reduce(values)) if n else None,
         beyond_limits=beyond,
     )
 
 
-def _stream(spec: Spec, meas: Measurements, ch: Characteristic, name: str, part_spec: Spec
-            ) -> tuple[Stream, ProcessSummary]:
-    """One named stream of ``ch`` (analysis units and parts) and its summary."""
+def _stream(spec: Spec, meas: Measurements, name: str, ch: Characteristic, part_spec: Spec
+            ) -> Stream:
+    """One named stream of ``ch``: its analysis units and parts, read-only."""
     units = analysis_values(meas, spec, ch.name, name)
     parts = units if part_spec is spec else analysis_values(meas, part_spec, ch.name, name)
     # read-only samples: the statistics remember what they derive from one (its mean and sd,
     # its lots' codes) instead of deriving it again for each check and diagnostic
     values = freeze(units.values)
     part_values = values if parts is units else freeze(parts.values)
-    stream = Stream(name=name, values=values, parts=part_values, lots=tuple(parts.lots))
-    summary = _summary(name, values, stream.lots, int(part_values.size), part_values,
-                       _beyond(ch, part_values))
-    return stream, summary
+    return Stream(name=name, values=values, parts=part_values, lots=tuple(parts.lots))
 
 
 def gather(spec: Spec, meas: Measurements, ch: Characteristic, final: bool) -> CharDraft:
-    """The streams, summaries, fit and shortfall of one measured characteristic."""
+    """The streams, fit and shortfall of one measured characteristic (its process summaries
+    follow in :func:`summarize`, once the statistics of every characteristic's samples have
+    been computed together)."""
     part_spec = replace(spec, unit_of_analysis="part") if spec.unit_of_analysis == "lot" else spec
-    streams, summaries = {}, {}
-    for name in (*CANDIDATES, REFERENCE):
-        streams[name], summaries[name] = _stream(spec, meas, ch, name, part_spec)
+    streams = {name: _stream(spec, meas, name, ch, part_spec)
+               for name in (*CANDIDATES, REFERENCE)}
     ref = streams[REFERENCE]
+    shown = [*CANDIDATES]
+    if ref.values.size or shows_reference(ch):
+        shown.insert(0, REFERENCE)
     # a reference without values holds None, so that no check reads an empty stream
-    ref = replace(ref, values=ref.values if ref.values.size else None,
-                  parts=ref.parts if ref.parts.size else None)
-    processes = {}
-    if ref.values is not None or shows_reference(ch):
-        processes[REFERENCE] = summaries[REFERENCE]
-    for name in CANDIDATES:
-        processes[name] = summaries[name]
+    if not (ref.values.size and ref.parts.size):
+        ref = replace(ref, values=ref.values if ref.values.size else None,
+                      parts=ref.parts if ref.parts.size else None)
     # the matched pairs, for the kinds whose settings run them on pairs (data.pair declared)
     roles = {r for k in applicable(ch)
              if (r := _hook_says(k, "pairs_role", getattr(ch.checks, k.name))) is not None}
@@ -172,8 +172,8 @@ def gather(spec: Spec, meas: Measurements, ch: Characteristic, final: bool) -> C
         except CANNOT_COMPUTE as err:
             fit_error = str(err)
     inp = CheckInput(spec=spec, ch=ch, data=data, final=final, fit=fit, fit_error=fit_error)
-    d = CharDraft(ch=ch, inp=inp, processes=processes)
-    counts = {p: s.n for p, s in processes.items()}
+    d = CharDraft(ch=ch, inp=inp, processes={}, shown={name: streams[name] for name in shown})
+    counts = {p: int(st.values.size) for p, st in d.shown.items()}
     if pairs is not None:
         # a check that runs on the pairs has as many units as there are matched pairs
         d.pairs = len(pairs.keys)
@@ -181,6 +181,19 @@ def gather(spec: Spec, meas: Measurements, ch: Characteristic, final: bool) -> C
         counts = {"pairs": d.pairs}
     sufficiency(spec, d, counts, final)
     return d
+
+
+def samples_in_lots(d: CharDraft) -> list[tuple[np.ndarray, tuple]]:
+    """The part samples whose lots :func:`summarize` will analyse (each with its lots)."""
+    return [(st.parts, st.lots) for st in d.shown.values() if st.parts.size]
+
+
+def summarize(d: CharDraft) -> None:
+    """The process summaries of a gathered measured characteristic (``d.processes``), one per
+    stream it shows."""
+    d.processes = {name: _summary(name, st.values, st.lots, int(st.parts.size), st.parts,
+                                  _beyond(d.ch, st.parts))
+                   for name, st in d.shown.items()}
 
 
 def sub_streams(meas: Measurements, d: CharDraft) -> list[tuple[StreamDraft, CheckInput]]:

@@ -23,7 +23,7 @@ from openpyxl.worksheet.table import Table, TableColumn, TableStyleInfo
 from .cells import MUTED, NOTE_FONT, clean_text, fixed, page_setup, put, resolution_decimals
 from .layout import MEASUREMENT_HEADERS, MeasurementLayout, measurement_headers
 from .styles import StyleBook
-from .xlsx_fast import StreamedSheet, t_element
+from .xlsx_fast import StreamedSheet, row_writer, t_element
 
 _WIDTHS = {
     "characteristic": 22,
@@ -168,12 +168,7 @@ def _row_generator(rows: pd.DataFrame, styles: StyleBook, decimals: dict,
     so one template formats a whole row.
     """
     keys = [k for k, _ in columns]
-    letters = [get_column_letter(j) for j in range(1, len(keys) + 1)]
-    template = (
-        '<row r="{0}">'
-        + "".join(f'<c r="{letter}{{0}}"{{{i + 1}}}' for i, letter in enumerate(letters))
-        + "</row>"
-    ).format
+    row_xml = row_writer(len(keys))
 
     def generate() -> Iterator[str]:
         text_u, text_x = styles.text(False), styles.text(True)
@@ -191,8 +186,8 @@ def _row_generator(rows: pd.DataFrame, styles: StyleBook, decimals: dict,
             columns = _chunk_columns(
                 rows.iloc[start:stop], start, stop, keys, text_cols, value_style, styles
             )
-            row_no = rows["row"].to_numpy()[start:stop].tolist()
-            yield "".join([template(r, *cells) for r, *cells in zip(row_no, *columns, strict=True)])
+            row_no = map(str, rows["row"].to_numpy()[start:stop].tolist())
+            yield "".join(map(row_xml, row_no, *columns))
 
     return generate
 

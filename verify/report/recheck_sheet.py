@@ -48,6 +48,8 @@ MAX_HELPER_ROWS = 5000
 
 def as_number(x) -> float | int | None:
     """The engine's value as a cell value: None when absent or not a finite number."""
+    if type(x) is float:  # the common case first (the general rules below agree)
+        return x if math.isfinite(x) else None
     if x is None or isinstance(x, bool):
         return None
     if isinstance(x, int):
@@ -61,10 +63,21 @@ def as_number(x) -> float | int | None:
 
 def as_text(s: str) -> str | None:
     """A text cell (None when empty): never starts with '=', which would make it a formula."""
-    s = XML_ILLEGAL.sub("", s)
-    if not s:
-        return None
-    return s if not s.startswith("=") else " " + s
+    hit = _TEXTS.get(s, _MISSING)
+    if hit is not _MISSING:
+        return hit
+    out = XML_ILLEGAL.sub("", s)
+    out = None if not out else out if not out.startswith("=") else " " + out
+    if type(s) is str:
+        if len(_TEXTS) >= 8192:
+            _TEXTS.clear()
+        _TEXTS[s] = out
+    return out
+
+
+# the labels and explanations repeat for every characteristic: each text made once
+_TEXTS: dict[str, str | None] = {}
+_MISSING = object()
 
 
 class Sheet:
@@ -105,20 +118,21 @@ class Sheet:
 
     def qty(self, label: str, formula: str, engine=None, how: str = "") -> str:
         """A recomputed quantity; compared with the engine's value when it has one."""
-        r = self.next_row
+        rows = self.rows
+        r = self.first_row + len(rows)
         eng = as_number(engine)
         if eng is None:
-            self.add(as_text(label), "=" + formula, None, None, None, as_text(how))
+            rows.append([as_text(label), "=" + formula, None, None, None, as_text(how)])
         else:
             self.compared += 1
-            self.add(
+            rows.append([
                 as_text(label),
                 "=" + formula,
                 eng,
                 f"=B{r}-C{r}",
                 f"=ABS(B{r}-C{r})<={TOLERANCE_CELL}*MAX(1,ABS(C{r}))",
                 as_text(how),
-            )
+            ])
         return f"$B${r}"
 
     def family_member(self, p_cell: str) -> str:

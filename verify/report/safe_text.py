@@ -87,14 +87,38 @@ def xml_safe_evaluation(ev):
     return _Walker().walk(ev)
 
 
+_ATOMS = frozenset({type(None), bool, int, float, complex, bytes})  # kept as they are
+_FIELDS: dict[type, tuple[str, ...] | None] = {}  # a dataclass's fields walked (None: no dataclass)
+
+
+def _fields_walked(t: type) -> tuple[str, ...] | None:
+    names = _FIELDS.get(t, False)
+    if names is False:
+        names = None
+        if dataclasses.is_dataclass(t):
+            names = tuple(f.name for f in dataclasses.fields(t)
+                          if f.init and (t.__name__, f.name) not in _KEEP_VERBATIM)
+        _FIELDS[t] = names
+    return names
+
+
 class _Walker:
+    """Walks an object graph, copying only what holds a text to replace. Exact built-in types
+    are told apart by a set lookup before any ``isinstance`` (the evaluation of a large layout
+    holds about 150,000 values); each dataclass's fields are listed once per type."""
+
     def __init__(self) -> None:
         self.memo: dict[int, Any] = {}  # shared objects stay shared in the copy
 
     def walk(self, obj: Any) -> Any:
+        t = type(obj)
+        if t is str:
+            return xml_safe(obj)
+        if t in _ATOMS:
+            return obj
         if isinstance(obj, str):
             return xml_safe(obj)
-        if obj is None or isinstance(obj, (bool, int, float, complex, bytes)):
+        if isinstance(obj, (bool, int, float, complex, bytes)):
             return obj
         key = id(obj)
         if key in self.memo:
@@ -103,36 +127,42 @@ class _Walker:
         self.memo[key] = out
         return out
 
+    def _items(self, obj) -> list:
+        atoms, walk = _ATOMS, self.walk
+        return [x if type(x) in atoms else walk(x) for x in obj]
+
     def _walk(self, obj: Any) -> Any:
-        if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
-            name = type(obj).__name__
+        t = type(obj)
+        names = _fields_walked(t)
+        if names is not None:
             changes = {}
-            for f in dataclasses.fields(obj):
-                if not f.init or (name, f.name) in _KEEP_VERBATIM:
+            atoms, walk = _ATOMS, self.walk
+            for name in names:
+                old = getattr(obj, name)
+                if type(old) in atoms:
                     continue
-                old = getattr(obj, f.name)
-                new = self.walk(old)
+                new = walk(old)
                 if new is not old:
-                    changes[f.name] = new
+                    changes[name] = new
             return dataclasses.replace(obj, **changes) if changes else obj
         if isinstance(obj, PurePath):
             text = str(obj)
             safe = xml_safe(text)
             return obj if safe == text else type(obj)(safe)
         if isinstance(obj, tuple):
-            items = [self.walk(x) for x in obj]
+            items = self._items(obj)
             if all(a is b for a, b in zip(items, obj, strict=True)):
                 return obj
             return type(obj)(*items) if hasattr(obj, "_fields") else tuple(items)
         if isinstance(obj, list):
-            items = [self.walk(x) for x in obj]
+            items = self._items(obj)
             return obj if all(a is b for a, b in zip(items, obj, strict=True)) else items
         if isinstance(obj, Mapping):
             items = {self.walk(k): self.walk(v) for k, v in obj.items()}
             same = len(items) == len(obj) and all(
                 k in obj and items[k] is obj[k] for k in items)
             return obj if same else items
-        if type(obj).__name__ == "DataFrame":
+        if t.__name__ == "DataFrame":
             return _frame(obj)
         return obj
 

@@ -314,6 +314,12 @@ def _worksheet_writer():
     return Writer
 
 
+def _register_streamed(sheet: StreamedSheet, styles: _Styles) -> None:
+    """Let a streamed sheet register its rows' styles, after those of the sheet's cells."""
+    if sheet.register is not None:
+        sheet.register(styles.attr)
+
+
 @contextlib.contextmanager
 def stream_cells(wb, streamed: list[StreamedSheet]) -> Iterator[list[StreamedSheet]]:
     """While the block runs, every worksheet's cells are out of the workbook, written as rows.
@@ -332,6 +338,7 @@ def stream_cells(wb, streamed: list[StreamedSheet]) -> Iterator[list[StreamedShe
             placeholder = by_title.pop(ws.title, None)
             if not ws._cells and not ws.row_dimensions:
                 if placeholder is not None:
+                    _register_streamed(placeholder, styles)
                     out.append(placeholder)
                 continue
             dimension = _dimension(ws)
@@ -341,8 +348,11 @@ def stream_cells(wb, streamed: list[StreamedSheet]) -> Iterator[list[StreamedShe
             except _Unsupported:
                 _register_styles(ws)
                 if placeholder is not None:
+                    _register_streamed(placeholder, styles)
                     out.append(placeholder)
                 continue
+            if placeholder is not None:
+                _register_streamed(placeholder, styles)
             _init_tables(ws)
             xml = guard_text_controls(xml)
             if links:
@@ -358,7 +368,9 @@ def stream_cells(wb, streamed: list[StreamedSheet]) -> Iterator[list[StreamedShe
                     (lambda x=xml, p=placeholder: chain((x,), p.rows())),
                     placeholder.dimension,
                 ))
-        out.extend(by_title.values())  # (no such sheet: splice names it)
+        for placeholder in by_title.values():  # (no such sheet: splice names it)
+            _register_streamed(placeholder, styles)
+            out.append(placeholder)
         yield out
     finally:
         for ws, cells, dims in taken:

@@ -147,7 +147,9 @@ def write_workbook(
     streamed.append(_spec_placeholder(spec_ws, ev.spec.text, styles))
 
     write_audit(wb.create_sheet(AUDIT_SHEET), ev)
-    _write_recheck(wb.create_sheet(RECHECK_SHEET), ev, layout)
+    recheck_body = _write_recheck(wb.create_sheet(RECHECK_SHEET), ev, layout)
+    if recheck_body is not None:
+        streamed.append(recheck_body)
 
     if record_json is not None:
         rec = wb.create_sheet(RECORD_SHEET)
@@ -294,10 +296,22 @@ def read_record(wb) -> str | None:
 # --- recheck ----------------------------------------------------------------------------------
 
 
-def _write_recheck(ws, ev: Evaluation, layout: MeasurementLayout) -> None:
+_RECHECK_WIDTHS = (44, 21, 21, 12, 9, 64)  # the table's columns
+
+
+def _write_recheck(ws, ev: Evaluation, layout: MeasurementLayout) -> StreamedSheet | None:
+    """The recheck sheet: the rows above the body as cells, the body as XML rows
+    (:class:`~verify.report.recheck_xml.Body`, returned for the save) unless it holds a value
+    only the cell route writes (then every row is a cell, and None is returned)."""
+    from .recheck import FIRST_BODY_ROW
+    from .recheck_xml import Body
+
     rows = recheck_rows(ev, layout)
+    first = FIRST_BODY_ROW - 1  # rows before the body
+    body = (Body.build(rows[first:], FIRST_BODY_ROW, len(_RECHECK_WIDTHS))
+            if len(rows) > first else None)
     widths: dict[int, int] = {}
-    for i, values in enumerate(rows, start=1):
+    for i, values in enumerate(rows if body is None else rows[:first], start=1):
         for j, v in enumerate(values, start=1):
             if v is None:
                 continue
@@ -314,11 +328,15 @@ def _write_recheck(ws, ev: Evaluation, layout: MeasurementLayout) -> None:
                      else min(60, len(str(v)) + 2))
             if w > widths.get(j, 0):
                 widths[j] = w
+    if body is not None:  # (the table's own columns get the table's widths below)
+        for j, w in body.widths.items():
+            if w > widths.get(j, 0):
+                widths[j] = w
     from openpyxl.utils import get_column_letter
 
     for j, w in widths.items():
         ws.column_dimensions[get_column_letter(j)].width = max(10, w)
-    _recheck_as_table(ws, len(rows))
+    _recheck_as_table(ws, len(rows), body)
     # the looked-up values the formulas read: grouped and folded, so the printed recheck stays
     # the computation (an auditor expands the group to see every value)
     heading = next((i for i, r in enumerate(rows, start=1) if r and isinstance(r[0], str)
@@ -326,13 +344,31 @@ def _write_recheck(ws, ev: Evaluation, layout: MeasurementLayout) -> None:
     if heading is not None:
         ws.sheet_properties.outlinePr.summaryBelow = False
         for i in range(heading + 1, len(rows) + 1):
+            if body is not None and i >= FIRST_BODY_ROW:
+                body.fold(i)
+                continue
             dim = row_dimension(ws, i)
             dim.outlineLevel = 1
             dim.hidden = True
+    if body is None:
+        return None
+    # the sheet's used range, as the cells would have given it (A1 is always a cell)
+    columns = max(max(c for _r, c in ws._cells), body.max_column)
+    return body.streamed(ws.title, f"A1:{get_column_letter(columns)}{body.last_row}")
 
 
-def _recheck_as_table(ws, n_rows: int) -> None:
+# The Agrees cells hold comparisons. Excel shows a logical result as TRUE or FALSE whatever the
+# number format; LibreOffice keeps it as 1 or 0 and shows it through the cell's number format, so
+# in a General cell it printed 1 where the sheet's note says TRUE. This format (LibreOffice's own
+# code for logical values) makes both print TRUE and FALSE.
+AGREES_FORMAT = '"TRUE";"TRUE";"FALSE"'
+
+
+def _recheck_as_table(ws, n_rows: int, body=None) -> None:
     """Print the recheck sheet as a readable table: widths, heading, grid, header repeated.
+
+    ``body`` (a :class:`~verify.report.recheck_xml.Body`) holds the rows from
+    ``FIRST_BODY_ROW`` down, styled here in the cells' order.
 
     (No conditional colours on the Agrees column: LibreOffice 7.4 stops converting such a
     sheet when a cell-value rule compares the logical results with TRUE.)"""
@@ -342,7 +378,7 @@ def _recheck_as_table(ws, n_rows: int) -> None:
     from .cells import HEADER, HEADER_FONT, fit_rows, page_setup
     from .recheck import COLUMNS, HEADER_ROW, SUMMARY_ROW
 
-    for j, w in enumerate((44, 21, 21, 12, 9, 64), start=1):
+    for j, w in enumerate(_RECHECK_WIDTHS, start=1):
         ws.column_dimensions[get_column_letter(j)].width = w
     for j in range(1, len(COLUMNS) + 1):
         style(ws.cell(HEADER_ROW, j), font=HEADER_FONT, fill=HEADER,
@@ -361,12 +397,18 @@ def _recheck_as_table(ws, n_rows: int) -> None:
         cell = cells.get((r, c))
         return None if cell is None else cell.value
 
-    for r in (SUMMARY_ROW, *range(HEADER_ROW + 1, n_rows + 1)):
+    last = n_rows if body is None else HEADER_ROW
+    for r in (SUMMARY_ROW, *range(HEADER_ROW + 1, last + 1)):
         if isinstance(value(r, 1), str) and value(r, 2) is None and value(r, 3) is None:
             style(cells[r, 1], font=bold)  # a block's heading: the characteristic or check
-        style(cell_at(ws, r, 5), align=centre)
+        style(cell_at(ws, r, 5), fmt=AGREES_FORMAT, align=centre)
         style(cell_at(ws, r, 6), align=wrap_top)
+    if body is not None:
+        body.style_rows(ws, bold=bold, agrees={"fmt": AGREES_FORMAT, "align": centre},
+                        wrap_top=wrap_top)
     fit_rows(ws)
+    if body is not None:
+        body.fit(ws)
     ws.freeze_panes = f"A{HEADER_ROW + 1}"
     ws.print_options.gridLines = True
     page_setup(

@@ -26,20 +26,24 @@ from scipy import special
 from . import _memo, nonparametric
 from .core import MAX_MAGNITUDE, mean_sd
 from .normality import NormalityResult, _ad_pvalue
+from .one_way import OneWay
 from .outliers import _GRUBBS_SIDE, GRUBBS_MIN_N, GrubbsResult, grubbs_pvalue
 from .range_constants import D2_TABLE
-from .samples import RESOLUTION_DIGITS
+from .samples import RESOLUTION_DIGITS, group_codes
 from .stability import StabilityResult
 
 MIN_ROWS = 2  # fewer samples of a length gain nothing from stacking
 
 
-def prefetch(samples) -> None:
-    """Compute and remember the per-sample diagnostics of every read-only sample given.
+def prefetch(samples, in_lots=()) -> None:
+    """Compute and remember the per-sample diagnostics of every read-only sample given, and
+    the one-way analysis (:func:`~verify.stats.one_way.one_way`) of each read-only sample of
+    ``in_lots`` (pairs of a sample and its lot labels, a tuple of text).
 
     Samples that are not read-only, or whose diagnostics are remembered already, are skipped;
     so are lengths with fewer than :data:`MIN_ROWS` samples.
     """
+    _one_ways(in_lots)
     by_n: dict[int, dict[int, np.ndarray]] = {}
     for x in samples:
         if (x is None or not _memo.frozen(x) or x.ndim != 1 or x.dtype != np.float64
@@ -57,6 +61,8 @@ def _stacked(rows: list[np.ndarray], n: int) -> None:
     # needs (anything else goes to the one-sample route and its error; NaN fails the tests)
     lo, hi = np.minimum.reduce(x, axis=1), np.maximum.reduce(x, axis=1)
     ok = (-MAX_MAGNITUDE <= lo) & (hi <= MAX_MAGNITUDE) & (lo != hi)
+    if ok.any():
+        _mean_sds([r for r, good in zip(rows, ok.tolist(), strict=True) if good], x[ok], n)
     keep = []
     for r, good in enumerate(ok.tolist()):
         if good:
@@ -79,6 +85,96 @@ def _stacked(rows: list[np.ndarray], n: int) -> None:
         _anderson_darling(rows, x, m, s, n)
     if n >= GRUBBS_MIN_N:
         _grubbs(rows, x, m, s, n)
+
+
+def _mean_sds(rows: list[np.ndarray], x: np.ndarray, n: int) -> None:
+    """core.mean_sd of each row of ``x`` (finite, within core.MAX_MAGNITUDE), remembered for
+    its sample: the corrected two-pass sums along C-contiguous rows (as the 1-D sums add),
+    the scalar steps in the same Python arithmetic."""
+    total = np.add.reduce(x, axis=1)
+    m = total / n
+    d = np.ascontiguousarray(x - m[:, None])
+    m = m + np.add.reduce(d, axis=1) / n  # second-pass correction of the mean
+    means = m.tolist()
+    if n < 2:
+        for a, mean in zip(rows, means, strict=True):
+            _memo.remember("mean_sd", a, (n, mean, math.nan))
+        return
+    d = np.ascontiguousarray(x - m[:, None])
+    squares = np.add.reduce(d * d, axis=1).tolist()
+    sums = np.add.reduce(d, axis=1).tolist()
+    for a, mean, sq, sm in zip(rows, means, squares, sums, strict=True):
+        if _memo.recall("mean_sd", a) is None:
+            ss = sq - sm ** 2 / n
+            _memo.remember("mean_sd", a, (n, mean, math.sqrt(max(ss, 0.0) / (n - 1))))
+
+
+def _one_ways(in_lots) -> None:
+    """one_way of each read-only sample in its lots, for the samples sharing one set of
+    (remembered, read-only) lot codes computed together: the same arithmetic element by
+    element, the group sums accumulated in the order np.bincount adds them, each row's sums of
+    squares by np.dot on that row (as the one-sample route on the sample), the F tail once for
+    all rows. Rows that are not finite, or without variation within the lots, are left to the
+    one-sample route (and its error)."""
+    by_codes: dict[int, tuple] = {}
+    for x, lots in in_lots:
+        if (not _memo.frozen(x) or x.ndim != 1 or x.dtype != np.float64 or type(lots) is not tuple
+                or len(lots) != x.size or _memo.recall("one_way", x) is not None):
+            continue
+        try:
+            _, codes = group_codes(lots, x.size)
+        except ValueError:
+            continue
+        if codes.flags.writeable:  # not remembered by content: the route would not share it
+            continue
+        by_codes.setdefault(id(codes), (codes, {}))[1][id(x)] = x
+    for codes, group in by_codes.values():
+        if len(group) >= MIN_ROWS:
+            _one_way_rows(list(group.values()), codes)
+
+
+def _one_way_rows(rows: list[np.ndarray], codes: np.ndarray) -> None:
+    """one_way._one_way of each row (see there), for rows sharing ``codes``."""
+    n_total = codes.size
+    sizes = np.bincount(codes)
+    k = sizes.size
+    if k < 2 or n_total <= k:
+        return  # no between or no within degrees of freedom: the one-sample route's case
+    a = np.stack(rows)
+    ok = np.logical_and.reduce(np.isfinite(a), axis=1)
+    if not ok.all():
+        a = a[ok]
+        rows = [r for r, good in zip(rows, ok.tolist(), strict=True) if good]
+        if not rows:
+            return
+    m = len(rows)
+    grand = np.add.reduce(a, axis=1) / n_total  # each row summed as the 1-D sample is
+    centred = a - grand[:, None]
+    # np.bincount adds each row's weights in order into its groups: one flat bincount with the
+    # groups of row r offset by r * k adds the same values in the same order
+    flat = (codes[None, :] + (k * np.arange(m))[:, None]).ravel()
+    means_c = np.bincount(flat, weights=centred.ravel(), minlength=m * k).reshape(m, k) / sizes
+    resid = centred - means_c[:, codes]
+    squares = means_c**2
+    df_b, df_w = k - 1, n_total - k
+    n0 = (n_total - float(np.dot(sizes, sizes)) / n_total) / df_b
+    keep, msbs, msws = [], [], []
+    for r in range(m):
+        ss_within = float(np.dot(resid[r], resid[r]))
+        if not ss_within > 0.0:
+            continue  # the one-sample route raises its own error
+        keep.append(r)
+        msbs.append(float(np.dot(sizes, squares[r])) / df_b)
+        msws.append(ss_within / df_w)
+    if not keep:
+        return
+    f = np.array(msbs) / np.array(msws)
+    p = special.fdtrc(df_b, df_w, f).tolist()
+    grand_l = grand.tolist()
+    for j, r in enumerate(keep):
+        ow = OneWay(grand_l[r], means_c[r], df_b, df_w, msbs[j], msws[j], n0, float(f[j]),
+                    min(1.0, max(0.0, p[j])))
+        _memo.remember("one_way", rows[r], (codes, ow))
 
 
 def _charts(rows, x, m, n) -> None:
@@ -167,14 +263,23 @@ def prefetch_ranks(requests) -> None:
 
     ``requests`` holds ``("signed_rank", x, target)`` (the signed-rank test of ``x - target``,
     zeros dropped: :func:`~verify.stats.nonparametric.signed_rank_about`) and
-    ``("rank_sum", old, new)`` (:func:`~verify.stats.nonparametric.mann_whitney`), for
+    ``("rank_sum", old, new)`` (:func:`~verify.stats.nonparametric.mann_whitney`), and
+    ``("brown_forsythe", old, new)`` (the sums :func:`~verify.stats.spread.brown_forsythe` reads:
+    the absolute deviations from each sample's median, their means and sum of squares), for
     read-only samples; anything else, and any row the one-sample route would treat apart
     (non-finite values, zero differences, identical values, values near the float floor), is
     left to the one-sample route.
     """
     signed: dict[tuple, list] = {}
     pairs: dict[tuple, list] = {}
+    spreads: dict[tuple, dict] = {}
     for kind, x, y in requests:
+        if kind == "brown_forsythe":
+            if (_memo.frozen(x) and _memo.frozen(y) and x.ndim == 1 and y.ndim == 1
+                    and x.dtype == np.float64 and y.dtype == np.float64
+                    and _memo.recall("brown_forsythe", x) is None):
+                spreads.setdefault((x.size, y.size), {})[(id(x), id(y))] = (x, y)
+            continue
         if kind == "signed_rank" and _memo.frozen(x) and x.ndim == 1 and x.dtype == np.float64:
             if _memo.recall("signed_rank", x) is None:
                 signed.setdefault(x.size, {})[(id(x), float(y))] = (x, float(y))
@@ -188,6 +293,9 @@ def prefetch_ranks(requests) -> None:
     for (n_old, n_new), group in pairs.items():
         if len(group) >= MIN_ROWS and n_old >= 1 and n_new >= 1:
             _rank_sums(list(group.values()), n_old, n_new)
+    for (n_old, n_new), group in spreads.items():
+        if len(group) >= MIN_ROWS and n_old >= 2 and n_new >= 2:
+            _brown_forsythe_sums(list(group.values()), n_old, n_new)
 
 
 def _snapped(d: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -231,10 +339,13 @@ def _ties(size: np.ndarray, new_value: np.ndarray):
 def _row_medians(v: np.ndarray) -> list[float]:
     """samples.median of each row: order statistics, whatever selection finds them."""
     h = v.shape[1] // 2
+    p = v.copy()  # (np.partition's copy, without its wrapper)
     if v.shape[1] % 2:
-        return [float(x) for x in np.partition(v, h, axis=1)[:, h]]
-    p = np.partition(v, (h - 1, h), axis=1)
-    return [float((lo + hi) / 2.0) for lo, hi in zip(p[:, h - 1], p[:, h], strict=True)]
+        p.partition(h, axis=1)
+        return p[:, h].tolist()
+    p.partition((h - 1, h), axis=1)
+    # (lo + hi) / 2.0 of each row, element by element: the floats the one-sample route gives
+    return ((p[:, h - 1] + p[:, h]) / 2.0).tolist()
 
 
 def _signed_ranks(rows: list[tuple[np.ndarray, float]], n: int) -> None:
@@ -294,3 +405,28 @@ def _rank_sums(rows: list[tuple[np.ndarray, np.ndarray]], n_old: int, n_new: int
         _memo.remember("rank_sum", a, (b, nonparametric._RankSum(
             u_new, n_old, n_new, int(groups[r]), int(tied_values[r]), bool(exact), se,
             estimates[r])))
+
+
+def _brown_forsythe_sums(rows: list[tuple[np.ndarray, np.ndarray]], n_old: int,
+                         n_new: int) -> None:
+    """spread._brown_forsythe_sums of each (old, new): each sample's row median (as
+    samples.median), the absolute deviations from it, their means and squared deviations
+    summed along C-contiguous rows (as the 1-D sums add); rows with a non-finite value are left
+    to the one-sample route and its error."""
+    old = np.stack([r[0] for r in rows])
+    new = np.stack([r[1] for r in rows])
+    ok = (np.logical_and.reduce(np.isfinite(old), axis=1)
+          & np.logical_and.reduce(np.isfinite(new), axis=1))
+    if not ok.any():
+        return
+    if not ok.all():
+        old, new = old[ok], new[ok]
+        rows = [r for r, good in zip(rows, ok.tolist(), strict=True) if good]
+    za = np.abs(old - np.array(_row_medians(old))[:, None])
+    zb = np.abs(new - np.array(_row_medians(new))[:, None])
+    ma = np.add.reduce(za, axis=1) / n_old  # float(sum) / n: the same division in float64
+    mb = np.add.reduce(zb, axis=1) / n_new
+    ss = (np.add.reduce(np.ascontiguousarray((za - ma[:, None]) ** 2), axis=1)
+          + np.add.reduce(np.ascontiguousarray((zb - mb[:, None]) ** 2), axis=1))
+    for (a, b), m_a, m_b, s2 in zip(rows, ma.tolist(), mb.tolist(), ss.tolist(), strict=True):
+        _memo.remember("brown_forsythe", a, (b, (n_old, n_new, m_a, m_b, s2)))

@@ -162,9 +162,9 @@ class CapabilityResult:
         (upper - lower) / (6 sqrt(sigma_within^2 + (mean - target)^2)); None unless both limits
         and a target are given.
     cp_interval, cpk_interval, cpm_interval, pp_interval, ppk_interval : Interval or None
-        Two-sided intervals at ``level`` (forms in the module docstring); None where the index
-        is None. They take n - 1 df for every sigma, as qcc prints them; the lower bounds
-        below use the effective df of sigma_within for Cpk.
+        Two-sided intervals at ``level`` (forms in the module docstring), computed when read;
+        None where the index is None. They take n - 1 df for every sigma, as qcc prints them;
+        the lower bounds below use the effective df of sigma_within for Cpk.
     """
 
     n: int
@@ -186,13 +186,32 @@ class CapabilityResult:
     ppl: float | None
     ppu: float | None
     cpm: float | None
-    cp_interval: Interval | None
-    cpk_interval: Interval
-    cpm_interval: Interval | None
-    pp_interval: Interval | None
-    ppk_interval: Interval
 
     sigma_within_df: float = math.nan
+
+    # the intervals, computed when asked (a check reads the lower bounds below, not these)
+    @property
+    def cp_interval(self) -> Interval | None:
+        return None if self.cp is None else chi2_interval(self.cp, self.n - 1, self.level)
+
+    @property
+    def cpk_interval(self) -> Interval:
+        return bissell_interval(self.cpk, self.n, self.level)
+
+    @property
+    def cpm_interval(self) -> Interval | None:
+        if self.cpm is None:
+            return None
+        nu = boyles_df(self.n, (self.mean - self.target) / self.sigma_within)
+        return chi2_interval(self.cpm, nu, self.level)
+
+    @property
+    def pp_interval(self) -> Interval | None:
+        return None if self.pp is None else chi2_interval(self.pp, self.n - 1, self.level)
+
+    @property
+    def ppk_interval(self) -> Interval:
+        return bissell_interval(self.ppk, self.n, self.level)
 
     def cpk_lower_bound(self, level: float = 0.95) -> float:
         """One-sided lower confidence bound for Cpk: Bissell's form on the effective df of the
@@ -334,12 +353,10 @@ def capability(
 
     cp, cpk, cpl, cpu = indices(s_within)
     pp, ppk, ppl, ppu = indices(s_overall)
-    cpm = cpm_interval = None
+    cpm = None
     if tgt is not None and lsl is not None and usl is not None:
         tau = math.hypot(s_within, m - tgt)
         cpm = (usl - lsl) / (6.0 * tau)
-        nu = boyles_df(n, (m - tgt) / s_within)
-        cpm_interval = chi2_interval(cpm, nu, level)
     return CapabilityResult(
         n=int(n),
         mean=float(m),
@@ -360,10 +377,5 @@ def capability(
         ppl=ppl,
         ppu=ppu,
         cpm=cpm,
-        cp_interval=None if cp is None else chi2_interval(cp, n - 1, level),
-        cpk_interval=bissell_interval(cpk, n, level),
-        cpm_interval=cpm_interval,
-        pp_interval=None if pp is None else chi2_interval(pp, n - 1, level),
-        ppk_interval=bissell_interval(ppk, n, level),
         sigma_within_df=float(nu_within),
     )

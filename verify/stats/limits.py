@@ -19,13 +19,14 @@ made (``note`` gives the fit's error).
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
 from scipy import special
 
-from . import distributions
+from . import _memo, distributions
 from .core import mean_sd
 from .errors import DegenerateDataError, NotApplicableError
 
@@ -80,7 +81,7 @@ def normal_ppm_beyond(
     >>> round(below + above, 1)   # the familiar 0.27% beyond three sigma
     2699.8
     """
-    if not (np.isfinite(mean) and np.isfinite(sd) and sd > 0):
+    if not (math.isfinite(mean) and math.isfinite(sd) and sd > 0):
         raise ValueError("mean must be finite and sd finite and positive")
     below = 0.0 if lower is None else 1e6 * float(special.ndtr((lower - mean) / sd))
     above = 0.0 if upper is None else 1e6 * float(special.ndtr((mean - upper) / sd))
@@ -110,7 +111,9 @@ def beyond_limits(
     (1, 1)
     """
     v = np.asarray(values, dtype=float)
-    if v.ndim != 1 or not np.logical_and.reduce(np.isfinite(v)):
+    # (a read-only sample found finite before is the sample itself, its mean and sd known)
+    if _memo.recall("finite", v) is None and (
+            v.ndim != 1 or not np.logical_and.reduce(np.isfinite(v))):
         v = v[np.isfinite(v)]  # (all finite: the sample itself, whose mean and sd are known)
     below = int(np.count_nonzero(v < lower)) if lower is not None else 0
     above = int(np.count_nonzero(v > upper)) if upper is not None else 0

@@ -10,7 +10,7 @@ import numpy as np
 
 from .errors import NotApplicableError
 from .one_way import one_way
-from .samples import finite_values, group_codes
+from .samples import finite_values, group_codes, group_sizes
 
 
 @dataclass(frozen=True)
@@ -82,8 +82,8 @@ def lot_effect(values: Sequence[float] | np.ndarray, lots: Sequence[Hashable]) -
     k = len(labels)
     if k < 2:
         raise NotApplicableError(f"a lot effect needs at least 2 lots, got {k}")
-    sizes = np.bincount(codes, minlength=k)
-    if not np.logical_or.reduce(sizes >= 2):
+    sizes = group_sizes(codes, k)
+    if max(sizes.tolist()) < 2:
         raise NotApplicableError("no lot has 2 or more values, so within-lot variation is unknown")
     ow = one_way(a, codes, sizes, refused="lot effect cannot be tested")
     msb, msw, n0 = ow.ms_between, ow.ms_within, ow.n0

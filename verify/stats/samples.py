@@ -59,6 +59,19 @@ def group_codes(labels: object, n: int, what: str = "lot labels") -> tuple[list,
 _CODES: dict[tuple, tuple[list, np.ndarray]] = {}
 
 
+def group_sizes(codes: np.ndarray, k: int) -> np.ndarray:
+    """The count of each code 0..k-1, ``np.bincount(codes, minlength=k)``; for read-only
+    codes (remembered by content: :func:`group_codes`) remembered, read-only, with them."""
+    hit = _memo.recall("group_sizes", codes)
+    if hit is not None and hit.size == k:
+        return hit
+    sizes = np.bincount(codes, minlength=k)
+    if _memo.frozen(codes):
+        sizes.flags.writeable = False
+        _memo.remember("group_sizes", codes, sizes)
+    return sizes
+
+
 def _group_codes(labels: object, n: int, what: str) -> tuple[list, np.ndarray]:
     lab = list(labels) if not isinstance(labels, np.ndarray) else labels.tolist()
     if len(lab) != n:
@@ -76,9 +89,11 @@ def median(a: np.ndarray) -> float:
     (without its axis handling and NaN checks, which cost more than the partition at small n).
     """
     h = a.size // 2
+    p = a.copy()  # np.partition's copy, partitioned in place without its wrapper
     if a.size % 2:
-        return float(np.partition(a, h)[h])
-    p = np.partition(a, (h - 1, h))
+        p.partition(h)
+        return float(p[h])
+    p.partition((h - 1, h))
     return float((p[h - 1] + p[h]) / 2.0)
 
 

@@ -31,7 +31,7 @@ import numpy as np
 from .core import Interval, check_alternative
 from .errors import DegenerateDataError, NotApplicableError
 from .one_way import one_way
-from .samples import finite_values, group_codes
+from .samples import finite_values, group_codes, group_sizes
 from .spread import f_test_from_stats
 
 ArrayLike = Sequence[float] | np.ndarray
@@ -119,11 +119,12 @@ def variance_components(values: ArrayLike, lots: Sequence[Hashable]) -> Variance
     a = finite_values(values)
     labels, codes = group_codes(lots, a.size)
     k = len(labels)
-    sizes = np.bincount(codes, minlength=k)
-    if k < 2 or int(np.count_nonzero(sizes >= 2)) < 2:
+    sizes = group_sizes(codes, k)
+    lots_of_two = sum(size >= 2 for size in sizes.tolist())
+    if k < 2 or lots_of_two < 2:
         raise NotApplicableError(
             "variance components need at least 2 lots of at least 2 parts each "
-            f"({k} lot(s), {int(np.count_nonzero(sizes >= 2))} with 2 or more parts)"
+            f"({k} lot(s), {lots_of_two} with 2 or more parts)"
         )
     n_total = a.size
     ow = one_way(a, codes, sizes, refused="within-lot variance cannot be estimated")

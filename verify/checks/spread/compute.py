@@ -148,6 +148,18 @@ def draft(kind, inp: CheckInput) -> Draft:
     return Draft(result=res, family_p=p, finish=finish, complete=complete, family=True)
 
 
+def rank_requests(kind, inp: CheckInput) -> list[tuple]:
+    """The two-sample statistics this kind will ask for, so that the evaluation computes those
+    of all characteristics together (``verify.stats.batch.prefetch_ranks``): the
+    Brown-Forsythe sums, read by the deciding test or by the companion beside an F-test."""
+    data = inp.data
+    ref, cand = data.reference, data.candidate
+    if (data.spread_pairs is not None or inp.spec.unit_of_analysis == "lot"
+            or ref.values is None or cand.values is None):
+        return []
+    return [("brown_forsythe", ref.values, cand.values)]
+
+
 def companions(kind, inp: CheckInput, dr: Draft) -> list[DiagnosticResult]:
     """The other two-sample spread test beside the deciding one (F-test or Brown-Forsythe),
     flagged when it disagrees; for the two-sample test only, not for pairs nor for within-lot
