@@ -243,3 +243,31 @@ def test_batched_means_and_sds_equal_the_one_sample_route():
             assert hit == _mean_sd(np.array(x, dtype=float))
     assert found >= 14
     _memo.forget()
+
+
+def test_batched_resolution_equals_the_one_sample_route():
+    # the resolution of two samples joined end to end, computed for many pairs together, is
+    # the one-sample route's on the joined values (distinct values, step, its ratio)
+    from verify.stats.resolution import resolution, resolution_of
+
+    rng = np.random.default_rng(17)
+    pairs = [(np.round(rng.normal(10.0, 0.01, 30), d), np.round(rng.normal(10.0, 0.01, 30), d))
+             for d in (4, 3, 2, 1)]
+    pairs.append((np.full(30, 2.5), np.full(30, 2.5)))  # one distinct value: no step
+    pairs.append((np.zeros(30), np.zeros(30)))  # all zero: left to the one-sample route
+    pairs.append((rng.normal(0.0, 1e-9, 30) + 1e6, rng.normal(0.0, 1e-9, 30) + 1e6))
+    pairs.append((np.array([0.1, 0.2, 0.30000000000000004] * 10), np.full(30, 0.3)))
+    bad = rng.normal(0.0, 1.0, 30)
+    bad[3] = np.nan
+    pairs.append((bad, rng.normal(0.0, 1.0, 30)))  # non-finite: the one-sample route's error
+    frozen = [(_memo.freeze(a.copy()), _memo.freeze(b.copy())) for a, b in pairs]
+    _memo.forget()
+    batch.prefetch([], joined=[f for f in frozen] + [(frozen[0][1],)])
+    assert sum(_memo.recall("resolution", a) is not None for a, _ in frozen) == 7
+    for (a, b), f in zip(pairs, frozen, strict=True):
+        for tol in (None, 0.1, 3.0):
+            assert _batched(resolution_of, f, tolerance=tol) == \
+                _plain(resolution, np.concatenate([a, b]), tolerance=tol)
+    assert _batched(resolution_of, (frozen[0][1],), tolerance=0.1) == \
+        _plain(resolution, pairs[0][1], tolerance=0.1)
+    _memo.forget()

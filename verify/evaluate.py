@@ -15,7 +15,7 @@ import gc
 
 from . import decide
 from .checks.drafting import replaced
-from .evaluate_diagnostics import diagnostics
+from .evaluate_diagnostics import diagnostics, joined_parts
 from .evaluate_finish import adjust, complete_batches, finish
 from .evaluate_gather import CharDraft, applicable, gather, samples_in_lots, sub_streams, summarize
 from .model import Evaluation, Measurements, RunInfo
@@ -69,7 +69,8 @@ def _evaluate(spec: Spec, measurements: Measurements, final: bool, run: RunInfo)
         # and the one-way analyses of their lots, which the process summaries read
         batch.prefetch([x for d in measured for st in (d.data.reference, d.data.candidate)
                         for x in (st.values, st.parts)],
-                       in_lots=[q for d in measured for q in samples_in_lots(d)])
+                       in_lots=[q for d in measured for q in samples_in_lots(d)],
+                       joined=[joined_parts(d) for d in measured])
         for d in measured:
             summarize(d)
         # and the rank statistics the kinds' companions will ask for (their hooks say which)

@@ -117,9 +117,8 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
         except CANNOT_COMPUTE as err:
             out.append(not_applicable("stability", "individuals chart", group, err))
     try:
-        allv = cand.parts if ref.parts is None else np.concatenate([ref.parts, cand.parts])
         tol = (ch.upper - ch.lower) if (ch.lower is not None and ch.upper is not None) else None
-        rs = diag.resolution(allv, tolerance=tol)
+        rs = diag.resolution_of(joined_parts(d), tolerance=tol)
         coarse = rs.step_over_tenth_tolerance is not None and rs.step_over_tenth_tolerance > 1.0
         out.append(diagnostic(
             "resolution", "measurement resolution", "all", coarse,
@@ -146,6 +145,13 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
                             d.inp.fit_error))
     out.extend(companions(d))
     return out
+
+
+def joined_parts(d: CharDraft) -> tuple:
+    """The part samples whose joined values the resolution diagnostic reads (the reference's
+    first, where it has parts)."""
+    ref, cand = d.data.reference, d.data.candidate
+    return (cand.parts,) if ref.parts is None else (ref.parts, cand.parts)
 
 
 def companions(d: CharDraft) -> list[DiagnosticResult]:

@@ -29,21 +29,25 @@ from .normality import NormalityResult, _ad_pvalue
 from .one_way import OneWay
 from .outliers import _GRUBBS_SIDE, GRUBBS_MIN_N, GrubbsResult, grubbs_pvalue
 from .range_constants import D2_TABLE
+from .resolution import step_from_units
 from .samples import RESOLUTION_DIGITS, group_codes
 from .stability import StabilityResult
 
 MIN_ROWS = 2  # fewer samples of a length gain nothing from stacking
 
 
-def prefetch(samples, in_lots=()) -> None:
-    """Compute and remember the per-sample diagnostics of every read-only sample given, and
-    the one-way analysis (:func:`~verify.stats.one_way.one_way`) of each read-only sample of
-    ``in_lots`` (pairs of a sample and its lot labels, a tuple of text).
+def prefetch(samples, in_lots=(), joined=()) -> None:
+    """Compute and remember the per-sample diagnostics of every read-only sample given, the
+    one-way analysis (:func:`~verify.stats.one_way.one_way`) of each read-only sample of
+    ``in_lots`` (pairs of a sample and its lot labels, a tuple of text), and the resolution
+    (:func:`~verify.stats.resolution.resolution_of`) of each tuple of read-only samples in
+    ``joined``, joined end to end.
 
     Samples that are not read-only, or whose diagnostics are remembered already, are skipped;
     so are lengths with fewer than :data:`MIN_ROWS` samples.
     """
     _one_ways(in_lots)
+    _resolutions(joined)
     by_n: dict[int, dict[int, np.ndarray]] = {}
     for x in samples:
         if (x is None or not _memo.frozen(x) or x.ndim != 1 or x.dtype != np.float64
@@ -107,6 +111,47 @@ def _mean_sds(rows: list[np.ndarray], x: np.ndarray, n: int) -> None:
         if _memo.recall("mean_sd", a) is None:
             ss = sq - sm ** 2 / n
             _memo.remember("mean_sd", a, (n, mean, math.sqrt(max(ss, 0.0) / (n - 1))))
+
+
+def _resolutions(joined) -> None:
+    """resolution._steps of each tuple of read-only samples joined end to end, for the joined
+    lengths met by several tuples computed together: each row snapped to its grid as
+    samples.snap_to_grid snaps it, sorted, the nonzero gaps of neighbours counted and the
+    smallest taken (a minimum is exact whatever the order). Rows that are not finite, or that
+    snap_to_grid treats apart, are left to the one-sample route."""
+    by_n: dict[int, dict[tuple, tuple]] = {}
+    for parts in joined:
+        if not parts or not all(_memo.frozen(x) and x.ndim == 1 and x.dtype == np.float64
+                                for x in parts):
+            continue
+        if _memo.recall("resolution", parts[0]) is not None:
+            continue
+        size = sum(x.size for x in parts)
+        by_n.setdefault(size, {})[tuple(map(id, parts))] = parts
+    for n, group in by_n.items():
+        if len(group) >= MIN_ROWS and n >= 2:
+            _resolution_rows(list(group.values()), n)
+
+
+def _resolution_rows(rows: list[tuple], n: int) -> None:
+    x = np.stack([parts[0] if len(parts) == 1 else np.concatenate(parts) for parts in rows])
+    units, ok = _snapped(x)
+    ok &= np.logical_and.reduce(np.isfinite(x), axis=1)
+    scale = np.maximum.reduce(np.abs(x), axis=1).tolist()
+    s = np.sort(units, axis=1)
+    gaps = s[:, 1:] - s[:, :-1]
+    nonzero = gaps != 0
+    distinct = (np.add.reduce(nonzero, axis=1) + 1).tolist()
+    smallest = np.minimum.reduce(np.where(nonzero, gaps, np.inf), axis=1).tolist()
+    for r, parts in enumerate(rows):
+        if not ok[r]:
+            continue
+        if distinct[r] < 2:
+            steps = (n, distinct[r], None)
+        else:
+            quantum = 10.0 ** (math.floor(math.log10(scale[r])) - (RESOLUTION_DIGITS - 1))
+            steps = (n, distinct[r], step_from_units(smallest[r], quantum))
+        _memo.remember("resolution", parts[0], (parts[1:], steps))
 
 
 def _one_ways(in_lots) -> None:

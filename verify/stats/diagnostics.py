@@ -26,7 +26,7 @@ from .normality import (
 )
 from .outliers import GRUBBS_MIN_N, GrubbsResult, grubbs, grubbs_pvalue
 from .range_constants import D2_TABLE, D3_TABLE, d2, d3, expected_range, range_sd
-from .resolution import ResolutionResult, resolution
+from .resolution import ResolutionResult, resolution, resolution_of
 from .samples import RESOLUTION_DIGITS, finite_values, group_codes, snap_to_grid
 from .stability import (
     AutocorrelationResult,
@@ -41,6 +41,7 @@ __all__ = [
     "ProbabilityPlotResult", "ResolutionResult", "StabilityResult",
     "anderson_darling", "d2", "d3", "expected_range", "finite_values",
     "group_codes", "grubbs", "grubbs_pvalue", "individuals_chart", "lag1_autocorrelation",
-    "lot_effect", "probability_plot_correlation", "range_sd", "resolution", "shapiro_wilk",
+    "lot_effect", "probability_plot_correlation", "range_sd", "resolution", "resolution_of",
+    "shapiro_wilk",
     "snap_to_grid",
 ]

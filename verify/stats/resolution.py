@@ -9,6 +9,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from . import _memo
 from .samples import RESOLUTION_DIGITS, finite_values, snap_to_grid
 
 
@@ -51,8 +52,41 @@ def resolution(
     >>> r.distinct, r.step, r.step_over_tenth_tolerance
     (3, 0.1, 0.5)
     """
+    _check_tolerance(tolerance)
+    n, distinct, step = _steps(x)
+    return _result(n, distinct, step, tolerance)
+
+
+def resolution_of(samples: tuple[np.ndarray, ...], *, tolerance: float | None = None
+                  ) -> ResolutionResult:
+    """:func:`resolution` of ``samples`` joined end to end; for read-only samples whose joined
+    values were analysed with other characteristics' (:func:`verify.stats.batch.prefetch`),
+    from that analysis."""
+    _check_tolerance(tolerance)
+    hit = _memo.recall("resolution", samples[0])
+    if hit is not None and len(hit[0]) == len(samples) - 1 and all(
+            a is b for a, b in zip(hit[0], samples[1:], strict=True)):
+        n, distinct, step = hit[1]
+    else:
+        n, distinct, step = _steps(samples[0] if len(samples) == 1 else np.concatenate(samples))
+    return _result(n, distinct, step, tolerance)
+
+
+def _check_tolerance(tolerance: float | None) -> None:
     if tolerance is not None and not (math.isfinite(tolerance) and tolerance > 0.0):
         raise ValueError(f"tolerance must be a positive finite number, not {tolerance}")
+
+
+def _result(n: int, distinct: int, step: float | None, tolerance: float | None
+            ) -> ResolutionResult:
+    if step is None:
+        return ResolutionResult(n, distinct, None, tolerance, None)
+    ratio = None if tolerance is None else step / (tolerance / 10.0)
+    return ResolutionResult(n, distinct, step, tolerance, ratio)
+
+
+def _steps(x: Sequence[float] | np.ndarray) -> tuple[int, int, float | None]:
+    """(n, distinct values, recording step or None) of the values ``x``."""
     a = finite_values(x)
     units, quantum = snap_to_grid(a)
     # np.unique(units) and the smallest gap of its sorted grid, without np.unique's wrapper
@@ -64,8 +98,12 @@ def resolution(
     gaps = gaps[gaps != 0]
     distinct = int(gaps.size) + 1 if s.size else 0
     if distinct < 2:
-        return ResolutionResult(int(a.size), distinct, None, tolerance, None)
+        return int(a.size), distinct, None
     step_units = float(np.minimum.reduce(gaps))  # np.min(np.diff(np.unique(units)))
-    step = float(f"{step_units * quantum:.{RESOLUTION_DIGITS}g}")
-    ratio = None if tolerance is None else step / (tolerance / 10.0)
-    return ResolutionResult(int(a.size), distinct, step, tolerance, ratio)
+    return int(a.size), distinct, step_from_units(step_units, quantum)
+
+
+def step_from_units(step_units: float, quantum: float) -> float:
+    """The recording step in the values' unit: the smallest gap of the grid, times its
+    quantum, to the grid's significant digits."""
+    return float(f"{step_units * quantum:.{RESOLUTION_DIGITS}g}")
