@@ -13,8 +13,10 @@ from collections import namedtuple
 from pathlib import PurePosixPath
 
 import numpy as np
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
-from verify.report.safe_text import xml_safe_evaluation
+from verify.report.safe_text import XML_ILLEGAL, has_xml_illegal, xml_safe_evaluation
 
 Pair = namedtuple("Pair", "left right")
 
@@ -74,3 +76,14 @@ def test_every_text_is_replaced_visibly_and_the_spec_text_kept():
 def test_a_graph_with_nothing_to_replace_is_returned_as_it_is():
     root = _root("")
     assert xml_safe_evaluation(root) is root
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.text(st.characters(codec=None), max_size=40), st.integers(0, 3000),
+       st.sampled_from(["", "é", "\U0001f600", "\x01", "\x1f", "\ufffe", "\uffff", "\ud800",
+                        "\udfff", "\t\n\r", "\x7f"]))
+def test_has_xml_illegal_agrees_with_the_character_class(head, pad, tail):
+    """has_xml_illegal (a substring search per character on long texts) against the regular
+    expression XML_ILLEGAL (XML 1.0, section 2.2, Char), on short and long texts."""
+    for text in (head + tail, head + "x" * pad + tail, "x" * pad + head + tail + "y" * pad):
+        assert has_xml_illegal(text) == (XML_ILLEGAL.search(text) is not None)

@@ -184,7 +184,16 @@ def _aligned_pairs(c) -> bool:
     return False
 
 
-def _sheet_order(evaluation: Evaluation, t: pd.DataFrame) -> np.ndarray:
+def _ranks(column: pd.Series, rank: dict, missing: int) -> np.ndarray:
+    """``column.map(rank).fillna(missing).astype(int)``, looked up once per distinct value
+    (a pandas map of a text column calls Python for every row)."""
+    codes, uniques = pd.factorize(column, sort=False)
+    per = np.array([*(rank.get(u, missing) for u in uniques), missing], dtype=int)
+    return per[codes]  # (a missing value's code -1 takes the last entry)
+
+
+def _sheet_order(evaluation: Evaluation, t: pd.DataFrame,
+                 aligned: list[bool] | None = None) -> np.ndarray:
     """The positions of ``t``'s rows in sheet order: by characteristic (spec order), process
     (old, new, others), used before excluded, matched pairs first sorted by pair key (where a
     check reads aligned pairs), then production order and source row; stable.
@@ -198,16 +207,18 @@ def _sheet_order(evaluation: Evaluation, t: pd.DataFrame) -> np.ndarray:
     proc_rank = {"old": 0, "new": 1}
     used = ~t["excluded"].astype(bool).to_numpy()
     keys = {
-        "_c": t["characteristic"].map(char_rank).fillna(len(char_rank)).astype(int).to_numpy(),
-        "_p": t["process"].map(proc_rank).fillna(2).astype(int).to_numpy(),
+        "_c": _ranks(t["characteristic"], char_rank, len(char_rank)),
+        "_p": _ranks(t["process"], proc_rank, 2),
         "_u": (~used).astype(int),
         # matched-pair rank: 0 for matched pairs (sorted by key), 1 otherwise
         "_m": np.ones(n, dtype=int),
         "_k": np.full(n, "", dtype=object),
     }
     paired = False
-    for c in evaluation.characteristics:
-        if not _aligned_pairs(c):
+    if aligned is None:
+        aligned = [_aligned_pairs(c) for c in evaluation.characteristics]
+    for c, reads_pairs in zip(evaluation.characteristics, aligned, strict=True):
+        if not reads_pairs:
             continue
         paired = True
         sel = (t["characteristic"] == c.name).to_numpy() & used & t["process"].isin(
@@ -241,7 +252,8 @@ def measurement_layout(evaluation: Evaluation, *, rows_per_sheet: int = EXCEL_MA
     trace = getattr(evaluation.measurements, "trace", None)
     if trace is not None:  # part, process as written, corrections, kept columns
         t = t.join(trace)
-    t = t.iloc[_sheet_order(evaluation, t)].reset_index(drop=True)
+    aligned = [_aligned_pairs(c) for c in evaluation.characteristics]  # (asked once each)
+    t = t.iloc[_sheet_order(evaluation, t, aligned)].reset_index(drop=True)
     t["used"] = ~t["excluded"].astype(bool)
 
     n = len(t)
@@ -280,10 +292,10 @@ def measurement_layout(evaluation: Evaluation, *, rows_per_sheet: int = EXCEL_MA
     groups = used_positions(t, t["used"].to_numpy(dtype=bool))
     used: dict = {}
     paired: dict = {}
-    for c in evaluation.characteristics:
+    for c, reads_pairs in zip(evaluation.characteristics, aligned, strict=True):
         for p in ("old", "new"):
             used[(c.name, p)] = block_at(groups.get((c.name, p)))
-        if _aligned_pairs(c):
+        if reads_pairs:
             sel = (t["characteristic"] == c.name) & t["used"]
             keys = t.loc[sel & (t["process"] == "old"), "pair"]
             keys_new = t.loc[sel & (t["process"] == "new"), "pair"]

@@ -71,9 +71,34 @@ def escape_json_for_xml(text: str) -> str:
 def xml_legal(text: str) -> str:
     """Like :func:`xml_safe`, but only for what XML 1.0 cannot carry (DEL is kept): for text
     that must stay verbatim where it is legal (the spec text, the embedded record)."""
-    if not XML_ILLEGAL.search(text):
+    if not has_xml_illegal(text):
         return text
     return XML_ILLEGAL.sub(_picture, text)
+
+
+# the characters of XML_ILLEGAL but the surrogates, each found by a substring search
+_ILLEGAL_CHARS = tuple(chr(c) for c in range(0x20) if c not in (0x09, 0x0A, 0x0D)) + (
+    "\ufffe", "\uffff")
+_LONG = 2048
+
+
+def has_xml_illegal(text: str) -> bool:
+    """Whether ``text`` holds a character XML 1.0 cannot carry (``XML_ILLEGAL.search``).
+
+    A long text (the embedded record is megabytes) is searched for each such character in
+    turn, which runs at memory speed where the regular expression's character class does not
+    (a few times faster), and for a surrogate by encoding it (UTF-8 refuses them)."""
+    if len(text) < _LONG:
+        return XML_ILLEGAL.search(text) is not None
+    if any(ch in text for ch in _ILLEGAL_CHARS):
+        return True
+    if text.isascii():
+        return False
+    try:
+        text.encode("utf-8")
+    except UnicodeEncodeError:
+        return True
+    return False
 
 
 # --- the evaluation, for the workbook --------------------------------------------------------

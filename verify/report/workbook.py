@@ -50,7 +50,7 @@ from .layout import (
 )
 from .measurements_sheet import add_placeholders, decimals_by_characteristic
 from .recheck import HELPER_HEADING, recheck_rows
-from .safe_text import escape_json_for_xml, xml_safe_evaluation
+from .safe_text import escape_json_for_xml, has_xml_illegal, xml_safe_evaluation
 from .sheet_xml import gc_paused, save
 from .styles import StyleBook
 from .summary import DECISION_COLOURS, write_summary
@@ -266,7 +266,7 @@ def record_chunks(text: str, limit: int = RECORD_CHUNK) -> list[str]:
 
 def _record_placeholder(ws, record_json: str) -> StreamedSheet:
     record_json = escape_json_for_xml(record_json)
-    if XML_ILLEGAL.search(record_json):  # json.dumps escapes control characters
+    if has_xml_illegal(record_json):  # json.dumps escapes control characters
         raise ValueError("record_json holds characters a workbook cannot store")
     chunks = record_chunks(record_json)
 
