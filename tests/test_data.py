@@ -124,6 +124,57 @@ def test_file_info(tmp_path):
     assert f.resolved_path == str(tmp_path / "lots.csv")
 
 
+HOSTILE_CELLS = ["a", "", " x ", None, np.nan, 1, 1.5, True, pd.NA, pd.NaT, "\x00", "\u00e9",
+                 float("inf"), np.str_("np"), "\u3000wide\u3000"]
+
+
+def test_text_column_is_what_series_astype_str_holds():
+    # the tidy table's text columns are made by text_column; the route it replaced (and the
+    # reference here) converted an object Series with astype(str) inside the frame
+    from verify.data.cells import text_column
+
+    values = np.array(HOSTILE_CELLS, dtype=object)
+    made = pd.DataFrame({"c": text_column(values)})
+    reference = pd.DataFrame({"c": values})
+    reference["c"] = reference["c"].astype(str)
+    pd.testing.assert_frame_equal(made, reference, check_exact=True)
+
+
+def test_stripped_cells_are_what_fillna_and_str_strip_give():
+    # _stripped fills a missing cell (a short row's padding) with empty text itself; the
+    # reference is the earlier route: frame.fillna(""), then astype(str).str.strip() per column
+    from verify.data.text import _stripped
+
+    frame = pd.DataFrame({0: np.array(HOSTILE_CELLS, dtype=object),
+                          1: np.array(HOSTILE_CELLS[::-1], dtype=object)}, dtype=object)
+    filled = frame.fillna("")
+    reference = np.column_stack([filled[c].astype(str).str.strip().to_numpy(dtype=object)
+                                 for c in filled.columns])
+    got = _stripped(frame)
+    assert got.shape == reference.shape and got.tolist() == reference.tolist()
+
+
+def test_production_order_sorts_each_characteristic_stably(tmp_path):
+    # equal order keys keep the file's row order (the stable sort of the characteristic, then
+    # the order column, that sort_values(kind="stable") gave before)
+    csv = "lot,supplier,made,width,height_mm\n" + "\n".join([
+        "A1,Old Co,2,1,5", "A1,Old Co,1,2,6", "B1,New Co,1,3,7", "B1,New Co,1,4,8",
+    ]) + "\n"
+    spec = edit(BASE_SPEC, "  new: New Co\n", "  new: New Co\n  order: made\n  part: lot\n")
+    spec = edit(spec, "    limits: [9.5, 10.5]\n", "").replace("target: 10.0", "target: 2")
+    with pytest.raises(DataError):  # part keys must not repeat: lot is no part serial
+        load(write_case(tmp_path, spec, csv))
+    spec = edit(spec, "  part: lot\n", "")
+    m = load(write_case(tmp_path, spec, csv))
+    t = m.table
+    assert t["characteristic"].tolist() == ["width"] * 4 + ["height"] * 4
+    assert t["source_row"].tolist() == [3, 4, 5, 2] * 2  # order 1, 1, 1 in row order, then 2
+    assert t["value"].tolist() == [2.0, 3.0, 4.0, 1.0, 6.0, 7.0, 8.0, 5.0]
+    assert t["order"].tolist() == [0, 1, 2, 3] * 2 and t.index.equals(pd.RangeIndex(8))
+    assert m.trace is not None and m.trace["process_value"].tolist() == [
+        "Old Co", "New Co", "New Co", "Old Co"] * 2
+
+
 def test_missing_cells_are_excluded_and_counted_never_zero(tmp_path):
     csv = edit(BASE_CSV, "A2,Old Co,10.03,5.19", "A2,Old Co,NA,5.19")
     csv = edit(csv, "B1,New Co,9.99,5.20", "B1,New Co, ,5.20")

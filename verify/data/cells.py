@@ -8,6 +8,7 @@ import datetime as _dt
 import difflib
 from collections.abc import Sequence
 from dataclasses import dataclass, field
+from functools import cache
 
 import numpy as np
 import pandas as pd
@@ -31,6 +32,24 @@ class _Sheet:
     sheet: str | None = None
     notes: list[str] = field(default_factory=list)
     origin: dict | None = None  # a SQL source: query, parameters, masked URL, server
+
+
+@cache
+def _text_dtype():
+    """The dtype ``Series.astype(str)`` gives an object column: pandas' text dtype (an
+    extension dtype) from pandas 3 on, ``object`` before."""
+    return pd.Series(["a"], dtype=object).astype(str).dtype
+
+
+def text_column(values: np.ndarray):
+    """An object array of cells as the column ``pd.Series(values, dtype=object).astype(str)``
+    holds (the same conversion: the text dtype's ``_from_sequence``), without making the Series
+    and converting it in place in a frame (a frame of 10 columns paid more for that than for
+    its cells)."""
+    dtype = _text_dtype()
+    if isinstance(dtype, pd.api.extensions.ExtensionDtype):
+        return pd.array(values, dtype=dtype)
+    return pd.Series(values, dtype=object).astype(str)
 
 
 def _is_blank(v: object) -> bool:

@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import hashlib
 import os
+from collections import Counter
 from pathlib import Path
 
 import pandas as pd
@@ -115,9 +116,12 @@ def _read_bytes(path: Path, shown: str, spec: Spec, max_bytes: int) -> bytes:
 
 
 def _file_info(spec: Spec, table: pd.DataFrame, sheet: _Sheet, raw: bytes) -> DataFileInfo:
-    used = table.loc[~table["excluded"], "source_row"]
-    rows_used = int(used.nunique())
-    reasons = table.loc[table["excluded"], "exclusion_reason"].value_counts()
+    excluded = table["excluded"].to_numpy(dtype=bool)
+    # the distinct source rows with a used measurement (what Series.nunique counts)
+    rows_used = len(pd.unique(table["source_row"].to_numpy()[~excluded]))
+    # the excluded measurements by reason (what Series.value_counts counts: no missing value)
+    reasons = Counter(r for r in table["exclusion_reason"].to_numpy(dtype=object)[excluded]
+                      if not pd.isna(r))
     exclusions = tuple(sorted(((str(r), int(n)) for r, n in reasons.items()),
                               key=lambda x: (-x[1], x[0])))
     return DataFileInfo(

@@ -94,7 +94,7 @@ def _read_text(raw: bytes, shown: str, *, tab: bool, encoding: str | None = None
                                    row=1)]) from None
     except (pd.errors.ParserError, ValueError) as exc:
         raise DataError(_ragged_rows(text, delimiter, shown, str(exc))) from None
-    grid = _stripped(frame.fillna(""))  # rows x columns of str, as pandas strips text
+    grid = _stripped(frame)  # rows x columns of str, as pandas strips text
     short = _short_rows(grid, text, delimiter, shown)
     if short:
         raise DataError(short)
@@ -117,7 +117,8 @@ def _read_text(raw: bytes, shown: str, *, tab: bool, encoding: str | None = None
 
 def _stripped(frame: pd.DataFrame) -> np.ndarray:
     """The frame's cells as a 2-D object array of text, each stripped by ``str.strip`` of
-    pandas' text dtype (what ``frame[col].astype(str).str.strip()`` gives, column by column).
+    pandas' text dtype (what ``frame.fillna("")[col].astype(str).str.strip()`` gives, column by
+    column: a missing cell, where a row has fewer cells than the header, is empty text).
 
     The columns are converted and stripped as one series (one call instead of one per column:
     a layout of 300 columns paid 300 calls).
@@ -125,7 +126,11 @@ def _stripped(frame: pd.DataFrame) -> np.ndarray:
     n, k = frame.shape
     if k == 0:
         return np.empty((n, 0), dtype=object)
-    flat = np.concatenate([frame[c].to_numpy(dtype=object) for c in frame.columns])
+    flat = frame.to_numpy(dtype=object).ravel(order="F")  # column after column
+    missing = pd.isna(flat)
+    if missing.any():
+        flat = flat.copy()
+        flat[missing] = ""
     text = pd.Series(flat, dtype=object).astype(str).str.strip()
     return text.to_numpy(dtype=object).reshape(k, n).T
 

@@ -25,6 +25,7 @@ from .cells import (
     _near,
     _Sheet,
     _show,
+    text_column,
 )
 from .pass_fail import _PassFailCells
 
@@ -285,41 +286,42 @@ class _Tidy(_Assignment, _PassFailCells):
         self.duplicate_parts(pos, char_names, process, reason, rows)
         self.fail_if_issues()
 
+        # production order sorts the rows within each characteristic (a stable sort); the
+        # arrays are put in that order before the frames are made from them
+        at, correction_id = pos, self.correction_id
+        if self.ds.order is not None:
+            perm = np.lexsort((order[pos], char_idx))  # what sort_values(kind="stable") gave
+            at = pos[perm]
+            char_names, values, reason = char_names[perm], values[perm], reason[perm]
+            original, corrected = original[perm], corrected[perm]
+            correction_id = correction_id[perm]
         table = pd.DataFrame({
-            "source_file": np.full(len(pos), self.ds.file_text, dtype=object),
-            "source_row": rows[pos].astype(np.int64),
-            "order": order[pos].astype(np.int64),
-            "lot": lot[pos],
-            "process": process[pos],
-            "pair": pair[pos],
-            "characteristic": char_names,
+            "source_file": text_column(np.full(len(at), self.ds.file_text, dtype=object)),
+            "source_row": rows[at].astype(np.int64),
+            "order": order[at].astype(np.int64),
+            "lot": text_column(lot[at]),
+            "process": text_column(process[at]),
+            "pair": text_column(pair[at]),
+            "characteristic": text_column(char_names),
             "value": values.astype(float),
             "excluded": reason != "",
-            "exclusion_reason": reason,
+            "exclusion_reason": text_column(reason),
         }, columns=list(MEASUREMENT_COLUMNS))
-        for col in ("source_file", "lot", "process", "pair", "characteristic",
-                    "exclusion_reason"):
-            table[col] = table[col].astype(str)
-        # traceability, after the model's columns (the recheck reads those by position)
+        # traceability, beside the model's columns (the recheck reads those by position)
+        extra: dict[str, np.ndarray] = {}
         if self.ds.part is not None:
-            table["part"] = self.part_text[pos].astype(str)
+            extra["part"] = self.part_text[at].astype(str)
         if self.process_text is not None:
-            table["process_value"] = self.process_text[pos].astype(str)
+            extra["process_value"] = self.process_text[at].astype(str)
         if self.spec.corrections:
-            table["original"] = original.astype(str)
-            table["correction"] = corrected.astype(str)
-            table["correction_id"] = self.correction_id  # the spec's corrections[i]
+            extra["original"] = original.astype(str)
+            extra["correction"] = corrected.astype(str)
+            extra["correction_id"] = correction_id  # the spec's corrections[i]
         for name, cells in self.keep_text.items():
-            table[f"keep:{name}"] = cells[pos].astype(str)
-        if self.ds.order is not None:
-            table = table.assign(_c=char_idx).sort_values(["_c", "order"], kind="stable")
-            table = table.drop(columns="_c")
-        table = table.reset_index(drop=True)
-        extra = [c for c in table.columns if c not in MEASUREMENT_COLUMNS]
-        self.trace = table[extra] if extra else None
-        table = table[list(MEASUREMENT_COLUMNS)]
+            extra[f"keep:{name}"] = cells[at].astype(str)
+        self.trace = pd.DataFrame(extra, columns=list(extra)) if extra else None
         for proc in ("old", "new"):
-            if not (table["process"] == proc).any():
+            if not (process[pos] == proc).any():
                 self.notes.append(f"no rows for the {proc} process yet")
         return table, self.notes, self.unassigned
 
