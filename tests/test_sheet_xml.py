@@ -435,3 +435,25 @@ def test_row_writer_equals_the_format_template_it_replaced(n, r, text):
     ).format
     cells = [f'{{}}"{text}"{j}/>' for j in range(n)]
     assert row_writer(n)(str(r), *cells) == template(r, *cells)
+
+
+def test_a_written_workbook_leaves_no_cell_to_the_cyclic_collector(tmp_path):
+    """sheet_xml.release: once write_workbook returns, its cells were freed by reference
+    counting (each cell points back to its sheet; left as cycles, the collector would walk
+    them all after gc_paused). Python's gc module: DEBUG_SAVEALL keeps what a collection finds
+    unreachable in gc.garbage."""
+    import gc
+
+    from openpyxl.cell.cell import Cell, MergedCell
+
+    ev = make_evaluation("all", seed=5)
+    gc.collect()
+    gc.set_debug(gc.DEBUG_SAVEALL)
+    try:
+        write_workbook(ev, tmp_path / "wb.xlsx", record_json='{"format": "verify-result/1"}')
+        gc.collect()
+        left = sum(isinstance(o, (Cell, MergedCell)) for o in gc.garbage)
+    finally:
+        gc.set_debug(0)
+        gc.garbage.clear()
+    assert left == 0

@@ -17,7 +17,7 @@ from . import decide
 from .checks.drafting import replaced
 from .evaluate_diagnostics import diagnostics, joined_parts
 from .evaluate_finish import adjust, complete_batches, finish
-from .evaluate_gather import CharDraft, applicable, gather, samples_in_lots, sub_streams, summarize
+from .evaluate_gather import CharDraft, gather, samples_in_lots, sub_streams, summarize
 from .model import Evaluation, Measurements, RunInfo
 from .spec_model import Characteristic, Spec
 from .stats import _memo, batch
@@ -74,7 +74,7 @@ def _evaluate(spec: Spec, measurements: Measurements, final: bool, run: RunInfo)
         for d in measured:
             summarize(d)
         # and the rank statistics the kinds' companions will ask for (their hooks say which)
-        batch.prefetch_ranks([q for d in gathered if not d.ch.pass_fail for k in applicable(d.ch)
+        batch.prefetch_ranks([q for d in measured for k in d.applicable()
                               for q in _rank_requests(k, d.inp)])
         drafts = [draft_characteristic(spec, measurements, d) for d in gathered]
         complete_batches(drafts)
@@ -130,10 +130,10 @@ def draft_characteristic(spec: Spec, meas: Measurements, d: CharDraft) -> CharDr
     if ch.pass_fail:
         from . import evaluate_pass_fail
 
-        d.checks = [k.hook("compute").draft(k, d.inp) for k in applicable(ch)]
+        d.checks = [k.hook("compute").draft(k, d.inp) for k in d.applicable()]
         d.diagnostics = evaluate_pass_fail.diagnostics(spec, ch, d)
         return d
-    kinds = applicable(ch)
+    kinds = d.applicable()
     d.checks = [k.hook("compute").draft(k, d.inp) for k in kinds]
     if spec.data.stream is not None:
         per_stream = [k for k in kinds if getattr(k.hook("compute"), "PER_STREAM", False)]

@@ -57,10 +57,17 @@ class CharDraft:
     # measured: the gathered streams whose summaries the characteristic shows, as gathered
     # (a reference without values included when a check is a difference from it)
     shown: dict = field(default_factory=dict)
+    kinds: list[CheckKind] | None = None  # applicable(ch), once known
 
     @property
     def data(self) -> Comparison:
         return self.inp.data
+
+    def applicable(self) -> list[CheckKind]:
+        """The kinds of check that run for this characteristic (:func:`applicable`)."""
+        if self.kinds is None:
+            self.kinds = applicable(self.ch)
+        return self.kinds
 
 
 def applicable(ch: Characteristic) -> list[CheckKind]:
@@ -77,10 +84,11 @@ def _hook_says(kind: CheckKind, name: str, *args, default=None):
     return default if fn is None else fn(kind, *args)
 
 
-def shows_reference(ch: Characteristic) -> bool:
+def shows_reference(ch: Characteristic, kinds: list[CheckKind] | None = None) -> bool:
     """Whether a declared check is a difference from the reference (then its summary is shown
-    even when the reference has no values)."""
-    return any(_hook_says(k, "shows_empty_reference", default=False) for k in applicable(ch))
+    even when the reference has no values); ``kinds``: ``applicable(ch)`` when known."""
+    return any(_hook_says(k, "shows_empty_reference", default=False)
+               for k in (applicable(ch) if kinds is None else kinds))
 
 
 def sufficiency(spec: Spec, d: CharDraft, counts: dict, final: bool) -> None:
@@ -151,15 +159,16 @@ def gather(spec: Spec, meas: Measurements, ch: Characteristic, final: bool) -> C
     streams = {name: _stream(spec, meas, name, ch, part_spec)
                for name in (*CANDIDATES, REFERENCE)}
     ref = streams[REFERENCE]
+    kinds = applicable(ch)
     shown = [*CANDIDATES]
-    if ref.values.size or shows_reference(ch):
+    if ref.values.size or shows_reference(ch, kinds):
         shown.insert(0, REFERENCE)
     # a reference without values holds None, so that no check reads an empty stream
     if not (ref.values.size and ref.parts.size):
         ref = replace(ref, values=ref.values if ref.values.size else None,
                       parts=ref.parts if ref.parts.size else None)
     # the matched pairs, for the kinds whose settings run them on pairs (data.pair declared)
-    roles = {r for k in applicable(ch)
+    roles = {r for k in kinds
              if (r := _hook_says(k, "pairs_role", getattr(ch.checks, k.name))) is not None}
     pairs = paired_values(meas, spec, ch.name) if roles else None
     (candidate,) = CANDIDATES  # one candidate today: several would give several comparisons
@@ -172,7 +181,8 @@ def gather(spec: Spec, meas: Measurements, ch: Characteristic, final: bool) -> C
         except CANNOT_COMPUTE as err:
             fit_error = str(err)
     inp = CheckInput(spec=spec, ch=ch, data=data, final=final, fit=fit, fit_error=fit_error)
-    d = CharDraft(ch=ch, inp=inp, processes={}, shown={name: streams[name] for name in shown})
+    d = CharDraft(ch=ch, inp=inp, processes={}, shown={name: streams[name] for name in shown},
+                  kinds=kinds)
     counts = {p: int(st.values.size) for p, st in d.shown.items()}
     if pairs is not None:
         # a check that runs on the pairs has as many units as there are matched pairs

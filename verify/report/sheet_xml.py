@@ -420,6 +420,27 @@ def gc_paused() -> Iterator[None]:
             gc.enable()
 
 
+def release(wb) -> None:
+    """Take a saved workbook apart, so that reference counting frees it.
+
+    Every cell, row dimension and merged range points back to its sheet, which holds them:
+    cycles that only the cyclic collector frees, and it walks them all (about 77,000 objects
+    for a layout of 300 characteristics, ~15 ms) at its first collection after
+    :func:`gc_paused`. Emptying the sheets' containers breaks those cycles; the workbook
+    must not be used afterwards.
+    """
+    for ws in wb._sheets:
+        if hasattr(ws, "_cells"):
+            ws._cells = {}
+        for holder in ("row_dimensions", "column_dimensions"):
+            dims = getattr(ws, holder, None)
+            if dims is not None:
+                dims.clear()
+        merged = getattr(ws, "merged_cells", None)
+        if merged is not None:
+            merged.ranges = set()
+
+
 def save(wb, streamed: list[StreamedSheet], path, *, timestamp) -> None:
     """Save a built workbook to ``path``: cells as XML here, the rest by openpyxl, spliced.
 

@@ -60,4 +60,5 @@ class StyleBook:
         """Remove the scratch sheet (the style ids it produced stay valid)."""
         if self._ws is not None:
             self._wb.remove(self._ws)
+            self._ws._cells = {}  # (each cell points back to the sheet: no cycle left behind)
             self._ws = None

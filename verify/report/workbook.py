@@ -51,7 +51,7 @@ from .layout import (
 from .measurements_sheet import add_placeholders, decimals_by_characteristic
 from .recheck import HELPER_HEADING, recheck_rows
 from .safe_text import escape_json_for_xml, has_xml_illegal, xml_safe_evaluation
-from .sheet_xml import gc_paused, save
+from .sheet_xml import gc_paused, release, save
 from .styles import StyleBook
 from .summary import DECISION_COLOURS, write_summary
 from .xlsx_fast import StreamedSheet, t_element
@@ -172,6 +172,7 @@ def write_workbook(
     wb.calculation.fullCalcOnLoad = True  # formulas carry no cached values: compute on open
 
     save(wb, streamed, Path(path), timestamp=started)
+    release(wb)
 
 
 def _timestamp(text: str) -> dt.datetime:

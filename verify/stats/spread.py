@@ -99,14 +99,13 @@ class VarianceRatioResult:
 
 
 def _f_pvalue(f: float, dfn: int, dfd: int, alternative: str) -> float:
-    lower = float(special.fdtr(dfn, dfd, f))
-    upper = float(special.fdtrc(dfn, dfd, f))
+    # only the tail(s) the alternative reads: each is the same float computed alone
     if alternative == "greater":
-        p = upper
+        p = float(special.fdtrc(dfn, dfd, f))
     elif alternative == "less":
-        p = lower
+        p = float(special.fdtr(dfn, dfd, f))
     else:
-        p = 2.0 * min(lower, upper)
+        p = 2.0 * min(float(special.fdtr(dfn, dfd, f)), float(special.fdtrc(dfn, dfd, f)))
     return min(1.0, max(0.0, p))
 
 
