@@ -121,3 +121,26 @@ def test_spec_errors(tmp_path, extra, message):
         "  ") else SPEC.replace("multiplicity: holm\n", "multiplicity: holm\n" + extra)
     with pytest.raises(SpecError, match=message):
         _data(tmp_path, spec=spec)
+
+
+def test_stream_values_are_the_pandas_selection_in_production_order(tmp_path):
+    # reference: the pandas route stream_values replaced (select the characteristic's used new
+    # rows, stable sort by order then source row, group by stream in order of appearance);
+    # the rows are shuffled and orders tied so that the sort and its ties matter
+    import numpy as np
+
+    from verify.data import stream_values
+
+    m = load_measurements(_data(tmp_path))
+    t = m.table.sample(frac=1.0, random_state=3).reset_index(drop=True)
+    t["order"] = t["order"] // 3
+    m = type(m)(**{**m.__dict__, "table": t})
+    sel = t[(t["characteristic"] == "x") & (t["process"] == "new") & ~t["excluded"]]
+    sel = sel.sort_values(["order", "source_row"], kind="stable")
+    expected = {name: sel.loc[sel["stream"].astype(str) == name, "value"].to_numpy(dtype=float)
+                for name in dict.fromkeys(sel["stream"].astype(str))}
+    got = stream_values(m, "x")
+    assert list(got) == list(expected) == ["C1", "C2", "C3", "C4"]
+    for name, values in expected.items():
+        assert got[name].dtype == np.float64 and np.array_equal(got[name], values)
+    assert stream_values(m, "no such characteristic") == {}

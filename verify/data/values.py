@@ -145,18 +145,20 @@ def stream_values(measurements: Measurements, characteristic: str) -> dict[str, 
     Streams are in order of first appearance in the data. Empty when the table has no
     ``stream`` column (no data.stream declared).
     """
-    import numpy as np
-
     t = measurements.table
     if "stream" not in t.columns:
         return {}
-    sel = t[(t["characteristic"] == characteristic) & (t["process"] == "new") & ~t["excluded"]]
-    sel = sel.sort_values(["order", "source_row"], kind="stable")
+    # numpy over the table's columns: the rows the pandas selection took (this characteristic,
+    # new process, used), in the stable order of (order, source_row) that sort_values gave
+    sel = np.flatnonzero((t["characteristic"].to_numpy(dtype=object) == characteristic)
+                         & (t["process"].to_numpy(dtype=object) == "new")
+                         & ~t["excluded"].to_numpy(dtype=bool))
+    sel = sel[np.lexsort((t["source_row"].to_numpy()[sel], t["order"].to_numpy()[sel]))]
+    streams = t["stream"].astype(str).to_numpy(dtype=object)[sel]
+    values = t["value"].to_numpy(dtype=float)[sel]
     out: dict[str, object] = {}
-    for name in dict.fromkeys(sel["stream"].astype(str)):
-        out[name] = sel.loc[sel["stream"].astype(str) == name, "value"].to_numpy(dtype=float)
-    for k in out:
-        out[k] = np.asarray(out[k])
+    for name in dict.fromkeys(streams.tolist()):
+        out[name] = np.asarray(values[streams == name])
     return out
 
 
