@@ -10,7 +10,7 @@ caution.
 from __future__ import annotations
 
 from ..model import Evaluation
-from .cell_styles import alignment_of, merge, shared_alignment, shared_font, style
+from .cell_styles import cell_at, merge, shared_alignment, shared_font, style
 from .cells import (
     INK,
     INT_FORMAT,
@@ -247,11 +247,21 @@ def write_audit(ws, ev: Evaluation) -> None:
         row += 1
     last = row - 1
     fit_rows(ws)
+    aligns = ws.parent._alignments
+    top: dict[int, object] = {}  # alignment index -> the top alignment (None: already set)
     for r in range(1, last + 1):  # a label reads beside the top of its (wrapped) value
-        cell = ws.cell(r, 1)
-        if cell.value is not None and alignment_of(cell).vertical is None:
-            a = alignment_of(cell)
-            style(cell, align=shared_alignment(vertical="top", wrap_text=a.wrap_text))
+        cell = cell_at(ws, r, 1)  # (as ws.cell: created when missing)
+        if cell._value is None:
+            continue
+        st = cell._style
+        a = 0 if st is None else st[5]
+        align = top.get(a, False)
+        if align is False:
+            old = aligns[a]
+            align = top[a] = (shared_alignment(vertical="top", wrap_text=old.wrap_text)
+                              if old.vertical is None else None)
+        if align is not None:
+            style(cell, align=align)
     page_setup(ws, f"A1:H{last}", landscape=True, footer=f"verify run {ev.run.run_id}")
     keep_sections(ws, last_row=last, last_col=8)
 

@@ -15,7 +15,7 @@ import math
 
 from openpyxl.utils import get_column_letter
 
-from .cell_styles import row_dimension
+from .cell_styles import cell_at, row_dimension
 
 # points (1/72 inch): A4's width (210 mm) and US Letter's length (11 in)
 PAPER_SHORT, PAPER_LONG = 595.0, 792.0
@@ -115,14 +115,21 @@ def apply_breaks(ws, rows) -> None:
 def section_blocks(ws, last_row: int, *, size: float = 12) -> list[tuple[int, int]]:
     """Blocks from each section heading (a bold heading of ``size`` pt in column A) to the row
     before the next heading's blank line."""
-    starts = [
-        r
-        for r in range(1, last_row + 1)
-        if isinstance(ws.cell(r, 1).value, str)
-        and ws.cell(r, 1).font is not None
-        and ws.cell(r, 1).font.b
-        and ws.cell(r, 1).font.sz == size
-    ]
+    fonts = ws.parent._fonts
+    heading: dict[int, bool] = {}  # font index -> bold of this size (read once per font)
+    starts = []
+    for r in range(1, last_row + 1):
+        cell = cell_at(ws, r, 1)  # (as ws.cell: created when missing)
+        if not isinstance(cell._value, str):
+            continue
+        style = cell._style
+        f = 0 if style is None else style[0]
+        hit = heading.get(f)
+        if hit is None:
+            font = fonts[f]
+            hit = heading[f] = bool(font.b) and font.sz == size
+        if hit:
+            starts.append(r)
     ends = [s - 2 for s in starts[1:]] + [last_row]
     return [(a, max(a, b)) for a, b in zip(starts, ends, strict=True)]
 
