@@ -124,11 +124,30 @@ def helper_rows(sh: Sheet, name: str, process: str, t: pd.DataFrame, pos, label)
     # conversion: Python ints, floats and strings), without a Series per row
     keys = [k for k in ("order", "source_row", "source_file", "lot") if k in t.columns]
     columns = [object_column(t, k)[pos] for k in keys]
+    tbl = sh.table
+    # lookup()'s formula, its parts common to the sample made once (the same text)
+    head = (f"=SUMIFS({tbl.col('value')},{tbl.criteria(name, process)},{tbl.col('order')},")
+    files: dict = {}  # a source file -> its criterion part (by_file)
+    lots: dict = {}  # a lot -> its cell
+    append = sh.helpers.append
     for values in zip(*columns, strict=True):
         r = dict(zip(keys, values, strict=True))
-        sh.helpers.append([as_text(label(r)), "=" + lookup(sh.table, name, process, r), None,
-                           None, None, None, lot_cell(str(r["lot"]))])
+        f = f"{head}{int(r['order']) + ORDER_BASE}"
+        if tbl.by_file:
+            file = str(r["source_file"])
+            part = files.get(file)
+            if part is None:
+                part = files[file] = f",{tbl.col('source_file')},{criterion(file)}"
+            f += part
+        lot = str(r["lot"])
+        cell = lots.get(lot, _NO_LOT)
+        if cell is _NO_LOT:
+            cell = lots[lot] = lot_cell(lot)
+        append([as_text(label(r)), f + ")", None, None, None, None, cell])
     return Helper(first, len(sh.helpers) - 1)
+
+
+_NO_LOT = object()
 
 
 def used_block(sh: Sheet, ev: Evaluation, layout: MeasurementLayout, name: str,
