@@ -35,3 +35,10 @@ def worker_pid(seconds: float):
 def own_pid(_):
     """The pid of the worker running the job."""
     return os.getpid()
+
+
+def mark_started(path: str):
+    """Write ``path`` as the job starts (so that the parent sees when it ran); the pid."""
+    with open(path, "w", encoding="utf-8") as f:
+        f.write(str(os.getpid()))
+    return os.getpid()

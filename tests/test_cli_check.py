@@ -204,7 +204,8 @@ def test_check_imports_neither_the_evaluation_nor_the_statistics_nor_the_reports
     code = ("import sys\nfrom verify.cli import main\n"
             "rc = main(['check', 'specs/'])\n"
             "loaded = [m for m in sys.modules if m in ('scipy', 'openpyxl', 'verify.evaluate', "
-            "'verify.evaluate_pass_fail', 'verify.decide', 'verify.plan') or "
+            "'verify.evaluate_pass_fail', 'verify.decide', 'verify.plan', 'verify.cli_run', "
+            "'verify.cli_ledger') or "
             "m.startswith(('verify.stats', 'verify.report'))]\n"
             "print('RC', rc, 'LOADED', sorted(loaded))\n")
     result = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,

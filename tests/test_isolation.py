@@ -13,7 +13,7 @@ import time
 from pathlib import Path
 
 import pytest
-from helpers_isolation import die, echo, own_pid, raise_value_error, sleep_then
+from helpers_isolation import die, echo, mark_started, own_pid, raise_value_error, sleep_then
 
 from verify.isolation import Failed, Job, Pool, run_isolated
 
@@ -59,6 +59,25 @@ def test_a_job_submitted_while_results_come_in_runs_in_the_same_workers():
     while _alive(got["first"]) and time.monotonic() < deadline:
         time.sleep(0.1)
     assert not _alive(got["first"])
+
+
+def test_a_freed_worker_starts_the_next_job_while_the_caller_handles_a_result(tmp_path):
+    # the nightly run writes a spec's ledger entry and renames its files when its result comes
+    # back; the worker that gave the result must go on with the next spec meanwhile (the
+    # contract: the next waiting job is given out before the result is yielded)
+    marker = tmp_path / "second-started"
+    with Pool(workers=1, timeout=120) as pool:
+        pool.submit(Job("first", own_pid, None))
+        pool.submit(Job("second", mark_started, str(marker)))
+        got = {}
+        for job, result in pool.results():
+            got[job.key] = result
+            if job.key == "first":  # still handling the first result: the second runs
+                deadline = time.monotonic() + 60
+                while not marker.exists() and time.monotonic() < deadline:
+                    time.sleep(0.05)
+                assert marker.exists()
+    assert got["first"] == got["second"]  # on the worker that was freed
 
 
 def test_a_dead_worker_is_replaced_when_a_job_waits():

@@ -69,3 +69,54 @@ def test_full_detail_keeps_a_sheet_per_characteristic(tmp_path):
     assert DETAILS_SHEET not in wb.sheetnames
     assert len(wb.sheetnames) >= len(ev.characteristics) + 3
     wb.close()
+
+
+def _former_cells(rows, text_style):
+    """The Details rows as the sheet wrote them before the per-type fast path (the reference:
+    every value through the general tests)."""
+    import math
+    import numbers
+
+    from openpyxl.utils import get_column_letter
+
+    from verify.report.cells import infinity_text
+    from verify.report.xlsx_fast import number_cell, text_cell
+
+    float_cols = {5, 6, 7, 8, 9, 10, 11, 12}
+    out = []
+    for i, values in enumerate(rows, start=HEADER_ROW + 1):
+        cells = []
+        for j, v in enumerate(values):
+            ref = f"{get_column_letter(j + 1)}{i}"
+            if v is None or (isinstance(v, float) and math.isnan(v)):
+                continue
+            if isinstance(v, float) and math.isinf(v):
+                cells.append(text_cell(ref, infinity_text(v), text_style))
+                continue
+            if isinstance(v, bool) or not isinstance(v, numbers.Real):
+                cells.append(text_cell(ref, str(v), text_style))
+            elif j in float_cols:
+                cells.append(number_cell(ref, float(v)))
+            else:
+                cells.append(number_cell(ref, int(v)))
+        out.append(f'<row r="{i}">{"".join(cells)}</row>')
+    return "".join(out)
+
+
+def test_streamed_rows_equal_the_general_route_for_every_kind_of_value(monkeypatch):
+    """Texts (empty, escaped, padded), floats (finite, NaN, infinities, in float and integer
+    columns), ints, bools and numpy numbers, as the general route wrote them."""
+    import numpy as np
+
+    from verify.report import details_sheet
+    from verify.report.styles import StyleBook
+
+    odd = ["a < b & c", "", "  padded ", float("nan"), float("inf"), -float("inf"), 2.5, 3.0,
+           7, True, False, np.float64(0.1), np.int64(4), np.float64("nan"), None, "x\ny"]
+    rows = [tuple(odd[(k + j) % len(odd)] for j in range(len(details_sheet.COLUMNS)))
+            for k in range(len(odd))]
+    monkeypatch.setattr(details_sheet, "_rows", lambda ev: iter(rows))
+    wb = openpyxl.Workbook()
+    styles = StyleBook(wb)
+    sheet = details_sheet.details_placeholder(wb.active, make_evaluation("welch"), styles)
+    assert "".join(sheet.rows()) == _former_cells(rows, styles.text())

@@ -17,8 +17,6 @@ import sys
 from collections.abc import Callable, Sequence
 
 from . import __version__
-from .cli_ledger import add_ledger, cmd_ledger
-from .cli_run import add_max_data_mb, add_replay, add_run, cmd_replay, cmd_run
 from .errors import VerifyError
 from .output import say, write
 
@@ -43,6 +41,8 @@ def add_check(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
     )
     p.add_argument("paths", nargs="+", metavar="SPEC|DIR",
                    help="spec files, or folders searched for *.yaml and *.yml")
+    from .cli_args import add_max_data_mb
+
     add_max_data_mb(p)
     return p
 
@@ -286,6 +286,45 @@ def cmd_plan(args: argparse.Namespace) -> int:
     from .cli_plan import plan_main
 
     return plan_main(args)
+
+
+# -- verify run, replay and ledger: their modules load only when one of them runs -------------
+
+
+def add_run(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
+    from .cli_run import add_run as add
+
+    return add(sub)
+
+
+def cmd_run(args: argparse.Namespace) -> int:
+    from .cli_run import cmd_run as run
+
+    return run(args)
+
+
+def add_replay(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
+    from .cli_run import add_replay as add
+
+    return add(sub)
+
+
+def cmd_replay(args: argparse.Namespace) -> int:
+    from .cli_run import cmd_replay as run
+
+    return run(args)
+
+
+def add_ledger(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
+    from .cli_ledger import add_ledger as add
+
+    return add(sub)
+
+
+def cmd_ledger(args: argparse.Namespace) -> int:
+    from .cli_ledger import cmd_ledger as run
+
+    return run(args)
 
 
 # -- dispatcher -------------------------------------------------------------------------------

@@ -9,7 +9,7 @@ import sys
 import textwrap
 from collections.abc import Sequence
 
-from .cli_run import parsed_number
+from .cli_args import parsed_number
 from .errors import VerifyError
 
 EXAMPLE = """\
@@ -70,7 +70,7 @@ def add_nightly_arguments(parser: argparse.ArgumentParser) -> argparse.ArgumentP
                         default=DEFAULT_SPEC_TIMEOUT,
                         help="stop a spec whose reading or evaluation takes longer, and record "
                              f"it as ERROR (default: {DEFAULT_SPEC_TIMEOUT:g})")
-    from .cli_run import add_max_data_mb
+    from .cli_args import add_max_data_mb
 
     add_max_data_mb(parser)
     parser.add_argument("--lock-timeout", metavar="SECONDS", type=_non_negative_float,

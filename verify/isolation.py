@@ -162,7 +162,8 @@ class Pool:
 
     Jobs start in the order submitted; a worker is started when a job waits and fewer than
     ``workers`` exist, and it keeps running further jobs (a worker that imported heavy
-    libraries for one job keeps them for the next). :meth:`results` yields ``(job, result)``
+    libraries for one job keeps them for the next). A freed worker is given the next waiting
+    job before its result is yielded. :meth:`results` yields ``(job, result)``
     in completion order until no job waits or runs; a job submitted meanwhile (for instance in
     answer to a result) is run in the same pass. Leaving the ``with`` block stops the workers
     (killing any still busy).
@@ -238,15 +239,20 @@ class Pool:
                 elif time.monotonic() >= w.deadline:
                     done.append((w, Failed(f"stopped after {timeout:g} s (the time limit per "
                                            "spec, --spec-timeout)", timed_out=True), False))
+            finished: list[tuple[Job, Any]] = []
             for w, result, usable in done:
-                job = w.job
+                finished.append((w.job, result))
                 w.job = None
                 if usable:
                     self._idle.append(w)
                 else:  # a fresh worker takes the next job (started by _dispatch)
                     w.stop(kill=True)
                     self._pool.remove(w)
-                yield job, result
+            # the waiting jobs go to the freed workers before the results are handed on: a
+            # worker does not sit idle while the caller deals with a result (the nightly run
+            # writes a ledger entry and renames files then, a few ms per spec)
+            self._dispatch()
+            yield from finished
 
     def close(self) -> None:
         """Stop every worker: idle ones end when their pipes close, busy ones are killed.

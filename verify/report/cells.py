@@ -344,10 +344,12 @@ def fit_rows(ws, *, line_height: float = 14.5) -> None:
             size = sizes.get(f)
             if size is None:
                 size = sizes[f] = (fonts[f].sz or 11) / 11
-            lines = sum(
-                max(1, math.ceil(len(part) * size / max(cap * 1.05, 1)))
-                for part in value.split("\n")
-            )
+            room = max(cap * 1.05, 1)
+            if "\n" in value:
+                lines = sum(max(1, math.ceil(len(part) * size / room))
+                            for part in value.split("\n"))
+            else:  # (one line: the same sum without the split)
+                lines = max(1, math.ceil(len(value) * size / room))
             lines = math.ceil(lines / n_rows)  # a cell merged down shares the rows
             if lines > need:
                 need, font_scale = lines, max(1.0, size)

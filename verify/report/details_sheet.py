@@ -65,24 +65,42 @@ def details_placeholder(ws, ev: Evaluation, styles) -> StreamedSheet:
     last = HEADER_ROW + len(rows)
     float_cols = {5, 6, 7, 8, 9, 10, 11, 12}  # 0-based columns holding floats
 
+    letters = [get_column_letter(j + 1) for j in range(len(COLUMNS))]
+    texts: dict[str, str] = {}  # a text -> its cell after the reference (names repeat)
+
+    def text_rest(value: str) -> str:
+        rest = texts.get(value)
+        if rest is None:
+            rest = text_cell("", value, text)[len('<c r=""'):]
+            if len(texts) < 4096:
+                texts[value] = rest
+        return rest
+
+    def cell(ref: str, j: int, v) -> str:
+        """One cell, as text_cell / number_cell write it (plain types first)."""
+        t = type(v)
+        if t is str:
+            return f'<c r="{ref}"{text_rest(v)}' if v else ""
+        if t is float and math.isfinite(v):
+            return f'<c r="{ref}"><v>{(v if j in float_cols else int(v))!r}</v></c>'
+        if t is int:
+            return f'<c r="{ref}"><v>{(float(v) if j in float_cols else v)!r}</v></c>'
+        if v is None or (isinstance(v, float) and math.isnan(v)):
+            return ""
+        if isinstance(v, float) and math.isinf(v):  # a one-sided bound, as text
+            return text_cell(ref, infinity_text(v), text)
+        if isinstance(v, bool) or not isinstance(v, numbers.Real):
+            return text_cell(ref, str(v), text)
+        if j in float_cols:
+            return number_cell(ref, float(v))
+        return number_cell(ref, int(v))
+
     def chunks() -> Iterator[str]:
         buf = []
         for i, values in enumerate(rows, start=HEADER_ROW + 1):
-            cells = []
-            for j, v in enumerate(values):
-                ref = f"{get_column_letter(j + 1)}{i}"
-                if v is None or (isinstance(v, float) and math.isnan(v)):
-                    continue
-                if isinstance(v, float) and math.isinf(v):  # a one-sided bound, as text
-                    cells.append(text_cell(ref, infinity_text(v), text))
-                    continue
-                if isinstance(v, bool) or not isinstance(v, numbers.Real):
-                    cells.append(text_cell(ref, str(v), text))
-                elif j in float_cols:
-                    cells.append(number_cell(ref, float(v)))
-                else:
-                    cells.append(number_cell(ref, int(v)))
-            buf.append(f'<row r="{i}">{"".join(cells)}</row>')
+            cells = "".join([cell(f"{letters[j]}{i}", j, v)
+                             for j, v in enumerate(values) if v is not None])
+            buf.append(f'<row r="{i}">{cells}</row>')
             if len(buf) >= 2048:
                 yield "".join(buf)
                 buf.clear()

@@ -113,6 +113,7 @@ def xml_safe_evaluation(ev):
 
 
 _ATOMS = frozenset({type(None), bool, int, float, complex, bytes})  # kept as they are
+_UNSAFE_SEARCH = XML_UNSAFE.search  # (a text without a match is kept as it is)
 _FIELDS: dict[type, tuple[str, ...] | None] = {}  # a dataclass's fields walked (None: no dataclass)
 
 
@@ -138,6 +139,8 @@ class _Walker:
     def walk(self, obj: Any) -> Any:
         t = type(obj)
         if t is str:
+            if not _UNSAFE_SEARCH(obj):
+                return obj
             return xml_safe(obj)
         if t in _ATOMS:
             return obj
@@ -154,7 +157,8 @@ class _Walker:
 
     def _items(self, obj) -> list:
         atoms, walk = _ATOMS, self.walk
-        return [x if type(x) in atoms else walk(x) for x in obj]
+        return [x if type(x) in atoms or (type(x) is str and not _UNSAFE_SEARCH(x)) else walk(x)
+                for x in obj]
 
     def _walk(self, obj: Any) -> Any:
         t = type(obj)
@@ -164,7 +168,8 @@ class _Walker:
             atoms, walk = _ATOMS, self.walk
             for name in names:
                 old = getattr(obj, name)
-                if type(old) in atoms:
+                t = type(old)
+                if t in atoms or (t is str and not _UNSAFE_SEARCH(old)):
                     continue
                 new = walk(old)
                 if new is not old:
