@@ -137,3 +137,11 @@ def test_a_value_only_cells_write_leaves_the_sheet_to_them(tmp_path, monkeypatch
     a, b, streamed = _both(ev, tmp_path, monkeypatch)
     assert streamed == 0
     _same(a, b)
+
+
+def test_a_formula_with_a_control_character_is_left_to_openpyxls_own_check():
+    """openpyxl refuses such a formula (IllegalCharacterError): the body declines it, so the
+    cell route raises that error as it did."""
+    assert recheck_xml.Body.build([["ok", "=SUM(1,2)"]], FIRST_BODY_ROW, 6) is not None
+    assert recheck_xml.Body.build([["ok", "=SUM(1,2)"], ["bad", "=A1\x01"]],
+                                  FIRST_BODY_ROW, 6) is None

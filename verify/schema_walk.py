@@ -8,7 +8,6 @@ carries the line and column of the offending node and its key path
 
 from __future__ import annotations
 
-import difflib
 import json
 import math
 import re
@@ -492,6 +491,8 @@ def _type_message(node: yaml.Node, value: Any, jtype: str, allowed: list[str]) -
 
 
 def _nearest(word: str, options) -> str | None:
+    import difflib  # only when a name is not found: not at start-up
+
     near = difflib.get_close_matches(word, list(options), n=1, cutoff=0.6)
     return near[0] if near else None
 

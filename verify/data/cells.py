@@ -5,7 +5,6 @@ near name, a column letter)."""
 from __future__ import annotations
 
 import datetime as _dt
-import difflib
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from functools import cache
@@ -99,6 +98,8 @@ def _near(word: str, options: Sequence[str]) -> str | None:
     lowered = {o.lower(): o for o in options}
     if word.lower() in lowered:
         return lowered[word.lower()]
+    import difflib  # only when a name is not found: not at start-up
+
     near = difflib.get_close_matches(word, list(options), n=1, cutoff=0.6)
     return near[0] if near else None
 

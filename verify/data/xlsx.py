@@ -4,7 +4,6 @@ not installed). The formula cells are checked by :mod:`verify.sources.formula_ce
 
 from __future__ import annotations
 
-import difflib
 import io
 
 import numpy as np
@@ -52,6 +51,8 @@ def _xlsx_rows(raw: bytes, shown: str, sheet_name: str | None) -> tuple[list, st
 
 def _no_sheet(sheet_name: str, names: list[str]) -> str:
     msg = f"has no sheet {sheet_name!r}; the sheets are: {', '.join(names)}"
+    import difflib  # only when a name is not found: not at start-up
+
     near = difflib.get_close_matches(sheet_name, names, n=1, cutoff=0.6)
     return msg + (f"; did you mean {near[0]!r}?" if near else "")
 

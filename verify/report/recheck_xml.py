@@ -80,6 +80,7 @@ class Body:
         all_cols, all_rests, all_texts, headings = body.cols, body.rests, body.texts, body.heading
         text_xml: dict[str, tuple[str, int, str]] = {}  # text -> its XML, width, stored text
         isfinite = math.isfinite
+        formulas: list[str] = []  # checked for control characters together, at the end
         for values in rows:
             cols = []
             rests = []
@@ -92,9 +93,13 @@ class Body:
                 t = type(v)
                 if t is str:
                     if len(v) > 1 and v[0] == "=":
-                        if len(v) > EXCEL_CELL_MAX or ILLEGAL_CHARACTERS_RE.search(v):
+                        if len(v) > EXCEL_CELL_MAX:
                             return None  # (openpyxl's own value check decides these)
-                        rests.append(f"><f>{_cdata(v[1:])}</f><v /></c>")
+                        formulas.append(v)
+                        f = v[1:]
+                        if "&" in f or "<" in f or ">" in f:  # (sheet_xml._cdata)
+                            f = f.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+                        rests.append(f"><f>{f}</f><v /></c>")
                         texts.append((j, v))  # (fit_rows measures a formula's text too)
                         w = 14
                     else:
@@ -123,6 +128,8 @@ class Body:
             all_texts.append(texts)
             # (a formula is a str as well)
             headings.append(bool(cols) and cols[0] == 1 and (len(cols) == 1 or cols[1] > 3))
+        if formulas and ILLEGAL_CHARACTERS_RE.search("\n".join(formulas)):
+            return None  # a control character openpyxl's own value check refuses
         return body
 
     def __len__(self) -> int:
