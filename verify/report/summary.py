@@ -8,6 +8,7 @@ monitoring, multiplicity, continued measurement sheets), the caution, and a blan
 from __future__ import annotations
 
 from openpyxl.styles import Border, Font, PatternFill, Side
+from openpyxl.styles.cell_style import StyleArray
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.hyperlink import Hyperlink
 
@@ -343,9 +344,10 @@ def write_summary(
     header = row
     header_row(ws, row, 1, [h for h, _w in columns])
     row += 1
+    boxed: dict = {}
     for c in ev.characteristics:
         _characteristic_row(ws, row, c, ev, kinds, sheet_names.get(c.name),
-                            decimals.get(c.name))
+                            decimals.get(c.name), boxed)
         row += 1
     table_end = row - 1
     # a sortable, filterable table (no merged cells inside it); its header repeats on paper
@@ -489,7 +491,11 @@ def _characteristic_row(
     kinds: list[str],
     sheet: str | None,
     decimals: int | None,
+    boxed: dict | None = None,
 ) -> None:
+    """One characteristic's row of the table. ``boxed`` remembers, for this workbook, the
+    style each starting style ends with once boxed and aligned to the top (each distinct step
+    is taken once, at its first cell, as the cell route takes it)."""
     # differences and intervals one decimal finer than the values were recorded
     d = (4 if decimals is None else decimals) + 1
     old, new = c.processes.get("old"), c.processes.get("new")
@@ -525,8 +531,16 @@ def _characteristic_row(
         align=shared_alignment(horizontal="center", vertical="top"))
     for j in range(1, col + 1):
         cell = ws.cell(row, j)
+        start = cell._style
+        key = None if start is None else start.tobytes()
+        done = boxed.get(key) if boxed is not None else None
+        if done is not None:  # the same steps from the same style give the same style
+            cell._style = StyleArray(done)
+            continue
         style(cell, border=BOX)
         a = alignment_of(cell)
         if a.vertical is None:
             style(cell, align=shared_alignment(vertical="top", horizontal=a.horizontal,
                                                wrap_text=a.wrap_text))
+        if boxed is not None:
+            boxed[key] = StyleArray(cell._style)
