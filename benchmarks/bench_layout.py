@@ -60,8 +60,8 @@ def make_layout(folder: Path, k: int, parts: int, seed: int = 17) -> tuple[Path,
     return one, many
 
 
-def run(spec: Path, out: Path) -> float:
-    env = dict(os.environ, PYTHONPATH=str(REPO))
+def run(spec: Path, out: Path, env: dict[str, str] | None = None) -> float:
+    env = dict(os.environ if env is None else env, PYTHONPATH=str(REPO))
     t0 = time.perf_counter()
     proc = subprocess.run([sys.executable, "-m", "verify", "run", str(spec), "--out", str(out)],
                           capture_output=True, text=True, env=env)
@@ -85,17 +85,37 @@ def main(argv: list[str] | None = None) -> None:
     ap.add_argument("--parts", type=int, default=100, help="parts per process")
     ap.add_argument("--repeat", type=int, default=5)
     opts = ap.parse_args(argv)
+    k = opts.characteristics
     with tempfile.TemporaryDirectory(prefix="bench-layout-") as tmp:
         folder = Path(tmp)
-        one, many = make_layout(folder, opts.characteristics, opts.parts)
-        times: dict[str, list[float]] = {"1": [], "k": []}
-        for i in range(opts.repeat):  # interleaved, so a load change hits both alike
-            times["1"].append(run(one, folder / f"out1-{i}"))
-            times["k"].append(run(many, folder / f"outk-{i}"))
+        one, many = make_layout(folder, k, opts.parts)
+        print(f"verify run, {opts.parts} parts per process, median of {opts.repeat} fresh "
+              f"processes ({load()}):")
+        report(_times(one, many, folder / "plain", opts.repeat), k)
+        if sys.dont_write_bytecode:
+            # verify's modules are then compiled from source in every run (pandas' come
+            # compiled with it): a fixed cost that shrinks the ratio. An installed verify has
+            # its bytecode cached; so do these runs (a temporary cache, warmed first).
+            cache = folder / "pycache"
+            env = {n: v for n, v in os.environ.items() if n != "PYTHONDONTWRITEBYTECODE"}
+            env["PYTHONPYCACHEPREFIX"] = str(cache)
+            run(one, folder / "warm", env)
+            print("  with bytecode cached (PYTHONDONTWRITEBYTECODE is set here, so the runs "
+                  "above compile verify's modules every time):")
+            report(_times(one, many, folder / "cached", opts.repeat, env), k)
+
+
+def _times(one: Path, many: Path, out: Path, repeat: int,
+           env: dict[str, str] | None = None) -> dict[str, list[float]]:
+    times: dict[str, list[float]] = {"1": [], "k": []}
+    for i in range(repeat):  # interleaved, so a load change hits both alike
+        times["1"].append(run(one, out / f"1-{i}", env))
+        times["k"].append(run(many, out / f"k-{i}", env))
+    return times
+
+
+def report(times: dict[str, list[float]], k: int) -> None:
     t1, tk = statistics.median(times["1"]), statistics.median(times["k"])
-    k = opts.characteristics
-    print(f"verify run, {opts.parts} parts per process, median of {opts.repeat} fresh processes "
-          f"({load()}):")
     for label, t, runs in (("1 characteristic:   ", t1, times["1"]),
                            (f"{k} characteristics:", tk, times["k"])):
         print(f"  {label} {t:6.2f} s  (runs: {', '.join(f'{x:.2f}' for x in runs)})")

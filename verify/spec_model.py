@@ -28,10 +28,10 @@ class _ChecksBase:
 
     def items(self) -> Iterator[tuple[str, object]]:
         """(name, settings) of each check that runs, in registry order."""
-        for f in fields(self):
-            value = getattr(self, f.name)
+        for name in self._names():
+            value = getattr(self, name)
             if value is not None:
-                yield f.name, value
+                yield name, value
 
     def get(self, name: str, default: object = None) -> object:
         """The settings of check ``name``; ``default`` when it does not run."""
@@ -61,7 +61,13 @@ class _ChecksBase:
 
     @classmethod
     def _names(cls) -> tuple[str, ...]:
-        return tuple(f.name for f in fields(cls))
+        # the field names, found once per class (dataclasses.fields builds its tuple per call,
+        # and get() is asked thousands of times per layout)
+        names = cls.__dict__.get("_field_names")
+        if names is None:
+            names = tuple(f.name for f in fields(cls))
+            type.__setattr__(cls, "_field_names", names)
+        return names
 
 
 @cache
