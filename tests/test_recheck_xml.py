@@ -104,6 +104,8 @@ def _rows(extra: list[list]):
 BODY = [
     ["Characteristic: bore <mm> & more"],  # a heading: bold
     ["=SUM(1,2)"],  # a formula alone in the first column reads as a heading too
+    [5.0, None, None, None, None, "x"],  # a number alone in A is no heading: not bold
+    [7],
     ["mean", "=AVERAGE(1,2)", 1.5, "=B10-C10", "=ABS(B10-C10)<=$B$3", "how " * 40],  # tall
     ["n", "=COUNT(1,2)", 2, "=B11-C11", "=ABS(B11-C11)<=$B$3", "line\nbreak\nthree\nfour"],
     ["  padded ", "=", "+1", None, None, "@SUM(A1)"],  # text that only looks like a formula

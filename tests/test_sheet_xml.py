@@ -440,8 +440,8 @@ def test_row_writer_equals_the_format_template_it_replaced(n, r, text):
 def test_a_written_workbook_leaves_no_cell_to_the_cyclic_collector(tmp_path):
     """sheet_xml.release: once write_workbook returns, its cells were freed by reference
     counting (each cell points back to its sheet; left as cycles, the collector would walk
-    them all after gc_paused). Python's gc module: DEBUG_SAVEALL keeps what a collection finds
-    unreachable in gc.garbage."""
+    them all after its pause). Python's gc module: DEBUG_SAVEALL keeps what a collection
+    finds unreachable in gc.garbage."""
     import gc
 
     from openpyxl.cell.cell import Cell, MergedCell

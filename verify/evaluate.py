@@ -11,9 +11,7 @@ finishes each characteristic (:mod:`verify.evaluate_finish`). The numbers come f
 
 from __future__ import annotations
 
-import gc
-
-from . import decide
+from . import collector, decide
 from .checks.drafting import replaced
 from .evaluate_diagnostics import diagnostics, joined_parts
 from .evaluate_finish import adjust, complete_batches, finish
@@ -47,15 +45,10 @@ def evaluate(
     # a burst of small objects (results, sentences, drafts) that reference counting frees: the
     # cyclic collector's passes over everything the process holds would cost about a tenth of
     # the evaluation (one full pass per dozen evaluations, each walking pandas' and scipy's
-    # state); it is paused here, as while a workbook is built, and its state restored once the
-    # drafts are gone (the first collection then walks the result, not the drafts as well)
-    collecting = gc.isenabled()
-    gc.disable()
-    try:
+    # state); it is paused here, as while a workbook is built (verify.collector), and its state
+    # restored once the drafts are gone (the first collection then walks the result only)
+    with collector.paused():
         return _evaluate(spec, measurements, final, run)
-    finally:
-        if collecting:
-            gc.enable()
 
 
 def _evaluate(spec: Spec, measurements: Measurements, final: bool, run: RunInfo) -> Evaluation:

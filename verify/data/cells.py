@@ -33,10 +33,22 @@ class _Sheet:
     origin: dict | None = None  # a SQL source: query, parameters, masked URL, server
 
 
-@cache
+_PANDAS_MAJOR = int(pd.__version__.split(".")[0])
+
+
 def _text_dtype():
-    """The dtype ``Series.astype(str)`` gives an object column: pandas' text dtype (an
-    extension dtype) from pandas 3 on, ``object`` before."""
+    """The dtype ``Series.astype(str)`` gives an object column now: pandas' text dtype (an
+    extension dtype) from pandas 3 on, ``object`` before. It follows pandas' options (the text
+    storage, pyarrow or python; pandas 2's ``future.infer_string``), so it is found once per
+    setting of those, not once per process."""
+    storage = pd.get_option("mode.string_storage")
+    # (pandas 3 always infers its text dtype and deprecates the option: not read there)
+    infer = pd.get_option("future.infer_string") if _PANDAS_MAJOR < 3 else True
+    return _text_dtype_for((storage, infer))
+
+
+@cache
+def _text_dtype_for(_options: tuple) -> object:
     return pd.Series(["a"], dtype=object).astype(str).dtype
 
 

@@ -126,8 +126,9 @@ class Body:
             all_cols.append(tuple(cols))
             all_rests.append(rests)
             all_texts.append(texts)
-            # (a formula is a str as well)
-            headings.append(bool(cols) and cols[0] == 1 and (len(cols) == 1 or cols[1] > 3))
+            # a block's heading: text (a formula is a str as well) in A, nothing in B and C
+            headings.append(bool(cols) and cols[0] == 1 and type(values[0]) is str
+                            and (len(cols) == 1 or cols[1] > 3))
         if formulas and ILLEGAL_CHARACTERS_RE.search("\n".join(formulas)):
             return None  # a control character openpyxl's own value check refuses
         return body

@@ -35,7 +35,6 @@ sheet keeps its order.
 from __future__ import annotations
 
 import contextlib
-import gc
 import math
 from collections.abc import Iterator
 from itertools import chain
@@ -399,35 +398,14 @@ def full_precision_numbers():
         _writer.safe_string = original
 
 
-@contextlib.contextmanager
-def gc_paused() -> Iterator[None]:
-    """Pause the cyclic garbage collector while a workbook is built and saved.
-
-    A workbook is tens of thousands of openpyxl objects made in a burst; the allocations set
-    off collections of the older generations, each walking every object the process holds
-    (the workbook, the evaluation, pandas' and scipy's module state). Measured on the nightly
-    benchmark's specs: about 7 collections of generation 1 and 0.6 full ones per workbook,
-    costing the string building here more than half its time. Nothing made here needs the
-    collector: reference counting frees it; cycles left over wait for the next collection.
-    Usable as a decorator; the collector's state before is restored.
-    """
-    enabled = gc.isenabled()
-    gc.disable()
-    try:
-        yield
-    finally:
-        if enabled:
-            gc.enable()
-
-
 def release(wb) -> None:
     """Take a saved workbook apart, so that reference counting frees it.
 
     Every cell, row dimension and merged range points back to its sheet, which holds them:
     cycles that only the cyclic collector frees, and it walks them all (about 77,000 objects
-    for a layout of 300 characteristics, ~15 ms) at its first collection after
-    :func:`gc_paused`. Emptying the sheets' containers breaks those cycles; the workbook
-    must not be used afterwards.
+    for a layout of 300 characteristics, ~15 ms) at its first collection after the pause
+    (:func:`verify.collector.paused`). Emptying the sheets' containers breaks those cycles;
+    the workbook must not be used afterwards.
     """
     for ws in wb._sheets:
         if hasattr(ws, "_cells"):

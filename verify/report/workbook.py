@@ -32,6 +32,7 @@ import datetime as dt
 from collections.abc import Iterator
 from pathlib import Path
 
+from .. import collector
 from ..model import Evaluation
 from .audit_sheet import write_audit
 from .cell_styles import cell_at, row_dimension, set_formula
@@ -51,7 +52,7 @@ from .layout import (
 from .measurements_sheet import add_placeholders, decimals_by_characteristic
 from .recheck import HELPER_HEADING, recheck_rows
 from .safe_text import escape_json_for_xml, has_xml_illegal, xml_safe_evaluation
-from .sheet_xml import gc_paused, release, save
+from .sheet_xml import release, save
 from .styles import StyleBook
 from .summary import DECISION_COLOURS, write_summary
 from .xlsx_fast import StreamedSheet, t_element
@@ -62,7 +63,7 @@ RECORD_CHUNK_COUNT_CELL = "B1"
 SPEC_LINE_COUNT_CELL = "C2"
 
 
-@gc_paused()  # (a burst of objects: see sheet_xml.gc_paused)
+@collector.paused()  # (a burst of objects: see verify.collector)
 def write_workbook(
     evaluation: Evaluation,
     path,
