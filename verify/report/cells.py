@@ -273,13 +273,9 @@ def quote_sheet(name: str) -> str:
     return "'" + name.replace("'", "''") + "'"
 
 
-def fit_rows(ws, *, line_height: float = 14.5) -> None:
-    """Give rows with wrapped text the height their text needs.
-
-    Spreadsheet programs do not grow rows on opening a file, so wrapped text would overlap the
-    next row. The estimate counts characters against the column width (merged cells: the
-    widths of the merged columns); a row keeps a larger height set earlier.
-    """
+def column_widths(ws):
+    """``width(col)``: the width of column number ``col`` of ``ws`` (8.43, the default, where
+    none is set), each column looked up once; what :func:`fit_rows` measures text against."""
     from openpyxl.utils import get_column_letter
 
     widths: dict[int, float] = {}
@@ -290,6 +286,18 @@ def fit_rows(ws, *, line_height: float = 14.5) -> None:
             w = ws.column_dimensions[get_column_letter(col)].width
             w = widths[col] = float(w) if w else 8.43
         return w
+
+    return width
+
+
+def fit_rows(ws, *, line_height: float = 14.5) -> None:
+    """Give rows with wrapped text the height their text needs.
+
+    Spreadsheet programs do not grow rows on opening a file, so wrapped text would overlap the
+    next row. The estimate counts characters against the column width (merged cells: the
+    widths of the merged columns); a row keeps a larger height set earlier.
+    """
+    width = column_widths(ws)
 
     spans = {}
     for rng in ws.merged_cells.ranges:

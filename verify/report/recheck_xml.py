@@ -36,7 +36,7 @@ from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.dimensions import RowDimension
 
 from .cell_styles import align_top, style
-from .cells import EXCEL_CELL_MAX, clean_text
+from .cells import EXCEL_CELL_MAX, clean_text, column_widths
 from .sheet_xml import _cdata, _row_head
 from .xlsx_fast import StreamedSheet
 
@@ -179,14 +179,7 @@ class Body:
         wb = ws.parent
         aligns, fonts = wb._alignments, wb._fonts
         memo = self._memo
-        col_widths: dict[int, float] = {}
-
-        def width(col: int) -> float:
-            w = col_widths.get(col)
-            if w is None:
-                w = ws.column_dimensions[get_column_letter(col)].width
-                w = col_widths[col] = float(w) if w else 8.43
-            return w
+        width = column_widths(ws)  # as fit_rows measures
 
         wrapping: dict[tuple, tuple | None] = {}  # (column, heading) -> (width, size) if wrapped
         lines_of: dict[tuple, int] = {}
