@@ -1,10 +1,11 @@
 """The recheck sheet's body written as XML rows, without a cell object per value.
 
-The recheck sheet of a large layout holds tens of thousands of rows of formulas (well over
-a hundred a characteristic in the benchmark layouts, with the lookup rows of its values). Written cell by cell (an openpyxl cell per value, styled, measured for its
-height, then serialized by :mod:`verify.report.sheet_xml`) it was the largest part of the
-workbook's cost per characteristic. :class:`Body` writes the rows below the column headings
-(from :data:`~verify.report.recheck_sheet.FIRST_BODY_ROW`) straight as the XML that route
+The recheck sheet of a large layout holds tens of thousands of rows of formulas (well over a
+hundred a characteristic in the benchmark layouts, with the lookup rows of its values).
+Written cell by cell (an openpyxl cell per value, styled, measured for its height, then
+serialized by :mod:`verify.report.sheet_xml`) it was the largest part of the workbook's cost
+per characteristic. :class:`Body` writes the rows below the column headings (from
+:data:`~verify.report.recheck_sheet.FIRST_BODY_ROW`) straight as the XML that route
 gives, byte for byte:
 
 - the cells: those holding a value, and the Agrees and How cells of every row, which the
