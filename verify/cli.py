@@ -1,7 +1,9 @@
 """Command line: parse arguments, call the library, map errors to exit statuses.
 
 Each subcommand is one ``add_<name>`` function (its arguments and help, ending with an example)
-and one ``cmd_<name>`` function (the work); :data:`COMMANDS` lists them for the dispatcher.
+and one ``cmd_<name>`` function (the work), here or in a module of its own (``cli_run``,
+``cli_nightly``, ``cli_plan``, ``cli_ledger``, loaded only when its command runs);
+:data:`COMMANDS` lists them for the dispatcher.
 Heavy libraries (numpy, scipy, pandas, openpyxl) are imported inside the command functions,
 so ``verify --help`` and argument errors stay fast.
 
@@ -12,6 +14,7 @@ on stderr; argparse's own usage errors are 2 as well).
 from __future__ import annotations
 
 import argparse
+import importlib
 import os
 import sys
 from collections.abc import Callable, Sequence
@@ -273,83 +276,32 @@ def cmd_completion(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
-# -- verify plan -------------------------------------------------------------------------------
+# -- commands in modules of their own: each module loads only when its command runs ----------
 
 
-def add_plan(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
-    from .cli_plan import add_plan as add
+def _elsewhere(module: str, name: str) -> Callable:
+    """``name`` of ``verify.<module>``, imported on the first call (``verify check`` then
+    imports none of run, replay, nightly, plan or ledger; nightly's ledger needs sqlite3)."""
 
-    return add(sub)
+    def call(arg):
+        return getattr(importlib.import_module(f".{module}", __package__), name)(arg)
 
-
-def cmd_plan(args: argparse.Namespace) -> int:
-    from .cli_plan import plan_main
-
-    return plan_main(args)
-
-
-# -- verify run, replay and ledger: their modules load only when one of them runs -------------
-
-
-def add_run(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
-    from .cli_run import add_run as add
-
-    return add(sub)
-
-
-def cmd_run(args: argparse.Namespace) -> int:
-    from .cli_run import cmd_run as run
-
-    return run(args)
-
-
-def add_replay(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
-    from .cli_run import add_replay as add
-
-    return add(sub)
-
-
-def cmd_replay(args: argparse.Namespace) -> int:
-    from .cli_run import cmd_replay as run
-
-    return run(args)
-
-
-def add_ledger(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
-    from .cli_ledger import add_ledger as add
-
-    return add(sub)
-
-
-def cmd_ledger(args: argparse.Namespace) -> int:
-    from .cli_ledger import cmd_ledger as run
-
-    return run(args)
+    call.__name__ = call.__qualname__ = name
+    return call
 
 
 # -- dispatcher -------------------------------------------------------------------------------
 
 # name -> (add the subparser, run the command); further commands register here
-def add_nightly(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
-    from .cli_nightly import add_nightly as add  # its ledger (sqlite3) loads only when asked for
-
-    return add(sub)
-
-
-def nightly_main(args: argparse.Namespace) -> int:
-    from .cli_nightly import nightly_main as run
-
-    return run(args)
-
-
 COMMANDS: dict[str, tuple[Callable, Callable[[argparse.Namespace], int]]] = {
     "check": (add_check, cmd_check),
     "schema": (add_schema, cmd_schema),
-    "run": (add_run, cmd_run),
-    "replay": (add_replay, cmd_replay),
-    "nightly": (add_nightly, nightly_main),
-    "plan": (add_plan, cmd_plan),
-    "ledger": (add_ledger, cmd_ledger),
+    "run": (_elsewhere("cli_run", "add_run"), _elsewhere("cli_run", "cmd_run")),
+    "replay": (_elsewhere("cli_run", "add_replay"), _elsewhere("cli_run", "cmd_replay")),
+    "nightly": (_elsewhere("cli_nightly", "add_nightly"),
+                _elsewhere("cli_nightly", "nightly_main")),
+    "plan": (_elsewhere("cli_plan", "add_plan"), _elsewhere("cli_plan", "plan_main")),
+    "ledger": (_elsewhere("cli_ledger", "add_ledger"), _elsewhere("cli_ledger", "cmd_ledger")),
     "completion": (add_completion, cmd_completion),
 }
 
