@@ -7,7 +7,7 @@ import os
 import sys
 from pathlib import Path
 
-from .cli_args import add_max_data_mb, parsed_number  # noqa: F401 - importable from here too
+from .cli_args import add_max_data_mb
 from .errors import UsageError, VerifyError
 from .output import say
 
