@@ -95,15 +95,13 @@ def _mean_sds(rows: list[np.ndarray], x: np.ndarray, n: int) -> None:
     """core.mean_sd of each row of ``x`` (finite, within core.MAX_MAGNITUDE), remembered for
     its sample: the corrected two-pass sums along C-contiguous rows (as the 1-D sums add),
     the scalar steps in the same Python arithmetic."""
+    if n < 2:
+        return  # (rows that vary have 2 values or more; the one-sample route has the rest)
     total = np.add.reduce(x, axis=1)
     m = total / n
     d = np.ascontiguousarray(x - m[:, None])
     m = m + np.add.reduce(d, axis=1) / n  # second-pass correction of the mean
     means = m.tolist()
-    if n < 2:
-        for a, mean in zip(rows, means, strict=True):
-            _memo.remember("mean_sd", a, (n, mean, math.nan))
-        return
     d = np.ascontiguousarray(x - m[:, None])
     squares = np.add.reduce(d * d, axis=1).tolist()
     sums = np.add.reduce(d, axis=1).tolist()
