@@ -163,8 +163,9 @@ class CapabilityResult:
         and a target are given.
     cp_interval, cpk_interval, cpm_interval, pp_interval, ppk_interval : Interval or None
         Two-sided intervals at ``level`` (forms in the module docstring), computed when read;
-        None where the index is None. They take n - 1 df for every sigma, as qcc prints them;
-        the lower bounds below use the effective df of sigma_within for Cpk.
+        None where the index is None. They take n - 1 df for every sigma (the forms of the
+        module docstring; tests/test_stats_capability.py checks them against published
+        values); the lower bounds below use the effective df of sigma_within for Cpk.
     """
 
     n: int
