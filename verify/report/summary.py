@@ -491,7 +491,7 @@ def _characteristic_row(
     kinds: list[str],
     sheet: str | None,
     decimals: int | None,
-    boxed: dict | None = None,
+    boxed: dict,
 ) -> None:
     """One characteristic's row of the table. ``boxed`` remembers, for this workbook, the
     style each starting style ends with once boxed and aligned to the top (each distinct step
@@ -533,7 +533,7 @@ def _characteristic_row(
         cell = ws.cell(row, j)
         start = cell._style
         key = None if start is None else start.tobytes()
-        done = boxed.get(key) if boxed is not None else None
+        done = boxed.get(key)
         if done is not None:  # the same steps from the same style give the same style
             cell._style = StyleArray(done)
             continue
@@ -542,5 +542,4 @@ def _characteristic_row(
         if a.vertical is None:
             style(cell, align=shared_alignment(vertical="top", horizontal=a.horizontal,
                                                wrap_text=a.wrap_text))
-        if boxed is not None:
-            boxed[key] = StyleArray(cell._style)
+        boxed[key] = StyleArray(cell._style)
