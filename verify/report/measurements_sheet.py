@@ -187,7 +187,8 @@ def _row_generator(rows: pd.DataFrame, styles: StyleBook, decimals: dict,
                 rows.iloc[start:stop], start, stop, keys, text_cols, value_style, styles
             )
             row_no = map(str, rows["row"].to_numpy()[start:stop].tolist())
-            yield "".join(map(row_xml, row_no, *columns))
+            # (strict: a column of another length is an error, never rows cut short)
+            yield "".join([row_xml(*cells) for cells in zip(row_no, *columns, strict=True)])
 
     return generate
 

@@ -168,8 +168,8 @@ class _Walker:
             atoms, walk = _ATOMS, self.walk
             for name in names:
                 old = getattr(obj, name)
-                t = type(old)
-                if t in atoms or (t is str and not _UNSAFE_SEARCH(old)):
+                kind = type(old)
+                if kind in atoms or (kind is str and not _UNSAFE_SEARCH(old)):
                     continue
                 new = walk(old)
                 if new is not old:
