@@ -383,24 +383,34 @@ def page_setup(
     one_page: bool = False,
     footer: str = "",
     title_rows: str | None = None,
+    title_cols: str | None = None,
+    scale: int | None = None,
     row_breaks=(),
     margins: tuple[float, float] = (0.4, 0.5),
 ) -> None:
     """How a sheet prints: orientation, fit to the page width (and height for ``one_page``),
-    repeated header rows, margins, and a footer naming the sheet and the page.
+    repeated header rows (and columns), margins, and a footer naming the sheet and the page.
 
-    ``row_breaks`` are rows after which a new page starts (kept blocks, charts).
+    ``scale`` (percent) prints at that scale instead of fitting the page width, the pages
+    across in turn before the next rows (the repeated columns ``title_cols`` name a row on each
+    page). ``row_breaks`` are rows after which a new page starts (kept blocks, charts).
     """
     from openpyxl.worksheet.pagebreak import Break
 
     if area:
         ws.print_area = area
     ws.page_setup.orientation = "landscape" if landscape else "portrait"
-    ws.page_setup.fitToWidth = 1
-    ws.page_setup.fitToHeight = 1 if one_page else 0
-    ws.sheet_properties.pageSetUpPr.fitToPage = True
+    if scale is None:
+        ws.page_setup.fitToWidth = 1
+        ws.page_setup.fitToHeight = 1 if one_page else 0
+        ws.sheet_properties.pageSetUpPr.fitToPage = True
+    else:
+        ws.page_setup.scale = scale
+        ws.page_setup.pageOrder = "overThenDown"
     if title_rows:
         ws.print_title_rows = title_rows
+    if title_cols:
+        ws.print_title_cols = title_cols
     side, top = margins
     ws.page_margins.left = ws.page_margins.right = side
     ws.page_margins.top = top

@@ -14,6 +14,8 @@ from .cell_styles import style
 from .cells import MUTED
 
 _EXCLUDED_FONT = Font(italic=True, color=MUTED)
+_TOP = Alignment(vertical="top")
+_TOP_WRAP = Alignment(vertical="top", wrap_text=True)
 
 
 class StyleBook:
@@ -52,6 +54,10 @@ class StyleBook:
             font=_EXCLUDED_FONT if excluded else None,
             align=Alignment(horizontal="center"),
         )
+
+    def top(self, *, fmt: str | None = None, wrap: bool = False) -> int:
+        """Read from the top of a tall row (text wrapped if ``wrap``); ``fmt`` for a number."""
+        return self._get(("top", fmt, wrap), fmt=fmt, align=_TOP_WRAP if wrap else _TOP)
 
     def mono(self) -> int:
         return self._get(("mono",), font=Font(name="Courier New"))
