@@ -52,7 +52,11 @@ def _openpyxl_save(wb, _worksheet_writer=None) -> bytes:
 
 
 def _reference_save(wb, path: Path) -> None:
-    """openpyxl's writer for every cell (no streaming), then the same splice."""
+    """openpyxl's writer for every cell (no streaming), then the same splice; the sheets'
+    outline levels set as the save sets them (openpyxl leaves outlineLevelRow out: tested on
+    its own in test_outline_levels_*)."""
+    for ws in wb.worksheets:
+        sheet_xml.outline_levels(ws)
     with full_precision_numbers():
         package = _openpyxl_save(wb)
     splice(package, [], path, timestamp=STAMP)
@@ -457,3 +461,68 @@ def test_a_written_workbook_leaves_no_cell_to_the_cyclic_collector(tmp_path):
         gc.set_debug(0)
         gc.garbage.clear()
     assert left == 0
+
+
+# --- outline levels ---------------------------------------------------------------------------
+
+def _outline_claims(xml: bytes) -> tuple[int, int | None, int | None, int]:
+    """(highest row outlineLevel, sheetFormatPr's outlineLevelRow, its outlineLevelCol,
+    highest column outlineLevel) of a sheet's XML; None where the attribute is absent."""
+    rows = [int(x) for x in re.findall(rb'<row [^>]*outlineLevel="(\d+)"', xml)]
+    cols = [int(x) for x in re.findall(rb'<col [^>]*outlineLevel="(\d+)"', xml)]
+    fmt = re.search(rb"<sheetFormatPr[^>]*>", xml).group()
+    row_attr = re.search(rb'outlineLevelRow="(\d+)"', fmt)
+    col_attr = re.search(rb'outlineLevelCol="(\d+)"', fmt)
+    return (max(rows, default=0), row_attr and int(row_attr.group(1)),
+            col_attr and int(col_attr.group(1)), max(cols, default=0))
+
+
+@pytest.mark.parametrize(("body", "detail"), [("rows", "auto"), ("cells", "auto"),
+                                              ("rows", "compact")])
+def test_outline_levels_of_every_sheet_are_its_rows_highest(tmp_path, monkeypatch, body,
+                                                            detail):
+    """ECMA-376 Part 1, 18.3.1.81 (sheetFormatPr): outlineLevelRow is the highest outline
+    level of the sheet's rows (Excel draws the group buttons from it). The recheck sheet folds
+    its helper rows at level 1, its body written as XML rows or as cells; no other sheet has
+    outline rows, and none gets the attribute."""
+    ev = make_evaluation("all", seed=5)
+    path = tmp_path / "wb.xlsx"
+    if body == "cells":
+        monkeypatch.setattr(recheck_xml.Body, "build", classmethod(lambda cls, *a, **k: None))
+    write_workbook(ev, path, record_json='{"format": "verify-result/1"}', detail=detail)
+    grouped = 0
+    with zipfile.ZipFile(path) as z:
+        for name in z.namelist():
+            if not name.startswith("xl/worksheets/sheet"):
+                continue
+            highest, row_attr, col_attr, cols = _outline_claims(z.read(name))
+            assert row_attr == (highest or None), name
+            assert col_attr == (cols or None), name
+            grouped += highest > 0
+    assert grouped == 1  # the recheck sheet
+
+
+def test_outline_levels_where_openpyxl_writes_the_sheet_whole_and_of_columns(tmp_path):
+    """Rows at levels 1 and 2 on a sheet left to openpyxl whole (a comment) and on a streamed
+    one, grouped columns: outlineLevelRow and outlineLevelCol are the highest levels
+    (ECMA-376 Part 1, 18.3.1.81); a sheet without outline has neither."""
+    wb = openpyxl.Workbook()
+    whole = wb.active
+    put(whole, 1, 1, "x")
+    whole["B2"].comment = Comment("a note", "verify")
+    streamed = wb.create_sheet("Streamed")
+    plain = wb.create_sheet("Plain")
+    for ws in (whole, streamed):
+        for r in range(3, 9):
+            put(ws, r, 1, r)
+        ws.row_dimensions.group(3, 8, outline_level=1)
+        ws.row_dimensions.group(5, 6, outline_level=2, hidden=True)
+    streamed.column_dimensions.group("B", "C", outline_level=1)
+    put(plain, 1, 1, "nothing grouped")
+    save(wb, [], tmp_path / "o.xlsx", timestamp=STAMP)
+    assert not _streamed(tmp_path / "o.xlsx", 1) and _streamed(tmp_path / "o.xlsx", 2)
+    with zipfile.ZipFile(tmp_path / "o.xlsx") as z:
+        claims = [_outline_claims(z.read(f"xl/worksheets/sheet{n}.xml")) for n in (1, 2, 3)]
+    assert claims == [(2, 2, None, 0), (2, 2, 1, 1), (0, None, None, 0)]
+    back = openpyxl.load_workbook(tmp_path / "o.xlsx")["Streamed"]
+    assert back.sheet_format.outlineLevelRow == 2 and back.sheet_format.outlineLevelCol == 1

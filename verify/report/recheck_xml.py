@@ -287,7 +287,8 @@ class Body:
         yield "".join(out)
 
     def streamed(self, title: str, dimension: str) -> StreamedSheet:
-        return StreamedSheet(title, self.rows, dimension, register=self.register)
+        return StreamedSheet(title, self.rows, dimension, register=self.register,
+                             outline_rows=1 if self.folded else 0)
 
 
 def _shape_writer(tail: str, cells: list[tuple]) -> Callable[..., str]:

@@ -313,6 +313,27 @@ def _worksheet_writer():
     return Writer
 
 
+def outline_levels(ws, placeholder: StreamedSheet | None = None) -> None:
+    """Give the sheet's ``<sheetFormatPr>`` the highest outline level of its rows
+    (``outlineLevelRow``: its row dimensions' and, for a placeholder, its streamed rows') and
+    of its columns (``outlineLevelCol``); none where nothing is grouped.
+
+    ECMA-376 Part 1, 18.3.1.81 (sheetFormatPr): outlineLevelRow and outlineLevelCol are the
+    highest outline levels of the rows and of the columns in the sheet; Excel draws the outline
+    (group) buttons from them, so rows given an ``outlineLevel`` without it fold but show no
+    button to unfold them. openpyxl's writer writes outlineLevelRow only when
+    ``ws.sheet_format.outlineLevelRow`` is set, and outlineLevelCol from the column
+    dimensions' ``max_outline``, which it finds only when it writes the columns, after the
+    sheetFormatPr (None at a workbook's first save): both are set here, before the save.
+    """
+    level = max((d.outlineLevel or 0 for d in ws.row_dimensions.values()), default=0)
+    if placeholder is not None:
+        level = max(level, placeholder.outline_rows)
+    ws.sheet_format.outlineLevelRow = level or None
+    cols = max((d.outlineLevel or 0 for d in ws.column_dimensions.values()), default=0)
+    ws.column_dimensions.max_outline = cols or None
+
+
 def _register_streamed(sheet: StreamedSheet, styles: _Styles) -> None:
     """Let a streamed sheet register its rows' styles, after those of the sheet's cells."""
     if sheet.register is not None:
@@ -433,6 +454,9 @@ def save(wb, streamed: list[StreamedSheet], path, *, timestamp) -> None:
     timestamp : datetime
         The run's start (UTC): every zip entry's time and the document's times.
     """
+    by_title = {s.title: s for s in streamed}
+    for ws in wb.worksheets:
+        outline_levels(ws, by_title.get(ws.title))
     with full_precision_numbers(), stream_cells(wb, streamed) as sheets:
         package = openpyxl_package(wb, _worksheet_writer())
     splice(package, sheets, path, timestamp=timestamp)

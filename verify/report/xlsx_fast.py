@@ -80,12 +80,15 @@ class StreamedSheet:
     function that gives a cell style's ``s`` attribute (registering the style in the
     workbook), after the styles of the cells openpyxl holds for the sheet and before ``rows``:
     rows whose styles are registered in sheet order, as openpyxl's writer registers them.
+    ``outline_rows`` is the highest ``outlineLevel`` among the rows (0: none), for the sheet's
+    ``<sheetFormatPr outlineLevelRow>`` (:func:`verify.report.sheet_xml.outline_levels`).
     """
 
     title: str
     rows: Callable[[], Iterable[str]]
     dimension: str
     register: Callable[[Callable], None] | None = None
+    outline_rows: int = 0
 
 
 def _sheet_parts(zin: zipfile.ZipFile) -> dict[str, str]:
