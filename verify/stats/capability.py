@@ -43,6 +43,7 @@ from scipy import special
 
 from . import _memo
 from ._checks import check_level
+from ._frozen import fast_init
 from .core import Interval, mean_sd
 from .errors import DegenerateDataError, NotApplicableError
 from .range_constants import D2_TABLE, d2, d3
@@ -129,6 +130,7 @@ def boyles_df(n: int, a: float) -> float:
     return n * (1.0 + a2) ** 2 / (1.0 + 2.0 * a2)
 
 
+@fast_init
 @dataclass(frozen=True)
 class CapabilityResult:
     """Capability indices with confidence intervals.

@@ -22,6 +22,7 @@ import numpy as np
 from scipy import special
 
 from ._checks import check_harmful, check_margins, finite, positive
+from ._frozen import fast_init
 from .core import check_alternative, t_cdf, t_quantile
 from .errors import NotApplicableError
 from .noncentral import _clip01
@@ -46,6 +47,7 @@ MAX_N = 100_000
 WINDOW = (2, 1)
 
 
+@fast_init
 @dataclass(frozen=True)
 class SampleSize:
     """Smallest lot sizes that reach a target power.

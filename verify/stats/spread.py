@@ -18,6 +18,7 @@ from scipy import special
 
 from . import _memo
 from ._checks import check_alpha, check_level
+from ._frozen import fast_init
 from .core import Interval, check_alternative, confidence_interval, mean_sd, p_value, require_spread
 from .errors import DegenerateDataError, NotApplicableError
 from .samples import finite_values, median
@@ -29,6 +30,7 @@ def _f_quantile(p: float, dfn: float, dfd: float) -> float:
     return float(special.fdtri(dfn, dfd, p))
 
 
+@fast_init
 @dataclass(frozen=True)
 class VarianceRatioResult:
     """F-test for the ratio of two variances, new over old.
@@ -171,6 +173,7 @@ def f_test(
 # --- Brown-Forsythe -------------------------------------------------------------------------
 
 
+@fast_init
 @dataclass(frozen=True)
 class BrownForsytheResult:
     """Brown-Forsythe test (median-centred Levene) for two groups, old and new.
