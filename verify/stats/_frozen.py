@@ -22,7 +22,6 @@ import dataclasses
 import keyword
 
 
-
 class _Factory:
     """The default of an argument whose field has a default factory (shown as the dataclass
     shows it)."""
