@@ -66,7 +66,10 @@ def _stacked(rows: list[np.ndarray], n: int) -> None:
     lo, hi = np.minimum.reduce(x, axis=1), np.maximum.reduce(x, axis=1)
     ok = (-MAX_MAGNITUDE <= lo) & (hi <= MAX_MAGNITUDE) & (lo != hi)
     if ok.any():
-        _mean_sds([r for r, good in zip(rows, ok.tolist(), strict=True) if good], x[ok], n)
+        good_rows = [r for r, good in zip(rows, ok.tolist(), strict=True) if good]
+        for r in good_rows:  # every value finite (a NaN or an infinity fails the bounds):
+            _memo.remember("finite", r, True)  # what samples.finite_values checks
+        _mean_sds(good_rows, x[ok], n)
     keep = []
     for r, good in enumerate(ok.tolist()):
         if good:
