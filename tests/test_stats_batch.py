@@ -148,6 +148,31 @@ def test_batched_signed_ranks_at_small_and_large_n():
     _memo.forget()
 
 
+def test_batched_signed_ranks_with_zero_differences():
+    """Rows with some values equal to the target are ranked in the batch too (their non-zero
+    differences, grouped by how many), equal to the one-sample route, which drops the zeros
+    before ranking; a row of zeros only is left to that route and its error."""
+    from verify.stats.nonparametric import signed_rank_about, wilcoxon_signed_rank
+
+    rng = np.random.default_rng(17)
+    xs = []
+    for zeros in (0, 1, 1, 2, 5, 29, 30):
+        x = np.round(rng.normal(10.0, 0.01, 30), 4)
+        x[rng.choice(30, zeros, replace=False)] = 10.0
+        xs.append(x)
+    xs.append(np.round(rng.normal(10.0, 0.01, 30), 2))  # ties and zeros together
+    frozen = [_memo.freeze(x.copy()) for x in xs]
+    _memo.forget()
+    batch.prefetch_ranks([("signed_rank", f, 10.0) for f in frozen])
+    batched = [_memo.recall("signed_rank", f) is not None for f in frozen]
+    assert batched == [True] * 6 + [False, True]  # all but the row of zeros only
+    for x, f in zip(xs, frozen, strict=True):
+        for alt in ("two-sided", "less", "greater"):
+            assert _batched(signed_rank_about, f, target=10.0, alternative=alt) == \
+                _plain(wilcoxon_signed_rank, x - 10.0, alternative=alt)
+    _memo.forget()
+
+
 @pytest.mark.parametrize(("n_old", "n_new"), [(30, 30), (12, 20), (2, 3), (60, 55)])
 def test_batched_rank_sums_equal_the_one_sample_route(n_old, n_new):
     from verify.stats.nonparametric import mann_whitney

@@ -108,6 +108,14 @@ def test_remembered_lot_codes_equal_the_plain_ones_and_stay_intact():
     assert not codes.flags.writeable
     with pytest.raises(ValueError, match="give one label per value"):
         group_codes(lots, 11)
+    # the same tuple object again is found by identity: the same codes, a list of its own
+    first, second = group_codes(lots, 12), group_codes(lots, 12)
+    assert first[1] is second[1] is codes and first[0] == second[0] == plain_labels
+    assert first[0] is not second[0]
+    # a tuple of other labels is never served another tuple's codes
+    other = tuple(f"M{i % 3}" for i in range(12))
+    assert group_codes(other, 12)[0] == ["M0", "M1", "M2"]
+    assert group_codes(lots, 12)[0] == plain_labels
 
 
 def test_labels_that_are_not_text_keep_their_own_objects():

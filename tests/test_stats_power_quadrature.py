@@ -151,6 +151,14 @@ def test_many_questions_in_one_pass_equal_one_at_a_time():
     questions.append(dict(questions[0], true_shift=0.05))  # outside the margins: no n
     questions.append(dict(questions[0], sd=-1.0))  # a bad sd: neither figure
     questions.append(dict(questions[-3], sd_old=0.01, design="pooled", n_old=5))
+    # lot sizes the power refuses while the sample size stands: no power, a sample size
+    by_design = {q["design"]: q for q in questions[:48]}
+    questions += [dict(by_design["one-sample"], n_new=1),
+                  dict(by_design["one-sample"], n_old=12),
+                  dict(by_design["paired"], n_old=by_design["paired"]["n_new"] + 1),
+                  dict(by_design["welch"], n_old=None),
+                  dict(by_design["pooled"], n_new=7.5),
+                  dict(by_design["pooled"], n_new=8.0)]  # a whole float counts
     together = power.plan_tost_many(questions)
     for q, (pw, size) in zip(questions, together, strict=True):
         ref_pw, ref_size = _one_at_a_time(q)
@@ -160,4 +168,6 @@ def test_many_questions_in_one_pass_equal_one_at_a_time():
         if size is not None:
             assert (size.n_new, size.n_old) == (ref_size.n_new, ref_size.n_old)
             assert size.power == pytest.approx(ref_size.power, abs=1e-15)
-    assert together[-3][1] is None and together[-2] == (None, None)
+    assert together[-9][1] is None and together[-8] == (None, None)
+    assert [pw is None for pw, _ in together[-6:]] == [True] * 5 + [False]
+    assert all(size is not None for _, size in together[-6:])

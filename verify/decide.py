@@ -21,6 +21,7 @@ import math
 from dataclasses import dataclass
 
 from .model import DECISION_ORDER
+from .stats._frozen import fast_init
 
 CAUTION = (
     "These statistical results support, and never replace, the engineering and quality review "
@@ -96,6 +97,7 @@ def margin_words(low: float, high: float, unit: str = "") -> str:
     return f"{fmt(low)}..+{fmt(high)}{u}"
 
 
+@fast_init
 @dataclass(frozen=True)
 class Verdict:
     outcome: str

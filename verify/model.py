@@ -11,6 +11,8 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Literal
 
+from .stats._frozen import fast_init
+
 if TYPE_CHECKING:  # pandas is heavy; only needed for annotations here
     import pandas as pd
 
@@ -79,6 +81,7 @@ class Measurements:
         return sel.sort_values("order", kind="stable")["value"].to_numpy(dtype=float)
 
 
+@fast_init
 @dataclass(frozen=True)
 class ProcessSummary:
     process: str  # "old" | "new"
@@ -132,6 +135,7 @@ class CheckDetails:
         return out
 
 
+@fast_init
 @dataclass(frozen=True)
 class CheckResult:
     """One check of one characteristic, with its outcome and reason in words."""
@@ -169,6 +173,7 @@ class CheckResult:
         return {} if self.details is None else self.details.as_mapping()
 
 
+@fast_init
 @dataclass(frozen=True)
 class DiagnosticResult:
     name: str  # "normality", "outliers", "lot effect", "lot count", "stability", "resolution", ...
@@ -181,6 +186,7 @@ class DiagnosticResult:
     extra: Mapping[str, float | int | str | None] = field(default_factory=dict)
 
 
+@fast_init
 @dataclass(frozen=True)
 class StreamResult:
     """One stream (cavity, spindle, machine) of the new process against the old process."""
@@ -193,6 +199,7 @@ class StreamResult:
     checks: tuple[CheckResult, ...]
 
 
+@fast_init
 @dataclass(frozen=True)
 class CharacteristicResult:
     name: str

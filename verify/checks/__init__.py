@@ -37,6 +37,8 @@ from dataclasses import dataclass
 from functools import cache
 from types import ModuleType
 
+_HOOK_NAMES: dict[tuple[str, str], str] = {}  # (package, topic) -> the hook module's name
+
 
 @dataclass(frozen=True)
 class CheckKind:
@@ -62,7 +64,9 @@ class CheckKind:
 
     def hook(self, topic: str) -> ModuleType:
         """The kind's module for one topic (``"compute"``, ``"rule"``, ``"recheck"``, ...)."""
-        name = f"{__name__}.{self.package}.{topic}"
+        name = _HOOK_NAMES.get((self.package, topic))
+        if name is None:
+            name = _HOOK_NAMES[(self.package, topic)] = f"{__name__}.{self.package}.{topic}"
         # a loaded module straight from sys.modules: import_module's machinery costs more than
         # the lookup, and an evaluation asks for hooks thousands of times
         mod = sys.modules.get(name)
@@ -90,10 +94,12 @@ def kinds() -> tuple[CheckKind, ...]:
 
 def kind(name: str) -> CheckKind:
     """The kind called ``name``; KeyError when no kind has that name."""
-    for k in kinds():
-        if k.name == name:
-            return k
-    raise KeyError(name)
+    return _by_name()[name]
+
+
+@cache
+def _by_name() -> dict[str, CheckKind]:
+    return {k.name: k for k in kinds()}
 
 
 def names(measures: str | None = None) -> tuple[str, ...]:

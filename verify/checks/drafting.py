@@ -22,6 +22,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
+from ..stats._frozen import fast_init
 from ..stats.errors import DegenerateDataError, NotApplicableError
 
 if TYPE_CHECKING:  # annotations only: keep this module light
@@ -43,6 +44,7 @@ def finite(x) -> float | None:
     return x if math.isfinite(x) else None
 
 
+@fast_init
 @dataclass(frozen=True)
 class Stream:
     """The used measurements of one named stream of one characteristic.
@@ -70,6 +72,7 @@ class Stream:
     counts: Any = None
 
 
+@fast_init
 @dataclass(frozen=True)
 class Comparison:
     """A candidate stream against the declared reference stream.
@@ -84,6 +87,7 @@ class Comparison:
     spread_pairs: Any = None
 
 
+@fast_init
 @dataclass(frozen=True)
 class CheckInput:
     """Everything a kind's ``compute.draft`` may read for one characteristic."""

@@ -12,8 +12,10 @@ import pandas as pd
 
 from ..model import Measurements
 from ..spec_model import Spec
+from ..stats._frozen import fast_init
 
 
+@fast_init
 @dataclass(frozen=True)
 class AnalysisValues:
     """The values one check analyses for one characteristic and process.

@@ -26,7 +26,10 @@ _CACHE: dict[tuple[str, int], tuple[object, object]] = {}
 
 def frozen(x: object) -> bool:
     """Whether ``x`` is a float array that cannot change: read-only and owning its data."""
-    return type(x) is np.ndarray and not x.flags.writeable and x.flags.owndata
+    if type(x) is not np.ndarray:
+        return False
+    flags = x.flags  # (a new flags object on every access)
+    return not flags.writeable and flags.owndata
 
 
 def recall(topic: str, x: object):

@@ -66,7 +66,10 @@ def _stacked(rows: list[np.ndarray], n: int) -> None:
     lo, hi = np.minimum.reduce(x, axis=1), np.maximum.reduce(x, axis=1)
     ok = (-MAX_MAGNITUDE <= lo) & (hi <= MAX_MAGNITUDE) & (lo != hi)
     if ok.any():
-        _mean_sds([r for r, good in zip(rows, ok.tolist(), strict=True) if good], x[ok], n)
+        good_rows = [r for r, good in zip(rows, ok.tolist(), strict=True) if good]
+        for r in good_rows:  # every value finite (a NaN or an infinity fails the bounds):
+            _memo.remember("finite", r, True)  # what samples.finite_values checks
+        _mean_sds(good_rows, x[ok], n)
     keep = []
     for r, good in enumerate(ok.tolist()):
         if good:
@@ -310,8 +313,8 @@ def prefetch_ranks(requests) -> None:
     ``("brown_forsythe", old, new)`` (the sums :func:`~verify.stats.spread.brown_forsythe` reads:
     the absolute deviations from each sample's median, their means and sum of squares), for
     read-only samples; anything else, and any row the one-sample route would treat apart
-    (non-finite values, zero differences, identical values, values near the float floor), is
-    left to the one-sample route.
+    (non-finite values, differences that are all zero, identical values, values near the
+    float floor), is left to the one-sample route.
     """
     signed: dict[tuple, list] = {}
     pairs: dict[tuple, list] = {}
@@ -392,34 +395,45 @@ def _row_medians(v: np.ndarray) -> list[float]:
 
 
 def _signed_ranks(rows: list[tuple[np.ndarray, float]], n: int) -> None:
+    """nonparametric._signed_rank_core (zeros dropped) of each ``x - target``, for samples of
+    one length: the rows ranked together, those with zero differences in groups of the same
+    number of non-zero ones (each row's non-zero differences, in order, ranked as the
+    one-sample route ranks them); a row of zeros only is left to that route and its error."""
     x = np.stack([r[0] for r in rows])
     d = x - np.array([r[1] for r in rows])[:, None]  # x - target, element by element
     units, ok = _snapped(d)
     ok &= np.logical_and.reduce(np.isfinite(d), axis=1)
-    ok &= np.logical_and.reduce(units != 0, axis=1)  # a zero difference: the one-sample route
+    nonzero = units != 0
+    n_nonzero = np.add.reduce(nonzero, axis=1)
+    ok &= n_nonzero > 0
     if not ok.any():
         return
-    d, units = d[ok], units[ok]
+    d, units, nonzero, n_nonzero = d[ok], units[ok], nonzero[ok], n_nonzero[ok]
     rows = [r for r, good in zip(rows, ok.tolist(), strict=True) if good]
-    ranks, size, new_value = _average_ranks(np.abs(units))
-    # the ranks are halves far below 2^53: their sum is exact in any order
-    w_plus = np.where(units > 0, ranks, 0.0).sum(axis=1).tolist()
-    groups, tied_values = _ties(size, new_value)
     estimates = [None] * len(rows)
-    if n * (n + 1) // 2 <= nonparametric.HL_MAX_PAIRS:
+    if n * (n + 1) // 2 <= nonparametric.HL_MAX_PAIRS:  # the Walsh averages of all n
         i, j = nonparametric._upper_pairs(n)
         estimates = _row_medians((d[:, i] + d[:, j]) / 2.0)
-    fn = float(n)
-    for r, (x_r, target) in enumerate(rows):
-        exact = groups[r] == 0  # n <= EXACT_MAX_N and no zeros here
-        mean = se = None
-        if not exact:
-            mean = fn * (fn + 1.0) * 0.25
-            var = fn * (fn + 1.0) * (2.0 * fn + 1.0)
-            se = nonparametric._signed_rank_se(var, size[r][new_value[r]])
-        _memo.remember("signed_rank", x_r, (target, nonparametric._SignedRank(
-            float(w_plus[r]), n, 0, int(groups[r]), int(tied_values[r]), bool(exact), n, mean,
-            se, estimates[r], "wilcox")))
+    counts = n_nonzero.tolist()
+    for m in sorted(set(counts)):
+        idx = [r for r, c in enumerate(counts) if c == m]
+        u = units[idx] if m == n else units[idx][nonzero[idx]].reshape(len(idx), m)
+        ranks, size, new_value = _average_ranks(np.abs(u))
+        # the ranks are halves far below 2^53: their sum is exact in any order
+        w_plus = np.where(u > 0, ranks, 0.0).sum(axis=1).tolist()
+        groups, tied_values = _ties(size, new_value)
+        fm = float(m)
+        for k, r in enumerate(idx):
+            x_r, target = rows[r]
+            exact = groups[k] == 0  # m <= n <= EXACT_MAX_N
+            mean = se = None
+            if not exact:
+                mean = fm * (fm + 1.0) * 0.25
+                var = fm * (fm + 1.0) * (2.0 * fm + 1.0)
+                se = nonparametric._signed_rank_se(var, size[k][new_value[k]])
+            _memo.remember("signed_rank", x_r, (target, nonparametric._SignedRank(
+                float(w_plus[k]), m, n - m, int(groups[k]), int(tied_values[k]), bool(exact),
+                m, mean, se, estimates[r], "wilcox")))
 
 
 def _rank_sums(rows: list[tuple[np.ndarray, np.ndarray]], n_old: int, n_new: int) -> None:

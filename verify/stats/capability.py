@@ -43,12 +43,19 @@ from scipy import special
 
 from . import _memo
 from ._checks import check_level
+from ._frozen import fast_init
 from .core import Interval, mean_sd
 from .errors import DegenerateDataError, NotApplicableError
 from .range_constants import D2_TABLE, d2, d3
 from .samples import finite_values, group_codes
 
 ArrayLike = Sequence[float] | np.ndarray
+
+
+@lru_cache(maxsize=64)  # the same level for every characteristic of a layout
+def _z(p: float) -> float:
+    """The standard normal p-quantile."""
+    return float(special.ndtri(p))
 
 
 @lru_cache(maxsize=1024)  # the same few quantiles for every characteristic of a layout
@@ -72,14 +79,14 @@ def bissell_se(index: float, n: int) -> float:
 def bissell_interval(index: float, n: int, level: float) -> Interval:
     """Bissell's normal-approximation interval for Cpk (or Ppk)."""
     check_level(level)
-    half = float(special.ndtri(0.5 + level / 2.0)) * bissell_se(index, n)
+    half = _z(0.5 + level / 2.0) * bissell_se(index, n)
     return Interval(index - half, index + half, level)
 
 
 def bissell_lower_bound(index: float, n: int, level: float = 0.95) -> float:
     """One-sided lower confidence bound for Cpk (or Ppk): index - z_level * se."""
     check_level(level)
-    return index - float(special.ndtri(level)) * bissell_se(index, n)
+    return index - _z(level) * bissell_se(index, n)
 
 
 def capability_lower_bound(index: float, n: int, df: float, level: float = 0.95) -> float:
@@ -92,7 +99,7 @@ def capability_lower_bound(index: float, n: int, df: float, level: float = 0.95)
     if not df > 0:
         raise DegenerateDataError("the sigma estimate has no degrees of freedom")
     se = math.sqrt(1.0 / (9.0 * n) + index * index / (2.0 * df))
-    return index - float(special.ndtri(level)) * se
+    return index - _z(level) * se
 
 
 # Moments of the absolute difference of neighbours, sigma = 1: D = X2 - X1 ~ N(0, 2),
@@ -129,6 +136,7 @@ def boyles_df(n: int, a: float) -> float:
     return n * (1.0 + a2) ** 2 / (1.0 + 2.0 * a2)
 
 
+@fast_init
 @dataclass(frozen=True)
 class CapabilityResult:
     """Capability indices with confidence intervals.

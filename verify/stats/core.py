@@ -17,6 +17,7 @@ import numpy as np
 from scipy import special
 
 from . import _memo
+from ._frozen import fast_init
 from .errors import DegenerateDataError
 
 Alternative = Literal["two-sided", "less", "greater"]
@@ -29,6 +30,7 @@ def check_alternative(alternative: str) -> str:
     return alternative
 
 
+@fast_init
 @dataclass(frozen=True)
 class Interval:
     """A confidence interval or bound. One-sided bounds have an infinite other end."""
@@ -71,6 +73,7 @@ def p_value(statistic: float, df: float, alternative: str) -> float:
     return min(1.0, 2.0 * t_cdf(-abs(statistic), df))
 
 
+@fast_init
 @dataclass(frozen=True)
 class TTestResult:
     """Result of a t-test, whatever the design.

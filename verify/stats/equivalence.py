@@ -17,6 +17,7 @@ from dataclasses import dataclass
 
 from ._checks import HARMFUL_SIDES as HARMFUL_SIDES  # public here: the sides `harmful` takes
 from ._checks import check_alpha, check_harmful, check_margins, finite
+from ._frozen import fast_init
 from .core import Interval, check_se_df, confidence_interval, t_cdf, t_sf
 from .errors import DegenerateDataError
 from .ttests import Effect, effect, effect_from_stats
@@ -35,6 +36,7 @@ def _estimate(v: float) -> float:
     return f
 
 
+@fast_init
 @dataclass(frozen=True)
 class EquivalenceResult:
     """Result of a TOST equivalence test.

@@ -27,12 +27,14 @@ import numpy as np
 from scipy import special
 
 from . import _memo, distributions
+from ._frozen import fast_init
 from .core import mean_sd
 from .errors import DegenerateDataError, NotApplicableError
 
 ArrayLike = Sequence[float] | np.ndarray
 
 
+@fast_init
 @dataclass(frozen=True)
 class BeyondLimits:
     """Counts beyond each limit and the model's expectation.

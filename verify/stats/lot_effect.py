@@ -8,11 +8,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ._frozen import fast_init
 from .errors import NotApplicableError
 from .one_way import one_way
 from .samples import finite_values, group_codes, group_sizes
 
 
+@fast_init
 @dataclass(frozen=True)
 class LotEffectResult:
     """One-way ANOVA across lots, with the share of variance between lots.

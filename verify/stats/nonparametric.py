@@ -31,6 +31,7 @@ import numpy as np
 from scipy import special
 
 from . import _memo
+from ._frozen import fast_init
 from .core import check_alternative
 from .errors import DegenerateDataError
 from .samples import finite_values, median, snap_to_grid
@@ -44,6 +45,7 @@ HL_MAX_PAIRS = 4_000_000
 ZERO_METHODS = ("wilcox", "pratt")
 
 
+@fast_init
 @dataclass(frozen=True)
 class RankTestResult:
     """Result of a rank test.
@@ -285,6 +287,7 @@ def signed_rank_about(x: ArrayLike, target: float, *, alternative: str = "two-si
     return wilcoxon_signed_rank(np.asarray(x, dtype=float) - target, alternative=alternative)
 
 
+@fast_init
 @dataclass(frozen=True)
 class _SignedRank:
     """What the signed-rank test derives from the differences, whatever the alternative."""
@@ -407,6 +410,7 @@ def mann_whitney(
                                      _shift_median(a, b)), alternative)
 
 
+@fast_init
 @dataclass(frozen=True)
 class _RankSum:
     """What the rank-sum test derives from the two samples, whatever the alternative."""

@@ -12,11 +12,13 @@ import numpy as np
 from scipy import special
 
 from . import _memo
+from ._frozen import fast_init
 from .core import mean_sd
 from .errors import DegenerateDataError, NotApplicableError
 from .samples import finite_values
 
 
+@fast_init
 @dataclass(frozen=True)
 class NormalityResult:
     """A test of the hypothesis that the values come from a normal distribution.

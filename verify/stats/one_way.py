@@ -12,9 +12,11 @@ import numpy as np
 from scipy import special
 
 from . import _memo
+from ._frozen import fast_init
 from .errors import DegenerateDataError
 
 
+@fast_init
 @dataclass(frozen=True)
 class OneWay:
     """Mean squares and the F-test of a one-way layout.

@@ -12,6 +12,7 @@ from scipy import special
 
 from . import _memo
 from ._checks import check_alpha
+from ._frozen import fast_init
 from .core import ALTERNATIVES, check_alternative, mean_sd, require_spread
 from .errors import NotApplicableError
 from .samples import finite_values
@@ -23,6 +24,7 @@ def _grubbs_critical(n: int, alpha: float, alternative: str) -> float:
     return (n - 1) / math.sqrt(n) * math.sqrt(t * t / (n - 2 + t * t))
 
 
+@fast_init
 @dataclass(frozen=True)
 class GrubbsResult:
     """Grubbs test for one outlier. It flags the suspect value; it never removes it.

@@ -10,9 +10,11 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import _memo
+from ._frozen import fast_init
 from .samples import RESOLUTION_DIGITS, finite_values, snap_to_grid
 
 
+@fast_init
 @dataclass(frozen=True)
 class ResolutionResult:
     """How finely the values were recorded.

@@ -22,12 +22,14 @@ import numpy as np
 from scipy import special
 
 from ._checks import check_harmful, check_margins, finite, positive
+from ._frozen import fast_init
 from .core import check_alternative, t_cdf, t_quantile
 from .errors import NotApplicableError
 from .noncentral import _clip01
 from .power_of_tests import (
     DEFAULT_POWER,
     _alpha,
+    _count,
     _plan,
     _target_power,
     _tau_df,
@@ -46,6 +48,7 @@ MAX_N = 100_000
 WINDOW = (2, 1)
 
 
+@fast_init
 @dataclass(frozen=True)
 class SampleSize:
     """Smallest lot sizes that reach a target power.
@@ -405,6 +408,23 @@ class _TostSize(_Search):
         return _clip01(t_cdf((self.hi - self.delta) / tau - c, df)
                        - t_cdf((self.lo - self.delta) / tau + c, df))
 
+    def own_case(self, n_new: object, n_old: object) -> tuple:
+        """(delta, low, high, tau, df, alpha) of the power at the question's own lot sizes: the
+        count checks of :func:`~verify.stats.power_of_tests._plan` (ValueError as there), its
+        other checks made in __init__ already."""
+        n1 = _count(n_new, "n_new")
+        if self.design in ("one-sample", "paired"):
+            if n_old is not None and (self.design == "one-sample"
+                                      or _count(n_old, "n_old") != n1):
+                raise ValueError(f"n_old does not fit the {self.design} design")
+            n2 = None
+        elif n_old is None:
+            raise ValueError(f"the {self.design} design needs n_old")
+        else:
+            n2 = _count(n_old, "n_old")
+        tau, df = self._tau_df(n1, n2)
+        return self.delta, self.lo, self.hi, tau, df, self.a
+
     def case(self, n: int) -> tuple:
         """(delta, low, high, tau, df, alpha) of the exact power at n_new = n."""
         tau, df = self._tau_df(n, old_size(self.design, n, self.ratio))
@@ -449,13 +469,21 @@ def _guesses(setups: list[_TostSize]) -> list[int | None]:
     out: list[int | None] = [None] * len(setups)
     searches = {i: _search(q.design, q.ratio, q.target) for i, q in enumerate(setups)}
     asked = {i: next(g) for i, g in searches.items()}
+    # the powers each search was given: asked again (the last check that one fewer falls
+    # short asks a size the bisection met), it is sent the same float without a new round
+    known: dict[int, dict[int, float]] = {i: {} for i in searches}
     while asked:
         ids = list(asked)
         powers = _approx_many([setups[i] for i in ids], [asked[i] for i in ids])
-        asked = {}
+        before, asked = asked, {}
         for i, p in zip(ids, powers, strict=True):
+            seen = known[i]
+            seen[before[i]] = p
             try:
-                asked[i] = searches[i].send(p)
+                n = searches[i].send(p)
+                while n in seen:
+                    n = searches[i].send(seen[n])
+                asked[i] = n
             except StopIteration as stop:
                 out[i] = stop.value.n_new
             except NotApplicableError:
@@ -492,19 +520,22 @@ def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, SampleSize
     setups: list[tuple[int, _TostSize]] = []
     for i, q in enumerate(questions):
         try:
-            a = _alpha(q["alpha"], 0.5)
-            delta = finite(q["true_shift"], "true_shift")
-            lo, hi = check_margins(q["low"], q["high"])
-            tau, df = _plan(q["design"], q["sd"], q["n_new"], q["n_old"], q["sd_old"])
-            cases.append((delta, lo, hi, tau, df, a))
-            owners.append((i, None))
+            setup = _TostSize(q["true_shift"], q["sd"], design=q["design"], alpha=q["alpha"],
+                              low=q["low"], high=q["high"], power=q["power"],
+                              ratio=q["ratio"], sd_old=q["sd_old"])
+            setups.append((i, setup))
         except (StatsError, ValueError):
-            pass
+            setup = None
         try:
-            setups.append((i, _TostSize(q["true_shift"], q["sd"], design=q["design"],
-                                        alpha=q["alpha"], low=q["low"], high=q["high"],
-                                        power=q["power"], ratio=q["ratio"],
-                                        sd_old=q["sd_old"])))
+            if setup is not None:  # the power's inputs validated with the question's
+                cases.append(setup.own_case(q["n_new"], q["n_old"]))
+            else:  # (e.g. a shift outside the margins: a power, but no sample size)
+                a = _alpha(q["alpha"], 0.5)
+                delta = finite(q["true_shift"], "true_shift")
+                lo, hi = check_margins(q["low"], q["high"])
+                tau, df = _plan(q["design"], q["sd"], q["n_new"], q["n_old"], q["sd_old"])
+                cases.append((delta, lo, hi, tau, df, a))
+            owners.append((i, None))
         except (StatsError, ValueError):
             pass
     # every question's guess by the approximation, the searches run in step; then from each

@@ -41,15 +41,24 @@ def group_codes(labels: object, n: int, what: str = "lot labels") -> tuple[list,
     The codes of a tuple of text labels are remembered by content, read-only: the statistics
     of a sample's lots share them, and so do the characteristics measured on the same parts."""
     if type(labels) is tuple:
-        hit = _CODES.get(labels)
+        # the same tuple object again (a stream's lots, read by several statistics): found by
+        # identity, without hashing its labels; the entry holds the tuple, so its id stays its
+        same = _CODES_OF.get(id(labels))
+        hit = same[1] if same is not None and same[0] is labels else _CODES.get(labels)
         if hit is None:
             hit = _group_codes(labels, n, what)
             if all(type(v) is str for v in labels):  # equal only if the same text
                 hit[1].flags.writeable = False
                 if len(_CODES) >= 256:
                     _CODES.clear()
+                    _CODES_OF.clear()
                 _CODES[labels] = hit
+                _CODES_OF[id(labels)] = (labels, hit)
             return list(hit[0]), hit[1]
+        if same is None or same[0] is not labels:
+            if len(_CODES_OF) >= _CODES_OF_MAX:
+                _CODES_OF.clear()
+            _CODES_OF[id(labels)] = (labels, hit)
         if hit[1].size != n:
             _group_codes(labels, n, what)  # raises: the labels do not match the values
         return list(hit[0]), hit[1]
@@ -57,6 +66,8 @@ def group_codes(labels: object, n: int, what: str = "lot labels") -> tuple[list,
 
 
 _CODES: dict[tuple, tuple[list, np.ndarray]] = {}
+_CODES_OF: dict[int, tuple[tuple, tuple[list, np.ndarray]]] = {}  # id -> (the tuple, its codes)
+_CODES_OF_MAX = 4096  # a few tuples per characteristic: a large layout's, bounded
 
 
 def group_sizes(codes: np.ndarray, k: int) -> np.ndarray:

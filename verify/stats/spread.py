@@ -12,12 +12,14 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 from scipy import special
 
 from . import _memo
 from ._checks import check_alpha, check_level
+from ._frozen import fast_init
 from .core import Interval, check_alternative, confidence_interval, mean_sd, p_value, require_spread
 from .errors import DegenerateDataError, NotApplicableError
 from .samples import finite_values, median
@@ -25,10 +27,12 @@ from .samples import finite_values, median
 ArrayLike = Sequence[float] | np.ndarray
 
 
+@lru_cache(maxsize=1024)  # the same few quantiles for every characteristic of a layout
 def _f_quantile(p: float, dfn: float, dfd: float) -> float:
     return float(special.fdtri(dfn, dfd, p))
 
 
+@fast_init
 @dataclass(frozen=True)
 class VarianceRatioResult:
     """F-test for the ratio of two variances, new over old.
@@ -66,20 +70,24 @@ class VarianceRatioResult:
     def df(self) -> tuple[int, int]:
         return (self.df_num, self.df_den)
 
-    def confidence_interval(self, level: float = 0.95) -> Interval:
+    def confidence_interval(self, level: float = 0.95, alternative: str | None = None
+                            ) -> Interval:
         """Interval for the sd ratio sigma_new / sigma_old matching the alternative.
 
         From F / ratio^2 ~ F(df_num, df_den): two-sided
         [sqrt(F / F_(1+level)/2), sqrt(F / F_(1-level)/2)]; ``"greater"``: a lower bound
         [sqrt(F / F_level), +inf); ``"less"``: an upper bound [0, sqrt(F / F_(1-level))].
+        ``alternative`` asks for another alternative's interval on the same F (the interval
+        depends on F and its df alone); by default the test's own.
         """
         check_level(level)
         f, a, b = self.statistic, self.df_num, self.df_den
-        if self.alternative == "two-sided":
+        alternative = self.alternative if alternative is None else check_alternative(alternative)
+        if alternative == "two-sided":
             lo = math.sqrt(f / _f_quantile(0.5 + level / 2.0, a, b))
             hi = math.sqrt(f / _f_quantile(0.5 - level / 2.0, a, b))
             return Interval(lo, hi, level)
-        if self.alternative == "greater":
+        if alternative == "greater":
             return Interval(math.sqrt(f / _f_quantile(level, a, b)), math.inf, level)
         return Interval(0.0, math.sqrt(f / _f_quantile(1.0 - level, a, b)), level)
 
@@ -171,6 +179,7 @@ def f_test(
 # --- Brown-Forsythe -------------------------------------------------------------------------
 
 
+@fast_init
 @dataclass(frozen=True)
 class BrownForsytheResult:
     """Brown-Forsythe test (median-centred Levene) for two groups, old and new.

@@ -12,12 +12,14 @@ import numpy as np
 from scipy import special
 
 from . import _memo
+from ._frozen import fast_init
 from .core import mean_sd, require_spread
 from .errors import DegenerateDataError
 from .range_constants import D2_TABLE
 from .samples import finite_values
 
 
+@fast_init
 @dataclass(frozen=True)
 class StabilityResult:
     """Individuals chart limits and run statistics, in production order.

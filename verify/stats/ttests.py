@@ -31,6 +31,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import _memo
+from ._frozen import fast_init
 from .core import (
     MAX_MAGNITUDE,
     TTestResult,
@@ -61,6 +62,7 @@ def check_design(design: str) -> str:
     return design
 
 
+@fast_init
 @dataclass(frozen=True)
 class Effect:
     """The estimated effect of a design with its standard error and degrees of freedom.

@@ -28,6 +28,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ._frozen import fast_init
 from .core import Interval, check_alternative
 from .errors import DegenerateDataError, NotApplicableError
 from .one_way import one_way
@@ -37,6 +38,7 @@ from .spread import f_test_from_stats
 ArrayLike = Sequence[float] | np.ndarray
 
 
+@fast_init
 @dataclass(frozen=True)
 class VarianceComponentsResult:
     """Within-lot and between-lot variance components of one process.

@@ -6,8 +6,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from ...model import CheckDetails
+from ...stats._frozen import fast_init
 
 
+@fast_init
 @dataclass(frozen=True)
 class CapabilityDetails(CheckDetails):
     """Cp, Cpk, Pp, Ppk, Cpm of the new parts with the sigmas behind them, and the criterion

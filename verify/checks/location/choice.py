@@ -18,6 +18,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Literal
 
+from ...stats._frozen import fast_init
+
 TestKind = Literal["equivalence", "non-inferiority", "difference"]
 
 EQUIVALENCE: TestKind = "equivalence"
@@ -28,6 +30,7 @@ DIFFERENCE: TestKind = "difference"
 ALTERNATIVES = {"two-sided": "two-sided", "lower": "less", "upper": "greater"}
 
 
+@fast_init
 @dataclass(frozen=True)
 class TestChoice:
     """The test of one location check.

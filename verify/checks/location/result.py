@@ -5,8 +5,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from ...model import CheckDetails
+from ...stats._frozen import fast_init
 
 
+@fast_init
 @dataclass(frozen=True)
 class LocationDetails(CheckDetails):
     """The sizes and sd behind a target or shift test, and with a margin its one-sided tests.

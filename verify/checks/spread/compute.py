@@ -45,7 +45,8 @@ def draft(kind, inp: CheckInput) -> Draft:
     pv = inp.data.spread_pairs
     note = ""
     what = "sd ratio new/old"
-    desc = None  # the F-test beside a Brown-Forsythe decision, descriptive only
+    desc = None  # the F-test beside a Brown-Forsythe decision, descriptive only (its
+    # two-sided interval)
     try:
         if pv is not None:
             r = pitman_morgan(pv.old, pv.new, alternative="greater")
@@ -87,7 +88,6 @@ def draft(kind, inp: CheckInput) -> Draft:
             if ref.values is None:
                 raise DegenerateDataError("no old-process values")
             f = spread.f_test(ref.values, cand.values, alternative="greater")
-            f_two = spread.f_test(ref.values, cand.values, alternative="two-sided")
             details = TwoSampleSpreadDetails(df_num=f.df_num, df_den=f.df_den, F=f.statistic)
             design = "two-sample"
             if conf.design_given and spec.data.pair is not None:
@@ -109,13 +109,13 @@ def draft(kind, inp: CheckInput) -> Draft:
 
                 def interval(level, _b=b_two):
                     return _b.confidence_interval(level)
-                desc = f_two
+                desc = f
             else:
                 method, stat, df, est, p = f.method, f.statistic, float(f.df_num), f.estimate, \
                     f.pvalue
 
-                def interval(level, _f=f_two):
-                    return _f.confidence_interval(level)
+                def interval(level, _f=f):  # the two-sided interval on the same F
+                    return _f.confidence_interval(level, alternative="two-sided")
     except CANNOT_COMPUTE as err:
         dr = cannot_compute(kind.name, "spread test", hyp, err)
         dr.family = True
@@ -135,7 +135,7 @@ def draft(kind, inp: CheckInput) -> Draft:
         found["ci"], found["level"] = (ci.low, ci.high), level
         out = dict(ci_low=ci.low, ci_high=finite(ci.high), ci_level=level)
         if desc is not None:
-            dci = desc.confidence_interval(level)
+            dci = desc.confidence_interval(level, alternative="two-sided")
             out["details"] = replace(details, sd_ratio_low_descriptive=dci.low,
                                      sd_ratio_high_descriptive=finite(dci.high))
         return out

@@ -5,6 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from ...model import CheckDetails
+from ...stats._frozen import fast_init
 
 
 @dataclass(frozen=True)
@@ -31,6 +32,7 @@ class LotSpreadDetails(CheckDetails):
     compared: str
 
 
+@fast_init
 @dataclass(frozen=True)
 class TwoSampleSpreadDetails(CheckDetails):
     """The two samples: the F-test's df and statistic; with Brown-Forsythe deciding, its mean
