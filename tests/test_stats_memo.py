@@ -4,7 +4,7 @@
   (``verify.stats._memo``); the remembered answer must equal the plain computation bit for bit
   and a writeable array must never be remembered (it may change).
 - The codes of a tuple of text lot labels are remembered by content.
-- The TOST sample-size searches of many questions run in step (``sample_size._guesses``,
+- The TOST sample-size searches of many questions run in step (``sample_size_many._guesses``,
   ``_approx_many``, ``plan_tost_many``): each answer must equal the one-at-a-time search's.
 - ``checks.drafting.replaced`` copies a frozen result as ``dataclasses.replace`` does.
 - ``checks.drafting.diagnostic`` builds a DiagnosticResult as its constructor does.
@@ -24,7 +24,7 @@ import pytest
 from verify.checks import drafting
 from verify.checks.drafting import diagnostic, not_applicable, replaced
 from verify.model import CheckResult, DiagnosticResult
-from verify.stats import _memo, nonparametric, sample_size
+from verify.stats import _memo, nonparametric, sample_size, sample_size_many
 from verify.stats import variance_components as vc
 from verify.stats.core import mean_sd
 from verify.stats.diagnostics import lot_effect
@@ -145,14 +145,34 @@ def _setups(seed: int, count: int):
 def test_searches_in_step_give_each_guess_exactly():
     setups = _setups(11, 60)
     assert len(setups) > 40
-    assert sample_size._guesses(setups) == [q.guess() for q in setups]
+    assert sample_size_many._guesses(setups) == [q.guess() for q in setups]
+
+
+def test_the_setup_table_gives_each_setups_own_floats():
+    """The arrays of many setups (sample_size_many._Table): (tau, df), approximate powers and
+    exact-power cases at many lot sizes equal each setup's own methods element by element, for
+    every design and ratio (n_old by old_size)."""
+    setups = _setups(5, 80)
+    table = sample_size_many._Table(setups)
+    rng = np.random.default_rng(6)
+    idx = rng.integers(0, len(setups), 300)
+    ns = [int(n) for n in rng.choice([2, 3, 4, 5, 7, 8, 13, 30, 31, 200, 5001], 300)]
+    tau, df = table.tau_df(idx, ns)
+    cases = table.cases(idx, ns)
+    approx = table.approx(idx, ns)
+    for j, (i, n) in enumerate(zip(idx.tolist(), ns, strict=True)):
+        q = setups[i]
+        assert (tau[j], df[j]) == q._tau_df(n, sample_size.old_size(q.design, n, q.ratio))
+        assert tuple(cases[:, j].tolist()) == q.case(n)
+        assert approx[j] == q.approx_at(n, sample_size.old_size(q.design, n, q.ratio))
+    assert {q.design for q in setups} == {"one-sample", "paired", "pooled", "welch"}
 
 
 def test_approximate_powers_together_equal_one_at_a_time():
     setups = _setups(12, 40)
     ns = [2, 3, 5, 8, 13, 30, 200, 5000] * 5
     ns = ns[:len(setups)]
-    together = sample_size._approx_many(setups, ns)
+    together = sample_size_many._approx_many(setups, ns)
     singly = [q.approx_at(n, sample_size.old_size(q.design, n, q.ratio))
               for q, n in zip(setups, ns, strict=True)]
     assert together == singly
@@ -170,7 +190,7 @@ def test_tost_planning_together_equals_the_one_at_a_time_search_exactly():
             n_old=None if design == "one-sample" else (n if design == "paired" else n + 2),
             design=design, alpha=0.05, low=-0.02, high=0.02, power=float(rng.choice([0.8, 0.9])),
             ratio=1.0, sd_old=float(rng.uniform(0.0005, 0.03)) if design == "welch" else None))
-    together = sample_size.plan_tost_many(questions)
+    together = sample_size_many.plan_tost_many(questions)
     for q, (pw, size) in zip(questions, together, strict=True):
         try:
             ref = sample_size.sample_size_tost(

@@ -6,7 +6,8 @@ The public face of the planning statistics; the code lives by topic:
   shifted-t approximation), the power of the non-inferiority test, the detectable shift;
   the conventions for ``sd``, ``tau`` and the degrees of freedom of each design;
 * :mod:`verify.stats.sample_size`: the smallest lot sizes reaching a target power, one search
-  skeleton for the three tests, and many TOST questions in one pass;
+  skeleton for the three tests; :mod:`verify.stats.sample_size_many`: many TOST questions in
+  one pass;
 * :mod:`verify.stats.noncentral`: the noncentral t distribution (never NaN) and the
   distribution of the sample sd the exact TOST power integrates over.
 
@@ -31,11 +32,11 @@ from .power_of_tests import (
 from .sample_size import (
     MAX_N,
     SampleSize,
-    plan_tost_many,
     sample_size_noninferiority,
     sample_size_t,
     sample_size_tost,
 )
+from .sample_size_many import plan_tost_many
 from .ttests import DESIGNS
 
 __all__ = [

@@ -19,7 +19,6 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import special
 
 from ._checks import check_harmful, check_margins, finite, positive
 from ._frozen import fast_init
@@ -30,7 +29,6 @@ from .power_of_tests import (
     DEFAULT_POWER,
     _alpha,
     _count,
-    _plan,
     _target_power,
     _tau_df,
     _tost_power_many,
@@ -441,56 +439,6 @@ class _TostSize(_Search):
             return None
 
 
-def _approx_many(setups: list[_TostSize], ns: list[int]) -> list[float]:
-    """:meth:`_TostSize.approx_at` of each setup at its n_new, the t distribution's functions
-    called once for all (the same arithmetic element by element, so the same values)."""
-    taus, dfs = [], []
-    for q, n in zip(setups, ns, strict=True):
-        tau, df = q._tau_df(n, old_size(q.design, n, q.ratio))
-        taus.append(tau)
-        dfs.append(df)
-    df = np.array(dfs)
-    if not np.isfinite(df).all():  # t_quantile and t_cdf switch to the normal there
-        return [q.approx_at(n, old_size(q.design, n, q.ratio))
-                for q, n in zip(setups, ns, strict=True)]
-    tau = np.array(taus)
-    c = special.stdtrit(df, np.array([1.0 - q.a for q in setups]))
-    p = special.stdtr(df, np.array([q.hi - q.delta for q in setups]) / tau - c) \
-        - special.stdtr(df, np.array([q.lo - q.delta for q in setups]) / tau + c)
-    # _clip01 of each: min(1, max(0, p)), a NaN becoming 0 as there
-    p = np.clip(p, 0.0, 1.0)
-    p[np.isnan(p)] = 0.0
-    return p.tolist()
-
-
-def _guesses(setups: list[_TostSize]) -> list[int | None]:
-    """:meth:`_TostSize.guess` of every setup: the searches run in step, each step's
-    approximate powers computed together (:func:`_approx_many`)."""
-    out: list[int | None] = [None] * len(setups)
-    searches = {i: _search(q.design, q.ratio, q.target) for i, q in enumerate(setups)}
-    asked = {i: next(g) for i, g in searches.items()}
-    # the powers each search was given: asked again (the last check that one fewer falls
-    # short asks a size the bisection met), it is sent the same float without a new round
-    known: dict[int, dict[int, float]] = {i: {} for i in searches}
-    while asked:
-        ids = list(asked)
-        powers = _approx_many([setups[i] for i in ids], [asked[i] for i in ids])
-        before, asked = asked, {}
-        for i, p in zip(ids, powers, strict=True):
-            seen = known[i]
-            seen[before[i]] = p
-            try:
-                n = searches[i].send(p)
-                while n in seen:
-                    n = searches[i].send(seen[n])
-                asked[i] = n
-            except StopIteration as stop:
-                out[i] = stop.value.n_new
-            except NotApplicableError:
-                out[i] = None
-    return out
-
-
 def _tost_power_cases(cases: list[tuple]) -> np.ndarray:
     """Exact TOST power for cases (delta, low, high, tau, df, alpha) in one pass."""
     if not cases:
@@ -499,97 +447,10 @@ def _tost_power_cases(cases: list[tuple]) -> np.ndarray:
     return _tost_power_many(cols[0], cols[1], cols[2], cols[3], cols[4], cols[5])
 
 
-def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, SampleSize | None]]:
-    """:func:`power_tost` and :func:`sample_size_tost` for many questions in one pass.
-
-    Each question is a dict of the keyword arguments both take (``true_shift``, ``sd``,
-    ``n_new``, ``n_old``, ``design``, ``alpha``, ``low``, ``high``, ``sd_old``) plus the target
-    ``power`` and ``ratio`` of the sample-size search. Returns (power, sample size) per
-    question, each equal to the one-at-a-time call's result, or None where that call raises a
-    :class:`~verify.stats.errors.StatsError` or ``ValueError``. The questions' searches run in
-    step: each step's approximate powers are computed together, then each step's exact powers
-    (the walk from each guess, and the powers at the questions' own lot sizes) are integrated
-    together, which costs far less than one pass per question and integrates only the lot
-    sizes a walk asks for.
-    """
-    from .errors import StatsError
-
-    cases: list[tuple] = []
-    owners: list[tuple[int, int | None]] = []  # (question, n) per case; n None: the power
-    sizes: list[tuple[int, _TostSize]] = []
-    setups: list[tuple[int, _TostSize]] = []
-    for i, q in enumerate(questions):
-        try:
-            setup = _TostSize(q["true_shift"], q["sd"], design=q["design"], alpha=q["alpha"],
-                              low=q["low"], high=q["high"], power=q["power"],
-                              ratio=q["ratio"], sd_old=q["sd_old"])
-            setups.append((i, setup))
-        except (StatsError, ValueError):
-            setup = None
-        try:
-            if setup is not None:  # the power's inputs validated with the question's
-                cases.append(setup.own_case(q["n_new"], q["n_old"]))
-            else:  # (e.g. a shift outside the margins: a power, but no sample size)
-                a = _alpha(q["alpha"], 0.5)
-                delta = finite(q["true_shift"], "true_shift")
-                lo, hi = check_margins(q["low"], q["high"])
-                tau, df = _plan(q["design"], q["sd"], q["n_new"], q["n_old"], q["sd_old"])
-                cases.append((delta, lo, hi, tau, df, a))
-            owners.append((i, None))
-        except (StatsError, ValueError):
-            pass
-    # every question's guess by the approximation, the searches run in step; then from each
-    # guess the walks with the exact power run in step too, each round's powers integrated
-    # together (the powers at the questions' own lot sizes join the first round)
-    powers: list[float | None] = [None] * len(questions)
-    walks: dict[int, tuple] = {}  # question -> (setup, walk, n asked)
-    for (i, setup), n0 in zip(setups, _guesses([s for _, s in setups]), strict=True):
-        if n0 is not None:
-            walk = _steps(n0, setup.target, _n_max(setup.design, setup.ratio))
-            walks[i] = (setup, walk, next(walk))
-        sizes.append((i, setup))
-    found: dict[int, tuple[int, float] | None] = {}
-    while walks:
-        for i, (setup, _, n) in walks.items():
-            cases.append(setup.case(n))
-            owners.append((i, n))
-        values = _tost_power_cases(cases).tolist()
-        asked = {}
-        for (i, n), v in zip(owners, values, strict=True):
-            if n is None:
-                powers[i] = v
-                continue
-            setup, walk, _ = walks[i]
-            try:
-                asked[i] = (setup, walk, walk.send(v))
-            except StopIteration as stop:
-                found[i] = stop.value
-        walks = asked
-        cases, owners = [], []
-    if cases:  # no walk at all: only the powers at the questions' lot sizes
-        for (i, _), v in zip(owners, _tost_power_cases(cases).tolist(), strict=True):
-            powers[i] = v
-    results: list[SampleSize | None] = [None] * len(questions)
-    for i, setup in sizes:
-        hit = found.get(i)
-        try:
-            if hit is not None:
-                n, p = hit
-                results[i] = SampleSize(n_new=n, n_old=old_size(setup.design, n, setup.ratio),
-                                        power=p, target_power=setup.target)
-            else:  # no guess, or the guess too far off: the plain search with the exact power
-                results[i] = _smallest_n(setup.power_at, setup.design, setup.ratio,
-                                         setup.target)
-        except (StatsError, ValueError):
-            results[i] = None
-    return list(zip(powers, results, strict=True))
-
-
 __all__ = [
     "MAX_N",
     "SampleSize",
     "old_size",
-    "plan_tost_many",
     "sample_size_noninferiority",
     "sample_size_t",
     "sample_size_tost",

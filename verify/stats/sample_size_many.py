@@ -1,0 +1,242 @@
+"""TOST power and sample size for many questions at once: the power at each question's own lot
+sizes and the smallest lot sizes reaching its target power, for all characteristics of an
+evaluation in one pass (:func:`plan_tost_many`).
+
+Each answer equals the one-at-a-time call's (:func:`~verify.stats.power_of_tests.power_tost`,
+:func:`~verify.stats.sample_size.sample_size_tost`). The searches on the shifted-t approximation
+run in step, each step's approximate powers computed together (:func:`_guesses`); the walks from
+their answers with the exact power run in step too, each round's powers integrated together.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from scipy import special
+
+from ._checks import check_margins, finite
+from .errors import NotApplicableError
+from .power_of_tests import _alpha, _plan, _tost_power_many
+from .sample_size import (
+    SampleSize,
+    _n_max,
+    _search,
+    _smallest_n,
+    _steps,
+    _TostSize,
+    old_size,
+)
+
+
+def _approx_many(setups: list[_TostSize], ns: list[int]) -> list[float]:
+    """:meth:`_TostSize.approx_at` of each setup at its n_new, the t distribution's functions
+    called once for all (the same arithmetic element by element, so the same values)."""
+    taus, dfs = [], []
+    for q, n in zip(setups, ns, strict=True):
+        tau, df = q._tau_df(n, old_size(q.design, n, q.ratio))
+        taus.append(tau)
+        dfs.append(df)
+    df = np.array(dfs)
+    if not np.isfinite(df).all():  # t_quantile and t_cdf switch to the normal there
+        return [q.approx_at(n, old_size(q.design, n, q.ratio))
+                for q, n in zip(setups, ns, strict=True)]
+    tau = np.array(taus)
+    c = special.stdtrit(df, np.array([1.0 - q.a for q in setups]))
+    p = special.stdtr(df, np.array([q.hi - q.delta for q in setups]) / tau - c) \
+        - special.stdtr(df, np.array([q.lo - q.delta for q in setups]) / tau + c)
+    # _clip01 of each: min(1, max(0, p)), a NaN becoming 0 as there
+    p = np.clip(p, 0.0, 1.0)
+    p[np.isnan(p)] = 0.0
+    return p.tolist()
+
+
+_ONE, _POOLED, _WELCH = 0, 1, 2  # how a design's (tau, df) is computed (_Table.tau_df)
+
+
+class _Table:
+    """Validated setups as arrays: their (tau, df), approximate powers and exact-power cases at
+    many (setup, n_new) at once. Every element is the float the setup's own methods give: the
+    same operations on the same floats, element by element (the Welch tau by math.hypot and
+    its variance share's square by the float power, one at a time, as there)."""
+
+    def __init__(self, setups: list[_TostSize]):
+        self.setups = setups
+        self.kind = np.array([_WELCH if q.design == "welch" else _POOLED if q.design == "pooled"
+                              else _ONE for q in setups], dtype=np.int8)
+        self.s1 = np.array([q.s1 for q in setups], dtype=float)
+        self.s2 = np.array([q.s2 if q.design == "welch" else np.nan for q in setups],
+                           dtype=float)
+        self.ratio = np.array([q.ratio for q in setups], dtype=float)
+        self.delta = np.array([q.delta for q in setups], dtype=float)
+        self.lo = np.array([q.lo for q in setups], dtype=float)
+        self.hi = np.array([q.hi for q in setups], dtype=float)
+        self.a = np.array([q.a for q in setups], dtype=float)
+
+    def tau_df(self, idx: np.ndarray, ns: list[int]) -> tuple[np.ndarray, np.ndarray]:
+        """:meth:`_TostSize._tau_df` of setup ``idx[j]`` at n_new ``ns[j]`` (n_old by
+        :func:`old_size`)."""
+        n = np.array(ns, dtype=float)
+        kind = self.kind[idx]
+        tau, df = np.empty(n.size), np.empty(n.size)
+        one = kind == _ONE  # one-sample and paired: s1 / sqrt(n), n - 1
+        if one.any():
+            tau[one] = self.s1[idx[one]] / np.sqrt(n[one])
+            df[one] = n[one] - 1.0
+        pooled = kind == _POOLED  # s1 sqrt(1/n1 + 1/n2), n1 + n2 - 2
+        if pooled.any():
+            n1 = n[pooled]
+            n2 = np.maximum(2.0, np.ceil(n1 / self.ratio[idx[pooled]] - 1e-9))  # old_size
+            tau[pooled] = self.s1[idx[pooled]] * np.sqrt(1.0 / n1 + 1.0 / n2)
+            df[pooled] = n1 + n2 - 2.0
+        welch = kind == _WELCH
+        if welch.any():
+            rows, n1 = idx[welch], n[welch]
+            n2 = np.maximum(2.0, np.ceil(n1 / self.ratio[rows] - 1e-9))  # old_size
+            a = self.s1[rows] / np.sqrt(n1)
+            b = self.s2[rows] / np.sqrt(n2)
+            # math.hypot and the float power of power_of_tests._tau_df, element by element
+            se = [math.hypot(x, y) for x, y in zip(a.tolist(), b.tolist(), strict=True)]
+            r = np.array([(x / t) ** 2 for x, t in zip(a.tolist(), se, strict=True)])
+            tau[welch] = se
+            df[welch] = 1.0 / (r * r / (n1 - 1.0) + (1.0 - r) * (1.0 - r) / (n2 - 1.0))
+        return tau, df
+
+    def approx(self, idx: np.ndarray, ns: list[int]) -> list[float]:
+        """:func:`_approx_many` of setups ``idx`` at ``ns``."""
+        tau, df = self.tau_df(idx, ns)
+        if not np.isfinite(df).all():  # t_quantile and t_cdf switch to the normal there
+            return _approx_many([self.setups[i] for i in idx.tolist()], ns)
+        c = special.stdtrit(df, 1.0 - self.a[idx])
+        p = special.stdtr(df, (self.hi[idx] - self.delta[idx]) / tau - c) \
+            - special.stdtr(df, (self.lo[idx] - self.delta[idx]) / tau + c)
+        p = np.clip(p, 0.0, 1.0)  # _clip01 of each, a NaN becoming 0 as there
+        p[np.isnan(p)] = 0.0
+        return p.tolist()
+
+    def cases(self, idx: np.ndarray, ns: list[int]) -> np.ndarray:
+        """The columns (delta, low, high, tau, df, alpha) of :meth:`_TostSize.case` of setups
+        ``idx`` at ``ns``."""
+        tau, df = self.tau_df(idx, ns)
+        return np.vstack([self.delta[idx], self.lo[idx], self.hi[idx], tau, df, self.a[idx]])
+
+
+def _guesses(setups: list[_TostSize]) -> list[int | None]:
+    """:meth:`_TostSize.guess` of every setup: the searches run in step, each step's
+    approximate powers computed together (:meth:`_Table.approx`)."""
+    table = _Table(setups)
+    out: list[int | None] = [None] * len(setups)
+    searches = {i: _search(q.design, q.ratio, q.target) for i, q in enumerate(setups)}
+    asked = {i: next(g) for i, g in searches.items()}
+    # the powers each search was given: asked again (the last check that one fewer falls
+    # short asks a size the bisection met), it is sent the same float without a new round
+    known: dict[int, dict[int, float]] = {i: {} for i in searches}
+    while asked:
+        ids = list(asked)
+        powers = table.approx(np.array(ids, dtype=np.intp), [asked[i] for i in ids])
+        before, asked = asked, {}
+        for i, p in zip(ids, powers, strict=True):
+            seen = known[i]
+            seen[before[i]] = p
+            try:
+                n = searches[i].send(p)
+                while n in seen:
+                    n = searches[i].send(seen[n])
+                asked[i] = n
+            except StopIteration as stop:
+                out[i] = stop.value.n_new
+            except NotApplicableError:
+                out[i] = None
+    return out
+
+
+def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, SampleSize | None]]:
+    """:func:`power_tost` and :func:`sample_size_tost` for many questions in one pass.
+
+    Each question is a dict of the keyword arguments both take (``true_shift``, ``sd``,
+    ``n_new``, ``n_old``, ``design``, ``alpha``, ``low``, ``high``, ``sd_old``) plus the target
+    ``power`` and ``ratio`` of the sample-size search. Returns (power, sample size) per
+    question, each equal to the one-at-a-time call's result, or None where that call raises a
+    :class:`~verify.stats.errors.StatsError` or ``ValueError``. The questions' searches run in
+    step: each step's approximate powers are computed together, then each step's exact powers
+    (the walk from each guess, and the powers at the questions' own lot sizes) are integrated
+    together, which costs far less than one pass per question and integrates only the lot
+    sizes a walk asks for.
+    """
+    from .errors import StatsError
+
+    cases: list[tuple] = []
+    owners: list[tuple[int, int | None]] = []  # (question, n) per case; n None: the power
+    sizes: list[tuple[int, _TostSize]] = []
+    setups: list[tuple[int, _TostSize]] = []
+    for i, q in enumerate(questions):
+        try:
+            setup = _TostSize(q["true_shift"], q["sd"], design=q["design"], alpha=q["alpha"],
+                              low=q["low"], high=q["high"], power=q["power"],
+                              ratio=q["ratio"], sd_old=q["sd_old"])
+            setups.append((i, setup))
+        except (StatsError, ValueError):
+            setup = None
+        try:
+            if setup is not None:  # the power's inputs validated with the question's
+                cases.append(setup.own_case(q["n_new"], q["n_old"]))
+            else:  # (e.g. a shift outside the margins: a power, but no sample size)
+                a = _alpha(q["alpha"], 0.5)
+                delta = finite(q["true_shift"], "true_shift")
+                lo, hi = check_margins(q["low"], q["high"])
+                tau, df = _plan(q["design"], q["sd"], q["n_new"], q["n_old"], q["sd_old"])
+                cases.append((delta, lo, hi, tau, df, a))
+            owners.append((i, None))
+        except (StatsError, ValueError):
+            pass
+    # every question's guess by the approximation, the searches run in step; then from each
+    # guess the walks with the exact power run in step too, each round's powers integrated
+    # together (the powers at the questions' own lot sizes join the first round)
+    powers: list[float | None] = [None] * len(questions)
+    table = _Table([s for _, s in setups])
+    walks: dict[int, tuple] = {}  # question -> (its row in the table, setup, walk, n asked)
+    for row, ((i, setup), n0) in enumerate(zip(setups, _guesses(table.setups), strict=True)):
+        if n0 is not None:
+            walk = _steps(n0, setup.target, _n_max(setup.design, setup.ratio))
+            walks[i] = (row, setup, walk, next(walk))
+        sizes.append((i, setup))
+    found: dict[int, tuple[int, float] | None] = {}
+    own = np.array(cases, dtype=float).reshape(-1, 6).T  # the first round's leading cases
+    own_of = [i for i, _ in owners]
+    first = True
+    while walks or first:
+        ids = list(walks)
+        cols = table.cases(np.array([walks[i][0] for i in ids], dtype=np.intp),
+                           [walks[i][3] for i in ids])
+        if first:
+            cols, first = np.hstack([own, cols]), False
+        values = _tost_power_many(*cols).tolist() if cols.shape[1] else []
+        if len(values) > len(ids):
+            for i, v in zip(own_of, values[:len(own_of)], strict=True):
+                powers[i] = v
+            values = values[len(own_of):]
+        asked = {}
+        for i, v in zip(ids, values, strict=True):
+            row, setup, walk, _ = walks[i]
+            try:
+                asked[i] = (row, setup, walk, walk.send(v))
+            except StopIteration as stop:
+                found[i] = stop.value
+        walks = asked
+    results: list[SampleSize | None] = [None] * len(questions)
+    for i, setup in sizes:
+        hit = found.get(i)
+        try:
+            if hit is not None:
+                n, p = hit
+                results[i] = SampleSize(n_new=n, n_old=old_size(setup.design, n, setup.ratio),
+                                        power=p, target_power=setup.target)
+            else:  # no guess, or the guess too far off: the plain search with the exact power
+                results[i] = _smallest_n(setup.power_at, setup.design, setup.ratio,
+                                         setup.target)
+        except (StatsError, ValueError):
+            results[i] = None
+    return list(zip(powers, results, strict=True))
+
+
+__all__ = ["plan_tost_many"]
