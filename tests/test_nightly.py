@@ -545,3 +545,54 @@ def test_progress_is_a_bar_on_a_terminal_and_log_lines_otherwise():
     assert plain.getvalue().splitlines() == [
         "nightly: [1/3] s0: unchanged PASS", "nightly: [2/3] s1: unchanged PASS",
         "nightly: [3/3] s2: unchanged PASS"]
+
+
+# --- the light parse of a spec's data paths -----------------------------------------------------
+
+_ODD_DATA_NAMES = [  # (the data file's name as written in YAML, the file's name)
+    ("'it''s lots 2024-01-05.csv'", "it's lots 2024-01-05.csv"),  # '' inside single quotes
+    ('"lots\\u00e9\\t#1.csv"', "lots\u00e9\t#1.csv"),  # escapes in double quotes
+    ("lots: old & new.csv", None),  # plain scalar with ': ' is not a path: both refuse
+    ("2024-01-05.csv", "2024-01-05.csv"),  # a date with an extension: text in any schema
+    ("|-\n    block scalar.csv", "block scalar.csv"),  # a block scalar
+    ("&name anchored.csv", "anchored.csv"),  # an anchor on the value
+    ("on.csv  # a comment after it", "on.csv"),
+    ("deep.csv", None),  # ... in a spec nested too deeply to compose: both refuse it
+]
+
+
+@pytest.mark.parametrize(("written", "name"), _ODD_DATA_NAMES)
+def test_light_data_paths_are_the_strict_loaders(tmp_path, written, name):
+    """The nightly's first fingerprint names the files the run reads: data_paths_light gives,
+    for a spec whose data path is written in quoted or unusual YAML, the paths load_spec
+    resolves (data.file and the characteristics_from table, as written and absolute); where
+    load_spec refuses the spec, no path. The reference is load_spec itself."""
+    sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "benchmarks"))
+    try:
+        from bench_layout import make_layout
+    finally:
+        sys.path.pop(0)
+    from verify.errors import SpecError
+    from verify.nightly.fingerprints import data_paths_light
+    from verify.spec import load_spec
+
+    _one, many = make_layout(tmp_path, 3, 10)
+    if name is not None:
+        (tmp_path / "layout_data.csv").rename(tmp_path / name)
+    text = many.read_text(encoding="utf-8").replace("file: layout_data.csv", f"file: {written}")
+    text = text.replace("characteristics_from: layout.csv", "characteristics_from: 'layout.csv'")
+    if written == "deep.csv":  # (libyaml composes it; the run's YAML reading cannot)
+        text += "notes: " + "[" * 700 + "]" * 700 + "\n"  # (libyaml stops at 1000)
+    spec = tmp_path / "odd.yaml"
+    spec.write_bytes(b"\xef\xbb\xbf" + text.encode("utf-8"))  # with a byte-order mark
+    try:
+        s = load_spec(spec)
+    except SpecError:
+        strict = []
+    else:
+        strict = [(s.data.file_text, str(s.data.file))]
+        table = s.characteristics_table
+        if table is not None:
+            strict.append((table.file_text, str(table.file)))
+    assert (name is None) == (strict == [])
+    assert data_paths_light(spec, spec.read_bytes()) == strict

@@ -32,14 +32,19 @@ def _sha256_file(path: str, max_bytes: int | None = None) -> str | None:
 def data_paths_light(spec_path: Path, raw: bytes) -> list[tuple[str, str]]:
     """The data files a spec names, by a light parse (no validation): [(as written, abs)].
 
-    The path is resolved the way :func:`verify.spec.load_spec` resolves ``data.file``: against
-    the spec's folder. A spec this cannot read gives ``[]``; its run then reports why.
+    The YAML is read as :func:`verify.spec.load_spec` reads it
+    (:class:`verify.spec_yaml.SpecLoader`: YAML 1.2 core scalars), so an unquoted path such as
+    ``2024-01-05`` or ``on`` is the same text here as in the run (a YAML 1.1 loader reads a date
+    and a boolean, and the spec's first fingerprint would name no data file). The path is
+    resolved the way :func:`verify.spec.load_spec` resolves ``data.file``: against the spec's
+    folder. A spec this cannot read gives ``[]``; its run then reports why.
     """
     import yaml
 
-    loader = getattr(yaml, "CSafeLoader", yaml.SafeLoader)
+    from ..spec_yaml import SpecLoader
+
     try:
-        doc = yaml.load(raw.decode("utf-8-sig"), Loader=loader)  # noqa: S506 (a safe loader)
+        doc = yaml.load(raw.decode("utf-8-sig"), Loader=SpecLoader)  # noqa: S506 (safe)
     except (UnicodeDecodeError, yaml.YAMLError, RecursionError):
         return []
     data = doc.get("data") if isinstance(doc, dict) else None

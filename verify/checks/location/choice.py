@@ -16,6 +16,7 @@ none                      any                 difference: the t-test in the harm
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import lru_cache
 from typing import Literal
 
 from ...stats._frozen import fast_init
@@ -69,6 +70,7 @@ class TestChoice:
         return self.side if self.kind == NON_INFERIORITY else None
 
 
+@lru_cache(maxsize=256)  # the same few (margin, side) for every characteristic of a layout
 def choose_test(margin: tuple[float, float] | None, side: str) -> TestChoice:
     """The test a location check with ``margin`` and harmful ``side`` runs.
 

@@ -99,7 +99,7 @@ def draft(kind, inp: CheckInput) -> Draft:
     spec, ch = inp.spec, inp.ch
     alpha = spec.alpha
     conf = inp.config(kind.name)
-    if _one_sample(kind):
+    if kind.name == "target":  # (_one_sample)
         design = "one-sample"
         subject = f"the new-process mean of {ch.name} minus its target {fmt(ch.target)}"
         noun = "departure"
@@ -122,10 +122,10 @@ def draft(kind, inp: CheckInput) -> Draft:
     n_new, n_old = e.n_new, e.n_old
     sds = _power_sds(e)
     ratio = _ratio(n_new, n_old) if design in ("welch", "pooled") else 1.0
-    details = LocationDetails(n_new=n_new, n_old=n_old, sd=float(e.sd))
     common = dict(estimate=e.estimate, standard_error=e.standard_error, df=e.df, design=design)
     if test.kind != DIFFERENCE:
-        return _draft_margin(kind, inp, test, e, subject, noun, sds, ratio, common, details)
+        return _draft_margin(kind, inp, test, e, subject, noun, sds, ratio, common)
+    details = LocationDetails(n_new=n_new, n_old=n_old, sd=float(e.sd))
 
     # no margin: a difference test in the harmful direction. Under holm or bonferroni the
     # interval, critical value and power figures use the Bonferroni level alpha / m, m the size
@@ -175,7 +175,7 @@ def draft(kind, inp: CheckInput) -> Draft:
 
 
 def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun: str,
-                  sds: dict, ratio: float, common: dict, details: LocationDetails) -> Draft:
+                  sds: dict, ratio: float, common: dict) -> Draft:
     """Equivalence (two-sided) or non-inferiority (one harmful side) against the margin."""
     spec, ch = inp.spec, inp.ch
     alpha = spec.alpha
@@ -196,7 +196,8 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
                            statistic_lower=r.statistic_lower,
                            statistic_upper=r.statistic_upper)
         statistic = r.statistic_lower if r.p_lower >= r.p_upper else r.statistic_upper
-        hyp = f"{subject} lies inside {margin_words(low, high, unit)}"
+        words = margin_words(low, high, unit)
+        hyp = f"{subject} lies inside {words}"
         alternative = "equivalence"
         # the power and planned n are computed for all characteristics together
         # (complete_batch)
@@ -205,6 +206,7 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
                  "high": high, "power": spec.plan.power, "ratio": ratio}
         pw = size = None
     else:
+        words = None
         harmful, bound = test.harmful, test.bound
         r = equivalence.noninferiority_from_estimate(
             e.estimate, e.standard_error, e.df, bound=bound, harmful=harmful,
@@ -225,7 +227,7 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
                     ratio=ratio, **sds)
     rule = margin_rule(kind)
     verdict = rule.decide(pvalue=pval, alpha=alpha, low=low, high=high,
-                          ci=(ci.low, ci.high), unit=unit, side=ch.side)
+                          ci=(ci.low, ci.high), unit=unit, side=ch.side, margin_text=words)
     res = CheckResult(
         check=kind.name, method=r.method, hypothesis=hyp, alternative=alternative,
         margin=(low, high), outcome=verdict.outcome, reason=verdict.reason,
@@ -234,7 +236,8 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
         power_note=(f"power of this test if the true {noun} is "
                     f"{fmt(true_shift)} and the sd is as observed"),
         planned_n=size.n_new if size is not None else None,
-        details=replaced(details, **tost_fields), **common,
+        details=LocationDetails(n_new=n_new, n_old=n_old, sd=float(e.sd), **tost_fields),
+        **common,
     )
     harm = rule.harm_shown(ci=(ci.low, ci.high), low=low, high=high, side=ch.side)
     return Draft(result=res, harm_shown=verdict.outcome == "HOLD" and harm, batch=batch)

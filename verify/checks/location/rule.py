@@ -29,14 +29,17 @@ class MarginRule:
         )
 
     def decide(self, *, pvalue: float, alpha: float, low: float, high: float,
-               ci: tuple[float, float], unit: str, side: str) -> Verdict:
+               ci: tuple[float, float], unit: str, side: str,
+               margin_text: str | None = None) -> Verdict:
+        """``margin_text``: ``margin_words(low, high, unit)`` where the caller has it already."""
         level = fmt(100 * (1 - 2 * alpha))
         ref = "target" if self.check == "target" else "the old process"
         lo, hi = fmt_like(ci[0], ci[1])
         detail = f"({level}% interval {lo}..{hi}, {p_eq(pvalue)})"
         u = f" {unit}" if unit else ""
         if side == "two-sided":
-            claim = f"within {margin_words(low, high, unit)} of {ref}"
+            words = margin_words(low, high, unit) if margin_text is None else margin_text
+            claim = f"within {words} of {ref}"
         elif side == "lower":
             claim = f"at most {fmt(-low)}{u} below {ref}"
         else:
