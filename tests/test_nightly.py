@@ -567,20 +567,23 @@ def test_light_data_paths_are_the_strict_loaders(tmp_path, written, name):
     for a spec whose data path is written in quoted or unusual YAML, the paths load_spec
     resolves (data.file and the characteristics_from table, as written and absolute); where
     load_spec refuses the spec, no path. The reference is load_spec itself."""
-    sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "benchmarks"))
-    try:
-        from bench_layout import make_layout
-    finally:
-        sys.path.pop(0)
     from verify.errors import SpecError
     from verify.nightly.fingerprints import data_paths_light
     from verify.spec import load_spec
 
-    _one, many = make_layout(tmp_path, 3, 10)
+    rng = np.random.default_rng(3)
+    rows = ["lot,process,bore,wall"] + [
+        f"{p.upper()}-{j // 5 + 1},{p},{12 + 0.01 * rng.standard_normal():.4f},"
+        f"{2 + 0.01 * rng.standard_normal():.4f}" for p in ("old", "new") for j in range(10)]
     if name is not None:
-        (tmp_path / "layout_data.csv").rename(tmp_path / name)
-    text = many.read_text(encoding="utf-8").replace("file: layout_data.csv", f"file: {written}")
-    text = text.replace("characteristics_from: layout.csv", "characteristics_from: 'layout.csv'")
+        (tmp_path / name).write_text("\n".join(rows) + "\n", encoding="utf-8")
+    (tmp_path / "table.csv").write_text("name,unit,target,lower,upper\n"
+                                        "bore,mm,12,11.9,12.1\nwall,mm,2,1.9,2.1\n",
+                                        encoding="utf-8")
+    text = ("format: verify/1\ntitle: odd data paths\n"
+            f"data:\n  file: {written}\n  lot: lot\n  process: process\n  old: old\n"
+            "  new: new\ncharacteristics_from: 'table.csv'\n"
+            "defaults:\n  checks: {shift: {margin: 0.02}}\n")
     if written == "deep.csv":  # (libyaml composes it; the run's YAML reading cannot)
         text += "notes: " + "[" * 700 + "]" * 700 + "\n"  # (libyaml stops at 1000)
     spec = tmp_path / "odd.yaml"
