@@ -296,3 +296,47 @@ def test_batched_resolution_equals_the_one_sample_route():
     assert _batched(resolution_of, (frozen[0][1],), tolerance=0.1) == \
         _plain(resolution, pairs[0][1], tolerance=0.1)
     _memo.forget()
+
+
+@pytest.mark.parametrize("n", [3, 7, 8, 30, 90, 500])
+@pytest.mark.parametrize("alternative", ["two-sided", "less", "greater"])
+def test_grubbs_pvalues_equal_the_scalar_route(n, alternative):
+    # the batched Grubbs p-values (one t-tail call for all statistics) are the floats
+    # grubbs_pvalue gives statistic by statistic, up to G's largest possible value
+    # (n - 1) / sqrt(n), where the tail is 0
+    from verify.stats.outliers import grubbs_pvalue, grubbs_pvalues
+
+    g_max = (n - 1) / np.sqrt(n)
+    g = np.r_[np.linspace(0.0, g_max, 2001), g_max, np.nextafter(g_max, 0.0),
+              np.random.default_rng(n).uniform(0.0, g_max, 500)]
+    batched = grubbs_pvalues(g, n, alternative=alternative).tolist()
+    assert batched == [grubbs_pvalue(v, n, alternative=alternative) for v in g.tolist()]
+    with pytest.raises(ValueError):
+        grubbs_pvalues(np.array([1.0, np.nan]), n)
+
+
+def test_batched_medians_with_negative_zeros_keep_the_one_sample_sign():
+    # a median that is a zero: which zero (+0.0 or -0.0) a selection finds depends on its
+    # order of search when the values hold both, so the batched route gives such rows to the
+    # one-sample route's median; repr tells -0.0 from 0.0 (== does not)
+    from verify.stats.nonparametric import mann_whitney, signed_rank_about, wilcoxon_signed_rank
+    from verify.stats.spread import brown_forsythe
+
+    rng = np.random.default_rng(3)
+    pairs = [(rng.choice([0.0, 0.01, -0.01], 30, p=[0.6, 0.2, 0.2]),
+              rng.choice([0.0, -0.0, 0.01, -0.01], 30, p=[0.3, 0.3, 0.2, 0.2]))
+             for _ in range(12)]
+    pairs.append((np.round(rng.normal(0.0, 0.01, 30), 3), np.round(rng.normal(0.0, 0.01, 30), 3)))
+    frozen = [(_memo.freeze(a.copy()), _memo.freeze(b.copy())) for a, b in pairs]
+    _memo.forget()
+    batch.prefetch_ranks([q for a, b in frozen for q in (
+        ("rank_sum", a, b), ("brown_forsythe", a, b), ("signed_rank", b, 0.0))])
+    assert all(_memo.recall("rank_sum", a) is not None for a, _ in frozen)
+    assert all(_memo.recall("signed_rank", b) is not None for _, b in frozen)
+    for (a, b), (fa, fb) in zip(pairs, frozen, strict=True):
+        assert repr(_batched(mann_whitney, fa, new=fb)) == repr(_plain(mann_whitney, a, new=b))
+        assert repr(_batched(signed_rank_about, fb, target=0.0)) == \
+            repr(_plain(wilcoxon_signed_rank, b - 0.0))
+        assert repr(_batched(brown_forsythe, fa, new=fb)) == \
+            repr(_plain(brown_forsythe, a, new=b.copy()))
+    _memo.forget()

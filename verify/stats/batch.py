@@ -24,13 +24,13 @@ import numpy as np
 from scipy import special
 
 from . import _memo, nonparametric
-from .core import MAX_MAGNITUDE, mean_sd
+from .core import MAX_MAGNITUDE
 from .normality import NormalityResult, _ad_pvalue
 from .one_way import OneWay
-from .outliers import _GRUBBS_SIDE, GRUBBS_MIN_N, GrubbsResult, grubbs_pvalue
+from .outliers import _GRUBBS_SIDE, GRUBBS_MIN_N, GrubbsResult, grubbs_pvalues
 from .range_constants import D2_TABLE
 from .resolution import step_from_units
-from .samples import RESOLUTION_DIGITS, group_codes
+from .samples import RESOLUTION_DIGITS, group_codes, median
 from .stability import StabilityResult
 
 MIN_ROWS = 2  # fewer samples of a length gain nothing from stacking
@@ -65,27 +65,24 @@ def _stacked(rows: list[np.ndarray], n: int) -> None:
     # needs (anything else goes to the one-sample route and its error; NaN fails the tests)
     lo, hi = np.minimum.reduce(x, axis=1), np.maximum.reduce(x, axis=1)
     ok = (-MAX_MAGNITUDE <= lo) & (hi <= MAX_MAGNITUDE) & (lo != hi)
-    if ok.any():
-        good_rows = [r for r, good in zip(rows, ok.tolist(), strict=True) if good]
-        for r in good_rows:  # every value finite (a NaN or an infinity fails the bounds):
-            _memo.remember("finite", r, True)  # what samples.finite_values checks
-        _mean_sds(good_rows, x[ok], n)
-    keep = []
-    for r, good in enumerate(ok.tolist()):
-        if good:
-            sd = mean_sd(rows[r])[2]  # remembered: computed once per sample anyway
-            keep.append(math.isfinite(sd) and sd > 0.0)
-        else:
-            keep.append(False)
-    if sum(keep) < MIN_ROWS:
+    if not ok.all():
+        rows = [r for r, good in zip(rows, ok.tolist(), strict=True) if good]
+        x, lo, hi = x[ok], lo[ok], hi[ok]
+    if not rows:
         return
-    if not all(keep):
-        rows = [r for r, good in zip(rows, keep, strict=True) if good]
-        x = x[np.array(keep)]
-    summaries = [mean_sd(r) for r in rows]
-    m = np.array([s[1] for s in summaries])
-    s = np.array([s[2] for s in summaries])
-    _charts(rows, x, m, n)
+    for r in rows:  # every value finite (a NaN or an infinity fails the bounds):
+        _memo.remember("finite", r, True)  # what samples.finite_values checks
+    means, sds = _mean_sds(rows, x, n)
+    m, s = np.array(means), np.array(sds)
+    keep = np.isfinite(s) & (s > 0.0)
+    if not keep.all():
+        if np.count_nonzero(keep) < MIN_ROWS:
+            return
+        rows = [r for r, good in zip(rows, keep.tolist(), strict=True) if good]
+        x, lo, hi, m, s = x[keep], lo[keep], hi[keep], m[keep], s[keep]
+    elif len(rows) < MIN_ROWS:
+        return
+    _charts(rows, x, m, lo, hi, n)
     if n <= 5000:
         _shapiro_wilk(rows, x, n)
     if n >= 8:
@@ -94,12 +91,11 @@ def _stacked(rows: list[np.ndarray], n: int) -> None:
         _grubbs(rows, x, m, s, n)
 
 
-def _mean_sds(rows: list[np.ndarray], x: np.ndarray, n: int) -> None:
-    """core.mean_sd of each row of ``x`` (finite, within core.MAX_MAGNITUDE), remembered for
-    its sample: the corrected two-pass sums along C-contiguous rows (as the 1-D sums add),
-    the scalar steps in the same Python arithmetic."""
-    if n < 2:
-        return  # (rows that vary have 2 values or more; the one-sample route has the rest)
+def _mean_sds(rows: list[np.ndarray], x: np.ndarray, n: int) -> tuple[list, list]:
+    """core.mean_sd of each row of ``x`` (finite, within core.MAX_MAGNITUDE, n >= 2), remembered
+    for its sample, and the means and sds: the corrected two-pass sums along C-contiguous rows
+    (as the 1-D sums add), the scalar steps in the same Python arithmetic. (A sample whose
+    summary was remembered before gets the same floats again.)"""
     total = np.add.reduce(x, axis=1)
     m = total / n
     d = np.ascontiguousarray(x - m[:, None])
@@ -108,10 +104,12 @@ def _mean_sds(rows: list[np.ndarray], x: np.ndarray, n: int) -> None:
     d = np.ascontiguousarray(x - m[:, None])
     squares = np.add.reduce(d * d, axis=1).tolist()
     sums = np.add.reduce(d, axis=1).tolist()
-    for a, mean, sq, sm in zip(rows, means, squares, sums, strict=True):
-        if _memo.recall("mean_sd", a) is None:
-            ss = sq - sm ** 2 / n
-            _memo.remember("mean_sd", a, (n, mean, math.sqrt(max(ss, 0.0) / (n - 1))))
+    # sm ** 2 in Python floats, as mean_sd squares it (a power, not a product)
+    sds = [math.sqrt(max(sq - sm ** 2 / n, 0.0) / (n - 1))
+           for sq, sm in zip(squares, sums, strict=True)]
+    for a, mean, sd in zip(rows, means, sds, strict=True):
+        _memo.remember("mean_sd", a, (n, mean, sd))
+    return means, sds
 
 
 def _resolutions(joined) -> None:
@@ -201,33 +199,35 @@ def _one_way_rows(rows: list[np.ndarray], codes: np.ndarray) -> None:
     flat = (codes[None, :] + (k * np.arange(m))[:, None]).ravel()
     means_c = np.bincount(flat, weights=centred.ravel(), minlength=m * k).reshape(m, k) / sizes
     resid = centred - means_c[:, codes]
-    squares = means_c**2
     df_b, df_w = k - 1, n_total - k
     n0 = (n_total - float(np.dot(sizes, sizes)) / n_total) / df_b
-    keep, msbs, msws = [], [], []
-    for r in range(m):
-        ss_within = float(np.dot(resid[r], resid[r]))
-        if not ss_within > 0.0:
-            continue  # the one-sample route raises its own error
-        keep.append(r)
-        msbs.append(float(np.dot(sizes, squares[r])) / df_b)
-        msws.append(ss_within / df_w)
-    if not keep:
+    # each row's sums of squares as np.dot sums them on that row: matmul of a (1, n) row by an
+    # (n, 1) column calls the dot loop np.dot calls (the same BLAS dot, in the same order)
+    ss_within = np.matmul(resid[:, None, :], resid[:, :, None])[:, 0, 0]
+    ss_between = np.matmul(sizes.astype(float), (means_c**2)[:, :, None])[:, 0]
+    keep = ss_within > 0.0  # else the one-sample route raises its own error
+    if not keep.any():
         return
-    f = np.array(msbs) / np.array(msws)
+    msb, msw = ss_between / df_b, ss_within / df_w
+    f = msb / np.where(keep, msw, 1.0)
     p = special.fdtrc(df_b, df_w, f).tolist()
-    grand_l = grand.tolist()
-    for j, r in enumerate(keep):
-        ow = OneWay(grand_l[r], means_c[r], df_b, df_w, msbs[j], msws[j], n0, float(f[j]),
-                    min(1.0, max(0.0, p[j])))
-        _memo.remember("one_way", rows[r], (codes, ow))
+    for r, (x, good, grand_r, msb_r, msw_r, f_r, p_r) in enumerate(zip(
+            rows, keep.tolist(), grand.tolist(), msb.tolist(), msw.tolist(), f.tolist(), p,
+            strict=True)):
+        if good:
+            _memo.remember("one_way", x, (codes, OneWay(
+                grand_r, means_c[r], df_b, df_w, msb_r, msw_r, n0, f_r,
+                min(1.0, max(0.0, p_r)))))
 
 
-def _charts(rows, x, m, n) -> None:
-    """individuals_chart of each row (see stability.individuals_chart)."""
+def _charts(rows, x, m, lo, hi, n) -> None:
+    """individuals_chart of each row (see stability.individuals_chart): the limits in the same
+    float arithmetic element by element, the runs of all rows numbered together."""
     mr = np.add.reduce(np.ascontiguousarray(np.abs(x[:, 1:] - x[:, :-1])), axis=1)
-    centre_col = m[:, None]
-    sign = np.sign(x - centre_col).astype(int)
+    mr_bar = mr / (n - 1)  # float(sum) / (n - 1)
+    sigma = mr_bar / D2_TABLE[2]
+    ucl, lcl = m + 3.0 * sigma, m - 3.0 * sigma
+    sign = np.sign(x - m[:, None]).astype(int)
     # the run each value belongs to, numbered across all rows, and each run's length
     change = np.ones(sign.shape, dtype=bool)
     np.not_equal(sign[:, 1:], sign[:, :-1], out=change[:, 1:])
@@ -235,31 +235,28 @@ def _charts(rows, x, m, n) -> None:
     run_len = np.bincount(run_id.ravel())[run_id]
     run_len[sign == 0] = 0
     longest = run_len.max(axis=1).tolist()
-    lo_hi = np.column_stack((np.minimum.reduce(x, axis=1), np.maximum.reduce(x, axis=1))).tolist()
-    start = run_len.argmax(axis=1).tolist()
-    for i, a in enumerate(rows):
-        mr_bar = float(mr[i]) / (n - 1)
-        if not mr_bar > 0.0:
+    start = run_len.argmax(axis=1)
+    above = (sign[np.arange(sign.shape[0]), start] > 0).tolist()
+    # the points beyond the limits, looked for in the rows that reach beyond them
+    outside = ((lo < lcl) | (hi > ucl)).tolist()
+    for a, centre, mrb, sg, u, low, out, length, first, up in zip(
+            rows, m.tolist(), mr_bar.tolist(), sigma.tolist(), ucl.tolist(), lcl.tolist(),
+            outside, longest, start.tolist(), above, strict=True):
+        if not mrb > 0.0:
             continue  # the one-sample route raises its own error
-        _memo.remember("mr_bar", a, mr_bar)
-        centre = float(m[i])
-        sigma = mr_bar / D2_TABLE[2]
-        ucl, lcl = centre + 3.0 * sigma, centre - 3.0 * sigma
-        beyond = tuple(np.flatnonzero((a > ucl) | (a < lcl)).tolist()) if (
-            lo_hi[i][0] < lcl or lo_hi[i][1] > ucl) else ()
-        if longest[i] == 0:
-            length, side, first = 0, None, None
-        else:
-            length, first = int(longest[i]), int(start[i])
-            side = "above" if sign[i, first] > 0 else "below"
+        _memo.remember("mr_bar", a, mrb)
+        beyond = tuple(np.flatnonzero((a > u) | (a < low)).tolist()) if out else ()
         _memo.remember("individuals_chart", a, StabilityResult(
-            n=int(n), centre=centre, mr_bar=mr_bar, sigma=float(sigma), ucl=float(ucl),
-            lcl=float(lcl), beyond=beyond, longest_run=length, run_side=side, run_start=first))
+            n, centre, mrb, sg, u, low, beyond, length, ("above" if up else "below")
+            if length else None, first if length else None))
 
 
 def _shapiro_wilk(rows, x, n) -> None:
     """shapiro_wilk of each row (see normality._swilk): the rows sorted together, less each
-    sample's own middle value, then scipy's routine row by row."""
+    sample's own middle value, then scipy's routine row by row. The routine's coefficients
+    depend on n alone: computed by the first row's call (``init`` 0, as the one-sample route
+    calls it) and handed to the others (``init`` 1: the routine reads them and skips that
+    step), which gives each row the W and p-value of its own call."""
     from .normality import _swilk_routine  # scipy's routine without importing scipy.stats
 
     swilk = _swilk_routine()
@@ -267,11 +264,13 @@ def _shapiro_wilk(rows, x, n) -> None:
         return
     y = np.sort(x, axis=1)
     y -= x[:, n // 2][:, None]
+    coefficients = np.zeros(n // 2, dtype=np.float64)
+    init = 0
     for r, a in enumerate(rows):
-        w, pw, _ = swilk(y[r], np.zeros(n // 2, dtype=np.float64), 0)
+        w, pw, _ = swilk(y[r], coefficients, init)
+        init = 1
         _memo.remember("shapiro_wilk", a, NormalityResult(
-            method="Shapiro-Wilk normality test", statistic=float(w),
-            pvalue=float(min(1.0, max(0.0, float(pw)))), n=int(n)))
+            "Shapiro-Wilk normality test", float(w), float(min(1.0, max(0.0, float(pw)))), n))
 
 
 def _anderson_darling(rows, x, m, s, n) -> None:
@@ -280,25 +279,25 @@ def _anderson_darling(rows, x, m, s, n) -> None:
     i = np.arange(1, n + 1)
     terms = np.ascontiguousarray(
         (2 * i - 1) * (special.log_ndtr(w) + special.log_ndtr(-w[:, ::-1])))
-    sums = np.add.reduce(terms, axis=1).tolist()
-    for a, total in zip(rows, sums, strict=True):
-        a2 = float(-n - np.float64(total) / n)
-        a_star = a2 * (1.0 + 0.75 / n + 2.25 / n**2)
+    a2 = -n - np.add.reduce(terms, axis=1) / n  # element by element the one-sample floats
+    a_star = a2 * (1.0 + 0.75 / n + 2.25 / n**2)
+    method = "Anderson-Darling normality test (mean and sd estimated)"
+    for a, stat, adj in zip(rows, a2.tolist(), a_star.tolist(), strict=True):
         _memo.remember("anderson_darling", a, NormalityResult(
-            method="Anderson-Darling normality test (mean and sd estimated)", statistic=a2,
-            pvalue=_ad_pvalue(a_star), n=int(n), adjusted_statistic=float(a_star)))
+            method, stat, _ad_pvalue(adj), n, adj))
 
 
 def _grubbs(rows, x, m, s, n) -> None:
-    """The two-sided grubbs of each row (see outliers.grubbs)."""
-    idx = np.argmax(np.abs(x - m[:, None]), axis=1).tolist()
-    for r, (a, j) in enumerate(zip(rows, idx, strict=True)):
-        mi, si = float(m[r]), float(s[r])
-        g = float(abs(a[j] - mi) / si)
+    """The two-sided grubbs of each row (see outliers.grubbs): G and its p-value element by
+    element in the same float arithmetic (:func:`~verify.stats.outliers.grubbs_pvalues`)."""
+    idx = np.argmax(np.abs(x - m[:, None]), axis=1)
+    value = x[np.arange(x.shape[0]), idx]
+    g = np.abs(value - m) / s
+    p = grubbs_pvalues(g, n, alternative="two-sided").tolist()
+    method = f"Grubbs outlier test ({_GRUBBS_SIDE['two-sided']})"
+    for a, gr, j, v, pr in zip(rows, g.tolist(), idx.tolist(), value.tolist(), p, strict=True):
         _memo.remember("grubbs two-sided", a, GrubbsResult(
-            method=f"Grubbs outlier test ({_GRUBBS_SIDE['two-sided']})", statistic=g,
-            index=j, value=float(a[j]), n=int(n), alternative="two-sided",
-            pvalue=grubbs_pvalue(g, n, alternative="two-sided")))
+            method, gr, j, v, n, "two-sided", pr))
 
 
 # --- rank tests ------------------------------------------------------------------------------
@@ -358,40 +357,55 @@ def _snapped(d: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return np.round(d / np.array(quanta)[:, None]), np.array(ok, dtype=bool)
 
 
-def _average_ranks(a: np.ndarray):
-    """nonparametric.average_ranks of each row: the ranks, the size of each value's group of
-    equal values (in sorted order) and where a group starts (in sorted order)."""
+def _sorted_ranks(a: np.ndarray):
+    """nonparametric.average_ranks of each row, in sorted order: where each sorted value sits
+    in its row (a stable argsort), its average rank (the one-sample route's float), whether it
+    starts a group of equal values, and each row's tie counts: the groups of two or more, the
+    values in them, and sum(t^3 - t) over its groups of t equal values (an exact integer)."""
     k, width = a.shape
     order = np.argsort(a, axis=1, kind="stable")
-    s = np.take_along_axis(a, order, axis=1)
+    s = np.ascontiguousarray(a).ravel()[order + (width * np.arange(k))[:, None]]
     new_value = np.ones((k, width), dtype=bool)
     np.not_equal(s[:, 1:], s[:, :-1], out=new_value[:, 1:])
     run_id = np.cumsum(new_value.ravel()).reshape(k, width) - 1
     size = np.bincount(run_id.ravel())[run_id]
-    pos = np.broadcast_to(np.arange(width), (k, width))
-    start = np.maximum.accumulate(np.where(new_value, pos, 0), axis=1)
-    ranks = np.empty((k, width))
+    start = np.maximum.accumulate(np.where(new_value, np.arange(width), 0), axis=1)
     # a group of size t starting at 0-based position i holds ranks i+1 .. i+t: average
     # i + (t + 1) / 2, the same float as the one-sample route's
-    np.put_along_axis(ranks, order, start + (size + 1) / 2.0, axis=1)
-    return ranks, size, new_value
-
-
-def _ties(size: np.ndarray, new_value: np.ndarray):
+    ranks = start + (size + 1) / 2.0
     tied = size > 1
-    return (tied & new_value).sum(axis=1).tolist(), tied.sum(axis=1).tolist()
+    first_of_tie = tied & new_value
+    ties = (np.add.reduce(first_of_tie, axis=1).tolist(), np.add.reduce(tied, axis=1).tolist(),
+            np.add.reduce(np.where(first_of_tie, size**3 - size, 0), axis=1))
+    return order, ranks, ties
 
 
-def _row_medians(v: np.ndarray) -> list[float]:
-    """samples.median of each row: order statistics, whatever selection finds them."""
-    h = v.shape[1] // 2
-    p = v.copy()  # (np.partition's copy, without its wrapper)
-    if v.shape[1] % 2:
-        p.partition(h, axis=1)
-        return p[:, h].tolist()
-    p.partition((h - 1, h), axis=1)
-    # (lo + hi) / 2.0 of each row, element by element: the floats the one-sample route gives
-    return ((p[:, h - 1] + p[:, h]) / 2.0).tolist()
+def _row_medians(v: np.ndarray, *, row=None) -> list[float]:
+    """samples.median of each row: order statistics, whatever selection finds them (one
+    partition at the upper middle; the lower middle of an even row is the largest value below
+    it). Partitions ``v`` in place when ``row`` is given: ``row(r)`` then makes row r again, in
+    its order, for the only case where the selection matters (a middle value that is a zero in
+    a row holding a -0.0: which zero is found depends on the order of the search, and such a
+    row goes to samples.median as the one-sample route's array)."""
+    width = v.shape[1]
+    h = width // 2
+    p = v if row is not None else v.copy()  # (np.partition's copy, without its wrapper)
+    p.partition(h, axis=1)
+    hi = p[:, h]
+    if width % 2:
+        mid = hi
+        zero = hi == 0.0
+    else:
+        lo = np.maximum.reduce(p[:, :h], axis=1)
+        # (lo + hi) / 2.0 of each row, element by element: the floats the one-sample route gives
+        mid = (lo + hi) / 2.0
+        zero = (lo == 0.0) | (hi == 0.0)
+    out = mid.tolist()
+    if zero.any():
+        for r in np.flatnonzero(zero).tolist():
+            if np.logical_or.reduce(np.signbit(p[r][p[r] == 0.0])):
+                out[r] = median(row(r) if row is not None else v[r])
+    return out
 
 
 def _signed_ranks(rows: list[tuple[np.ndarray, float]], n: int) -> None:
@@ -408,32 +422,33 @@ def _signed_ranks(rows: list[tuple[np.ndarray, float]], n: int) -> None:
     ok &= n_nonzero > 0
     if not ok.any():
         return
-    d, units, nonzero, n_nonzero = d[ok], units[ok], nonzero[ok], n_nonzero[ok]
-    rows = [r for r, good in zip(rows, ok.tolist(), strict=True) if good]
+    if not ok.all():
+        d, units, nonzero, n_nonzero = d[ok], units[ok], nonzero[ok], n_nonzero[ok]
+        rows = [r for r, good in zip(rows, ok.tolist(), strict=True) if good]
     estimates = [None] * len(rows)
     if n * (n + 1) // 2 <= nonparametric.HL_MAX_PAIRS:  # the Walsh averages of all n
         i, j = nonparametric._upper_pairs(n)
-        estimates = _row_medians((d[:, i] + d[:, j]) / 2.0)
+        estimates = _row_medians((d[:, i] + d[:, j]) / 2.0,
+                                 row=lambda r: (d[r][i] + d[r][j]) / 2.0)
     counts = n_nonzero.tolist()
     for m in sorted(set(counts)):
         idx = [r for r, c in enumerate(counts) if c == m]
         u = units[idx] if m == n else units[idx][nonzero[idx]].reshape(len(idx), m)
-        ranks, size, new_value = _average_ranks(np.abs(u))
-        # the ranks are halves far below 2^53: their sum is exact in any order
-        w_plus = np.where(u > 0, ranks, 0.0).sum(axis=1).tolist()
-        groups, tied_values = _ties(size, new_value)
+        order, ranks, (groups, tied_values, tie_term) = _sorted_ranks(np.abs(u))
+        # the ranks of the positive differences: halves far below 2^53, a sum exact in any order
+        positive = np.take_along_axis(u, order, axis=1) > 0
+        w_plus = np.add.reduce(np.where(positive, ranks, 0.0), axis=1).tolist()
         fm = float(m)
+        mean = fm * (fm + 1.0) * 0.25
+        var = fm * (fm + 1.0) * (2.0 * fm + 1.0)
+        # nonparametric._signed_rank_se of each row: the tie term an exact integer either way
+        se = np.sqrt((var - tie_term / 2.0) / 24.0).tolist()
         for k, r in enumerate(idx):
             x_r, target = rows[r]
             exact = groups[k] == 0  # m <= n <= EXACT_MAX_N
-            mean = se = None
-            if not exact:
-                mean = fm * (fm + 1.0) * 0.25
-                var = fm * (fm + 1.0) * (2.0 * fm + 1.0)
-                se = nonparametric._signed_rank_se(var, size[k][new_value[k]])
             _memo.remember("signed_rank", x_r, (target, nonparametric._SignedRank(
-                float(w_plus[k]), m, n - m, int(groups[k]), int(tied_values[k]), bool(exact),
-                m, mean, se, estimates[r], "wilcox")))
+                w_plus[k], m, n - m, groups[k], tied_values[k], exact, m,
+                None if exact else mean, None if exact else se[k], estimates[r], "wilcox")))
 
 
 def _rank_sums(rows: list[tuple[np.ndarray, np.ndarray]], n_old: int, n_new: int) -> None:
@@ -445,22 +460,26 @@ def _rank_sums(rows: list[tuple[np.ndarray, np.ndarray]], n_old: int, n_new: int
     ok &= ~np.logical_and.reduce(units == units[:, :1], axis=1)  # identical: the one route
     if not ok.any():
         return
-    old, new, units = old[ok], new[ok], units[ok]
-    rows = [r for r, good in zip(rows, ok.tolist(), strict=True) if good]
-    ranks, size, new_value = _average_ranks(units)
-    rank_sums = ranks[:, n_old:].sum(axis=1).tolist()  # exact: halves far below 2^53
-    groups, tied_values = _ties(size, new_value)
+    if not ok.all():
+        old, new, units = old[ok], new[ok], units[ok]
+        rows = [r for r, good in zip(rows, ok.tolist(), strict=True) if good]
+    order, ranks, (groups, tied_values, tie_term) = _sorted_ranks(units)
+    # the new values' ranks: halves far below 2^53, a sum exact in any order
+    rank_sums = np.add.reduce(np.where(order >= n_old, ranks, 0.0), axis=1)
+    u_new = (rank_sums - n_new * (n_new + 1) / 2.0).tolist()
+    # nonparametric._rank_sum_se of each row, the tie term an exact integer either way
+    big_n = float(n_old + n_new)
+    se = np.sqrt(n_old * n_new / 12.0
+                 * ((big_n + 1.0) - tie_term / (big_n * (big_n - 1.0)))).tolist()
     estimates = [None] * len(rows)
     if n_old * n_new <= nonparametric.HL_MAX_PAIRS:
-        estimates = _row_medians((new[:, :, None] - old[:, None, :]).reshape(len(rows), -1))
+        estimates = _row_medians((new[:, :, None] - old[:, None, :]).reshape(len(rows), -1),
+                                 row=lambda r: np.subtract.outer(new[r], old[r]).ravel())
     small = n_old < nonparametric.EXACT_MAX_N and n_new < nonparametric.EXACT_MAX_N
     for r, (a, b) in enumerate(rows):
         exact = groups[r] == 0 and small
-        u_new = float(np.float64(rank_sums[r]) - n_new * (n_new + 1) / 2.0)
-        se = None if exact else nonparametric._rank_sum_se(n_old, n_new,
-                                                            size[r][new_value[r]])
         _memo.remember("rank_sum", a, (b, nonparametric._RankSum(
-            u_new, n_old, n_new, int(groups[r]), int(tied_values[r]), bool(exact), se,
+            u_new[r], n_old, n_new, groups[r], tied_values[r], exact, None if exact else se[r],
             estimates[r])))
 
 

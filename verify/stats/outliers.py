@@ -132,6 +132,31 @@ def grubbs_pvalue(g: float, n: int, *, alternative: str = "two-sided") -> float:
     return float(min(1.0, k * tail))
 
 
+def grubbs_pvalues(g: np.ndarray, n: int, *, alternative: str = "two-sided") -> np.ndarray:
+    """:func:`grubbs_pvalue` of each statistic in ``g`` (finite, >= 0), all for samples of
+    ``n``: element by element the same float arithmetic, and the t tail of all of them in one
+    call of the same ufunc (which gives each element the float its scalar call gives).
+
+    Examples
+    --------
+    >>> grubbs_pvalues(np.array([1.0, 2.4688]), 8).tolist() == [
+    ...     grubbs_pvalue(1.0, 8), grubbs_pvalue(2.4688, 8)]
+    True
+    """
+    check_alternative(alternative)
+    if n < 3:
+        raise NotApplicableError(f"a Grubbs p-value needs n >= 3, got {n}")
+    g = np.asarray(g, dtype=float)
+    if not np.logical_and.reduce(np.isfinite(g) & (g >= 0.0), axis=None):
+        raise ValueError("the Grubbs statistics must be finite numbers >= 0")
+    denom = (n - 1) ** 2 - n * g * g
+    inside = denom > 0.0  # else g at its largest possible value: a tail of 0
+    t = np.sqrt(n * (n - 2) * g * g / np.where(inside, denom, 1.0))
+    tail = np.where(inside, special.stdtr(n - 2, -t), 0.0)
+    k = 2 * n if alternative == "two-sided" else n
+    return np.minimum(1.0, k * tail)
+
+
 _GRUBBS_SIDE = dict(
     zip(ALTERNATIVES, ("value furthest from the mean", "minimum", "maximum"), strict=True)
 )
