@@ -46,11 +46,11 @@ def recall(topic: str, x: object):
 
 def remember(topic: str, x: object, value: object) -> None:
     """Remember ``value`` as the ``topic`` of ``x`` if it is a frozen array (else nothing)."""
-    if not frozen(x):
-        return
     hit = _CACHE.get(id(x))
-    if hit is not None and hit[0] is x:
+    if hit is not None and hit[0] is x:  # (frozen when first remembered, as recall trusts)
         hit[1][topic] = value
+        return
+    if not frozen(x):
         return
     if len(_CACHE) >= MAX_ENTRIES:
         _CACHE.clear()

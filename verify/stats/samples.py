@@ -30,7 +30,7 @@ def finite_values(x: object, what: str = "values") -> np.ndarray:
     if not math.isfinite(float(np.add.reduce(a))) and not np.isfinite(a).all():
         bad = int(np.count_nonzero(~np.isfinite(a)))
         raise DegenerateDataError(f"the {what} must be finite numbers ({bad} are NaN or infinite)")
-    if a is x and _memo.frozen(a):
+    if a is x:  # (remembered only if frozen)
         _memo.remember("finite", a, True)
     return a
 
