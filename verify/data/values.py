@@ -120,12 +120,8 @@ def _analysis_index(table: pd.DataFrame) -> _Index:
     if hit is not None and hit[0] is table:
         return hit[1]
     used = ~table["excluded"].to_numpy(dtype=bool)
-    # the text columns' codes by their array's own factorize (pyarrow's dictionary encoding
-    # for pandas' pyarrow text storage, not a Python string per row as to_numpy(object) and
-    # pd.factorize make): codes with names in order of first appearance, as pd.factorize gives
-    char_codes, char_names = table["characteristic"].array.factorize()
-    proc_codes, proc_names = table["process"].array.factorize()
-    char_names, proc_names = char_names.tolist(), proc_names.tolist()
+    char_codes, char_names = _factorized(table["characteristic"])
+    proc_codes, proc_names = _factorized(table["process"])
     width = max(1, len(proc_names))
     rows = np.flatnonzero(used)
     code = (char_codes.astype(np.int64) * width + proc_codes)[rows]
@@ -146,6 +142,20 @@ def _analysis_index(table: pd.DataFrame) -> _Index:
         _INDEX_CACHE.clear()
     _INDEX_CACHE[id(table)] = (table, index)
     return index
+
+
+def _factorized(column: pd.Series) -> tuple[np.ndarray, list]:
+    """Integer codes of a text column's values and the names they stand for, as pd.factorize
+    gives them, without a Python string per row (as ``to_numpy(object)`` and pd.factorize
+    make): pyarrow's dictionary encoding for pandas' pyarrow text storage, else the array's own
+    factorize. Which code a name gets does not matter to the index (only the groups do)."""
+    arr = column.array
+    if isinstance(arr, pd.arrays.ArrowStringArray):
+        enc = arr.__arrow_array__().combine_chunks().dictionary_encode()
+        if enc.null_count == 0:
+            return enc.indices.to_numpy(zero_copy_only=False), enc.dictionary.to_pylist()
+    codes, names = arr.factorize()
+    return codes, names.tolist()
 
 
 def stream_values(measurements: Measurements, characteristic: str) -> dict[str, object]:
