@@ -84,3 +84,26 @@ def test_extremes_together_are_each_samples_own_signed_zeros_and_nan_included():
         assert _same(e[1], float(np.maximum.reduce(v)))
     assert got[0] is not None and got[5] is not None and got[8] is None and got[10] is None
     assert got[1] is None and got[3] is None and got[4] is None  # a zero or NaN extreme
+
+
+def test_a_lot_unit_spec_is_read_per_part_through_one_copy(demo):
+    # the part-unit copy is dataclasses.replace(spec, unit_of_analysis="part"), made once per
+    # spec; a part-unit spec is read as it is
+    from dataclasses import replace
+
+    spec = load_spec(demo / "specs" / "bushing-supplier.yaml")
+    part = replace(spec, unit_of_analysis="part")
+    lot = replace(spec, unit_of_analysis="lot")
+    assert eg._part_spec(part) is part
+    got = eg._part_spec(lot)
+    assert got == replace(lot, unit_of_analysis="part") and eg._part_spec(lot) is got
+    meas = load_measurements(spec)
+    try:
+        d = eg.gather(lot, meas, lot.characteristics[0], False)
+        alone = eg.gather(spec, meas, spec.characteristics[0], False)
+        for name, st in d.shown.items():  # the parts as the part-unit spec reads them
+            np.testing.assert_array_equal(st.parts, alone.shown[name].parts)
+            assert st.lots == alone.shown[name].lots
+            assert st.values.size == len(set(st.lots))  # lot means, one per lot
+    finally:
+        _memo.forget()

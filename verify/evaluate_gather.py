@@ -170,11 +170,28 @@ def _stream(spec: Spec, meas: Measurements, name: str, ch: Characteristic, part_
     return Stream(name=name, values=values, parts=part_values, lots=tuple(parts.lots))
 
 
+_PART_SPECS: dict[int, tuple[Spec, Spec]] = {}  # id(spec) -> (spec, its part-unit copy)
+
+
+def _part_spec(spec: Spec) -> Spec:
+    """``spec`` read per part: itself, or for ``unit_of_analysis: lot`` one part-unit copy per
+    spec (a copy per characteristic cost a replace and, in ``analysis_values``, a new set of
+    the spec's names each: quadratic in the characteristics)."""
+    if spec.unit_of_analysis != "lot":
+        return spec
+    hit = _PART_SPECS.get(id(spec))
+    if hit is None or hit[0] is not spec:
+        if len(_PART_SPECS) >= 8:
+            _PART_SPECS.clear()
+        hit = _PART_SPECS[id(spec)] = (spec, replace(spec, unit_of_analysis="part"))
+    return hit[1]
+
+
 def gather(spec: Spec, meas: Measurements, ch: Characteristic, final: bool) -> CharDraft:
     """The streams, fit and shortfall of one measured characteristic (its process summaries
     follow in :func:`summarize`, once the statistics of every characteristic's samples have
     been computed together)."""
-    part_spec = replace(spec, unit_of_analysis="part") if spec.unit_of_analysis == "lot" else spec
+    part_spec = _part_spec(spec)
     streams = {name: _stream(spec, meas, name, ch, part_spec)
                for name in (*CANDIDATES, REFERENCE)}
     ref = streams[REFERENCE]
