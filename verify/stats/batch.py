@@ -155,13 +155,14 @@ def _resolution_rows(rows: list[tuple], n: int) -> None:
 
 
 def _one_ways(in_lots) -> None:
-    """one_way of each read-only sample in its lots, for the samples sharing one set of
-    (remembered, read-only) lot codes computed together: the same arithmetic element by
+    """one_way of each read-only sample in its lots, for the samples whose (remembered,
+    read-only) lot codes are equal computed together (each remembered with its own codes, the
+    object the one-sample route will hold): the same arithmetic element by
     element, the group sums accumulated in the order np.bincount adds them, each row's sums of
     squares by the dot np.dot computes on that row (as the one-sample route on the sample), the
     F tail once for all rows. Rows that are not finite, or without variation within the lots,
     are left to the one-sample route (and its error)."""
-    by_codes: dict[int, tuple] = {}
+    by_codes: dict[bytes, tuple] = {}
     # the codes of each distinct lots tuple, or None where the one-sample route would not share
     # them: group_codes remembers a tuple of text by content, and a tuple equal to it is text
     codes_of: dict[tuple, np.ndarray | None] = {}
@@ -179,20 +180,21 @@ def _one_ways(in_lots) -> None:
                 codes = None  # one-sample route would not share it
             codes_of[lots] = codes
         if codes is not None:
-            by_codes.setdefault(id(codes), (codes, {}))[1][id(x)] = x
+            by_codes.setdefault(codes.tobytes(), (codes, {}))[1][id(x)] = (x, codes)
     for codes, group in by_codes.values():
         if len(group) >= MIN_ROWS:
             _one_way_rows(list(group.values()), codes)
 
 
-def _one_way_rows(rows: list[np.ndarray], codes: np.ndarray) -> None:
-    """one_way._one_way of each row (see there), for rows sharing ``codes``."""
+def _one_way_rows(rows: list[tuple[np.ndarray, np.ndarray]], codes: np.ndarray) -> None:
+    """one_way._one_way of each sample of ``rows`` (pairs of a sample and its codes, equal to
+    ``codes``), see there."""
     n_total = codes.size
     sizes = np.bincount(codes)
     k = sizes.size
     if k < 2 or n_total <= k:
         return  # no between or no within degrees of freedom: the one-sample route's case
-    a = _stack(rows, len(rows))
+    a = _stack([r[0] for r in rows], len(rows))
     ok = np.logical_and.reduce(np.isfinite(a), axis=1)
     if not ok.all():
         a = a[ok]
@@ -219,11 +221,11 @@ def _one_way_rows(rows: list[np.ndarray], codes: np.ndarray) -> None:
     msb, msw = ss_between / df_b, ss_within / df_w
     f = msb / np.where(keep, msw, 1.0)
     p = special.fdtrc(df_b, df_w, f).tolist()
-    for r, (x, good, grand_r, msb_r, msw_r, f_r, p_r) in enumerate(zip(
+    for r, ((x, own), good, grand_r, msb_r, msw_r, f_r, p_r) in enumerate(zip(
             rows, keep.tolist(), grand.tolist(), msb.tolist(), msw.tolist(), f.tolist(), p,
             strict=True)):
         if good:
-            _memo.remember("one_way", x, (codes, OneWay(
+            _memo.remember("one_way", x, (own, OneWay(
                 grand_r, means_c[r], df_b, df_w, msb_r, msw_r, n0, f_r,
                 min(1.0, max(0.0, p_r)))))
 
