@@ -126,13 +126,14 @@ def _resolutions(joined) -> None:
     snap_to_grid treats apart, are left to the one-sample route."""
     by_n: dict[int, dict[tuple, tuple]] = {}
     for parts in joined:
-        if not parts or not all(_memo.frozen(x) and x.ndim == 1 and x.dtype == np.float64
-                                for x in parts):
-            continue
-        if _memo.recall("resolution", parts[0]) is not None:
-            continue
-        size = sum(x.size for x in parts)
-        by_n.setdefault(size, {})[tuple(map(id, parts))] = parts
+        size = 0
+        for x in parts:
+            if not (_memo.frozen(x) and x.ndim == 1 and x.dtype == np.float64):
+                break
+            size += x.size
+        else:
+            if parts and _memo.recall("resolution", parts[0]) is None:
+                by_n.setdefault(size, {})[tuple(map(id, parts))] = parts
     for n, group in by_n.items():
         if len(group) >= MIN_ROWS and n >= 2:
             _resolution_rows(list(group.values()), n)
@@ -163,24 +164,26 @@ def _one_ways(in_lots) -> None:
     F tail once for all rows. Rows that are not finite, or without variation within the lots,
     are left to the one-sample route (and its error)."""
     by_codes: dict[bytes, tuple] = {}
-    # the codes of each distinct lots tuple, or None where the one-sample route would not share
-    # them: group_codes remembers a tuple of text by content, and a tuple equal to it is text
-    codes_of: dict[tuple, np.ndarray | None] = {}
+    # the codes of each distinct lots tuple and its group (by the codes' content), or None
+    # where the one-sample route would not share them: group_codes remembers a tuple of text by
+    # content, and a tuple equal to it is text
+    codes_of: dict[tuple, tuple | None] = {}
     for x, lots in in_lots:
         if (not _memo.frozen(x) or x.ndim != 1 or x.dtype != np.float64 or type(lots) is not tuple
                 or len(lots) != x.size or _memo.recall("one_way", x) is not None):
             continue
-        codes = codes_of.get(lots, False)
-        if codes is False:
+        found = codes_of.get(lots, False)
+        if found is False:
             try:
                 codes = group_codes(lots, x.size)[1]
             except ValueError:
                 codes = None
             if codes is not None and codes.flags.writeable:  # not remembered by content: the
                 codes = None  # one-sample route would not share it
-            codes_of[lots] = codes
-        if codes is not None:
-            by_codes.setdefault(codes.tobytes(), (codes, {}))[1][id(x)] = (x, codes)
+            found = codes_of[lots] = None if codes is None else (
+                codes, by_codes.setdefault(codes.tobytes(), (codes, {}))[1])
+        if found is not None:
+            found[1][id(x)] = (x, found[0])
     for codes, group in by_codes.values():
         if len(group) >= MIN_ROWS:
             _one_way_rows(list(group.values()), codes)
@@ -372,12 +375,13 @@ def _snapped(d: np.ndarray) -> tuple[np.ndarray, np.ndarray, list[float]]:
 
 def _sorted_ranks(a: np.ndarray):
     """nonparametric.average_ranks of each row, in sorted order: where each sorted value sits
-    in its row (a stable argsort) and in the rows laid end to end, its average rank (the
-    one-sample route's float), and each row's tie counts: the groups of two or more equal
-    values, the values in them, and sum(t^3 - t) over its groups of t equal values (an exact
-    integer)."""
+    in its row and in the rows laid end to end, its average rank (the one-sample route's float),
+    and each row's tie counts: the groups of two or more equal values, the values in them, and
+    sum(t^3 - t) over its groups of t equal values (an exact integer). The values of a group of
+    equal ones share their average rank, so the order among them (which the one-sample route's
+    stable sort fixes) changes no rank and no sum of ranks: the sort need not be stable."""
     k, width = a.shape
-    order = np.argsort(a, axis=1, kind="stable")
+    order = np.argsort(a, axis=1)
     flat = order + (width * np.arange(k))[:, None]
     s = np.ascontiguousarray(a).ravel()[flat]
     new_value = np.ones((k, width), dtype=bool)
