@@ -110,3 +110,33 @@ def test_lot_means_are_within_two_roundings_of_the_exact_mean(demo):
             # a correctly rounded sum, then one division: two roundings of half an ulp each
             # (sum and quotient), so within an ulp of the sum's scale
             assert abs(Fraction(got) - exact) <= Fraction(float(np.spacing(2 * got)))
+
+
+@pytest.mark.parametrize("text", ["str", "string[python]", "string[pyarrow]", object])
+def test_gather_the_same_whatever_the_text_columns_storage(demo, text):
+    # the index codes its text columns with their own array's factorize: pandas' text dtype
+    # (pyarrow or Python storage), the string dtypes and plain object columns must all give
+    # what the pandas selection (reference_values, reference_pairs) gives
+    if "pyarrow" in str(text):
+        pytest.importorskip("pyarrow", reason="pandas' pyarrow text storage needs pyarrow")
+    from dataclasses import replace
+
+    spec = load_spec(demo / "specs" / "filler-paired.yaml")
+    meas = load_measurements(spec)
+    t = meas.table.copy()
+    for col in ("characteristic", "process", "lot", "pair"):
+        t[col] = t[col].astype(text)
+    t["excluded"] = t["excluded"].to_numpy(dtype=bool) | (np.arange(len(t)) % 7 == 3)
+    meas = replace(meas, table=t)
+    for ch in spec.characteristics:
+        for process in ("old", "new"):
+            got = analysis_values(meas, spec, ch.name, process)
+            values, lots, n_parts = reference_values(meas, spec, ch.name, process, "part")
+            np.testing.assert_array_equal(got.values, values)
+            assert got.lots == lots and got.n_parts == n_parts
+            assert all(type(x) is str for x in got.lots)
+        pv = paired_values(meas, spec, ch.name)
+        keys, old, new, unmatched = reference_pairs(meas, ch.name)
+        assert pv.keys == keys and pv.unmatched == unmatched
+        np.testing.assert_array_equal(pv.old, old)
+        np.testing.assert_array_equal(pv.new, new)

@@ -84,3 +84,42 @@ def test_non_finite_values_are_left_out():
 def test_bad_model_inputs_raise():
     with pytest.raises(ValueError):
         normal_ppm_beyond(0.0, 0.0, lower=-1.0, upper=1.0)
+
+
+def _frozen_finite(a):
+    """A sample as the evaluation hands it on: read-only, owning its data, known finite."""
+    from verify.stats._memo import freeze
+    from verify.stats.samples import finite_values
+
+    return finite_values(freeze(np.array(a, dtype=float)))
+
+
+def test_many_at_once_is_one_at_a_time_bit_for_bit():
+    # the reference is beyond_limits itself, called on each sample with its own limits
+    from verify.stats import _memo
+    from verify.stats.limits import beyond_limits_many
+
+    rng = np.random.default_rng(5)
+    samples, lower, upper, dist = [], [], [], []
+    for i in range(60):
+        n = (30, 30, 12, 2, 5)[i % 5]
+        v = rng.normal(10.0, 0.01 + 0.02 * (i % 3), n)
+        if i % 7 == 0:
+            v = np.full(n, 10.0)  # no spread: the normal model's note
+        lower.append(None if i % 4 == 1 else 9.97 + 0.001 * i)
+        upper.append(None if i % 4 == 2 else 10.03 - 0.0005 * i)
+        if i % 3 == 1 and n > 2:  # values on a limit are within it
+            v[:2] = (lower[-1] or 10.0), (upper[-1] or 10.0)
+        samples.append(_frozen_finite(v) if i % 11 else v.tolist())  # a list: plain route
+        dist.append("any" if i % 13 == 5 else "lognormal" if i % 17 == 3 else "normal")
+    try:
+        many = beyond_limits_many(samples, lower=lower, upper=upper, distribution=dist)
+        one = [beyond_limits(v, lower=lo, upper=hi, distribution=d)
+               for v, lo, hi, d in zip(samples, lower, upper, dist, strict=True)]
+    finally:
+        _memo.forget()
+    assert len(many) == len(one) == 60
+    assert sum(r.total for r in one) > 0 and sum(r.note is not None for r in one) > 0
+    for a, b in zip(many, one, strict=True):
+        assert vars(a) == vars(b)  # equal floats: the same bits (none is NaN here)
+        assert [type(x) for x in vars(a).values()] == [type(x) for x in vars(b).values()]

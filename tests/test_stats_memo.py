@@ -97,6 +97,24 @@ def test_lot_statistics_of_a_frozen_sample_equal_the_plain_ones():
         assert got == plain_le
 
 
+@pytest.mark.parametrize("x", list(_samples()))
+def test_sd_components_are_the_variance_components_sds(x):
+    # the process summary's shortcut against the full result (its own sd properties), on a
+    # frozen sample (the one-way analysis remembered) and a writeable one; the same errors
+    lots = tuple(f"lot-{i % 3}" for i in range(x.size))
+    for sample in (x.copy(), _memo.freeze(x.copy())):
+        try:
+            full = vc.variance_components(sample, lots)
+        except (DegenerateDataError, vc.NotApplicableError) as err:
+            with pytest.raises(type(err), match=str(err).split("(")[0]):
+                vc.sd_components(sample, lots)
+            continue
+        got = vc.sd_components(sample, lots)
+        assert got == (full.sd_within, full.sd_between, full.truncated)
+        assert [type(g) for g in got] == [float, float, bool]
+    _memo.forget()
+
+
 def test_remembered_lot_codes_equal_the_plain_ones_and_stay_intact():
     lots = tuple(f"L{i % 4}" for i in range(12))
     labels, codes = group_codes(lots, 12)

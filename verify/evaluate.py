@@ -64,8 +64,7 @@ def _evaluate(spec: Spec, measurements: Measurements, final: bool, run: RunInfo)
                         for x in (st.values, st.parts)],
                        in_lots=[q for d in measured for q in samples_in_lots(d)],
                        joined=[joined_parts(d) for d in measured])
-        for d in measured:
-            summarize(d)
+        summarize(measured)
         # and the rank statistics the kinds' companions will ask for (their hooks say which)
         batch.prefetch_ranks([q for d in measured for k in d.applicable()
                               for q in _rank_requests(k, d.inp)])

@@ -24,7 +24,8 @@ from .stats import distributions
 from .stats import variance_components as vc
 from .stats._memo import freeze
 from .stats.core import mean_sd
-from .stats.limits import BeyondLimits, beyond_limits
+from .stats.limits import BeyondLimits, beyond_limits_many
+from .stats.samples import group_codes
 
 REFERENCE = "old"  # the declared reference stream: every other stream is compared with it
 CANDIDATES = ("new",)  # the streams compared with the reference, today the new process
@@ -100,43 +101,61 @@ def sufficiency(spec: Spec, d: CharDraft, counts: dict, final: bool) -> None:
     d.counts = counts
 
 
-def _beyond(ch: Characteristic, parts: np.ndarray) -> BeyondLimits | None:
-    """Part values beyond the limits (None without limits): counted on parts, never lot means;
-    the expected ppm from the characteristic's declared distribution fitted to these parts."""
-    if ch.lower is None and ch.upper is None:
-        return None
-    return beyond_limits(parts, lower=ch.lower, upper=ch.upper, distribution=ch.distribution)
-
-
 def _summary(process: str, values: np.ndarray, lots, n_parts: int,
-             parts: np.ndarray | None = None,
-             beyond: BeyondLimits | None = None) -> ProcessSummary:
+             parts: np.ndarray | None = None, beyond: BeyondLimits | None = None,
+             extremes: tuple[float, float] | None = None) -> ProcessSummary:
+    """One stream's summary; ``extremes``: the values' (minimum, maximum) when known."""
     n = int(values.size)
     mean = sd = None
     if n:
         _, m, s = mean_sd(values)
         mean = m
         sd = s if n >= 2 else None
+        if extremes is None:  # values.min() and values.max(), unwrapped
+            extremes = float(np.minimum.reduce(values)), float(np.maximum.reduce(values))
     within = between = None
     truncated = False
     if parts is not None and parts.size:
         try:
-            comp = vc.variance_components(parts, lots)
-            within, between, truncated = comp.sd_within, comp.sd_between, comp.truncated
+            within, between, truncated = vc.sd_components(parts, lots)
         except CANNOT_COMPUTE:
             pass  # fewer than 2 lots of 2 parts, or no within-lot variation: not estimable
+    # the lots in order of first appearance, as text: the labels group_codes found (remembered
+    # for the stream's lots tuple), deduplicated again as text
+    labels = group_codes(lots, len(lots))[0] if len(lots) else ()
     return ProcessSummary(
         sd_within_lot=within, sd_between_lot=between, between_lot_set_to_zero=truncated,
         process=process,
         n=n,
         mean=mean,
         sd=sd,
-        lots=tuple(dict.fromkeys(map(str, lots))),
+        lots=tuple(dict.fromkeys(map(str, labels))),
         n_parts=n_parts,
-        minimum=float(np.minimum.reduce(values)) if n else None,  # values.min(), unwrapped
-        maximum=float(np.maximum.reduce(values)) if n else None,
+        minimum=extremes[0] if n else None,
+        maximum=extremes[1] if n else None,
         beyond_limits=beyond,
     )
+
+
+def _extremes(samples: list[np.ndarray]) -> list[tuple[float, float] | None]:
+    """(minimum, maximum) of each non-empty 1-D float sample (None for any other), those of one
+    size reduced as the rows of one array. The minimum and maximum of numbers are exact
+    whatever the order of reduction, but for a zero (0.0 and -0.0 compare equal, and which one
+    a reduction keeps depends on its order) and NaN: a row whose extreme is either is reduced
+    again alone, as one sample is."""
+    out: list[tuple[float, float] | None] = [None] * len(samples)
+    by_size: dict[int, list[int]] = {}
+    for i, v in enumerate(samples):
+        if type(v) is np.ndarray and v.ndim == 1 and v.size and v.dtype == np.float64:
+            by_size.setdefault(v.size, []).append(i)
+    for rows in by_size.values():
+        stacked = np.stack([samples[i] for i in rows])
+        lows = np.minimum.reduce(stacked, axis=1).tolist()
+        highs = np.maximum.reduce(stacked, axis=1).tolist()
+        for i, lo, hi in zip(rows, lows, highs, strict=True):
+            if lo != 0.0 and hi != 0.0 and lo == lo and hi == hi:
+                out[i] = (lo, hi)
+    return out
 
 
 def _stream(spec: Spec, meas: Measurements, name: str, ch: Characteristic, part_spec: Spec
@@ -198,12 +217,26 @@ def samples_in_lots(d: CharDraft) -> list[tuple[np.ndarray, tuple]]:
     return [(st.parts, st.lots) for st in d.shown.values() if st.parts.size]
 
 
-def summarize(d: CharDraft) -> None:
-    """The process summaries of a gathered measured characteristic (``d.processes``), one per
-    stream it shows."""
-    d.processes = {name: _summary(name, st.values, st.lots, int(st.parts.size), st.parts,
-                                  _beyond(d.ch, st.parts))
-                   for name, st in d.shown.items()}
+def summarize(measured: list[CharDraft]) -> None:
+    """The process summaries of gathered measured characteristics (``d.processes``), one per
+    stream each shows. The streams' minima and maxima and their parts beyond the limits are
+    computed together (:func:`_extremes`, :func:`~verify.stats.limits.beyond_limits_many`:
+    the same numbers as one stream at a time)."""
+    shown = [(d, name, st) for d in measured for name, st in d.shown.items()]
+    limited = [i for i, (d, _, _) in enumerate(shown)
+               if d.ch.lower is not None or d.ch.upper is not None]
+    # part values beyond the limits (none without limits): counted on parts, never lot means;
+    # the expected ppm from the characteristic's declared distribution fitted to these parts
+    beyond = dict(zip(limited, beyond_limits_many(
+        [shown[i][2].parts for i in limited], lower=[shown[i][0].ch.lower for i in limited],
+        upper=[shown[i][0].ch.upper for i in limited],
+        distribution=[shown[i][0].ch.distribution for i in limited]), strict=True))
+    extremes = _extremes([st.values for _, _, st in shown])
+    for d in measured:
+        d.processes = {}
+    for i, (d, name, st) in enumerate(shown):
+        d.processes[name] = _summary(name, st.values, st.lots, int(st.parts.size), st.parts,
+                                     beyond.get(i), extremes[i])
 
 
 def sub_streams(meas: Measurements, d: CharDraft) -> list[tuple[StreamDraft, CheckInput]]:

@@ -88,19 +88,28 @@ def analysis_values(measurements: Measurements, spec: Spec, characteristic_name:
     return AnalysisValues(values=values, lots=tuple(lots), unit="part", n_parts=hi - lo)
 
 
-@dataclass(frozen=True)
 class _Index:
     """The used measurements as numpy arrays, sorted by (characteristic, process, production
     order, source row), with the slice of each (characteristic, process): an evaluation reads
     every characteristic and process in turn, so the table is gathered once, not filtered per
-    call."""
+    call. The pair keys, which only :func:`paired_values` reads, are taken on first use."""
 
-    value: np.ndarray
-    lot: np.ndarray  # object array of str
-    pair: np.ndarray  # object array of str
-    order: np.ndarray
-    source_row: np.ndarray
-    groups: dict  # (characteristic, process) -> (start, stop)
+    __slots__ = ("value", "lot", "order", "source_row", "groups", "_table", "_rows", "_pair")
+
+    def __init__(self, table: pd.DataFrame, rows: np.ndarray, groups: dict) -> None:
+        self._table, self._rows, self._pair = table, rows, None
+        self.value = table["value"].to_numpy(dtype=float)[rows]
+        self.lot = table["lot"].to_numpy(dtype=object)[rows]  # object array of str
+        self.order = table["order"].to_numpy(dtype=np.int64)[rows]
+        self.source_row = table["source_row"].to_numpy(dtype=np.int64)[rows]
+        self.groups = groups  # (characteristic, process) -> (start, stop)
+
+    @property
+    def pair(self) -> np.ndarray:
+        """The pair key of each measurement (object array of str)."""
+        if self._pair is None:
+            self._pair = self._table["pair"].to_numpy(dtype=object)[self._rows]
+        return self._pair
 
 
 _INDEX_CACHE: dict[int, tuple] = {}
@@ -111,30 +120,28 @@ def _analysis_index(table: pd.DataFrame) -> _Index:
     if hit is not None and hit[0] is table:
         return hit[1]
     used = ~table["excluded"].to_numpy(dtype=bool)
-    char_codes, char_names = pd.factorize(table["characteristic"].to_numpy(dtype=object)[used])
-    proc_codes, proc_names = pd.factorize(table["process"].to_numpy(dtype=object)[used])
-    code = char_codes.astype(np.int64) * max(1, len(proc_names)) + proc_codes
-    order = table["order"].to_numpy(dtype=np.int64)[used]
-    source_row = table["source_row"].to_numpy(dtype=np.int64)[used]
+    # the text columns' codes by their array's own factorize (pyarrow's dictionary encoding
+    # for pandas' pyarrow text storage, not a Python string per row as to_numpy(object) and
+    # pd.factorize make): codes with names in order of first appearance, as pd.factorize gives
+    char_codes, char_names = table["characteristic"].array.factorize()
+    proc_codes, proc_names = table["process"].array.factorize()
+    char_names, proc_names = char_names.tolist(), proc_names.tolist()
+    width = max(1, len(proc_names))
+    rows = np.flatnonzero(used)
+    code = (char_codes.astype(np.int64) * width + proc_codes)[rows]
+    order = table["order"].to_numpy(dtype=np.int64)[rows]
+    source_row = table["source_row"].to_numpy(dtype=np.int64)[rows]
     # one stable sort: by group, then production order, then source row (ties keep table order)
     sort = np.lexsort((source_row, order, code))
     code_sorted = code[sort]
     starts = np.flatnonzero(np.concatenate(([True], code_sorted[1:] != code_sorted[:-1]))) \
         if code_sorted.size else np.zeros(0, dtype=np.intp)
     stops = np.append(starts[1:], code_sorted.size)
-    width = max(1, len(proc_names))
     groups = {}
-    for a, b in zip(starts.tolist(), stops.tolist(), strict=True):
-        c = int(code_sorted[a])
+    for a, b, c in zip(starts.tolist(), stops.tolist(), code_sorted[starts].tolist(),
+                       strict=True):
         groups[(str(char_names[c // width]), str(proc_names[c % width]))] = (a, b)
-    index = _Index(
-        value=table["value"].to_numpy(dtype=float)[used][sort],
-        lot=table["lot"].to_numpy(dtype=object)[used][sort],
-        pair=table["pair"].to_numpy(dtype=object)[used][sort],
-        order=order[sort],
-        source_row=source_row[sort],
-        groups=groups,
-    )
+    index = _Index(table, rows[sort], groups)
     if len(_INDEX_CACHE) >= 8:
         _INDEX_CACHE.clear()
     _INDEX_CACHE[id(table)] = (table, index)

@@ -153,3 +153,66 @@ def beyond_limits(
         model=distribution,
         note=note,
     )
+
+
+def beyond_limits_many(
+    samples: Sequence[ArrayLike], *, lower: Sequence[float | None],
+    upper: Sequence[float | None], distribution: Sequence[str],
+) -> list[BeyondLimits]:
+    """:func:`beyond_limits` of each sample with its own limits and distribution (``lower``,
+    ``upper`` and ``distribution`` as long as ``samples``), the same results computed together.
+
+    An evaluation summarises two part samples per characteristic. The normal model's samples
+    that are read-only and known finite (:mod:`verify.stats._memo`) are counted as rows of one
+    array per sample size, and their tails come from one call of Phi on every row's
+    standardised limits: elementwise the same comparisons, the same float64 arithmetic and the
+    same ``ndtr`` as one sample at a time. Any other sample goes through
+    :func:`beyond_limits` itself.
+
+    Examples
+    --------
+    >>> a, b = beyond_limits_many([[24.1, 25.0, 26.8, 25.2], [1.0, 2.0, 3.0]],
+    ...                           lower=[24.5, None], upper=[26.5, 2.5],
+    ...                           distribution=["normal", "normal"])
+    >>> (a.below, a.above), (b.below, b.above)
+    ((1, 1), (0, 1))
+    """
+    out: list[BeyondLimits | None] = [None] * len(samples)
+    by_size: dict[int, list[int]] = {}
+    for i, v in enumerate(samples):
+        if (distribution[i] == "normal" and type(v) is np.ndarray and v.ndim == 1
+                and v.size >= 2 and _memo.recall("finite", v) is not None):
+            by_size.setdefault(v.size, []).append(i)
+        else:
+            out[i] = beyond_limits(v, lower=lower[i], upper=upper[i],
+                                   distribution=distribution[i])
+    for rows in by_size.values():
+        lo = [lower[i] for i in rows]
+        hi = [upper[i] for i in rows]
+        stacked = np.stack([samples[i] for i in rows])
+        # a missing limit compares as NaN, which nothing is below or above (and counts 0)
+        below = np.count_nonzero(
+            stacked < np.array([np.nan if x is None else x for x in lo])[:, None], axis=1)
+        above = np.count_nonzero(
+            stacked > np.array([np.nan if x is None else x for x in hi])[:, None], axis=1)
+        ms = [mean_sd(samples[i])[1:] for i in rows]
+        # the standardised limits of the rows with a spread, Phi of all of them at once
+        fit = [r for r, (m, s) in enumerate(ms)
+               if s > 0 and math.isfinite(m) and math.isfinite(s)]
+        z = np.zeros(2 * len(fit))
+        z[0::2] = [(lo[r] - ms[r][0]) / ms[r][1] if lo[r] is not None else 0.0 for r in fit]
+        z[1::2] = [(ms[r][0] - hi[r]) / ms[r][1] if hi[r] is not None else 0.0 for r in fit]
+        tails = dict(zip(fit, zip(*[iter(special.ndtr(z).tolist())] * 2, strict=True),
+                         strict=True))
+        for r, (i, nb, na) in enumerate(zip(rows, below.tolist(), above.tolist(), strict=True)):
+            t = tails.get(r)
+            if t is None:  # no spread (or none finite): as beyond_limits says it, or raises
+                out[i] = beyond_limits(samples[i], lower=lo[r], upper=hi[r])
+                continue
+            ppm_lo = 0.0 if lo[r] is None else 1e6 * t[0]
+            ppm_hi = 0.0 if hi[r] is None else 1e6 * t[1]
+            out[i] = BeyondLimits(n=int(samples[i].size), below=nb if lo[r] is not None else 0,
+                                  above=na if hi[r] is not None else 0,
+                                  expected_ppm=ppm_lo + ppm_hi, expected_ppm_below=ppm_lo,
+                                  expected_ppm_above=ppm_hi, model="normal", note=None)
+    return out

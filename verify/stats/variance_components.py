@@ -118,23 +118,12 @@ def variance_components(values: ArrayLike, lots: Sequence[Hashable]) -> Variance
     >>> round(r.var_within, 4), round(r.var_between, 4)
     (0.02, 0.99)
     """
-    a = finite_values(values)
-    labels, codes = group_codes(lots, a.size)
-    k = len(labels)
-    sizes = group_sizes(codes, k)
-    lots_of_two = sum(size >= 2 for size in sizes.tolist())
-    if k < 2 or lots_of_two < 2:
-        raise NotApplicableError(
-            "variance components need at least 2 lots of at least 2 parts each "
-            f"({k} lot(s), {lots_of_two} with 2 or more parts)"
-        )
-    n_total = a.size
-    ow = one_way(a, codes, sizes, refused="within-lot variance cannot be estimated")
+    a, k, sizes, ow = _lots_one_way(values, lots)
     msb, msw, n0 = ow.ms_between, ow.ms_within, ow.n0
     raw = (msb - msw) / n0
     return VarianceComponentsResult(
         method="one-way random-effects ANOVA (method of moments, n0 for unequal lots)",
-        n=int(n_total),
+        n=int(a.size),
         n_lots=int(k),
         lot_sizes=tuple(sizes.tolist()),
         df_between=int(ow.df_between),
@@ -149,6 +138,39 @@ def variance_components(values: ArrayLike, lots: Sequence[Hashable]) -> Variance
         statistic=float(ow.statistic),
         pvalue=ow.pvalue,
     )
+
+
+def sd_components(values: ArrayLike, lots: Sequence[Hashable]) -> tuple[float, float, bool]:
+    """``(sd_within, sd_between, truncated)`` of :func:`variance_components` (the same
+    arithmetic and errors) without the rest of its result: what a process summary shows.
+
+    Examples
+    --------
+    >>> w, b, t = sd_components([1.0, 1.2, 2.0, 2.2, 3.0, 3.2], ["a", "a", "b", "b", "c", "c"])
+    >>> round(w ** 2, 4), round(b ** 2, 4), t
+    (0.02, 0.99, False)
+    """
+    _, _, _, ow = _lots_one_way(values, lots)
+    msb, msw = ow.ms_between, ow.ms_within
+    raw = (msb - msw) / ow.n0
+    return math.sqrt(float(msw)), math.sqrt(float(max(0.0, raw))), bool(raw < 0.0)
+
+
+def _lots_one_way(values: ArrayLike, lots: Sequence[Hashable]):
+    """The finite values, the number of lots, their sizes and the one-way ANOVA of the values
+    in their lots; NotApplicableError below 2 lots of 2 parts."""
+    a = finite_values(values)
+    labels, codes = group_codes(lots, a.size)
+    k = len(labels)
+    sizes = group_sizes(codes, k)
+    lots_of_two = sum(size >= 2 for size in sizes.tolist())
+    if k < 2 or lots_of_two < 2:
+        raise NotApplicableError(
+            "variance components need at least 2 lots of at least 2 parts each "
+            f"({k} lot(s), {lots_of_two} with 2 or more parts)"
+        )
+    ow = one_way(a, codes, sizes, refused="within-lot variance cannot be estimated")
+    return a, k, sizes, ow
 
 
 @dataclass(frozen=True)
