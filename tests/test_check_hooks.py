@@ -47,6 +47,16 @@ def test_every_kind_keeps_the_protocol(kind):
         assert dataclasses.is_dataclass(cls) and cls.__dataclass_params__.frozen, cls
 
 
+def test_find_is_kind_or_none():
+    # the registry's definition (verify/checks/__init__.py): kind(name) or KeyError
+    from verify.checks import find, kind, names
+
+    assert [find(n) for n in names()] == [kind(n) for n in names()] == list(kinds())
+    assert find("sufficiency") is None and find("") is None
+    with pytest.raises(KeyError):
+        kind("sufficiency")
+
+
 def test_check_result_has_no_untyped_extra():
     names = {f.name for f in dataclasses.fields(CheckResult)}
     assert "extra" not in names and "details" in names

@@ -353,3 +353,26 @@ def test_group_sizes_are_bincount_and_remembered_only_for_read_only_codes():
     again = group_sizes(loose, 4)
     assert again.tolist() == [3, 2, 1, 0] and group_sizes(loose, 4) is not again
     _memo.forget()
+
+
+def test_topics_of_one_array_are_kept_apart_and_forgotten_together(monkeypatch):
+    # the memo's contract (verify/stats/_memo.py): a frozen array's topics are independent,
+    # any other input remembers nothing, forget() and the cap empty it
+    a, b = _memo.freeze(np.arange(3.0)), _memo.freeze(np.arange(4.0))
+    try:
+        _memo.remember("mean_sd", a, "A1")
+        _memo.remember("finite", a, True)
+        _memo.remember("mean_sd", b, "B1")
+        _memo.remember("mean_sd", a, "A2")  # a topic remembered again replaces the first
+        assert (_memo.recall("mean_sd", a), _memo.recall("finite", a)) == ("A2", True)
+        assert _memo.recall("mean_sd", b) == "B1" and _memo.recall("finite", b) is None
+        assert _memo.recall("mean_sd", a.copy()) is None  # an equal array is another array
+        w = np.arange(3.0)
+        _memo.remember("mean_sd", w, "W")
+        assert _memo.recall("mean_sd", w) is None  # writeable: never remembered
+        monkeypatch.setattr(_memo, "MAX_ENTRIES", 2)
+        _memo.remember("mean_sd", _memo.freeze(np.ones(2)), "C")  # a third array: cleared
+        assert _memo.recall("mean_sd", a) is None and _memo.recall("mean_sd", b) is None
+    finally:
+        _memo.forget()
+    assert _memo._CACHE == {}

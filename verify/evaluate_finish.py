@@ -9,8 +9,8 @@ from __future__ import annotations
 import numpy as np
 
 from . import decide
+from .checks import find as find_kind
 from .checks import kind
-from .checks import names as kind_names
 from .checks.drafting import replaced
 from .evaluate_gather import CANDIDATES, CharDraft, StreamDraft
 from .model import CharacteristicResult, CheckResult, StreamResult
@@ -43,14 +43,9 @@ def adjust(drafts: list[CharDraft], method: str, alpha: float
     tests) across characteristics; a check that cannot be computed is left out of it and counts
     nowhere (not in the adjustment, not in alpha / m).
     """
-    def every(d):
-        # the characteristic's own checks, then each stream's, with the name the family lists
-        yield from ((d.ch.name, dr) for dr in d.checks)
-        for st in d.streams:
-            yield from ((f"{d.ch.name} [stream {st.name}]", dr) for dr in st.checks)
-
-    family = [(label, dr) for d in drafts for label, dr in every(d) if dr.finish is not None]
-    excluded = tuple(f"{label}: {dr.result.check}" for d in drafts for label, dr in every(d)
+    members = _members(drafts)
+    family = [(label, dr) for label, dr in members if dr.finish is not None]
+    excluded = tuple(f"{label}: {dr.result.check}" for label, dr in members
                      if dr.family and dr.finish is None)
     names = tuple(f"{label}: {dr.result.check}" for label, dr in family)
     if not family:
@@ -58,17 +53,31 @@ def adjust(drafts: list[CharDraft], method: str, alpha: float
     adjusted = method != "none"
     m = len(family)
     eff_alpha = alpha / m if adjusted else alpha
-    for _, dr in family:
-        dr.result = replaced(dr.result, **dr.complete(eff_alpha, m))
+    # each member's fields at the family's level, then its decision on the adjusted p-value,
+    # into one copy of its result (a finish reads what its complete found, not the result)
+    completed = [dr.complete(eff_alpha, m) for _, dr in family]
     ps = np.array([dr.family_p for _, dr in family])
     adj = multiplicity.adjust(ps, method) if adjusted else ps
-    for (_, dr), pa in zip(family, adj, strict=True):
+    for (_, dr), done, pa in zip(family, completed, adj.tolist(), strict=True):
         v = dr.finish(float(pa), adjusted)
         dr.harm_shown = v.outcome == "HOLD"
-        dr.result = replaced(dr.result, outcome=v.outcome, reason=v.reason,
-                            p_adjusted=float(pa) if adjusted else None)
+        dr.result = replaced(dr.result, **{**done, "outcome": v.outcome, "reason": v.reason,
+                                           "p_adjusted": float(pa) if adjusted else None})
         dr.finish = None
     return names, excluded
+
+
+def _members(drafts: list[CharDraft]) -> list[tuple[str, object]]:
+    """Every draft with the name the family lists it under: each characteristic's own checks,
+    then each of its streams'."""
+    out = []
+    for d in drafts:
+        name = d.ch.name
+        out.extend([(name, dr) for dr in d.checks])
+        for st in d.streams:
+            label = f"{name} [stream {st.name}]"
+            out.extend([(label, dr) for dr in st.checks])
+    return out
 
 
 def _beyond_words(ch: Characteristic, b: BeyondLimits) -> str:
@@ -90,46 +99,48 @@ def _beyond_words(ch: Characteristic, b: BeyondLimits) -> str:
 def finish(spec: Spec, d: CharDraft) -> CharacteristicResult:
     """The characteristic's result: sufficiency applied, review notes, combined decision."""
 
-    checks = []
-    so_far = []
-    for dr in d.checks:
-        res = dr.result
-        if d.shortfall is not None:
+    name = d.ch.name
+    if d.shortfall is None:
+        checks = [dr.result for dr in d.checks]
+        so_far = []
+    else:
+        checks, so_far = [], []
+        for dr in d.checks:
+            res = dr.result
             so_far.append(f"{res.check} so far: {res.reason}")
             v = decide.while_pending(decide.Verdict(res.outcome, res.reason),
                                      harm_shown=dr.harm_shown, shortfall=d.shortfall)
-            res = replaced(res, outcome=v.outcome, reason=v.reason)
-        checks.append(res)
-    if d.shortfall is not None and not checks:
-        checks.append(CheckResult(check="sufficiency", method="count against min_n",
-                                  hypothesis="the planned sample size is reached",
-                                  alternative=None, margin=None, outcome="PENDING",
-                                  reason=d.shortfall))
-    review = []
-    for dg in d.diagnostics:
-        if dg.flag:
-            review.append(f"review: {d.ch.name} ({dg.group}): {dg.note}")
-    for name in CANDIDATES:
-        beyond = d.processes[name].beyond_limits if name in d.processes else None
+            checks.append(replaced(res, outcome=v.outcome, reason=v.reason))
+        if not checks:
+            checks.append(CheckResult(check="sufficiency", method="count against min_n",
+                                      hypothesis="the planned sample size is reached",
+                                      alternative=None, margin=None, outcome="PENDING",
+                                      reason=d.shortfall))
+    review = [f"review: {name} ({dg.group}): {dg.note}" for dg in d.diagnostics if dg.flag]
+    for process in CANDIDATES:
+        summary = d.processes.get(process)
+        beyond = summary.beyond_limits if summary is not None else None
         if beyond is not None and beyond.total:
-            review.append(f"review: {d.ch.name} ({name}): {_beyond_words(d.ch, beyond)}")
-    known = kind_names()
-    for k, res in ((kind(r.check), r) for r in checks if r.check in known):
+            review.append(f"review: {name} ({process}): {_beyond_words(d.ch, beyond)}")
+    for res in checks:
+        k = find_kind(res.check)
+        if k is None:
+            continue  # not a kind's check (sufficiency)
         review_of = getattr(k.hook("rule"), "review", None)  # optional: notes after deciding
-        notes = review_of(k, res, spec) if review_of is not None else ()
-        review.extend(f"review: {d.ch.name}: {note}" for note in notes)
+        if review_of is not None:
+            review.extend([f"review: {name}: {note}" for note in review_of(k, res, spec)])
     if d.final_shortfall is not None:
-        review.append(f"review: {d.ch.name}: final run with the plan cut short "
+        review.append(f"review: {name}: final run with the plan cut short "
                       f"({d.final_shortfall})")
     if spec.min_n is None and d.counts:
         smallest = min(d.counts.values())
-        review.append(f"review: {d.ch.name}: no planned sample size (min_n) declared; the "
+        review.append(f"review: {name}: no planned sample size (min_n) declared; the "
                       f"decision rests on n = {smallest}")
     if d.unmatched:
-        review.append(f"review: {d.ch.name}: {len(d.unmatched)} pair key(s) with one side only "
+        review.append(f"review: {name}: {len(d.unmatched)} pair key(s) with one side only "
                       f"left out of the paired analysis: {', '.join(map(str, d.unmatched[:10]))}")
     streams = tuple(_finish_stream(d, st) for st in d.streams)
-    outcome = decide.combine([*(c.outcome for c in checks), *(st.decision for st in streams)])
+    outcome = decide.combine([c.outcome for c in checks] + [st.decision for st in streams])
     if outcome == "PENDING" and d.shortfall is not None:
         reasons = (d.shortfall, *so_far)
     else:

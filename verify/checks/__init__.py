@@ -97,6 +97,11 @@ def kind(name: str) -> CheckKind:
     return _by_name()[name]
 
 
+def find(name: str) -> CheckKind | None:
+    """The kind called ``name``, or None when no kind has that name."""
+    return _by_name().get(name)
+
+
 @cache
 def _by_name() -> dict[str, CheckKind]:
     return {k.name: k for k in kinds()}
@@ -107,4 +112,4 @@ def names(measures: str | None = None) -> tuple[str, ...]:
     return tuple(k.name for k in kinds() if measures is None or k.measures == measures)
 
 
-__all__ = ["CheckKind", "kinds", "kind", "names"]
+__all__ = ["CheckKind", "kinds", "kind", "find", "names"]

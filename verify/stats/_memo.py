@@ -5,23 +5,26 @@ An evaluation hands the same sample to a dozen statistics (t-test, spread, capab
 normality, outliers, stability, ...); each needs the mean and sd, each checks the values are
 finite. Only a **read-only array that owns its data** is remembered: such an array cannot
 change behind the memo's back (the evaluation marks the samples it gathers read-only); any
-other input is computed every time. The memo holds its arrays (so an id is never reused while
-its entry lives) and is emptied when it reaches :data:`MAX_ENTRIES` or an evaluation ends
-(:func:`forget`).
+other input is computed every time. The memo keeps one entry per array, the array itself (so
+its id is never reused while the entry lives) with what was remembered of it by topic, and is
+emptied when it reaches :data:`MAX_ENTRIES` arrays or an evaluation ends (:func:`forget`).
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-#: An evaluation remembers about 20 entries per measured characteristic (its samples' means,
-#: diagnostics, one-way analyses, rank statistics), all made in its batched pass before the
-#: checks read them: the cap must hold a large layout's whole pass, or the memo empties midway
-#: and the checks compute again what was batched (16384 entries made a 1,000-characteristic
-#: layout about 30% slower per characteristic). It only bounds a memo nobody empties.
-MAX_ENTRIES = 1 << 17
+#: An evaluation remembers about 20 things per measured characteristic (its samples' means,
+#: diagnostics, one-way analyses, rank statistics) of about two arrays, all made in its batched
+#: pass before the checks read them: the cap must hold a large layout's whole pass, or the memo
+#: empties midway and the checks compute again what was batched (a cap of 16384 things made a
+#: 1,000-characteristic layout about 30% slower per characteristic). It only bounds a memo
+#: nobody empties.
+MAX_ENTRIES = 1 << 15
 
-_CACHE: dict[tuple[str, int], tuple[object, object]] = {}
+# id(array) -> (the array, {topic: what was remembered}): a recall is two lookups without a key
+# to build, and forgetting an evaluation frees a few entries per characteristic
+_CACHE: dict[int, tuple[object, dict[str, object]]] = {}
 
 
 def frozen(x: object) -> bool:
@@ -35,9 +38,9 @@ def frozen(x: object) -> bool:
 def recall(topic: str, x: object):
     """The remembered ``topic`` of ``x``, or None. Only frozen arrays are ever remembered (and
     the entry holds the array, so that its id is not reused): any other ``x`` finds none."""
-    hit = _CACHE.get((topic, id(x)))
+    hit = _CACHE.get(id(x))
     if hit is not None and hit[0] is x:
-        return hit[1]
+        return hit[1].get(topic)
     return None
 
 
@@ -45,9 +48,13 @@ def remember(topic: str, x: object, value: object) -> None:
     """Remember ``value`` as the ``topic`` of ``x`` if it is a frozen array (else nothing)."""
     if not frozen(x):
         return
+    hit = _CACHE.get(id(x))
+    if hit is not None and hit[0] is x:
+        hit[1][topic] = value
+        return
     if len(_CACHE) >= MAX_ENTRIES:
         _CACHE.clear()
-    _CACHE[(topic, id(x))] = (x, value)
+    _CACHE[id(x)] = (x, {topic: value})
 
 
 def forget() -> None:
