@@ -222,6 +222,31 @@ def test_tost_planning_together_equals_the_one_at_a_time_search_exactly():
                                             high=q["high"], sd_old=q["sd_old"])
 
 
+@pytest.mark.parametrize("offset", [-3, -1, 2, 5])
+def test_tost_planning_walks_up_and_down_from_any_guess(monkeypatch, offset):
+    """The walks from the guesses integrate the size below each guess in their first round
+    (the approximation usually asks for one or two more): from guesses moved below (walks
+    that go up) or further above (walks that step down several times), every answer still
+    equals the one-at-a-time search's."""
+    rng = np.random.default_rng(31 + offset)
+    questions = []
+    for i in range(24):
+        design = ("one-sample", "paired", "pooled", "welch")[i % 4]
+        n = int(rng.integers(2, 40))
+        questions.append(dict(
+            true_shift=float(rng.choice([0.0, 0.004])), sd=float(rng.uniform(0.002, 0.02)),
+            n_new=n, n_old=None if design == "one-sample" else n, design=design, alpha=0.05,
+            low=-0.02, high=0.02, power=0.9, ratio=1.0,
+            sd_old=float(rng.uniform(0.002, 0.02)) if design == "welch" else None))
+    guesses = sample_size_many._guesses
+    monkeypatch.setattr(sample_size_many, "_guesses", lambda setups: [
+        None if g is None else max(2, g + offset) for g in guesses(setups)])
+    for q, (_, size) in zip(questions, sample_size_many.plan_tost_many(questions), strict=True):
+        assert size == sample_size.sample_size_tost(
+            q["true_shift"], q["sd"], design=q["design"], alpha=q["alpha"], low=q["low"],
+            high=q["high"], power=q["power"], ratio=q["ratio"], sd_old=q["sd_old"])
+
+
 def test_replaced_copies_as_dataclasses_replace_does():
     res = CheckResult(check="shift", method="t", hypothesis="h", alternative=None, margin=None,
                       outcome="PASS", reason="r", estimate=1.5)

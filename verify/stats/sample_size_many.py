@@ -203,26 +203,38 @@ def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, SampleSize
     found: dict[int, tuple[int, float] | None] = {}
     own = np.array(cases, dtype=float).reshape(-1, 6).T  # the first round's leading cases
     own_of = [i for i, _ in owners]
+    # the lot sizes each walk's next round integrates: the first round also takes the size below
+    # the guess, the walk's usual second step (the approximation asks for one or two more than
+    # the exact power needs), so that most walks end after one round; a walk is sent every
+    # power it asks for, from the round that integrated it (the same float either way)
+    ask = {i: [n, n - 1] if n > 2 else [n] for i, (_, _, _, n) in walks.items()}
+    known: dict[int, dict[int, float]] = {i: {} for i in walks}
     first = True
-    while walks or first:
-        ids = list(walks)
-        cols = table.cases(np.array([walks[i][0] for i in ids], dtype=np.intp),
-                           [walks[i][3] for i in ids])
+    while ask or first:
+        ids = [i for i, ns in ask.items() for _ in ns]
+        ns = [n for n_list in ask.values() for n in n_list]
+        cols = table.cases(np.array([walks[i][0] for i in ids], dtype=np.intp), ns)
         if first:
-            cols, first = np.hstack([own, cols]), False
+            cols = np.hstack([own, cols])
         values = _tost_power_many(*cols).tolist() if cols.shape[1] else []
-        if len(values) > len(ids):
+        if first:
             for i, v in zip(own_of, values[:len(own_of)], strict=True):
                 powers[i] = v
-            values = values[len(own_of):]
-        asked = {}
-        for i, v in zip(ids, values, strict=True):
-            row, setup, walk, _ = walks[i]
+            values, first = values[len(own_of):], False
+        for i, n, v in zip(ids, ns, values, strict=True):
+            known[i][n] = v
+        nxt = {}
+        for i in ask:
+            row, setup, walk, n = walks[i]
+            seen = known[i]
             try:
-                asked[i] = (row, setup, walk, walk.send(v))
+                while n in seen:
+                    n = walk.send(seen[n])
+                walks[i] = (row, setup, walk, n)
+                nxt[i] = [n]
             except StopIteration as stop:
                 found[i] = stop.value
-        walks = asked
+        ask = nxt
     results: list[SampleSize | None] = [None] * len(questions)
     for i, setup in sizes:
         hit = found.get(i)
