@@ -340,3 +340,26 @@ def test_batched_medians_with_negative_zeros_keep_the_one_sample_sign():
         assert repr(_batched(brown_forsythe, fa, new=fb)) == \
             repr(_plain(brown_forsythe, a, new=b.copy()))
     _memo.forget()
+
+
+def test_batched_one_way_of_samples_in_lots_with_equal_codes():
+    # samples whose lots have other names but the same pattern (equal codes) are analysed
+    # together; each is remembered with its own lots' codes (the object the one-sample route
+    # holds, so the route finds it) and equals the one-sample route's analysis
+    from verify.stats.lot_effect import lot_effect
+    from verify.stats.samples import group_codes
+
+    rng = np.random.default_rng(12)
+    lots_a = tuple(f"A{i // 10}" for i in range(30))
+    lots_b = tuple(f"B{i // 10}" for i in range(30))
+    lots_c = tuple(f"C{i % 3}" for i in range(30))  # another pattern: analysed apart
+    cases = [(np.round(rng.normal(10.0, 0.01, 30), 3), lots)
+             for lots in (lots_a, lots_b, lots_a, lots_b, lots_c, lots_c)]
+    frozen = [(_memo.freeze(x.copy()), lots) for x, lots in cases]
+    _memo.forget()
+    batch.prefetch([], in_lots=frozen)
+    for (x, lots), (f, _) in zip(cases, frozen, strict=True):
+        hit = _memo.recall("one_way", f)
+        assert hit is not None and hit[0] is group_codes(lots, 30)[1]
+        assert _batched(lot_effect, f, lots=lots) == _plain(lot_effect, x, lots=list(lots))
+    _memo.forget()

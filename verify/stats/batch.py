@@ -49,7 +49,7 @@ def prefetch(samples, in_lots=(), joined=()) -> None:
     _one_ways(in_lots)
     _resolutions(joined)
     by_n: dict[int, dict[int, np.ndarray]] = {}
-    for x in samples:
+    for x in {id(x): x for x in samples}.values():  # (a sample given twice is looked at once)
         if (x is None or not _memo.frozen(x) or x.ndim != 1 or x.dtype != np.float64
                 or _memo.recall("individuals_chart", x) is not None):
             continue
@@ -59,8 +59,14 @@ def prefetch(samples, in_lots=(), joined=()) -> None:
             _stacked(list(group.values()), n)
 
 
+def _stack(arrays: list[np.ndarray], k: int) -> np.ndarray:
+    """1-D arrays end to end as ``k`` rows of equal length, C-contiguous: np.stack's array for
+    rows of one length, in one concatenation (np.stack makes a view of each row first)."""
+    return np.concatenate(arrays).reshape(k, -1)
+
+
 def _stacked(rows: list[np.ndarray], n: int) -> None:
-    x = np.stack(rows)  # (k, n), C-contiguous
+    x = _stack(rows, len(rows))  # (k, n), C-contiguous
     # finite, within the magnitude mean_sd accepts, with a spread: what every diagnostic here
     # needs (anything else goes to the one-sample route and its error; NaN fails the tests)
     lo, hi = np.minimum.reduce(x, axis=1), np.maximum.reduce(x, axis=1)
@@ -120,71 +126,78 @@ def _resolutions(joined) -> None:
     snap_to_grid treats apart, are left to the one-sample route."""
     by_n: dict[int, dict[tuple, tuple]] = {}
     for parts in joined:
-        if not parts or not all(_memo.frozen(x) and x.ndim == 1 and x.dtype == np.float64
-                                for x in parts):
-            continue
-        if _memo.recall("resolution", parts[0]) is not None:
-            continue
-        size = sum(x.size for x in parts)
-        by_n.setdefault(size, {})[tuple(map(id, parts))] = parts
+        size = 0
+        for x in parts:
+            if not (_memo.frozen(x) and x.ndim == 1 and x.dtype == np.float64):
+                break
+            size += x.size
+        else:
+            if parts and _memo.recall("resolution", parts[0]) is None:
+                by_n.setdefault(size, {})[tuple(map(id, parts))] = parts
     for n, group in by_n.items():
         if len(group) >= MIN_ROWS and n >= 2:
             _resolution_rows(list(group.values()), n)
 
 
 def _resolution_rows(rows: list[tuple], n: int) -> None:
-    x = np.stack([parts[0] if len(parts) == 1 else np.concatenate(parts) for parts in rows])
-    units, ok = _snapped(x)
+    x = _stack([x for parts in rows for x in parts], len(rows))  # each row its parts joined
+    units, ok, quanta = _snapped(x)
     ok &= np.logical_and.reduce(np.isfinite(x), axis=1)
-    scale = np.maximum.reduce(np.abs(x), axis=1).tolist()
     s = np.sort(units, axis=1)
     gaps = s[:, 1:] - s[:, :-1]
     nonzero = gaps != 0
     distinct = (np.add.reduce(nonzero, axis=1) + 1).tolist()
     smallest = np.minimum.reduce(np.where(nonzero, gaps, np.inf), axis=1).tolist()
-    for r, parts in enumerate(rows):
-        if not ok[r]:
-            continue
-        if distinct[r] < 2:
-            steps = (n, distinct[r], None)
-        else:
-            quantum = 10.0 ** (math.floor(math.log10(scale[r])) - (RESOLUTION_DIGITS - 1))
-            steps = (n, distinct[r], step_from_units(smallest[r], quantum))
-        _memo.remember("resolution", parts[0], (parts[1:], steps))
+    for parts, good, count, step, quantum in zip(rows, ok.tolist(), distinct, smallest, quanta,
+                                                 strict=True):
+        if good:
+            _memo.remember("resolution", parts[0], (parts[1:], (
+                n, count, None if count < 2 else step_from_units(step, quantum))))
 
 
 def _one_ways(in_lots) -> None:
-    """one_way of each read-only sample in its lots, for the samples sharing one set of
-    (remembered, read-only) lot codes computed together: the same arithmetic element by
+    """one_way of each read-only sample in its lots, for the samples whose (remembered,
+    read-only) lot codes are equal computed together (each remembered with its own codes, the
+    object the one-sample route will hold): the same arithmetic element by
     element, the group sums accumulated in the order np.bincount adds them, each row's sums of
-    squares by np.dot on that row (as the one-sample route on the sample), the F tail once for
-    all rows. Rows that are not finite, or without variation within the lots, are left to the
-    one-sample route (and its error)."""
-    by_codes: dict[int, tuple] = {}
+    squares by the dot np.dot computes on that row (as the one-sample route on the sample), the
+    F tail once for all rows. Rows that are not finite, or without variation within the lots,
+    are left to the one-sample route (and its error)."""
+    by_codes: dict[bytes, tuple] = {}
+    # the codes of each distinct lots tuple and its group (by the codes' content), or None
+    # where the one-sample route would not share them: group_codes remembers a tuple of text by
+    # content, and a tuple equal to it is text
+    codes_of: dict[tuple, tuple | None] = {}
     for x, lots in in_lots:
         if (not _memo.frozen(x) or x.ndim != 1 or x.dtype != np.float64 or type(lots) is not tuple
                 or len(lots) != x.size or _memo.recall("one_way", x) is not None):
             continue
-        try:
-            _, codes = group_codes(lots, x.size)
-        except ValueError:
-            continue
-        if codes.flags.writeable:  # not remembered by content: the route would not share it
-            continue
-        by_codes.setdefault(id(codes), (codes, {}))[1][id(x)] = x
+        found = codes_of.get(lots, False)
+        if found is False:
+            try:
+                codes = group_codes(lots, x.size)[1]
+            except ValueError:
+                codes = None
+            if codes is not None and codes.flags.writeable:  # not remembered by content: the
+                codes = None  # one-sample route would not share it
+            found = codes_of[lots] = None if codes is None else (
+                codes, by_codes.setdefault(codes.tobytes(), (codes, {}))[1])
+        if found is not None:
+            found[1][id(x)] = (x, found[0])
     for codes, group in by_codes.values():
         if len(group) >= MIN_ROWS:
             _one_way_rows(list(group.values()), codes)
 
 
-def _one_way_rows(rows: list[np.ndarray], codes: np.ndarray) -> None:
-    """one_way._one_way of each row (see there), for rows sharing ``codes``."""
+def _one_way_rows(rows: list[tuple[np.ndarray, np.ndarray]], codes: np.ndarray) -> None:
+    """one_way._one_way of each sample of ``rows`` (pairs of a sample and its codes, equal to
+    ``codes``), see there."""
     n_total = codes.size
     sizes = np.bincount(codes)
     k = sizes.size
     if k < 2 or n_total <= k:
         return  # no between or no within degrees of freedom: the one-sample route's case
-    a = np.stack(rows)
+    a = _stack([r[0] for r in rows], len(rows))
     ok = np.logical_and.reduce(np.isfinite(a), axis=1)
     if not ok.all():
         a = a[ok]
@@ -211,11 +224,11 @@ def _one_way_rows(rows: list[np.ndarray], codes: np.ndarray) -> None:
     msb, msw = ss_between / df_b, ss_within / df_w
     f = msb / np.where(keep, msw, 1.0)
     p = special.fdtrc(df_b, df_w, f).tolist()
-    for r, (x, good, grand_r, msb_r, msw_r, f_r, p_r) in enumerate(zip(
+    for r, ((x, own), good, grand_r, msb_r, msw_r, f_r, p_r) in enumerate(zip(
             rows, keep.tolist(), grand.tolist(), msb.tolist(), msw.tolist(), f.tolist(), p,
             strict=True)):
         if good:
-            _memo.remember("one_way", x, (codes, OneWay(
+            _memo.remember("one_way", x, (own, OneWay(
                 grand_r, means_c[r], df_b, df_w, msb_r, msw_r, n0, f_r,
                 min(1.0, max(0.0, p_r)))))
 
@@ -343,28 +356,34 @@ def prefetch_ranks(requests) -> None:
             _brown_forsythe_sums(list(group.values()), n_old, n_new)
 
 
-def _snapped(d: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """samples.snap_to_grid of each row, and which rows it handles as the usual case (a
-    positive largest magnitude, a quantum above the float floor, finite values)."""
-    scale = np.maximum.reduce(np.abs(d), axis=1).tolist()
-    quanta, ok = [], []
-    for ref in scale:
-        good = math.isfinite(ref) and ref > 0.0
-        q = 10.0 ** (math.floor(math.log10(ref)) - (RESOLUTION_DIGITS - 1)) if good else 1.0
-        good = good and q >= 1e-290
-        quanta.append(q if good else 1.0)
-        ok.append(good)
-    return np.round(d / np.array(quanta)[:, None]), np.array(ok, dtype=bool)
+def _snapped(d: np.ndarray) -> tuple[np.ndarray, np.ndarray, list[float]]:
+    """samples.snap_to_grid of each row, which rows it handles as the usual case (a positive
+    finite largest magnitude, a quantum above the float floor) and each row's quantum (1.0 for
+    the others)."""
+    scale = np.maximum.reduce(np.abs(d), axis=1)
+    good = (scale > 0.0) & (scale < math.inf)  # (NaN is neither)
+    top = RESOLUTION_DIGITS - 1
+    quanta = [10.0 ** (math.floor(math.log10(ref)) - top) if g else 1.0
+              for ref, g in zip(scale.tolist(), good.tolist(), strict=True)]
+    q = np.array(quanta)
+    ok = good & (q >= 1e-290)
+    if not ok.all():
+        q[~ok] = 1.0
+        quanta = q.tolist()
+    return np.round(d / q[:, None]), ok, quanta
 
 
 def _sorted_ranks(a: np.ndarray):
     """nonparametric.average_ranks of each row, in sorted order: where each sorted value sits
-    in its row (a stable argsort), its average rank (the one-sample route's float), whether it
-    starts a group of equal values, and each row's tie counts: the groups of two or more, the
-    values in them, and sum(t^3 - t) over its groups of t equal values (an exact integer)."""
+    in its row and in the rows laid end to end, its average rank (the one-sample route's float),
+    and each row's tie counts: the groups of two or more equal values, the values in them, and
+    sum(t^3 - t) over its groups of t equal values (an exact integer). The values of a group of
+    equal ones share their average rank, so the order among them (which the one-sample route's
+    stable sort fixes) changes no rank and no sum of ranks: the sort need not be stable."""
     k, width = a.shape
-    order = np.argsort(a, axis=1, kind="stable")
-    s = np.ascontiguousarray(a).ravel()[order + (width * np.arange(k))[:, None]]
+    order = np.argsort(a, axis=1)
+    flat = order + (width * np.arange(k))[:, None]
+    s = np.ascontiguousarray(a).ravel()[flat]
     new_value = np.ones((k, width), dtype=bool)
     np.not_equal(s[:, 1:], s[:, :-1], out=new_value[:, 1:])
     run_id = np.cumsum(new_value.ravel()).reshape(k, width) - 1
@@ -377,7 +396,7 @@ def _sorted_ranks(a: np.ndarray):
     first_of_tie = tied & new_value
     ties = (np.add.reduce(first_of_tie, axis=1).tolist(), np.add.reduce(tied, axis=1).tolist(),
             np.add.reduce(np.where(first_of_tie, size**3 - size, 0), axis=1))
-    return order, ranks, ties
+    return order, flat, ranks, ties
 
 
 def _row_medians(v: np.ndarray, *, row=None) -> list[float]:
@@ -413,9 +432,9 @@ def _signed_ranks(rows: list[tuple[np.ndarray, float]], n: int) -> None:
     one length: the rows ranked together, those with zero differences in groups of the same
     number of non-zero ones (each row's non-zero differences, in order, ranked as the
     one-sample route ranks them); a row of zeros only is left to that route and its error."""
-    x = np.stack([r[0] for r in rows])
+    x = _stack([r[0] for r in rows], len(rows))
     d = x - np.array([r[1] for r in rows])[:, None]  # x - target, element by element
-    units, ok = _snapped(d)
+    units, ok, _ = _snapped(d)
     ok &= np.logical_and.reduce(np.isfinite(d), axis=1)
     nonzero = units != 0
     n_nonzero = np.add.reduce(nonzero, axis=1)
@@ -434,9 +453,9 @@ def _signed_ranks(rows: list[tuple[np.ndarray, float]], n: int) -> None:
     for m in sorted(set(counts)):
         idx = [r for r, c in enumerate(counts) if c == m]
         u = units[idx] if m == n else units[idx][nonzero[idx]].reshape(len(idx), m)
-        order, ranks, (groups, tied_values, tie_term) = _sorted_ranks(np.abs(u))
+        _, flat, ranks, (groups, tied_values, tie_term) = _sorted_ranks(np.abs(u))
         # the ranks of the positive differences: halves far below 2^53, a sum exact in any order
-        positive = np.take_along_axis(u, order, axis=1) > 0
+        positive = np.ascontiguousarray(u).ravel()[flat] > 0
         w_plus = np.add.reduce(np.where(positive, ranks, 0.0), axis=1).tolist()
         fm = float(m)
         mean = fm * (fm + 1.0) * 0.25
@@ -452,10 +471,10 @@ def _signed_ranks(rows: list[tuple[np.ndarray, float]], n: int) -> None:
 
 
 def _rank_sums(rows: list[tuple[np.ndarray, np.ndarray]], n_old: int, n_new: int) -> None:
-    old = np.stack([r[0] for r in rows])
-    new = np.stack([r[1] for r in rows])
+    old = _stack([r[0] for r in rows], len(rows))
+    new = _stack([r[1] for r in rows], len(rows))
     both = np.concatenate((old, new), axis=1)
-    units, ok = _snapped(both)
+    units, ok, _ = _snapped(both)
     ok &= np.logical_and.reduce(np.isfinite(both), axis=1)
     ok &= ~np.logical_and.reduce(units == units[:, :1], axis=1)  # identical: the one route
     if not ok.any():
@@ -463,7 +482,7 @@ def _rank_sums(rows: list[tuple[np.ndarray, np.ndarray]], n_old: int, n_new: int
     if not ok.all():
         old, new, units = old[ok], new[ok], units[ok]
         rows = [r for r, good in zip(rows, ok.tolist(), strict=True) if good]
-    order, ranks, (groups, tied_values, tie_term) = _sorted_ranks(units)
+    order, _, ranks, (groups, tied_values, tie_term) = _sorted_ranks(units)
     # the new values' ranks: halves far below 2^53, a sum exact in any order
     rank_sums = np.add.reduce(np.where(order >= n_old, ranks, 0.0), axis=1)
     u_new = (rank_sums - n_new * (n_new + 1) / 2.0).tolist()
@@ -489,8 +508,8 @@ def _brown_forsythe_sums(rows: list[tuple[np.ndarray, np.ndarray]], n_old: int,
     samples.median), the absolute deviations from it, their means and squared deviations
     summed along C-contiguous rows (as the 1-D sums add); rows with a non-finite value are left
     to the one-sample route and its error."""
-    old = np.stack([r[0] for r in rows])
-    new = np.stack([r[1] for r in rows])
+    old = _stack([r[0] for r in rows], len(rows))
+    new = _stack([r[1] for r in rows], len(rows))
     ok = (np.logical_and.reduce(np.isfinite(old), axis=1)
           & np.logical_and.reduce(np.isfinite(new), axis=1))
     if not ok.any():

@@ -237,7 +237,7 @@ def _shift_median(old: np.ndarray, new: np.ndarray) -> float | None:
 
 def _clip_p(p: float) -> float:
     p = float(p)
-    if not np.isfinite(p):
+    if not math.isfinite(p):
         raise DegenerateDataError("the rank test gave no finite p-value for these data")
     return min(1.0, max(0.0, p))
 
