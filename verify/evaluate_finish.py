@@ -25,11 +25,17 @@ def complete_batches(drafts: list[CharDraft]) -> None:
     planned n of every characteristic in one vectorised pass) for the characteristics' own
     checks."""
     by_hook: dict = {}
+    batching: dict = {}  # check name -> the list of its hook's drafts, or None (no batch)
     for d in drafts:
         for dr in d.checks:
-            mod = kind(dr.result.check).hook("compute")
-            if hasattr(mod, "complete_batch"):
-                by_hook.setdefault(mod, []).append(dr)
+            check = dr.result.check
+            if check not in batching:
+                mod = kind(check).hook("compute")
+                batching[check] = (by_hook.setdefault(mod, [])
+                                   if hasattr(mod, "complete_batch") else None)
+            drs = batching[check]
+            if drs is not None:
+                drs.append(dr)
     for mod, drs in by_hook.items():
         mod.complete_batch(drs)
 

@@ -204,8 +204,11 @@ def gather(spec: Spec, meas: Measurements, ch: Characteristic, final: bool) -> C
         ref = replace(ref, values=ref.values if ref.values.size else None,
                       parts=ref.parts if ref.parts.size else None)
     # the matched pairs, for the kinds whose settings run them on pairs (data.pair declared)
-    roles = {r for k in kinds
-             if (r := _hook_says(k, "pairs_role", getattr(ch.checks, k.name))) is not None}
+    roles = set()
+    for k in kinds:
+        role_of = getattr(k.hook("compute"), "pairs_role", None)
+        if role_of is not None and (r := role_of(k, getattr(ch.checks, k.name))) is not None:
+            roles.add(r)
     pairs = paired_values(meas, spec, ch.name) if roles else None
     (candidate,) = CANDIDATES  # one candidate today: several would give several comparisons
     data = Comparison(reference=ref, candidate=streams[candidate],
