@@ -388,3 +388,18 @@ def test_batched_signed_ranks_rank_rows_with_any_number_of_zeros_together(seed):
             assert repr(_batched(signed_rank_about, f, target=1.0, alternative=alt)) == \
                 repr(_plain(wilcoxon_signed_rank, x - 1.0, alternative=alt))
     _memo.forget()
+
+
+def test_null_counts_by_arrays_equal_the_count_in_python_integers():
+    # the exact null distributions of the rank tests counted on int64 arrays (sizes whose counts
+    # fit) are the whole numbers of the one-coefficient-at-a-time count in Python integers
+    # (itself checked against scipy in tests/test_stats_nonparametric.py); past the int64 bound
+    # the Python count is used
+    from verify.stats import nonparametric as npar
+
+    for n in (0, 1, 2, 7, 13, 30, 50, 61):
+        assert npar.signed_rank_counts(n) == npar._signed_rank_counts(n)
+    for m, n in ((0, 5), (1, 1), (2, 3), (5, 10), (12, 30), (20, 29), (30, 30), (33, 33),
+                 (34, 34)):
+        assert npar.rank_sum_counts(m, n) == npar._rank_sum_counts(m, n)
+        assert npar.rank_sum_counts(n, m) == npar._rank_sum_counts(m, n)

@@ -131,10 +131,28 @@ def _tie_counts(sizes: np.ndarray) -> tuple[int, int]:
     return int(tied.size), int(np.add.reduce(tied))
 
 
+# counts below this fit an int64 array: the polynomial steps below then run on whole arrays,
+# with the same whole numbers as Python's integers (the larger sizes count in Python integers)
+_INT64_SAFE = 2**62
+
+
 @lru_cache(maxsize=64)
 def signed_rank_counts(n: int) -> tuple[int, ...]:
     """How many of the 2^n sign patterns give W+ = 0, 1, ..., n (n + 1) / 2: the coefficients
     of the product (1 + q)(1 + q^2)...(1 + q^n). Exact integers; cached per n."""
+    if 2**n < _INT64_SAFE:  # every coefficient at most 2^n at every step
+        c = np.zeros(n * (n + 1) // 2 + 1, dtype=np.int64)
+        c[0] = 1
+        top = 0
+        for k in range(1, n + 1):
+            top += k
+            c[k:top + 1] += c[:top + 1 - k].copy()  # each w from the old c[w - k]
+        return tuple(c.tolist())
+    return _signed_rank_counts(n)
+
+
+def _signed_rank_counts(n: int) -> tuple[int, ...]:
+    """:func:`signed_rank_counts` in Python integers, one coefficient at a time."""
     counts = [1] + [0] * (n * (n + 1) // 2)
     top = 0
     for k in range(1, n + 1):
@@ -150,6 +168,26 @@ def rank_sum_counts(m: int, n: int) -> tuple[int, ...]:
     the Gaussian binomial prod_{k=1..m} (1 - q^(n+k)) / (1 - q^k). Exact integers; cached per
     (m, n)."""
     m, n = min(m, n), max(m, n)
+    if math.comb(m + n, m) < _INT64_SAFE:
+        # after step k the coefficients are those of the Gaussian binomial [n + k, k] (at most
+        # C(n + k, k)); within a step at most twice that of the step before
+        size = m * n + 1
+        c = np.zeros(size, dtype=np.int64)
+        c[0] = 1
+        for k in range(1, m + 1):
+            a = n + k
+            c[a:] -= c[:size - a].copy()  # times (1 - q^a): each u from the old c[u - a]
+            # divided by (1 - q^k): a running sum along each residue class of u modulo k
+            rows = -(-size // k)
+            v = np.zeros(rows * k, dtype=np.int64)
+            v[:size] = c
+            c = np.cumsum(v.reshape(rows, k), axis=0).ravel()[:size]
+        return tuple(c.tolist())
+    return _rank_sum_counts(m, n)
+
+
+def _rank_sum_counts(m: int, n: int) -> tuple[int, ...]:
+    """:func:`rank_sum_counts` (m <= n) in Python integers, one coefficient at a time."""
     size = m * n + 1
     counts = [0] * size
     counts[0] = 1
