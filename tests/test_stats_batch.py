@@ -363,3 +363,28 @@ def test_batched_one_way_of_samples_in_lots_with_equal_codes():
         assert hit is not None and hit[0] is group_codes(lots, 30)[1]
         assert _batched(lot_effect, f, lots=lots) == _plain(lot_effect, x, lots=list(lots))
     _memo.forget()
+
+
+@pytest.mark.parametrize("seed", range(3))
+def test_batched_signed_ranks_rank_rows_with_any_number_of_zeros_together(seed):
+    # rows with different numbers of zero differences and of ties among the others, ranked
+    # in one pass with each row's zeros left out: each equals the one-sample route, which drops
+    # the zeros first (its statistic, ties, exactness, standard error and p-values)
+    from verify.stats.nonparametric import signed_rank_about, wilcoxon_signed_rank
+
+    rng = np.random.default_rng(seed)
+    n = int(rng.integers(5, 51))
+    xs = []
+    for _ in range(25):
+        x = np.round(rng.normal(1.0, 0.02, n), int(rng.integers(1, 4)))
+        x[rng.random(n) < rng.uniform(0.0, 0.5)] = 1.0  # zero differences from the target
+        xs.append(x)
+    frozen = [_memo.freeze(x.copy()) for x in xs]
+    _memo.forget()
+    batch.prefetch_ranks([("signed_rank", f, 1.0) for f in frozen])
+    for x, f in zip(xs, frozen, strict=True):  # batched unless all differences are zero
+        assert (_memo.recall("signed_rank", f) is not None) == bool(np.any(x != 1.0))
+        for alt in ("two-sided", "less", "greater"):
+            assert repr(_batched(signed_rank_about, f, target=1.0, alternative=alt)) == \
+                repr(_plain(wilcoxon_signed_rank, x - 1.0, alternative=alt))
+    _memo.forget()

@@ -373,13 +373,17 @@ def _snapped(d: np.ndarray) -> tuple[np.ndarray, np.ndarray, list[float]]:
     return np.round(d / q[:, None]), ok, quanta
 
 
-def _sorted_ranks(a: np.ndarray):
+def _sorted_ranks(a: np.ndarray, *, skip_zeros: bool = False):
     """nonparametric.average_ranks of each row, in sorted order: where each sorted value sits
     in its row and in the rows laid end to end, its average rank (the one-sample route's float),
     and each row's tie counts: the groups of two or more equal values, the values in them, and
     sum(t^3 - t) over its groups of t equal values (an exact integer). The values of a group of
     equal ones share their average rank, so the order among them (which the one-sample route's
-    stable sort fixes) changes no rank and no sum of ranks: the sort need not be stable."""
+    stable sort fixes) changes no rank and no sum of ranks: the sort need not be stable.
+
+    With ``skip_zeros`` (``a`` >= 0), the zeros are left out, as if each row held its non-zero
+    values only: they sort first, so a value's rank among the others is its rank less the
+    row's zeros (halves and whole numbers far below 2^53: exact), and their group is no tie."""
     k, width = a.shape
     order = np.argsort(a, axis=1)
     flat = order + (width * np.arange(k))[:, None]
@@ -393,6 +397,10 @@ def _sorted_ranks(a: np.ndarray):
     # i + (t + 1) / 2, the same float as the one-sample route's
     ranks = start + (size + 1) / 2.0
     tied = size > 1
+    if skip_zeros:
+        counted = s != 0.0
+        ranks -= (width - np.add.reduce(counted, axis=1))[:, None]
+        tied &= counted
     first_of_tie = tied & new_value
     ties = (np.add.reduce(first_of_tie, axis=1).tolist(), np.add.reduce(tied, axis=1).tolist(),
             np.add.reduce(np.where(first_of_tie, size**3 - size, 0), axis=1))
@@ -429,45 +437,44 @@ def _row_medians(v: np.ndarray, *, row=None) -> list[float]:
 
 def _signed_ranks(rows: list[tuple[np.ndarray, float]], n: int) -> None:
     """nonparametric._signed_rank_core (zeros dropped) of each ``x - target``, for samples of
-    one length: the rows ranked together, those with zero differences in groups of the same
-    number of non-zero ones (each row's non-zero differences, in order, ranked as the
-    one-sample route ranks them); a row of zeros only is left to that route and its error."""
+    one length: the rows ranked together, each row's zero differences left out of its ranks and
+    ties (its non-zero differences ranked as the one-sample route ranks them after dropping the
+    zeros); a row of zeros only is left to that route and its error."""
     x = _stack([r[0] for r in rows], len(rows))
     d = x - np.array([r[1] for r in rows])[:, None]  # x - target, element by element
     units, ok, _ = _snapped(d)
     ok &= np.logical_and.reduce(np.isfinite(d), axis=1)
-    nonzero = units != 0
-    n_nonzero = np.add.reduce(nonzero, axis=1)
+    n_nonzero = np.add.reduce(units != 0, axis=1)
     ok &= n_nonzero > 0
     if not ok.any():
         return
     if not ok.all():
-        d, units, nonzero, n_nonzero = d[ok], units[ok], nonzero[ok], n_nonzero[ok]
+        d, units, n_nonzero = d[ok], units[ok], n_nonzero[ok]
         rows = [r for r, good in zip(rows, ok.tolist(), strict=True) if good]
     estimates = [None] * len(rows)
     if n * (n + 1) // 2 <= nonparametric.HL_MAX_PAIRS:  # the Walsh averages of all n
         i, j = nonparametric._upper_pairs(n)
         estimates = _row_medians((d[:, i] + d[:, j]) / 2.0,
                                  row=lambda r: (d[r][i] + d[r][j]) / 2.0)
-    counts = n_nonzero.tolist()
-    for m in sorted(set(counts)):
-        idx = [r for r, c in enumerate(counts) if c == m]
-        u = units[idx] if m == n else units[idx][nonzero[idx]].reshape(len(idx), m)
-        _, flat, ranks, (groups, tied_values, tie_term) = _sorted_ranks(np.abs(u))
-        # the ranks of the positive differences: halves far below 2^53, a sum exact in any order
-        positive = np.ascontiguousarray(u).ravel()[flat] > 0
-        w_plus = np.add.reduce(np.where(positive, ranks, 0.0), axis=1).tolist()
-        fm = float(m)
-        mean = fm * (fm + 1.0) * 0.25
-        var = fm * (fm + 1.0) * (2.0 * fm + 1.0)
-        # nonparametric._signed_rank_se of each row: the tie term an exact integer either way
-        se = np.sqrt((var - tie_term / 2.0) / 24.0).tolist()
-        for k, r in enumerate(idx):
-            x_r, target = rows[r]
-            exact = groups[k] == 0  # m <= n <= EXACT_MAX_N
-            _memo.remember("signed_rank", x_r, (target, nonparametric._SignedRank(
-                w_plus[k], m, n - m, groups[k], tied_values[k], exact, m,
-                None if exact else mean, None if exact else se[k], estimates[r], "wilcox")))
+    # all rows ranked together, each row's zeros left out (as the one-sample route drops them)
+    _, flat, ranks, (groups, tied_values, tie_term) = _sorted_ranks(np.abs(units),
+                                                                    skip_zeros=True)
+    # the ranks of the positive differences: halves far below 2^53, a sum exact in any order
+    positive = units.ravel()[flat] > 0
+    w_plus = np.add.reduce(np.where(positive, ranks, 0.0), axis=1).tolist()
+    # nonparametric._signed_rank_core's mean and variance for m non-zero differences, and
+    # _signed_rank_se, element by element (the tie term an exact integer either way)
+    fm = n_nonzero.astype(float)
+    mean = fm * (fm + 1.0) * 0.25
+    var = fm * (fm + 1.0) * (2.0 * fm + 1.0)
+    se = np.sqrt((var - tie_term / 2.0) / 24.0).tolist()
+    for (x_r, target), m, w, g, t, mean_r, se_r, est in zip(
+            rows, n_nonzero.tolist(), w_plus, groups, tied_values, mean.tolist(), se, estimates,
+            strict=True):
+        exact = g == 0  # m <= n <= EXACT_MAX_N
+        _memo.remember("signed_rank", x_r, (target, nonparametric._SignedRank(
+            w, m, n - m, g, t, exact, m, None if exact else mean_r, None if exact else se_r,
+            est, "wilcox")))
 
 
 def _rank_sums(rows: list[tuple[np.ndarray, np.ndarray]], n_old: int, n_new: int) -> None:
