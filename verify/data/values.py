@@ -94,10 +94,11 @@ class _Index:
     every characteristic and process in turn, so the table is gathered once, not filtered per
     call. The pair keys, which only :func:`paired_values` reads, are taken on first use."""
 
-    __slots__ = ("value", "lot", "order", "source_row", "groups", "_table", "_rows", "_pair")
+    __slots__ = ("value", "lot", "order", "source_row", "groups", "_table", "_rows", "_pair",
+                 "_stream")
 
     def __init__(self, table: pd.DataFrame, rows: np.ndarray, groups: dict) -> None:
-        self._table, self._rows, self._pair = table, rows, None
+        self._table, self._rows, self._pair, self._stream = table, rows, None, None
         self.value = table["value"].to_numpy(dtype=float)[rows]
         self.lot = table["lot"].to_numpy(dtype=object)[rows]  # object array of str
         self.order = table["order"].to_numpy(dtype=np.int64)[rows]
@@ -110,6 +111,13 @@ class _Index:
         if self._pair is None:
             self._pair = self._table["pair"].to_numpy(dtype=object)[self._rows]
         return self._pair
+
+    @property
+    def stream(self) -> np.ndarray:
+        """The ``data.stream`` value of each measurement as text (object array of str)."""
+        if self._stream is None:
+            self._stream = self._table["stream"].astype(str).to_numpy(dtype=object)[self._rows]
+        return self._stream
 
 
 _INDEX_CACHE: dict[int, tuple] = {}
@@ -167,14 +175,12 @@ def stream_values(measurements: Measurements, characteristic: str) -> dict[str, 
     t = measurements.table
     if "stream" not in t.columns:
         return {}
-    # numpy over the table's columns: the rows the pandas selection took (this characteristic,
-    # new process, used), in the stable order of (order, source_row) that sort_values gave
-    sel = np.flatnonzero((t["characteristic"].to_numpy(dtype=object) == characteristic)
-                         & (t["process"].to_numpy(dtype=object) == "new")
-                         & ~t["excluded"].to_numpy(dtype=bool))
-    sel = sel[np.lexsort((t["source_row"].to_numpy()[sel], t["order"].to_numpy()[sel]))]
-    streams = t["stream"].astype(str).to_numpy(dtype=object)[sel]
-    values = t["value"].to_numpy(dtype=float)[sel]
+    # the index's rows of this characteristic's used new-process measurements, in the stable
+    # order of (order, source_row) (one slice, not a scan of the table per characteristic)
+    ix = _analysis_index(t)
+    lo, hi = ix.groups.get((characteristic, "new"), (0, 0))
+    streams = ix.stream[lo:hi]
+    values = ix.value[lo:hi]
     out: dict[str, object] = {}
     for name in dict.fromkeys(streams.tolist()):
         out[name] = np.asarray(values[streams == name])
