@@ -403,3 +403,27 @@ def test_null_counts_by_arrays_equal_the_count_in_python_integers():
                  (34, 34)):
         assert npar.rank_sum_counts(m, n) == npar._rank_sum_counts(m, n)
         assert npar.rank_sum_counts(n, m) == npar._rank_sum_counts(m, n)
+
+
+def test_shapiro_wilk_rows_when_the_routine_keeps_its_coefficients_to_itself(monkeypatch):
+    """The batch hands the first row's Shapiro-Wilk coefficients to the other rows: scipy's
+    routine fills them in place. A routine that did not (a future scipy working on a copy) must
+    not leave the other rows reading zeros: each row then computes its own, and every W and
+    p-value is still the one-sample route's."""
+    from verify.stats import normality
+
+    real = normality._swilk_routine()
+
+    def on_a_copy(y, a, init):
+        return real(y, a.copy(), init)
+
+    rng = np.random.default_rng(12)
+    samples = [rng.normal(10.0, 0.01, 30) for _ in range(6)]
+    expected = [_plain(shapiro_wilk, x) for x in samples]
+    monkeypatch.setattr(normality, "_swilk_routine", lambda: on_a_copy)
+    frozen = [_memo.freeze(x.copy()) for x in samples]
+    _memo.forget()
+    batch.prefetch(frozen)
+    assert all(_memo.recall("shapiro_wilk", f) is not None for f in frozen)
+    assert [_batched(shapiro_wilk, f) for f in frozen] == expected
+    _memo.forget()

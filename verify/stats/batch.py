@@ -281,7 +281,9 @@ def _shapiro_wilk(rows, x, n) -> None:
     init = 0
     for r, a in enumerate(rows):
         w, pw, _ = swilk(y[r], coefficients, init)
-        init = 1
+        # the routine fills the coefficients in place (the first is about 0.4 and above): a
+        # routine that did not would leave zeros, and every row then computes its own
+        init = 1 if coefficients[0] > 0.0 else 0
         _memo.remember("shapiro_wilk", a, NormalityResult(
             "Shapiro-Wilk normality test", float(w), float(min(1.0, max(0.0, float(pw)))), n))
 
