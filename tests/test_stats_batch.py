@@ -427,3 +427,50 @@ def test_shapiro_wilk_rows_when_the_routine_keeps_its_coefficients_to_itself(mon
     assert all(_memo.recall("shapiro_wilk", f) is not None for f in frozen)
     assert [_batched(shapiro_wilk, f) for f in frozen] == expected
     _memo.forget()
+
+
+def test_rank_sums_beyond_the_exact_tie_bound_go_to_the_one_sample_route(monkeypatch):
+    """The batch adds the rank-sum tie term sum(t^3 - t) as exact integers, the one-sample
+    route as floats: the same number only below 2^53, so rows of more than EXACT_TIES_N values
+    are left to the one-sample route (here the bound is lowered to 50 to try it on small rows)
+    and every result is still that route's."""
+    from verify.stats.nonparametric import mann_whitney
+
+    rng = np.random.default_rng(77)
+    pairs = [(np.round(rng.normal(10.0, 0.01, 30), 2), np.round(rng.normal(10.0, 0.01, 30), 2))
+             for _ in range(4)]
+    expected = [_plain(mann_whitney, a, new=b) for a, b in pairs]
+    frozen = [(_memo.freeze(a.copy()), _memo.freeze(b.copy())) for a, b in pairs]
+    monkeypatch.setattr(batch, "EXACT_TIES_N", 50)
+    _memo.forget()
+    batch.prefetch_ranks([("rank_sum", a, b) for a, b in frozen])
+    assert all(_memo.recall("rank_sum", a) is None for a, _ in frozen)
+    assert [_batched(mann_whitney, a, new=b) for a, b in frozen] == expected
+    monkeypatch.setattr(batch, "EXACT_TIES_N", 60)  # 30 + 30 values: batched again
+    _memo.forget()
+    batch.prefetch_ranks([("rank_sum", a, b) for a, b in frozen])
+    assert all(_memo.recall("rank_sum", a) is not None for a, _ in frozen)
+    assert [_batched(mann_whitney, a, new=b) for a, b in frozen] == expected
+    _memo.forget()
+
+
+def test_the_tie_term_is_exact_in_floats_up_to_the_bound():
+    """Why EXACT_TIES_N is 200,000: the largest tie term of N values, one group of all N,
+    N^3 - N, is below 2^53 there, so the float sum the one-sample route makes of any split into
+    groups is the exact integer (and the next thousand values past the bound would not be)."""
+    n = batch.EXACT_TIES_N
+    assert n**3 - n < 2**53 < (n + 10_000) ** 3
+    sizes = np.array([n // 2, n // 4, n // 8, n - n // 2 - n // 4 - n // 8], dtype=float)
+    assert float(np.add.reduce(sizes**3 - sizes)) == sum(int(t) ** 3 - int(t) for t in sizes)
+
+
+def test_rows_of_another_length_are_never_stacked():
+    """The batch lays samples of one length end to end as rows (np.stack's array): a total
+    that is not rows x length is an error, never rows cut across samples."""
+    with pytest.raises(ValueError, match="differ in length"):
+        batch._stack([np.arange(3.0), np.arange(4.0)], 2, 3)
+    x = batch._stack([np.arange(3.0), np.arange(3.0) + 3.0], 2, 3)
+    assert x.tolist() == np.stack([np.arange(3.0), np.arange(3.0) + 3.0]).tolist()
+    # a row given in pieces (the resolution's parts of two processes, joined)
+    y = batch._stack([np.arange(2.0), np.arange(1.0), np.arange(3.0)], 2, 3)
+    assert y.tolist() == [[0.0, 1.0, 0.0], [0.0, 1.0, 2.0]]

@@ -34,6 +34,10 @@ from .samples import RESOLUTION_DIGITS, group_codes, median
 from .stability import StabilityResult
 
 MIN_ROWS = 2  # fewer samples of a length gain nothing from stacking
+#: The most values a batched rank test ranks: its tie term sum(t^3 - t), an int64 here and a
+#: float sum in the one-sample route, is the same number only while it stays below 2^53
+#: (N^3 < 2^53 for N up to about 208,000); larger samples go to the one-sample route.
+EXACT_TIES_N = 200_000
 
 
 def prefetch(samples, in_lots=(), joined=()) -> None:
@@ -59,14 +63,19 @@ def prefetch(samples, in_lots=(), joined=()) -> None:
             _stacked(list(group.values()), n)
 
 
-def _stack(arrays: list[np.ndarray], k: int) -> np.ndarray:
-    """1-D arrays end to end as ``k`` rows of equal length, C-contiguous: np.stack's array for
-    rows of one length, in one concatenation (np.stack makes a view of each row first)."""
-    return np.concatenate(arrays).reshape(k, -1)
+def _stack(arrays: list[np.ndarray], k: int, n: int) -> np.ndarray:
+    """1-D arrays end to end as ``k`` rows of ``n`` values, C-contiguous: np.stack's array for
+    rows of one length, in one concatenation (np.stack makes a view of each row first); a row
+    may be given in pieces, each row's pieces in turn. Another total is an error, never rows cut
+    across samples."""
+    joined = np.concatenate(arrays)
+    if joined.size != k * n:
+        raise ValueError(f"the rows to stack differ in length: {joined.size} values for {k} x {n}")
+    return joined.reshape(k, n)
 
 
 def _stacked(rows: list[np.ndarray], n: int) -> None:
-    x = _stack(rows, len(rows))  # (k, n), C-contiguous
+    x = _stack(rows, len(rows), n)  # (k, n), C-contiguous
     # finite, within the magnitude mean_sd accepts, with a spread: what every diagnostic here
     # needs (anything else goes to the one-sample route and its error; NaN fails the tests)
     lo, hi = np.minimum.reduce(x, axis=1), np.maximum.reduce(x, axis=1)
@@ -140,7 +149,7 @@ def _resolutions(joined) -> None:
 
 
 def _resolution_rows(rows: list[tuple], n: int) -> None:
-    x = _stack([x for parts in rows for x in parts], len(rows))  # each row its parts joined
+    x = _stack([x for parts in rows for x in parts], len(rows), n)  # each row its parts joined
     units, ok, quanta = _snapped(x)
     ok &= np.logical_and.reduce(np.isfinite(x), axis=1)
     s = np.sort(units, axis=1)
@@ -197,7 +206,7 @@ def _one_way_rows(rows: list[tuple[np.ndarray, np.ndarray]], codes: np.ndarray) 
     k = sizes.size
     if k < 2 or n_total <= k:
         return  # no between or no within degrees of freedom: the one-sample route's case
-    a = _stack([r[0] for r in rows], len(rows))
+    a = _stack([r[0] for r in rows], len(rows), n_total)
     ok = np.logical_and.reduce(np.isfinite(a), axis=1)
     if not ok.all():
         a = a[ok]
@@ -351,7 +360,7 @@ def prefetch_ranks(requests) -> None:
         if len(group) >= MIN_ROWS and 2 <= n <= nonparametric.EXACT_MAX_N:
             _signed_ranks(list(group.values()), n)
     for (n_old, n_new), group in pairs.items():
-        if len(group) >= MIN_ROWS and n_old >= 1 and n_new >= 1:
+        if len(group) >= MIN_ROWS and n_old >= 1 and n_new >= 1 and n_old + n_new <= EXACT_TIES_N:
             _rank_sums(list(group.values()), n_old, n_new)
     for (n_old, n_new), group in spreads.items():
         if len(group) >= MIN_ROWS and n_old >= 2 and n_new >= 2:
@@ -379,7 +388,8 @@ def _sorted_ranks(a: np.ndarray, *, skip_zeros: bool = False):
     """nonparametric.average_ranks of each row, in sorted order: where each sorted value sits
     in its row and in the rows laid end to end, its average rank (the one-sample route's float),
     and each row's tie counts: the groups of two or more equal values, the values in them, and
-    sum(t^3 - t) over its groups of t equal values (an exact integer). The values of a group of
+    sum(t^3 - t) over its groups of t equal values (an exact integer, below 2^53 for the row
+    lengths batched: :data:`EXACT_TIES_N`). The values of a group of
     equal ones share their average rank, so the order among them (which the one-sample route's
     stable sort fixes) changes no rank and no sum of ranks: the sort need not be stable.
 
@@ -442,7 +452,7 @@ def _signed_ranks(rows: list[tuple[np.ndarray, float]], n: int) -> None:
     one length: the rows ranked together, each row's zero differences left out of its ranks and
     ties (its non-zero differences ranked as the one-sample route ranks them after dropping the
     zeros); a row of zeros only is left to that route and its error."""
-    x = _stack([r[0] for r in rows], len(rows))
+    x = _stack([r[0] for r in rows], len(rows), n)
     d = x - np.array([r[1] for r in rows])[:, None]  # x - target, element by element
     units, ok, _ = _snapped(d)
     ok &= np.logical_and.reduce(np.isfinite(d), axis=1)
@@ -465,7 +475,7 @@ def _signed_ranks(rows: list[tuple[np.ndarray, float]], n: int) -> None:
     positive = units.ravel()[flat] > 0
     w_plus = np.add.reduce(np.where(positive, ranks, 0.0), axis=1).tolist()
     # nonparametric._signed_rank_core's mean and variance for m non-zero differences, and
-    # _signed_rank_se, element by element (the tie term an exact integer either way)
+    # _signed_rank_se, element by element (the tie term an exact integer either way: n <= 50)
     fm = n_nonzero.astype(float)
     mean = fm * (fm + 1.0) * 0.25
     var = fm * (fm + 1.0) * (2.0 * fm + 1.0)
@@ -480,8 +490,8 @@ def _signed_ranks(rows: list[tuple[np.ndarray, float]], n: int) -> None:
 
 
 def _rank_sums(rows: list[tuple[np.ndarray, np.ndarray]], n_old: int, n_new: int) -> None:
-    old = _stack([r[0] for r in rows], len(rows))
-    new = _stack([r[1] for r in rows], len(rows))
+    old = _stack([r[0] for r in rows], len(rows), n_old)
+    new = _stack([r[1] for r in rows], len(rows), n_new)
     both = np.concatenate((old, new), axis=1)
     units, ok, _ = _snapped(both)
     ok &= np.logical_and.reduce(np.isfinite(both), axis=1)
@@ -495,7 +505,8 @@ def _rank_sums(rows: list[tuple[np.ndarray, np.ndarray]], n_old: int, n_new: int
     # the new values' ranks: halves far below 2^53, a sum exact in any order
     rank_sums = np.add.reduce(np.where(order >= n_old, ranks, 0.0), axis=1)
     u_new = (rank_sums - n_new * (n_new + 1) / 2.0).tolist()
-    # nonparametric._rank_sum_se of each row, the tie term an exact integer either way
+    # nonparametric._rank_sum_se of each row, the tie term an exact integer either way (below
+    # 2^53: N <= EXACT_TIES_N)
     big_n = float(n_old + n_new)
     se = np.sqrt(n_old * n_new / 12.0
                  * ((big_n + 1.0) - tie_term / (big_n * (big_n - 1.0)))).tolist()
@@ -517,8 +528,8 @@ def _brown_forsythe_sums(rows: list[tuple[np.ndarray, np.ndarray]], n_old: int,
     samples.median), the absolute deviations from it, their means and squared deviations
     summed along C-contiguous rows (as the 1-D sums add); rows with a non-finite value are left
     to the one-sample route and its error."""
-    old = _stack([r[0] for r in rows], len(rows))
-    new = _stack([r[1] for r in rows], len(rows))
+    old = _stack([r[0] for r in rows], len(rows), n_old)
+    new = _stack([r[1] for r in rows], len(rows), n_new)
     ok = (np.logical_and.reduce(np.isfinite(old), axis=1)
           & np.logical_and.reduce(np.isfinite(new), axis=1))
     if not ok.any():
