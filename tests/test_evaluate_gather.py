@@ -18,6 +18,8 @@ from verify import evaluate_gather as eg
 from verify.data import load_measurements
 from verify.spec import load_spec
 from verify.stats import _memo
+from verify.stats import variance_components as vc
+from verify.stats.errors import StatsError
 from verify.stats.limits import beyond_limits
 from verify.stats.samples import finite_values
 
@@ -52,6 +54,17 @@ def test_summaries_together_equal_each_alone_on_demo_specs(demo, name):
                 alone = eg._summary(name_, st.values, st.lots, int(st.parts.size), st.parts,
                                     beyond)
                 got = d.processes[name_]
+                # the fields _summary itself derives by shortcuts, from their plain routes: the
+                # lots as text in order of first appearance, the lot sds of the one-way
+                # random-effects analysis (variance_components)
+                assert got.lots == tuple(dict.fromkeys(map(str, st.lots)))
+                try:
+                    plain = vc.variance_components(np.array(st.parts), list(st.lots))
+                except StatsError:
+                    assert got.sd_within_lot is None and got.sd_between_lot is None
+                else:
+                    assert (got.sd_within_lot, got.sd_between_lot) == (plain.sd_within,
+                                                                         plain.sd_between)
                 for field, want in vars(alone).items():
                     have = getattr(got, field)
                     if field == "beyond_limits" and want is not None:
@@ -107,3 +120,16 @@ def test_a_lot_unit_spec_is_read_per_part_through_one_copy(demo):
             assert st.values.size == len(set(st.lots))  # lot means, one per lot
     finally:
         _memo.forget()
+
+
+def test_lot_labels_that_are_not_text_are_each_made_text_as_before():
+    """The summary's lots come from the lot codes' remembered labels where those are text;
+    labels of other types (1, 1.0 and True are one key to a dict, three lots as text) are each
+    made text first: ("1", "1.0", "True", "A"), as ``tuple(dict.fromkeys(map(str, lots)))``
+    gives them."""
+    values = np.array([1.0, 2.0, 3.0, 4.0])
+    lots = (1, 1.0, True, "A")
+    got = eg._summary("new", values, lots, 4)
+    assert got.lots == ("1", "1.0", "True", "A")
+    text = ("L2", "L1", "L2", "L1")
+    assert eg._summary("new", values, text, 4).lots == ("L2", "L1")

@@ -121,8 +121,11 @@ def _summary(process: str, values: np.ndarray, lots, n_parts: int,
         except CANNOT_COMPUTE:
             pass  # fewer than 2 lots of 2 parts, or no within-lot variation: not estimable
     # the lots in order of first appearance, as text: the labels group_codes found (remembered
-    # for the stream's lots tuple), deduplicated again as text
+    # for the stream's lots tuple) where they are text; labels of other types (1, 1.0 and True
+    # are one key to it, three lots as text) are each made text first, as always
     labels = group_codes(lots, len(lots))[0] if len(lots) else ()
+    if not all(type(v) is str for v in labels):
+        labels = lots
     return ProcessSummary(
         sd_within_lot=within, sd_between_lot=between, between_lot_set_to_zero=truncated,
         process=process,
