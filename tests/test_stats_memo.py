@@ -24,7 +24,7 @@ import pytest
 from verify.checks import drafting
 from verify.checks.drafting import diagnostic, not_applicable, replaced
 from verify.model import CheckResult, DiagnosticResult
-from verify.stats import _memo, nonparametric, sample_size, sample_size_many
+from verify.stats import _memo, nonparametric, sample_size, sample_size_many, samples
 from verify.stats import variance_components as vc
 from verify.stats.core import mean_sd
 from verify.stats.diagnostics import lot_effect
@@ -134,6 +134,10 @@ def test_remembered_lot_codes_equal_the_plain_ones_and_stay_intact():
     other = tuple(f"M{i % 3}" for i in range(12))
     assert group_codes(other, 12)[0] == ["M0", "M1", "M2"]
     assert group_codes(lots, 12)[0] == plain_labels
+    # an evaluation's end empties them (the tuples they hold are its streams' lots)
+    samples.forget()
+    assert samples._CODES == {} and samples._CODES_OF == {}
+    assert group_codes(lots, 12)[0] == plain_labels and group_codes(lots, 12)[1] is not codes
 
 
 def test_labels_that_are_not_text_keep_their_own_objects():
@@ -239,8 +243,8 @@ def test_tost_planning_walks_up_and_down_from_any_guess(monkeypatch, offset):
             low=-0.02, high=0.02, power=0.9, ratio=1.0,
             sd_old=float(rng.uniform(0.002, 0.02)) if design == "welch" else None))
     guesses = sample_size_many._guesses
-    monkeypatch.setattr(sample_size_many, "_guesses", lambda setups: [
-        None if g is None else max(2, g + offset) for g in guesses(setups)])
+    monkeypatch.setattr(sample_size_many, "_guesses", lambda setups, table=None: [
+        None if g is None else max(2, g + offset) for g in guesses(setups, table)])
     for q, (_, size) in zip(questions, sample_size_many.plan_tost_many(questions), strict=True):
         assert size == sample_size.sample_size_tost(
             q["true_shift"], q["sd"], design=q["design"], alpha=q["alpha"], low=q["low"],
@@ -355,12 +359,14 @@ def test_an_evaluation_that_fails_leaves_nothing_remembered(tmp_path, monkeypatc
 
     def broken(spec, draft):
         assert _memo._CACHE, "the drafts ran on remembered samples"
+        assert samples._CODES_OF, "and on remembered lot codes"
         raise RuntimeError("finishing failed")
 
     monkeypatch.setattr(ev_module, "finish", broken)
     with pytest.raises(RuntimeError, match="finishing failed"):
         ev_module.evaluate(spec, meas)
     assert _memo._CACHE == {}
+    assert samples._CODES == {} and samples._CODES_OF == {}  # (they hold the streams' lots)
 
 
 def test_group_sizes_are_bincount_and_remembered_only_for_read_only_codes():

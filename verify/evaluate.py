@@ -18,7 +18,7 @@ from .evaluate_finish import adjust, complete_batches, finish
 from .evaluate_gather import CharDraft, gather, samples_in_lots, sub_streams, summarize
 from .model import Evaluation, Measurements, RunInfo
 from .spec_model import Characteristic, Spec
-from .stats import _memo, batch
+from .stats import _memo, batch, samples
 
 
 def evaluate(
@@ -74,6 +74,7 @@ def _evaluate(spec: Spec, measurements: Measurements, final: bool, run: RunInfo)
         results = tuple(finish(spec, d) for d in drafts)
     finally:  # what the statistics remembered of this evaluation's samples, also on an error
         _memo.forget()
+        samples.forget()
     decision = decide.combine(r.decision for r in results)
     # one line per characteristic not PASS: its leading reason (the full list stays with it)
     reasons = tuple(

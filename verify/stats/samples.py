@@ -70,6 +70,13 @@ _CODES_OF: dict[int, tuple[tuple, tuple[list, np.ndarray]]] = {}  # id -> (the t
 _CODES_OF_MAX = 4096  # a few tuples per characteristic: a large layout's, bounded
 
 
+def forget() -> None:
+    """Empty the remembered lot codes (an evaluation does when it ends, with the memo: the
+    tuples they hold, a stream's lots each, are freed with its samples)."""
+    _CODES.clear()
+    _CODES_OF.clear()
+
+
 def group_sizes(codes: np.ndarray, k: int) -> np.ndarray:
     """The count of each code 0..k-1, ``np.bincount(codes, minlength=k)``; for read-only
     codes (remembered by content: :func:`group_codes`) remembered, read-only, with them."""
