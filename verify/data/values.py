@@ -92,7 +92,9 @@ class _Index:
     """The used measurements as numpy arrays, sorted by (characteristic, process, production
     order, source row), with the slice of each (characteristic, process): an evaluation reads
     every characteristic and process in turn, so the table is gathered once, not filtered per
-    call. The pair keys, which only :func:`paired_values` reads, are taken on first use."""
+    call. The pair keys, which only :func:`paired_values` reads, are taken on first use. The
+    index is built once per table and kept: the tidy table is read as loaded, never changed in
+    place afterwards (a table changed in place would be read partly as it was)."""
 
     __slots__ = ("value", "lot", "order", "source_row", "groups", "_table", "_rows", "_pair",
                  "_stream")

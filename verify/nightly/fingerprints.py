@@ -33,9 +33,9 @@ def data_paths_light(spec_path: Path, raw: bytes) -> list[tuple[str, str]]:
     """The data files a spec names, by a light parse (no validation): [(as written, abs)].
 
     The YAML is read as :func:`verify.spec.load_spec` reads it
-    (:class:`verify.spec_yaml.SpecLoader`: YAML 1.2 core scalars), so an unquoted path such as
-    ``2024-01-05`` or ``on`` is the same text here as in the run (a YAML 1.1 loader reads a date
-    and a boolean, and the spec's first fingerprint would name no data file). The path is
+    (:class:`verify.spec_yaml.SpecLoader`: YAML 1.2 core scalars, the same nesting limit), so
+    the first fingerprint names the files the run will read, by one reading rule (a spec the
+    run refuses, e.g. nested too deeply, names none here either). The path is
     resolved the way :func:`verify.spec.load_spec` resolves ``data.file``: against the spec's
     folder. A spec this cannot read gives ``[]``; its run then reports why.
     """

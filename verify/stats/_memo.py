@@ -3,9 +3,12 @@ is finite), computed once per sample however many statistics read it.
 
 An evaluation hands the same sample to a dozen statistics (t-test, spread, capability,
 normality, outliers, stability, ...); each needs the mean and sd, each checks the values are
-finite. Only a **read-only array that owns its data** is remembered: such an array cannot
-change behind the memo's back (the evaluation marks the samples it gathers read-only); any
-other input is computed every time. The memo keeps one entry per array, the array itself (so
+finite. Only a **read-only array that owns its data** is remembered, and on a contract: nobody
+makes it writeable again while the memo holds it (numpy would allow that; the evaluation marks
+the samples it gathers read-only and never does); any other input is computed every time. The
+memo is one per process: an evaluation in another thread that ends empties it too, and this
+one's statistics then compute again what they ask for (each recall checks the array's
+identity, so none is given another's). The memo keeps one entry per array, the array itself (so
 its id is never reused while the entry lives) with what was remembered of it by topic, and is
 emptied when it reaches :data:`MAX_ENTRIES` arrays or an evaluation ends (:func:`forget`).
 """

@@ -163,7 +163,7 @@ def _smallest_n(
 def _search(design: str, ratio: float, target: float):
     """The plain search as a generator: it yields each n_new whose power it needs, is sent
     that power, and returns the :class:`SampleSize` (so that many searches can run in step,
-    their powers computed together: :func:`_guesses`)."""
+    their powers computed together: :func:`verify.stats.sample_size_many._guesses`)."""
     n_max = _n_max(design, ratio)
     lo, hi = 1, 2  # lo falls short (or is below the minimum of 2); hi is the candidate
     p_hi = yield hi

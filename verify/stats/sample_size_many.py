@@ -121,10 +121,10 @@ class _Table:
         return np.vstack([self.delta[idx], self.lo[idx], self.hi[idx], tau, df, self.a[idx]])
 
 
-def _guesses(setups: list[_TostSize]) -> list[int | None]:
+def _guesses(setups: list[_TostSize], table: _Table | None = None) -> list[int | None]:
     """:meth:`_TostSize.guess` of every setup: the searches run in step, each step's
     approximate powers computed together (:meth:`_Table.approx`)."""
-    table = _Table(setups)
+    table = _Table(setups) if table is None else table  # (the caller's, of these setups)
     out: list[int | None] = [None] * len(setups)
     searches = {i: _search(q.design, q.ratio, q.target) for i, q in enumerate(setups)}
     asked = {i: next(g) for i, g in searches.items()}
@@ -195,7 +195,7 @@ def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, SampleSize
     powers: list[float | None] = [None] * len(questions)
     table = _Table([s for _, s in setups])
     walks: dict[int, tuple] = {}  # question -> (its row in the table, setup, walk, n asked)
-    for row, ((i, setup), n0) in enumerate(zip(setups, _guesses(table.setups), strict=True)):
+    for row, ((i, setup), n0) in enumerate(zip(setups, _guesses(table.setups, table), strict=True)):
         if n0 is not None:
             walk = _steps(n0, setup.target, _n_max(setup.design, setup.ratio))
             walks[i] = (row, setup, walk, next(walk))
