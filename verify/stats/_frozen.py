@@ -14,6 +14,10 @@ Only for a frozen dataclass without ``__post_init__`` (its validation would be s
 ``InitVar`` needs one too), without ``__slots__`` (no ``__dict__``) and without keyword-only
 fields; anything else is refused at import time (a ``TypeError``), so that the decorator is
 never silently a no-op.
+
+verify.model's result classes are made with it, so ``verify check`` loads this module (and the
+empty stats package) though no statistics: it imports the standard library alone, and must
+stay so (tests/test_cli_check.py lists what ``verify check`` may load).
 """
 
 from __future__ import annotations
