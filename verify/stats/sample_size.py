@@ -70,6 +70,11 @@ class SampleSize:
     target_power: float
 
 
+#: Taken off n_new / ratio before rounding up, so that a ratio such as 1/3 does not ask for one
+#: old unit too many through the division's rounding.
+_RATIO_SLACK = 1e-9
+
+
 def old_size(design: str, n_new: int, ratio: float) -> int | None:
     """The old lot's size for ``n_new`` units in the new one: none for one-sample, ``n_new``
     for paired (pairs), ``max(2, ceil(n_new / ratio))`` for two-sample designs."""
@@ -77,7 +82,13 @@ def old_size(design: str, n_new: int, ratio: float) -> int | None:
         return None
     if design == "paired":
         return n_new
-    return max(2, math.ceil(n_new / ratio - 1e-9))
+    return max(2, math.ceil(n_new / ratio - _RATIO_SLACK))
+
+
+def old_sizes(n_new: np.ndarray, ratio: np.ndarray) -> np.ndarray:
+    """:func:`old_size` of a two-sample design for many (n_new, ratio) at once, as floats:
+    the same division, subtraction and ceiling element by element."""
+    return np.maximum(2.0, np.ceil(n_new / ratio - _RATIO_SLACK))
 
 
 def _check_ratio(design: str, ratio: float) -> float:

@@ -26,6 +26,7 @@ from .sample_size import (
     _steps,
     _TostSize,
     old_size,
+    old_sizes,
 )
 
 
@@ -86,13 +87,13 @@ class _Table:
         pooled = kind == _POOLED  # s1 sqrt(1/n1 + 1/n2), n1 + n2 - 2
         if pooled.any():
             n1 = n[pooled]
-            n2 = np.maximum(2.0, np.ceil(n1 / self.ratio[idx[pooled]] - 1e-9))  # old_size
+            n2 = old_sizes(n1, self.ratio[idx[pooled]])
             tau[pooled] = self.s1[idx[pooled]] * np.sqrt(1.0 / n1 + 1.0 / n2)
             df[pooled] = n1 + n2 - 2.0
         welch = kind == _WELCH
         if welch.any():
             rows, n1 = idx[welch], n[welch]
-            n2 = np.maximum(2.0, np.ceil(n1 / self.ratio[rows] - 1e-9))  # old_size
+            n2 = old_sizes(n1, self.ratio[rows])
             a = self.s1[rows] / np.sqrt(n1)
             b = self.s2[rows] / np.sqrt(n2)
             # math.hypot and the float power of power_of_tests._tau_df, element by element
@@ -165,8 +166,8 @@ def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, SampleSize
     """
     from .errors import StatsError
 
-    cases: list[tuple] = []
-    owners: list[tuple[int, int | None]] = []  # (question, n) per case; n None: the power
+    cases: list[tuple] = []  # the powers at the questions' own lot sizes
+    own_of: list[int] = []  # the question of each
     sizes: list[tuple[int, _TostSize]] = []
     setups: list[tuple[int, _TostSize]] = []
     for i, q in enumerate(questions):
@@ -186,7 +187,7 @@ def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, SampleSize
                 lo, hi = check_margins(q["low"], q["high"])
                 tau, df = _plan(q["design"], q["sd"], q["n_new"], q["n_old"], q["sd_old"])
                 cases.append((delta, lo, hi, tau, df, a))
-            owners.append((i, None))
+            own_of.append(i)
         except (StatsError, ValueError):
             pass
     # every question's guess by the approximation, the searches run in step; then from each
@@ -202,7 +203,6 @@ def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, SampleSize
         sizes.append((i, setup))
     found: dict[int, tuple[int, float] | None] = {}
     own = np.array(cases, dtype=float).reshape(-1, 6).T  # the first round's leading cases
-    own_of = [i for i, _ in owners]
     # the lot sizes each walk's next round integrates: the first round also takes the size below
     # the guess, the walk's usual second step (the approximation asks for one or two more than
     # the exact power needs), so that most walks end after one round; a walk is sent every
