@@ -28,7 +28,7 @@ from verify.stats import _memo, nonparametric, sample_size, sample_size_many, sa
 from verify.stats import variance_components as vc
 from verify.stats.core import mean_sd
 from verify.stats.diagnostics import lot_effect
-from verify.stats.errors import DegenerateDataError
+from verify.stats.errors import DegenerateDataError, NotApplicableError
 from verify.stats.samples import finite_values, group_codes
 
 
@@ -164,10 +164,50 @@ def _setups(seed: int, count: int):
     return out
 
 
+def _bisection(q):
+    """The plain search on the approximation: doubling, bisection, the one-fewer check."""
+    try:
+        return sample_size._smallest_n(q.approx_at, q.design, q.ratio, q.target).n_new
+    except NotApplicableError:
+        return None
+
+
 def test_searches_in_step_give_each_guess_exactly():
     setups = _setups(11, 60)
     assert len(setups) > 40
     assert sample_size_many._guesses(setups) == [q.guess() for q in setups]
+
+
+@pytest.mark.parametrize("seed", [11, 12, 13])
+def test_window_guesses_equal_the_plain_search_on_the_approximation(seed):
+    """The guesses read the approximation in a window around a normal-theory start; where the
+    approximation rises with n they are the plain search's answers (doubling and bisection).
+    The setups span every design, ratios 1/2..2, alphas 0.01..0.1 and lot sizes 2..thousands."""
+    setups = _setups(seed, 200)
+    plain = [_bisection(q) for q in setups]
+    assert sample_size_many._guesses(setups) == plain
+    sizes = [n for n in plain if n is not None]
+    assert min(sizes) == 2 and max(sizes) > 1000
+
+
+@pytest.mark.parametrize("moved", [-40.0, 25.0, 1e7])
+def test_guesses_whose_window_misses_search_plainly(monkeypatch, moved):
+    """A start far from the answer (below it, above it, beyond the largest lot size): no
+    window holds the crossing, and every setup then searches by doubling and bisection."""
+    setups = _setups(14, 60)
+    starts = sample_size_many._normal_starts
+    monkeypatch.setattr(sample_size_many, "_normal_starts",
+                        lambda *arrays: np.maximum(2.0, starts(*arrays) + moved))
+    fell_back = []
+    bisections = sample_size_many._bisections
+    monkeypatch.setattr(sample_size_many, "_bisections",
+                        lambda table, which: fell_back.extend(which) or bisections(table, which))
+    assert sample_size_many._guesses(setups) == [_bisection(q) for q in setups]
+    assert len(fell_back) > len(setups) // 2
+    # and one question alone (sample_size_tost's guess), its window moved the same way
+    monkeypatch.setattr(sample_size, "_normal_starts",
+                        lambda *arrays: np.maximum(2.0, starts(*arrays) + moved))
+    assert [q.guess() for q in setups] == [_bisection(q) for q in setups]
 
 
 def test_the_setup_table_gives_each_setups_own_floats():

@@ -92,10 +92,11 @@ def test_sample_size_with_vectorised_window_equals_stepwise(design, shift, sd, m
     kw = dict(design=design, low=-0.02, high=0.02, power=0.9,
               sd_old=sd * 1.3 if design == "welch" else None)
     fast = power.sample_size_tost(shift, sd, **kw)
-    # the one-at-a-time route: the exact power with adaptive quadrature, no window
+    # the one-at-a-time route: the exact power with adaptive quadrature, no window, and the
+    # guess by the plain search on the approximation (doubling and bisection), not the window's
     orig = sample_size._smallest_n
 
-    def stepwise(power_at, design_, ratio, target, *, approx=None, many=None):
+    def stepwise(power_at, design_, ratio, target, *, approx=None, many=None, guess=None):
         def adaptive_at(n_new, n_old):
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore")

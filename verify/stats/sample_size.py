@@ -19,6 +19,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
+from scipy import special
 
 from ._checks import check_harmful, check_margins, finite, positive
 from ._frozen import fast_init
@@ -100,6 +101,50 @@ def _check_ratio(design: str, ratio: float) -> float:
 
 _NO_GUESS = object()
 
+#: The lot sizes whose approximate powers a TOST guess reads first: from one below to three
+#: above its normal-theory start (the shifted-t approximation asks for up to three more than the
+#: normal theory at small lot sizes, none more at large ones).
+GUESS_WINDOW = (-1, 3)
+
+_ONE, _POOLED, _WELCH = 0, 1, 2  # how a design's (tau, df) is computed
+
+
+def _normal_starts(delta, lo, hi, alpha, target, kind, s1, s2, ratio) -> np.ndarray:
+    """The normal-theory lot size of TOST questions given as arrays (``kind`` :data:`_ONE`,
+    :data:`_POOLED` or :data:`_WELCH`; ``s2`` NaN but for welch): with the sd of the estimate
+    tau, the power ``Phi((high - delta)/tau - z) + Phi((delta - low)/tau - z) - 1`` (z the
+    normal quantile at 1 - alpha) equals the target where x = 1/tau solves it (Newton's method,
+    from the root of the nearer margin's side alone, which lies above it), and the lot size
+    follows from tau as the design's (tau, df) has it (n_old = n_new / ratio). A start only: the
+    guesses read the approximation around it."""
+    up, down = hi - delta, delta - lo
+    z = special.ndtri(1.0 - alpha)
+    x = (z + special.ndtri(0.5 * (1.0 + target))) / np.minimum(up, down)
+    for _ in range(4):
+        f = special.ndtr(up * x - z) + special.ndtr(down * x - z) - 1.0 - target
+        slope = up * np.exp(-0.5 * (up * x - z) ** 2) + down * np.exp(-0.5 * (down * x - z) ** 2)
+        x = np.maximum(x - f * math.sqrt(2.0 * math.pi) / slope, 0.5 * x)
+    var = np.where(kind == _ONE, s1 * s1,
+                   np.where(kind == _POOLED, s1 * s1 * (1.0 + ratio),
+                            s1 * s1 + np.nan_to_num(s2) ** 2 * ratio))
+    n = var * x * x
+    return np.where(np.isfinite(n), np.ceil(np.minimum(n, 4.0 * MAX_N)), 2.0)
+
+
+def _guess_sizes(starts: np.ndarray, n_max: np.ndarray) -> np.ndarray:
+    """Each start's window of lot sizes (:data:`GUESS_WINDOW`), clipped to [2, n_max] (sizes
+    repeated at a clipped end are harmless), one row per start."""
+    span = np.arange(GUESS_WINDOW[0], GUESS_WINDOW[1] + 1, dtype=float)
+    return np.clip(starts[:, None] + span, 2.0, n_max[:, None]).astype(np.int64)
+
+
+def _first_reaching(sizes: np.ndarray, powers: np.ndarray, target: np.ndarray):
+    """(found, first): whether each row's window holds a size reaching the target just above
+    one falling short (or at the smallest size, 2), and the column of its first such size."""
+    reached = powers >= target[:, None]
+    first = reached.argmax(axis=1)
+    return reached.any(axis=1) & ((first > 0) | (sizes[:, 0] == 2)), first
+
 
 def _n_max(design: str, ratio: float) -> int:
     if design in ("one-sample", "paired"):
@@ -174,7 +219,7 @@ def _smallest_n(
 def _search(design: str, ratio: float, target: float):
     """The plain search as a generator: it yields each n_new whose power it needs, is sent
     that power, and returns the :class:`SampleSize` (so that many searches can run in step,
-    their powers computed together: :func:`verify.stats.sample_size_many._guesses`)."""
+    their powers computed together: :func:`verify.stats.sample_size_many._bisections`)."""
     n_max = _n_max(design, ratio)
     lo, hi = 1, 2  # lo falls short (or is below the minimum of 2); hi is the candidate
     p_hi = yield hi
@@ -377,7 +422,7 @@ def sample_size_tost(
     """
     q = _TostSize(true_shift, sd, design=design, alpha=alpha, low=low, high=high,
                   power=power, ratio=ratio, sd_old=sd_old)
-    return q.smallest(q.power_at, approx=q.approx_at, many=q.power_many)
+    return q.smallest(q.power_at, approx=q.approx_at, many=q.power_many, guess=q.guess())
 
 
 class _TostSize(_Search):
@@ -443,7 +488,22 @@ class _TostSize(_Search):
         return [float(x) for x in _tost_power_cases([self.case(n) for n in ns])]
 
     def guess(self) -> int | None:
-        """n_new by the shifted-t approximation (None where it finds none)."""
+        """n_new by the shifted-t approximation (None where it finds none): the first size in
+        the window around the normal-theory start that reaches the target just above one
+        falling short, else the plain search on the approximation. The same guess as
+        :func:`~verify.stats.sample_size_many.plan_tost_many`'s for many questions (the same
+        array functions; its approximate powers are this one's, element by element)."""
+        kind = _WELCH if self.design == "welch" else _POOLED if self.design == "pooled" else _ONE
+        one = [np.array([float(v)]) for v in (
+            self.delta, self.lo, self.hi, self.a, self.target, kind, self.s1,
+            np.nan if self.s2 is None else self.s2, self.ratio)]
+        sizes = _guess_sizes(_normal_starts(*one), np.array([_n_max(self.design, self.ratio)],
+                                                            dtype=float))
+        powers = np.array([[self.approx_at(n, old_size(self.design, n, self.ratio))
+                            for n in sizes[0].tolist()]])
+        found, first = _first_reaching(sizes, powers, one[4])
+        if found[0]:
+            return int(sizes[0, first[0]])
         try:
             return _smallest_n(self.approx_at, self.design, self.ratio, self.target).n_new
         except NotApplicableError:

@@ -3,9 +3,10 @@ sizes and the smallest lot sizes reaching its target power, for all characterist
 evaluation in one pass (:func:`plan_tost_many`).
 
 Each answer equals the one-at-a-time call's (:func:`~verify.stats.power_of_tests.power_tost`,
-:func:`~verify.stats.sample_size.sample_size_tost`). The searches on the shifted-t approximation
-run in step, each step's approximate powers computed together (:func:`_guesses`); the walks from
-their answers with the exact power run in step too, each round's powers integrated together.
+:func:`~verify.stats.sample_size.sample_size_tost`). Each question's guess reads the shifted-t
+approximation in a window around a normal-theory start, all windows computed together
+(:func:`_guesses`; the few that miss search by bisection, in step); the walks from the guesses with
+the exact power run in step too, each round's powers integrated together.
 """
 
 from __future__ import annotations
@@ -19,8 +20,14 @@ from ._checks import check_margins, finite
 from .errors import NotApplicableError
 from .power_of_tests import _alpha, _plan, _tost_power_many
 from .sample_size import (
+    _ONE,
+    _POOLED,
+    _WELCH,
     SampleSize,
+    _first_reaching,
+    _guess_sizes,
     _n_max,
+    _normal_starts,
     _search,
     _smallest_n,
     _steps,
@@ -52,9 +59,6 @@ def _approx_many(setups: list[_TostSize], ns: list[int]) -> list[float]:
     return p.tolist()
 
 
-_ONE, _POOLED, _WELCH = 0, 1, 2  # how a design's (tau, df) is computed (_Table.tau_df)
-
-
 class _Table:
     """Validated setups as arrays: their (tau, df), approximate powers and exact-power cases at
     many (setup, n_new) at once. Every element is the float the setup's own methods give: the
@@ -73,6 +77,7 @@ class _Table:
         self.lo = np.array([q.lo for q in setups], dtype=float)
         self.hi = np.array([q.hi for q in setups], dtype=float)
         self.a = np.array([q.a for q in setups], dtype=float)
+        self.target = np.array([q.target for q in setups], dtype=float)
 
     def tau_df(self, idx: np.ndarray, ns: list[int]) -> tuple[np.ndarray, np.ndarray]:
         """:meth:`_TostSize._tau_df` of setup ``idx[j]`` at n_new ``ns[j]`` (n_old by
@@ -123,11 +128,41 @@ class _Table:
 
 
 def _guesses(setups: list[_TostSize], table: _Table | None = None) -> list[int | None]:
-    """:meth:`_TostSize.guess` of every setup: the searches run in step, each step's
-    approximate powers computed together (:meth:`_Table.approx`)."""
+    """:meth:`_TostSize.guess` of every setup: the smallest n_new whose approximate power
+    (:meth:`_TostSize.approx_at`) reaches the target. The approximate powers in a window around
+    each setup's normal-theory start (:data:`GUESS_WINDOW`, :func:`_starts`) are computed
+    together first; a setup whose window holds a size reaching the target just above one
+    falling short (or at the smallest size, 2) takes it, the others search by doubling and
+    bisection (:func:`_bisections`). Where the approximation rises with n, as it does wherever
+    the tests have looked, both give the same size (tests hold them together); the guess only
+    sets where the walks with the exact power start, and their answers do not depend on it."""
     table = _Table(setups) if table is None else table  # (the caller's, of these setups)
     out: list[int | None] = [None] * len(setups)
-    searches = {i: _search(q.design, q.ratio, q.target) for i, q in enumerate(setups)}
+    if not setups:
+        return out
+    rows = np.arange(len(setups))
+    starts = _normal_starts(table.delta, table.lo, table.hi, table.a, table.target, table.kind,
+                            table.s1, table.s2, table.ratio)
+    n_max = np.array([_n_max(q.design, q.ratio) for q in setups], dtype=float)
+    sizes = _guess_sizes(starts, n_max)
+    powers = np.array(table.approx(np.repeat(rows, sizes.shape[1]), sizes.ravel().tolist()))
+    found, first = _first_reaching(sizes, powers.reshape(sizes.shape), table.target)
+    for i, j in zip(np.flatnonzero(found).tolist(), first[found].tolist(), strict=True):
+        out[i] = int(sizes[i, j])
+    missed = np.flatnonzero(~found).tolist()
+    if missed:
+        for i, n in zip(missed, _bisections(table, missed), strict=True):
+            out[i] = n
+    return out
+
+
+def _bisections(table: _Table, which: list[int]) -> list[int | None]:
+    """The plain searches of setups ``which`` on the approximation (doubling, bisection, the
+    check that one fewer falls short: :func:`~verify.stats.sample_size._search`), run in step,
+    each step's approximate powers computed together (:meth:`_Table.approx`)."""
+    out: dict[int, int | None] = {}
+    setups = table.setups
+    searches = {i: _search(setups[i].design, setups[i].ratio, setups[i].target) for i in which}
     asked = {i: next(g) for i, g in searches.items()}
     # the powers each search was given: asked again (the last check that one fewer falls
     # short asks a size the bisection met), it is sent the same float without a new round
@@ -148,7 +183,7 @@ def _guesses(setups: list[_TostSize], table: _Table | None = None) -> list[int |
                 out[i] = stop.value.n_new
             except NotApplicableError:
                 out[i] = None
-    return out
+    return [out[i] for i in which]
 
 
 def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, SampleSize | None]]:
@@ -158,11 +193,10 @@ def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, SampleSize
     ``n_new``, ``n_old``, ``design``, ``alpha``, ``low``, ``high``, ``sd_old``) plus the target
     ``power`` and ``ratio`` of the sample-size search. Returns (power, sample size) per
     question, each equal to the one-at-a-time call's result, or None where that call raises a
-    :class:`~verify.stats.errors.StatsError` or ``ValueError``. The questions' searches run in
-    step: each step's approximate powers are computed together, then each step's exact powers
-    (the walk from each guess, and the powers at the questions' own lot sizes) are integrated
-    together, which costs far less than one pass per question and integrates only the lot
-    sizes a walk asks for.
+    :class:`~verify.stats.errors.StatsError` or ``ValueError``. The questions' guesses are
+    computed together (:func:`_guesses`), then each step's exact powers (the walk from each
+    guess, and the powers at the questions' own lot sizes) are integrated together, which costs
+    far less than one pass per question and integrates only the lot sizes a walk asks for.
     """
     from .errors import StatsError
 
