@@ -56,7 +56,10 @@ def test_a_degenerate_error_from_stats_becomes_the_hold_reason(tmp_path, monkeyp
     def degenerate(*args, **kwargs):
         raise DegenerateDataError("made degenerate for this test")
 
+    # the location checks' effects: the target's from the values, the shift's (two samples
+    # checked by the draft itself) from their summaries
     monkeypatch.setattr(ttests, "effect", degenerate)
+    monkeypatch.setattr(ttests, "two_sample_effect", degenerate)
     ev = _evaluate(tmp_path, _values(1), _values(2))
     checks = {k.check: k for k in ev.characteristic("x").checks}
     assert checks["shift"].outcome == "HOLD"
@@ -77,7 +80,8 @@ def test_a_not_applicable_error_from_stats_becomes_the_hold_reason(tmp_path, mon
 
 
 @pytest.mark.parametrize("module, name", [
-    (ttests, "effect"), (spread, "f_test"), (capability, "capability"),
+    (ttests, "effect"), (ttests, "two_sample_effect"), (spread, "f_test"),
+    (capability, "capability"),
     (tolerance, "normal_tolerance"),
 ])
 @pytest.mark.parametrize("error", [TypeError, ValueError, KeyError])

@@ -140,3 +140,21 @@ def test_gather_the_same_whatever_the_text_columns_storage(demo, text):
         assert pv.keys == keys and pv.unmatched == unmatched
         np.testing.assert_array_equal(pv.old, old)
         np.testing.assert_array_equal(pv.new, new)
+
+
+@pytest.mark.parametrize("text", ["str", "string[python]", "string[pyarrow]", object])
+@pytest.mark.parametrize("missing", [False, True])
+def test_the_index_reads_a_text_column_as_its_to_numpy_objects(text, missing):
+    # the index's lots: each distinct text made a str once for pyarrow storage (dictionary
+    # encoding), else the column's own to_numpy(dtype=object), the plain route, for any storage
+    if "pyarrow" in str(text):
+        pytest.importorskip("pyarrow", reason="pandas' pyarrow text storage needs pyarrow")
+    from verify.data.values import _text_objects
+
+    cells = ["L2", "L1", "L2", "", "L10", "L1"] + ([None] if missing else [])
+    column = pd.Series(cells, dtype=object).astype(text)
+    got = _text_objects(column)
+    plain = column.to_numpy(dtype=object)
+    assert got.dtype == object and got.shape == plain.shape
+    assert [type(x) for x in got] == [type(x) for x in plain]
+    assert [x for x in got if isinstance(x, str)] == [x for x in plain if isinstance(x, str)]

@@ -173,3 +173,93 @@ def test_fmt_writes_what_the_plain_f_string_writes():
         assert decide.fmt(x, digits) == _fmt_plain(x, digits)
 
     same()
+
+
+def _fmt_like_plain(*values):
+    """fmt_like's earlier route, kept as the reference: the finite non-zero magnitudes in a
+    list, the format spec built per call, the point looked for in the text and the zero found
+    by reading the text back as a number."""
+    import math
+
+    finite = [abs(v) for v in values if v is not None and math.isfinite(v) and v != 0]
+    if not finite:
+        return [decide.fmt(v) for v in values]
+    decimals = min(12, max(0, 3 - math.floor(math.log10(max(finite)))))
+    out = []
+    for v in values:
+        if v is None or not math.isfinite(v):
+            out.append(decide.fmt(v))
+        else:
+            text = f"{v:.{decimals}f}"
+            if "." in text:
+                text = text.rstrip("0").rstrip(".")
+            out.append("0" if float(text) == 0 else text)
+    return out
+
+
+def test_fmt_like_writes_what_its_plain_route_writes():
+    import numpy as np
+    from hypothesis import given, settings
+    from hypothesis import strategies as st
+
+    fixed = [None, 0, 0.0, -0.0, float("inf"), float("-inf"), float("nan"), 1, -7, 123456,
+             0.012345, 1e-12, -3.14159e200, np.float64(2.5e-5), np.float64(-0.0), np.int64(42),
+             -0.4, 0.4, -0.00004, 0.00049, 9999.5, 0.99995, -1e-13, 5e-13]
+    for a in fixed:
+        assert decide.fmt_like(a) == _fmt_like_plain(a), a
+        for b in fixed:
+            assert decide.fmt_like(a, b) == _fmt_like_plain(a, b), (a, b)
+    # texts that round to zero beside a larger value: "0" and "-0" both written "0"
+    assert decide.fmt_like(-0.00004, 12.5) == ["0", "12.5"]
+
+    values = st.one_of(st.none(), st.floats(), st.floats(-1e4, 1e4),
+                       st.integers(-10**6, 10**6))
+
+    @settings(max_examples=500, deadline=None)
+    @given(st.lists(values, min_size=1, max_size=4))
+    def same(vs):
+        assert decide.fmt_like(*vs) == _fmt_like_plain(*vs)
+
+    same()
+
+
+def test_p_eq_writes_what_its_plain_route_writes():
+    """p_eq's earlier route (the text of fmt_p after the name) as the reference."""
+
+    def plain(p, name="p"):
+        if p is not None and p < 1e-4:
+            return f"{name} < 0.0001"
+        return f"{name} = {decide.fmt_p(p)}"
+
+    for p in (None, 0.0, 5e-5, 1e-4, 0.012345, 0.99995, 0.99999, 1.0, float("nan"), 3):
+        for name in ("p", "adjusted p"):
+            assert decide.p_eq(p, name) == plain(p, name), (p, name)
+    assert decide.p_eq(0.012345) == "p = 0.0123"
+
+
+def test_fmt_percent_writes_fmt_of_the_percentage():
+    """fmt_percent remembers a float level's text: the first and any later call give
+    fmt(100 * level), whatever the level's type."""
+    import numpy as np
+
+    levels = [0.9, 0.95, 0.99, 0.8, 1 - 2 * 0.05, 1 - 2 * 0.025, 0.0, -0.0, 1.0, 1, 0.999999,
+              1e-9, np.float64(0.9), np.float32(0.95), 0.123456789]
+    for _ in range(2):
+        for level in levels:
+            assert decide.fmt_percent(level) == decide.fmt(100 * level), level
+    assert decide.fmt_percent(1 - 2 * 0.05) == "90"
+
+
+def test_margin_words_remembered_equal_the_words_made_anew():
+    """A float margin's words are remembered; every call gives the words _margin_words makes
+    (and -0.0 and 0.0, equal as keys, give equal words)."""
+    import numpy as np
+
+    margins = [(-0.02, 0.02, "mm"), (-0.02, 0.02, ""), (-0.01, 0.03, "mm"), (-0.0, 0.5, "µm"),
+               (0.0, 0.5, "µm"), (-1, 1, "mm"), (np.float64(-0.02), np.float64(0.02), "mm"),
+               (-1e-12, 1e-12, "V"), (-0.1 - 0.2, 0.3, "")]
+    for _ in range(2):
+        for low, high, unit in margins:
+            assert decide.margin_words(low, high, unit) == decide._margin_words(low, high, unit)
+    assert decide.margin_words(-0.02, 0.02, "mm") == "±0.02 mm"
+    assert decide.margin_words(-0.01, 0.03) == "-0.01..+0.03"

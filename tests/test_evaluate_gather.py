@@ -17,7 +17,7 @@ import pytest
 from verify import evaluate_gather as eg
 from verify.data import load_measurements
 from verify.spec import load_spec
-from verify.stats import _memo
+from verify.stats import _memo, batch
 from verify.stats import variance_components as vc
 from verify.stats.errors import StatsError
 from verify.stats.limits import beyond_limits
@@ -32,8 +32,9 @@ def _same(a, b) -> bool:
     return type(a) is type(b) and a == b
 
 
+@pytest.mark.parametrize("batched", [False, True])
 @pytest.mark.parametrize("name", ["bushing-supplier", "filler-paired", "housing-resin"])
-def test_summaries_together_equal_each_alone_on_demo_specs(demo, name):
+def test_summaries_together_equal_each_alone_on_demo_specs(demo, name, batched):
     spec = load_spec(demo / "specs" / f"{name}.yaml")
     meas = load_measurements(spec)
     try:
@@ -43,6 +44,8 @@ def test_summaries_together_equal_each_alone_on_demo_specs(demo, name):
             for st in d.shown.values():
                 if st.parts.size:
                     finite_values(st.parts)
+        if batched:  # the lots' one-way analyses (and the sds from them) as evaluate has them
+            batch.prefetch([], in_lots=[q for d in drafts for q in eg.samples_in_lots(d)])
         eg.summarize(drafts)
         compared = 0
         for d in drafts:
@@ -120,6 +123,29 @@ def test_a_lot_unit_spec_is_read_per_part_through_one_copy(demo):
             assert st.values.size == len(set(st.lots))  # lot means, one per lot
     finally:
         _memo.forget()
+
+
+@pytest.mark.parametrize("name", ["bushing-supplier", "filler-paired", "housing-resin"])
+def test_a_part_unit_stream_is_what_analysis_values_reads(demo, name):
+    # the streams of a spec analysed per part come from the index straight
+    # (data.values.part_values); the plain route is analysis_values, the public reading of the
+    # table: the same values bit for bit, the same lots, the parts the units themselves
+    from dataclasses import replace
+
+    from verify.data import analysis_values
+
+    spec = replace(load_spec(demo / "specs" / f"{name}.yaml"), unit_of_analysis="part")
+    meas = load_measurements(spec)
+    for ch in spec.characteristics:
+        if ch.pass_fail:
+            continue
+        for process in ("old", "new"):
+            st = eg._stream(spec, meas, process, ch, eg._part_spec(spec))
+            plain = analysis_values(meas, spec, ch.name, process)
+            assert st.values.tobytes() == plain.values.tobytes()
+            assert st.values.dtype == plain.values.dtype and st.lots == plain.lots
+            assert st.parts is st.values and not st.values.flags.writeable
+            assert st.values.flags.owndata  # (the memo remembers only such samples)
 
 
 def test_lot_labels_that_are_not_text_are_each_made_text_as_before():

@@ -227,7 +227,7 @@ def test_batched_one_way_equals_the_one_sample_route(lot_sizes):
     # the one-way analyses of many samples in the same lots, computed together, give the
     # lot-effect test and the variance components of each sample bit for bit
     from verify.stats.lot_effect import lot_effect
-    from verify.stats.variance_components import variance_components
+    from verify.stats.variance_components import sd_components, variance_components
 
     rng = np.random.default_rng(sum(lot_sizes))
     lots = tuple(f"L{i}" for i, size in enumerate(lot_sizes) for _ in range(size))
@@ -246,8 +246,12 @@ def test_batched_one_way_equals_the_one_sample_route(lot_sizes):
     # (the lots without spread may keep a rounding residue, which both routes share)
     assert remembered >= 5 if len(lot_sizes) >= 2 else remembered == 0
     for x, f in zip(samples, frozen, strict=True):
-        for fn in (lot_effect, variance_components):
+        for fn in (lot_effect, variance_components, sd_components):
             assert _batched(fn, f, lots=lots) == _plain(fn, x, lots=list(lots))
+    # the summaries' sds were remembered with the analyses, for the samples they are estimable
+    # of (2 lots of 2 parts or more): the shortcut above was taken, not the one-sample route
+    remembered = sum(_memo.recall("sd_components", f) is not None for f in frozen)
+    assert remembered >= 5 if sum(size >= 2 for size in lot_sizes) >= 2 else remembered == 0
     _memo.forget()
 
 

@@ -57,31 +57,60 @@ def fmt(x: float | None, digits: int = 4) -> str:
     return format(x, spec if spec is not None else f".{digits}g")
 
 
+_PERCENTS: dict[float, str] = {}  # fmt_percent's texts by level
+
+
+def fmt_percent(level: float) -> str:
+    """``fmt(100 * level)``: a confidence level as a percentage number ("90" for 0.9). A
+    float level's text is remembered (a layout states the same few levels for every
+    characteristic)."""
+    if type(level) is not float:
+        return fmt(100 * level)
+    text = _PERCENTS.get(level)
+    if text is None:
+        if len(_PERCENTS) >= 256:
+            _PERCENTS.clear()
+        text = _PERCENTS[level] = fmt(100 * level)
+    return text
+
+
+_F_SPECS = tuple(f".{d}f" for d in range(13))  # fmt_like's format specs, built once
+
+
 def fmt_like(*values: float | None) -> list[str]:
     """Numbers that belong together, rounded to one number of decimals (4 significant digits on
     the largest, trailing zeros dropped), so that an interval reads 0.000011..0.001384 rather
     than 1.094e-05..0.001384."""
-    finite = [abs(v) for v in values if v is not None and math.isfinite(v) and v != 0]
-    if not finite:
+    top = 0  # the largest finite non-zero |value|, 0 while there is none
+    for v in values:
+        if v is not None and math.isfinite(v) and v != 0:
+            a = abs(v)
+            if top == 0 or a > top:
+                top = a
+    if top == 0:
         return [fmt(v) for v in values]
-    decimals = min(12, max(0, 3 - math.floor(math.log10(max(finite)))))
+    decimals = min(12, max(0, 3 - math.floor(math.log10(top))))
+    spec = _F_SPECS[decimals]
     out = []
     for v in values:
         if v is None or not math.isfinite(v):
             out.append(fmt(v))
-        else:
-            text = f"{v:.{decimals}f}"
-            if "." in text:
-                text = text.rstrip("0").rstrip(".")
-            out.append("0" if float(text) == 0 else text)
+            continue
+        text = format(v, spec)  # f"{v:.{decimals}f}"
+        if decimals:  # (a fixed-point text has a point exactly when it has decimals)
+            text = text.rstrip("0").rstrip(".")
+        # a text whose number is zero: its digits all zeros, so no point is left ("0", "-0")
+        out.append("0" if text == "0" or text == "-0" else text)
     return out
 
 
 def p_eq(p: float | None, name: str = "p") -> str:
     """"p = 0.0123", or "p < 0.0001" for a tiny p-value."""
-    if p is not None and p < 1e-4:
+    if p is None:
+        return f"{name} = n/a"
+    if p < 1e-4:
         return f"{name} < 0.0001"
-    return f"{name} = {fmt_p(p)}"
+    return f"{name} = {p:.4f}"  # (fmt_p's text)
 
 
 def fmt_p(p: float | None) -> str:
@@ -90,7 +119,24 @@ def fmt_p(p: float | None) -> str:
     return "< 0.0001" if p < 1e-4 else f"{p:.4f}"
 
 
+_MARGIN_WORDS: dict[tuple[float, float, str], str] = {}  # margin_words' texts by margin
+
+
 def margin_words(low: float, high: float, unit: str = "") -> str:
+    """The margin in words ("±0.02 mm", "-0.01..+0.03 mm"); a float margin's text is
+    remembered (the characteristics of a layout often share their margins)."""
+    if type(low) is not float or type(high) is not float or type(unit) is not str:
+        return _margin_words(low, high, unit)
+    key = (low, high, unit)
+    text = _MARGIN_WORDS.get(key)
+    if text is None:
+        if len(_MARGIN_WORDS) >= 256:
+            _MARGIN_WORDS.clear()
+        text = _MARGIN_WORDS[key] = _margin_words(low, high, unit)
+    return text
+
+
+def _margin_words(low: float, high: float, unit: str) -> str:
     u = f" {unit}" if unit else ""
     if math.isclose(-low, high, rel_tol=1e-12):
         return f"±{fmt(high)}{u}"

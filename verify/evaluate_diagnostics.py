@@ -154,13 +154,21 @@ def joined_parts(d: CharDraft) -> tuple:
     return (cand.parts,) if ref.parts is None else (ref.parts, cand.parts)
 
 
+_COMPANIONS: dict[str, tuple] = {}  # check name -> (its kind, its compute hook's companions)
+
+
 def companions(d: CharDraft) -> list[DiagnosticResult]:
     """The companions of the characteristic's checks (e.g. a rank test beside a t-test), from
-    each kind's compute hook, in the order of the checks."""
+    each kind's compute hook, in the order of the checks. Each check name's kind and hook are
+    looked up once (the registry and its loaded hooks do not change while verify runs)."""
     out: list[DiagnosticResult] = []
     for dr in d.checks:
-        k = kind(dr.result.check)
-        fn = getattr(k.hook("compute"), "companions", None)
+        name = dr.result.check
+        hit = _COMPANIONS.get(name)
+        if hit is None:
+            k = kind(name)
+            hit = _COMPANIONS[name] = (k, getattr(k.hook("compute"), "companions", None))
+        k, fn = hit
         if fn is not None:
             out.extend(fn(k, d.inp, dr))
     return out

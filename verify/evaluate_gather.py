@@ -18,6 +18,7 @@ from . import decide
 from .checks import CheckKind, kinds
 from .checks.drafting import CANNOT_COMPUTE, CheckInput, Comparison, Draft, Stream
 from .data import analysis_values, paired_values, stream_values
+from .data.values import part_values
 from .model import DiagnosticResult, Measurements, ProcessSummary
 from .spec_model import Characteristic, Spec
 from .stats import distributions
@@ -123,16 +124,17 @@ def _summary(process: str, values: np.ndarray, lots, n_parts: int,
     # the lots in order of first appearance, as text: the labels group_codes found (remembered
     # for the stream's lots tuple) where they are text; labels of other types (1, 1.0 and True
     # are one key to it, three lots as text) are each made text first, as always
-    labels = group_codes(lots, len(lots))[0] if len(lots) else ()
-    if not all(type(v) is str for v in labels):
-        labels = lots
+    labels = group_codes(lots, len(lots))[0] if len(lots) else []
+    # (text labels are their own text, and group_codes gives each once)
+    shown_lots = tuple(labels) if all(type(v) is str for v in labels) else tuple(
+        dict.fromkeys(map(str, lots)))
     return ProcessSummary(
         sd_within_lot=within, sd_between_lot=between, between_lot_set_to_zero=truncated,
         process=process,
         n=n,
         mean=mean,
         sd=sd,
-        lots=tuple(dict.fromkeys(map(str, labels))),
+        lots=shown_lots,
         n_parts=n_parts,
         minimum=extremes[0] if n else None,
         maximum=extremes[1] if n else None,
@@ -163,14 +165,17 @@ def _extremes(samples: list[np.ndarray]) -> list[tuple[float, float] | None]:
 
 def _stream(spec: Spec, meas: Measurements, name: str, ch: Characteristic, part_spec: Spec
             ) -> Stream:
-    """One named stream of ``ch``: its analysis units and parts, read-only."""
-    units = analysis_values(meas, spec, ch.name, name)
-    parts = units if part_spec is spec else analysis_values(meas, part_spec, ch.name, name)
-    # read-only samples: the statistics remember what they derive from one (its mean and sd,
-    # its lots' codes) instead of deriving it again for each check and diagnostic
-    values = freeze(units.values)
-    part_values = values if parts is units else freeze(parts.values)
-    return Stream(name=name, values=values, parts=part_values, lots=tuple(parts.lots))
+    """One named stream of ``ch``: its analysis units and parts, read-only (the statistics
+    remember what they derive from a read-only sample, its mean and sd, its lots' codes,
+    instead of deriving it again for each check and diagnostic)."""
+    if part_spec is spec:  # analysed per part: the units are the parts (analysis_values')
+        values, lots = part_values(meas, ch.name, name)
+        values = freeze(values)
+        return Stream(name=name, values=values, parts=values, lots=lots)
+    units = analysis_values(meas, spec, ch.name, name)  # lot means
+    parts = analysis_values(meas, part_spec, ch.name, name)
+    return Stream(name=name, values=freeze(units.values), parts=freeze(parts.values),
+                  lots=tuple(parts.lots))
 
 
 _PART_SPECS: dict[int, tuple[Spec, Spec]] = {}  # id(spec) -> (spec, its part-unit copy)

@@ -174,8 +174,8 @@ def diagnostic(name: str, method: str, group: str, flag: bool, note: str,
                extra: dict | None = None):
     """``DiagnosticResult(name, method, group, flag, note, statistic, p_value, extra)``
     without the frozen dataclass's ``__init__`` (one ``object.__setattr__`` per field; an
-    evaluation builds thousands): the same values, in the same field order, into a new
-    instance, as :func:`replaced` copies one. ``extra`` None is a new empty dict, the field's
+    evaluation builds thousands): the same values, in the same field order, as the new
+    instance's ``__dict__``. ``extra`` None is a new empty dict, the field's
     default. Should the class's fields differ from these, or the class validate
     (``__post_init__``) or use slots, the class itself is called."""
     if not _DIAGNOSTIC_CLASS:
@@ -191,11 +191,15 @@ def diagnostic(name: str, method: str, group: str, flag: bool, note: str,
     if not direct:
         return cls(name, method, group, flag, note, statistic=statistic, p_value=p_value,
                    **({} if extra is None else {"extra": extra}))
-    new = object.__new__(cls)
-    new.__dict__.update(name=name, method=method, group=group, flag=flag, note=note,
-                        statistic=statistic, p_value=p_value,
-                        extra={} if extra is None else extra)
+    new = _new(cls)
+    _set(new, "__dict__", {"name": name, "method": method, "group": group, "flag": flag,
+                           "note": note, "statistic": statistic, "p_value": p_value,
+                           "extra": {} if extra is None else extra})
     return new
+
+
+_new = object.__new__
+_set = object.__setattr__  # (the frozen class's own __setattr__ refuses)
 
 
 def not_applicable(name: str, method: str, group: str, err: object):

@@ -70,11 +70,7 @@ def analysis_values(measurements: Measurements, spec: Spec, characteristic_name:
     ('part', True)
     """
     _check_args(spec, characteristic_name, process)
-    ix = _analysis_index(measurements.table)
-    span = ix.groups.get((characteristic_name, process))
-    lo, hi = span if span is not None else (0, 0)
-    values = ix.value[lo:hi].copy()
-    lots = ix.lot[lo:hi].tolist()
+    values, lots = part_values(measurements, characteristic_name, process)
     if spec.unit_of_analysis == "lot":
         # lot means, one per lot in order of the lot's first measurement. Each sum is
         # correctly rounded (math.fsum): lot means differ only in late digits, and their spread
@@ -84,8 +80,19 @@ def analysis_values(measurements: Measurements, spec: Spec, characteristic_name:
             acc.setdefault(lot, []).append(x)
         means = np.array([math.fsum(v) / len(v) for v in acc.values()], dtype=float)
         first = acc
-        return AnalysisValues(values=means, lots=tuple(first), unit="lot", n_parts=hi - lo)
-    return AnalysisValues(values=values, lots=tuple(lots), unit="part", n_parts=hi - lo)
+        return AnalysisValues(values=means, lots=tuple(first), unit="lot",
+                              n_parts=int(values.size))
+    return AnalysisValues(values=values, lots=lots, unit="part", n_parts=int(values.size))
+
+
+def part_values(measurements: Measurements, characteristic_name: str, process: str
+                ) -> tuple[np.ndarray, tuple[str, ...]]:
+    """The used part values of one characteristic and process in production order (an array of
+    their own) and the lot of each: :func:`analysis_values` per part, without its checks of the
+    names (an unknown characteristic or process has no values)."""
+    ix = _analysis_index(measurements.table)
+    lo, hi = ix.groups.get((characteristic_name, process), (0, 0))
+    return ix.value[lo:hi].copy(), tuple(ix.lot[lo:hi].tolist())
 
 
 class _Index:
@@ -99,12 +106,13 @@ class _Index:
     __slots__ = ("value", "lot", "order", "source_row", "groups", "_table", "_rows", "_pair",
                  "_stream")
 
-    def __init__(self, table: pd.DataFrame, rows: np.ndarray, groups: dict) -> None:
+    def __init__(self, table: pd.DataFrame, rows: np.ndarray, groups: dict, order: np.ndarray,
+                 source_row: np.ndarray) -> None:
         self._table, self._rows, self._pair, self._stream = table, rows, None, None
         self.value = table["value"].to_numpy(dtype=float)[rows]
-        self.lot = table["lot"].to_numpy(dtype=object)[rows]  # object array of str
-        self.order = table["order"].to_numpy(dtype=np.int64)[rows]
-        self.source_row = table["source_row"].to_numpy(dtype=np.int64)[rows]
+        self.lot = _text_objects(table["lot"])[rows]  # object array of str
+        self.order = order  # (of the rows given, in their order)
+        self.source_row = source_row
         self.groups = groups  # (characteristic, process) -> (start, stop)
 
     @property
@@ -133,10 +141,13 @@ def _analysis_index(table: pd.DataFrame) -> _Index:
     char_codes, char_names = _factorized(table["characteristic"])
     proc_codes, proc_names = _factorized(table["process"])
     width = max(1, len(proc_names))
-    rows = np.flatnonzero(used)
-    code = (char_codes.astype(np.int64) * width + proc_codes)[rows]
-    order = table["order"].to_numpy(dtype=np.int64)[rows]
-    source_row = table["source_row"].to_numpy(dtype=np.int64)[rows]
+    code = char_codes.astype(np.int64) * width + proc_codes
+    order = table["order"].to_numpy(dtype=np.int64)
+    source_row = table["source_row"].to_numpy(dtype=np.int64)
+    rows = None  # every row used: the rows are the sort itself
+    if not np.logical_and.reduce(used):
+        rows = np.flatnonzero(used)
+        code, order, source_row = code[rows], order[rows], source_row[rows]
     # one stable sort: by group, then production order, then source row (ties keep table order)
     sort = np.lexsort((source_row, order, code))
     code_sorted = code[sort]
@@ -147,7 +158,8 @@ def _analysis_index(table: pd.DataFrame) -> _Index:
     for a, b, c in zip(starts.tolist(), stops.tolist(), code_sorted[starts].tolist(),
                        strict=True):
         groups[(str(char_names[c // width]), str(proc_names[c % width]))] = (a, b)
-    index = _Index(table, rows[sort], groups)
+    index = _Index(table, sort if rows is None else rows[sort], groups, order[sort],
+                   source_row[sort])
     if len(_INDEX_CACHE) >= 8:
         _INDEX_CACHE.clear()
     _INDEX_CACHE[id(table)] = (table, index)
@@ -166,6 +178,19 @@ def _factorized(column: pd.Series) -> tuple[np.ndarray, list]:
             return enc.indices.to_numpy(zero_copy_only=False), enc.dictionary.to_pylist()
     codes, names = arr.factorize()
     return codes, names.tolist()
+
+
+def _text_objects(column: pd.Series) -> np.ndarray:
+    """A text column as an object array of str, ``column.to_numpy(dtype=object)``: for pandas'
+    pyarrow text storage without missing values, each distinct text made a str once (pyarrow's
+    dictionary encoding) and shared by its rows, rather than a str per row."""
+    arr = column.array
+    if isinstance(arr, pd.arrays.ArrowStringArray):
+        enc = arr.__arrow_array__().combine_chunks().dictionary_encode()
+        if enc.null_count == 0:
+            names = np.array(enc.dictionary.to_pylist(), dtype=object)
+            return names[enc.indices.to_numpy(zero_copy_only=False)]
+    return column.to_numpy(dtype=object)
 
 
 def stream_values(measurements: Measurements, characteristic: str) -> dict[str, object]:

@@ -32,6 +32,7 @@ from .range_constants import D2_TABLE
 from .resolution import step_from_units
 from .samples import RESOLUTION_DIGITS, group_codes, median
 from .stability import StabilityResult
+from .variance_components import sds_of
 
 MIN_ROWS = 2  # fewer samples of a length gain nothing from stacking
 #: The most values a batched rank test ranks: its tie term sum(t^3 - t), an int64 here and a
@@ -233,6 +234,9 @@ def _one_way_rows(rows: list[tuple[np.ndarray, np.ndarray]], codes: np.ndarray) 
     msb, msw = ss_between / df_b, ss_within / df_w
     f = msb / np.where(keep, msw, 1.0)
     p = special.fdtrc(df_b, df_w, f).tolist()
+    # the variance components' sds too where they are estimable (2 lots of 2 parts or more;
+    # else variance_components.sd_components raises its own error)
+    components = int(np.count_nonzero(sizes >= 2)) >= 2
     for r, ((x, own), good, grand_r, msb_r, msw_r, f_r, p_r) in enumerate(zip(
             rows, keep.tolist(), grand.tolist(), msb.tolist(), msw.tolist(), f.tolist(), p,
             strict=True)):
@@ -240,6 +244,8 @@ def _one_way_rows(rows: list[tuple[np.ndarray, np.ndarray]], codes: np.ndarray) 
             _memo.remember("one_way", x, (own, OneWay(
                 grand_r, means_c[r], df_b, df_w, msb_r, msw_r, n0, f_r,
                 min(1.0, max(0.0, p_r)))))
+            if components:
+                _memo.remember("sd_components", x, (own, sds_of(msb_r, msw_r, n0)))
 
 
 def _charts(rows, x, m, lo, hi, n) -> None:

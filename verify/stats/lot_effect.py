@@ -85,11 +85,16 @@ def lot_effect(values: Sequence[float] | np.ndarray, lots: Sequence[Hashable]) -
     if k < 2:
         raise NotApplicableError(f"a lot effect needs at least 2 lots, got {k}")
     sizes = group_sizes(codes, k)
-    if max(sizes.tolist()) < 2:
+    size_list = sizes.tolist()
+    if max(size_list) < 2:
         raise NotApplicableError("no lot has 2 or more values, so within-lot variation is unknown")
     ow = one_way(a, codes, sizes, refused="lot effect cannot be tested")
     msb, msw, n0 = ow.ms_between, ow.ms_within, ow.n0
     icc = max(0.0, (msb - msw) / (msb + (n0 - 1.0) * msw))
+    grand = ow.grand
+    # each lot mean as ow.grand + ow.means_centred computes it: one double addition per lot
+    # (numpy's elementwise sum of a float and a float64 array is that same IEEE addition)
+    means = tuple([grand + m for m in ow.means_centred.tolist()])
     return LotEffectResult(
         method="one-way ANOVA across lots",
         statistic=float(ow.statistic),
@@ -102,6 +107,6 @@ def lot_effect(values: Sequence[float] | np.ndarray, lots: Sequence[Hashable]) -
         var_within=float(msw),
         n0=float(n0),
         lot_labels=tuple(labels),
-        lot_means=tuple((ow.grand + ow.means_centred).tolist()),
-        lot_sizes=tuple(sizes.tolist()),
+        lot_means=means,
+        lot_sizes=tuple(size_list),
     )

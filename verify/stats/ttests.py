@@ -175,20 +175,25 @@ def _as_sd(v: object, what: str) -> float:
     return f
 
 
-def _finish(**fields: object) -> Effect:
-    """Build the Effect, refusing a non-finite or zero standard error or a bad df."""
-    se = float(fields["standard_error"])  # type: ignore[arg-type]
-    est = float(fields["estimate"])  # type: ignore[arg-type]
-    df = float(fields["df"])  # type: ignore[arg-type]
-    if not math.isfinite(est) or not math.isfinite(se) or not math.isfinite(df):
+def _finish(design: str, estimate: float, standard_error: float, df: float, n_new: int,
+            n_old: int | None, sd: float, mean_new: float | None = None,
+            sd_new: float | None = None, mean_old: float | None = None,
+            sd_old: float | None = None, target: float | None = None) -> Effect:
+    """Build the Effect, refusing a non-finite or zero standard error or a bad df (the fields
+    are stored as given; the method is the design's)."""
+    se = float(standard_error)
+    est = float(estimate)
+    dfl = float(df)
+    if not math.isfinite(est) or not math.isfinite(se) or not math.isfinite(dfl):
         raise DegenerateDataError(
             "the values are too large to compute a mean difference and standard error"
         )
     if se <= 0.0:
         raise DegenerateDataError("the standard error is zero: the values have no spread")
-    if df <= 0.0:
-        raise DegenerateDataError(f"degrees of freedom must be positive, got {df}")
-    return Effect(**fields)  # type: ignore[arg-type]
+    if dfl <= 0.0:
+        raise DegenerateDataError(f"degrees of freedom must be positive, got {dfl}")
+    return Effect(design, METHODS[design], estimate, standard_error, df, n_new, n_old, sd,
+                  mean_new, sd_new, mean_old, sd_old, target)
 
 
 def _welch_parts(n1: int, s1: float, n2: int, s2: float) -> tuple[float, float]:
@@ -225,20 +230,27 @@ def _two_sample(
         sd = se / math.sqrt(1.0 / n_new + 1.0 / n_old)
     else:
         sd, se, df = _pooled_parts(n_new, s_new, n_old, s_old)
-    return _finish(
-        design=design,
-        method=METHODS[design],
-        estimate=est,
-        standard_error=se,
-        df=df,
-        n_new=n_new,
-        n_old=n_old,
-        sd=sd,
-        mean_new=m_new,
-        sd_new=s_new,
-        mean_old=m_old,
-        sd_old=s_old,
-    )
+    return _finish(design, est, se, df, n_new, n_old, sd, m_new, s_new, m_old, s_old)
+
+
+def two_sample_effect(
+    design: str, n_new: int, m_new: float, s_new: float, n_old: int, m_old: float, s_old: float
+) -> Effect:
+    """The Welch or pooled :class:`Effect` of two samples from their sizes, means and sds as
+    :func:`~verify.stats.core.mean_sd` gives them, for a caller that has checked the samples
+    already (at least 2 finite values each, within +/-1e150, each with spread): the Effect
+    :func:`effect` returns for those samples, without checking them again.
+
+    Examples
+    --------
+    >>> e = two_sample_effect("pooled", 4, 10.25, 0.1290994, 4, 10.075, 0.0957427)
+    >>> round(e.estimate, 6), e.df
+    (0.175, 6.0)
+    """
+    check_design(design)
+    if design not in ("welch", "pooled"):
+        raise ValueError(f"two_sample_effect is for the welch or pooled design, not {design!r}")
+    return _two_sample(design, n_new, m_new, s_new, n_old, m_old, s_old)
 
 
 # --- effects --------------------------------------------------------------------------------
@@ -289,19 +301,8 @@ def effect(
         _require_n(x_new.size, "values")
         n, m, s = mean_sd(x_new)
         require_spread(n, s)
-        return _finish(
-            design=design,
-            method=METHODS[design],
-            estimate=m - tgt,
-            standard_error=s / math.sqrt(n),
-            df=float(n - 1),
-            n_new=n,
-            n_old=None,
-            sd=s,
-            mean_new=m,
-            sd_new=s,
-            target=tgt,
-        )
+        return _finish(design, m - tgt, s / math.sqrt(n), float(n - 1), n, None, s,
+                       mean_new=m, sd_new=s, target=tgt)
     if target is not None:
         raise ValueError(f"target applies only to the one-sample design, not {design!r}")
     x_old = _as_values(old, "old")
@@ -315,20 +316,8 @@ def effect(
         require_spread(n, s, "paired differences")
         _, m_new, s_new = mean_sd(x_new)
         _, m_old, s_old = mean_sd(x_old)
-        return _finish(
-            design=design,
-            method=METHODS[design],
-            estimate=m,
-            standard_error=s / math.sqrt(n),
-            df=float(n - 1),
-            n_new=n,
-            n_old=n,
-            sd=s,
-            mean_new=m_new,
-            sd_new=s_new,
-            mean_old=m_old,
-            sd_old=s_old,
-        )
+        return _finish(design, m, s / math.sqrt(n), float(n - 1), n, n, s,
+                       m_new, s_new, m_old, s_old)
     _require_n(x_new.size, "new values")
     _require_n(x_old.size, "old values")
     n_new, m_new, s_new = mean_sd(x_new)
@@ -395,19 +384,10 @@ def effect_from_stats(
             est = m1
         what = "paired differences" if design == "paired" else "values"
         require_spread(n1, s1, what)
-        return _finish(
-            design=design,
-            method=METHODS[design],
-            estimate=est,
-            standard_error=s1 / math.sqrt(n1),
-            df=float(n1 - 1),
-            n_new=n1,
-            n_old=n1 if design == "paired" else None,
-            sd=s1,
-            mean_new=m1 if design == "one-sample" else None,
-            sd_new=s1 if design == "one-sample" else None,
-            target=tgt,
-        )
+        return _finish(design, est, s1 / math.sqrt(n1), float(n1 - 1), n1,
+                       n1 if design == "paired" else None, s1,
+                       mean_new=m1 if design == "one-sample" else None,
+                       sd_new=s1 if design == "one-sample" else None, target=tgt)
     if target is not None:
         raise ValueError(f"target applies only to the one-sample design, not {design!r}")
     if n_old is None or mean_old is None or sd_old is None:

@@ -28,6 +28,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from . import _memo
 from ._frozen import fast_init
 from .core import Interval, check_alternative
 from .errors import DegenerateDataError, NotApplicableError
@@ -150,9 +151,17 @@ def sd_components(values: ArrayLike, lots: Sequence[Hashable]) -> tuple[float, f
     >>> round(w ** 2, 4), round(b ** 2, 4), t
     (0.02, 0.99, False)
     """
+    if type(lots) is tuple:  # a read-only sample's, computed with its lots' one-way analysis
+        hit = _memo.recall("sd_components", values)  # (stats.batch) for these very codes
+        if hit is not None and group_codes(lots, len(lots))[1] is hit[0]:
+            return hit[1]
     _, _, _, ow = _lots_one_way(values, lots)
-    msb, msw = ow.ms_between, ow.ms_within
-    raw = (msb - msw) / ow.n0
+    return sds_of(ow.ms_between, ow.ms_within, ow.n0)
+
+
+def sds_of(msb: float, msw: float, n0: float) -> tuple[float, float, bool]:
+    """:func:`sd_components` from the one-way analysis's mean squares and n0."""
+    raw = (msb - msw) / n0
     return math.sqrt(float(msw)), math.sqrt(float(max(0.0, raw))), bool(raw < 0.0)
 
 

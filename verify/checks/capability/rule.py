@@ -3,7 +3,7 @@
 
 from __future__ import annotations
 
-from ...decide import Verdict, fmt
+from ...decide import Verdict, fmt, fmt_percent
 
 
 class CapabilityRule:
@@ -21,7 +21,7 @@ class CapabilityRule:
     def decide(self, *, cpk: float, lower_bound: float | None, min_cpk: float,
                index: str = "Cpk", judge: str = "estimate",
                confidence: float = 0.95) -> Verdict:
-        level = f"{fmt(100 * confidence)}%"
+        level = f"{fmt_percent(confidence)}%"
         lb = (f", lower {level} bound {fmt(lower_bound, 3)}" if lower_bound is not None
               else "")
         if judge == "lower_bound":

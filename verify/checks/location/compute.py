@@ -56,11 +56,13 @@ def _effect(design: str, ch, data: Comparison):
         raise DegenerateDataError("no old-process values")
     # a comparison needs the spread of each process: one process with zero spread (or a single
     # value) would let the other alone set the standard error
-    n_old, _, sd_old = mean_sd(ref.values) if ref.values.size else (0, 0.0, math.nan)
+    n_old, m_old, sd_old = mean_sd(ref.values) if ref.values.size else (0, 0.0, math.nan)
     require_spread(n_old, sd_old, "old values")
-    n_new, _, sd_new = mean_sd(cand.values) if cand.values.size else (0, 0.0, math.nan)
+    n_new, m_new, sd_new = mean_sd(cand.values) if cand.values.size else (0, 0.0, math.nan)
     require_spread(n_new, sd_new, "new values")
-    return ttests.effect(design, cand.values, ref.values)
+    # both samples checked (finite, within range, 2 or more values with spread): the effect
+    # ttests.effect(design, cand.values, ref.values) returns, from the summaries just read
+    return ttests.two_sample_effect(design, n_new, m_new, sd_new, n_old, m_old, sd_old)
 
 
 def _power_sds(e) -> dict:

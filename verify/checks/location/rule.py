@@ -4,7 +4,7 @@ margin, a difference test in the harmful direction without one.
 
 from __future__ import annotations
 
-from ...decide import Verdict, fmt, fmt_like, margin_words, p_eq
+from ...decide import Verdict, fmt, fmt_like, fmt_percent, margin_words, p_eq
 
 
 class MarginRule:
@@ -32,7 +32,7 @@ class MarginRule:
                ci: tuple[float, float], unit: str, side: str,
                margin_text: str | None = None) -> Verdict:
         """``margin_text``: ``margin_words(low, high, unit)`` where the caller has it already."""
-        level = fmt(100 * (1 - 2 * alpha))
+        level = fmt_percent(1 - 2 * alpha)  # fmt(100 * (1 - 2 * alpha))
         ref = "target" if self.check == "target" else "the old process"
         lo, hi = fmt_like(ci[0], ci[1])
         detail = f"({level}% interval {lo}..{hi}, {p_eq(pvalue)})"

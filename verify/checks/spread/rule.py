@@ -3,7 +3,7 @@
 
 from __future__ import annotations
 
-from ...decide import Verdict, fmt, fmt_like, p_eq
+from ...decide import Verdict, fmt, fmt_like, fmt_percent, p_eq
 
 
 class SpreadRule:
@@ -29,7 +29,7 @@ class SpreadRule:
         which = "adjusted p" if adjusted else "p"
         lo, hi = (fmt(ci[0]), fmt(ci[1])) if what == "sd ratio new/old" else fmt_like(*ci)
         est = fmt(ratio) if what == "sd ratio new/old" else fmt_like(ratio)[0]
-        detail = (f"{what} {est}, {fmt(100 * level)}% interval "
+        detail = (f"{what} {est}, {fmt_percent(level)}% interval "
                   f"{lo}..{hi}, {method} {p_eq(pvalue, which)}{note}")
         if pvalue < alpha:
             return Verdict("HOLD", f"new spread larger than old ({detail})")

@@ -1,0 +1,154 @@
+"""The drafts' and diagnostics' shortcuts give exactly what the routes they replaced give.
+
+Each shortcut here skips work whose answer the caller already holds (a check made a line
+earlier, a summary already read); the reference is the plain public route of
+``verify.stats`` (itself checked against published values in tests/test_stats_*.py), and the
+comparison is bit for bit: every field's type and, for floats, its exact binary value.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+import re
+
+import numpy as np
+import pytest
+
+from verify.checks.drafting import Comparison, Stream
+from verify.checks.location import compute as location
+from verify.stats import _memo, equivalence, ttests
+from verify.stats.core import mean_sd, require_spread
+from verify.stats.errors import DegenerateDataError
+
+
+def _bits(obj):
+    """Every field of a frozen result as (name, type, value), floats by their exact bits."""
+    out = []
+    for f in dataclasses.fields(obj):
+        v = getattr(obj, f.name)
+        out.append((f.name, type(v), v.hex() if isinstance(v, float) else v))
+    return out
+
+
+def _pairs():
+    rng = np.random.default_rng(24)
+    yield rng.normal(10.0, 0.01, 30), rng.normal(10.002, 0.01, 30)
+    yield rng.normal(10.0, 0.01, 30), rng.normal(10.0, 0.03, 12)
+    yield np.round(rng.normal(5.0, 0.1, 9), 2), np.round(rng.normal(5.1, 0.1, 40), 2)
+    yield np.array([1.0, 2.0]), np.array([3.0, 5.0])
+    yield rng.normal(0.0, 1e6, 101), rng.normal(1e5, 3e6, 7)
+    yield np.array([1e-300, 2e-300, 3e-300]), np.array([1e-300, 4e-300])  # refused
+    yield np.array([1.0, np.nan, 2.0]), np.array([1.0, 2.0, 4.0])  # refused
+    yield np.array([1.0, 2.0, 4.0]), np.array([1.0, 2.0, 1e200])  # refused
+
+
+def _plain_two_sample_effect(design, old, new):
+    """The draft's earlier route: each sample's spread checked, then ttests.effect."""
+    n_old, _, sd_old = mean_sd(old) if old.size else (0, 0.0, math.nan)
+    require_spread(n_old, sd_old, "old values")
+    n_new, _, sd_new = mean_sd(new) if new.size else (0, 0.0, math.nan)
+    require_spread(n_new, sd_new, "new values")
+    return ttests.effect(design, new, old)
+
+
+@pytest.mark.parametrize("design", ["welch", "pooled"])
+@pytest.mark.parametrize("frozen", [False, True])
+@pytest.mark.parametrize("old, new", list(_pairs()))
+def test_two_sample_draft_effect_equals_the_plain_route(design, frozen, old, new):
+    """The location draft checks each sample's spread itself and then builds the effect from
+    the summaries it read (ttests.two_sample_effect): the Effect, or the error, of its earlier
+    route through ttests.effect."""
+    if frozen:
+        old, new = _memo.freeze(old.copy()), _memo.freeze(new.copy())
+    data = Comparison(reference=Stream("old", old, old), candidate=Stream("new", new, new))
+    try:
+        want = _plain_two_sample_effect(design, old, new)
+    except DegenerateDataError as err:
+        with pytest.raises(DegenerateDataError, match=re.escape(str(err))):
+            location._effect(design, None, data)
+        return
+    assert _bits(location._effect(design, None, data)) == _bits(want)
+    _memo.forget()
+
+
+@pytest.mark.parametrize("bad", [np.array([2.0, 2.0, 2.0]), np.array([1.0]), np.array([])])
+def test_two_sample_draft_effect_refuses_a_sample_without_spread(bad):
+    """The draft's own checks come first, naming the process (unchanged by the shortcut)."""
+    good = np.array([1.0, 2.0, 4.0])
+    for old, new, which in ((bad, good, "old values"), (good, bad, "new values")):
+        data = Comparison(reference=Stream("old", old, old), candidate=Stream("new", new, new))
+        with pytest.raises(DegenerateDataError, match=which):
+            location._effect("welch", None, data)
+
+
+def test_two_sample_effect_is_for_two_samples_only():
+    with pytest.raises(ValueError, match="welch or pooled"):
+        ttests.two_sample_effect("paired", 3, 1.0, 1.0, 3, 1.0, 1.0)
+
+
+def _plain_tost(estimate, se, df, *, low, high, method="TOST"):
+    """tost_from_estimate's earlier route: the margins through check_margins, the result
+    built by keyword."""
+    from verify.stats._checks import check_margins
+    from verify.stats.core import check_se_df, t_cdf, t_sf
+
+    est = equivalence._estimate(estimate)
+    check_se_df(se, df)
+    lo, hi = check_margins(low, high)
+    t_lo = (est - lo) / se
+    t_hi = (est - hi) / se
+    p_lo = t_sf(t_lo, df)
+    p_hi = t_cdf(t_hi, df)
+    return equivalence.EquivalenceResult(
+        method=method, estimate=est, standard_error=float(se), df=float(df), low=lo, high=hi,
+        statistic_lower=float(t_lo), statistic_upper=float(t_hi), p_lower=p_lo, p_upper=p_hi,
+        pvalue=max(p_lo, p_hi))
+
+
+@pytest.mark.parametrize("low, high", [
+    (-0.02, 0.02), (-0.5, 1.5), (0.1, 0.3), (-1, 1), (np.float64(-0.02), np.float64(0.02)),
+    (-0.0, 0.02), (0.02, -0.02), (0.02, 0.02), (float("nan"), 0.02), (-0.02, float("inf")),
+    (-float("inf"), 0.02), ("-0.02", "0.02")])
+@pytest.mark.parametrize("estimate, se, df", [
+    (0.001, 0.002, 57.3), (-0.3, 0.2, 20.0), (0.0, 1e-9, 29.0), (5.0, 0.5, float("inf")),
+    (np.float64(0.004), np.float64(0.0021), np.float64(44.9))])
+def test_tost_from_estimate_equals_its_plain_route(estimate, se, df, low, high):
+    """The finite float margins skip check_margins' calls (they would return them as they
+    are); any other margins still go through it: the result, or the error, is the plain
+    route's."""
+    try:
+        want = _plain_tost(estimate, se, df, low=low, high=high, method="TOST (x)")
+    except (ValueError, DegenerateDataError) as err:
+        with pytest.raises(type(err), match=re.escape(str(err))):
+            equivalence.tost_from_estimate(estimate, se, df, low=low, high=high,
+                                           method="TOST (x)")
+        return
+    got = equivalence.tost_from_estimate(estimate, se, df, low=low, high=high, method="TOST (x)")
+    assert _bits(got) == _bits(want)
+
+
+def _lot_samples():
+    rng = np.random.default_rng(31)
+    yield rng.normal(10.0, 0.01, 30), tuple(f"L{i // 10}" for i in range(30))
+    yield rng.normal(-3.0, 2.0, 17), tuple("abcab"[i % 5] for i in range(17))
+    yield np.round(rng.normal(1e6, 3.0, 40), 1), tuple(str(i % 7) for i in range(40))
+    yield rng.normal(0.0, 1e-100, 12), tuple("xy"[i % 2] for i in range(12))
+
+
+@pytest.mark.parametrize("frozen", [False, True])
+@pytest.mark.parametrize("values, lots", list(_lot_samples()))
+def test_lot_means_are_the_numpy_sums_of_grand_and_centred_means(frozen, values, lots):
+    """lot_effect adds the grand mean to each centred lot mean in Python floats: the same
+    IEEE double additions as numpy's ``ow.grand + ow.means_centred``, bit for bit."""
+    from verify.stats.lot_effect import lot_effect
+    from verify.stats.one_way import one_way
+    from verify.stats.samples import group_codes, group_sizes
+
+    x = _memo.freeze(values.copy()) if frozen else values
+    labels, codes = group_codes(lots, x.size)
+    ow = one_way(x, codes, group_sizes(codes, len(labels)), refused="-")
+    want = tuple((ow.grand + ow.means_centred).tolist())
+    got = lot_effect(x, lots).lot_means
+    assert [v.hex() for v in got] == [v.hex() for v in want]
+    _memo.forget()
