@@ -263,3 +263,16 @@ def test_margin_words_remembered_equal_the_words_made_anew():
             assert decide.margin_words(low, high, unit) == decide._margin_words(low, high, unit)
     assert decide.margin_words(-0.02, 0.02, "mm") == "±0.02 mm"
     assert decide.margin_words(-0.01, 0.03) == "-0.01..+0.03"
+
+
+def test_fmt_often_writes_fmt_of_the_number():
+    """fmt_often remembers a float's text: the first and any later call give fmt(x), whatever
+    the number's type (-0.0 and 0.0, equal as keys, both write "0")."""
+    import numpy as np
+
+    numbers = [10.0, 0.02, -0.0, 0.0, 1.33, 0.0001, 1e-05, 123456.789, float("inf"),
+               float("-inf"), float("nan"), None, 1, np.float64(0.0001), np.float32(1.33),
+               np.int64(7), 2.5e300]
+    for _ in range(2):
+        for x in numbers:
+            assert decide.fmt_often(x) == decide.fmt(x), x

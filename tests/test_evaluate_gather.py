@@ -159,3 +159,25 @@ def test_lot_labels_that_are_not_text_are_each_made_text_as_before():
     assert got.lots == ("1", "1.0", "True", "A")
     text = ("L2", "L1", "L2", "L1")
     assert eg._summary("new", values, text, 4).lots == ("L2", "L1")
+
+
+def test_hook_functions_looked_up_once_are_the_hooks_own():
+    # compute_hook_fn and evaluate_finish._review_of remember what the plain lookups
+    # (getattr of the kind's hook module, verify.checks.find) give; a kind object of the same
+    # name that is another object (a test's stand-in) is looked up for itself
+    from dataclasses import replace
+
+    from verify import evaluate_finish as ef
+    from verify.checks import kinds
+
+    names = ("pairs_role", "rank_requests", "shows_empty_reference", "companions", "no_such")
+    for _ in range(2):  # the second time from what was remembered
+        for k in kinds():
+            for name in names:
+                assert eg.compute_hook_fn(k, name) is getattr(k.hook("compute"), name, None)
+            assert ef._review_of(k.name) == (k, getattr(k.hook("rule"), "review", None))
+        assert ef._review_of("sufficiency") == (None, None)  # a check of no kind
+    k = kinds()[0]
+    other = replace(k, package="capability")  # same name, another object and compute hook
+    assert eg.compute_hook_fn(other, "draft") is other.hook("compute").draft
+    assert eg.compute_hook_fn(k, "draft") is k.hook("compute").draft

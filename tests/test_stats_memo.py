@@ -447,3 +447,28 @@ def test_topics_of_one_array_are_kept_apart_and_forgotten_together(monkeypatch):
     finally:
         _memo.forget()
     assert _memo._CACHE == {}
+
+
+def test_topics_is_the_memo_of_one_array_as_remember_and_recall_see_it(monkeypatch):
+    # stats.batch adds what it computes of a sample to _memo.topics(sample); each entry must
+    # be what remember() would have remembered and recall() must find it (the plain route)
+    a, b = _memo.freeze(np.arange(3.0)), _memo.freeze(np.arange(4.0))
+    try:
+        _memo.remember("finite", a, True)
+        t = _memo.topics(a)
+        assert t == {"finite": True} and _memo.topics(a) is t  # the same entry each time
+        t["mean_sd"] = "A1"
+        assert _memo.recall("mean_sd", a) == "A1" and _memo.recall("finite", a) is True
+        u = _memo.topics(b)  # an array not met yet: an empty entry of its own
+        assert u == {} and _memo.recall("mean_sd", b) is None
+        u["one_way"] = "B1"
+        _memo.remember("mean_sd", b, "B2")
+        assert u == {"one_way": "B1", "mean_sd": "B2"}
+        with pytest.raises(ValueError, match="frozen"):
+            _memo.topics(np.arange(3.0))  # writeable: never remembered
+        monkeypatch.setattr(_memo, "MAX_ENTRIES", 2)
+        _memo.topics(_memo.freeze(np.ones(2)))["x"] = 1  # a third array: the cap empties it
+        assert _memo.recall("mean_sd", a) is None and len(_memo._CACHE) == 1
+    finally:
+        _memo.forget()
+    assert _memo._CACHE == {}

@@ -57,6 +57,22 @@ def fmt(x: float | None, digits: int = 4) -> str:
     return format(x, spec if spec is not None else f".{digits}g")
 
 
+_OFTEN: dict[float, str] = {}  # fmt_often's texts by number
+
+
+def fmt_often(x: float | None) -> str:
+    """``fmt(x)`` for a number that recurs from one characteristic to the next (a spec's
+    target, min or true shift, a recording step): a float's text is remembered."""
+    if type(x) is not float:
+        return fmt(x)
+    text = _OFTEN.get(x)
+    if text is None:
+        if len(_OFTEN) >= 256:
+            _OFTEN.clear()
+        text = _OFTEN[x] = fmt(x)
+    return text
+
+
 _PERCENTS: dict[float, str] = {}  # fmt_percent's texts by level
 
 

@@ -15,7 +15,14 @@ from . import collector, decide
 from .checks.drafting import replaced
 from .evaluate_diagnostics import diagnostics, joined_parts
 from .evaluate_finish import adjust, complete_batches, finish
-from .evaluate_gather import CharDraft, gather, samples_in_lots, sub_streams, summarize
+from .evaluate_gather import (
+    CharDraft,
+    compute_hook_fn,
+    gather,
+    samples_in_lots,
+    sub_streams,
+    summarize,
+)
 from .model import Evaluation, Measurements, RunInfo
 from .spec_model import Characteristic, Spec
 from .stats import _memo, batch, samples
@@ -102,7 +109,7 @@ def _evaluate(spec: Spec, measurements: Measurements, final: bool, run: RunInfo)
 
 
 def _rank_requests(kind, inp) -> list:
-    fn = getattr(kind.hook("compute"), "rank_requests", None)
+    fn = compute_hook_fn(kind, "rank_requests")
     return [] if fn is None else fn(kind, inp)
 
 
@@ -128,7 +135,7 @@ def draft_characteristic(spec: Spec, meas: Measurements, d: CharDraft) -> CharDr
         d.diagnostics = evaluate_pass_fail.diagnostics(spec, ch, d)
         return d
     kinds = d.applicable()
-    d.checks = [k.hook("compute").draft(k, d.inp) for k in kinds]
+    d.checks = [compute_hook_fn(k, "draft")(k, d.inp) for k in kinds]
     if spec.data.stream is not None:
         per_stream = [k for k in kinds if getattr(k.hook("compute"), "PER_STREAM", False)]
         for st, inp in sub_streams(meas, d):

@@ -122,8 +122,9 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
         coarse = rs.step_over_tenth_tolerance is not None and rs.step_over_tenth_tolerance > 1.0
         out.append(diagnostic(
             "resolution", "measurement resolution", "all", coarse,
-            (f"coarse: the smallest step {decide.fmt(rs.step)} exceeds a tenth of the tolerance"
-             if coarse else f"{rs.distinct} distinct values, smallest step {decide.fmt(rs.step)}"),
+            (f"coarse: the smallest step {decide.fmt_often(rs.step)} exceeds a tenth of the "
+             "tolerance" if coarse else
+             f"{rs.distinct} distinct values, smallest step {decide.fmt_often(rs.step)}"),
             statistic=finite(rs.step),
             extra={"distinct": rs.distinct, "step_over_tenth_tolerance":
                    finite(rs.step_over_tenth_tolerance)}))

@@ -129,10 +129,7 @@ def finish(spec: Spec, d: CharDraft) -> CharacteristicResult:
         if beyond is not None and beyond.total:
             review.append(f"review: {name} ({process}): {_beyond_words(d.ch, beyond)}")
     for res in checks:
-        k = find_kind(res.check)
-        if k is None:
-            continue  # not a kind's check (sufficiency)
-        review_of = getattr(k.hook("rule"), "review", None)  # optional: notes after deciding
+        k, review_of = _review_of(res.check)  # optional: notes after deciding
         if review_of is not None:
             review.extend([f"review: {name}: {note}" for note in review_of(k, res, spec)])
     if d.final_shortfall is not None:
@@ -163,6 +160,21 @@ def finish(spec: Spec, d: CharDraft) -> CharacteristicResult:
         diagnostics=tuple(d.diagnostics), spec=d.ch, pairs=d.pairs, unmatched_pairs=d.unmatched,
         distribution=_distribution_record(d), streams=streams,
     )
+
+
+_REVIEWS: dict[str, tuple] = {}  # check name -> (its kind, its rule hook's review or None)
+
+
+def _review_of(check: str) -> tuple:
+    """The kind of ``check`` and its rule hook's optional ``review`` (None for a check of no
+    kind: sufficiency), looked up once per check name (the registry and its loaded hooks do
+    not change while verify runs, as evaluate_diagnostics.companions has it)."""
+    hit = _REVIEWS.get(check)
+    if hit is None:
+        k = find_kind(check)
+        hit = _REVIEWS[check] = (k, None if k is None else getattr(k.hook("rule"), "review",
+                                                                      None))
+    return hit
 
 
 def _finish_stream(d: CharDraft, st: StreamDraft) -> StreamResult:

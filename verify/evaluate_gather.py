@@ -81,9 +81,22 @@ def applicable(ch: Characteristic) -> list[CheckKind]:
 
 def _hook_says(kind: CheckKind, name: str, *args, default=None):
     """Ask the kind's compute hook an optional question (``default`` when it has no answer)."""
-    mod = kind.hook("compute")
-    fn = getattr(mod, name, None)
+    fn = compute_hook_fn(kind, name)
     return default if fn is None else fn(kind, *args)
+
+
+_HOOK_FNS: dict[tuple[str, str], tuple[CheckKind, object]] = {}
+
+
+def compute_hook_fn(kind: CheckKind, name: str):
+    """``getattr(kind.hook("compute"), name, None)``: an optional function of the kind's compute
+    hook (``pairs_role``, ``rank_requests``, ...), looked up once per kind and name (the
+    registry and its loaded hooks do not change while verify runs; a kind met first by its
+    name, as evaluate_diagnostics.companions finds its hooks)."""
+    hit = _HOOK_FNS.get((kind.name, name))
+    if hit is None or hit[0] is not kind:
+        hit = _HOOK_FNS[(kind.name, name)] = (kind, getattr(kind.hook("compute"), name, None))
+    return hit[1]
 
 
 def shows_reference(ch: Characteristic, kinds: list[CheckKind] | None = None) -> bool:
@@ -214,7 +227,7 @@ def gather(spec: Spec, meas: Measurements, ch: Characteristic, final: bool) -> C
     # the matched pairs, for the kinds whose settings run them on pairs (data.pair declared)
     roles = set()
     for k in kinds:
-        role_of = getattr(k.hook("compute"), "pairs_role", None)
+        role_of = compute_hook_fn(k, "pairs_role")
         if role_of is not None and (r := role_of(k, getattr(ch.checks, k.name))) is not None:
             roles.add(r)
     pairs = paired_values(meas, spec, ch.name) if roles else None

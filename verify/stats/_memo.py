@@ -60,6 +60,23 @@ def remember(topic: str, x: object, value: object) -> None:
     _CACHE[id(x)] = (x, {topic: value})
 
 
+def topics(x: np.ndarray) -> dict[str, object]:
+    """What is remembered of the frozen array ``x``, by topic, as the memo's own dict (empty
+    when nothing is yet): setting ``topics(x)[topic] = value`` is ``remember(topic, x, value)``,
+    for a batch that remembers several things of each of its samples. ``x`` must be frozen
+    (:func:`frozen`; ValueError otherwise)."""
+    hit = _CACHE.get(id(x))
+    if hit is not None and hit[0] is x:
+        return hit[1]
+    if not frozen(x):
+        raise ValueError("only a frozen array (read-only, owning its data) is remembered")
+    if len(_CACHE) >= MAX_ENTRIES:
+        _CACHE.clear()
+    found: dict[str, object] = {}
+    _CACHE[id(x)] = (x, found)
+    return found
+
+
 def forget() -> None:
     """Empty the memo (an evaluation does when it is finished with its samples)."""
     _CACHE.clear()

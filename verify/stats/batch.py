@@ -86,32 +86,37 @@ def _stacked(rows: list[np.ndarray], n: int) -> None:
         x, lo, hi = x[ok], lo[ok], hi[ok]
     if not rows:
         return
-    for r in rows:  # every value finite (a NaN or an infinity fails the bounds):
-        _memo.remember("finite", r, True)  # what samples.finite_values checks
-    means, sds = _mean_sds(rows, x, n)
+    # what is remembered of each row, added to in place (the rows are frozen: prefetch's)
+    memo = [_memo.topics(r) for r in rows]
+    for t in memo:  # every value finite (a NaN or an infinity fails the bounds):
+        t["finite"] = True  # what samples.finite_values checks
+    means, sds = _mean_sds(memo, x, n)
     m, s = np.array(means), np.array(sds)
     keep = np.isfinite(s) & (s > 0.0)
     if not keep.all():
         if np.count_nonzero(keep) < MIN_ROWS:
             return
-        rows = [r for r, good in zip(rows, keep.tolist(), strict=True) if good]
+        flags = keep.tolist()
+        rows = [r for r, good in zip(rows, flags, strict=True) if good]
+        memo = [t for t, good in zip(memo, flags, strict=True) if good]
         x, lo, hi, m, s = x[keep], lo[keep], hi[keep], m[keep], s[keep]
     elif len(rows) < MIN_ROWS:
         return
-    _charts(rows, x, m, lo, hi, n)
+    _charts(rows, memo, x, m, lo, hi, n)
     if n <= 5000:
-        _shapiro_wilk(rows, x, n)
+        _shapiro_wilk(memo, x, n)
     if n >= 8:
-        _anderson_darling(rows, x, m, s, n)
+        _anderson_darling(memo, x, m, s, n)
     if n >= GRUBBS_MIN_N:
-        _grubbs(rows, x, m, s, n)
+        _grubbs(memo, x, m, s, n)
 
 
-def _mean_sds(rows: list[np.ndarray], x: np.ndarray, n: int) -> tuple[list, list]:
+def _mean_sds(memo: list[dict], x: np.ndarray, n: int) -> tuple[list, list]:
     """core.mean_sd of each row of ``x`` (finite, within core.MAX_MAGNITUDE, n >= 2), remembered
-    for its sample, and the means and sds: the corrected two-pass sums along C-contiguous rows
-    (as the 1-D sums add), the scalar steps in the same Python arithmetic. (A sample whose
-    summary was remembered before gets the same floats again.)"""
+    for its sample (in ``memo``: what is remembered of each row), and the means and sds: the
+    corrected two-pass sums along C-contiguous rows (as the 1-D sums add), the scalar steps in
+    the same Python arithmetic. (A sample whose summary was remembered before gets the same
+    floats again.)"""
     total = np.add.reduce(x, axis=1)
     m = total / n
     d = np.ascontiguousarray(x - m[:, None])
@@ -123,8 +128,8 @@ def _mean_sds(rows: list[np.ndarray], x: np.ndarray, n: int) -> tuple[list, list
     # sm ** 2 in Python floats, as mean_sd squares it (a power, not a product)
     sds = [math.sqrt(max(sq - sm ** 2 / n, 0.0) / (n - 1))
            for sq, sm in zip(squares, sums, strict=True)]
-    for a, mean, sd in zip(rows, means, sds, strict=True):
-        _memo.remember("mean_sd", a, (n, mean, sd))
+    for t, mean, sd in zip(memo, means, sds, strict=True):
+        t["mean_sd"] = (n, mean, sd)
     return means, sds
 
 
@@ -241,14 +246,14 @@ def _one_way_rows(rows: list[tuple[np.ndarray, np.ndarray]], codes: np.ndarray) 
             rows, keep.tolist(), grand.tolist(), msb.tolist(), msw.tolist(), f.tolist(), p,
             strict=True)):
         if good:
-            _memo.remember("one_way", x, (own, OneWay(
-                grand_r, means_c[r], df_b, df_w, msb_r, msw_r, n0, f_r,
-                min(1.0, max(0.0, p_r)))))
+            t = _memo.topics(x)  # (frozen: _one_ways')
+            t["one_way"] = (own, OneWay(grand_r, means_c[r], df_b, df_w, msb_r, msw_r, n0, f_r,
+                                        min(1.0, max(0.0, p_r))))
             if components:
-                _memo.remember("sd_components", x, (own, sds_of(msb_r, msw_r, n0)))
+                t["sd_components"] = (own, sds_of(msb_r, msw_r, n0))
 
 
-def _charts(rows, x, m, lo, hi, n) -> None:
+def _charts(rows, memo, x, m, lo, hi, n) -> None:
     """individuals_chart of each row (see stability.individuals_chart): the limits in the same
     float arithmetic element by element, the runs of all rows numbered together."""
     mr = np.add.reduce(np.ascontiguousarray(np.abs(x[:, 1:] - x[:, :-1])), axis=1)
@@ -267,19 +272,19 @@ def _charts(rows, x, m, lo, hi, n) -> None:
     above = (sign[np.arange(sign.shape[0]), start] > 0).tolist()
     # the points beyond the limits, looked for in the rows that reach beyond them
     outside = ((lo < lcl) | (hi > ucl)).tolist()
-    for a, centre, mrb, sg, u, low, out, length, first, up in zip(
-            rows, m.tolist(), mr_bar.tolist(), sigma.tolist(), ucl.tolist(), lcl.tolist(),
+    for a, t, centre, mrb, sg, u, low, out, length, first, up in zip(
+            rows, memo, m.tolist(), mr_bar.tolist(), sigma.tolist(), ucl.tolist(), lcl.tolist(),
             outside, longest, start.tolist(), above, strict=True):
         if not mrb > 0.0:
             continue  # the one-sample route raises its own error
-        _memo.remember("mr_bar", a, mrb)
+        t["mr_bar"] = mrb
         beyond = tuple(np.flatnonzero((a > u) | (a < low)).tolist()) if out else ()
-        _memo.remember("individuals_chart", a, StabilityResult(
+        t["individuals_chart"] = StabilityResult(
             n, centre, mrb, sg, u, low, beyond, length, ("above" if up else "below")
-            if length else None, first if length else None))
+            if length else None, first if length else None)
 
 
-def _shapiro_wilk(rows, x, n) -> None:
+def _shapiro_wilk(memo, x, n) -> None:
     """shapiro_wilk of each row (see normality._swilk): the rows sorted together, less each
     sample's own middle value, then scipy's routine row by row. The routine's coefficients
     depend on n alone: computed by the first row's call (``init`` 0, as the one-sample route
@@ -294,16 +299,16 @@ def _shapiro_wilk(rows, x, n) -> None:
     y -= x[:, n // 2][:, None]
     coefficients = np.zeros(n // 2, dtype=np.float64)
     init = 0
-    for r, a in enumerate(rows):
+    for r, t in enumerate(memo):
         w, pw, _ = swilk(y[r], coefficients, init)
         # the routine fills the coefficients in place (the first is about 0.4 and above): a
         # routine that did not would leave zeros, and every row then computes its own
         init = 1 if coefficients[0] > 0.0 else 0
-        _memo.remember("shapiro_wilk", a, NormalityResult(
-            "Shapiro-Wilk normality test", float(w), float(min(1.0, max(0.0, float(pw)))), n))
+        t["shapiro_wilk"] = NormalityResult(
+            "Shapiro-Wilk normality test", float(w), float(min(1.0, max(0.0, float(pw)))), n)
 
 
-def _anderson_darling(rows, x, m, s, n) -> None:
+def _anderson_darling(memo, x, m, s, n) -> None:
     """anderson_darling of each row (see normality.anderson_darling)."""
     w = np.sort((x - m[:, None]) / s[:, None], axis=1)
     i = np.arange(1, n + 1)
@@ -312,12 +317,11 @@ def _anderson_darling(rows, x, m, s, n) -> None:
     a2 = -n - np.add.reduce(terms, axis=1) / n  # element by element the one-sample floats
     a_star = a2 * (1.0 + 0.75 / n + 2.25 / n**2)
     method = "Anderson-Darling normality test (mean and sd estimated)"
-    for a, stat, adj in zip(rows, a2.tolist(), a_star.tolist(), strict=True):
-        _memo.remember("anderson_darling", a, NormalityResult(
-            method, stat, _ad_pvalue(adj), n, adj))
+    for t, stat, adj in zip(memo, a2.tolist(), a_star.tolist(), strict=True):
+        t["anderson_darling"] = NormalityResult(method, stat, _ad_pvalue(adj), n, adj)
 
 
-def _grubbs(rows, x, m, s, n) -> None:
+def _grubbs(memo, x, m, s, n) -> None:
     """The two-sided grubbs of each row (see outliers.grubbs): G and its p-value element by
     element in the same float arithmetic (:func:`~verify.stats.outliers.grubbs_pvalues`)."""
     idx = np.argmax(np.abs(x - m[:, None]), axis=1)
@@ -325,9 +329,8 @@ def _grubbs(rows, x, m, s, n) -> None:
     g = np.abs(value - m) / s
     p = grubbs_pvalues(g, n, alternative="two-sided").tolist()
     method = f"Grubbs outlier test ({_GRUBBS_SIDE['two-sided']})"
-    for a, gr, j, v, pr in zip(rows, g.tolist(), idx.tolist(), value.tolist(), p, strict=True):
-        _memo.remember("grubbs two-sided", a, GrubbsResult(
-            method, gr, j, v, n, "two-sided", pr))
+    for t, gr, j, v, pr in zip(memo, g.tolist(), idx.tolist(), value.tolist(), p, strict=True):
+        t["grubbs two-sided"] = GrubbsResult(method, gr, j, v, n, "two-sided", pr)
 
 
 # --- rank tests ------------------------------------------------------------------------------

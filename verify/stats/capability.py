@@ -357,7 +357,9 @@ def capability(
         lo = None if lsl is None else (m - lsl) / (3.0 * sigma)
         hi = None if usl is None else (usl - m) / (3.0 * sigma)
         both = None if lsl is None or usl is None else (usl - lsl) / (6.0 * sigma)
-        k = min(v for v in (lo, hi) if v is not None)
+        # the smaller of the sides given (min(lo, hi) keeps lo on a tie, as min of the two
+        # in that order does)
+        k = hi if lo is None else lo if hi is None else min(lo, hi)
         return both, k, lo, hi
 
     cp, cpk, cpl, cpu = indices(s_within)
@@ -366,25 +368,9 @@ def capability(
     if tgt is not None and lsl is not None and usl is not None:
         tau = math.hypot(s_within, m - tgt)
         cpm = (usl - lsl) / (6.0 * tau)
-    return CapabilityResult(
-        n=int(n),
-        mean=float(m),
-        sigma_within=float(s_within),
-        sigma_overall=float(s_overall),
-        sigma_method=how,
-        n_subgroups=n_sub,
-        lower=lsl,
-        upper=usl,
-        target=tgt,
-        level=float(level),
-        cp=cp,
-        cpk=cpk,
-        cpl=cpl,
-        cpu=cpu,
-        pp=pp,
-        ppk=ppk,
-        ppl=ppl,
-        ppu=ppu,
-        cpm=cpm,
-        sigma_within_df=float(nu_within),
-    )
+    # (the fields by position: n, mean, sigma_within, sigma_overall, sigma_method,
+    # n_subgroups, lower, upper, target, level, cp, cpk, cpl, cpu, pp, ppk, ppl, ppu, cpm,
+    # sigma_within_df)
+    return CapabilityResult(int(n), float(m), float(s_within), float(s_overall), how, n_sub,
+                            lsl, usl, tgt, float(level), cp, cpk, cpl, cpu, pp, ppk, ppl, ppu,
+                            cpm, float(nu_within))

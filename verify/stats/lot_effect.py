@@ -95,18 +95,9 @@ def lot_effect(values: Sequence[float] | np.ndarray, lots: Sequence[Hashable]) -
     # each lot mean as ow.grand + ow.means_centred computes it: one double addition per lot
     # (numpy's elementwise sum of a float and a float64 array is that same IEEE addition)
     means = tuple([grand + m for m in ow.means_centred.tolist()])
-    return LotEffectResult(
-        method="one-way ANOVA across lots",
-        statistic=float(ow.statistic),
-        df_between=int(ow.df_between),
-        df_within=int(ow.df_within),
-        pvalue=ow.pvalue,
-        n_lots=int(k),
-        icc=float(icc),
-        var_between=float(max(0.0, (msb - msw) / n0)),
-        var_within=float(msw),
-        n0=float(n0),
-        lot_labels=tuple(labels),
-        lot_means=means,
-        lot_sizes=tuple(size_list),
-    )
+    # (the fields by position: method, statistic, df_between, df_within, pvalue, n_lots, icc,
+    # var_between, var_within, n0, lot_labels, lot_means, lot_sizes)
+    return LotEffectResult("one-way ANOVA across lots", float(ow.statistic),
+                           int(ow.df_between), int(ow.df_within), ow.pvalue, int(k), float(icc),
+                           float(max(0.0, (msb - msw) / n0)), float(msw), float(n0),
+                           tuple(labels), means, tuple(size_list))

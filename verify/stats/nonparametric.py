@@ -394,19 +394,11 @@ def _signed_rank_result(c: _SignedRank, alternative: str) -> RankTestResult:
         pvalue = _normal_p(c.w_plus - c.mean, c.se, alternative)
         how = "normal approximation, tie and continuity corrected"
     zeros = "zeros dropped" if c.zero_method == "wilcox" else "zeros ranked then dropped (Pratt)"
-    return RankTestResult(
-        method=f"Wilcoxon signed-rank test ({zeros}; {how})",
-        statistic=c.w_plus,
-        pvalue=_clip_p(pvalue),
-        alternative=alternative,
-        n=c.n,
-        n_zero=c.n_zero,
-        n_tied_groups=c.groups,
-        n_tied_values=c.tied_values,
-        exact=c.exact,
-        estimate=c.estimate,
-        zero_method=c.zero_method,
-    )
+    # (the fields by position: method, statistic, pvalue, alternative, n, n_zero,
+    # n_tied_groups, n_tied_values, exact, estimate, zero_method)
+    return RankTestResult(f"Wilcoxon signed-rank test ({zeros}; {how})", c.w_plus,
+                          _clip_p(pvalue), alternative, c.n, c.n_zero, c.groups,
+                          c.tied_values, c.exact, c.estimate, c.zero_method)
 
 
 def mann_whitney(
@@ -479,17 +471,8 @@ def _rank_sum_result(c: _RankSum, alternative: str) -> RankTestResult:
     else:
         pvalue = _normal_p(c.u_new - c.n_old * c.n_new / 2.0, c.se, alternative)
     how = "exact" if c.exact else "normal approximation, tie and continuity corrected"
-    return RankTestResult(
-        method=f"Mann-Whitney rank-sum test ({how})",
-        statistic=c.u_new,
-        pvalue=_clip_p(pvalue),
-        alternative=alternative,
-        n=c.n_old + c.n_new,
-        n_zero=0,
-        n_tied_groups=c.groups,
-        n_tied_values=c.tied_values,
-        exact=c.exact,
-        estimate=c.estimate,
-        n_old=c.n_old,
-        n_new=c.n_new,
-    )
+    # (the fields by position: method, statistic, pvalue, alternative, n, n_zero,
+    # n_tied_groups, n_tied_values, exact, estimate, zero_method, n_old, n_new)
+    return RankTestResult(f"Mann-Whitney rank-sum test ({how})", c.u_new, _clip_p(pvalue),
+                          alternative, c.n_old + c.n_new, 0, c.groups, c.tied_values, c.exact,
+                          c.estimate, None, c.n_old, c.n_new)

@@ -134,30 +134,25 @@ def f_test_from_stats(
     (1.123037, (239, 239))
     """
     check_alternative(alternative)
-    for name, n in (("n_old", n_old), ("n_new", n_new)):
-        if int(n) != n:
-            raise ValueError(f"{name} must be a whole number, not {n}")
+    if int(n_old) != n_old:
+        raise ValueError(f"n_old must be a whole number, not {n_old}")
+    if int(n_new) != n_new:
+        raise ValueError(f"n_new must be a whole number, not {n_new}")
     n_old, n_new = int(n_old), int(n_new)
-    require_spread(n_old, float(sd_old), "old values")
-    require_spread(n_new, float(sd_new), "new values")
-    ratio = float(sd_new) / float(sd_old)
+    s_old = float(sd_old)
+    require_spread(n_old, s_old, "old values")
+    s_new = float(sd_new)
+    require_spread(n_new, s_new, "new values")
+    ratio = s_new / s_old
     f = ratio * ratio
     if not (math.isfinite(f) and f > 0.0):
         raise DegenerateDataError(f"the variance ratio is not a positive finite number ({f})")
     dfn, dfd = n_new - 1, n_old - 1
-    return VarianceRatioResult(
-        method="F-test for the ratio of variances (new / old)",
-        statistic=f,
-        df_num=dfn,
-        df_den=dfd,
-        pvalue=_f_pvalue(f, dfn, dfd, alternative),
-        alternative=alternative,
-        estimate=ratio,
-        n_old=n_old,
-        n_new=n_new,
-        sd_old=float(sd_old),
-        sd_new=float(sd_new),
-    )
+    # (the fields by position: method, statistic, df_num, df_den, pvalue, alternative,
+    # estimate, n_old, n_new, sd_old, sd_new)
+    return VarianceRatioResult("F-test for the ratio of variances (new / old)", f, dfn, dfd,
+                               _f_pvalue(f, dfn, dfd, alternative), alternative, ratio, n_old,
+                               n_new, s_old, s_new)
 
 
 def f_test(
@@ -294,21 +289,11 @@ def brown_forsythe(
     se = math.sqrt(ss / df * (1.0 / n1 + 1.0 / n2))
     est = mb - ma
     t = est / se
-    return BrownForsytheResult(
-        method="Brown-Forsythe test (Levene, median-centred)",
-        statistic=float(t * t),
-        df_num=1,
-        df_den=int(df),
-        pvalue=p_value(t, df, alternative),
-        alternative=alternative,
-        t_statistic=float(t),
-        estimate=float(est),
-        standard_error=float(se),
-        mad_old=ma,
-        mad_new=mb,
-        n_old=int(n1),
-        n_new=int(n2),
-    )
+    # (the fields by position: method, statistic, df_num, df_den, pvalue, alternative,
+    # t_statistic, estimate, standard_error, mad_old, mad_new, n_old, n_new)
+    return BrownForsytheResult("Brown-Forsythe test (Levene, median-centred)", float(t * t), 1,
+                               int(df), p_value(t, df, alternative), alternative, float(t),
+                               float(est), float(se), ma, mb, int(n1), int(n2))
 
 
 @dataclass(frozen=True)

@@ -5,7 +5,7 @@ percentile Ppk (ISO 22514-2) for a fitted non-normal one.
 
 from __future__ import annotations
 
-from ...decide import fmt, fmt_percent
+from ...decide import fmt, fmt_often, fmt_percent
 from ...model import CheckResult
 from ...stats import capability as cap
 from ...stats import distributions
@@ -26,7 +26,7 @@ def draft(kind, inp: CheckInput) -> Draft:
     label, level = conf.label, conf.confidence
     judged = (f"the lower {fmt_percent(level)}% confidence bound of the new process's "
               f"{label}" if conf.judge == "lower_bound" else f"the new process's {label}")
-    hyp = f"{judged} for {ch.name} is at least {fmt(conf.min)}"
+    hyp = f"{judged} for {ch.name} is at least {fmt_often(conf.min)}"
     subgroups = None
     if conf.subgroup == "lot":
         subgroups = cand.lots  # a tuple: its codes are remembered

@@ -3,7 +3,7 @@
 
 from __future__ import annotations
 
-from ...decide import Verdict, fmt, fmt_percent
+from ...decide import Verdict, fmt, fmt_often, fmt_percent
 
 
 class CapabilityRule:
@@ -31,11 +31,11 @@ class CapabilityRule:
             head = f"the lower {level} bound of the new {index} ({fmt(cpk, 3)})"
             if lower_bound < min_cpk:
                 return Verdict("HOLD", f"{head}, {fmt(lower_bound, 3)}, is below "
-                               f"{fmt(min_cpk)}")
-            return Verdict("PASS", f"{head}, {fmt(lower_bound, 3)}, meets {fmt(min_cpk)}")
+                               f"{fmt_often(min_cpk)}")
+            return Verdict("PASS", f"{head}, {fmt(lower_bound, 3)}, meets {fmt_often(min_cpk)}")
         if cpk < min_cpk:
-            return Verdict("HOLD", f"new {index} {fmt(cpk, 3)} is below {fmt(min_cpk)}{lb}")
-        return Verdict("PASS", f"new {index} {fmt(cpk, 3)} meets {fmt(min_cpk)}{lb}")
+            return Verdict("HOLD", f"new {index} {fmt(cpk, 3)} is below {fmt_often(min_cpk)}{lb}")
+        return Verdict("PASS", f"new {index} {fmt(cpk, 3)} meets {fmt_often(min_cpk)}{lb}")
 
 
 CAPABILITY = CapabilityRule()

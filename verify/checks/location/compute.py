@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import math
 
-from ...decide import fmt, margin_words, p_eq
+from ...decide import fmt, fmt_often, margin_words, p_eq
 from ...model import CheckResult, DiagnosticResult
 from ...stats import equivalence, nonparametric, power, ttests
 from ...stats.core import (
@@ -103,7 +103,7 @@ def draft(kind, inp: CheckInput) -> Draft:
     conf = inp.config(kind.name)
     if kind.name == "target":  # (_one_sample)
         design = "one-sample"
-        subject = f"the new-process mean of {ch.name} minus its target {fmt(ch.target)}"
+        subject = f"the new-process mean of {ch.name} minus its target {fmt_often(ch.target)}"
         noun = "departure"
     else:
         design = conf.design
@@ -236,7 +236,7 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
         statistic=statistic, p_value=pval, ci_low=ci.low, ci_high=ci.high, ci_level=level,
         critical_value=critical_value(e.df, alpha, "greater"), power=finite(pw),
         power_note=(f"power of this test if the true {noun} is "
-                    f"{fmt(true_shift)} and the sd is as observed"),
+                    f"{fmt_often(true_shift)} and the sd is as observed"),
         planned_n=size.n_new if size is not None else None,
         details=LocationDetails(n_new=n_new, n_old=n_old, sd=float(e.sd), **tost_fields),
         **common,
