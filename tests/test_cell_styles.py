@@ -119,7 +119,10 @@ def test_merge_spreads_a_protection_and_a_box():
 
 def test_shared_style_objects_are_one_object_per_value():
     assert shared_font(bold=True, color="1F2A33") is shared_font(color="1F2A33", bold=True)
-    assert shared_font(bold=True) == Font(bold=True)
+    # every font names the body text's typeface unless it names another (a font without one
+    # is drawn in the program's default: LibreOffice's is a serif)
+    assert shared_font(bold=True) == Font(name="Calibri", bold=True)
+    assert shared_font(name="Courier New").name == "Courier New"
     assert shared_fill("solid", fgColor="DCE6EC") == PatternFill("solid", fgColor="DCE6EC")
     assert shared_alignment(horizontal="center") is shared_alignment(horizontal="center")
 

@@ -151,7 +151,9 @@ def write_digest(path: Path, rows: Sequence[DigestRow], *, run: Sequence[tuple[s
     never becomes a formula.
     """
     from openpyxl import Workbook
-    from openpyxl.styles import Alignment, Font, PatternFill
+    from openpyxl.styles import Alignment, PatternFill
+
+    from .report.cell_styles import shared_font
 
     wb = Workbook()
     ws = wb.active
@@ -174,14 +176,14 @@ def write_digest(path: Path, rows: Sequence[DigestRow], *, run: Sequence[tuple[s
                 setattr(cell, k, v)
         return cell
 
-    put(1, 1, "Nightly digest", font=Font(bold=True, size=14))
+    put(1, 1, "Nightly digest", font=shared_font(bold=True, size=14))
     put(2, 1, "; ".join(f"{k}: {v}" for k, v in run[:3]))
     head = dict(run).get("ledger head")
     if head:  # printed on the page, so a paper digest anchors the ledger's hash chain
-        put(3, 1, f"ledger head after this run: {head}", font=Font(size=9))
+        put(3, 1, f"ledger head after this run: {head}", font=shared_font(size=9))
     header_row = 4
     for c, h in enumerate(_HEADERS, start=1):
-        put(header_row, c, h, font=Font(bold=True),
+        put(header_row, c, h, font=shared_font(bold=True),
             fill=PatternFill("solid", fgColor="D9D9D9"),
             alignment=Alignment(wrap_text=True, vertical="top"))
     drift_col = _HEADERS.index("Drift") + 1
@@ -213,12 +215,12 @@ def write_digest(path: Path, rows: Sequence[DigestRow], *, run: Sequence[tuple[s
 
     info = wb.create_sheet("Run")
     for r, (k, v) in enumerate(run, start=1):
-        info.cell(row=r, column=1, value=k).font = Font(bold=True)
+        info.cell(row=r, column=1, value=k).font = shared_font(bold=True)
         cell = info.cell(row=r, column=2, value=v)
         if isinstance(v, str):
             cell.data_type = "s"
     r = len(run) + 2
-    info.cell(row=r, column=1, value="Exit status").font = Font(bold=True)
+    info.cell(row=r, column=1, value="Exit status").font = shared_font(bold=True)
     for code, meaning in EXIT_MEANINGS:
         r += 1
         info.cell(row=r, column=1, value=code)
@@ -272,15 +274,16 @@ def _values(row: DigestRow) -> tuple:
 
 def _by_spec(ws, rows: Sequence[DigestRow]) -> None:
     """Every field of every spec as label and value, a block per spec kept on one page."""
-    from openpyxl.styles import Alignment, Font
+    from openpyxl.styles import Alignment
 
+    from .report.cell_styles import shared_font
     from .report.cells import SECTION_FONT, page_setup
     from .report.paper import keep_sections
 
     ws.column_dimensions["A"].width = 22
     ws.column_dimensions["B"].width = 80
     stamps = _Stamps()
-    label_style = {"font": Font(bold=True), "alignment": Alignment(vertical="top")}
+    label_style = {"font": shared_font(bold=True), "alignment": Alignment(vertical="top")}
     value_style = {"alignment": Alignment(vertical="top", wrap_text=True, horizontal="left")}
     r = 1
     for row in rows:

@@ -239,9 +239,18 @@ def _shared(cls, args: tuple, kw: tuple):
     return cls(*args, **dict(kw))
 
 
+#: The typeface every font of our workbooks names unless it names another: the body text's
+#: (openpyxl's default cell style). A font without a name is drawn in whatever the spreadsheet
+#: program defaults to (LibreOffice: a serif), so headings would not match the cells below them.
+FONT_NAME = "Calibri"
+
+
 def shared_font(*args, **kw) -> Font:
-    """``Font(*args, **kw)``, one shared object per distinct set of arguments (so its style
-    combinations are found by identity; never change it)."""
+    """``Font(*args, **kw)`` naming :data:`FONT_NAME` unless ``name`` is given, one shared
+    object per distinct set of arguments (so its style combinations are found by identity;
+    never change it)."""
+    if not args:
+        kw.setdefault("name", FONT_NAME)
     return _shared(Font, args, tuple(sorted(kw.items())))
 
 

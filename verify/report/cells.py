@@ -17,13 +17,14 @@ import re
 from collections.abc import Iterable
 
 import numpy as np
-from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
+from openpyxl.styles import Alignment, Border, PatternFill, Side
 
 from .cell_styles import (
     align_top,
     cell_at,
     merge,
     row_dimension,
+    shared_font,
     style,
 )
 from .safe_text import XML_ILLEGAL as XML_ILLEGAL  # re-exported for the sheet writers
@@ -53,13 +54,13 @@ OUTCOME_TINTS = {"PASS": "DDEFE4", "HOLD": "F5D6D1", "PENDING": "FBEBC7"}
 
 THIN = Side(style="thin", color="B7C3CC")
 BOX = Border(left=THIN, right=THIN, top=THIN, bottom=THIN)
-HEADER_FONT = Font(bold=True, color=INK)
+HEADER_FONT = shared_font(bold=True, color=INK)
 HEADER = PatternFill("solid", fgColor=HEADER_FILL)
-TITLE_FONT = Font(bold=True, size=16, color=ACCENT)
-SECTION_FONT = Font(bold=True, size=12, color=ACCENT)
-NOTE_FONT = Font(italic=True, color=MUTED)
-FLAG_FONT = Font(bold=True, color="8A4B00")  # a diagnostic's flag, a part beyond the limits
-LABEL_FONT = Font(bold=True, color=INK)  # a row's label in a table
+TITLE_FONT = shared_font(bold=True, size=16, color=ACCENT)
+SECTION_FONT = shared_font(bold=True, size=12, color=ACCENT)
+NOTE_FONT = shared_font(italic=True, color=MUTED)
+FLAG_FONT = shared_font(bold=True, color="8A4B00")  # a diagnostic's flag, a part beyond the limits
+LABEL_FONT = shared_font(bold=True, color=INK)  # a row's label in a table
 CENTRE = Alignment(horizontal="center")
 LEFT = Alignment(horizontal="left")
 WRAP = Alignment(wrap_text=True, vertical="top")

@@ -15,11 +15,12 @@ from collections.abc import Iterator
 
 import numpy as np
 import pandas as pd
-from openpyxl.styles import Alignment, Font
+from openpyxl.styles import Alignment
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.filters import AutoFilter
 from openpyxl.worksheet.table import Table, TableColumn, TableStyleInfo
 
+from .cell_styles import shared_font
 from .cells import MUTED, NOTE_FONT, clean_text, fixed, page_setup, put, resolution_decimals
 from .layout import MEASUREMENT_HEADERS, MeasurementLayout, measurement_headers
 from .styles import StyleBook
@@ -89,7 +90,7 @@ def add_placeholders(wb, layout: MeasurementLayout, styles: StyleBook) -> list[S
         rows = layout.table.loc[layout.table["sheet"] == title]
         n = len(rows)
         for j, label in enumerate(headers, start=1):
-            put(ws, 1, j, label, font=Font(bold=True), align=HEADER_ALIGN)
+            put(ws, 1, j, label, font=shared_font(bold=True), align=HEADER_ALIGN)
         ws.row_dimensions[1].height = 30  # two-line headings never run into each other
         for j, (key, _label) in enumerate(columns, start=1):
             ws.column_dimensions[get_column_letter(j)].width = _WIDTHS.get(key, 12)

@@ -14,11 +14,20 @@ from __future__ import annotations
 from pathlib import Path
 
 from openpyxl import Workbook
-from openpyxl.styles import Font
 from openpyxl.utils import get_column_letter
 
 from ..plan.model import Plan
-from .cells import INK, NOTE_FONT, TITLE_FONT, WRAP, fit_rows, header_row, page_setup, put, section
+from .cells import (
+    LABEL_FONT,
+    NOTE_FONT,
+    TITLE_FONT,
+    WRAP,
+    fit_rows,
+    header_row,
+    page_setup,
+    put,
+    section,
+)
 from .paper import keep_sections
 
 PLAN_SHEET = "Plan"
@@ -42,7 +51,7 @@ def _plan_sheet(ws, plan: Plan, sheets) -> None:
     ws.merge_cells(start_row=r, start_column=3, end_row=r, end_column=last_col)
     r += 1
     for label, value, source in plan.inputs:
-        put(ws, r, 1, label, font=Font(bold=True, color=INK))
+        put(ws, r, 1, label, font=LABEL_FONT)
         put(ws, r, 2, value, align=WRAP)
         put(ws, r, 3, source, font=NOTE_FONT)
         ws.merge_cells(start_row=r, start_column=3, end_row=r, end_column=last_col)

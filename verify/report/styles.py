@@ -8,12 +8,12 @@ them all, in that order, so the index stays valid after the scratch sheet is rem
 
 from __future__ import annotations
 
-from openpyxl.styles import Alignment, Font
+from openpyxl.styles import Alignment
 
-from .cell_styles import style
+from .cell_styles import shared_font, style
 from .cells import MUTED
 
-_EXCLUDED_FONT = Font(italic=True, color=MUTED)
+_EXCLUDED_FONT = shared_font(italic=True, color=MUTED)
 _TOP = Alignment(vertical="top")
 _TOP_WRAP = Alignment(vertical="top", wrap_text=True)
 
@@ -60,7 +60,7 @@ class StyleBook:
         return self._get(("top", fmt, wrap), fmt=fmt, align=_TOP_WRAP if wrap else _TOP)
 
     def mono(self) -> int:
-        return self._get(("mono",), font=Font(name="Courier New"))
+        return self._get(("mono",), font=shared_font(name="Courier New"))
 
     def close(self) -> None:
         """Remove the scratch sheet (the style ids it produced stay valid)."""

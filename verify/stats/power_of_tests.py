@@ -58,6 +58,8 @@ QUADRATURES = ("gauss-legendre", "adaptive")
 
 
 def _count(n: object, what: str) -> int:
+    if type(n) is int and n >= 2:  # the common case, as the checks below would return it
+        return n
     if isinstance(n, float) and n.is_integer():
         n = int(n)
     if isinstance(n, bool) or not isinstance(n, numbers.Integral):

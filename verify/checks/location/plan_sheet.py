@@ -13,14 +13,14 @@ is written as text by :func:`verify.report.cells.put`, never as a formula.
 from __future__ import annotations
 
 from openpyxl.chart import BarChart, Reference
-from openpyxl.styles import Alignment, Font
+from openpyxl.styles import Alignment
 
 from ...plan.model import Plan, PlanPart
 from ...report.cells import (
     BOX,
     DECISION_COLOURS,
-    INK,
     INT_FORMAT,
+    LABEL_FONT,
     MUTED,
     POWER_FORMAT,
     WRAP,
@@ -103,14 +103,14 @@ def plan_section(ws, start: int, plan: Plan, part: PlanPart) -> int:
     spec_rows = _plan_rows()
     for k in range(0, len(rows), CHECKS_PER_BLOCK):
         group = rows[k : k + CHECKS_PER_BLOCK]
-        put(ws, r, 1, "Characteristic", font=Font(bold=True, color=INK), border=BOX)
+        put(ws, r, 1, "Characteristic", font=LABEL_FONT, border=BOX)
         header_row(ws, r, 2, [g.scenario.characteristic or "" for g in group])
         r += 1
-        put(ws, r, 1, "Check", font=Font(bold=True, color=INK), border=BOX)
+        put(ws, r, 1, "Check", font=LABEL_FONT, border=BOX)
         header_row(ws, r, 2, [g.scenario.check for g in group])
         put(ws, r, 2 + len(group), "")
         r += 1
-        put(ws, r, 1, "Unit", font=Font(bold=True, color=INK), border=BOX)
+        put(ws, r, 1, "Unit", font=LABEL_FONT, border=BOX)
         for j, g in enumerate(group, start=2):
             put(ws, r, j, g.scenario.unit, border=BOX)
         r += 1
@@ -118,7 +118,7 @@ def plan_section(ws, start: int, plan: Plan, part: PlanPart) -> int:
             values = [get(g) for g in group]
             if all(v in (None, "") for v in values):
                 continue
-            put(ws, r, 1, label, font=Font(bold=True, color=INK), border=BOX, align=WRAP)
+            put(ws, r, 1, label, font=LABEL_FONT, border=BOX, align=WRAP)
             for j, v in enumerate(values, start=2):
                 put(ws, r, j, v, fmt=fmt if not isinstance(v, str) else None, border=BOX,
                     align=WRAP if isinstance(v, str) else Alignment(horizontal="right"))
