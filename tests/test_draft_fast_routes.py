@@ -152,3 +152,40 @@ def test_lot_means_are_the_numpy_sums_of_grand_and_centred_means(frozen, values,
     got = lot_effect(x, lots).lot_means
     assert [v.hex() for v in got] == [v.hex() for v in want]
     _memo.forget()
+
+
+def test_companions_hooks_remembered_are_the_registrys():
+    """evaluate_diagnostics.companions looks each check name's kind and companions hook up
+    once: after evaluating the demo specs every remembered pair is the registry's own
+    (kind(name) and its compute hook's ``companions``, or None where it has none)."""
+    from pathlib import Path
+
+    from verify import evaluate_diagnostics
+    from verify.checks import kind
+    from verify.data import load_measurements
+    from verify.evaluate import evaluate
+    from verify.spec import load_spec
+
+    for p in sorted((Path(__file__).resolve().parents[1] / "specs").glob("*.yaml")):
+        spec = load_spec(p)
+        evaluate(spec, load_measurements(spec))
+    remembered = evaluate_diagnostics._COMPANIONS
+    assert {"target", "shift", "spread", "capability"} <= set(remembered)
+    for name, (k, fn) in remembered.items():
+        assert k is kind(name)
+        assert fn is getattr(kind(name).hook("compute"), "companions", None)
+
+
+@pytest.mark.parametrize("lower, upper", [(9.9, 10.1), (9.9, None), (None, 10.1), (9.0, 10.2)])
+@pytest.mark.parametrize("values", [
+    np.array([9.98, 10.02, 9.99, 10.01, 10.0, 9.97, 10.03, 10.0]),  # centred: cpl == cpu
+    np.random.default_rng(8).normal(10.02, 0.02, 30)])
+def test_capability_smaller_side_is_the_minimum_of_the_sides_given(values, lower, upper):
+    """capability's Cpk and Ppk: min(lo, hi) of the sides given, the value the earlier route's
+    min over the sides that exist gives (the lower side kept on a tie)."""
+    from verify.stats.capability import capability
+
+    r = capability(values, lower=lower, upper=upper, target=10.0)
+    for k, lo, hi in ((r.cpk, r.cpl, r.cpu), (r.ppk, r.ppl, r.ppu)):
+        want = min(v for v in (lo, hi) if v is not None)
+        assert k.hex() == want.hex()
