@@ -136,20 +136,27 @@ def _lot_samples():
     yield rng.normal(0.0, 1e-100, 12), tuple("xy"[i % 2] for i in range(12))
 
 
-@pytest.mark.parametrize("frozen", [False, True])
+@pytest.mark.parametrize("route", ["plain", "frozen", "batched"])
 @pytest.mark.parametrize("values, lots", list(_lot_samples()))
-def test_lot_means_are_the_numpy_sums_of_grand_and_centred_means(frozen, values, lots):
+def test_lot_means_are_the_numpy_sums_of_grand_and_centred_means(route, values, lots):
     """lot_effect adds the grand mean to each centred lot mean in Python floats: the same
-    IEEE double additions as numpy's ``ow.grand + ow.means_centred``, bit for bit."""
+    IEEE double additions as numpy's ``ow.grand + ow.means_centred``, bit for bit, and
+    Python floats as ``.tolist()`` gives them, whether the one-way analysis is computed
+    there, remembered, or made with other samples' (stats.batch)."""
+    from verify.stats import batch
     from verify.stats.lot_effect import lot_effect
     from verify.stats.one_way import one_way
     from verify.stats.samples import group_codes, group_sizes
 
-    x = _memo.freeze(values.copy()) if frozen else values
+    x = values if route == "plain" else _memo.freeze(values.copy())
+    if route == "batched":  # with two more samples of its length, so that the rows are stacked
+        others = [_memo.freeze(values[::-1].copy()), _memo.freeze(values * 2.0)]
+        batch.prefetch([], in_lots=[(x, lots)] + [(o, lots) for o in others])
     labels, codes = group_codes(lots, x.size)
     ow = one_way(x, codes, group_sizes(codes, len(labels)), refused="-")
     want = tuple((ow.grand + ow.means_centred).tolist())
     got = lot_effect(x, lots).lot_means
+    assert [type(v) for v in got] == [float] * len(want)
     assert [v.hex() for v in got] == [v.hex() for v in want]
     _memo.forget()
 
