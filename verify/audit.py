@@ -37,13 +37,16 @@ def source_date_epoch() -> int | None:
 
 def utc_now() -> str:
     """The current UTC time as ISO 8601 with a Z, or the fixed SOURCE_DATE_EPOCH time."""
-    epoch = source_date_epoch()
+    return _utc_text(source_date_epoch())
+
+
+def _utc_text(epoch: int | None) -> str:
+    """:func:`utc_now` with the SOURCE_DATE_EPOCH value read: the current time's text,
+    ``strftime("%Y-%m-%dT%H:%M:%S.%fZ")`` as isoformat writes it (microseconds always, the UTC
+    offset as Z), or the epoch's to the second."""
     if epoch is not None:
-        t = _dt.datetime.fromtimestamp(epoch, tz=_dt.UTC)
-    else:
-        t = _dt.datetime.now(tz=_dt.UTC)
-    return t.strftime("%Y-%m-%dT%H:%M:%S.%fZ") if epoch is None else t.strftime(
-        "%Y-%m-%dT%H:%M:%SZ")
+        return _dt.datetime.fromtimestamp(epoch, tz=_dt.UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
+    return _dt.datetime.now(tz=_dt.UTC).isoformat(timespec="microseconds")[:-6] + "Z"
 
 
 @lru_cache(maxsize=1)
@@ -83,6 +86,21 @@ def git_commit() -> str | None:
 
 
 def _user() -> str:
+    """getpass.getuser(), or USER or "unknown" where it fails: the first of the environment
+    variables it reads (LOGNAME, USER, LNAME, USERNAME, in its order) set to a text, else the
+    account's name from the password database, looked up once per user id (each lookup reads
+    the database file)."""
+    for name in ("LOGNAME", "USER", "LNAME", "USERNAME"):
+        user = os.environ.get(name)
+        if user:
+            return user
+    getuid = getattr(os, "getuid", None)  # (not on Windows, where getpass reads USERNAME)
+    return _account_name(None if getuid is None else getuid())
+
+
+@lru_cache(maxsize=4)
+def _account_name(uid: int | None) -> str:
+    """getpass.getuser() for the process's user id ``uid`` (its environment variables unset)."""
     try:
         return getpass.getuser()
     except (OSError, KeyError):
@@ -118,8 +136,8 @@ def run_info(spec, measurements, *, command: str | None = None, started: str | N
         run_id = str(uuid.uuid4())
     return RunInfo(
         run_id=run_id,
-        started=started or utc_now(),
-        finished=utc_now(),
+        started=started or _utc_text(epoch),
+        finished=_utc_text(epoch),
         user=_user(),
         host=socket.gethostname(),
         command=command if command is not None else command_line(),
