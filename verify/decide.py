@@ -99,25 +99,28 @@ def fmt_like(*values: float | None) -> list[str]:
     than 1.094e-05..0.001384."""
     top = 0  # the largest finite non-zero |value|, 0 while there is none
     for v in values:
-        if v is not None and math.isfinite(v) and v != 0:
+        if v is not None and v != 0 and _isfinite(v):
             a = abs(v)
-            if top == 0 or a > top:
+            if a > top:
                 top = a
     if top == 0:
         return [fmt(v) for v in values]
-    decimals = min(12, max(0, 3 - math.floor(math.log10(top))))
-    spec = _F_SPECS[decimals]
+    places = 3 - _floor(_log10(top))  # the decimals, 0 to 12 of them
+    spec = _F_SPECS[12 if places > 12 else 0 if places < 0 else places]
     out = []
     for v in values:
-        if v is None or not math.isfinite(v):
+        if v is None or not _isfinite(v):
             out.append(fmt(v))
             continue
         text = format(v, spec)  # f"{v:.{decimals}f}"
-        if decimals:  # (a fixed-point text has a point exactly when it has decimals)
+        if places > 0:  # (a fixed-point text has a point exactly when it has decimals)
             text = text.rstrip("0").rstrip(".")
         # a text whose number is zero: its digits all zeros, so no point is left ("0", "-0")
         out.append("0" if text == "0" or text == "-0" else text)
     return out
+
+
+_isfinite, _floor, _log10 = math.isfinite, math.floor, math.log10
 
 
 def p_eq(p: float | None, name: str = "p") -> str:
