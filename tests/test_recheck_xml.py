@@ -117,6 +117,7 @@ BODY = [
     ["x", "=SUMIFS(A1:A2,B1:B2,1)", None, None, None, None, "L-01 " * 20],
     ["y", 3, None, None, None, "wrapped " * 30, 12345678901234567890],
     ["z", 4, None, None, None, "=" + "LEN(A1)+" * 30 + "1"],  # a long formula in a wrapped cell
+    ["w", 5, None, None, None, "taller than a row can be " * 400],  # capped at 409 points
 ]
 
 
@@ -128,6 +129,7 @@ def test_every_kind_of_body_cell_equals_the_cell_route(tmp_path, monkeypatch):
     _same(a, b)
     xml = a[f"xl/worksheets/sheet{_sheet_no(a)}.xml"].decode()
     assert 'outlineLevel="1"' in xml and 'customHeight="1"' in xml  # folded, and tall rows
+    assert 'ht="409"' in xml  # the tallest row a sheet can have, for the text beyond it
 
 
 @pytest.mark.parametrize("odd", [True, float("nan"), float("inf"), "=" + "1+" * 20000 + "1"])

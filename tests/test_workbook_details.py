@@ -165,6 +165,23 @@ def test_row_height_stays_within_the_tallest_row():
     assert row_height(3) == "45.5"  # 3 lines of 14.5 points and 2 of padding, as fit_rows
 
 
+def test_fitted_rows_stay_within_the_tallest_row():
+    """fit_rows (every other sheet's wrapped text) caps a row at the same 409 points: a spec's
+    note of thousands of words keeps its whole text in the cell, in a row a sheet can have;
+    a short text keeps its own height."""
+    from verify.report.cells import ROW_HEIGHT_MAX, WRAP, fit_rows, put
+
+    ws = openpyxl.Workbook().active
+    ws.column_dimensions["A"].width = 40
+    put(ws, 1, 1, "a note that runs on and on " * 400, align=WRAP)
+    put(ws, 2, 1, "two\nlines", align=WRAP)
+    fit_rows(ws)
+    assert ROW_HEIGHT_MAX == 409.0
+    assert ws.row_dimensions[1].height == 409.0
+    assert ws.row_dimensions[2].height == 2 * 14.5 + 2
+    assert ws["A1"].value == "a note that runs on and on " * 400
+
+
 # --- paper ------------------------------------------------------------------------------------
 
 LETTER_LONG_PT = 792.0  # US Letter's long side, 11 in (A4's is longer: 297 mm = 842 pt)

@@ -11,13 +11,6 @@ collector; cycles left over wait for the next collection.
 pause begins and back on when the last one ends, and only if it was on before the first began.
 (A pause that read ``gc.isenabled()`` on its own could read "off" while another thread's pause
 held it, and then leave it off for good.)
-
-When the last pause ends, what survived it (an evaluation's results, thousands of objects, all
-alive) is moved to the collector's oldest generation unexamined (:func:`_promote`): left young,
-the first collection after the pause would walk every one of them to find no garbage (some
-3,500 objects after an evaluation of 40 characteristics: about 2% of its CPU time).
-Cyclic garbage made during a pause is then freed by the next full collection (or
-``gc.collect()``), not the next young one.
 """
 
 from __future__ import annotations
@@ -48,16 +41,4 @@ def paused() -> Iterator[None]:
         with _lock:
             _depth -= 1
             if _depth == 0 and _was_enabled:
-                _promote()
                 gc.enable()
-
-
-def _promote() -> None:
-    """Move every object the collector tracks to its oldest generation without examining one:
-    ``gc.freeze()`` moves them all to the permanent generation and ``gc.unfreeze()`` moves that
-    to the oldest (both splice lists; neither walks the objects). Skipped when the permanent
-    generation holds anything already (frozen by the application, e.g. before it forks): the
-    unfreeze would release those objects too."""
-    if gc.get_freeze_count() == 0:
-        gc.freeze()
-        gc.unfreeze()

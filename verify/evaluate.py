@@ -53,8 +53,7 @@ def evaluate(
     # cyclic collector's passes over everything the process holds would cost about a tenth of
     # the evaluation (one full pass per dozen evaluations, each walking pandas' and scipy's
     # state); it is paused here, as while a workbook is built (verify.collector), and its state
-    # restored once the drafts are gone (the result, which survives, goes to the collector's
-    # oldest generation unexamined: no young collection walks it)
+    # restored once the drafts are gone (the first collection then walks the result only)
     with collector.paused():
         return _evaluate(spec, measurements, final, run)
 

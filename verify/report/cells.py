@@ -291,12 +291,17 @@ def column_widths(ws):
     return width
 
 
+#: The tallest row a worksheet can have, in points (Excel refuses a file with a taller one).
+ROW_HEIGHT_MAX = 409.0
+
+
 def fit_rows(ws, *, line_height: float = 14.5) -> None:
-    """Give rows with wrapped text the height their text needs.
+    """Give rows with wrapped text the height their text needs, up to :data:`ROW_HEIGHT_MAX`.
 
     Spreadsheet programs do not grow rows on opening a file, so wrapped text would overlap the
     next row. The estimate counts characters against the column width (merged cells: the
-    widths of the merged columns); a row keeps a larger height set earlier.
+    widths of the merged columns); a row keeps a larger height set earlier. Text that needs
+    more than the tallest row stays whole in its cell (the formula bar shows it all).
     """
     width = column_widths(ws)
 
@@ -363,7 +368,7 @@ def fit_rows(ws, *, line_height: float = 14.5) -> None:
             if lines > need:
                 need, font_scale = lines, max(1.0, size)
         if need > 1:
-            h = need * line_height * font_scale + 2
+            h = min(ROW_HEIGHT_MAX, need * line_height * font_scale + 2)
             dim = row_dimension(ws, r)
             if dim.ht is None or dim.ht < h:
                 dim.ht = h

@@ -22,7 +22,15 @@ from collections.abc import Iterator
 from openpyxl.utils import get_column_letter
 
 from ..model import Evaluation
-from .cells import P_FORMAT, fit_rows, header_row, infinity_text, page_setup, put
+from .cells import (
+    P_FORMAT,
+    ROW_HEIGHT_MAX,
+    fit_rows,
+    header_row,
+    infinity_text,
+    page_setup,
+    put,
+)
 from .paper import PAPER_LONG, print_width_pt
 from .xlsx_fast import StreamedSheet, number_cell, text_cell
 
@@ -53,7 +61,6 @@ TITLE_COLUMNS = "A:C"
 #: other sheets' 0.4, for a larger scale.
 MARGINS = (0.3, 0.5)
 LINE_HEIGHT = 14.5  # points a line of wrapped text takes, as verify.report.cells.fit_rows
-ROW_HEIGHT_MAX = 409.0  # points: the tallest row a worksheet can have
 HEADER_ROW = 3
 
 

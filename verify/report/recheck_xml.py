@@ -37,7 +37,7 @@ from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.dimensions import RowDimension
 
 from .cell_styles import align_top, style
-from .cells import EXCEL_CELL_MAX, clean_text, column_widths
+from .cells import EXCEL_CELL_MAX, ROW_HEIGHT_MAX, clean_text, column_widths
 from .sheet_xml import _cdata, _row_head
 from .xlsx_fast import StreamedSheet
 
@@ -212,7 +212,7 @@ class Body:
                 if lines > need:
                     need, font_scale = lines, max(1.0, size)
             if need > 1:
-                heights[i] = need * line_height * font_scale + 2
+                heights[i] = min(ROW_HEIGHT_MAX, need * line_height * font_scale + 2)
                 key = (self.cols[i], heading)
                 if key not in tall:  # in a tall row, everything reads from the top
                     styles = []
