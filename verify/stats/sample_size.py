@@ -124,9 +124,9 @@ def _normal_starts(delta, lo, hi, alpha, target, kind, s1, s2, ratio) -> np.ndar
         f = special.ndtr(up * x - z) + special.ndtr(down * x - z) - 1.0 - target
         slope = up * np.exp(-0.5 * (up * x - z) ** 2) + down * np.exp(-0.5 * (down * x - z) ** 2)
         x = np.maximum(x - f * math.sqrt(2.0 * math.pi) / slope, 0.5 * x)
+    # (s2 is NaN but for welch, whose branch alone reads it)
     var = np.where(kind == _ONE, s1 * s1,
-                   np.where(kind == _POOLED, s1 * s1 * (1.0 + ratio),
-                            s1 * s1 + np.nan_to_num(s2) ** 2 * ratio))
+                   np.where(kind == _POOLED, s1 * s1 * (1.0 + ratio), s1 * s1 + s2 * s2 * ratio))
     n = var * x * x
     return np.where(np.isfinite(n), np.ceil(np.minimum(n, 4.0 * MAX_N)), 2.0)
 
