@@ -136,19 +136,63 @@ def _lot_samples():
     yield rng.normal(0.0, 1e-100, 12), tuple("xy"[i % 2] for i in range(12))
 
 
-@pytest.mark.parametrize("frozen", [False, True])
+@pytest.mark.parametrize("route", ["plain", "frozen", "batched"])
 @pytest.mark.parametrize("values, lots", list(_lot_samples()))
-def test_lot_means_are_the_numpy_sums_of_grand_and_centred_means(frozen, values, lots):
+def test_lot_means_are_the_numpy_sums_of_grand_and_centred_means(route, values, lots):
     """lot_effect adds the grand mean to each centred lot mean in Python floats: the same
-    IEEE double additions as numpy's ``ow.grand + ow.means_centred``, bit for bit."""
+    IEEE double additions as numpy's ``ow.grand + ow.means_centred``, bit for bit, and
+    Python floats as ``.tolist()`` gives them, whether the one-way analysis is computed
+    there, remembered, or made with other samples' (stats.batch)."""
+    from verify.stats import batch
     from verify.stats.lot_effect import lot_effect
     from verify.stats.one_way import one_way
     from verify.stats.samples import group_codes, group_sizes
 
-    x = _memo.freeze(values.copy()) if frozen else values
+    x = values if route == "plain" else _memo.freeze(values.copy())
+    if route == "batched":  # with two more samples of its length, so that the rows are stacked
+        others = [_memo.freeze(values[::-1].copy()), _memo.freeze(values * 2.0)]
+        batch.prefetch([], in_lots=[(x, lots)] + [(o, lots) for o in others])
     labels, codes = group_codes(lots, x.size)
     ow = one_way(x, codes, group_sizes(codes, len(labels)), refused="-")
     want = tuple((ow.grand + ow.means_centred).tolist())
     got = lot_effect(x, lots).lot_means
+    assert [type(v) for v in got] == [float] * len(want)
     assert [v.hex() for v in got] == [v.hex() for v in want]
     _memo.forget()
+
+
+def test_companions_hooks_remembered_are_the_registrys():
+    """evaluate_diagnostics.companions looks each check name's kind and companions hook up
+    once: after evaluating the demo specs every remembered pair is the registry's own
+    (kind(name) and its compute hook's ``companions``, or None where it has none)."""
+    from pathlib import Path
+
+    from verify import evaluate_diagnostics
+    from verify.checks import kind
+    from verify.data import load_measurements
+    from verify.evaluate import evaluate
+    from verify.spec import load_spec
+
+    for p in sorted((Path(__file__).resolve().parents[1] / "specs").glob("*.yaml")):
+        spec = load_spec(p)
+        evaluate(spec, load_measurements(spec))
+    remembered = evaluate_diagnostics._COMPANIONS
+    assert {"target", "shift", "spread", "capability"} <= set(remembered)
+    for name, (k, fn) in remembered.items():
+        assert k is kind(name)
+        assert fn is getattr(kind(name).hook("compute"), "companions", None)
+
+
+@pytest.mark.parametrize("lower, upper", [(9.9, 10.1), (9.9, None), (None, 10.1), (9.0, 10.2)])
+@pytest.mark.parametrize("values", [
+    np.array([9.98, 10.02, 9.99, 10.01, 10.0, 9.97, 10.03, 10.0]),  # centred: cpl == cpu
+    np.random.default_rng(8).normal(10.02, 0.02, 30)])
+def test_capability_smaller_side_is_the_minimum_of_the_sides_given(values, lower, upper):
+    """capability's Cpk and Ppk: min(lo, hi) of the sides given, the value the earlier route's
+    min over the sides that exist gives (the lower side kept on a tie)."""
+    from verify.stats.capability import capability
+
+    r = capability(values, lower=lower, upper=upper, target=10.0)
+    for k, lo, hi in ((r.cpk, r.cpl, r.cpu), (r.ppk, r.ppl, r.ppu)):
+        want = min(v for v in (lo, hi) if v is not None)
+        assert k.hex() == want.hex()

@@ -91,9 +91,10 @@ def lot_effect(values: Sequence[float] | np.ndarray, lots: Sequence[Hashable]) -
     ow = one_way(a, codes, sizes, refused="lot effect cannot be tested")
     msb, msw, n0 = ow.ms_between, ow.ms_within, ow.n0
     icc = max(0.0, (msb - msw) / (msb + (n0 - 1.0) * msw))
-    grand = ow.grand
+    grand = float(ow.grand)
     # each lot mean as ow.grand + ow.means_centred computes it: one double addition per lot
-    # (numpy's elementwise sum of a float and a float64 array is that same IEEE addition)
+    # (numpy's elementwise sum of a float and a float64 array is that same IEEE addition),
+    # a Python float as .tolist() gives it
     means = tuple([grand + m for m in ow.means_centred.tolist()])
     # (the fields by position: method, statistic, df_between, df_within, pvalue, n_lots, icc,
     # var_between, var_within, n0, lot_labels, lot_means, lot_sizes)
