@@ -196,3 +196,34 @@ def test_capability_smaller_side_is_the_minimum_of_the_sides_given(values, lower
     for k, lo, hi in ((r.cpk, r.cpl, r.cpu), (r.ppk, r.ppl, r.ppu)):
         want = min(v for v in (lo, hi) if v is not None)
         assert k.hex() == want.hex()
+
+
+@pytest.mark.parametrize("frozen", [False, True])
+@pytest.mark.parametrize("old, new", list(_pairs()))
+def test_f_test_reads_a_remembered_summary_as_the_plain_route_computes_it(frozen, old, new):
+    """f_test reads a remembered sample's summary without checking it for finiteness again:
+    the result, or the error, of mean_sd(finite_values(...)) on each sample."""
+    from verify.stats import spread
+    from verify.stats.samples import finite_values
+
+    if frozen:
+        old, new = _memo.freeze(old.copy()), _memo.freeze(new.copy())
+        for x in (old, new):
+            try:
+                mean_sd(x)  # remembered, as the evaluation's batched pass leaves it
+            except DegenerateDataError:
+                pass
+
+    def plain():
+        n_old, _, sd_old = mean_sd(finite_values(old, "old values"))
+        n_new, _, sd_new = mean_sd(finite_values(new, "new values"))
+        return spread.f_test_from_stats(n_old, sd_old, n_new, sd_new, alternative="greater")
+
+    try:
+        want = plain()
+    except DegenerateDataError as err:
+        with pytest.raises(DegenerateDataError, match=re.escape(str(err))):
+            spread.f_test(old, new, alternative="greater")
+        return
+    assert _bits(spread.f_test(old, new, alternative="greater")) == _bits(want)
+    _memo.forget()

@@ -181,3 +181,31 @@ def test_hook_functions_looked_up_once_are_the_hooks_own():
     other = replace(k, package="capability")  # same name, another object and compute hook
     assert eg.compute_hook_fn(other, "draft") is other.hook("compute").draft
     assert eg.compute_hook_fn(k, "draft") is k.hook("compute").draft
+
+
+def test_results_built_by_position_name_their_fields_in_order():
+    # _summary builds ProcessSummary, beyond_limits_many BeyondLimits by position: the fields
+    # (dataclasses.fields, their declared order) must be those the calls give, in that order
+    import dataclasses
+
+    from verify.model import ProcessSummary
+    from verify.stats.limits import BeyondLimits, beyond_limits, beyond_limits_many
+
+    names = [f.name for f in dataclasses.fields(ProcessSummary)]
+    assert tuple(names[:len(eg.SUMMARY_FIELDS)]) == eg.SUMMARY_FIELDS
+    assert [f.name for f in dataclasses.fields(BeyondLimits)] == [
+        "n", "below", "above", "expected_ppm", "expected_ppm_below", "expected_ppm_above",
+        "model", "note"]
+    # and the batched counts equal the one-sample route's (its keyword call), field by field
+    rng = np.random.default_rng(5)
+    samples = [_memo.freeze(rng.normal(10.0, 0.02, 30)) for _ in range(3)]
+    try:
+        for x in samples:
+            finite_values(x)  # known finite, as the batched pass leaves them
+        got = beyond_limits_many(samples, lower=[9.97, None, 9.99], upper=[10.03, 10.01, None],
+                                 distribution=["normal"] * 3)
+        for x, g, lo, hi in zip(samples, got, [9.97, None, 9.99], [10.03, 10.01, None],
+                                strict=True):
+            assert vars(g) == vars(beyond_limits(np.array(x), lower=lo, upper=hi))
+    finally:
+        _memo.forget()

@@ -141,18 +141,15 @@ def _summary(process: str, values: np.ndarray, lots, n_parts: int,
     # (text labels are their own text, and group_codes gives each once)
     shown_lots = tuple(labels) if all(type(v) is str for v in labels) else tuple(
         dict.fromkeys(map(str, lots)))
-    return ProcessSummary(
-        sd_within_lot=within, sd_between_lot=between, between_lot_set_to_zero=truncated,
-        process=process,
-        n=n,
-        mean=mean,
-        sd=sd,
-        lots=shown_lots,
-        n_parts=n_parts,
-        minimum=extremes[0] if n else None,
-        maximum=extremes[1] if n else None,
-        beyond_limits=beyond,
-    )
+    # by position, in the fields' order (SUMMARY_FIELDS; a keyword costs about 30 ns a field)
+    return ProcessSummary(process, n, mean, sd, shown_lots, n_parts,
+                          extremes[0] if n else None, extremes[1] if n else None, beyond,
+                          within, between, truncated)
+
+
+#: The fields :func:`_summary` gives ``ProcessSummary`` by position, in order.
+SUMMARY_FIELDS = ("process", "n", "mean", "sd", "lots", "n_parts", "minimum", "maximum",
+                  "beyond_limits", "sd_within_lot", "sd_between_lot", "between_lot_set_to_zero")
 
 
 def _extremes(samples: list[np.ndarray]) -> list[tuple[float, float] | None]:

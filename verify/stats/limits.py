@@ -211,8 +211,9 @@ def beyond_limits_many(
                 continue
             ppm_lo = 0.0 if lo[r] is None else 1e6 * t[0]
             ppm_hi = 0.0 if hi[r] is None else 1e6 * t[1]
-            out[i] = BeyondLimits(n=int(samples[i].size), below=nb if lo[r] is not None else 0,
-                                  above=na if hi[r] is not None else 0,
-                                  expected_ppm=ppm_lo + ppm_hi, expected_ppm_below=ppm_lo,
-                                  expected_ppm_above=ppm_hi, model="normal", note=None)
+            # by position, in the fields' order: n, below, above, expected_ppm (its below
+            # and above), model, note
+            out[i] = BeyondLimits(int(samples[i].size), nb if lo[r] is not None else 0,
+                                  na if hi[r] is not None else 0, ppm_lo + ppm_hi, ppm_lo,
+                                  ppm_hi, "normal", None)
     return out

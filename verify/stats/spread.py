@@ -166,9 +166,16 @@ def f_test(
     >>> r.statistic, r.estimate
     (4.0, 2.0)
     """
-    n_old, _, sd_old = mean_sd(finite_values(old, "old values"))
-    n_new, _, sd_new = mean_sd(finite_values(new, "new values"))
+    n_old, _, sd_old = _summary(old, "old values")
+    n_new, _, sd_new = _summary(new, "new values")
     return f_test_from_stats(n_old, sd_old, n_new, sd_new, alternative=alternative)
+
+
+def _summary(x: ArrayLike, what: str) -> tuple[int, float, float]:
+    """``mean_sd(finite_values(x, what))``; a sample whose summary is remembered is finite
+    (a summary is remembered only once computed), so that summary is read at once."""
+    hit = _memo.recall("mean_sd", x)
+    return hit if hit is not None else mean_sd(finite_values(x, what))
 
 
 # --- Brown-Forsythe -------------------------------------------------------------------------
