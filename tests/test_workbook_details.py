@@ -56,6 +56,17 @@ def test_compact_workbook_has_a_row_per_check_and_no_characteristic_sheets(tmp_p
                 assert got == pytest.approx(want, rel=1e-15)  # stored at full precision
     flagged = [(c.name, d) for c in ev.characteristics for d in c.diagnostics if d.flag]
     assert len([r for r in rows if str(r[2]).startswith("diagnostic")]) == len(flagged)
+    # the CI level, p-value and power read as on the characteristic sheets (95%, < 0.0001,
+    # 87.3%), not as bare fractions
+    from verify.report.cells import LEVEL_FORMAT, P_FORMAT, POWER_FORMAT
+
+    ws = wb[DETAILS_SHEET]
+    shown = {(c.column_letter, c.number_format)
+             for row in ws.iter_rows(min_row=HEADER_ROW + 1, min_col=9, max_col=13)
+             for c in row if isinstance(c.value, float)}
+    assert {("I", LEVEL_FORMAT), ("J", P_FORMAT), ("M", POWER_FORMAT)} <= shown
+    assert {f for col, f in shown if col in "KL"} == {"General"}  # margins in their own units
+    assert (LEVEL_FORMAT, POWER_FORMAT) == ("0%", "0.0%")
     # the decision page links each characteristic to the Details sheet
     links = [c.hyperlink.location for row in wb.worksheets[0].iter_rows() for c in row
              if c.hyperlink is not None and c.value in names]
@@ -134,7 +145,6 @@ def test_streamed_rows_equal_the_general_route_for_every_kind_of_value(monkeypat
     import numpy as np
 
     from verify.report import details_sheet
-    from verify.report.cells import P_FORMAT
     from verify.report.styles import StyleBook
 
     odd = ["a < b & c", "", "  padded ", float("nan"), float("inf"), -float("inf"), 2.5, 3.0,
@@ -148,8 +158,7 @@ def test_streamed_rows_equal_the_general_route_for_every_kind_of_value(monkeypat
     sheet = details_sheet.details_placeholder(wb.active, make_evaluation("welch"), styles)
     n = len(details_sheet.COLUMNS)
     text_styles = [styles.top(wrap=j in details_sheet.WRAPPED) for j in range(n)]
-    number_styles = [styles.top(fmt=P_FORMAT if j == details_sheet.P_VALUE else None)
-                     for j in range(n)]
+    number_styles = [styles.top(fmt=details_sheet.FORMATS.get(j)) for j in range(n)]
     heights = _fit_rows_heights(rows)
     assert len(heights) >= 4  # the long and the multi-line texts make rows taller
     assert "".join(sheet.rows()) == _general_cells(rows, text_styles, number_styles, heights)

@@ -72,6 +72,7 @@ P_FORMAT = '[<0.0001]"< 0.0001";0.0000'
 STAT_FORMAT = "0.000"
 DF_FORMAT = "0.0#"
 POWER_FORMAT = "0.0%"
+LEVEL_FORMAT = "0%"  # a confidence level: 95%
 INT_FORMAT = "0"
 RATIO_FORMAT = "0.000"
 CPK_FORMAT = "0.00"

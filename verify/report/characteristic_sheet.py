@@ -19,6 +19,7 @@ from .cells import (
     DIAGNOSTIC_HEADERS,
     INK,
     INT_FORMAT,
+    LEVEL_FORMAT,
     NOTE_FONT,
     P_FORMAT,
     POWER_FORMAT,
@@ -97,7 +98,7 @@ def _rows_for_checks(checks, fmts):
         *_kind_rows(checks),
         ("Interval: low", lambda r: r.ci_low, est),
         ("Interval: high", lambda r: r.ci_high, est),
-        ("Interval: confidence", lambda r: r.ci_level, "0%"),
+        ("Interval: confidence", lambda r: r.ci_level, LEVEL_FORMAT),
         ("Critical value", lambda r: r.critical_value, crit),
         # only the margin ends that exist: a one-sided check tests its harmful side alone
         (

@@ -23,7 +23,9 @@ from openpyxl.utils import get_column_letter
 
 from ..model import Evaluation
 from .cells import (
+    LEVEL_FORMAT,
     P_FORMAT,
+    POWER_FORMAT,
     ROW_HEIGHT_MAX,
     fit_rows,
     header_row,
@@ -49,11 +51,14 @@ DETAIL_MODES = ("auto", "full", "compact")
 COLUMNS = (
     ("Characteristic", 15), ("Decision", 9), ("Row", 12), ("Method", 20), ("Outcome", 9),
     ("Estimate", 9), ("CI low", 9), ("CI high", 9), ("CI level", 6), ("p-value", 8),
-    ("Margin low", 9), ("Margin high", 9), ("Power", 6), ("Planned n", 8), ("n new", 5),
-    ("n old", 5), ("Reason or note", 36),
+    ("Margin low", 9), ("Margin high", 9), ("Power", 8), ("Planned n", 8), ("n new", 5),
+    ("n old", 5), ("Reason or note", 34),
 )
 WRAPPED = frozenset({0, 2, 3, 16})  # 0-based columns whose text wraps
 P_VALUE = 9  # 0-based: the p-value column, in the p-value format of the other sheets
+#: 0-based columns with a number format, the one the characteristic sheets give the same figure
+#: (the others show their numbers in the general format)
+FORMATS = {8: LEVEL_FORMAT, P_VALUE: P_FORMAT, 12: POWER_FORMAT}
 #: Printed on every page: the identifying columns (where a program's wider font makes the sheet
 #: run onto a second page across, that page still names its rows) and the header row.
 TITLE_COLUMNS = "A:C"
@@ -98,14 +103,14 @@ def details_placeholder(ws, ev: Evaluation, styles) -> StreamedSheet:
                footer="a row per check and per flagged diagnostic", margins=MARGINS)
     # every cell reads from the top (a tall row's numbers beside its wrapped reason)
     text, wrapped = styles.top(), styles.top(wrap=True)
-    number, p_value = styles.top(), styles.top(fmt=P_FORMAT)
+    number_styles = [styles.top(fmt=FORMATS.get(j)) for j in range(len(COLUMNS))]
     rows = list(_rows(ev))
     last = HEADER_ROW + len(rows)
     float_cols = {5, 6, 7, 8, 9, 10, 11, 12}  # 0-based columns holding floats
 
     letters = [get_column_letter(j + 1) for j in range(len(COLUMNS))]
     text_styles = [wrapped if j in WRAPPED else text for j in range(len(COLUMNS))]
-    number_attrs = [f' s="{p_value if j == P_VALUE else number}"' for j in range(len(COLUMNS))]
+    number_attrs = [f' s="{st}"' for st in number_styles]
     widths = [w for _h, w in COLUMNS]
     # (column, characters on one line): a shorter text without a line break takes one line
     wrapped_rooms = [(j, widths[j] * 1.05) for j in sorted(WRAPPED)]
@@ -139,10 +144,9 @@ def details_placeholder(ws, ev: Evaluation, styles) -> StreamedSheet:
             return text_cell(ref, infinity_text(v), text_styles[j])
         if isinstance(v, bool) or not isinstance(v, numbers.Real):
             return text_cell(ref, str(v), text_styles[j])
-        style = p_value if j == P_VALUE else number
         if j in float_cols:
-            return number_cell(ref, float(v), style)
-        return number_cell(ref, int(v), style)
+            return number_cell(ref, float(v), number_styles[j])
+        return number_cell(ref, int(v), number_styles[j])
 
     def chunks() -> Iterator[str]:
         buf = []
