@@ -517,6 +517,9 @@ def test_digest_workbook_has_a_row_per_spec_and_keeps_text_as_text(tmp_path):
     assert first["New lot ids"].data_type == "s"  # text, never a formula
     second = {h: c.value for h, c in zip(header, ws[6], strict=True)}
     assert second["State"] == "ERROR" and second["Error"] == "housing.csv, row 3: bad"
+    # the header row is as tall as its wrapped labels ("Previous decision" in 11 characters
+    # takes two lines): spreadsheet programs do not grow rows on opening a file
+    assert ws.row_dimensions[4].height == 2 * 14.5 + 2
 
 
 def test_summary_lines_say_what_changed():

@@ -159,7 +159,7 @@ def write_digest(path: Path, rows: Sequence[DigestRow], *, run: Sequence[tuple[s
     ws = wb.active
     ws.title = "Digest"
 
-    from .report.cells import clean_text
+    from .report.cells import clean_text, fit_rows
 
     stamps = _Stamps()
 
@@ -201,6 +201,9 @@ def write_digest(path: Path, rows: Sequence[DigestRow], *, run: Sequence[tuple[s
             ws.cell(row=i, column=drift_col).fill = PatternFill("solid", fgColor=_FILL["HOLD"])
     for c, w in enumerate(_WIDTHS, start=1):
         ws.column_dimensions[ws.cell(row=header_row, column=c).column_letter].width = w
+    # rows as tall as their wrapped text (the header's "Previous decision" takes two lines):
+    # spreadsheet programs do not grow them on opening the file
+    fit_rows(ws)
     last = header_row + max(len(rows), 1)
     ws.auto_filter.ref = f"A{header_row}:{ws.cell(row=last, column=len(_HEADERS)).coordinate}"
     ws.freeze_panes = ws.cell(row=header_row + 1, column=2)
