@@ -283,6 +283,12 @@ def test_json_and_workbook(tmp_path):
              if isinstance(v, str)]
     assert "Counts by lot" in texts and "The rules in words" in texts
     assert wb["leak"]._charts, "the interval chart is drawn"
+    # the spec rows' labels fit their column (a longer one is cut off by the value beside it)
+    ws = wb["leak"]
+    labels = [r[0].value for r in ws.iter_rows(max_col=2)
+              if isinstance(r[0].value, str) and r[0].font.b and r[1].value is not None]
+    assert "Largest allowed increase (margin)" in labels
+    assert max(map(len, labels)) <= ws.column_dimensions["A"].width
     assert any("Rate (pass-fail)" in t for t in texts)
     # the decision page has a column per check kind: the rate cell shows its upper bound
     # against the maximum, the rate change cell its interval against the margin

@@ -48,7 +48,9 @@ from .summary import decision_style, put_decision_badge
 RATE_FORMAT = "0.00%"
 LAST_COL = 9
 MAX_LOT_ROWS = 200  # lots listed per process; every one is on the measurements sheet
-WIDTHS = (30, 16, 14, 14, 14, 14, 14, 14, 40)
+#: Column widths; the first holds the spec rows' labels, the longest "Largest allowed increase
+#: (margin)" (33 characters in bold)
+WIDTHS = (35, 16, 14, 14, 14, 14, 14, 14, 40)
 PALETTE = ("245E7A", "7A4E9C")
 LIMIT_COLOUR = "A3392B"
 
