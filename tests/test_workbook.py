@@ -339,6 +339,13 @@ def test_characteristic_sheet_content_and_charts(all_book):
         old.n_parts,
     ]
     assert len(ws._charts) == 3  # production order, histogram, interval against margins
+    # the lots as variance components: a note line per process (both on one line ran past the
+    # printed page), each with the process's own within- and between-lot sds
+    notes = [t for t in text.splitlines() if t.startswith("Lots as variance")]
+    assert [n.split(" (")[0] for n in notes] == [
+        f"Lots as variance components, {k}" for k in ("old", "new")]
+    assert (f"sd within lots {old.sd_within_lot:.4g}" if old.sd_within_lot is not None
+            else "not estimable") in notes[0]
 
 
 def test_one_sample_characteristic_has_no_old_process(all_book):

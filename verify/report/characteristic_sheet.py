@@ -346,20 +346,19 @@ def write_characteristic(ws, ev: Evaluation, c: CharacteristicResult, decimals: 
             font=NOTE_FONT,
         )
         row += 1
-    components = []
+    # a line per process: both on one line ran past the printed page
     for key in ("old", "new"):
         p = c.processes.get(key)
         if p is None:
             continue
         if p.sd_within_lot is None:
-            components.append(f"{key}: not estimable (needs 2 lots of 2 or more parts)")
+            words = "not estimable (needs 2 lots of 2 or more parts)"
         else:
             zero = " (negative estimate set to 0)" if p.between_lot_set_to_zero else ""
-            components.append(f"{key}: sd within lots {p.sd_within_lot:.4g}, between lots "
-                              f"{p.sd_between_lot:.4g}{zero}")
-    if components:
-        put(ws, row, 1, "Lots as variance components (one-way random-effects ANOVA, method of "
-            "moments): " + "; ".join(components), font=NOTE_FONT)
+            words = (f"sd within lots {p.sd_within_lot:.4g}, between lots "
+                     f"{p.sd_between_lot:.4g}{zero}")
+        put(ws, row, 1, f"Lots as variance components, {key} (one-way random-effects ANOVA, "
+            f"method of moments): {words}", font=NOTE_FONT)
         row += 1
     if c.pairs is not None:
         put(ws, row, 1, f"Matched pairs: {c.pairs}", font=NOTE_FONT)
