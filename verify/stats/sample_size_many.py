@@ -130,12 +130,13 @@ class _Table:
 def _guesses(setups: list[_TostSize], table: _Table | None = None) -> list[int | None]:
     """:meth:`_TostSize.guess` of every setup: the smallest n_new whose approximate power
     (:meth:`_TostSize.approx_at`) reaches the target. The approximate powers in a window around
-    each setup's normal-theory start (:data:`GUESS_WINDOW`, :func:`_starts`) are computed
-    together first; a setup whose window holds a size reaching the target just above one
-    falling short (or at the smallest size, 2) takes it, the others search by doubling and
-    bisection (:func:`_bisections`). Where the approximation rises with n, as it does wherever
-    the tests have looked, both give the same size (tests hold them together); the guess only
-    sets where the walks with the exact power start, and their answers do not depend on it."""
+    each setup's normal-theory start (:data:`~verify.stats.sample_size.GUESS_WINDOW`,
+    :func:`~verify.stats.sample_size._normal_starts`) are computed together first; a setup
+    whose window holds a size reaching the target just above one falling short (or at the
+    smallest size, 2) takes it, the others search by doubling and bisection
+    (:func:`_bisections`). Where the approximation rises with n, as it does wherever the tests
+    have looked, both give the same size (tests hold them together); the guess only sets where
+    the walks with the exact power start, and their answers do not depend on it."""
     table = _Table(setups) if table is None else table  # (the caller's, of these setups)
     out: list[int | None] = [None] * len(setups)
     if not setups:
