@@ -522,6 +522,26 @@ def test_digest_workbook_has_a_row_per_spec_and_keeps_text_as_text(tmp_path):
     assert ws.row_dimensions[4].height == 2 * 14.5 + 2
 
 
+def test_digest_rows_stay_within_the_tallest_row(tmp_path):
+    """An error message of hundreds of lines (a traceback-like text from a failed spec) keeps
+    its whole text, in rows no taller than the 409 points a worksheet row can have (Excel
+    refuses a taller one), on both sheets."""
+    from openpyxl import load_workbook
+
+    from verify.report.cells import ROW_HEIGHT_MAX
+
+    error = "\n".join(f"line {i}: the data file could not be read" for i in range(300))
+    path = tmp_path / "digest.xlsx"
+    write_digest(path, [DigestRow("housing", "specs/housing.yaml", "ERROR", error=error)],
+                 run=[("run", "r2"), ("started", "s"), ("finished", "f")])
+    wb = load_workbook(path)
+    for ws in (wb["Digest"], wb["By spec"]):
+        heights = [d.height for d in ws.row_dimensions.values() if d.height is not None]
+        assert heights and max(heights) == ROW_HEIGHT_MAX
+    by_spec = [c.value for row in wb["By spec"].iter_rows() for c in row]
+    assert error in by_spec
+
+
 def test_summary_lines_say_what_changed():
     row = DigestRow("housing", "s", "RUN", decision="PASS", previous_decision="PENDING",
                     standing="RECORD", new_lots=("N3", "N4"))

@@ -280,7 +280,7 @@ def _by_spec(ws, rows: Sequence[DigestRow]) -> None:
     from openpyxl.styles import Alignment
 
     from .report.cell_styles import shared_font
-    from .report.cells import SECTION_FONT, page_setup
+    from .report.cells import ROW_HEIGHT_MAX, SECTION_FONT, page_setup
     from .report.paper import keep_sections
 
     ws.column_dimensions["A"].width = 22
@@ -302,7 +302,7 @@ def _by_spec(ws, rows: Sequence[DigestRow]) -> None:
                 cell.data_type = "s"  # text from input files is never a formula
             stamps.apply(cell, "value", value_style)
             lines = sum(max(1, -(-len(part) // 90)) for part in str(v).split("\n"))
-            ws.row_dimensions[r].height = 15 * lines
+            ws.row_dimensions[r].height = min(ROW_HEIGHT_MAX, 15 * lines)
             r += 1
         r += 1
     last = max(1, r - 2)

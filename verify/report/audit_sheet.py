@@ -15,6 +15,7 @@ from .cells import (
     INK,
     INT_FORMAT,
     NOTE_FONT,
+    ROW_HEIGHT_MAX,
     TITLE_FONT,
     WRAP,
     fit_rows,
@@ -243,7 +244,7 @@ def write_audit(ws, ev: Evaluation) -> None:
         put(ws, row, 1, f"Rule {i}", font=_LABEL)
         put(ws, row, 2, rule, align=WRAP)
         merge(ws, row, 2, row, 8)
-        ws.row_dimensions[row].height = 15 * max(1, -(-len(rule) // 150))
+        ws.row_dimensions[row].height = min(ROW_HEIGHT_MAX, 15 * max(1, -(-len(rule) // 150)))
         row += 1
     last = row - 1
     fit_rows(ws)
