@@ -87,15 +87,24 @@ def test_two_sample_effect_is_for_two_samples_only():
         ttests.two_sample_effect("paired", 3, 1.0, 1.0, 3, 1.0, 1.0)
 
 
+def _checked_margins(low, high):
+    """check_margins' checks, every one made: each margin a finite number, low < high."""
+    from verify.stats._checks import finite
+
+    lo, hi = finite(low, "low"), finite(high, "high")
+    if not lo < hi:
+        raise ValueError(f"the equivalence margins must satisfy low < high, got ({lo}, {hi})")
+    return lo, hi
+
+
 def _plain_tost(estimate, se, df, *, low, high, method="TOST"):
-    """tost_from_estimate's earlier route: the margins through check_margins, the result
+    """tost_from_estimate's earlier route: the margins through every check, the result
     built by keyword."""
-    from verify.stats._checks import check_margins
     from verify.stats.core import check_se_df, t_cdf, t_sf
 
     est = equivalence._estimate(estimate)
     check_se_df(se, df)
-    lo, hi = check_margins(low, high)
+    lo, hi = _checked_margins(low, high)
     t_lo = (est - lo) / se
     t_hi = (est - hi) / se
     p_lo = t_sf(t_lo, df)
@@ -115,8 +124,8 @@ def _plain_tost(estimate, se, df, *, low, high, method="TOST"):
     (np.float64(0.004), np.float64(0.0021), np.float64(44.9))])
 def test_tost_from_estimate_equals_its_plain_route(estimate, se, df, low, high):
     """The finite float margins skip check_margins' calls (they would return them as they
-    are); any other margins still go through it: the result, or the error, is the plain
-    route's."""
+    are); any other margins still go through them: the result, or the error, is the plain
+    route's. (check_margins itself against its checks: the next test.)"""
     try:
         want = _plain_tost(estimate, se, df, low=low, high=high, method="TOST (x)")
     except (ValueError, DegenerateDataError) as err:
@@ -126,6 +135,25 @@ def test_tost_from_estimate_equals_its_plain_route(estimate, se, df, low, high):
         return
     got = equivalence.tost_from_estimate(estimate, se, df, low=low, high=high, method="TOST (x)")
     assert _bits(got) == _bits(want)
+
+
+@pytest.mark.parametrize("low, high", [
+    (-0.02, 0.02), (-0.5, 1.5), (0.1, 0.3), (-1, 1), (np.float64(-0.02), np.float64(0.02)),
+    (-0.0, 0.02), (0.02, -0.02), (0.02, 0.02), (float("nan"), 0.02), (-0.02, float("inf")),
+    (-float("inf"), 0.02), ("-0.02", "0.02"), (None, 0.02), (True, 2.0)])
+def test_check_margins_equals_its_checks(low, high):
+    """Finite float margins in order are returned as they are, without the calls; any others
+    go through every check: the same margins (types and signs included), or the same error."""
+    from verify.stats._checks import check_margins
+
+    try:
+        want = _checked_margins(low, high)
+    except ValueError as err:
+        with pytest.raises(ValueError, match=re.escape(str(err))):
+            check_margins(low, high)
+        return
+    got = check_margins(low, high)
+    assert repr(got) == repr(want) and [type(v) for v in got] == [type(v) for v in want]
 
 
 def _lot_samples():

@@ -165,41 +165,21 @@ def replaced(obj, **changes):
     return new
 
 
-_DIAGNOSTIC_FIELDS = ("name", "method", "group", "flag", "note", "statistic", "p_value", "extra")
-_DIAGNOSTIC_CLASS: list = []  # [DiagnosticResult, whether diagnostic() may fill it directly]
+_DIAGNOSTIC_CLASS: list = []  # [verify.model.DiagnosticResult], looked up on first use
 
 
 def diagnostic(name: str, method: str, group: str, flag: bool, note: str,
                statistic: float | None = None, p_value: float | None = None,
                extra: dict | None = None):
-    """``DiagnosticResult(name, method, group, flag, note, statistic, p_value, extra)``
-    without the frozen dataclass's ``__init__`` (one ``object.__setattr__`` per field; an
-    evaluation builds thousands): the same values, in the same field order, as the new
-    instance's ``__dict__``. ``extra`` None is a new empty dict, the field's
-    default. Should the class's fields differ from these, or the class validate
-    (``__post_init__``) or use slots, the class itself is called."""
+    """``DiagnosticResult(name, method, group, flag, note, statistic, p_value, extra)``, with
+    ``extra`` None a new empty dict, the field's default (the class fills its fields in one
+    step: :func:`verify.stats._frozen.fast_init`)."""
     if not _DIAGNOSTIC_CLASS:
-        from dataclasses import fields
-
         from ..model import DiagnosticResult
 
-        direct = (tuple(f.name for f in fields(DiagnosticResult)) == _DIAGNOSTIC_FIELDS
-                  and not hasattr(DiagnosticResult, "__post_init__")
-                  and not hasattr(DiagnosticResult, "__slots__"))
-        _DIAGNOSTIC_CLASS[:] = [DiagnosticResult, direct]
-    cls, direct = _DIAGNOSTIC_CLASS
-    if not direct:
-        return cls(name, method, group, flag, note, statistic=statistic, p_value=p_value,
-                   **({} if extra is None else {"extra": extra}))
-    new = _new(cls)
-    _set(new, "__dict__", {"name": name, "method": method, "group": group, "flag": flag,
-                           "note": note, "statistic": statistic, "p_value": p_value,
-                           "extra": {} if extra is None else extra})
-    return new
-
-
-_new = object.__new__
-_set = object.__setattr__  # (the frozen class's own __setattr__ refuses)
+        _DIAGNOSTIC_CLASS[:] = [DiagnosticResult]
+    return _DIAGNOSTIC_CLASS[0](name, method, group, flag, note, statistic, p_value,
+                                {} if extra is None else extra)
 
 
 def not_applicable(name: str, method: str, group: str, err: object):

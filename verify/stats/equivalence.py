@@ -112,11 +112,7 @@ def tost_from_estimate(
     """
     est = _estimate(estimate)
     check_se_df(se, df)
-    if (type(low) is float and type(high) is float and low < high
-            and math.isfinite(low) and math.isfinite(high)):
-        lo, hi = low, high  # (what check_margins returns for such margins, without the calls)
-    else:
-        lo, hi = check_margins(low, high)
+    lo, hi = check_margins(low, high)
     t_lo = (est - lo) / se
     t_hi = (est - hi) / se
     p_lo = t_sf(t_lo, df)  # H0: effect <= low, rejected for large t

@@ -101,7 +101,7 @@ def draft(kind, inp: CheckInput) -> Draft:
     spec, ch = inp.spec, inp.ch
     alpha = spec.alpha
     conf = inp.config(kind.name)
-    if kind.name == "target":  # (_one_sample)
+    if _one_sample(kind):
         design = "one-sample"
         subject = f"the new-process mean of {ch.name} minus its target {fmt_often(ch.target)}"
         noun = "departure"
@@ -198,8 +198,7 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
                            statistic_lower=r.statistic_lower,
                            statistic_upper=r.statistic_upper)
         statistic = r.statistic_lower if r.p_lower >= r.p_upper else r.statistic_upper
-        words = margin_words(low, high, unit)
-        hyp = f"{subject} lies inside {words}"
+        hyp = f"{subject} lies inside {margin_words(low, high, unit)}"
         alternative = "equivalence"
         # the power and planned n are computed for all characteristics together
         # (complete_batch)
@@ -208,7 +207,6 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
                  "high": high, "power": spec.plan.power, "ratio": ratio}
         pw = size = None
     else:
-        words = None
         harmful, bound = test.harmful, test.bound
         r = equivalence.noninferiority_from_estimate(
             e.estimate, e.standard_error, e.df, bound=bound, harmful=harmful,
@@ -229,7 +227,7 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
                     ratio=ratio, **sds)
     rule = margin_rule(kind)
     verdict = rule.decide(pvalue=pval, alpha=alpha, low=low, high=high,
-                          ci=(ci.low, ci.high), unit=unit, side=ch.side, margin_text=words)
+                          ci=(ci.low, ci.high), unit=unit, side=ch.side)
     res = CheckResult(
         check=kind.name, method=r.method, hypothesis=hyp, alternative=alternative,
         margin=(low, high), outcome=verdict.outcome, reason=verdict.reason,

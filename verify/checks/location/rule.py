@@ -29,17 +29,14 @@ class MarginRule:
         )
 
     def decide(self, *, pvalue: float, alpha: float, low: float, high: float,
-               ci: tuple[float, float], unit: str, side: str,
-               margin_text: str | None = None) -> Verdict:
-        """``margin_text``: ``margin_words(low, high, unit)`` where the caller has it already."""
+               ci: tuple[float, float], unit: str, side: str) -> Verdict:
         level = fmt_percent(1 - 2 * alpha)  # fmt(100 * (1 - 2 * alpha))
         ref = "target" if self.check == "target" else "the old process"
         lo, hi = fmt_like(ci[0], ci[1])
         detail = f"({level}% interval {lo}..{hi}, {p_eq(pvalue)})"
         u = f" {unit}" if unit else ""
         if side == "two-sided":
-            words = margin_words(low, high, unit) if margin_text is None else margin_text
-            claim = f"within {words} of {ref}"
+            claim = f"within {margin_words(low, high, unit)} of {ref}"
         elif side == "lower":
             claim = f"at most {fmt(-low)}{u} below {ref}"
         else:
