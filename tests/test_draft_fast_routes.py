@@ -255,3 +255,90 @@ def test_f_test_reads_a_remembered_summary_as_the_plain_route_computes_it(frozen
         return
     assert _bits(spread.f_test(old, new, alternative="greater")) == _bits(want)
     _memo.forget()
+
+
+_T_CASES = [(-2.0, 1.5, 29.0), (0.0, -0.0, 57.3), (-40.0, 40.0, 3.0), (1e-300, -1e300, 1.0),
+            (-1.25, 0.75, float("inf")), (-0.4, 8.0, 1e6), (np.float64(-0.3), 2.2, 44.9),
+            (-2.0, 1.5, 29), (float("nan"), 1.0, 10.0), (3.0, -3.0, 0.5)]
+
+
+@pytest.mark.parametrize("t1, t2, df", _T_CASES)
+def test_t_cdf_pair_equals_two_t_cdf_calls(t1, t2, df):
+    """A TOST's two tails from one special-function call are the floats of the two scalar
+    calls (the ufunc runs its scalar kernel on each element)."""
+    from verify.stats.core import t_cdf, t_cdf_pair
+
+    got = t_cdf_pair(t1, t2, df)
+    want = (t_cdf(t1, df), t_cdf(t2, df))
+    assert [type(v) for v in got] == [float, float]
+    assert [v.hex() for v in got] == [v.hex() for v in want]
+
+
+@pytest.mark.parametrize("estimate, se, df", [
+    (0.001, 0.002, 57.3), (-0.3, 0.2, 20.0), (0.0, 1e-9, 29.0), (5.0, 0.5, float("inf")),
+    (np.float64(0.004), np.float64(0.0021), np.float64(44.9))])
+@pytest.mark.parametrize("level", [0.9, 1 - 2 * 0.05, 1 - 2 * 0.01, 0.5, 0.999])
+def test_two_sided_interval_equals_confidence_interval(estimate, se, df, level):
+    """The location draft's interval without the level's and the alternative's checks is the
+    two-sided confidence_interval; its critical value t_quantile(1 - alpha, df) is
+    critical_value(df, alpha, "greater")."""
+    from verify.stats.core import (
+        confidence_interval,
+        critical_value,
+        t_quantile,
+        two_sided_interval,
+    )
+
+    got = two_sided_interval(estimate, se, df, level)
+    want = confidence_interval(estimate, se, df, level=level)
+    assert _bits(got) == _bits(want)
+    alpha = (1 - level) / 2
+    assert t_quantile(1.0 - alpha, df).hex() == critical_value(df, alpha, "greater").hex()
+
+
+@pytest.mark.parametrize("check", ["target", "shift"])
+@pytest.mark.parametrize("side, low, high, unit", [
+    ("two-sided", -0.02, 0.02, "mm"), ("two-sided", -0.01, 0.03, ""), ("lower", -0.5, 1e300, "g"),
+    ("upper", -1e300, 0.25, "mm"), ("two-sided", -1, 1, "mm"), ("lower", -0.0, 2.0, ""),
+    ("two-sided", np.float64(-0.02), np.float64(0.02), "mm")])
+def test_margin_rule_claim_remembered_is_its_words(check, side, low, high, unit):
+    """The margin rule remembers its claim by (side, low, high, unit): asked twice, and
+    after a different claim, it is the text _claim_words makes (the rule's earlier inline
+    wording, kept there)."""
+    from verify.checks.location import rule
+
+    r = rule.MarginRule(check)
+    want = rule._claim_words(check, side, low, high, unit)
+    assert r._claim(side, low, high, unit) == want
+    r._claim("two-sided", -7.0, 7.0, "um")
+    assert r._claim(side, low, high, unit) == want
+    for ci in ((low / 2, high / 2), (high + 1.0, high + 2.0), (low - 2.0, low - 1.0)):
+        for p in (0.001, 0.5):
+            got = r.decide(pvalue=p, alpha=0.05, low=low, high=high, ci=ci, unit=unit,
+                           side=side)
+            assert got == _plain_margin_decide(check, p, 0.05, low, high, ci, unit, side)
+
+
+def _plain_margin_decide(check, pvalue, alpha, low, high, ci, unit, side):
+    """MarginRule.decide's earlier route: the claim worded on every call."""
+    from verify.checks.location.rule import MarginRule
+    from verify.decide import Verdict, fmt, fmt_like, fmt_percent, margin_words, p_eq
+
+    level = fmt_percent(1 - 2 * alpha)
+    ref = "target" if check == "target" else "the old process"
+    lo, hi = fmt_like(ci[0], ci[1])
+    detail = f"({level}% interval {lo}..{hi}, {p_eq(pvalue)})"
+    u = f" {unit}" if unit else ""
+    if side == "two-sided":
+        claim = f"within {margin_words(low, high, unit)} of {ref}"
+    elif side == "lower":
+        claim = f"at most {fmt(-low)}{u} below {ref}"
+    else:
+        claim = f"at most {fmt(high)}{u} above {ref}"
+    if pvalue < alpha:
+        return Verdict("PASS", f"shown {claim} {detail}")
+    beyond = ("; the whole interval lies beyond the margin"
+              if MarginRule.harm_shown(ci=ci, low=low, high=high, side=side) else "")
+    if side == "two-sided":
+        return Verdict("HOLD", f"not shown {claim} {detail}{beyond}")
+    return Verdict("HOLD", f"not shown to be {claim} {detail}{beyond}")

@@ -52,6 +52,17 @@ def t_sf(t: float, df: float) -> float:
     return t_cdf(-t, df)
 
 
+def t_cdf_pair(t1: float, t2: float, df: float) -> tuple[float, float]:
+    """``(t_cdf(t1, df), t_cdf(t2, df))`` from one call of the special function on both
+    (a TOST's two tails): the ufunc applies its scalar kernel to each element, so the floats
+    are those of the two calls, at about the cost of one."""
+    if math.isinf(df):
+        p1, p2 = special.ndtr((t1, t2)).tolist()
+    else:
+        p1, p2 = special.stdtr(df, (t1, t2)).tolist()
+    return p1, p2
+
+
 @lru_cache(maxsize=1024)
 def t_quantile(p: float, df: float) -> float:
     """The p-quantile of Student's t (remembered: the characteristics of a layout ask for the
@@ -137,6 +148,13 @@ def confidence_interval(
     if alternative == "less":
         return Interval(-math.inf, estimate + q, level)
     return Interval(estimate - q, math.inf, level)
+
+
+def two_sided_interval(estimate: float, se: float, df: float, level: float) -> Interval:
+    """``confidence_interval(estimate, se, df, level=level)`` (two-sided) for a level its
+    caller knows lies in (0, 1), without checking it again: the same arithmetic."""
+    half = t_quantile(0.5 + level / 2.0, df) * se
+    return Interval(estimate - half, estimate + half, level)
 
 
 def check_se_df(se: float, df: float) -> None:

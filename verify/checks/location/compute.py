@@ -14,11 +14,11 @@ from ...decide import fmt, fmt_often, margin_words, p_eq
 from ...model import CheckResult, DiagnosticResult
 from ...stats import equivalence, nonparametric, power, ttests
 from ...stats.core import (
-    confidence_interval,
-    critical_value,
     mean_sd,
     require_spread,
+    t_quantile,
     t_test_from_estimate,
+    two_sided_interval,
 )
 from ...stats.errors import DegenerateDataError
 from ..drafting import (
@@ -186,7 +186,9 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
     n_new, n_old = e.n_new, e.n_old
     low, high = test.low, test.high
     level = 1 - 2 * alpha
-    ci = confidence_interval(e.estimate, e.standard_error, e.df, level=level)
+    # confidence_interval(e.estimate, e.standard_error, e.df, level=level) without its checks
+    # of the level (0 < 1 - 2 alpha < 1 for the spec's alpha in (0, 0.5)) and the alternative
+    ci = two_sided_interval(e.estimate, e.standard_error, e.df, level)
     true_shift = spec.plan.true_shift
     batch = None
     if test.kind == EQUIVALENCE:
@@ -194,9 +196,8 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
             e.estimate, e.standard_error, e.df, low=low, high=high,
             method=f"TOST ({e.method})")
         pval = r.pvalue
-        tost_fields = dict(p_lower=r.p_lower, p_upper=r.p_upper,
-                           statistic_lower=r.statistic_lower,
-                           statistic_upper=r.statistic_upper)
+        # LocationDetails' (p_lower, p_upper, statistic_lower, statistic_upper), by position
+        tost_fields = (r.p_lower, r.p_upper, r.statistic_lower, r.statistic_upper)
         statistic = r.statistic_lower if r.p_lower >= r.p_upper else r.statistic_upper
         hyp = f"{subject} lies inside {margin_words(low, high, unit)}"
         alternative = "equivalence"
@@ -214,10 +215,10 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
         pval = r.pvalue
         statistic = r.statistic
         if harmful == "lower":
-            tost_fields = dict(p_lower=r.pvalue, statistic_lower=r.statistic)
+            tost_fields = (r.pvalue, None, r.statistic, None)
             hyp = f"{subject} is no lower than {fmt(bound)} {unit}".rstrip()
         else:
-            tost_fields = dict(p_upper=r.pvalue, statistic_upper=r.statistic)
+            tost_fields = (None, r.pvalue, None, r.statistic)
             hyp = f"{subject} is no higher than +{fmt(bound)} {unit}".rstrip()
         alternative = r.alternative
         pw = _try(power.power_noninferiority, true_shift, n_new=n_new, n_old=n_old,
@@ -226,21 +227,24 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
                     alpha=alpha, bound=bound, harmful=harmful, power=spec.plan.power,
                     ratio=ratio, **sds)
     rule = margin_rule(kind)
+    ci_pair = (ci.low, ci.high)
     verdict = rule.decide(pvalue=pval, alpha=alpha, low=low, high=high,
-                          ci=(ci.low, ci.high), unit=unit, side=ch.side)
+                          ci=ci_pair, unit=unit, side=ch.side)
     res = CheckResult(
         check=kind.name, method=r.method, hypothesis=hyp, alternative=alternative,
         margin=(low, high), outcome=verdict.outcome, reason=verdict.reason,
         statistic=statistic, p_value=pval, ci_low=ci.low, ci_high=ci.high, ci_level=level,
-        critical_value=critical_value(e.df, alpha, "greater"), power=finite(pw),
+        # critical_value(e.df, alpha, "greater") without its check of the alternative
+        critical_value=t_quantile(1.0 - alpha, e.df), power=finite(pw),
         power_note=(f"power of this test if the true {noun} is "
                     f"{fmt_often(true_shift)} and the sd is as observed"),
         planned_n=size.n_new if size is not None else None,
-        details=LocationDetails(n_new=n_new, n_old=n_old, sd=float(e.sd), **tost_fields),
+        details=LocationDetails(n_new, n_old, float(e.sd), *tost_fields),
         **common,
     )
-    harm = rule.harm_shown(ci=(ci.low, ci.high), low=low, high=high, side=ch.side)
-    return Draft(result=res, harm_shown=verdict.outcome == "HOLD" and harm, batch=batch)
+    harm = verdict.outcome == "HOLD" and rule.harm_shown(ci=ci_pair, low=low, high=high,
+                                                         side=ch.side)
+    return Draft(result=res, harm_shown=harm, batch=batch)
 
 
 def complete_batch(drafts: list[Draft]) -> None:

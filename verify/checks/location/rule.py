@@ -17,6 +17,7 @@ class MarginRule:
             "the new-process mean minus the target" if check == "target" else
             "the new-process mean minus the old-process mean"
         )
+        self._claims: dict[tuple, str] = {}  # _claim's texts
 
     def describe(self, alpha: float) -> str:
         what = "target" if self.check == "target" else "shift"
@@ -31,16 +32,9 @@ class MarginRule:
     def decide(self, *, pvalue: float, alpha: float, low: float, high: float,
                ci: tuple[float, float], unit: str, side: str) -> Verdict:
         level = fmt_percent(1 - 2 * alpha)  # fmt(100 * (1 - 2 * alpha))
-        ref = "target" if self.check == "target" else "the old process"
         lo, hi = fmt_like(ci[0], ci[1])
         detail = f"({level}% interval {lo}..{hi}, {p_eq(pvalue)})"
-        u = f" {unit}" if unit else ""
-        if side == "two-sided":
-            claim = f"within {margin_words(low, high, unit)} of {ref}"
-        elif side == "lower":
-            claim = f"at most {fmt(-low)}{u} below {ref}"
-        else:
-            claim = f"at most {fmt(high)}{u} above {ref}"
+        claim = self._claim(side, low, high, unit)
         if pvalue < alpha:
             return Verdict("PASS", f"shown {claim} {detail}")
         beyond = ("; the whole interval lies beyond the margin"
@@ -48,6 +42,20 @@ class MarginRule:
         if side == "two-sided":
             return Verdict("HOLD", f"not shown {claim} {detail}{beyond}")
         return Verdict("HOLD", f"not shown to be {claim} {detail}{beyond}")
+
+    def _claim(self, side: str, low: float, high: float, unit: str) -> str:
+        """What a PASS shows ("within ±0.02 mm of target"); remembered by its margin, side and
+        unit (the characteristics of a layout often share them; :func:`_claim_words` makes
+        the text; a margin of other than floats is not remembered, as margin_words does)."""
+        if type(low) is not float or type(high) is not float:
+            return _claim_words(self.check, side, low, high, unit)
+        key = (side, low, high, unit)
+        text = self._claims.get(key)
+        if text is None:
+            if len(self._claims) >= 256:
+                self._claims.clear()
+            text = self._claims[key] = _claim_words(self.check, side, low, high, unit)
+        return text
 
     @staticmethod
     def harm_shown(*, ci: tuple[float, float], low: float, high: float, side: str) -> bool:
@@ -58,6 +66,17 @@ class MarginRule:
         if side == "upper":
             return ci[0] > high
         return ci[1] < low or ci[0] > high
+
+
+def _claim_words(check: str, side: str, low: float, high: float, unit: str) -> str:
+    """The claim a margin rule's PASS makes, in words."""
+    ref = "target" if check == "target" else "the old process"
+    u = f" {unit}" if unit else ""
+    if side == "two-sided":
+        return f"within {margin_words(low, high, unit)} of {ref}"
+    if side == "lower":
+        return f"at most {fmt(-low)}{u} below {ref}"
+    return f"at most {fmt(high)}{u} above {ref}"
 
 
 class DifferenceRule:
