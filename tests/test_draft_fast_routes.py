@@ -342,3 +342,45 @@ def _plain_margin_decide(check, pvalue, alpha, low, high, ci, unit, side):
     if side == "two-sided":
         return Verdict("HOLD", f"not shown {claim} {detail}{beyond}")
     return Verdict("HOLD", f"not shown to be {claim} {detail}{beyond}")
+
+
+def _evaluate_demo_specs():
+    from pathlib import Path
+
+    from verify.data import load_measurements
+    from verify.evaluate import evaluate
+    from verify.spec import load_spec
+
+    out = []
+    for p in sorted((Path(__file__).resolve().parents[1] / "specs").glob("*.yaml")):
+        spec = load_spec(p)
+        out.append(evaluate(spec, load_measurements(spec)).characteristics)
+    return out
+
+
+def test_diagnostics_built_by_position_are_the_keyword_routes(monkeypatch):
+    """evaluate_diagnostics builds its diagnostics by position, ``extra`` an empty dict where
+    it has none: the demo specs' evaluations are those of the earlier route, each diagnostic
+    made by drafting.diagnostic with its statistic, p-value and extra by keyword (extra left
+    to its default where empty)."""
+    from verify import evaluate_diagnostics
+    from verify.checks.drafting import diagnostic
+    from verify.decide import p_eq
+
+    fast = _evaluate_demo_specs()
+    # each positional field in its place: a tested diagnostic's note states its own p-value
+    seen = 0
+    for chars in fast:
+        for c in chars:
+            for dg in c.diagnostics:
+                if dg.name in ("normality", "outliers", "lot effect") and dg.p_value is not None:
+                    assert p_eq(dg.p_value) in dg.note and isinstance(dg.extra, dict)
+                    seen += 1
+    assert seen > 20
+
+    def by_keyword(name, method, group, flag, note, statistic, p_value, extra):
+        return diagnostic(name, method, group, flag, note, statistic=statistic,
+                          p_value=p_value, extra=extra or None)
+
+    monkeypatch.setattr(evaluate_diagnostics, "_Diagnostic", by_keyword)
+    assert repr(_evaluate_demo_specs()) == repr(fast)

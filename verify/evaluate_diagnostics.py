@@ -10,12 +10,18 @@ import numpy as np
 from . import decide
 from .checks import kind
 from .checks.drafting import CANNOT_COMPUTE, diagnostic, finite, not_applicable
+from .decide import fmt, p_eq
 from .evaluate_gather import CharDraft
 from .model import DiagnosticResult
 from .spec_model import Characteristic, Spec
 from .stats import diagnostics as diag
 
 RUN_LENGTH_FLAG = 8  # common practice: eight points in a row on one side of the centre line
+
+# the diagnostics of every measured characteristic are built by position, ``extra`` given (an
+# empty dict where there is none, the field's default): what ``drafting.diagnostic`` makes,
+# without its call and keywords (about 16 a characteristic)
+_Diagnostic = DiagnosticResult
 
 
 def _lot_count_words(n_lots: int, n_values: int) -> str:
@@ -44,22 +50,21 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
         try:
             sw = diag.shapiro_wilk(x)
             flag = sw.pvalue < alpha
-            out.append(diagnostic(
+            out.append(_Diagnostic(
                 "normality", sw.method, group, flag,
-                (f"{group} values depart from a normal distribution ({decide.p_eq(sw.pvalue)})"
+                (f"{group} values depart from a normal distribution ({p_eq(sw.pvalue)})"
                  "; compare with the rank-test companion" if flag else
-                 f"no departure from normality detected ({decide.p_eq(sw.pvalue)})"),
-                statistic=sw.statistic, p_value=sw.pvalue))
+                 f"no departure from normality detected ({p_eq(sw.pvalue)})"),
+                sw.statistic, sw.pvalue, {}))
         except CANNOT_COMPUTE as err:
             out.append(not_applicable("normality", "Shapiro-Wilk", group, err))
         sw_applies = out[-1].p_value is not None
         try:
             ad = diag.anderson_darling(x)
             # a companion to Shapiro-Wilk: it flags only where Shapiro-Wilk does not apply
-            out.append(diagnostic(
+            out.append(_Diagnostic(
                 "normality", ad.method, group, ad.pvalue < alpha and not sw_applies,
-                f"Anderson-Darling {decide.p_eq(ad.pvalue)}",
-                statistic=ad.statistic, p_value=ad.pvalue))
+                f"Anderson-Darling {p_eq(ad.pvalue)}", ad.statistic, ad.pvalue, {}))
         except CANNOT_COMPUTE as err:
             out.append(not_applicable("normality", "Anderson-Darling", group, err))
     part_groups = [(cand.name, cand.parts, cand.lots)]
@@ -70,33 +75,31 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
             g = diag.grubbs(x, alternative="two-sided")
             flag = g.pvalue < alpha
             lot = lots[g.index] if g.index < len(lots) else "?"
-            out.append(diagnostic(
+            out.append(_Diagnostic(
                 "outliers", g.method, group, flag,
-                (f"possible outlier {decide.fmt(g.value)} in lot {lot} "
-                 f"(G = {decide.fmt(g.statistic)}, {decide.p_eq(g.pvalue)}); "
+                (f"possible outlier {fmt(g.value)} in lot {lot} "
+                 f"(G = {fmt(g.statistic)}, {p_eq(g.pvalue)}); "
                  "not removed: check the part and the record"
-                 if flag else f"no outlier detected (G = {decide.fmt(g.statistic)}, "
-                 f"Bonferroni bound {decide.p_eq(g.pvalue)})"),
-                statistic=g.statistic, p_value=g.pvalue,
-                extra={"value": g.value, "lot": str(lot)}))
+                 if flag else f"no outlier detected (G = {fmt(g.statistic)}, "
+                 f"Bonferroni bound {p_eq(g.pvalue)})"),
+                g.statistic, g.pvalue, {"value": g.value, "lot": str(lot)}))
         except CANNOT_COMPUTE as err:
             out.append(not_applicable("outliers", "Grubbs", group, err))
         n_lots = len(set(lots))
-        out.append(diagnostic(
+        out.append(_Diagnostic(
             "lot count", "count of lots", group, n_lots < 3,
-            _lot_count_words(n_lots, x.size), statistic=float(n_lots)))
+            _lot_count_words(n_lots, x.size), float(n_lots), None, {}))
         if spec.unit_of_analysis == "part":
             try:
                 le = diag.lot_effect(x, lots)
                 flag = le.pvalue < alpha
-                out.append(diagnostic(
+                out.append(_Diagnostic(
                     "lot effect", le.method, group, flag,
-                    (f"lots differ ({decide.p_eq(le.pvalue)}, intraclass correlation "
-                     f"{decide.fmt(le.icc, 3)}): parts of one lot are not independent; "
+                    (f"lots differ ({p_eq(le.pvalue)}, intraclass correlation "
+                     f"{fmt(le.icc, 3)}): parts of one lot are not independent; "
                      "unit_of_analysis: lot would be the safer analysis" if flag else
-                     f"no lot effect detected ({decide.p_eq(le.pvalue)})"),
-                    statistic=le.statistic, p_value=le.pvalue,
-                    extra={"icc": le.icc, "n_lots": le.n_lots}))
+                     f"no lot effect detected ({p_eq(le.pvalue)})"),
+                    le.statistic, le.pvalue, {"icc": le.icc, "n_lots": le.n_lots}))
             except CANNOT_COMPUTE as err:
                 out.append(not_applicable("lot effect", "one-way ANOVA across lots", group, err))
         try:
@@ -107,27 +110,27 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
                 parts.append(f"{len(st.beyond)} point(s) beyond the control-chart limits")
             if st.longest_run >= RUN_LENGTH_FLAG:
                 parts.append(f"a run of {st.longest_run} on one side of the centre line")
-            out.append(diagnostic(
+            out.append(_Diagnostic(
                 "stability", "individuals chart (moving-range limits)", group, flag,
                 ("not stable: " + ", ".join(parts)) if flag else
                 f"in control (longest run {st.longest_run})",
-                statistic=float(len(st.beyond)),
-                extra={"centre": st.centre, "lcl": st.lcl, "ucl": st.ucl,
-                       "longest_run": st.longest_run}))
+                float(len(st.beyond)), None,
+                {"centre": st.centre, "lcl": st.lcl, "ucl": st.ucl,
+                 "longest_run": st.longest_run}))
         except CANNOT_COMPUTE as err:
             out.append(not_applicable("stability", "individuals chart", group, err))
     try:
         tol = (ch.upper - ch.lower) if (ch.lower is not None and ch.upper is not None) else None
         rs = diag.resolution_of(joined_parts(d), tolerance=tol)
         coarse = rs.step_over_tenth_tolerance is not None and rs.step_over_tenth_tolerance > 1.0
-        out.append(diagnostic(
+        out.append(_Diagnostic(
             "resolution", "measurement resolution", "all", coarse,
             (f"coarse: the smallest step {decide.fmt_often(rs.step)} exceeds a tenth of the "
              "tolerance" if coarse else
              f"{rs.distinct} distinct values, smallest step {decide.fmt_often(rs.step)}"),
-            statistic=finite(rs.step),
-            extra={"distinct": rs.distinct, "step_over_tenth_tolerance":
-                   finite(rs.step_over_tenth_tolerance)}))
+            finite(rs.step), None,
+            {"distinct": rs.distinct, "step_over_tenth_tolerance":
+             finite(rs.step_over_tenth_tolerance)}))
     except CANNOT_COMPUTE as err:
         out.append(not_applicable("resolution", "measurement resolution", "all", err))
     if len(d.streams) >= 2:
