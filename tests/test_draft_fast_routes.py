@@ -257,21 +257,37 @@ def test_f_test_reads_a_remembered_summary_as_the_plain_route_computes_it(frozen
     _memo.forget()
 
 
-_T_CASES = [(-2.0, 1.5, 29.0), (0.0, -0.0, 57.3), (-40.0, 40.0, 3.0), (1e-300, -1e300, 1.0),
-            (-1.25, 0.75, float("inf")), (-0.4, 8.0, 1e6), (np.float64(-0.3), 2.2, 44.9),
-            (-2.0, 1.5, 29), (float("nan"), 1.0, 10.0), (3.0, -3.0, 0.5)]
+_INF, _NAN = float("inf"), float("nan")
+_DFS = [0.5, 1, 2.0, 3, 7.3, 29.0, 57.31, 1e6, 1e300, np.float64(44.9), 0.0, -1.0, _INF, _NAN]
+_TS = [0.0, -0.0, 1e-300, -2.0, 1.5, -8.3, 37.5, -40.0, 1e300, -_INF, _INF, _NAN,
+       np.float64(-0.3), 2]
 
 
-@pytest.mark.parametrize("t1, t2, df", _T_CASES)
-def test_t_cdf_pair_equals_two_t_cdf_calls(t1, t2, df):
-    """A TOST's two tails from one special-function call are the floats of the two scalar
-    calls (the ufunc runs its scalar kernel on each element)."""
-    from verify.stats.core import t_cdf, t_cdf_pair
+def _same(a, b):
+    return type(a) is float and (a.hex() == b.hex() or (math.isnan(a) and math.isnan(b)))
 
-    got = t_cdf_pair(t1, t2, df)
-    want = (t_cdf(t1, df), t_cdf(t2, df))
-    assert [type(v) for v in got] == [float, float]
-    assert [v.hex() for v in got] == [v.hex() for v in want]
+
+@pytest.mark.parametrize("df", _DFS)
+def test_t_cdf_and_t_quantile_are_the_ufuncs_floats(df):
+    """t_cdf and t_quantile call scipy.special.cython_special's stdtr, stdtrit, ndtr and
+    ndtri: the floats of the scipy.special ufuncs of the same names (their earlier route),
+    bit for bit, edge values included; and a Python float, as float(ufunc(...)) was."""
+    from scipy import special
+
+    from verify.stats.core import t_cdf, t_quantile
+
+    rng = np.random.default_rng(17)
+    ts = [*_TS, *rng.normal(0.0, 3.0, 200).tolist()]
+    for t in ts:
+        want = float(special.ndtr(t) if math.isinf(df) else special.stdtr(df, t))
+        assert _same(t_cdf(t, df), want), (t, df)
+    if not df > 0.0 or math.isnan(df):
+        return
+    t_quantile.cache_clear()
+    for p in [1e-300, 0.001, 0.025, 0.5, 0.9, 0.95, 0.975, 0.999999,
+              *rng.uniform(0.0, 1.0, 100).tolist()]:
+        want = float(special.ndtri(p) if math.isinf(df) else special.stdtrit(df, p))
+        assert _same(t_quantile(p, df), want), (p, df)
 
 
 @pytest.mark.parametrize("estimate, se, df", [
@@ -384,3 +400,41 @@ def test_diagnostics_built_by_position_are_the_keyword_routes(monkeypatch):
 
     monkeypatch.setattr(evaluate_diagnostics, "_Diagnostic", by_keyword)
     assert repr(_evaluate_demo_specs()) == repr(fast)
+
+
+@pytest.mark.parametrize("alternative", ["greater", "less", "two-sided"])
+def test_f_pvalue_is_the_ufuncs_float(alternative):
+    """spread._f_pvalue reads cython_special's fdtrc and fdtr: the p-value of its earlier
+    route through the scipy.special ufuncs, bit for bit."""
+    from scipy import special
+
+    from verify.stats.spread import _f_pvalue
+
+    rng = np.random.default_rng(23)
+    for dfn, dfd in [(1, 1), (2, 5), (29, 29), (11, 49), (1000, 3)]:
+        for f in [1e-300, 0.3, 1.0, 3.7, 1e300, *rng.exponential(1.5, 60).tolist()]:
+            hi, lo = float(special.fdtrc(dfn, dfd, f)), float(special.fdtr(dfn, dfd, f))
+            p = hi if alternative == "greater" else lo if alternative == "less" else \
+                2.0 * min(lo, hi)
+            assert _same(_f_pvalue(f, dfn, dfd, alternative), min(1.0, max(0.0, p)))
+
+
+@pytest.mark.parametrize("alternative", ["greater", "less", "two-sided"])
+def test_rank_normal_p_is_the_ufuncs_float(alternative):
+    """nonparametric._normal_p reads cython_special's ndtr: the p-value of its earlier route
+    through scipy.special.ndtr, bit for bit."""
+    from scipy import special
+
+    from verify.stats.nonparametric import _normal_p
+
+    rng = np.random.default_rng(29)
+    for z_num in [0.0, 0.5, -0.5, 3.0, -250.0, 1e6, *rng.normal(0.0, 40.0, 100).tolist()]:
+        for se in [0.5, 13.2, 48.6, 1e-3]:
+            if alternative == "greater":
+                want = float(special.ndtr(-(z_num - 0.5) / se))
+            elif alternative == "less":
+                want = float(special.ndtr((z_num + 0.5) / se))
+            else:
+                z = (z_num - math.copysign(0.5, z_num) if z_num != 0 else 0.0) / se
+                want = min(1.0, 2.0 * float(special.ndtr(-abs(z))))
+            assert _same(_normal_p(z_num, se, alternative), want)

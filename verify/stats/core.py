@@ -14,7 +14,7 @@ from functools import lru_cache
 from typing import Literal
 
 import numpy as np
-from scipy import special
+from scipy.special import cython_special as _cs
 
 from . import _memo
 from ._frozen import fast_init
@@ -40,27 +40,25 @@ class Interval:
     level: float
 
 
+# The scalar special functions of one number, called through ``scipy.special.cython_special``:
+# the same compiled functions as the ufuncs ``scipy.special.stdtr`` etc., whose dispatch (a
+# 0-d array in, a numpy scalar out) costs about 1 us a call, against about 0.1 us here; the
+# floats are the ufuncs' bit for bit (tests/test_draft_fast_routes.py holds the two together).
+# They take floats only (an int is refused), hence the float() calls where an int may come.
+_stdtr, _stdtrit, _ndtr, _ndtri = _cs.stdtr, _cs.stdtrit, _cs.ndtr, _cs.ndtri
+
+
 def t_cdf(t: float, df: float) -> float:
     """P(T <= t) for Student's t with ``df`` degrees of freedom (df may be fractional)."""
     if math.isinf(df):
-        return float(special.ndtr(t))
-    return float(special.stdtr(df, t))
+        return _ndtr(float(t))  # float(special.ndtr(t))
+    return _stdtr(float(df), float(t))  # float(special.stdtr(df, t))
 
 
 def t_sf(t: float, df: float) -> float:
     """P(T > t), computed without cancellation as P(T <= -t)."""
     return t_cdf(-t, df)
 
-
-def t_cdf_pair(t1: float, t2: float, df: float) -> tuple[float, float]:
-    """``(t_cdf(t1, df), t_cdf(t2, df))`` from one call of the special function on both
-    (a TOST's two tails): the ufunc applies its scalar kernel to each element, so the floats
-    are those of the two calls, at about the cost of one."""
-    if math.isinf(df):
-        p1, p2 = special.ndtr((t1, t2)).tolist()
-    else:
-        p1, p2 = special.stdtr(df, (t1, t2)).tolist()
-    return p1, p2
 
 
 @lru_cache(maxsize=1024)
@@ -70,8 +68,8 @@ def t_quantile(p: float, df: float) -> float:
     if not 0.0 < p < 1.0:
         raise ValueError(f"quantile probability must lie in (0, 1), not {p}")
     if math.isinf(df):
-        return float(special.ndtri(p))
-    return float(special.stdtrit(df, p))
+        return _ndtri(float(p))  # float(special.ndtri(p))
+    return _stdtrit(float(df), float(p))  # float(special.stdtrit(df, p))
 
 
 def p_value(statistic: float, df: float, alternative: str) -> float:

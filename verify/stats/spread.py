@@ -16,6 +16,7 @@ from functools import lru_cache
 
 import numpy as np
 from scipy import special
+from scipy.special import cython_special as _cs
 
 from . import _memo
 from ._checks import check_alpha, check_level
@@ -108,12 +109,15 @@ class VarianceRatioResult:
 
 def _f_pvalue(f: float, dfn: int, dfd: int, alternative: str) -> float:
     # only the tail(s) the alternative reads: each is the same float computed alone
+    # (cython_special's fdtrc and fdtr: the floats of float(special.fdtrc(dfn, dfd, f)) and
+    # float(special.fdtr(...)) without the ufuncs' dispatch, as verify.stats.core's t_cdf)
+    a, b, x = float(dfn), float(dfd), float(f)
     if alternative == "greater":
-        p = float(special.fdtrc(dfn, dfd, f))
+        p = _cs.fdtrc(a, b, x)
     elif alternative == "less":
-        p = float(special.fdtr(dfn, dfd, f))
+        p = _cs.fdtr(a, b, x)
     else:
-        p = 2.0 * min(float(special.fdtr(dfn, dfd, f)), float(special.fdtrc(dfn, dfd, f)))
+        p = 2.0 * min(_cs.fdtr(a, b, x), _cs.fdtrc(a, b, x))
     return min(1.0, max(0.0, p))
 
 
