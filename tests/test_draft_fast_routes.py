@@ -438,3 +438,25 @@ def test_rank_normal_p_is_the_ufuncs_float(alternative):
                 z = (z_num - math.copysign(0.5, z_num) if z_num != 0 else 0.0) / se
                 want = min(1.0, 2.0 * float(special.ndtr(-abs(z))))
             assert _same(_normal_p(z_num, se, alternative), want)
+
+
+def test_rank_test_methods_made_once_are_the_worded_ones():
+    """The rank tests' method texts, made once by (exact, zero method), are those the results
+    worded on every call before."""
+    from verify.stats import nonparametric as npar
+
+    for exact in (True, False, np.True_, np.False_):
+        how = "exact" if exact else "normal approximation, tie and continuity corrected"
+        for zero_method in npar.ZERO_METHODS:
+            zeros = ("zeros dropped" if zero_method == "wilcox"
+                     else "zeros ranked then dropped (Pratt)")
+            assert npar._SIGNED_RANK_METHODS[exact, zero_method] == \
+                f"Wilcoxon signed-rank test ({zeros}; {how})"
+        assert npar._RANK_SUM_METHODS[exact] == f"Mann-Whitney rank-sum test ({how})"
+    rng = np.random.default_rng(3)
+    for d in (rng.normal(0.2, 1.0, 12), np.round(rng.normal(0.2, 1.0, 60), 1)):
+        for zm in npar.ZERO_METHODS:
+            r = npar.wilcoxon_signed_rank(d, zero_method=zm)
+            assert r.method == npar._SIGNED_RANK_METHODS[r.exact, zm]
+        r = npar.mann_whitney(d, d + 0.3)
+        assert r.method == npar._RANK_SUM_METHODS[r.exact]

@@ -391,17 +391,26 @@ def _signed_rank_se(var: float, sizes: np.ndarray) -> float:
     return math.sqrt((var - float(np.add.reduce(t**3 - t)) / 2.0) / 24.0)
 
 
+_HOW = {True: "exact", False: "normal approximation, tie and continuity corrected"}
+# the signed-rank test's method in words by (exact, zero method), made once
+_SIGNED_RANK_METHODS = {
+    (exact, zero_method): f"Wilcoxon signed-rank test ({zeros}; {_HOW[exact]})"
+    for exact in (True, False)
+    for zero_method, zeros in (("wilcox", "zeros dropped"),
+                               ("pratt", "zeros ranked then dropped (Pratt)"))
+}
+_RANK_SUM_METHODS = {exact: f"Mann-Whitney rank-sum test ({_HOW[exact]})"
+                     for exact in (True, False)}
+
+
 def _signed_rank_result(c: _SignedRank, alternative: str) -> RankTestResult:
     if c.exact:
         pvalue = _exact_p(_signed_rank_sums(c.n_nonzero), 2**c.n_nonzero, c.w_plus, alternative)
-        how = "exact"
     else:
         pvalue = _normal_p(c.w_plus - c.mean, c.se, alternative)
-        how = "normal approximation, tie and continuity corrected"
-    zeros = "zeros dropped" if c.zero_method == "wilcox" else "zeros ranked then dropped (Pratt)"
     # (the fields by position: method, statistic, pvalue, alternative, n, n_zero,
     # n_tied_groups, n_tied_values, exact, estimate, zero_method)
-    return RankTestResult(f"Wilcoxon signed-rank test ({zeros}; {how})", c.w_plus,
+    return RankTestResult(_SIGNED_RANK_METHODS[c.exact, c.zero_method], c.w_plus,
                           _clip_p(pvalue), alternative, c.n, c.n_zero, c.groups,
                           c.tied_values, c.exact, c.estimate, c.zero_method)
 
@@ -475,9 +484,8 @@ def _rank_sum_result(c: _RankSum, alternative: str) -> RankTestResult:
                           c.u_new, alternative)
     else:
         pvalue = _normal_p(c.u_new - c.n_old * c.n_new / 2.0, c.se, alternative)
-    how = "exact" if c.exact else "normal approximation, tie and continuity corrected"
     # (the fields by position: method, statistic, pvalue, alternative, n, n_zero,
     # n_tied_groups, n_tied_values, exact, estimate, zero_method, n_old, n_new)
-    return RankTestResult(f"Mann-Whitney rank-sum test ({how})", c.u_new, _clip_p(pvalue),
+    return RankTestResult(_RANK_SUM_METHODS[c.exact], c.u_new, _clip_p(pvalue),
                           alternative, c.n_old + c.n_new, 0, c.groups, c.tied_values, c.exact,
                           c.estimate, None, c.n_old, c.n_new)

@@ -27,7 +27,6 @@ from ..drafting import (
     Comparison,
     Draft,
     cannot_compute,
-    diagnostic,
     finite,
     not_applicable,
     replaced,
@@ -305,8 +304,10 @@ def companions(kind, inp: CheckInput, dr: Draft) -> list[DiagnosticResult]:
     if res.margin is None:
         disagree = (rt.pvalue < alpha) != (res.p_value < alpha)
     ties = f", {rt.n_zero} zero difference(s)" if getattr(rt, "n_zero", 0) else ""
-    return [diagnostic(
+    # (by position, extra an empty dict: what diagnostic(..., statistic=rt.statistic,
+    # p_value=rt.pvalue) makes, without its call and keywords)
+    return [DiagnosticResult(
         "rank companion", rt.method, group, disagree,
         (f"{check}: the rank test disagrees with the t-test ({p_eq(rt.pvalue)})"
          if disagree else f"{check}: rank test {p_eq(rt.pvalue)}{ties}"),
-        statistic=rt.statistic, p_value=rt.pvalue)]
+        rt.statistic, rt.pvalue, {})]

@@ -19,7 +19,6 @@ from ..drafting import (
     CheckInput,
     Draft,
     cannot_compute,
-    diagnostic,
     finite,
     not_applicable,
 )
@@ -179,8 +178,10 @@ def companions(kind, inp: CheckInput, dr: Draft) -> list[DiagnosticResult]:
     except CANNOT_COMPUTE as err:
         return [not_applicable("spread companion", "spread companion", group, err)]
     disagree = (o.pvalue < alpha) != (dr.result.p_value < alpha)
-    return [diagnostic(
+    # (by position, extra an empty dict: what diagnostic(..., statistic=o.statistic,
+    # p_value=o.pvalue) makes, without its call and keywords)
+    return [DiagnosticResult(
         "spread companion", o.method, group, disagree,
         (f"the {o.method} disagrees with the deciding spread test ({p_eq(o.pvalue)})"
          if disagree else f"{o.method} {p_eq(o.pvalue)}"),
-        statistic=o.statistic, p_value=o.pvalue)]
+        o.statistic, o.pvalue, {})]
