@@ -460,3 +460,14 @@ def test_rank_test_methods_made_once_are_the_worded_ones():
             assert r.method == npar._SIGNED_RANK_METHODS[r.exact, zm]
         r = npar.mann_whitney(d, d + 0.3)
         assert r.method == npar._RANK_SUM_METHODS[r.exact]
+
+
+def test_moving_range_df_remembered_is_its_arithmetic():
+    """moving_range_df is remembered by n: each answer, asked again, is the bits of its own
+    arithmetic (the function without the cache), and n < 2 is still refused."""
+    from verify.stats.capability import moving_range_df
+
+    for n in [2, 3, 7, 30, 30, 101, 2, 5000]:
+        assert moving_range_df(n).hex() == moving_range_df.__wrapped__(n).hex()
+    with pytest.raises(DegenerateDataError):
+        moving_range_df(1)

@@ -112,6 +112,7 @@ _MR_VAR = 2.0 - 4.0 / math.pi
 _MR_COV = 4.0 / math.pi * (math.sqrt(3.0) / 2.0 + math.pi / 12.0 - 1.0)
 
 
+@lru_cache(maxsize=256)  # the same few lot sizes for every characteristic of a layout
 def moving_range_df(n: int) -> float:
     """Effective df of sigma = (average moving range) / d2(2) from ``n`` values in order.
 
@@ -301,6 +302,19 @@ def within_sigma(
     return sigma, method, int(ranges.size), df
 
 
+def _indices(m: float, sigma: float, lsl: float | None, usl: float | None
+             ) -> tuple[float | None, float, float | None, float | None]:
+    """(both sides' index, the smaller side's, the lower side's, the upper side's) of the
+    mean ``m`` with ``sigma``: Cp, Cpk, Cpl, Cpu (or Pp, Ppk, Ppl, Ppu)."""
+    lo = None if lsl is None else (m - lsl) / (3.0 * sigma)
+    hi = None if usl is None else (usl - m) / (3.0 * sigma)
+    both = None if lsl is None or usl is None else (usl - lsl) / (6.0 * sigma)
+    # the smaller of the sides given (min(lo, hi) keeps lo on a tie, as min of the two
+    # in that order does)
+    k = hi if lo is None else lo if hi is None else min(lo, hi)
+    return both, k, lo, hi
+
+
 def capability(
     x: ArrayLike,
     *,
@@ -352,18 +366,8 @@ def capability(
     if not s_overall > 0.0:
         raise DegenerateDataError("all values are identical: zero spread, capability undefined")
     s_within, how, n_sub, nu_within = within_sigma(a, subgroups)
-
-    def indices(sigma: float) -> tuple[float | None, float, float | None, float | None]:
-        lo = None if lsl is None else (m - lsl) / (3.0 * sigma)
-        hi = None if usl is None else (usl - m) / (3.0 * sigma)
-        both = None if lsl is None or usl is None else (usl - lsl) / (6.0 * sigma)
-        # the smaller of the sides given (min(lo, hi) keeps lo on a tie, as min of the two
-        # in that order does)
-        k = hi if lo is None else lo if hi is None else min(lo, hi)
-        return both, k, lo, hi
-
-    cp, cpk, cpl, cpu = indices(s_within)
-    pp, ppk, ppl, ppu = indices(s_overall)
+    cp, cpk, cpl, cpu = _indices(m, s_within, lsl, usl)
+    pp, ppk, ppl, ppu = _indices(m, s_overall, lsl, usl)
     cpm = None
     if tgt is not None and lsl is not None and usl is not None:
         tau = math.hypot(s_within, m - tgt)
