@@ -103,7 +103,11 @@ def test_refuses_classes_it_would_change():
     class KeywordOnly:
         a: int
 
-    for cls in (Mutable, Checked, Slotted, KeywordOnly, int):
+    @dataclasses.dataclass(frozen=True)
+    class NamedLikeItsDict:  # the generated __init__'s own name for the instance's __dict__
+        _fast_init_dict: int
+
+    for cls in (Mutable, Checked, Slotted, KeywordOnly, NamedLikeItsDict, int):
         with pytest.raises(TypeError):
             fast_init(cls)
 

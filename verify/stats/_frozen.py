@@ -5,7 +5,8 @@
 evaluation fills about 500 fields of such results (checks, their statistics, diagnostics,
 process summaries), which is about a twentieth of its time. :func:`fast_init`, stacked on top of
 the dataclass decorator, gives the class an ``__init__`` with the same parameters (names, order,
-defaults, default factories) that fills the instance's ``__dict__`` in one step. Everything else
+defaults, default factories) that fills the instance's ``__dict__`` directly, one store a
+field, without a call per field. Everything else
 the dataclass made (equality, hash, repr, the refusal to set an attribute, ``fields``,
 ``replace``) is unchanged; the instances are equal field by field to those the dataclass's own
 ``__init__`` makes (tests hold the two together).
@@ -35,6 +36,7 @@ class _Factory:
 
 
 _MISSING = _Factory()
+_DICT = "_fast_init_dict"  # the generated __init__'s name for the instance's __dict__
 
 
 def fast_init(cls: type) -> type:
@@ -74,10 +76,16 @@ def fast_init(cls: type) -> type:
             env[f"_f_{f.name}"] = f.default_factory
             body.append(f"    {f.name} = _f_{f.name}()")
     # as the dataclass's own __init__: an init=False field with a plain default is read from
-    # the class, one without a default is left unset
-    values = ", ".join(f"{f.name!r}: {f.name}" for f in fields
-                       if f.init or f.default_factory is not dataclasses.MISSING)
-    body.append(f"    self.__dict__.update({{{values}}})")
+    # the class, one without a default is left unset. Each value is stored into the
+    # instance's own __dict__ by its key, in the fields' order: a statement per field costs
+    # less than building a dict of them and updating __dict__ with it (about half, for ten
+    # fields), and the instance keeps the dict that shares its keys with the class's other
+    # instances (half the memory of a dict of its own)
+    if _DICT in names:
+        raise TypeError(f"{cls.__name__} has a field named {_DICT}, the name fast_init uses")
+    body.append(f"    {_DICT} = self.__dict__")
+    body.extend(f"    {_DICT}[{f.name!r}] = {f.name}" for f in fields
+                if f.init or f.default_factory is not dataclasses.MISSING)
     source = f"def __init__(self, {', '.join(args)}):\n" + "\n".join(body) + "\n"
     exec(source, env)  # noqa: S102 - the source is built above from the field names alone
     init = env["__init__"]
