@@ -471,3 +471,43 @@ def test_moving_range_df_remembered_is_its_arithmetic():
         assert moving_range_df(n).hex() == moving_range_df.__wrapped__(n).hex()
     with pytest.raises(DegenerateDataError):
         moving_range_df(1)
+
+
+def test_check_results_built_by_position_hold_each_field_in_its_place():
+    """The location (with a margin), capability and spread drafts build their CheckResult by
+    position: in the demo specs' evaluations each field holds what its name says (the
+    interval around the estimate at 1 - 2 alpha, the critical value and p-value of the
+    test, the index and its bound, the design, the power note), as the keyword route put
+    them. (The golden comparison of every evaluation holds the values themselves.)"""
+    from verify.stats.core import t_quantile
+
+    seen = set()
+    for chars in _evaluate_demo_specs():
+        for c in chars:
+            for res in c.checks:
+                x = res.details
+                if res.check in ("target", "shift") and res.margin is not None and x:
+                    assert res.method.startswith(("TOST", "non-inferiority"))
+                    assert res.design in ("one-sample", "paired", "welch", "pooled")
+                    assert res.ci_low <= res.estimate <= res.ci_high
+                    assert res.standard_error > 0 and res.df > 0
+                    assert res.p_value in (x.p_lower, x.p_upper)
+                    assert res.statistic in (x.statistic_lower, x.statistic_upper)
+                    alpha = (1 - res.ci_level) / 2
+                    assert res.critical_value == pytest.approx(t_quantile(1 - alpha, res.df))
+                    assert res.power_note.startswith("power of this test if the true")
+                    assert res.p_adjusted is None and res.detectable_shift is None
+                    seen.add("location")
+                elif res.check == "capability" and x is not None and res.ci_low is not None:
+                    assert res.estimate in (x.cpk, x.ppk)
+                    assert res.ci_low == x.lower_bound and res.ci_level == x.confidence
+                    assert res.ci_high is None and res.design is None
+                    assert res.power_note.startswith("no power figure")
+                    seen.add("capability")
+                elif res.check == "spread" and res.design == "two-sample":
+                    assert res.alternative == "greater" and res.margin is None
+                    assert res.statistic > 0 and 0 <= res.p_value <= 1 and res.df > 0
+                    assert res.power_note.startswith("no power figure: the spec declares")
+                    assert res.ci_low is not None and res.ci_level is not None
+                    seen.add("spread")
+    assert seen == {"location", "capability", "spread"}
