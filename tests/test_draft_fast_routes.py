@@ -503,6 +503,13 @@ def test_check_results_built_by_position_hold_each_field_in_its_place():
                     assert res.ci_low == x.lower_bound and res.ci_level == x.confidence
                     assert res.ci_high is None and res.design is None
                     assert res.power_note.startswith("no power figure")
+                    # the details by position too: each field in its declared place
+                    assert x.index in ("cpk", "ppk") and x.judge in ("estimate", "lower_bound")
+                    assert isinstance(x.sigma_method, str) and isinstance(x.n, int)
+                    assert x.cpk in (x.cpl, x.cpu) and (x.pp is None or x.ppk <= x.pp)
+                    assert x.sigma_within > 0 and x.sigma_overall > 0 and x.bound_df > 0
+                    assert x.min == c.spec.checks.capability.min and x.confidence < 1
+                    assert x.cpk_lower_95 < x.cpk
                     seen.add("capability")
                 elif res.check == "spread" and res.design == "two-sample":
                     assert res.alternative == "greater" and res.margin is None

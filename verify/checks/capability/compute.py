@@ -39,19 +39,18 @@ def draft(kind, inp: CheckInput) -> Draft:
     except CANNOT_COMPUTE as err:
         return cannot_compute(kind.name, f"process capability ({label})", hyp, err)
     value = r.cpk if conf.index == "cpk" else r.ppk
-    v = CAPABILITY.decide(cpk=value, lower_bound=finite(bound), min_cpk=conf.min,
+    bound = finite(bound)
+    v = CAPABILITY.decide(cpk=value, lower_bound=bound, min_cpk=conf.min,
                           index=label, judge=conf.judge, confidence=level)
     bound_df = r.sigma_within_df if conf.index == "cpk" else float(r.n - 1)
+    # CapabilityDetails' fields by position, in their declared order: cp, cpk, cpl, cpu, pp,
+    # ppk, cpm, sigma_within, sigma_overall, sigma_method, mean, n, min_cpk, cpk_lower_95,
+    # index, judge, min, confidence, lower_bound, bound_df
     details = CapabilityDetails(
-        cp=finite(r.cp), cpk=r.cpk, cpl=finite(r.cpl), cpu=finite(r.cpu),
-        pp=finite(r.pp), ppk=finite(r.ppk), cpm=finite(r.cpm),
-        sigma_within=r.sigma_within, sigma_overall=r.sigma_overall,
-        sigma_method=r.sigma_method, mean=r.mean, n=r.n,
-        min_cpk=conf.min if conf.index == "cpk" else None,
-        cpk_lower_95=finite(lb95),
-        index=conf.index, judge=conf.judge, min=conf.min, confidence=level,
-        lower_bound=finite(bound), bound_df=bound_df,
-    )
+        finite(r.cp), r.cpk, finite(r.cpl), finite(r.cpu), finite(r.pp), finite(r.ppk),
+        finite(r.cpm), r.sigma_within, r.sigma_overall, r.sigma_method, r.mean, r.n,
+        conf.min if conf.index == "cpk" else None, finite(lb95), conf.index, conf.judge,
+        conf.min, level, bound, bound_df)
     sigma = (f"Cpk ({r.sigma_method})" if conf.index == "cpk"
              else "Ppk (overall sample sd)")
     judge = ("its lower bound judged" if conf.judge == "lower_bound"
@@ -64,7 +63,7 @@ def draft(kind, inp: CheckInput) -> Draft:
     # reason, estimate, standard_error, statistic, df, p_value, p_adjusted, ci_low, ci_high,
     # ci_level, critical_value, power, power_note, detectable_shift, planned_n, design, details
     res = CheckResult(kind.name, f"{sigma}; {judge}", hyp, None, None, v.outcome, v.reason,
-                      value, None, None, None, None, None, finite(bound), None, level, None,
+                      value, None, None, None, None, None, bound, None, level, None,
                       None, note, None, None, None, details)
     return Draft(result=res)
 
