@@ -518,3 +518,22 @@ def test_check_results_built_by_position_hold_each_field_in_its_place():
                     assert res.ci_low is not None and res.ci_level is not None
                     seen.add("spread")
     assert seen == {"location", "capability", "spread"}
+
+
+def test_replaced_gives_dataclasses_replace_s_instance_as_its_own_copy():
+    """replaced sets a changed copy of the result's __dict__ as the new result's own: equal,
+    field for field and in the same order, to dataclasses.replace's, frozen, and sharing no
+    dict with the result it copied (which keeps its fields)."""
+    from verify.checks.drafting import replaced
+    from verify.model import CheckResult
+
+    res = CheckResult("shift", "t", "h", None, None, "PASS", "r", 1.5)
+    for changes in ({"outcome": "HOLD", "reason": "because", "p_value": 0.01},
+                    {"power": 0.9, "planned_n": 31}, {}):
+        fast = replaced(res, **changes)
+        plain = dataclasses.replace(res, **changes)
+        assert type(fast) is CheckResult and fast == plain and repr(fast) == repr(plain)
+        assert list(vars(fast).items()) == list(vars(plain).items())
+        assert vars(fast) is not vars(res) and res.outcome == "PASS" and res.power is None
+        with pytest.raises(dataclasses.FrozenInstanceError):
+            fast.outcome = "PENDING"
