@@ -18,7 +18,7 @@ from dataclasses import dataclass
 from ._checks import HARMFUL_SIDES as HARMFUL_SIDES  # public here: the sides `harmful` takes
 from ._checks import check_alpha, check_harmful, check_margins, finite
 from ._frozen import fast_init
-from .core import Interval, check_se_df, confidence_interval, t_cdf, t_sf
+from .core import Interval, _ndtr, _stdtr, check_se_df, confidence_interval, t_cdf, t_sf
 from .errors import DegenerateDataError
 from .ttests import Effect, effect, effect_from_stats
 
@@ -115,8 +115,13 @@ def tost_from_estimate(
     lo, hi = check_margins(low, high)
     t_lo = (est - lo) / se
     t_hi = (est - hi) / se
-    p_lo = t_sf(t_lo, df)  # H0: effect <= low, rejected for large t
-    p_hi = t_cdf(t_hi, df)  # H0: effect >= high, rejected for small t
+    # p_lo = t_sf(t_lo, df) (H0: effect <= low, rejected for large t) and p_hi =
+    # t_cdf(t_hi, df) (H0: effect >= high, rejected for small t), the df read once
+    if math.isinf(df):
+        p_lo, p_hi = _ndtr(float(-t_lo)), _ndtr(float(t_hi))
+    else:
+        dff = float(df)
+        p_lo, p_hi = _stdtr(dff, float(-t_lo)), _stdtr(dff, float(t_hi))
     # (the fields in their declared order: method, estimate, standard_error, df, low, high,
     # statistic_lower, statistic_upper, p_lower, p_upper, pvalue)
     return EquivalenceResult(method, est, float(se), float(df), lo, hi, float(t_lo),
