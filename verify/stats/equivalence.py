@@ -195,6 +195,7 @@ def tost_from_stats(
 # --- non-inferiority ------------------------------------------------------------------------
 
 
+@fast_init
 @dataclass(frozen=True)
 class NoninferiorityResult:
     """Result of a one-sided non-inferiority t-test.
