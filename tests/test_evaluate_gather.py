@@ -44,8 +44,11 @@ def test_summaries_together_equal_each_alone_on_demo_specs(demo, name, batched):
             for st in d.shown.values():
                 if st.parts.size:
                     finite_values(st.parts)
-        if batched:  # the lots' one-way analyses (and the sds from them) as evaluate has them
-            batch.prefetch([], in_lots=[q for d in drafts for q in eg.samples_in_lots(d)])
+        if batched:  # the lots' one-way analyses (and the sds from them) and the samples'
+            # extremes, as evaluate has them
+            batch.prefetch([x for d in drafts for st in d.shown.values()
+                            for x in (st.values, st.parts)],
+                           in_lots=[q for d in drafts for q in eg.samples_in_lots(d)])
         eg.summarize(drafts)
         compared = 0
         for d in drafts:

@@ -21,7 +21,7 @@ from .data import analysis_values, paired_values, stream_values
 from .data.values import part_values
 from .model import DiagnosticResult, Measurements, ProcessSummary
 from .spec_model import Characteristic, Spec
-from .stats import distributions
+from .stats import _memo, distributions
 from .stats import variance_components as vc
 from .stats._memo import freeze
 from .stats.core import mean_sd
@@ -117,8 +117,10 @@ def sufficiency(spec: Spec, d: CharDraft, counts: dict, final: bool) -> None:
 
 def _summary(process: str, values: np.ndarray, lots, n_parts: int,
              parts: np.ndarray | None = None, beyond: BeyondLimits | None = None,
-             extremes: tuple[float, float] | None = None) -> ProcessSummary:
-    """One stream's summary; ``extremes``: the values' (minimum, maximum) when known."""
+             extremes: tuple[float, float] | None = None,
+             shown_lots: tuple[str, ...] | None = None) -> ProcessSummary:
+    """One stream's summary; ``extremes``: the values' (minimum, maximum) when known,
+    ``shown_lots``: ``_lots_text(lots)`` when known."""
     n = int(values.size)
     mean = sd = None
     if n:
@@ -134,17 +136,22 @@ def _summary(process: str, values: np.ndarray, lots, n_parts: int,
             within, between, truncated = vc.sd_components(parts, lots)
         except CANNOT_COMPUTE:
             pass  # fewer than 2 lots of 2 parts, or no within-lot variation: not estimable
-    # the lots in order of first appearance, as text: the labels group_codes found (remembered
-    # for the stream's lots tuple) where they are text; labels of other types (1, 1.0 and True
-    # are one key to it, three lots as text) are each made text first, as always
-    labels = group_codes(lots, len(lots))[0] if len(lots) else []
-    # (text labels are their own text, and group_codes gives each once)
-    shown_lots = tuple(labels) if all(type(v) is str for v in labels) else tuple(
-        dict.fromkeys(map(str, lots)))
+    if shown_lots is None:
+        shown_lots = _lots_text(lots)
     # by position, in the fields' order (SUMMARY_FIELDS; a keyword costs about 30 ns a field)
     return ProcessSummary(process, n, mean, sd, shown_lots, n_parts,
                           extremes[0] if n else None, extremes[1] if n else None, beyond,
                           within, between, truncated)
+
+
+def _lots_text(lots) -> tuple[str, ...]:
+    """The lots in order of first appearance, as text: the labels group_codes found (remembered
+    for the stream's lots tuple) where they are text; labels of other types (1, 1.0 and True
+    are one key to it, three lots as text) are each made text first, as always."""
+    labels = group_codes(lots, len(lots))[0] if len(lots) else []
+    # (text labels are their own text, and group_codes gives each once)
+    return tuple(labels) if all(type(v) is str for v in labels) else tuple(
+        dict.fromkeys(map(str, lots)))
 
 
 #: The fields :func:`_summary` gives ``ProcessSummary`` by position, in order.
@@ -161,7 +168,10 @@ def _extremes(samples: list[np.ndarray]) -> list[tuple[float, float] | None]:
     out: list[tuple[float, float] | None] = [None] * len(samples)
     by_size: dict[int, list[int]] = {}
     for i, v in enumerate(samples):
-        if type(v) is np.ndarray and v.ndim == 1 and v.size and v.dtype == np.float64:
+        # (the batched pass remembers those of the rows it reduced: stats.batch._stacked)
+        if (known := _memo.recall("extremes", v)) is not None:
+            out[i] = known
+        elif type(v) is np.ndarray and v.ndim == 1 and v.size and v.dtype == np.float64:
             by_size.setdefault(v.size, []).append(i)
     for rows in by_size.values():
         stacked = np.stack([samples[i] for i in rows])
@@ -272,9 +282,16 @@ def summarize(measured: list[CharDraft]) -> None:
     extremes = _extremes([st.values for _, _, st in shown])
     for d in measured:
         d.processes = {}
+    # the lots as text once per lots object (the streams hold theirs while this runs, so an id
+    # stays its; the gathering gives the streams of equal lots one tuple): the same text
+    texts: dict[int, tuple[str, ...]] = {}
     for i, (d, name, st) in enumerate(shown):
-        d.processes[name] = _summary(name, st.values, st.lots, int(st.parts.size), st.parts,
-                                     beyond.get(i), extremes[i])
+        lots = st.lots
+        text = texts.get(id(lots))
+        if text is None:
+            text = texts[id(lots)] = _lots_text(lots)
+        d.processes[name] = _summary(name, st.values, lots, int(st.parts.size), st.parts,
+                                     beyond.get(i), extremes[i], text)
 
 
 def sub_streams(meas: Measurements, d: CharDraft) -> list[tuple[StreamDraft, CheckInput]]:

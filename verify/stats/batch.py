@@ -88,8 +88,13 @@ def _stacked(rows: list[np.ndarray], n: int) -> None:
         return
     # what is remembered of each row, added to in place (the rows are frozen: prefetch's)
     memo = [_memo.topics(r) for r in rows]
-    for t in memo:  # every value finite (a NaN or an infinity fails the bounds):
-        t["finite"] = True  # what samples.finite_values checks
+    for t, low, high in zip(memo, lo.tolist(), hi.tolist(), strict=True):
+        # every value finite (a NaN or an infinity fails the bounds): what
+        t["finite"] = True  # samples.finite_values checks
+        # and the (minimum, maximum) the process summary shows (evaluate_gather._extremes: a
+        # row's extremes are exact whatever the order of reduction but for a zero)
+        if low != 0.0 and high != 0.0:
+            t["extremes"] = (low, high)
     means, sds = _mean_sds(memo, x, n)
     m, s = np.array(means), np.array(sds)
     keep = np.isfinite(s) & (s > 0.0)
@@ -179,24 +184,28 @@ def _one_ways(in_lots) -> None:
     F tail once for all rows. Rows that are not finite, or without variation within the lots,
     are left to the one-sample route (and its error)."""
     by_codes: dict[bytes, tuple] = {}
-    # the codes of each distinct lots tuple and its group (by the codes' content), or None
-    # where the one-sample route would not share them: group_codes remembers a tuple of text by
-    # content, and a tuple equal to it is text
-    codes_of: dict[tuple, tuple | None] = {}
+    # the codes of each lots tuple and its group (by the codes' content), or None where the
+    # one-sample route would not share them: group_codes remembers a tuple of text by content
+    # (each tuple looked up once, by identity, the entry holding it so that its id stays its:
+    # the gathering gives the streams of equal lots one tuple)
+    codes_of: dict[int, tuple] = {}
     for x, lots in in_lots:
         if (not _memo.frozen(x) or x.ndim != 1 or x.dtype != np.float64 or type(lots) is not tuple
                 or len(lots) != x.size or _memo.recall("one_way", x) is not None):
             continue
-        found = codes_of.get(lots, False)
-        if found is False:
+        hit = codes_of.get(id(lots))
+        if hit is not None and hit[0] is lots:
+            found = hit[1]
+        else:
             try:
                 codes = group_codes(lots, x.size)[1]
             except ValueError:
                 codes = None
             if codes is not None and codes.flags.writeable:  # not remembered by content: the
                 codes = None  # one-sample route would not share it
-            found = codes_of[lots] = None if codes is None else (
+            found = None if codes is None else (
                 codes, by_codes.setdefault(codes.tobytes(), (codes, {}))[1])
+            codes_of[id(lots)] = (lots, found)
         if found is not None:
             found[1][id(x)] = (x, found[0])
     for codes, group in by_codes.values():
