@@ -191,7 +191,7 @@ def _stream(spec: Spec, meas: Measurements, name: str, ch: Characteristic, part_
     if part_spec is spec:  # analysed per part: the units are the parts (analysis_values')
         values, lots = part_values(meas, ch.name, name)
         values = freeze(values)
-        return Stream(name=name, values=values, parts=values, lots=lots)
+        return Stream(name, values, values, lots)  # (by position: name, values, parts, lots)
     units = analysis_values(meas, spec, ch.name, name)  # lot means
     parts = analysis_values(meas, part_spec, ch.name, name)
     return Stream(name=name, values=freeze(units.values), parts=freeze(parts.values),
@@ -239,15 +239,16 @@ def gather(spec: Spec, meas: Measurements, ch: Characteristic, final: bool) -> C
             roles.add(r)
     pairs = paired_values(meas, spec, ch.name) if roles else None
     (candidate,) = CANDIDATES  # one candidate today: several would give several comparisons
-    data = Comparison(reference=ref, candidate=streams[candidate],
-                      **{role: pairs for role in roles})
+    data = Comparison(ref, streams[candidate], **{role: pairs for role in roles}) if roles \
+        else Comparison(ref, streams[candidate])  # (by position: reference, candidate)
     fit = fit_error = None
     if ch.distribution in ("lognormal", "weibull", "box-cox"):
         try:
             fit = distributions.fit(data.candidate.parts, ch.distribution)
         except CANNOT_COMPUTE as err:
             fit_error = str(err)
-    inp = CheckInput(spec=spec, ch=ch, data=data, final=final, fit=fit, fit_error=fit_error)
+    # by position, in the fields' order: spec, ch, data, final, fit, fit_error
+    inp = CheckInput(spec, ch, data, final, fit, fit_error)
     d = CharDraft(ch=ch, inp=inp, processes={}, shown={name: streams[name] for name in shown},
                   kinds=kinds)
     counts = {p: int(st.values.size) for p, st in d.shown.items()}
