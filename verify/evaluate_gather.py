@@ -173,8 +173,9 @@ def _extremes(samples: list[np.ndarray]) -> list[tuple[float, float] | None]:
             out[i] = known
         elif type(v) is np.ndarray and v.ndim == 1 and v.size and v.dtype == np.float64:
             by_size.setdefault(v.size, []).append(i)
-    for rows in by_size.values():
-        stacked = np.stack([samples[i] for i in rows])
+    for n, rows in by_size.items():
+        # np.stack's array, in one concatenation (np.stack makes a view of each row first)
+        stacked = np.concatenate([samples[i] for i in rows]).reshape(len(rows), n)
         lows = np.minimum.reduce(stacked, axis=1).tolist()
         highs = np.maximum.reduce(stacked, axis=1).tolist()
         for i, lo, hi in zip(rows, lows, highs, strict=True):

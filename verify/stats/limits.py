@@ -186,10 +186,11 @@ def beyond_limits_many(
         else:
             out[i] = beyond_limits(v, lower=lower[i], upper=upper[i],
                                    distribution=distribution[i])
-    for rows in by_size.values():
+    for n, rows in by_size.items():
         lo = [lower[i] for i in rows]
         hi = [upper[i] for i in rows]
-        stacked = np.stack([samples[i] for i in rows])
+        # np.stack's array, in one concatenation (np.stack makes a view of each row first)
+        stacked = np.concatenate([samples[i] for i in rows]).reshape(len(rows), n)
         # a missing limit compares as NaN, which nothing is below or above (and counts 0)
         lo_arr = np.array([np.nan if x is None else x for x in lo], dtype=float)
         hi_arr = np.array([np.nan if x is None else x for x in hi], dtype=float)
@@ -216,6 +217,6 @@ def beyond_limits_many(
                 continue
             # by position, in the fields' order: n, below, above, expected_ppm (its below
             # and above), model, note
-            out[i] = BeyondLimits(int(samples[i].size), nb if with_lo else 0,
+            out[i] = BeyondLimits(n, nb if with_lo else 0,
                                   na if with_hi else 0, p_lo + p_hi, p_lo, p_hi, "normal", None)
     return out
