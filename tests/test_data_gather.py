@@ -158,3 +158,45 @@ def test_the_index_reads_a_text_column_as_its_to_numpy_objects(text, missing):
     assert got.dtype == object and got.shape == plain.shape
     assert [type(x) for x in got] == [type(x) for x in plain]
     assert [x for x in got if isinstance(x, str)] == [x for x in plain if isinstance(x, str)]
+
+
+def _table(lots: list) -> pd.DataFrame:
+    """Two characteristics measured on the same parts of one process, lots as given."""
+    n = len(lots)
+    return pd.DataFrame({
+        "source_file": "made.csv", "source_row": list(range(2 * n)),
+        "order": list(range(n)) * 2, "lot": lots * 2, "process": "new", "pair": "",
+        "characteristic": ["a"] * n + ["b"] * n, "value": np.arange(2.0 * n),
+        "excluded": False, "exclusion_reason": ""})
+
+
+@pytest.mark.parametrize("text", ["str", "string[pyarrow]", object])
+def test_part_values_give_equal_text_lots_as_one_tuple(text):
+    # the shortcut: part_values hands the streams of equal lots of text one tuple object; the
+    # plain route is a tuple of its own per call, equal to it
+    if "pyarrow" in str(text):
+        pytest.importorskip("pyarrow", reason="pandas' pyarrow text storage needs pyarrow")
+    from verify.data.values import part_values
+    from verify.model import Measurements
+
+    t = _table(["L2", "L1", "L2"])
+    t["lot"] = t["lot"].astype(text)
+    meas = Measurements(table=t, files=())
+    (va, la), (vb, lb) = part_values(meas, "a", "new"), part_values(meas, "b", "new")
+    assert la == lb == ("L2", "L1", "L2") and all(type(x) is str for x in la)
+    np.testing.assert_array_equal(np.concatenate([va, vb]), np.arange(6.0))
+    if isinstance(t["lot"].array, pd.arrays.ArrowStringArray):
+        assert la is lb  # (text for certain: pyarrow's dictionary encoding)
+
+
+def test_part_values_keep_lots_of_other_types_apart():
+    # 1, 1.0 and True are equal but not the same text: such tuples are never shared
+    from verify.data.values import part_values
+    from verify.model import Measurements
+
+    t = _table([1, 1, 2])
+    t["lot"] = pd.Series([1, 1, 2, 1.0, True, 2.0], dtype=object)
+    meas = Measurements(table=t, files=())
+    la, lb = part_values(meas, "a", "new")[1], part_values(meas, "b", "new")[1]
+    assert la == lb and la is not lb
+    assert [type(x) for x in la] == [int] * 3 and [type(x) for x in lb] == [float, bool, float]

@@ -44,8 +44,11 @@ def test_summaries_together_equal_each_alone_on_demo_specs(demo, name, batched):
             for st in d.shown.values():
                 if st.parts.size:
                     finite_values(st.parts)
-        if batched:  # the lots' one-way analyses (and the sds from them) as evaluate has them
-            batch.prefetch([], in_lots=[q for d in drafts for q in eg.samples_in_lots(d)])
+        if batched:  # the lots' one-way analyses (and the sds from them) and the samples'
+            # extremes, as evaluate has them
+            batch.prefetch([x for d in drafts for st in d.shown.values()
+                            for x in (st.values, st.parts)],
+                           in_lots=[q for d in drafts for q in eg.samples_in_lots(d)])
         eg.summarize(drafts)
         compared = 0
         for d in drafts:
@@ -188,11 +191,22 @@ def test_results_built_by_position_name_their_fields_in_order():
     # (dataclasses.fields, their declared order) must be those the calls give, in that order
     import dataclasses
 
-    from verify.model import ProcessSummary
+    from verify.checks.drafting import CheckInput, Comparison, Stream
+    from verify.model import CharacteristicResult, ProcessSummary
     from verify.stats.limits import BeyondLimits, beyond_limits, beyond_limits_many
 
     names = [f.name for f in dataclasses.fields(ProcessSummary)]
     assert tuple(names[:len(eg.SUMMARY_FIELDS)]) == eg.SUMMARY_FIELDS
+    # gather's Stream, Comparison and CheckInput, finish's CharacteristicResult, as their
+    # calls' comments list them
+    for cls, order in [
+            (Stream, ["name", "values", "parts", "lots"]),
+            (Comparison, ["reference", "candidate"]),
+            (CheckInput, ["spec", "ch", "data", "final", "fit", "fit_error"]),
+            (CharacteristicResult, [
+                "name", "unit", "decision", "reasons", "review", "processes", "checks",
+                "diagnostics", "spec", "pairs", "unmatched_pairs", "distribution", "streams"])]:
+        assert [f.name for f in dataclasses.fields(cls)][:len(order)] == order, cls
     assert [f.name for f in dataclasses.fields(BeyondLimits)] == [
         "n", "below", "above", "expected_ppm", "expected_ppm_below", "expected_ppm_above",
         "model", "note"]

@@ -478,3 +478,13 @@ def test_rows_of_another_length_are_never_stacked():
     # a row given in pieces (the resolution's parts of two processes, joined)
     y = batch._stack([np.arange(2.0), np.arange(1.0), np.arange(3.0)], 2, 3)
     assert y.tolist() == [[0.0, 1.0, 0.0], [0.0, 1.0, 2.0]]
+
+
+@pytest.mark.parametrize("dtype", ["f8", "<f8", ">f8", "f4", "i8", object, np.float64,
+                                   np.dtype(np.float64, metadata={"unit": "mm"})])
+def test_the_float64_dtype_compares_as_the_scalar_type(dtype):
+    # the shortcut: the batch compares a sample's dtype with a dtype made once; the plain route
+    # compares it with np.float64 itself
+    a = np.zeros(3, dtype=dtype)
+    assert (a.dtype == batch.FLOAT64) is (a.dtype == np.float64)
+    assert (a.dtype != batch.FLOAT64) is (a.dtype != np.float64)

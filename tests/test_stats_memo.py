@@ -472,3 +472,17 @@ def test_topics_is_the_memo_of_one_array_as_remember_and_recall_see_it(monkeypat
     finally:
         _memo.forget()
     assert _memo._CACHE == {}
+
+
+def test_frozen_finds_a_remembered_array_by_the_memo_as_by_its_flags(monkeypatch):
+    # the shortcut: an array the memo holds is frozen by one lookup; the plain route reads its
+    # flags (read-only, owning its data), which say the same of every array remembered
+    monkeypatch.setattr(_memo, "_CACHE", {})
+    x = _memo.freeze(np.arange(4.0))
+    writeable = np.arange(4.0)
+    assert _memo.frozen(x) and not _memo.frozen(writeable)
+    _memo.remember("mean_sd", x, (4, 1.5, 1.0))
+    _memo.remember("mean_sd", writeable, (4, 1.5, 1.0))  # (never remembered)
+    assert _memo.frozen(x) is (not x.flags.writeable and x.flags.owndata) is True
+    assert not _memo.frozen(writeable) and _memo.recall("mean_sd", writeable) is None
+    assert not _memo.frozen(x.tolist()) and not _memo.frozen(None)

@@ -154,12 +154,12 @@ def finish(spec: Spec, d: CharDraft) -> CharacteristicResult:
         # pooled data; a PASS lists the characteristic's own checks first
         reasons = own + named if outcome == "PASS" else named + own
         reasons = reasons or ("no checks",)
+    # by position, in the fields' order: name, unit, decision, reasons, review, processes,
+    # checks, diagnostics, spec, pairs, unmatched_pairs, distribution, streams (a keyword
+    # costs about 30 ns a field)
     return CharacteristicResult(
-        name=d.ch.name, unit=d.ch.unit, decision=outcome, reasons=reasons,
-        review=tuple(review), processes=d.processes, checks=tuple(checks),
-        diagnostics=tuple(d.diagnostics), spec=d.ch, pairs=d.pairs, unmatched_pairs=d.unmatched,
-        distribution=_distribution_record(d), streams=streams,
-    )
+        d.ch.name, d.ch.unit, outcome, reasons, tuple(review), d.processes, tuple(checks),
+        tuple(d.diagnostics), d.ch, d.pairs, d.unmatched, _distribution_record(d), streams)
 
 
 _REVIEWS: dict[str, tuple] = {}  # check name -> (its kind, its rule hook's review or None)

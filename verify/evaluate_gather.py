@@ -21,7 +21,7 @@ from .data import analysis_values, paired_values, stream_values
 from .data.values import part_values
 from .model import DiagnosticResult, Measurements, ProcessSummary
 from .spec_model import Characteristic, Spec
-from .stats import distributions
+from .stats import _memo, distributions
 from .stats import variance_components as vc
 from .stats._memo import freeze
 from .stats.core import mean_sd
@@ -117,8 +117,10 @@ def sufficiency(spec: Spec, d: CharDraft, counts: dict, final: bool) -> None:
 
 def _summary(process: str, values: np.ndarray, lots, n_parts: int,
              parts: np.ndarray | None = None, beyond: BeyondLimits | None = None,
-             extremes: tuple[float, float] | None = None) -> ProcessSummary:
-    """One stream's summary; ``extremes``: the values' (minimum, maximum) when known."""
+             extremes: tuple[float, float] | None = None,
+             shown_lots: tuple[str, ...] | None = None) -> ProcessSummary:
+    """One stream's summary; ``extremes``: the values' (minimum, maximum) when known,
+    ``shown_lots``: ``_lots_text(lots)`` when known."""
     n = int(values.size)
     mean = sd = None
     if n:
@@ -134,17 +136,22 @@ def _summary(process: str, values: np.ndarray, lots, n_parts: int,
             within, between, truncated = vc.sd_components(parts, lots)
         except CANNOT_COMPUTE:
             pass  # fewer than 2 lots of 2 parts, or no within-lot variation: not estimable
-    # the lots in order of first appearance, as text: the labels group_codes found (remembered
-    # for the stream's lots tuple) where they are text; labels of other types (1, 1.0 and True
-    # are one key to it, three lots as text) are each made text first, as always
-    labels = group_codes(lots, len(lots))[0] if len(lots) else []
-    # (text labels are their own text, and group_codes gives each once)
-    shown_lots = tuple(labels) if all(type(v) is str for v in labels) else tuple(
-        dict.fromkeys(map(str, lots)))
+    if shown_lots is None:
+        shown_lots = _lots_text(lots)
     # by position, in the fields' order (SUMMARY_FIELDS; a keyword costs about 30 ns a field)
     return ProcessSummary(process, n, mean, sd, shown_lots, n_parts,
                           extremes[0] if n else None, extremes[1] if n else None, beyond,
                           within, between, truncated)
+
+
+def _lots_text(lots) -> tuple[str, ...]:
+    """The lots in order of first appearance, as text: the labels group_codes found (remembered
+    for the stream's lots tuple) where they are text; labels of other types (1, 1.0 and True
+    are one key to it, three lots as text) are each made text first, as always."""
+    labels = group_codes(lots, len(lots))[0] if len(lots) else []
+    # (text labels are their own text, and group_codes gives each once)
+    return tuple(labels) if all(type(v) is str for v in labels) else tuple(
+        dict.fromkeys(map(str, lots)))
 
 
 #: The fields :func:`_summary` gives ``ProcessSummary`` by position, in order.
@@ -161,10 +168,14 @@ def _extremes(samples: list[np.ndarray]) -> list[tuple[float, float] | None]:
     out: list[tuple[float, float] | None] = [None] * len(samples)
     by_size: dict[int, list[int]] = {}
     for i, v in enumerate(samples):
-        if type(v) is np.ndarray and v.ndim == 1 and v.size and v.dtype == np.float64:
+        # (the batched pass remembers those of the rows it reduced: stats.batch._stacked)
+        if (known := _memo.recall("extremes", v)) is not None:
+            out[i] = known
+        elif type(v) is np.ndarray and v.ndim == 1 and v.size and v.dtype == np.float64:
             by_size.setdefault(v.size, []).append(i)
-    for rows in by_size.values():
-        stacked = np.stack([samples[i] for i in rows])
+    for n, rows in by_size.items():
+        # np.stack's array, in one concatenation (np.stack makes a view of each row first)
+        stacked = np.concatenate([samples[i] for i in rows]).reshape(len(rows), n)
         lows = np.minimum.reduce(stacked, axis=1).tolist()
         highs = np.maximum.reduce(stacked, axis=1).tolist()
         for i, lo, hi in zip(rows, lows, highs, strict=True):
@@ -181,7 +192,7 @@ def _stream(spec: Spec, meas: Measurements, name: str, ch: Characteristic, part_
     if part_spec is spec:  # analysed per part: the units are the parts (analysis_values')
         values, lots = part_values(meas, ch.name, name)
         values = freeze(values)
-        return Stream(name=name, values=values, parts=values, lots=lots)
+        return Stream(name, values, values, lots)  # (by position: name, values, parts, lots)
     units = analysis_values(meas, spec, ch.name, name)  # lot means
     parts = analysis_values(meas, part_spec, ch.name, name)
     return Stream(name=name, values=freeze(units.values), parts=freeze(parts.values),
@@ -229,15 +240,16 @@ def gather(spec: Spec, meas: Measurements, ch: Characteristic, final: bool) -> C
             roles.add(r)
     pairs = paired_values(meas, spec, ch.name) if roles else None
     (candidate,) = CANDIDATES  # one candidate today: several would give several comparisons
-    data = Comparison(reference=ref, candidate=streams[candidate],
-                      **{role: pairs for role in roles})
+    data = Comparison(ref, streams[candidate], **{role: pairs for role in roles}) if roles \
+        else Comparison(ref, streams[candidate])  # (by position: reference, candidate)
     fit = fit_error = None
     if ch.distribution in ("lognormal", "weibull", "box-cox"):
         try:
             fit = distributions.fit(data.candidate.parts, ch.distribution)
         except CANNOT_COMPUTE as err:
             fit_error = str(err)
-    inp = CheckInput(spec=spec, ch=ch, data=data, final=final, fit=fit, fit_error=fit_error)
+    # by position, in the fields' order: spec, ch, data, final, fit, fit_error
+    inp = CheckInput(spec, ch, data, final, fit, fit_error)
     d = CharDraft(ch=ch, inp=inp, processes={}, shown={name: streams[name] for name in shown},
                   kinds=kinds)
     counts = {p: int(st.values.size) for p, st in d.shown.items()}
@@ -272,9 +284,16 @@ def summarize(measured: list[CharDraft]) -> None:
     extremes = _extremes([st.values for _, _, st in shown])
     for d in measured:
         d.processes = {}
+    # the lots as text once per lots object (the streams hold theirs while this runs, so an id
+    # stays its; the gathering gives the streams of equal lots one tuple): the same text
+    texts: dict[int, tuple[str, ...]] = {}
     for i, (d, name, st) in enumerate(shown):
-        d.processes[name] = _summary(name, st.values, st.lots, int(st.parts.size), st.parts,
-                                     beyond.get(i), extremes[i])
+        lots = st.lots
+        text = texts.get(id(lots))
+        if text is None:
+            text = texts[id(lots)] = _lots_text(lots)
+        d.processes[name] = _summary(name, st.values, lots, int(st.parts.size), st.parts,
+                                     beyond.get(i), extremes[i], text)
 
 
 def sub_streams(meas: Measurements, d: CharDraft) -> list[tuple[StreamDraft, CheckInput]]:

@@ -92,7 +92,10 @@ def part_values(measurements: Measurements, characteristic_name: str, process: s
     names (an unknown characteristic or process has no values)."""
     ix = _analysis_index(measurements.table)
     lo, hi = ix.groups.get((characteristic_name, process), (0, 0))
-    return ix.value[lo:hi].copy(), tuple(ix.lot[lo:hi].tolist())
+    lots = tuple(ix.lot[lo:hi].tolist())
+    if ix.interned is not None:  # text lots: equal tuples are one object (see _Index)
+        lots = ix.interned.setdefault(lots, lots)
+    return ix.value[lo:hi].copy(), lots
 
 
 class _Index:
@@ -101,16 +104,29 @@ class _Index:
     every characteristic and process in turn, so the table is gathered once, not filtered per
     call. The pair keys, which only :func:`paired_values` reads, are taken on first use. The
     index is built once per table and kept: the tidy table is read as loaded, never changed in
-    place afterwards (a table changed in place would be read partly as it was)."""
+    place afterwards (a table changed in place would be read partly as it was).
 
-    __slots__ = ("value", "lot", "order", "source_row", "groups", "_table", "_rows", "_pair",
-                 "_stream")
+    ``interned`` (None unless every lot is text) gives :func:`part_values` one tuple object for
+    each run of lots it has read (a layout measures its characteristics on the same parts):
+    the statistics then know a stream's lots by identity (``stats.samples.group_codes``, the
+    process summaries' lots as text), without comparing their labels again. Equal tuples of
+    text are interchangeable (equal only if the same text); labels of other types are not
+    (1, 1.0 and True are equal, their text is not), so those tuples are each their own."""
+
+    __slots__ = ("value", "lot", "order", "source_row", "groups", "interned", "_table", "_rows",
+                 "_pair", "_stream")
 
     def __init__(self, table: pd.DataFrame, rows: np.ndarray, groups: dict, order: np.ndarray,
                  source_row: np.ndarray) -> None:
         self._table, self._rows, self._pair, self._stream = table, rows, None, None
         self.value = table["value"].to_numpy(dtype=float)[rows]
-        self.lot = _text_objects(table["lot"])[rows]  # object array of str
+        text = _text_codes(table["lot"])
+        if text is None:
+            self.lot = table["lot"].to_numpy(dtype=object)[rows]
+            self.interned = None
+        else:  # _text_objects' array, the rows' codes taken first (one take of objects)
+            self.lot = text[0][text[1][rows]]  # object array of str
+            self.interned = {}
         self.order = order  # (of the rows given, in their order)
         self.source_row = source_row
         self.groups = groups  # (characteristic, process) -> (start, stop)
@@ -184,13 +200,23 @@ def _text_objects(column: pd.Series) -> np.ndarray:
     """A text column as an object array of str, ``column.to_numpy(dtype=object)``: for pandas'
     pyarrow text storage without missing values, each distinct text made a str once (pyarrow's
     dictionary encoding) and shared by its rows, rather than a str per row."""
+    text = _text_codes(column)
+    if text is None:
+        return column.to_numpy(dtype=object)
+    return text[0][text[1]]
+
+
+def _text_codes(column: pd.Series) -> tuple[np.ndarray, np.ndarray] | None:
+    """For pandas' pyarrow text storage without missing values, the distinct texts (an object
+    array of str, each made once by pyarrow's dictionary encoding) and each row's code into
+    them; None for any other column."""
     arr = column.array
     if isinstance(arr, pd.arrays.ArrowStringArray):
         enc = arr.__arrow_array__().combine_chunks().dictionary_encode()
         if enc.null_count == 0:
             names = np.array(enc.dictionary.to_pylist(), dtype=object)
-            return names[enc.indices.to_numpy(zero_copy_only=False)]
-    return column.to_numpy(dtype=object)
+            return names, enc.indices.to_numpy(zero_copy_only=False)
+    return None
 
 
 def stream_values(measurements: Measurements, characteristic: str) -> dict[str, object]:

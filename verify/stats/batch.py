@@ -35,6 +35,10 @@ from .stability import StabilityResult
 from .variance_components import sds_of
 
 MIN_ROWS = 2  # fewer samples of a length gain nothing from stacking
+#: float64 as a dtype: ``a.dtype == FLOAT64`` is ``a.dtype == np.float64`` without making the
+#: dtype from the scalar type on each comparison (about 0.1 us; the batch asks it of each
+#: sample several times)
+FLOAT64 = np.dtype(np.float64)
 #: The most values a batched rank test ranks: its tie term sum(t^3 - t), an int64 here and a
 #: float sum in the one-sample route, is the same number only while it stays below 2^53
 #: (N^3 < 2^53 for N up to about 208,000); larger samples go to the one-sample route.
@@ -55,7 +59,7 @@ def prefetch(samples, in_lots=(), joined=()) -> None:
     _resolutions(joined)
     by_n: dict[int, dict[int, np.ndarray]] = {}
     for x in {id(x): x for x in samples}.values():  # (a sample given twice is looked at once)
-        if (x is None or not _memo.frozen(x) or x.ndim != 1 or x.dtype != np.float64
+        if (x is None or not _memo.frozen(x) or x.ndim != 1 or x.dtype != FLOAT64
                 or _memo.recall("individuals_chart", x) is not None):
             continue
         by_n.setdefault(x.size, {})[id(x)] = x
@@ -88,8 +92,13 @@ def _stacked(rows: list[np.ndarray], n: int) -> None:
         return
     # what is remembered of each row, added to in place (the rows are frozen: prefetch's)
     memo = [_memo.topics(r) for r in rows]
-    for t in memo:  # every value finite (a NaN or an infinity fails the bounds):
-        t["finite"] = True  # what samples.finite_values checks
+    for t, low, high in zip(memo, lo.tolist(), hi.tolist(), strict=True):
+        # every value finite (a NaN or an infinity fails the bounds): what
+        t["finite"] = True  # samples.finite_values checks
+        # and the (minimum, maximum) the process summary shows (evaluate_gather._extremes: a
+        # row's extremes are exact whatever the order of reduction but for a zero)
+        if low != 0.0 and high != 0.0:
+            t["extremes"] = (low, high)
     means, sds = _mean_sds(memo, x, n)
     m, s = np.array(means), np.array(sds)
     keep = np.isfinite(s) & (s > 0.0)
@@ -143,7 +152,7 @@ def _resolutions(joined) -> None:
     for parts in joined:
         size = 0
         for x in parts:
-            if not (_memo.frozen(x) and x.ndim == 1 and x.dtype == np.float64):
+            if not (_memo.frozen(x) and x.ndim == 1 and x.dtype == FLOAT64):
                 break
             size += x.size
         else:
@@ -179,24 +188,28 @@ def _one_ways(in_lots) -> None:
     F tail once for all rows. Rows that are not finite, or without variation within the lots,
     are left to the one-sample route (and its error)."""
     by_codes: dict[bytes, tuple] = {}
-    # the codes of each distinct lots tuple and its group (by the codes' content), or None
-    # where the one-sample route would not share them: group_codes remembers a tuple of text by
-    # content, and a tuple equal to it is text
-    codes_of: dict[tuple, tuple | None] = {}
+    # the codes of each lots tuple and its group (by the codes' content), or None where the
+    # one-sample route would not share them: group_codes remembers a tuple of text by content
+    # (each tuple looked up once, by identity, the entry holding it so that its id stays its:
+    # the gathering gives the streams of equal lots one tuple)
+    codes_of: dict[int, tuple] = {}
     for x, lots in in_lots:
-        if (not _memo.frozen(x) or x.ndim != 1 or x.dtype != np.float64 or type(lots) is not tuple
+        if (not _memo.frozen(x) or x.ndim != 1 or x.dtype != FLOAT64 or type(lots) is not tuple
                 or len(lots) != x.size or _memo.recall("one_way", x) is not None):
             continue
-        found = codes_of.get(lots, False)
-        if found is False:
+        hit = codes_of.get(id(lots))
+        if hit is not None and hit[0] is lots:
+            found = hit[1]
+        else:
             try:
                 codes = group_codes(lots, x.size)[1]
             except ValueError:
                 codes = None
             if codes is not None and codes.flags.writeable:  # not remembered by content: the
                 codes = None  # one-sample route would not share it
-            found = codes_of[lots] = None if codes is None else (
+            found = None if codes is None else (
                 codes, by_codes.setdefault(codes.tobytes(), (codes, {}))[1])
+            codes_of[id(lots)] = (lots, found)
         if found is not None:
             found[1][id(x)] = (x, found[0])
     for codes, group in by_codes.values():
@@ -354,15 +367,15 @@ def prefetch_ranks(requests) -> None:
     for kind, x, y in requests:
         if kind == "brown_forsythe":
             if (_memo.frozen(x) and _memo.frozen(y) and x.ndim == 1 and y.ndim == 1
-                    and x.dtype == np.float64 and y.dtype == np.float64
+                    and x.dtype == FLOAT64 and y.dtype == FLOAT64
                     and _memo.recall("brown_forsythe", x) is None):
                 spreads.setdefault((x.size, y.size), {})[(id(x), id(y))] = (x, y)
             continue
-        if kind == "signed_rank" and _memo.frozen(x) and x.ndim == 1 and x.dtype == np.float64:
+        if kind == "signed_rank" and _memo.frozen(x) and x.ndim == 1 and x.dtype == FLOAT64:
             if _memo.recall("signed_rank", x) is None:
                 signed.setdefault(x.size, {})[(id(x), float(y))] = (x, float(y))
         elif (kind == "rank_sum" and _memo.frozen(x) and _memo.frozen(y) and x.ndim == 1
-              and y.ndim == 1 and x.dtype == np.float64 and y.dtype == np.float64):
+              and y.ndim == 1 and x.dtype == FLOAT64 and y.dtype == FLOAT64):
             if _memo.recall("rank_sum", x) is None:
                 pairs.setdefault((x.size, y.size), {})[(id(x), id(y))] = (x, y)
     for n, group in signed.items():

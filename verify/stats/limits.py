@@ -186,34 +186,37 @@ def beyond_limits_many(
         else:
             out[i] = beyond_limits(v, lower=lower[i], upper=upper[i],
                                    distribution=distribution[i])
-    for rows in by_size.values():
+    for n, rows in by_size.items():
         lo = [lower[i] for i in rows]
         hi = [upper[i] for i in rows]
-        stacked = np.stack([samples[i] for i in rows])
+        # np.stack's array, in one concatenation (np.stack makes a view of each row first)
+        stacked = np.concatenate([samples[i] for i in rows]).reshape(len(rows), n)
         # a missing limit compares as NaN, which nothing is below or above (and counts 0)
-        below = np.count_nonzero(
-            stacked < np.array([np.nan if x is None else x for x in lo])[:, None], axis=1)
-        above = np.count_nonzero(
-            stacked > np.array([np.nan if x is None else x for x in hi])[:, None], axis=1)
-        ms = [mean_sd(samples[i])[1:] for i in rows]
-        # the standardised limits of the rows with a spread, Phi of all of them at once
-        fit = [r for r, (m, s) in enumerate(ms)
-               if s > 0 and math.isfinite(m) and math.isfinite(s)]
-        z = np.zeros(2 * len(fit))
-        z[0::2] = [(lo[r] - ms[r][0]) / ms[r][1] if lo[r] is not None else 0.0 for r in fit]
-        z[1::2] = [(ms[r][0] - hi[r]) / ms[r][1] if hi[r] is not None else 0.0 for r in fit]
-        tails = dict(zip(fit, zip(*[iter(special.ndtr(z).tolist())] * 2, strict=True),
-                         strict=True))
-        for r, (i, nb, na) in enumerate(zip(rows, below.tolist(), above.tolist(), strict=True)):
-            t = tails.get(r)
-            if t is None:  # no spread (or none finite): as beyond_limits says it, or raises
+        lo_arr = np.array([np.nan if x is None else x for x in lo], dtype=float)
+        hi_arr = np.array([np.nan if x is None else x for x in hi], dtype=float)
+        below = np.count_nonzero(stacked < lo_arr[:, None], axis=1)
+        above = np.count_nonzero(stacked > hi_arr[:, None], axis=1)
+        ms = [mean_sd(samples[i]) for i in rows]
+        m = np.array([x[1] for x in ms])
+        s = np.array([x[2] for x in ms])
+        # the standardised limits of every row, Phi of all of them at once: element by element
+        # the floats of normal_ppm_beyond (a missing limit's NaN gives a tail of 0.0 instead);
+        # rows without a spread (or not finite) are beyond_limits' own
+        has_lo = np.array([x is not None for x in lo])
+        has_hi = np.array([x is not None for x in hi])
+        with np.errstate(divide="ignore", invalid="ignore"):
+            tails = special.ndtr(np.concatenate(((lo_arr - m) / s, (m - hi_arr) / s)))
+        ppm_lo = np.where(has_lo, 1e6 * tails[:m.size], 0.0)
+        ppm_hi = np.where(has_hi, 1e6 * tails[m.size:], 0.0)
+        fit = (s > 0.0) & np.isfinite(m) & np.isfinite(s)
+        for r, (i, nb, na, ok, p_lo, p_hi, with_lo, with_hi) in enumerate(zip(
+                rows, below.tolist(), above.tolist(), fit.tolist(), ppm_lo.tolist(),
+                ppm_hi.tolist(), has_lo.tolist(), has_hi.tolist(), strict=True)):
+            if not ok:  # no spread (or none finite): as beyond_limits says it, or raises
                 out[i] = beyond_limits(samples[i], lower=lo[r], upper=hi[r])
                 continue
-            ppm_lo = 0.0 if lo[r] is None else 1e6 * t[0]
-            ppm_hi = 0.0 if hi[r] is None else 1e6 * t[1]
             # by position, in the fields' order: n, below, above, expected_ppm (its below
             # and above), model, note
-            out[i] = BeyondLimits(int(samples[i].size), nb if lo[r] is not None else 0,
-                                  na if hi[r] is not None else 0, ppm_lo + ppm_hi, ppm_lo,
-                                  ppm_hi, "normal", None)
+            out[i] = BeyondLimits(n, nb if with_lo else 0,
+                                  na if with_hi else 0, p_lo + p_hi, p_lo, p_hi, "normal", None)
     return out
