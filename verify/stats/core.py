@@ -62,7 +62,6 @@ def t_sf(t: float, df: float) -> float:
     return t_cdf(-t, df)
 
 
-
 @lru_cache(maxsize=1024)
 def t_quantile(p: float, df: float) -> float:
     """The p-quantile of Student's t (remembered: the characteristics of a layout ask for the
@@ -142,8 +141,7 @@ def confidence_interval(
         raise ValueError(f"confidence level must lie in (0, 1), not {level}")
     check_alternative(alternative)
     if alternative == "two-sided":
-        half = t_quantile(0.5 + level / 2.0, df) * se
-        return Interval(estimate - half, estimate + half, level)
+        return two_sided_interval(estimate, se, df, level)
     q = t_quantile(level, df) * se
     if alternative == "less":
         return Interval(-math.inf, estimate + q, level)
