@@ -239,6 +239,104 @@ def _tost_power_many(delta, lo, hi, taus: np.ndarray, dfs: np.ndarray, alpha) ->
     gets :data:`GL_POINTS` nodes (:data:`GL_TAIL_POINTS` in the outer 1e-9 tails), and all
     cases are evaluated in one pass.
     """
+    return _tost_power_rule(delta, lo, hi, taus, dfs, alpha, (_GL_X, _GL_W),
+                            (_GL_TAIL_X, _GL_TAIL_W), False)
+
+
+#: The nodes per piece (and in the outer tails) of the coarse rule
+#: (:func:`_tost_power_coarse`).
+COARSE_POINTS = 10
+COARSE_TAIL_POINTS = 4
+_COARSE = np.polynomial.legendre.leggauss(COARSE_POINTS)
+_COARSE_TAIL = np.polynomial.legendre.leggauss(COARSE_TAIL_POINTS)
+
+#: The quantiles of the sd ratio S the integral is cut at, as (probability, from above):
+#: the exact rule's seven (its range, 1 - 2e-20 of S, and the 1e-9 tails, quartiles and
+#: median), then the coarse rule's three more, which split the long stretches of the log
+#: scale where the density of S rises like s^df (the lower tail at small df) and the upper
+#: tail, so that few nodes per piece suffice there.
+_QUANTILES = ((1e-20, False), (1e-9, False), (0.25, False), (0.5, False), (0.25, True),
+              (1e-9, True), (1e-20, True), (1e-5, False), (1e-2, False), (1e-4, True))
+_EXACT_CUTS, _COARSE_CUTS = 7, 10
+
+
+def _tost_power_coarse(delta, lo, hi, taus: np.ndarray, dfs: np.ndarray, alpha) -> np.ndarray:
+    """:func:`_tost_power_many`'s integral with three more cuts (:data:`_QUANTILES`, those of
+    the whole df at or below each case's: :func:`_coarse_rows`) and far fewer nodes per piece
+    (:data:`COARSE_POINTS`, :data:`COARSE_TAIL_POINTS`): close to it (within
+    :data:`~verify.stats.sample_size_many.DECISION_BAND` from df 2 on), not equal. Only for
+    deciding whether a power reaches a target that lies well away from it; df of at least 2."""
+    return _tost_power_rule(delta, lo, hi, taus, dfs, alpha, _COARSE, _COARSE_TAIL, True)
+
+
+#: The sd ratio's quantiles (:data:`_QUANTILES`) and log constant per whole df up to this,
+#: remembered (:func:`_sd_ratio_rows`): the one-sample, paired and pooled df are whole numbers
+#: that recur in every evaluation (the lot sizes around each guess).
+_TABLE_DF = 4096
+_TABLE = np.empty((_TABLE_DF + 1, len(_QUANTILES) + 1))  # row d: df d, once _FILLED[d]
+_FILLED = np.zeros(_TABLE_DF + 1, dtype=bool)
+
+
+def _sd_ratio_columns(dfs: np.ndarray, ncuts: int) -> np.ndarray:
+    """Per df: S = sqrt(V / df) at the first ``ncuts`` of :data:`_QUANTILES`, then the log
+    constant of its density (:func:`~verify.stats.noncentral._sd_ratio_log_constant`)."""
+    h = 0.5 * dfs
+    cols = [np.sqrt(2.0 * (special.gammainccinv if upper else special.gammaincinv)(h, q) / dfs)
+            for q, upper in _QUANTILES[:ncuts]]
+    cols.append(np.array([_sd_ratio_log_constant(d) for d in dfs.tolist()]))
+    return np.column_stack(cols)
+
+
+def _table_rows(idx: np.ndarray) -> np.ndarray:
+    """The rows of :data:`_TABLE` for whole df ``idx`` (at most :data:`_TABLE_DF`), computing
+    those not yet there (a row is marked filled only once written, so a second thread reads
+    a row whole or computes it again, to the same floats)."""
+    need = idx[~_FILLED[idx]]
+    if need.size:
+        _TABLE[need] = _sd_ratio_columns(need.astype(float), len(_QUANTILES))
+        _FILLED[need] = True
+    return _TABLE[idx]
+
+
+def _sd_ratio_rows(udf: np.ndarray, ncuts: int) -> np.ndarray:
+    """:func:`_sd_ratio_columns` of distinct df, whole df up to :data:`_TABLE_DF` read from the
+    table (filled as they first appear). The inversions and the arithmetic after them work
+    element by element, so a remembered row equals the freshly computed one bit for bit."""
+    out = np.empty((udf.size, ncuts + 1))
+    whole = (udf <= _TABLE_DF) & (udf == np.floor(udf))
+    if whole.any():
+        rows = _table_rows(udf[whole].astype(np.intp))
+        out[whole, :ncuts] = rows[:, :ncuts]
+        out[whole, ncuts] = rows[:, -1]
+    rest = ~whole
+    if rest.any():
+        out[rest] = _sd_ratio_columns(udf[rest], ncuts)
+    return out
+
+
+def _coarse_rows(dfs: np.ndarray) -> np.ndarray:
+    """The coarse rule's cuts and log constant per case: the cuts those of the whole df below
+    (from the table; a df above :data:`_TABLE_DF`: its own), which, S spreading more the
+    fewer its df, cover at least the same range of S; the log constant for the df itself,
+    computed directly (no Stirling series): what these change is within the coarse rule's
+    measured error (tests/test_plan_walk_decisions.py)."""
+    out = np.empty((dfs.size, len(_QUANTILES) + 1))
+    below = np.floor(dfs)
+    small = below <= _TABLE_DF
+    if small.any():
+        out[small, :-1] = _table_rows(below[small].astype(np.intp))[:, :-1]
+    if not small.all():
+        out[~small, :-1] = _sd_ratio_columns(dfs[~small], len(_QUANTILES))[:, :-1]
+    h = 0.5 * dfs
+    out[:, -1] = math.log(2.0) + h * np.log(h) - h - special.gammaln(h)
+    return out
+
+
+def _tost_power_rule(delta, lo, hi, taus, dfs, alpha, rule, tail_rule, coarse) -> np.ndarray:
+    """The TOST power integral of :func:`_tost_power_many` with the Gauss-Legendre
+    (nodes, weights) ``rule`` on each piece, ``tail_rule`` on the outer 1e-9 tails; cut at the
+    exact rule's seven quantiles of :data:`_QUANTILES`, or with ``coarse`` at all ten
+    (:func:`_coarse_rows`)."""
     taus = np.asarray(taus, dtype=float)
     dfs = np.asarray(dfs, dtype=float)
     h = 0.5 * dfs
@@ -247,19 +345,18 @@ def _tost_power_many(delta, lo, hi, taus: np.ndarray, dfs: np.ndarray, alpha) ->
     lower_z = (np.asarray(lo, dtype=float) - delta) / taus
     s_max = (upper_z - lower_z) / (2.0 * c)
     # the quantiles of S depend on df alone, and the cases share few distinct df (the lot sizes
-    # around each guess, one df per design and size): each is inverted once, then spread out
-    udf, back = np.unique(dfs, return_inverse=True)
-    uh = 0.5 * udf
-
-    def s_at(inverse, q):  # the quantile of S, per case
-        return np.sqrt(2.0 * inverse(uh, q) / udf)[back]
-
-    s_lo = s_at(special.gammaincinv, 1e-20)
-    s_hi = np.minimum(s_at(special.gammainccinv, 1e-20), s_max)
-    cuts = np.column_stack([s_at(special.gammaincinv, q) for q in (1e-9, 0.25, 0.5)]
-                           + [s_at(special.gammainccinv, q) for q in (0.25, 1e-9)] + [
+    # around each guess, one df per design and size): each is inverted once (whole df once in
+    # the process, _sd_ratio_rows), then spread out
+    if coarse:
+        per_case, ncuts = _coarse_rows(dfs), _COARSE_CUTS
+    else:
+        udf, back = np.unique(dfs, return_inverse=True)
+        per_case, ncuts = _sd_ratio_rows(udf, _EXACT_CUTS)[back], _EXACT_CUTS
+    s_lo = per_case[:, 0]
+    s_hi = np.minimum(per_case[:, 6], s_max)
+    cuts = np.column_stack([per_case[:, 1:6]] + [
         z / c + k / c for z in (upper_z, -lower_z) for k in (-3.0, 0.0, 3.0)
-    ])
+    ] + [per_case[:, 7:ncuts]])
     # the pieces of every case at once: its edges sorted, cuts outside (s_lo, s_hi) clipped
     # onto its ends, so that they (and repeated cuts) give empty pieces, which are dropped
     inner = np.clip(cuts, s_lo[:, None], s_hi[:, None])
@@ -269,13 +366,13 @@ def _tost_power_many(delta, lo, hi, taus: np.ndarray, dfs: np.ndarray, alpha) ->
     tail = (right <= cuts[:, [0]]) | (left >= cuts[:, [4]])  # beyond the 1e-9 quantiles
     owner = np.broadcast_to(np.arange(taus.size)[:, None], left.shape)
     out = np.zeros(taus.size)
-    k0_all = np.array([_sd_ratio_log_constant(d) for d in udf.tolist()])[back]
+    k0_all = per_case[:, ncuts]
     for is_tail in (False, True):
         sel = keep & (tail == is_tail)
         if not sel.any():
             continue
         lefts, rights, case = left[sel], right[sel], owner[sel]
-        gx, gw = (_GL_TAIL_X, _GL_TAIL_W) if is_tail else (_GL_X, _GL_W)
+        gx, gw = tail_rule if is_tail else rule
         # in t = log s the density's factor s^(df - 1) is smooth even for df near 1, where on
         # the s scale it bends sharply near 0
         log_l, log_r = np.log(lefts), np.log(rights)

@@ -254,9 +254,8 @@ def complete_batch(drafts: list[Draft]) -> None:
     if not asked:
         return
     answers = power.plan_tost_many([dr.batch for dr in asked])
-    for dr, (pw, size) in zip(asked, answers, strict=True):
-        dr.result = replaced(dr.result, power=finite(pw),
-                            planned_n=size.n_new if size is not None else None)
+    for dr, (pw, n_new) in zip(asked, answers, strict=True):
+        dr.result = replaced(dr.result, power=finite(pw), planned_n=n_new)
         dr.batch = None
 
 
