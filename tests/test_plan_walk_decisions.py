@@ -226,3 +226,17 @@ def test_exact_powers_are_the_same_with_the_table_filled_or_empty(monkeypatch, e
     # and as without the table: every df computed fresh
     monkeypatch.setattr(power_of_tests, "_TABLE_DF", 0)
     assert power_of_tests._tost_power_many(*cols).tobytes() == first.tobytes()
+
+
+@pytest.mark.parametrize("block", [1, 7, 10_000])
+def test_the_block_size_of_the_pieces_changes_no_float(monkeypatch, block):
+    """The pieces are evaluated in blocks of about _BLOCK * GL_POINTS nodes whatever the rule's
+    nodes per piece: each piece's sum is its own row's and the pieces are added in order, so
+    any block size gives the same powers bit for bit."""
+    cols = _random_cases(np.random.default_rng(12), 400)
+    exact = power_of_tests._tost_power_many(*cols)
+    coarse = power_of_tests._tost_power_coarse(*cols[:, cols[4] >= 2.0])
+    monkeypatch.setattr(power_of_tests, "_BLOCK", block)
+    assert power_of_tests._tost_power_many(*cols).tobytes() == exact.tobytes()
+    assert power_of_tests._tost_power_coarse(*cols[:, cols[4] >= 2.0]).tobytes() == \
+        coarse.tobytes()

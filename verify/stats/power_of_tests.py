@@ -379,11 +379,14 @@ def _tost_power_rule(delta, lo, hi, taus, dfs, alpha, rule, tail_rule, coarse) -
         half = 0.5 * (log_r - log_l)
         mid = 0.5 * (log_r + log_l)
         # per piece: its case's constants; the nodes in blocks of pieces small enough to stay
-        # in the processor's cache (the same arithmetic element by element, in place)
+        # in the processor's cache (the same arithmetic element by element, in place; each
+        # piece's sum is its own row's, and np.add.at adds the pieces in order, so the block
+        # size does not change a float): about _BLOCK * GL_POINTS nodes a block
         k0, hh, dm1 = k0_all[case], h[case], dfs[case] - 1.0
         cc, up, low = c[case], upper_z[case], lower_z[case]
-        for a in range(0, case.size, _BLOCK):
-            b = a + _BLOCK
+        block = _BLOCK * GL_POINTS // gx.size
+        for a in range(0, case.size, block):
+            b = a + block
             out_piece = _pieces(mid[a:b], half[a:b], gx, gw, k0[a:b], hh[a:b], dm1[a:b],
                                 cc[a:b], up[a:b], low[a:b])
             np.add.at(out, case[a:b], out_piece)
