@@ -80,7 +80,7 @@ def _question(rng: np.random.Generator) -> dict:
         else float(rng.choice([0.0, 1.1 * hi])),  # (one outside the margins: no n)
         sd=sd, n_new=n,
         n_old=None if design == "one-sample" else (n if design == "paired" else n + 3),
-        design=design, alpha=float(np.exp(rng.uniform(np.log(0.001), np.log(0.2)))),
+        design=design, alpha=float(np.exp(rng.uniform(np.log(1e-4), np.log(0.2)))),
         low=lo, high=hi, power=float(rng.uniform(0.5, 0.99)),
         ratio=1.0 if design in ("one-sample", "paired") else float(rng.choice([1.0, 0.5, 2.0])),
         sd_old=float(rng.uniform(0.002, 0.02)) if design == "welch" else None)
@@ -120,7 +120,7 @@ def _near_target(rng: np.random.Generator, count: int) -> list[dict]:
 
 def test_planned_n_equals_the_one_at_a_time_search(monkeypatch):
     rng = np.random.default_rng(17)
-    questions = [_question(rng) for _ in range(160)] + _near_target(rng, 80)
+    questions = [_question(rng) for _ in range(300)] + _near_target(rng, 120)
     undecided = []
     walk_powers = sample_size_many._walk_powers
 
@@ -145,7 +145,8 @@ def test_planned_n_equals_the_one_at_a_time_search(monkeypatch):
         except (StatsError, ValueError):
             ref_pw = None
         assert pw == ref_pw  # the power at the question's own lot sizes: exact, bit for bit
-    assert sum(n is not None for _, n in together) > 150
+    assert sum(n is not None for _, n in together) > 300
+    assert any(q["alpha"] < sample_size_many.COARSE_MIN_ALPHA for q in questions)
 
 
 def test_the_walks_take_as_many_rounds_as_with_exact_powers(monkeypatch):
