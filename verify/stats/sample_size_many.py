@@ -195,12 +195,12 @@ def _bisections(table: _Table, which: list[int]) -> list[int | None]:
 #: random cases each (all four designs, lot sizes 2 to 1e5 so df from 2 to 2e5, alpha 0.001 to
 #: 0.2, symmetric and lopsided margins 0.3 to 300 sds of the estimate wide, shifts inside, near
 #: and outside them, powers from 0 to 1), the largest difference between the two rules where
-#: the coarse one is used was 2.5e-7 (at df 2; 1.6e-9 from df 3, 4e-10 from df 10): the band is
-#: 400 times that. tests/test_plan_walk_decisions.py holds the rule within a hundredth of it.
+#: the coarse one is used was 2.5e-7 (at df 2; 1.6e-9 from df 3, 4.1e-10 from df 10): the band
+#: is 400 times that. tests/test_plan_walk_decisions.py holds the rule within a hundredth of it.
 DECISION_BAND = 1e-4
 #: The coarse rule is used from df 2 and alpha 0.001 on: below them its error grows (2e-4 at
-#: df 1, where the density bends sharply on the log scale; 2.6e-6 at alpha 1e-4, where the
-#: normal probabilities turn steeply), so those lot sizes are integrated exactly.
+#: df 1, where the density bends sharply on the log scale; 2.6e-6 at alpha below 0.001, where
+#: the normal probabilities turn steeply), so those lot sizes are integrated exactly.
 COARSE_MIN_DF = 2.0
 COARSE_MIN_ALPHA = 1e-3
 
