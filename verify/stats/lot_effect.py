@@ -8,6 +8,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from . import _memo
 from ._frozen import fast_init
 from .errors import NotApplicableError
 from .one_way import one_way
@@ -81,13 +82,16 @@ def lot_effect(values: Sequence[float] | np.ndarray, lots: Sequence[Hashable]) -
     """
     a = finite_values(values)
     labels, codes = group_codes(lots, a.size)
-    k = len(labels)
-    if k < 2:
-        raise NotApplicableError(f"a lot effect needs at least 2 lots, got {k}")
-    sizes = group_sizes(codes, k)
-    size_list = sizes.tolist()
-    if max(size_list) < 2:
-        raise NotApplicableError("no lot has 2 or more values, so within-lot variation is unknown")
+    # what the lots alone give (their count, sizes, labels and sizes as tuples), remembered
+    # with their read-only codes: the characteristics measured on the same parts share one
+    # codes array (samples.group_codes), so each layout of lots is looked at once. The
+    # remembered entry is what the lines of _lots_alone give for these codes (the labels are
+    # those group_codes found with them)
+    lots_alone = _memo.recall("lot_effect_lots", codes)
+    if lots_alone is None:
+        lots_alone = _lots_alone(labels, codes)
+        _memo.remember("lot_effect_lots", codes, lots_alone)  # (only read-only codes are)
+    k, sizes, label_tuple, size_tuple = lots_alone
     ow = one_way(a, codes, sizes, refused="lot effect cannot be tested")
     msb, msw, n0 = ow.ms_between, ow.ms_within, ow.n0
     icc = max(0.0, (msb - msw) / (msb + (n0 - 1.0) * msw))
@@ -101,4 +105,17 @@ def lot_effect(values: Sequence[float] | np.ndarray, lots: Sequence[Hashable]) -
     return LotEffectResult("one-way ANOVA across lots", float(ow.statistic),
                            int(ow.df_between), int(ow.df_within), ow.pvalue, int(k), float(icc),
                            float(max(0.0, (msb - msw) / n0)), float(msw), float(n0),
-                           tuple(labels), means, tuple(size_list))
+                           label_tuple, means, size_tuple)
+
+
+def _lots_alone(labels: list, codes: np.ndarray) -> tuple[int, np.ndarray, tuple, tuple]:
+    """(k, the size of each lot, the labels as a tuple, the sizes as a tuple) of lots coded
+    ``codes``; NotApplicableError for fewer than 2 lots or no lot of 2 values or more."""
+    k = len(labels)
+    if k < 2:
+        raise NotApplicableError(f"a lot effect needs at least 2 lots, got {k}")
+    sizes = group_sizes(codes, k)
+    size_list = sizes.tolist()
+    if max(size_list) < 2:
+        raise NotApplicableError("no lot has 2 or more values, so within-lot variation is unknown")
+    return k, sizes, tuple(labels), tuple(size_list)
