@@ -213,3 +213,51 @@ def test_location_equivalence_draft_is_the_plain_tost_and_interval():
             assert res.critical_value.hex() == t_quantile(1.0 - spec.alpha, res.df).hex()
             seen += 1
     assert seen == 24
+
+
+_ODD_VALUES = [1.5, -0.0, 0.0, 1e308, 5e-324, math.inf, -math.inf, math.nan, None, 3, -2, True,
+               np.float64(2.5), np.float64(math.nan), np.float64(math.inf), np.int64(7),
+               np.float32(0.1)]
+
+
+@pytest.mark.parametrize("x", _ODD_VALUES)
+def test_finite_of_a_float_is_its_plain_route(x):
+    """drafting.finite returns a finite float as it is: what float(x) and the finiteness
+    test give; any other value goes through them."""
+    from verify.checks.drafting import finite
+
+    want = None if x is None else float(x) if math.isfinite(float(x)) else None
+    got = finite(x)
+    assert type(got) is type(want) and (got is None or got.hex() == want.hex())
+
+
+@pytest.mark.parametrize("x", _ODD_VALUES)
+def test_capability_limit_of_a_float_is_its_plain_route(x):
+    """capability._limit returns a finite float as it is, what its float() and finiteness
+    test give; any other value goes through them (and a non-finite one is refused)."""
+    from verify.stats.capability import _limit
+
+    if x is None:
+        assert _limit(x, "lower") is None
+        return
+    v = float(x)
+    if not math.isfinite(v):
+        with pytest.raises(ValueError, match=re.escape(
+                f"lower must be a finite number or None, not {x}")):
+            _limit(x, "lower")
+        return
+    got = _limit(x, "lower")
+    assert type(got) is float and got.hex() == v.hex()
+
+
+def test_one_sample_effect_by_position_is_the_keyword_route():
+    """ttests.effect builds the one-sample Effect by position: each field where the keyword
+    route puts it."""
+    from verify.stats import ttests
+    from verify.stats.core import mean_sd
+
+    x = np.array([10.01, 9.98, 10.03, 10.0, 9.97, 10.02])
+    n, m, s = mean_sd(x)
+    want = ttests._finish("one-sample", m - 10.0, s / math.sqrt(n), float(n - 1), n, None, s,
+                          mean_new=m, sd_new=s, target=10.0)
+    assert _bits(ttests.effect("one-sample", x, target=10.0)) == _bits(want)

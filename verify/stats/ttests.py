@@ -301,8 +301,9 @@ def effect(
         _require_n(x_new.size, "values")
         n, m, s = mean_sd(x_new)
         require_spread(n, s)
-        return _finish(design, m - tgt, s / math.sqrt(n), float(n - 1), n, None, s,
-                       mean_new=m, sd_new=s, target=tgt)
+        # (by position: mean_new=m, sd_new=s, mean_old=None, sd_old=None, target=tgt)
+        return _finish(design, m - tgt, s / math.sqrt(n), float(n - 1), n, None, s, m, s, None,
+                       None, tgt)
     if target is not None:
         raise ValueError(f"target applies only to the one-sample design, not {design!r}")
     x_old = _as_values(old, "old")
