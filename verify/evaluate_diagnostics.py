@@ -38,9 +38,10 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
     alpha = spec.alpha
     out: list[DiagnosticResult] = []
     groups = []
-    ref, cand = d.data.reference, d.data.candidate
-    if d.data.pairs is not None:
-        pv = d.data.pairs
+    data = d.data  # (a property: read once)
+    ref, cand = data.reference, data.candidate
+    if data.pairs is not None:
+        pv = data.pairs
         groups.append(("differences", pv.new - pv.old))
     else:
         if ref.values is not None:
@@ -120,7 +121,8 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
         except CANNOT_COMPUTE as err:
             out.append(not_applicable("stability", "individuals chart", group, err))
     try:
-        tol = (ch.upper - ch.lower) if (ch.lower is not None and ch.upper is not None) else None
+        lower, upper = ch.lower, ch.upper  # (properties: read once)
+        tol = (upper - lower) if (lower is not None and upper is not None) else None
         rs = diag.resolution_of(joined_parts(d), tolerance=tol)
         coarse = rs.step_over_tenth_tolerance is not None and rs.step_over_tenth_tolerance > 1.0
         out.append(_Diagnostic(
