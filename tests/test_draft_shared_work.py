@@ -261,3 +261,23 @@ def test_one_sample_effect_by_position_is_the_keyword_route():
     want = ttests._finish("one-sample", m - 10.0, s / math.sqrt(n), float(n - 1), n, None, s,
                           mean_new=m, sd_new=s, target=10.0)
     assert _bits(ttests.effect("one-sample", x, target=10.0)) == _bits(want)
+
+
+@pytest.mark.parametrize("frozen", [False, True])
+@pytest.mark.parametrize("values, lots", list(_lot_samples()))
+def test_lot_effect_figures_are_lot_effect_s(values, lots, frozen):
+    """lot_effect_figures gives (statistic, pvalue, icc, n_lots) of lot_effect's result, or its
+    error; the diagnostic names lot_effect's method."""
+    from verify.stats.lot_effect import METHOD, lot_effect, lot_effect_figures
+
+    x = _memo.freeze(values.copy()) if frozen else values.copy()
+    try:
+        r = lot_effect(values.copy(), list(lots))
+    except (NotApplicableError, DegenerateDataError) as err:
+        with pytest.raises(type(err), match=re.escape(str(err))):
+            lot_effect_figures(x, lots)
+        _memo.forget()
+        return
+    assert _hex(lot_effect_figures(x, lots)) == _hex((r.statistic, r.pvalue, r.icc, r.n_lots))
+    assert r.method == METHOD
+    _memo.forget()

@@ -11,8 +11,10 @@ import numpy as np
 from . import _memo
 from ._frozen import fast_init
 from .errors import NotApplicableError
-from .one_way import one_way
+from .one_way import OneWay, one_way
 from .samples import finite_values, group_codes, group_sizes
+
+METHOD = "one-way ANOVA across lots"  # LotEffectResult.method
 
 
 @fast_init
@@ -80,6 +82,39 @@ def lot_effect(values: Sequence[float] | np.ndarray, lots: Sequence[Hashable]) -
     >>> r.df_between, r.df_within, round(r.statistic, 1)
     (2, 3, 100.0)
     """
+    ow, k, label_tuple, size_tuple = _analysis(values, lots)
+    msb, msw, n0 = ow.ms_between, ow.ms_within, ow.n0
+    grand = float(ow.grand)
+    # each lot mean as ow.grand + ow.means_centred computes it: one double addition per lot
+    # (numpy's elementwise sum of a float and a float64 array is that same IEEE addition),
+    # a Python float as .tolist() gives it
+    means = tuple([grand + m for m in ow.means_centred.tolist()])
+    # (the fields by position: method, statistic, df_between, df_within, pvalue, n_lots, icc,
+    # var_between, var_within, n0, lot_labels, lot_means, lot_sizes)
+    return LotEffectResult(METHOD, float(ow.statistic),
+                           int(ow.df_between), int(ow.df_within), ow.pvalue, int(k), _icc(ow),
+                           float(max(0.0, (msb - msw) / n0)), float(msw), float(n0),
+                           label_tuple, means, size_tuple)
+
+
+def lot_effect_figures(values: Sequence[float] | np.ndarray, lots: Sequence[Hashable]
+                       ) -> tuple[float, float, float, int]:
+    """``(statistic, pvalue, icc, n_lots)`` of :func:`lot_effect` (the same floats, and the
+    same errors), for a caller that reads these figures alone, as the lot-effect diagnostic
+    does: the lot means, the variance components and the result are not made."""
+    ow, k, _, _ = _analysis(values, lots)
+    return float(ow.statistic), ow.pvalue, _icc(ow), int(k)
+
+
+def _icc(ow) -> float:
+    """ICC(1) of the one-way analysis ``ow``, clipped at 0 (see LotEffectResult.icc)."""
+    msb, msw = ow.ms_between, ow.ms_within
+    return float(max(0.0, (msb - msw) / (msb + (ow.n0 - 1.0) * msw)))
+
+
+def _analysis(values, lots) -> tuple[OneWay, int, tuple, tuple]:
+    """The one-way analysis of ``values`` across ``lots``, the number of lots, and the labels
+    and sizes of the lots as tuples; the errors lot_effect documents."""
     a = finite_values(values)
     labels, codes = group_codes(lots, a.size)
     # what the lots alone give (their count, sizes, labels and sizes as tuples), remembered
@@ -92,20 +127,8 @@ def lot_effect(values: Sequence[float] | np.ndarray, lots: Sequence[Hashable]) -
         lots_alone = _lots_alone(labels, codes)
         _memo.remember("lot_effect_lots", codes, lots_alone)  # (only read-only codes are)
     k, sizes, label_tuple, size_tuple = lots_alone
-    ow = one_way(a, codes, sizes, refused="lot effect cannot be tested")
-    msb, msw, n0 = ow.ms_between, ow.ms_within, ow.n0
-    icc = max(0.0, (msb - msw) / (msb + (n0 - 1.0) * msw))
-    grand = float(ow.grand)
-    # each lot mean as ow.grand + ow.means_centred computes it: one double addition per lot
-    # (numpy's elementwise sum of a float and a float64 array is that same IEEE addition),
-    # a Python float as .tolist() gives it
-    means = tuple([grand + m for m in ow.means_centred.tolist()])
-    # (the fields by position: method, statistic, df_between, df_within, pvalue, n_lots, icc,
-    # var_between, var_within, n0, lot_labels, lot_means, lot_sizes)
-    return LotEffectResult("one-way ANOVA across lots", float(ow.statistic),
-                           int(ow.df_between), int(ow.df_within), ow.pvalue, int(k), float(icc),
-                           float(max(0.0, (msb - msw) / n0)), float(msw), float(n0),
-                           label_tuple, means, size_tuple)
+    return (one_way(a, codes, sizes, refused="lot effect cannot be tested"), k, label_tuple,
+            size_tuple)
 
 
 def _lots_alone(labels: list, codes: np.ndarray) -> tuple[int, np.ndarray, tuple, tuple]:
