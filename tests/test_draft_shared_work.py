@@ -281,3 +281,49 @@ def test_lot_effect_figures_are_lot_effect_s(values, lots, frozen):
     assert _hex(lot_effect_figures(x, lots)) == _hex((r.statistic, r.pvalue, r.icc, r.n_lots))
     assert r.method == METHOD
     _memo.forget()
+
+
+def _one_samples():
+    rng = np.random.default_rng(41)
+    yield rng.normal(10.0, 0.01, 30), 10.0
+    yield rng.normal(10.0, 0.01, 30), 10
+    yield np.round(rng.normal(5.0, 0.1, 9), 2), -3.5
+    yield np.array([1.0, 2.0]), 0.0
+    yield rng.normal(0.0, 1e140, 101), 1e300
+    yield np.array([2.0, 2.0, 2.0]), 1.0  # refused: no spread
+    yield np.array([1.0]), 1.0  # refused: one value
+    yield np.array([1.0, 2.0, 1e200]), 1.0  # refused: too large
+    yield np.array([1.0, np.nan, 2.0]), 1.0  # refused: not finite
+    yield np.array([1.0, 2.0, 4.0]), math.nan  # refused: the target
+    yield np.array([1.0, 2.0, 4.0]), np.float64(2.0)
+
+
+@pytest.mark.parametrize("frozen", [False, True])
+@pytest.mark.parametrize("values, target", list(_one_samples()))
+def test_one_sample_draft_effect_equals_ttests_effect(values, target, frozen):
+    """The target check's draft builds the effect of a sample whose summary is remembered
+    from that summary (ttests.one_sample_effect): the Effect, or the error, of
+    ttests.effect("one-sample", ...) on the same sample."""
+    from types import SimpleNamespace
+
+    from verify.checks.drafting import Comparison, Stream
+    from verify.checks.location import compute as location
+    from verify.stats import ttests
+    from verify.stats.core import mean_sd
+
+    x = _memo.freeze(values.copy()) if frozen else values.copy()
+    try:
+        mean_sd(x)  # remembered where x is frozen, as the evaluation's batched pass does
+    except DegenerateDataError:
+        pass
+    data = Comparison(reference=Stream("old", None, None), candidate=Stream("new", x, x))
+    ch = SimpleNamespace(target=target)
+    try:
+        want = ttests.effect("one-sample", values.copy(), target=target)
+    except (ValueError, DegenerateDataError) as err:
+        with pytest.raises(type(err), match=re.escape(str(err))):
+            location._effect("one-sample", ch, data)
+        _memo.forget()
+        return
+    assert _bits(location._effect("one-sample", ch, data)) == _bits(want)
+    _memo.forget()

@@ -12,7 +12,7 @@ import math
 
 from ...decide import fmt, fmt_often, margin_words, p_eq
 from ...model import CheckResult, DiagnosticResult
-from ...stats import equivalence, nonparametric, power, ttests
+from ...stats import _memo, equivalence, nonparametric, power, ttests
 from ...stats._checks import check_margins
 from ...stats.core import (
     mean_sd,
@@ -48,7 +48,17 @@ def _one_sample(kind) -> bool:
 def _effect(design: str, ch, data: Comparison):
     ref, cand = data.reference, data.candidate
     if design == "one-sample":
-        return ttests.effect("one-sample", cand.values, target=ch.target)
+        x, target = cand.values, ch.target
+        known = _memo.recall("mean_sd", x)
+        if (known is not None and x.ndim == 1 and known[0] >= 2 and 0.0 < known[2] < math.inf
+                and type(target) is float and math.isfinite(target)):
+            # a sample whose mean and sd were computed is finite and within +/-1e150 (mean_sd
+            # refuses any other): one-dimensional, with 2 or more values, spread and a finite
+            # target, the
+            # Effect ttests.effect("one-sample", x, target=target) builds from the same
+            # summary after its checks, which it would pass (any other case goes through them)
+            return ttests.one_sample_effect(known[0], known[1], known[2], target)
+        return ttests.effect("one-sample", x, target=target)
     if design == "paired":
         pv = data.pairs
         return ttests.effect("paired", pv.new, pv.old)
