@@ -56,9 +56,11 @@ def test_a_degenerate_error_from_stats_becomes_the_hold_reason(tmp_path, monkeyp
     def degenerate(*args, **kwargs):
         raise DegenerateDataError("made degenerate for this test")
 
-    # the location checks' effects: the target's from the values, the shift's (two samples
-    # checked by the draft itself) from their summaries
+    # the location checks' effects: from the values, or (samples checked already: the
+    # target's with its summary remembered, the shift's two checked by the draft itself) from
+    # their summaries
     monkeypatch.setattr(ttests, "effect", degenerate)
+    monkeypatch.setattr(ttests, "one_sample_effect", degenerate)
     monkeypatch.setattr(ttests, "two_sample_effect", degenerate)
     ev = _evaluate(tmp_path, _values(1), _values(2))
     checks = {k.check: k for k in ev.characteristic("x").checks}
@@ -80,7 +82,9 @@ def test_a_not_applicable_error_from_stats_becomes_the_hold_reason(tmp_path, mon
 
 
 @pytest.mark.parametrize("module, name", [
-    (ttests, "effect"), (ttests, "two_sample_effect"), (spread, "f_test"),
+    # (the target check's effect of gathered values, whose summary is remembered, comes from
+    # ttests.one_sample_effect; ttests.effect serves the values without one)
+    (ttests, "one_sample_effect"), (ttests, "two_sample_effect"), (spread, "f_test"),
     (capability, "capability"),
     (tolerance, "normal_tolerance"),
 ])

@@ -123,6 +123,26 @@ def fmt_like(*values: float | None) -> list[str]:
 _isfinite, _floor, _log10 = math.isfinite, math.floor, math.log10
 
 
+def fmt_like_pair(a: float | None, b: float | None) -> tuple[str, str]:
+    """``fmt_like(a, b)`` as a pair, for the bounds of an interval: two finite non-zero floats
+    (the common case) are formatted here by fmt_like's own steps without its loops (the
+    largest magnitude, the decimals it gives, each text with trailing zeros dropped and a zero
+    text made "0"); anything else goes to fmt_like itself."""
+    if type(a) is not float or type(b) is not float or not (
+            a and b and _isfinite(a) and _isfinite(b)):
+        lo, hi = fmt_like(a, b)
+        return lo, hi
+    top = abs(a)
+    if abs(b) > top:
+        top = abs(b)
+    places = 3 - _floor(_log10(top))
+    spec = _F_SPECS[12 if places > 12 else 0 if places < 0 else places]
+    ta, tb = format(a, spec), format(b, spec)
+    if places > 0:
+        ta, tb = ta.rstrip("0").rstrip("."), tb.rstrip("0").rstrip(".")
+    return ("0" if ta == "0" or ta == "-0" else ta), ("0" if tb == "0" or tb == "-0" else tb)
+
+
 def p_eq(p: float | None, name: str = "p") -> str:
     """"p = 0.0123", or "p < 0.0001" for a tiny p-value."""
     if p is None:

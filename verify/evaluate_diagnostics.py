@@ -15,6 +15,8 @@ from .evaluate_gather import CharDraft
 from .model import DiagnosticResult
 from .spec_model import Characteristic, Spec
 from .stats import diagnostics as diag
+from .stats.lot_effect import METHOD as LOT_EFFECT_METHOD
+from .stats.lot_effect import lot_effect_figures
 
 RUN_LENGTH_FLAG = 8  # common practice: eight points in a row on one side of the centre line
 
@@ -38,9 +40,10 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
     alpha = spec.alpha
     out: list[DiagnosticResult] = []
     groups = []
-    ref, cand = d.data.reference, d.data.candidate
-    if d.data.pairs is not None:
-        pv = d.data.pairs
+    data = d.data  # (a property: read once)
+    ref, cand = data.reference, data.candidate
+    if data.pairs is not None:
+        pv = data.pairs
         groups.append(("differences", pv.new - pv.old))
     else:
         if ref.values is not None:
@@ -91,15 +94,17 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
             _lot_count_words(n_lots, x.size), float(n_lots), None, {}))
         if spec.unit_of_analysis == "part":
             try:
-                le = diag.lot_effect(x, lots)
-                flag = le.pvalue < alpha
+                # the figures of diag.lot_effect(x, lots) this diagnostic reads, without the
+                # lot means and the result it would make (the same floats and errors)
+                statistic, pvalue, icc, lots_tested = lot_effect_figures(x, lots)
+                flag = pvalue < alpha
                 out.append(_Diagnostic(
-                    "lot effect", le.method, group, flag,
-                    (f"lots differ ({p_eq(le.pvalue)}, intraclass correlation "
-                     f"{fmt(le.icc, 3)}): parts of one lot are not independent; "
+                    "lot effect", LOT_EFFECT_METHOD, group, flag,
+                    (f"lots differ ({p_eq(pvalue)}, intraclass correlation "
+                     f"{fmt(icc, 3)}): parts of one lot are not independent; "
                      "unit_of_analysis: lot would be the safer analysis" if flag else
-                     f"no lot effect detected ({p_eq(le.pvalue)})"),
-                    le.statistic, le.pvalue, {"icc": le.icc, "n_lots": le.n_lots}))
+                     f"no lot effect detected ({p_eq(pvalue)})"),
+                    statistic, pvalue, {"icc": icc, "n_lots": lots_tested}))
             except CANNOT_COMPUTE as err:
                 out.append(not_applicable("lot effect", "one-way ANOVA across lots", group, err))
         try:
@@ -120,7 +125,8 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
         except CANNOT_COMPUTE as err:
             out.append(not_applicable("stability", "individuals chart", group, err))
     try:
-        tol = (ch.upper - ch.lower) if (ch.lower is not None and ch.upper is not None) else None
+        lower, upper = ch.lower, ch.upper  # (properties: read once)
+        tol = (upper - lower) if (lower is not None and upper is not None) else None
         rs = diag.resolution_of(joined_parts(d), tolerance=tol)
         coarse = rs.step_over_tenth_tolerance is not None and rs.step_over_tenth_tolerance > 1.0
         out.append(_Diagnostic(

@@ -38,10 +38,15 @@ CANNOT_COMPUTE = (DegenerateDataError, NotApplicableError)
 
 def finite(x) -> float | None:
     """``x`` as a float, or None where it is missing or not finite (no NaN flows on)."""
+    if type(x) is float:  # (the common case: float(x) would be x itself)
+        return x if _isfinite(x) else None
     if x is None:
         return None
     x = float(x)
-    return x if math.isfinite(x) else None
+    return x if _isfinite(x) else None
+
+
+_isfinite = math.isfinite
 
 
 @fast_init

@@ -242,6 +242,8 @@ class CapabilityResult:
 def _limit(value: float | None, name: str) -> float | None:
     if value is None:
         return None
+    if type(value) is float and math.isfinite(value):
+        return value  # (what float(value) gives, finite: the checks below, without the call)
     v = float(value)
     if not math.isfinite(v):
         raise ValueError(f"{name} must be a finite number or None, not {value}")

@@ -151,8 +151,15 @@ def confidence_interval(
 def two_sided_interval(estimate: float, se: float, df: float, level: float) -> Interval:
     """``confidence_interval(estimate, se, df, level=level)`` (two-sided) for a level its
     caller knows lies in (0, 1), without checking it again: the same arithmetic."""
+    return Interval(*two_sided_bounds(estimate, se, df, level), level)
+
+
+def two_sided_bounds(estimate: float, se: float, df: float, level: float
+                     ) -> tuple[float, float]:
+    """The ``(low, high)`` of :func:`two_sided_interval` (the same arithmetic), for a caller
+    that reads only the bounds."""
     half = t_quantile(0.5 + level / 2.0, df) * se
-    return Interval(estimate - half, estimate + half, level)
+    return estimate - half, estimate + half
 
 
 def check_se_df(se: float, df: float) -> None:

@@ -113,6 +113,20 @@ def tost_from_estimate(
     est = _estimate(estimate)
     check_se_df(se, df)
     lo, hi = check_margins(low, high)
+    t_lo, t_hi, p_lo, p_hi = tost_sides(est, se, df, lo, hi)
+    # (the fields in their declared order: method, estimate, standard_error, df, low, high,
+    # statistic_lower, statistic_upper, p_lower, p_upper, pvalue)
+    return EquivalenceResult(method, est, float(se), float(df), lo, hi, t_lo, t_hi, p_lo, p_hi,
+                             max(p_lo, p_hi))
+
+
+def tost_sides(est: float, se: float, df: float, lo: float, hi: float
+               ) -> tuple[float, float, float, float]:
+    """The two one-sided tests of :func:`tost_from_estimate`, for arguments it has checked (or
+    a caller has: a finite estimate, a positive finite standard error, a positive df, margins
+    as :func:`~verify.stats._checks.check_margins` returns them): ``(statistic_lower,
+    statistic_upper, p_lower, p_upper)``, the floats of its result's fields. A caller that
+    needs only these numbers is spared the result and the checks made already."""
     t_lo = (est - lo) / se
     t_hi = (est - hi) / se
     # p_lo = t_sf(t_lo, df) (H0: effect <= low, rejected for large t) and p_hi =
@@ -122,10 +136,7 @@ def tost_from_estimate(
     else:
         dff = float(df)
         p_lo, p_hi = _stdtr(dff, float(-t_lo)), _stdtr(dff, float(t_hi))
-    # (the fields in their declared order: method, estimate, standard_error, df, low, high,
-    # statistic_lower, statistic_upper, p_lower, p_upper, pvalue)
-    return EquivalenceResult(method, est, float(se), float(df), lo, hi, float(t_lo),
-                             float(t_hi), p_lo, p_hi, max(p_lo, p_hi))
+    return float(t_lo), float(t_hi), p_lo, p_hi
 
 
 def tost_from_effect(eff: Effect, *, low: float, high: float) -> EquivalenceResult:

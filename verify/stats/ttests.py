@@ -253,6 +253,23 @@ def two_sample_effect(
     return _two_sample(design, n_new, m_new, s_new, n_old, m_old, s_old)
 
 
+def one_sample_effect(n: int, m: float, s: float, target: float) -> Effect:
+    """The one-sample :class:`Effect` of a sample from its size, mean and sd as
+    :func:`~verify.stats.core.mean_sd` gives them, for a caller that has checked the sample
+    already (at least 2 finite values within +/-1e150, with spread) and holds a finite float
+    ``target``: the Effect ``effect("one-sample", x, target=target)`` returns for that sample,
+    without checking it again (the same arithmetic, the same fields).
+
+    Examples
+    --------
+    >>> e = one_sample_effect(4, 10.25, 0.1290994, 10.0)
+    >>> round(e.estimate, 6), e.df
+    (0.25, 3.0)
+    """
+    return _finish("one-sample", m - target, s / math.sqrt(n), float(n - 1), n, None, s, m, s,
+                   None, None, target)
+
+
 # --- effects --------------------------------------------------------------------------------
 
 
@@ -301,8 +318,9 @@ def effect(
         _require_n(x_new.size, "values")
         n, m, s = mean_sd(x_new)
         require_spread(n, s)
-        return _finish(design, m - tgt, s / math.sqrt(n), float(n - 1), n, None, s,
-                       mean_new=m, sd_new=s, target=tgt)
+        # (by position: mean_new=m, sd_new=s, mean_old=None, sd_old=None, target=tgt)
+        return _finish(design, m - tgt, s / math.sqrt(n), float(n - 1), n, None, s, m, s, None,
+                       None, tgt)
     if target is not None:
         raise ValueError(f"target applies only to the one-sample design, not {design!r}")
     x_old = _as_values(old, "old")

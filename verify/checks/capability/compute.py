@@ -24,9 +24,11 @@ def draft(kind, inp: CheckInput) -> Draft:
     cand = inp.data.candidate
     lower, upper = ch.lower, ch.upper
     label, level = conf.label, conf.confidence
+    # the settings read once (conf.min is a property)
+    index, judged_by, min_index = conf.index, conf.judge, conf.min
     judged = (f"the lower {fmt_percent(level)}% confidence bound of the new process's "
-              f"{label}" if conf.judge == "lower_bound" else f"the new process's {label}")
-    hyp = f"{judged} for {ch.name} is at least {fmt_often(conf.min)}"
+              f"{label}" if judged_by == "lower_bound" else f"the new process's {label}")
+    hyp = f"{judged} for {ch.name} is at least {fmt_often(min_index)}"
     subgroups = None
     if conf.subgroup == "lot":
         subgroups = cand.lots  # a tuple: its codes are remembered
@@ -35,28 +37,28 @@ def draft(kind, inp: CheckInput) -> Draft:
                            subgroups=subgroups)
         lb95 = r.cpk_lower_bound(0.95)
         # (the 95% bound of Cpk again where the spec judges that one)
-        bound = lb95 if (conf.index, level) == ("cpk", 0.95) else r.lower_bound(conf.index, level)
+        bound = lb95 if (index, level) == ("cpk", 0.95) else r.lower_bound(index, level)
     except CANNOT_COMPUTE as err:
         return cannot_compute(kind.name, f"process capability ({label})", hyp, err)
-    value = r.cpk if conf.index == "cpk" else r.ppk
+    value = r.cpk if index == "cpk" else r.ppk
     bound = finite(bound)
-    v = CAPABILITY.decide(cpk=value, lower_bound=bound, min_cpk=conf.min,
-                          index=label, judge=conf.judge, confidence=level)
-    bound_df = r.sigma_within_df if conf.index == "cpk" else float(r.n - 1)
+    v = CAPABILITY.decide(cpk=value, lower_bound=bound, min_cpk=min_index,
+                          index=label, judge=judged_by, confidence=level)
+    bound_df = r.sigma_within_df if index == "cpk" else float(r.n - 1)
     # CapabilityDetails' fields by position, in their declared order: cp, cpk, cpl, cpu, pp,
     # ppk, cpm, sigma_within, sigma_overall, sigma_method, mean, n, min_cpk, cpk_lower_95,
     # index, judge, min, confidence, lower_bound, bound_df
     details = CapabilityDetails(
         finite(r.cp), r.cpk, finite(r.cpl), finite(r.cpu), finite(r.pp), finite(r.ppk),
         finite(r.cpm), r.sigma_within, r.sigma_overall, r.sigma_method, r.mean, r.n,
-        conf.min if conf.index == "cpk" else None, finite(lb95), conf.index, conf.judge,
-        conf.min, level, bound, bound_df)
-    sigma = (f"Cpk ({r.sigma_method})" if conf.index == "cpk"
+        min_index if index == "cpk" else None, finite(lb95), index, judged_by,
+        min_index, level, bound, bound_df)
+    sigma = (f"Cpk ({r.sigma_method})" if index == "cpk"
              else "Ppk (overall sample sd)")
-    judge = ("its lower bound judged" if conf.judge == "lower_bound"
+    judge = ("its lower bound judged" if judged_by == "lower_bound"
              else "the estimate judged")
     note = (f"no power figure: capability compares {label} with min, not a test"
-            if conf.judge == "estimate" else
+            if judged_by == "estimate" else
             f"no power figure: the lower bound of {label} is compared with min")
     # CheckResult's fields by position (a check of every characteristic: a call by keyword
     # costs about 40 ns a field): check, method, hypothesis, alternative, margin, outcome,

@@ -56,5 +56,7 @@ def review(kind, res, spec) -> list[str]:
     if lb is None or lb >= x.min:
         return []
     name = "Cpk" if x.index == "cpk" else "Ppk"
-    return [f"{name} meets {fmt(x.min)} but its lower {fmt(100 * x.confidence)}% bound "
+    # (fmt_often(x.min) and fmt_percent(x.confidence) are fmt(x.min) and
+    # fmt(100 * x.confidence), remembered: the same min and level for every characteristic)
+    return [f"{name} meets {fmt_often(x.min)} but its lower {fmt_percent(x.confidence)}% bound "
             f"{fmt(lb, 3)} does not"]

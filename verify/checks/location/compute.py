@@ -12,13 +12,14 @@ import math
 
 from ...decide import fmt, fmt_often, margin_words, p_eq
 from ...model import CheckResult, DiagnosticResult
-from ...stats import equivalence, nonparametric, power, ttests
+from ...stats import _memo, equivalence, nonparametric, power, ttests
+from ...stats._checks import check_margins
 from ...stats.core import (
     mean_sd,
     require_spread,
     t_quantile,
     t_test_from_estimate,
-    two_sided_interval,
+    two_sided_bounds,
 )
 from ...stats.errors import DegenerateDataError
 from ..drafting import (
@@ -47,7 +48,17 @@ def _one_sample(kind) -> bool:
 def _effect(design: str, ch, data: Comparison):
     ref, cand = data.reference, data.candidate
     if design == "one-sample":
-        return ttests.effect("one-sample", cand.values, target=ch.target)
+        x, target = cand.values, ch.target
+        known = _memo.recall("mean_sd", x)
+        if (known is not None and x.ndim == 1 and known[0] >= 2 and 0.0 < known[2] < math.inf
+                and type(target) is float and math.isfinite(target)):
+            # a sample whose mean and sd were computed is finite and within +/-1e150 (mean_sd
+            # refuses any other): one-dimensional, with 2 or more values, spread and a finite
+            # target, the
+            # Effect ttests.effect("one-sample", x, target=target) builds from the same
+            # summary after its checks, which it would pass (any other case goes through them)
+            return ttests.one_sample_effect(known[0], known[1], known[2], target)
+        return ttests.effect("one-sample", x, target=target)
     if design == "paired":
         pv = data.pairs
         return ttests.effect("paired", pv.new, pv.old)
@@ -184,19 +195,25 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
     n_new, n_old = e.n_new, e.n_old
     low, high = test.low, test.high
     level = 1 - 2 * alpha
-    # confidence_interval(e.estimate, e.standard_error, e.df, level=level) without its checks
-    # of the level (0 < 1 - 2 alpha < 1 for the spec's alpha in (0, 0.5)) and the alternative
-    ci = two_sided_interval(e.estimate, e.standard_error, e.df, level)
+    # the bounds of confidence_interval(e.estimate, e.standard_error, e.df, level=level)
+    # without its checks of the level (0 < 1 - 2 alpha < 1 for the spec's alpha in (0, 0.5))
+    # and the alternative, nor its Interval
+    ci_pair = two_sided_bounds(e.estimate, e.standard_error, e.df, level)
     true_shift = spec.plan.true_shift
     batch = None
     if test.kind == EQUIVALENCE:
-        r = equivalence.tost_from_estimate(
-            e.estimate, e.standard_error, e.df, low=low, high=high,
-            method=f"TOST ({e.method})")
-        pval = r.pvalue
+        # equivalence.tost_from_estimate(e.estimate, e.standard_error, e.df, low=low,
+        # high=high, method=method) read field by field: its two one-sided tests
+        # (equivalence.tost_sides, the arithmetic it runs) without its checks of the effect,
+        # which ttests made when building it (a finite estimate, a positive finite standard
+        # error and df), nor its result; the margins checked as it checks them
+        method = f"TOST ({e.method})"
+        t_lo, t_hi, p_lo, p_hi = equivalence.tost_sides(
+            e.estimate, e.standard_error, e.df, *check_margins(low, high))
+        pval = max(p_lo, p_hi)  # (its pvalue)
         # LocationDetails' (p_lower, p_upper, statistic_lower, statistic_upper), by position
-        tost_fields = (r.p_lower, r.p_upper, r.statistic_lower, r.statistic_upper)
-        statistic = r.statistic_lower if r.p_lower >= r.p_upper else r.statistic_upper
+        tost_fields = (p_lo, p_hi, t_lo, t_hi)
+        statistic = t_lo if p_lo >= p_hi else t_hi  # (its statistic)
         hyp = f"{subject} lies inside {margin_words(low, high, unit)}"
         alternative = "equivalence"
         # the power and planned n are computed for all characteristics together
@@ -210,8 +227,7 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
         r = equivalence.noninferiority_from_estimate(
             e.estimate, e.standard_error, e.df, bound=bound, harmful=harmful,
             method=f"non-inferiority ({e.method})")
-        pval = r.pvalue
-        statistic = r.statistic
+        method, pval, statistic = r.method, r.pvalue, r.statistic
         if harmful == "lower":
             tost_fields = (r.pvalue, None, r.statistic, None)
             hyp = f"{subject} is no lower than {fmt(bound)} {unit}".rstrip()
@@ -225,7 +241,6 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
                     alpha=alpha, bound=bound, harmful=harmful, power=spec.plan.power,
                     ratio=ratio, **sds)
     rule = margin_rule(kind)
-    ci_pair = (ci.low, ci.high)
     verdict = rule.decide(pvalue=pval, alpha=alpha, low=low, high=high,
                           ci=ci_pair, unit=unit, side=ch.side)
     note = (f"power of this test if the true {noun} is {fmt_often(true_shift)} and the sd is "
@@ -236,8 +251,8 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
     # ci_level, critical_value (critical_value(e.df, alpha, "greater") without its check of
     # the alternative), power, power_note, detectable_shift, planned_n, design, details
     res = CheckResult(
-        kind.name, r.method, hyp, alternative, (low, high), verdict.outcome, verdict.reason,
-        e.estimate, e.standard_error, statistic, e.df, pval, None, ci.low, ci.high, level,
+        kind.name, method, hyp, alternative, (low, high), verdict.outcome, verdict.reason,
+        e.estimate, e.standard_error, statistic, e.df, pval, None, ci_pair[0], ci_pair[1], level,
         t_quantile(1.0 - alpha, e.df), finite(pw), note, None,
         size.n_new if size is not None else None, design,
         LocationDetails(n_new, n_old, float(e.sd), *tost_fields))

@@ -4,7 +4,7 @@ margin, a difference test in the harmful direction without one.
 
 from __future__ import annotations
 
-from ...decide import Verdict, fmt, fmt_like, fmt_percent, margin_words, p_eq
+from ...decide import Verdict, fmt, fmt_like, fmt_like_pair, fmt_percent, margin_words, p_eq
 
 
 class MarginRule:
@@ -32,7 +32,7 @@ class MarginRule:
     def decide(self, *, pvalue: float, alpha: float, low: float, high: float,
                ci: tuple[float, float], unit: str, side: str) -> Verdict:
         level = fmt_percent(1 - 2 * alpha)  # fmt(100 * (1 - 2 * alpha))
-        lo, hi = fmt_like(ci[0], ci[1])
+        lo, hi = fmt_like_pair(ci[0], ci[1])  # fmt_like(ci[0], ci[1])
         detail = f"({level}% interval {lo}..{hi}, {p_eq(pvalue)})"
         claim = self._claim(side, low, high, unit)
         if pvalue < alpha:
