@@ -310,7 +310,8 @@ class _Tidy(_Assignment, _PassFailCells):
             "exclusion_reason": text_column(reason),
         }
         table = pd.DataFrame(columns, columns=list(MEASUREMENT_COLUMNS))
-        self.lend_index_columns(table, columns, codes, names, lot, process, at)
+        if getattr(self.ds, "stream", None) is None:  # (a stream column makes a new table)
+            self.lend_index_columns(table, columns, codes, names, lot, process, at)
         # traceability, beside the model's columns (the recheck reads those by position)
         extra: dict[str, np.ndarray] = {}
         if self.ds.part is not None:
@@ -335,11 +336,11 @@ class _Tidy(_Assignment, _PassFailCells):
         table was just built from, with the codes of its text columns where they cost little
         here: the characteristics' numbers (``char_codes`` into ``char_names``, the table's
         own) and the lots and processes numbered per sheet row, each taken at the table's rows:
-        for a wide layout of several characteristics (a sheet row per part, several
+        for a wide layout of two characteristics or more (a sheet row per part, several
         measurements each). A long layout (a sheet row per measurement) would number its rows
         here as the index numbers the table's: it lends nothing, and the index reads the table.
         Only for pandas' pyarrow text storage, whose encoding the index's plain route reads."""
-        if len(lot) * 4 > len(at):
+        if len(lot) * 2 > len(at):
             return
         text = pd.arrays.ArrowStringArray
         if not all(isinstance(columns[c], text) for c in ("lot", "process", "characteristic")):
