@@ -151,3 +151,16 @@ def test_built_with_a_lot_not_text_lends_nothing():
                  process=(code, ["new"]), lot=(code, [1]), order=code, source_row=code,
                  value=np.zeros(1))
     assert id(table) not in V._BUILT
+
+
+def test_the_lent_columns_go_with_their_table(tmp_path):
+    import gc
+
+    meas = load_measurements(_wide(tmp_path, order=True, exclude=False))
+    key = id(meas.table)
+    assert key in V._BUILT
+    V._analysis_index(meas.table)
+    V._INDEX_CACHE.pop(key, None)  # (the index's own store holds its tables)
+    del meas
+    gc.collect()
+    assert key not in V._BUILT

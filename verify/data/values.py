@@ -5,6 +5,7 @@
 from __future__ import annotations
 
 import math
+import weakref
 from dataclasses import dataclass
 from typing import NamedTuple
 
@@ -210,17 +211,27 @@ def _read_columns(table: pd.DataFrame) -> _Columns:
         lot_text=_text_codes(table["lot"]))
 
 
-# id(table) -> (the table, its _Columns), given by the loading for the table it has just built
-_BUILT: dict[int, tuple[pd.DataFrame, _Columns]] = {}
+# id(table) -> (a weak reference to the table, its _Columns), given by the loading for the
+# table it has just built and kept while the table lives (a benchmark or a batch run loads its
+# tables before evaluating them; a bounded store would have dropped most)
+_BUILT: dict[int, tuple[weakref.ref, _Columns]] = {}
 
 
 def _columns(table: pd.DataFrame) -> _Columns:
     """The index's columns of ``table``: those the loading gave when it built the table
     (:func:`built_with`), else read from it (:func:`_read_columns`)."""
     hit = _BUILT.get(id(table))
-    if hit is not None and hit[0] is table:
+    if hit is not None and hit[0]() is table:
         return hit[1]
     return _read_columns(table)
+
+
+def _drop_built(key: int, ref: weakref.ref) -> None:
+    """A lent table's entry gone with the table (only its own entry: by then the id may be
+    another table's)."""
+    hit = _BUILT.get(key)
+    if hit is not None and hit[0] is ref:
+        del _BUILT[key]
 
 
 def built_with(table: pd.DataFrame, *, excluded: np.ndarray, characteristic: tuple,
@@ -240,15 +251,15 @@ def built_with(table: pd.DataFrame, *, excluded: np.ndarray, characteristic: tup
     (:func:`_first_seen`), so that the index is the same, array for array; the lots' codes
     need not be (the index keeps their texts only). Where a name is not a ``str`` (the table
     holds its text, or a missing value), nothing is remembered and the index reads the table.
-    The table must not change afterwards (as the index already assumes)."""
+    Kept while the table lives; the table must not change afterwards (as the index already
+    assumes)."""
     char = _first_seen(*characteristic)
     proc = _first_seen(*process)
     lot_codes, lot_names = lot
     if char is None or proc is None or not all(type(v) is str for v in lot_names):
         return
-    if len(_BUILT) >= 8:
-        _BUILT.clear()
-    _BUILT[id(table)] = (table, _Columns(
+    key = id(table)
+    _BUILT[key] = (weakref.ref(table, lambda ref: _drop_built(key, ref)), _Columns(
         excluded, char, proc, order, source_row, value,
         (np.array(lot_names, dtype=object), lot_codes)))
 
