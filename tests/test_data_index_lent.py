@@ -164,3 +164,24 @@ def test_the_lent_columns_go_with_their_table(tmp_path):
     del meas
     gc.collect()
     assert key not in V._BUILT
+
+
+@pytest.mark.parametrize("name", ["bushing-supplier", "filler-paired"])
+def test_an_evaluation_is_the_same_with_the_lent_columns_or_without(demo, name):
+    from verify.evaluate import evaluate
+
+    spec = load_spec(demo / "specs" / f"{name}.yaml")
+    meas = load_measurements(spec)
+    key = id(meas.table)
+    assert key in V._BUILT
+    V._INDEX_CACHE.pop(key, None)
+    lent = evaluate(spec, meas, run=None)
+    kept = V._BUILT.pop(key)
+    V._INDEX_CACHE.pop(key, None)
+    try:
+        plain = evaluate(spec, meas, run=None)
+    finally:
+        V._BUILT[key] = kept
+        V._INDEX_CACHE.pop(key, None)
+    assert repr(lent.characteristics) == repr(plain.characteristics)
+    assert lent.decision == plain.decision and lent.reasons == plain.reasons
