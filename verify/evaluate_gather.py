@@ -74,9 +74,44 @@ class CharDraft:
 
 def applicable(ch: Characteristic) -> list[CheckKind]:
     """The kinds of check that run for ``ch``: those its spec declares, of its measure."""
+    return list(_declared(ch)[0])
+
+
+def _applicable(ch: Characteristic, registry: tuple[CheckKind, ...]) -> list[CheckKind]:
     measures = "pass_fail" if ch.pass_fail else "measured"
-    return [k for k in kinds()
+    return [k for k in registry
             if k.measures == measures and getattr(ch.checks, k.name, None) is not None]
+
+
+def _pair_roles(ch: Characteristic, kinds: list[CheckKind]) -> frozenset[str]:
+    """The roles of the matched pairs the kinds' settings run them in (``pairs_role``: for
+    data.pair declared), none when no kind runs on pairs."""
+    roles = set()
+    for k in kinds:
+        role_of = compute_hook_fn(k, "pairs_role")
+        if role_of is not None and (r := role_of(k, getattr(ch.checks, k.name))) is not None:
+            roles.add(r)
+    return frozenset(roles)
+
+
+# id(ch) -> (ch, the registry, _applicable(ch, registry), _pair_roles of those)
+_DECLARED: dict[int, tuple] = {}
+
+
+def _declared(ch: Characteristic) -> tuple[tuple[CheckKind, ...], frozenset[str]]:
+    """:func:`_applicable` and :func:`_pair_roles` of ``ch``, worked out once per
+    characteristic rather than once per evaluation: both read only the characteristic (a
+    frozen spec object, held by the entry so that its id stays its) and the registry of kinds
+    (the entry's own: a registry loaded anew is looked at anew) with its hooks, which do not
+    change while verify runs (as :func:`compute_hook_fn` has it)."""
+    registry = kinds()
+    hit = _DECLARED.get(id(ch))
+    if hit is None or hit[0] is not ch or hit[1] is not registry:
+        if len(_DECLARED) >= 4096:
+            _DECLARED.clear()
+        found = _applicable(ch, registry)
+        hit = _DECLARED[id(ch)] = (ch, registry, tuple(found), _pair_roles(ch, found))
+    return hit[2], hit[3]
 
 
 def _hook_says(kind: CheckKind, name: str, *args, default=None):
@@ -224,7 +259,8 @@ def gather(spec: Spec, meas: Measurements, ch: Characteristic, final: bool) -> C
     streams = {name: _stream(spec, meas, name, ch, part_spec)
                for name in (*CANDIDATES, REFERENCE)}
     ref = streams[REFERENCE]
-    kinds = applicable(ch)
+    declared, roles = _declared(ch)
+    kinds = list(declared)
     shown = [*CANDIDATES]
     if ref.values.size or shows_reference(ch, kinds):
         shown.insert(0, REFERENCE)
@@ -233,11 +269,6 @@ def gather(spec: Spec, meas: Measurements, ch: Characteristic, final: bool) -> C
         ref = replace(ref, values=ref.values if ref.values.size else None,
                       parts=ref.parts if ref.parts.size else None)
     # the matched pairs, for the kinds whose settings run them on pairs (data.pair declared)
-    roles = set()
-    for k in kinds:
-        role_of = compute_hook_fn(k, "pairs_role")
-        if role_of is not None and (r := role_of(k, getattr(ch.checks, k.name))) is not None:
-            roles.add(r)
     pairs = paired_values(meas, spec, ch.name) if roles else None
     (candidate,) = CANDIDATES  # one candidate today: several would give several comparisons
     data = Comparison(ref, streams[candidate], **{role: pairs for role in roles}) if roles \

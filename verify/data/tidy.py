@@ -28,6 +28,7 @@ from .cells import (
     text_column,
 )
 from .pass_fail import _PassFailCells
+from .values import built_with
 
 
 def _with_stream(result, stream, rows):
@@ -288,14 +289,15 @@ class _Tidy(_Assignment, _PassFailCells):
 
         # production order sorts the rows within each characteristic (a stable sort); the
         # arrays are put in that order before the frames are made from them
-        at, correction_id = pos, self.correction_id
+        at, correction_id, codes = pos, self.correction_id, char_idx
         if self.ds.order is not None:
             perm = np.lexsort((order[pos], char_idx))  # what sort_values(kind="stable") gave
             at = pos[perm]
             char_names, values, reason = char_names[perm], values[perm], reason[perm]
             original, corrected = original[perm], corrected[perm]
             correction_id = correction_id[perm]
-        table = pd.DataFrame({
+            codes = char_idx[perm]
+        columns = {
             "source_file": text_column(np.full(len(at), self.ds.file_text, dtype=object)),
             "source_row": rows[at].astype(np.int64),
             "order": order[at].astype(np.int64),
@@ -306,7 +308,10 @@ class _Tidy(_Assignment, _PassFailCells):
             "value": values.astype(float),
             "excluded": reason != "",
             "exclusion_reason": text_column(reason),
-        }, columns=list(MEASUREMENT_COLUMNS))
+        }
+        table = pd.DataFrame(columns, columns=list(MEASUREMENT_COLUMNS))
+        if getattr(self.ds, "stream", None) is None:  # (a stream column makes a new table)
+            self.lend_index_columns(table, columns, codes, names, lot, process, at)
         # traceability, beside the model's columns (the recheck reads those by position)
         extra: dict[str, np.ndarray] = {}
         if self.ds.part is not None:
@@ -324,6 +329,33 @@ class _Tidy(_Assignment, _PassFailCells):
             if not (process[pos] == proc).any():
                 self.notes.append(f"no rows for the {proc} process yet")
         return table, self.notes, self.unassigned
+
+    @staticmethod
+    def lend_index_columns(table, columns, char_codes, char_names, lot, process, at) -> None:
+        """Give the evaluation's index (:func:`verify.data.values.built_with`) the arrays this
+        table was just built from, with the codes of its text columns where they cost little
+        here: the characteristics' numbers (``char_codes`` into ``char_names``, the table's
+        own) and the lots and processes numbered per sheet row, each taken at the table's rows:
+        for a wide layout of two characteristics or more (a sheet row per part, several
+        measurements each). A long layout (a sheet row per measurement) would number its rows
+        here as the index numbers the table's: it lends nothing, and the index reads the table.
+        Only for pandas' pyarrow text storage, whose encoding the index's plain route reads."""
+        if len(lot) * 2 > len(at):
+            return
+        text = pd.arrays.ArrowStringArray
+        if not all(isinstance(columns[c], text) for c in ("lot", "process", "characteristic")):
+            return
+        lots: dict = {}  # each lot -> its number (by equality: a lot not text lends nothing)
+        lot_codes = np.array([lots.setdefault(v, len(lots)) for v in lot.tolist()],
+                             dtype=np.int64)
+        procs: dict = {}
+        proc_codes = np.array([procs.setdefault(v, len(procs)) for v in process.tolist()],
+                              dtype=np.int64)
+        built_with(table, excluded=columns["excluded"],
+                   characteristic=(np.asarray(char_codes, dtype=np.int64), char_names),
+                   process=(proc_codes[at], list(procs)), lot=(lot_codes[at], list(lots)),
+                   order=columns["order"], source_row=columns["source_row"],
+                   value=columns["value"])
 
     def bad_cell_issues(self, mask, rows, char_idx, text, values) -> None:
         chars = self.spec.characteristics

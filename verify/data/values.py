@@ -5,7 +5,9 @@
 from __future__ import annotations
 
 import math
+import weakref
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
 import pandas as pd
@@ -116,16 +118,15 @@ class _Index:
     __slots__ = ("value", "lot", "order", "source_row", "groups", "interned", "_table", "_rows",
                  "_pair", "_stream")
 
-    def __init__(self, table: pd.DataFrame, rows: np.ndarray, groups: dict, order: np.ndarray,
-                 source_row: np.ndarray) -> None:
+    def __init__(self, table: pd.DataFrame, cols: _Columns, rows: np.ndarray, groups: dict,
+                 order: np.ndarray, source_row: np.ndarray) -> None:
         self._table, self._rows, self._pair, self._stream = table, rows, None, None
-        self.value = table["value"].to_numpy(dtype=float)[rows]
-        text = _text_codes(table["lot"])
-        if text is None:
+        self.value = cols.value[rows]
+        if cols.lot_text is None:
             self.lot = table["lot"].to_numpy(dtype=object)[rows]
             self.interned = None
         else:  # _text_objects' array, the rows' codes taken first (one take of objects)
-            self.lot = text[0][text[1][rows]]  # object array of str
+            self.lot = cols.lot_text[0][cols.lot_text[1][rows]]  # object array of str
             self.interned = {}
         self.order = order  # (of the rows given, in their order)
         self.source_row = source_row
@@ -153,13 +154,13 @@ def _analysis_index(table: pd.DataFrame) -> _Index:
     hit = _INDEX_CACHE.get(id(table))
     if hit is not None and hit[0] is table:
         return hit[1]
-    used = ~table["excluded"].to_numpy(dtype=bool)
-    char_codes, char_names = _factorized(table["characteristic"])
-    proc_codes, proc_names = _factorized(table["process"])
+    cols = _columns(table)
+    used = ~cols.excluded
+    char_codes, char_names = cols.characteristic
+    proc_codes, proc_names = cols.process
     width = max(1, len(proc_names))
     code = char_codes.astype(np.int64) * width + proc_codes
-    order = table["order"].to_numpy(dtype=np.int64)
-    source_row = table["source_row"].to_numpy(dtype=np.int64)
+    order, source_row = cols.order, cols.source_row
     rows = None  # every row used: the rows are the sort itself
     if not np.logical_and.reduce(used):
         rows = np.flatnonzero(used)
@@ -174,12 +175,116 @@ def _analysis_index(table: pd.DataFrame) -> _Index:
     for a, b, c in zip(starts.tolist(), stops.tolist(), code_sorted[starts].tolist(),
                        strict=True):
         groups[(str(char_names[c // width]), str(proc_names[c % width]))] = (a, b)
-    index = _Index(table, sort if rows is None else rows[sort], groups, order[sort],
+    index = _Index(table, cols, sort if rows is None else rows[sort], groups, order[sort],
                    source_row[sort])
     if len(_INDEX_CACHE) >= 8:
         _INDEX_CACHE.clear()
     _INDEX_CACHE[id(table)] = (table, index)
     return index
+
+
+class _Columns(NamedTuple):
+    """The columns of a tidy table the index reads, as arrays: ``characteristic`` and
+    ``process`` as (integer codes, the names they stand for), numbered as pyarrow's dictionary
+    encoding numbers them (:func:`_factorized`: in order of first appearance, one code per
+    text present), ``lot_text`` as :func:`_text_codes` gives it (None unless every lot is
+    text)."""
+
+    excluded: np.ndarray  # bool
+    characteristic: tuple[np.ndarray, list]
+    process: tuple[np.ndarray, list]
+    order: np.ndarray  # int64
+    source_row: np.ndarray  # int64
+    value: np.ndarray  # float64
+    lot_text: tuple[np.ndarray, np.ndarray] | None
+
+
+def _read_columns(table: pd.DataFrame) -> _Columns:
+    """The index's columns read from the table (the plain route)."""
+    return _Columns(
+        excluded=table["excluded"].to_numpy(dtype=bool),
+        characteristic=_factorized(table["characteristic"]),
+        process=_factorized(table["process"]),
+        order=table["order"].to_numpy(dtype=np.int64),
+        source_row=table["source_row"].to_numpy(dtype=np.int64),
+        value=table["value"].to_numpy(dtype=float),
+        lot_text=_text_codes(table["lot"]))
+
+
+# id(table) -> (a weak reference to the table, its _Columns), given by the loading for the
+# table it has just built and kept while the table lives (a benchmark or a batch run loads its
+# tables before evaluating them; a bounded store would have dropped most)
+_BUILT: dict[int, tuple[weakref.ref, _Columns]] = {}
+
+
+def _columns(table: pd.DataFrame) -> _Columns:
+    """The index's columns of ``table``: those the loading gave when it built the table
+    (:func:`built_with`), else read from it (:func:`_read_columns`)."""
+    hit = _BUILT.get(id(table))
+    if hit is not None and hit[0]() is table:
+        return hit[1]
+    return _read_columns(table)
+
+
+def _drop_built(key: int, ref: weakref.ref) -> None:
+    """A lent table's entry gone with the table (only its own entry: by then the id may be
+    another table's)."""
+    hit = _BUILT.get(key)
+    if hit is not None and hit[0] is ref:
+        del _BUILT[key]
+
+
+def built_with(table: pd.DataFrame, *, excluded: np.ndarray, characteristic: tuple,
+               process: tuple, lot: tuple, order: np.ndarray, source_row: np.ndarray,
+               value: np.ndarray) -> None:
+    """Remember the arrays the loading has just built ``table`` from, so that the evaluation's
+    index need not read its columns back (each read of a column makes a Series, and pyarrow's
+    dictionary encoding of a text column hashes every row: about two thirds of the index's
+    cost), where the loading has them for little: the characteristics' numbers are its own,
+    and a wide layout's lots and processes are one per sheet row, not one per measurement.
+
+    ``characteristic``, ``process`` and ``lot``: (codes, names) with ``names[codes]`` the
+    column's texts row by row, as the table was given them (``lot``'s names each a different
+    text); ``excluded``, ``order``, ``source_row``, ``value``: the arrays the table's columns
+    were made from (as the columns hold them: bool, int64, int64, float64). The codes of the
+    characteristics and processes are renumbered here as the plain route numbers them
+    (:func:`_first_seen`), so that the index is the same, array for array; the lots' codes
+    need not be (the index keeps their texts only). Where a name is not a ``str`` (the table
+    holds its text, or a missing value), nothing is remembered and the index reads the table.
+    Kept while the table lives; the table must not change afterwards (as the index already
+    assumes)."""
+    char = _first_seen(*characteristic)
+    proc = _first_seen(*process)
+    lot_codes, lot_names = lot
+    if char is None or proc is None or not all(type(v) is str for v in lot_names):
+        return
+    key = id(table)
+    _BUILT[key] = (weakref.ref(table, lambda ref: _drop_built(key, ref)), _Columns(
+        excluded, char, proc, order, source_row, value,
+        (np.array(lot_names, dtype=object), lot_codes)))
+
+
+def _first_seen(codes: np.ndarray, names) -> tuple[np.ndarray, list] | None:
+    """``codes`` (int64, >= 0) into ``names`` numbered as :func:`_factorized` numbers the
+    texts ``names[codes]``: equal names one code, the names in order of first appearance, only
+    those present (int64 codes, which the index reads as it reads pyarrow's int32 ones: the
+    same integers). None where a name present is not a ``str``."""
+    present = np.flatnonzero(np.bincount(codes, minlength=len(names)))
+    if codes.size > 1 and not np.logical_and.reduce(codes[1:] >= codes[:-1]):
+        # in order of first appearance (codes in rising order, as the loading sorts the rows
+        # by characteristic, appear in their own order): each one's first row found by a
+        # scan where there are few (the processes), else by a sort
+        first = ([int(np.argmax(codes == c)) for c in present.tolist()] if present.size <= 4
+                 else np.unique(codes, return_index=True)[1])
+        present = present[np.argsort(first)]
+    one: dict[str, int] = {}  # each text present -> its code, in order of first appearance
+    renumber = np.zeros(len(names), dtype=np.int64)
+    for c in present.tolist():
+        v = names[c]
+        if type(v) is not str:
+            return None
+        renumber[c] = one.setdefault(v, len(one))
+    return renumber[codes], list(one)
 
 
 def _factorized(column: pd.Series) -> tuple[np.ndarray, list]:
