@@ -17,6 +17,7 @@ from .spec_model import Characteristic, Spec
 from .stats import diagnostics as diag
 from .stats.lot_effect import METHOD as LOT_EFFECT_METHOD
 from .stats.lot_effect import lot_effect_figures
+from .stats.samples import group_codes
 
 RUN_LENGTH_FLAG = 8  # common practice: eight points in a row on one side of the centre line
 
@@ -88,7 +89,11 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
                 g.statistic, g.pvalue, {"value": g.value, "lot": str(lot)}))
         except CANNOT_COMPUTE as err:
             out.append(not_applicable("outliers", "Grubbs", group, err))
-        n_lots = len(set(lots))
+        # the lots' codes, which the lot-effect analysis reads too: their labels are the lots'
+        # distinct values in order of first appearance (a dict's keys), as many as
+        # len(set(lots)) counts (the plain route where there are none)
+        coded = _lot_codes(lots, x.size)
+        n_lots = len(set(lots)) if coded is None else len(coded[0])
         out.append(_Diagnostic(
             "lot count", "count of lots", group, n_lots < 3,
             _lot_count_words(n_lots, x.size), float(n_lots), None, {}))
@@ -96,7 +101,7 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
             try:
                 # the figures of diag.lot_effect(x, lots) this diagnostic reads, without the
                 # lot means and the result it would make (the same floats and errors)
-                statistic, pvalue, icc, lots_tested = lot_effect_figures(x, lots)
+                statistic, pvalue, icc, lots_tested = lot_effect_figures(x, lots, coded)
                 flag = pvalue < alpha
                 out.append(_Diagnostic(
                     "lot effect", LOT_EFFECT_METHOD, group, flag,
@@ -155,6 +160,18 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
                             d.inp.fit_error))
     out.extend(companions(d))
     return out
+
+
+def _lot_codes(lots, n: int) -> tuple[list, np.ndarray] | None:
+    """``group_codes(lots, n)`` for a tuple of lots (the evaluation's, remembered there), or
+    None: for other lots, or lots it refuses (the plain routes then give their answers and
+    errors)."""
+    if type(lots) is not tuple:
+        return None
+    try:
+        return group_codes(lots, n)
+    except (TypeError, ValueError):
+        return None
 
 
 def joined_parts(d: CharDraft) -> tuple:

@@ -403,16 +403,37 @@ _RANK_SUM_METHODS = {exact: f"Mann-Whitney rank-sum test ({_HOW[exact]})"
                      for exact in (True, False)}
 
 
-def _signed_rank_result(c: _SignedRank, alternative: str) -> RankTestResult:
+def _signed_rank_p(c: _SignedRank, alternative: str) -> float:
+    """The signed-rank test's p-value (clipped) from what it derived of the differences."""
     if c.exact:
         pvalue = _exact_p(_signed_rank_sums(c.n_nonzero), 2**c.n_nonzero, c.w_plus, alternative)
     else:
         pvalue = _normal_p(c.w_plus - c.mean, c.se, alternative)
+    return _clip_p(pvalue)
+
+
+def _signed_rank_result(c: _SignedRank, alternative: str) -> RankTestResult:
     # (the fields by position: method, statistic, pvalue, alternative, n, n_zero,
     # n_tied_groups, n_tied_values, exact, estimate, zero_method)
     return RankTestResult(_SIGNED_RANK_METHODS[c.exact, c.zero_method], c.w_plus,
-                          _clip_p(pvalue), alternative, c.n, c.n_zero, c.groups,
+                          _signed_rank_p(c, alternative), alternative, c.n, c.n_zero, c.groups,
                           c.tied_values, c.exact, c.estimate, c.zero_method)
+
+
+def signed_rank_about_figures(x: ArrayLike, target: float, *, alternative: str = "two-sided"
+                              ) -> tuple[str, float, float, int]:
+    """``(method, statistic, pvalue, n_zero)`` of :func:`signed_rank_about` (the same floats
+    and texts, and the same errors), for a caller that reads these alone, as the rank
+    companion of the target check does: for a sample the batch ranked
+    (:func:`verify.stats.batch.prefetch_ranks`) the result object is not made."""
+    hit = _memo.recall("signed_rank", x)
+    if hit is not None and hit[0] == target:
+        check_alternative(alternative)
+        c = hit[1]
+        return (_SIGNED_RANK_METHODS[c.exact, c.zero_method], c.w_plus,
+                _signed_rank_p(c, alternative), c.n_zero)
+    r = signed_rank_about(x, target, alternative=alternative)
+    return r.method, r.statistic, r.pvalue, r.n_zero
 
 
 def mann_whitney(
@@ -478,14 +499,34 @@ def _rank_sum_se(n_old: int, n_new: int, sizes: np.ndarray) -> float:
                      * ((big_n + 1.0) - float(np.add.reduce(t**3 - t)) / (big_n * (big_n - 1.0))))
 
 
-def _rank_sum_result(c: _RankSum, alternative: str) -> RankTestResult:
+def _rank_sum_p(c: _RankSum, alternative: str) -> float:
+    """The rank-sum test's p-value (clipped) from what it derived of the two samples."""
     if c.exact:
         pvalue = _exact_p(_rank_sum_sums(c.n_old, c.n_new), math.comb(c.n_old + c.n_new, c.n_old),
                           c.u_new, alternative)
     else:
         pvalue = _normal_p(c.u_new - c.n_old * c.n_new / 2.0, c.se, alternative)
+    return _clip_p(pvalue)
+
+
+def _rank_sum_result(c: _RankSum, alternative: str) -> RankTestResult:
     # (the fields by position: method, statistic, pvalue, alternative, n, n_zero,
     # n_tied_groups, n_tied_values, exact, estimate, zero_method, n_old, n_new)
-    return RankTestResult(_RANK_SUM_METHODS[c.exact], c.u_new, _clip_p(pvalue),
+    return RankTestResult(_RANK_SUM_METHODS[c.exact], c.u_new, _rank_sum_p(c, alternative),
                           alternative, c.n_old + c.n_new, 0, c.groups, c.tied_values, c.exact,
                           c.estimate, None, c.n_old, c.n_new)
+
+
+def mann_whitney_figures(old: ArrayLike, new: ArrayLike, *, alternative: str = "two-sided"
+                         ) -> tuple[str, float, float]:
+    """``(method, statistic, pvalue)`` of :func:`mann_whitney` (the same floats and texts, and
+    the same errors), for a caller that reads these alone, as the rank companion of the shift
+    check does: for two samples the batch ranked (:func:`verify.stats.batch.prefetch_ranks`)
+    the result object is not made."""
+    check_alternative(alternative)
+    hit = _memo.recall("rank_sum", old)
+    if hit is not None and hit[0] is new:
+        c = hit[1]
+        return _RANK_SUM_METHODS[c.exact], c.u_new, _rank_sum_p(c, alternative)
+    r = mann_whitney(old, new, alternative=alternative)
+    return r.method, r.statistic, r.pvalue

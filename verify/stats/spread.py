@@ -285,6 +285,30 @@ def brown_forsythe(
     >>> round(r.statistic, 4), r.df
     (2.1778, (1, 8))
     """
+    n1, n2, ma, mb, df, se, est, t = _brown_forsythe_t(old, new, alternative)
+    # (the fields by position: method, statistic, df_num, df_den, pvalue, alternative,
+    # t_statistic, estimate, standard_error, mad_old, mad_new, n_old, n_new)
+    return BrownForsytheResult(BROWN_FORSYTHE_METHOD, float(t * t), 1,
+                               int(df), p_value(t, df, alternative), alternative, float(t),
+                               float(est), float(se), ma, mb, int(n1), int(n2))
+
+
+BROWN_FORSYTHE_METHOD = "Brown-Forsythe test (Levene, median-centred)"  # its result's method
+
+
+def brown_forsythe_figures(old: ArrayLike, new: ArrayLike, *, alternative: str = "two-sided"
+                           ) -> tuple[float, float]:
+    """``(statistic, pvalue)`` of :func:`brown_forsythe` (the same floats, and the same
+    errors), for a caller that reads these alone (its method is
+    :data:`BROWN_FORSYTHE_METHOD`), as the spread companion does: the result is not made."""
+    _, _, _, _, df, _, _, t = _brown_forsythe_t(old, new, alternative)
+    return float(t * t), p_value(t, df, alternative)
+
+
+def _brown_forsythe_t(old: ArrayLike, new: ArrayLike, alternative: str
+                      ) -> tuple[int, int, float, float, int, float, float, float]:
+    """(n_old, n_new, mad_old, mad_new, df, se, estimate, t) of the Brown-Forsythe test, and
+    its errors; from the batch's sums where it computed them."""
     check_alternative(alternative)
     hit = _memo.recall("brown_forsythe", old)  # computed with others (stats.batch)
     if hit is not None and hit[0] is new:
@@ -299,12 +323,7 @@ def brown_forsythe(
         )
     se = math.sqrt(ss / df * (1.0 / n1 + 1.0 / n2))
     est = mb - ma
-    t = est / se
-    # (the fields by position: method, statistic, df_num, df_den, pvalue, alternative,
-    # t_statistic, estimate, standard_error, mad_old, mad_new, n_old, n_new)
-    return BrownForsytheResult("Brown-Forsythe test (Levene, median-centred)", float(t * t), 1,
-                               int(df), p_value(t, df, alternative), alternative, float(t),
-                               float(est), float(se), ma, mb, int(n1), int(n2))
+    return n1, n2, ma, mb, df, se, est, est / se
 
 
 @dataclass(frozen=True)

@@ -293,35 +293,40 @@ def companions(kind, inp: CheckInput, dr: Draft) -> list[DiagnosticResult]:
     res = dr.result
     if res.p_value is None:
         return []
-    alpha = inp.spec.alpha
     data = inp.data
     check = kind.name
     alt = res.alternative if res.margin is None else "two-sided"
+    n_zero = 0
     try:
+        # the figures of the rank test the companion reads (method, statistic, p-value and,
+        # for the signed-rank test, the zero differences): for samples the batch ranked,
+        # without the test's result object (the same texts and floats, and the same errors)
         if _one_sample(kind):
-            rt = nonparametric.signed_rank_about(data.candidate.values, inp.ch.target,
-                                                 alternative=alt)
+            method, statistic, pvalue, n_zero = nonparametric.signed_rank_about_figures(
+                data.candidate.values, inp.ch.target, alternative=alt)
             group = data.candidate.name
         elif data.pairs is not None:
             pv = data.pairs
             rt = nonparametric.wilcoxon_signed_rank(pv.new - pv.old, alternative=alt)
+            method, statistic, pvalue, n_zero = rt.method, rt.statistic, rt.pvalue, rt.n_zero
             group = "differences"
         else:
             if data.reference.values is None:
                 return []
-            rt = nonparametric.mann_whitney(data.reference.values, data.candidate.values,
-                                            alternative=alt)
+            method, statistic, pvalue = nonparametric.mann_whitney_figures(
+                data.reference.values, data.candidate.values, alternative=alt)
             group = f"{data.reference.name} vs {data.candidate.name}"
     except CANNOT_COMPUTE as err:
         return [not_applicable("rank companion", f"rank test for the {check}", check, err)]
     disagree = False
     if res.margin is None:
-        disagree = (rt.pvalue < alpha) != (res.p_value < alpha)
-    ties = f", {rt.n_zero} zero difference(s)" if getattr(rt, "n_zero", 0) else ""
+        alpha = inp.spec.alpha
+        disagree = (pvalue < alpha) != (res.p_value < alpha)
     # (by position, extra an empty dict: what diagnostic(..., statistic=rt.statistic,
     # p_value=rt.pvalue) makes, without its call and keywords)
     return [DiagnosticResult(
-        "rank companion", rt.method, group, disagree,
-        (f"{check}: the rank test disagrees with the t-test ({p_eq(rt.pvalue)})"
-         if disagree else f"{check}: rank test {p_eq(rt.pvalue)}{ties}"),
-        rt.statistic, rt.pvalue, {})]
+        "rank companion", method, group, disagree,
+        (f"{check}: the rank test disagrees with the t-test ({p_eq(pvalue)})" if disagree
+         else f"{check}: rank test {p_eq(pvalue)}, {n_zero} zero difference(s)" if n_zero
+         else f"{check}: rank test {p_eq(pvalue)}"),
+        statistic, pvalue, {})]

@@ -168,24 +168,31 @@ def companions(kind, inp: CheckInput, dr: Draft) -> list[DiagnosticResult]:
     flagged when it disagrees; for the two-sample test only, not for pairs nor for within-lot
     variances."""
     spec = inp.spec
-    ref, cand = inp.data.reference, inp.data.candidate
-    usable = (inp.data.spread_pairs is None and spec.unit_of_analysis != "lot"
-              and ref.values is not None)
-    if not usable or dr.result.p_value is None:
+    data = inp.data
+    ref = data.reference
+    if (data.spread_pairs is not None or spec.unit_of_analysis == "lot" or ref.values is None
+            or dr.result.p_value is None):
         return []
-    alpha = spec.alpha
+    cand = data.candidate
     group = f"{ref.name} vs {cand.name}"
     try:
-        other_bf = inp.config(kind.name).method != "brown-forsythe"
-        o = (spread.brown_forsythe(ref.values, cand.values, alternative="greater") if other_bf
-             else spread.f_test(ref.values, cand.values, alternative="greater"))
+        if inp.config(kind.name).method != "brown-forsythe":
+            # the figures of spread.brown_forsythe the companion reads, without its result
+            # (the same floats and errors)
+            method = spread.BROWN_FORSYTHE_METHOD
+            statistic, pvalue = spread.brown_forsythe_figures(ref.values, cand.values,
+                                                              alternative="greater")
+        else:
+            o = spread.f_test(ref.values, cand.values, alternative="greater")
+            method, statistic, pvalue = o.method, o.statistic, o.pvalue
     except CANNOT_COMPUTE as err:
         return [not_applicable("spread companion", "spread companion", group, err)]
-    disagree = (o.pvalue < alpha) != (dr.result.p_value < alpha)
+    alpha = spec.alpha
+    disagree = (pvalue < alpha) != (dr.result.p_value < alpha)
     # (by position, extra an empty dict: what diagnostic(..., statistic=o.statistic,
     # p_value=o.pvalue) makes, without its call and keywords)
     return [DiagnosticResult(
-        "spread companion", o.method, group, disagree,
-        (f"the {o.method} disagrees with the deciding spread test ({p_eq(o.pvalue)})"
-         if disagree else f"{o.method} {p_eq(o.pvalue)}"),
-        o.statistic, o.pvalue, {})]
+        "spread companion", method, group, disagree,
+        (f"the {method} disagrees with the deciding spread test ({p_eq(pvalue)})"
+         if disagree else f"{method} {p_eq(pvalue)}"),
+        statistic, pvalue, {})]
