@@ -1,9 +1,9 @@
 """The diagnostics' and companions' figure routes give exactly what the plain routes give.
 
 The rank and spread companions read a few figures of their test (method, statistic, p-value,
-zero differences) without its result object; the lot-count and lot-effect diagnostics share one
-look at the lots. Each is held here to the plain public route it replaces, bit for bit: every
-value's type and, for floats, its exact binary value, or the same error.
+zero differences) without its result object. Each is held here to the plain public route it
+replaces, bit for bit: every value's type and, for floats, its exact binary value, or the same
+error.
 """
 
 from __future__ import annotations
@@ -128,45 +128,6 @@ def test_brown_forsythe_figures_are_the_plain_test_s(batched):
     _memo.forget()
 
 
-def _lot_cases():
-    rng = np.random.default_rng(5)
-    yield rng.normal(10.0, 0.01, 30), tuple(f"L{i // 10}" for i in range(30))
-    yield rng.normal(-3.0, 2.0, 17), tuple("abcab"[i % 5] for i in range(17))
-    yield rng.normal(0.0, 1.0, 6), ("a", "b", "c", "d", "e", "f")  # refused: no lot of 2
-    yield rng.normal(0.0, 1.0, 5), ("a",) * 5  # refused: one lot
-    yield np.array([1.0, 1.0, 2.0, 2.0]), ("a", "a", "b", "b")  # refused: no variation
-    yield rng.normal(0.0, 1.0, 6), (1, 1.0, True, 2, 2, "2")  # equal keys of other types
-    yield rng.normal(0.0, 1.0, 4), ("a", "a", "b")  # one label short: refused by group_codes
-    yield rng.normal(0.0, 1.0, 3), ["a", "b", "a"]  # a list: the plain route alone
-
-
-@pytest.mark.parametrize("frozen", [False, True])
-@pytest.mark.parametrize("values, lots", list(_lot_cases()))
-def test_lot_count_and_lot_effect_from_one_look_at_the_lots(values, lots, frozen):
-    """The lot-count diagnostic counts the labels group_codes found (len(set(lots)) where it
-    finds none), and the lot effect given those codes is the lot effect without them: the same
-    floats, or the same error."""
-    from verify.evaluate_diagnostics import _lot_codes
-    from verify.stats.lot_effect import lot_effect_figures
-
-    x = _memo.freeze(values.copy()) if frozen else values.copy()
-    coded = _lot_codes(lots, x.size)
-    assert (len(set(lots)) if coded is None else len(coded[0])) == len(set(lots))
-    assert (coded is None) == (type(lots) is not tuple or len(lots) != x.size)
-
-    def figures(*args):
-        try:
-            return _hex(lot_effect_figures(*args))
-        except (StatsError, ValueError) as err:
-            return type(err), str(err)
-
-    want = figures(values.copy(), lots)
-    _memo.forget()
-    assert figures(x, lots, coded) == want
-    assert figures(x, lots, coded) == want  # again, with the lots remembered
-    _memo.forget()
-
-
 # --- the companions, against their plain routes (each test's result object, fields read) ---
 
 def _rank_companion_plain(kind, inp, dr):
@@ -283,3 +244,24 @@ def test_companions_are_their_plain_routes(monkeypatch):
         evaluate(spec, load_measurements(spec))
     assert seen["location"] >= 24 and seen["spread"] >= 12
 
+
+
+@pytest.mark.parametrize("p", [0.5, 1.0, 0.999999, 5e-324, 1e-300, 0.0, -0.0, -1e-17,
+                               1.0000000000000002, 3.5, np.float64(0.25), np.float64(1.0),
+                               np.float64(-0.0), 1, 0, True, float("inf"), float("-inf"),
+                               float("nan")])
+def test_clip_p_is_its_plain_route(p):
+    """_clip_p returns a float in (0, 1] as it is; every value gives what float(), the
+    finiteness test and min(1.0, max(0.0, p)) give: the same float bits, or the same error."""
+    import math
+
+    from verify.stats.errors import DegenerateDataError
+    from verify.stats.nonparametric import _clip_p
+
+    v = float(p)
+    if not math.isfinite(v):
+        with pytest.raises(DegenerateDataError, match="no finite p-value"):
+            _clip_p(p)
+        return
+    got, want = _clip_p(p), min(1.0, max(0.0, v))
+    assert type(got) is float and got.hex() == want.hex()

@@ -17,7 +17,6 @@ from .spec_model import Characteristic, Spec
 from .stats import diagnostics as diag
 from .stats.lot_effect import METHOD as LOT_EFFECT_METHOD
 from .stats.lot_effect import lot_effect_figures
-from .stats.samples import group_codes
 
 RUN_LENGTH_FLAG = 8  # common practice: eight points in a row on one side of the centre line
 
@@ -89,11 +88,7 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
                 g.statistic, g.pvalue, {"value": g.value, "lot": str(lot)}))
         except CANNOT_COMPUTE as err:
             out.append(not_applicable("outliers", "Grubbs", group, err))
-        # the lots' codes, which the lot-effect analysis reads too: their labels are the lots'
-        # distinct values in order of first appearance (a dict's keys), as many as
-        # len(set(lots)) counts (the plain route where there are none)
-        coded = _lot_codes(lots, x.size)
-        n_lots = len(set(lots)) if coded is None else len(coded[0])
+        n_lots = len(set(lots))
         out.append(_Diagnostic(
             "lot count", "count of lots", group, n_lots < 3,
             _lot_count_words(n_lots, x.size), float(n_lots), None, {}))
@@ -101,7 +96,7 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
             try:
                 # the figures of diag.lot_effect(x, lots) this diagnostic reads, without the
                 # lot means and the result it would make (the same floats and errors)
-                statistic, pvalue, icc, lots_tested = lot_effect_figures(x, lots, coded)
+                statistic, pvalue, icc, lots_tested = lot_effect_figures(x, lots)
                 flag = pvalue < alpha
                 out.append(_Diagnostic(
                     "lot effect", LOT_EFFECT_METHOD, group, flag,
@@ -132,7 +127,9 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
     try:
         lower, upper = ch.lower, ch.upper  # (properties: read once)
         tol = (upper - lower) if (lower is not None and upper is not None) else None
-        rs = diag.resolution_of(joined_parts(d), tolerance=tol)
+        # (joined_parts(d), from the samples read above)
+        rs = diag.resolution_of((cand.parts,) if ref.parts is None else (ref.parts, cand.parts),
+                                tolerance=tol)
         coarse = rs.step_over_tenth_tolerance is not None and rs.step_over_tenth_tolerance > 1.0
         out.append(_Diagnostic(
             "resolution", "measurement resolution", "all", coarse,
@@ -160,18 +157,6 @@ def diagnostics(spec: Spec, ch: Characteristic, d: CharDraft) -> list[Diagnostic
                             d.inp.fit_error))
     out.extend(companions(d))
     return out
-
-
-def _lot_codes(lots, n: int) -> tuple[list, np.ndarray] | None:
-    """``group_codes(lots, n)`` for a tuple of lots (the evaluation's, remembered there), or
-    None: for other lots, or lots it refuses (the plain routes then give their answers and
-    errors)."""
-    if type(lots) is not tuple:
-        return None
-    try:
-        return group_codes(lots, n)
-    except (TypeError, ValueError):
-        return None
 
 
 def joined_parts(d: CharDraft) -> tuple:

@@ -97,15 +97,12 @@ def lot_effect(values: Sequence[float] | np.ndarray, lots: Sequence[Hashable]) -
                            label_tuple, means, size_tuple)
 
 
-def lot_effect_figures(values: Sequence[float] | np.ndarray, lots: Sequence[Hashable],
-                       coded: tuple[list, np.ndarray] | None = None
+def lot_effect_figures(values: Sequence[float] | np.ndarray, lots: Sequence[Hashable]
                        ) -> tuple[float, float, float, int]:
     """``(statistic, pvalue, icc, n_lots)`` of :func:`lot_effect` (the same floats, and the
     same errors), for a caller that reads these figures alone, as the lot-effect diagnostic
-    does: the lot means, the variance components and the result are not made. ``coded`` is
-    what ``samples.group_codes(lots, n)`` gave the caller for these lots and the n values,
-    where it has it (the lot-count diagnostic reads it too): not looked up again."""
-    ow, k, _, _ = _analysis(values, lots, coded)
+    does: the lot means, the variance components and the result are not made."""
+    ow, k, _, _ = _analysis(values, lots)
     return float(ow.statistic), ow.pvalue, _icc(ow), int(k)
 
 
@@ -115,15 +112,11 @@ def _icc(ow) -> float:
     return float(max(0.0, (msb - msw) / (msb + (ow.n0 - 1.0) * msw)))
 
 
-def _analysis(values, lots, coded=None) -> tuple[OneWay, int, tuple, tuple]:
+def _analysis(values, lots) -> tuple[OneWay, int, tuple, tuple]:
     """The one-way analysis of ``values`` across ``lots``, the number of lots, and the labels
-    and sizes of the lots as tuples; the errors lot_effect documents. ``coded``: see
-    :func:`lot_effect_figures`."""
+    and sizes of the lots as tuples; the errors lot_effect documents."""
     a = finite_values(values)
-    if coded is not None and coded[1].size == a.size:
-        labels, codes = coded  # (what group_codes(lots, a.size) gives: the caller's call)
-    else:
-        labels, codes = group_codes(lots, a.size)
+    labels, codes = group_codes(lots, a.size)
     # what the lots alone give (their count, sizes, labels and sizes as tuples), remembered
     # with their read-only codes: the characteristics measured on the same parts share one
     # codes array (samples.group_codes), so each layout of lots is looked at once. The

@@ -279,6 +279,10 @@ def _shift_median(old: np.ndarray, new: np.ndarray) -> float | None:
 
 
 def _clip_p(p: float) -> float:
+    if type(p) is float and 0.0 < p <= 1.0:
+        # a float in (0, 1]: what the lines below give, p itself (1.0 for 1.0), without their
+        # calls (-0.0, NaN and anything outside take them: max(0.0, -0.0) is 0.0)
+        return p
     p = float(p)
     if not math.isfinite(p):
         raise DegenerateDataError("the rank test gave no finite p-value for these data")
