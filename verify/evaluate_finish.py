@@ -49,11 +49,16 @@ def adjust(drafts: list[CharDraft], method: str, alpha: float
     tests) across characteristics; a check that cannot be computed is left out of it and counts
     nowhere (not in the adjustment, not in alpha / m).
     """
-    members = _members(drafts)
-    family = [(label, dr) for label, dr in members if dr.finish is not None]
-    excluded = tuple(f"{label}: {dr.result.check}" for label, dr in members
-                     if dr.family and dr.finish is None)
-    names = tuple(f"{label}: {dr.result.check}" for label, dr in family)
+    # one pass over the members in their order (:func:`_members`): the family's drafts and
+    # names, and the names of the checks left out of it
+    family, names, excluded = [], [], []
+    for label, dr in _members(drafts):
+        if dr.finish is not None:
+            family.append(dr)
+            names.append(f"{label}: {dr.result.check}")
+        elif dr.family:
+            excluded.append(f"{label}: {dr.result.check}")
+    names, excluded = tuple(names), tuple(excluded)
     if not family:
         return names, excluded
     adjusted = method != "none"
@@ -61,10 +66,10 @@ def adjust(drafts: list[CharDraft], method: str, alpha: float
     eff_alpha = alpha / m if adjusted else alpha
     # each member's fields at the family's level, then its decision on the adjusted p-value,
     # into one copy of its result (a finish reads what its complete found, not the result)
-    completed = [dr.complete(eff_alpha, m) for _, dr in family]
-    ps = np.array([dr.family_p for _, dr in family])
+    completed = [dr.complete(eff_alpha, m) for dr in family]
+    ps = np.array([dr.family_p for dr in family])
     adj = multiplicity.adjust(ps, method) if adjusted else ps
-    for (_, dr), done, pa in zip(family, completed, adj.tolist(), strict=True):
+    for dr, done, pa in zip(family, completed, adj.tolist(), strict=True):
         pa = float(pa)
         v = dr.finish(pa, adjusted)
         dr.harm_shown = v.outcome == "HOLD"

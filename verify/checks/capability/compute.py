@@ -37,7 +37,7 @@ def draft(kind, inp: CheckInput) -> Draft:
                            subgroups=subgroups)
         lb95 = r.cpk_lower_bound(0.95)
         # (the 95% bound of Cpk again where the spec judges that one)
-        bound = lb95 if (index, level) == ("cpk", 0.95) else r.lower_bound(index, level)
+        bound = lb95 if index == "cpk" and level == 0.95 else r.lower_bound(index, level)
     except CANNOT_COMPUTE as err:
         return cannot_compute(kind.name, f"process capability ({label})", hyp, err)
     value = r.cpk if index == "cpk" else r.ppk

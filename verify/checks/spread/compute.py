@@ -91,7 +91,8 @@ def draft(kind, inp: CheckInput) -> Draft:
             if ref.values is None:
                 raise DegenerateDataError("no old-process values")
             f = spread.f_test(ref.values, cand.values, alternative="greater")
-            details = TwoSampleSpreadDetails(df_num=f.df_num, df_den=f.df_den, F=f.statistic)
+            # (by position: df_num, df_den, F)
+            details = TwoSampleSpreadDetails(f.df_num, f.df_den, f.statistic)
             design = "two-sample"
             if conf.design_given and spec.data.pair is not None:
                 note = "; pairs ignored: the spec declares spread design: independent"
@@ -156,7 +157,8 @@ def draft(kind, inp: CheckInput) -> Draft:
                              level=found["level"], method=method, adjusted=adjusted,
                              what=what, note=note)
 
-    return Draft(result=res, family_p=p, finish=finish, complete=complete, family=True)
+    # (by position: result, family_p, harm_shown, finish, complete, family)
+    return Draft(res, p, False, finish, complete, True)
 
 
 def rank_requests(kind, inp: CheckInput) -> list[tuple]:
