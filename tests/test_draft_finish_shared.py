@@ -123,3 +123,34 @@ def test_fmt_default_digits_is_the_formatted_spec(x):
     assert fmt(x, 4) == fmt(x)
     for d in (1, 3, 6, 17, 20):
         assert fmt(x, d) == f"{x:.{d}g}"
+
+
+@pytest.mark.parametrize("check", ["target", "shift"])
+@pytest.mark.parametrize("side, low, high", [("two-sided", -0.02, 0.02), ("lower", -0.5, 1.5),
+                                             ("upper", -0.01, 0.03)])
+@pytest.mark.parametrize("pvalue", [0.2, 0.01, 3e-7, 0.05])
+@pytest.mark.parametrize("ci", [(-0.001384, 0.0123), (-0.9, -0.6), (0.04, 0.07), (0.0, 1e-5)])
+def test_margin_rule_outcome_reason_is_its_verdicts(check, side, low, high, pvalue, ci):
+    """The location draft reads MarginRule.outcome_reason: the outcome and reason of the
+    Verdict that decide gives for the same arguments."""
+    from verify.checks.location.rule import MarginRule
+
+    rule = MarginRule(check)
+    v = rule.decide(pvalue=pvalue, alpha=0.05, low=low, high=high, ci=ci, unit="mm", side=side)
+    assert rule.outcome_reason(pvalue, 0.05, low, high, ci, "mm", side) == (v.outcome, v.reason)
+
+
+@pytest.mark.parametrize("judge", ["estimate", "lower_bound"])
+@pytest.mark.parametrize("cpk, lower_bound", [(1.5, 1.2), (1.1, 0.9), (2.0, 1.4), (1.4, None),
+                                              (-0.3, -0.5)])
+@pytest.mark.parametrize("index, confidence", [("Cpk", 0.95), ("Ppk", 0.9)])
+def test_capability_rule_outcome_reason_is_its_verdicts(judge, cpk, lower_bound, index,
+                                                        confidence):
+    """The capability draft reads CapabilityRule.outcome_reason: the outcome and reason of the
+    Verdict that decide gives for the same arguments."""
+    from verify.checks.capability.rule import CAPABILITY
+
+    v = CAPABILITY.decide(cpk=cpk, lower_bound=lower_bound, min_cpk=1.33, index=index,
+                          judge=judge, confidence=confidence)
+    assert CAPABILITY.outcome_reason(cpk, lower_bound, 1.33, index, judge, confidence) == (
+        v.outcome, v.reason)

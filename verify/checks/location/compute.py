@@ -250,8 +250,10 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
                     alpha=alpha, bound=bound, harmful=harmful, power=spec.plan.power,
                     ratio=ratio, **sds)
     rule = margin_rule(kind)
-    verdict = rule.decide(pvalue=pval, alpha=alpha, low=low, high=high,
-                          ci=ci_pair, unit=unit, side=ch.side)
+    side = ch.side
+    # (rule.decide(pvalue=pval, alpha=alpha, low=low, high=high, ci=ci_pair, unit=unit,
+    # side=side)'s outcome and reason, without its Verdict)
+    outcome, reason = rule.outcome_reason(pval, alpha, low, high, ci_pair, unit, side)
     note = (f"power of this test if the true {noun} is {fmt_often(true_shift)} and the sd is "
             "as observed")
     # CheckResult's fields by position (a check of every characteristic: a call by keyword
@@ -259,12 +261,11 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
     # reason, estimate, standard_error, statistic, df, p_value, p_adjusted, ci_low, ci_high,
     # ci_level, critical_value, power, power_note, detectable_shift, planned_n, design, details
     res = CheckResult(
-        kind.name, method, hyp, alternative, (low, high), verdict.outcome, verdict.reason,
+        kind.name, method, hyp, alternative, (low, high), outcome, reason,
         e.estimate, e.standard_error, statistic, e.df, pval, None, ci_pair[0], ci_pair[1], level,
         crit, finite(pw), note, None, size.n_new if size is not None else None, design,
         LocationDetails(n_new, n_old, float(e.sd), *tost_fields))
-    harm = verdict.outcome == "HOLD" and rule.harm_shown(ci=ci_pair, low=low, high=high,
-                                                         side=ch.side)
+    harm = outcome == "HOLD" and rule.harm_shown(ci=ci_pair, low=low, high=high, side=side)
     # (by position: result, family_p, harm_shown, finish, complete, family, batch)
     return Draft(res, None, harm, None, None, False, batch)
 
