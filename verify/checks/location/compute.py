@@ -202,7 +202,8 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
     # without its checks of the level (0 < 1 - 2 alpha < 1 for the spec's alpha in (0, 0.5))
     # and the alternative, nor its Interval: two_sided_bounds, whose quantile at
     # 0.5 + level / 2 is the critical value's where the two probabilities are the same float
-    # (for every alpha a spec has met so far; another alpha takes two_sided_bounds itself)
+    # (so for alpha 0.05, 0.1, 0.01, 0.025, about nine alphas in ten; another alpha takes
+    # two_sided_bounds itself)
     if 0.5 + level / 2.0 == 1.0 - alpha:
         est, half = e.estimate, crit * e.standard_error
         ci_pair = (est - half, est + half)
