@@ -50,11 +50,17 @@ def fmt(x: float | None, digits: int = 4) -> str:
         return "n/a"
     if x == 0:  # (before the infinity test: zero is the commoner; neither is the other)
         return "0"
-    if math.isinf(x):
+    if _isinf(x):
         return "inf" if x > 0 else "-inf"
     # format(x, ".4g") is what f"{x:.{digits}g}" computes, without building the spec per call
+    # (the default 4 digits without a lookup)
+    if digits == 4:
+        return format(x, ".4g")
     spec = _G_SPECS.get(digits)
     return format(x, spec if spec is not None else f".{digits}g")
+
+
+_isinf = math.isinf
 
 
 _OFTEN: dict[float, str] = {}  # fmt_often's texts by number

@@ -49,11 +49,16 @@ def adjust(drafts: list[CharDraft], method: str, alpha: float
     tests) across characteristics; a check that cannot be computed is left out of it and counts
     nowhere (not in the adjustment, not in alpha / m).
     """
-    members = _members(drafts)
-    family = [(label, dr) for label, dr in members if dr.finish is not None]
-    excluded = tuple(f"{label}: {dr.result.check}" for label, dr in members
-                     if dr.family and dr.finish is None)
-    names = tuple(f"{label}: {dr.result.check}" for label, dr in family)
+    # one pass over the members in their order (:func:`_members`): the family's drafts and
+    # names, and the names of the checks left out of it
+    family, names, excluded = [], [], []
+    for label, dr in _members(drafts):
+        if dr.finish is not None:
+            family.append(dr)
+            names.append(f"{label}: {dr.result.check}")
+        elif dr.family:
+            excluded.append(f"{label}: {dr.result.check}")
+    names, excluded = tuple(names), tuple(excluded)
     if not family:
         return names, excluded
     adjusted = method != "none"
@@ -61,14 +66,19 @@ def adjust(drafts: list[CharDraft], method: str, alpha: float
     eff_alpha = alpha / m if adjusted else alpha
     # each member's fields at the family's level, then its decision on the adjusted p-value,
     # into one copy of its result (a finish reads what its complete found, not the result)
-    completed = [dr.complete(eff_alpha, m) for _, dr in family]
-    ps = np.array([dr.family_p for _, dr in family])
+    completed = [dr.complete(eff_alpha, m) for dr in family]
+    ps = np.array([dr.family_p for dr in family])
     adj = multiplicity.adjust(ps, method) if adjusted else ps
-    for (_, dr), done, pa in zip(family, completed, adj.tolist(), strict=True):
-        v = dr.finish(float(pa), adjusted)
+    for dr, done, pa in zip(family, completed, adj.tolist(), strict=True):
+        pa = float(pa)
+        v = dr.finish(pa, adjusted)
         dr.harm_shown = v.outcome == "HOLD"
-        dr.result = replaced(dr.result, **{**done, "outcome": v.outcome, "reason": v.reason,
-                                           "p_adjusted": float(pa) if adjusted else None})
+        # complete's dict (a new one each call, the Draft protocol's) takes the decision's
+        # fields and is the copy's changes: what replaced(res, **{**done, ...}) gets, without
+        # the merged dict
+        done["outcome"], done["reason"] = v.outcome, v.reason
+        done["p_adjusted"] = pa if adjusted else None
+        dr.result = replaced(dr.result, **done)
         dr.finish = None
     return names, excluded
 
@@ -131,7 +141,9 @@ def finish(spec: Spec, d: CharDraft) -> CharacteristicResult:
     for res in checks:
         k, review_of = _review_of(res.check)  # optional: notes after deciding
         if review_of is not None:
-            review.extend([f"review: {name}: {note}" for note in review_of(k, res, spec)])
+            notes = review_of(k, res, spec)
+            if notes:  # (most checks have none: no list of none to extend by)
+                review.extend([f"review: {name}: {note}" for note in notes])
     if d.final_shortfall is not None:
         review.append(f"review: {name}: final run with the plan cut short "
                       f"({d.final_shortfall})")
@@ -142,14 +154,17 @@ def finish(spec: Spec, d: CharDraft) -> CharacteristicResult:
     if d.unmatched:
         review.append(f"review: {name}: {len(d.unmatched)} pair key(s) with one side only "
                       f"left out of the paired analysis: {', '.join(map(str, d.unmatched[:10]))}")
-    streams = tuple(_finish_stream(d, st) for st in d.streams)
-    outcome = decide.combine([c.outcome for c in checks] + [st.decision for st in streams])
+    # (a characteristic without data.stream sub-streams, the common case, skips the empty
+    # loops over them: the same outcome and reasons)
+    streams = tuple(_finish_stream(d, st) for st in d.streams) if d.streams else ()
+    outcome = decide.combine([c.outcome for c in checks] + [st.decision for st in streams]
+                             if streams else [c.outcome for c in checks])
     if outcome == "PENDING" and d.shortfall is not None:
         reasons = (d.shortfall, *so_far)
     else:
-        own = tuple(f"{c.check}: {c.reason}" for c in checks if c.outcome == outcome)
-        named = tuple(f"stream {st.name}: {c.check}: {c.reason}" for st in streams
-                      for c in st.checks if c.outcome == outcome)
+        own = tuple([f"{c.check}: {c.reason}" for c in checks if c.outcome == outcome])
+        named = tuple([f"stream {st.name}: {c.check}: {c.reason}" for st in streams
+                       for c in st.checks if c.outcome == outcome]) if streams else ()
         # a HOLD or PENDING stream leads the reasons, named: a bad cavity must not hide in the
         # pooled data; a PASS lists the characteristic's own checks first
         reasons = own + named if outcome == "PASS" else named + own

@@ -127,7 +127,8 @@ class Draft:
         A draft with ``finish`` is a member of the family.
     complete : callable or None
         ``complete(alpha_used, family_size) -> dict``: the result's fields that depend on the
-        level (interval, critical value, power), run once the family's size is known.
+        level (interval, critical value, power), run once the family's size is known; a new
+        dict each call (the evaluation adds the decision's fields to it).
     family : bool
         A test that HOLDs on significance: a member of the family unless it could not be
         computed (then listed apart).

@@ -85,12 +85,18 @@ class VarianceRatioResult:
         f, a, b = self.statistic, self.df_num, self.df_den
         alternative = self.alternative if alternative is None else check_alternative(alternative)
         if alternative == "two-sided":
-            lo = math.sqrt(f / _f_quantile(0.5 + level / 2.0, a, b))
-            hi = math.sqrt(f / _f_quantile(0.5 - level / 2.0, a, b))
-            return Interval(lo, hi, level)
+            return Interval(*self.two_sided_bounds(level), level)
         if alternative == "greater":
             return Interval(math.sqrt(f / _f_quantile(level, a, b)), math.inf, level)
         return Interval(0.0, math.sqrt(f / _f_quantile(1.0 - level, a, b)), level)
+
+    def two_sided_bounds(self, level: float) -> tuple[float, float]:
+        """The ``(low, high)`` of ``confidence_interval(level, alternative="two-sided")`` (the
+        same arithmetic), for a caller that knows ``level`` lies in (0, 1) and reads only the
+        bounds: without the checks and the Interval."""
+        f, a, b = self.statistic, self.df_num, self.df_den
+        return (math.sqrt(f / _f_quantile(0.5 + level / 2.0, a, b)),
+                math.sqrt(f / _f_quantile(0.5 - level / 2.0, a, b)))
 
     def critical_values(self, alpha: float = 0.05) -> tuple[float, float]:
         """Rejection limits for F: (lower, upper); a one-sided test has 0 or +inf on the other.

@@ -37,13 +37,15 @@ def draft(kind, inp: CheckInput) -> Draft:
                            subgroups=subgroups)
         lb95 = r.cpk_lower_bound(0.95)
         # (the 95% bound of Cpk again where the spec judges that one)
-        bound = lb95 if (index, level) == ("cpk", 0.95) else r.lower_bound(index, level)
+        bound = lb95 if index == "cpk" and level == 0.95 else r.lower_bound(index, level)
     except CANNOT_COMPUTE as err:
         return cannot_compute(kind.name, f"process capability ({label})", hyp, err)
     value = r.cpk if index == "cpk" else r.ppk
     bound = finite(bound)
-    v = CAPABILITY.decide(cpk=value, lower_bound=bound, min_cpk=min_index,
-                          index=label, judge=judged_by, confidence=level)
+    # (CAPABILITY.decide(cpk=value, lower_bound=bound, min_cpk=min_index, index=label,
+    # judge=judged_by, confidence=level)'s outcome and reason, without its Verdict)
+    outcome, reason = CAPABILITY.outcome_reason(value, bound, min_index, label, judged_by,
+                                                level)
     bound_df = r.sigma_within_df if index == "cpk" else float(r.n - 1)
     # CapabilityDetails' fields by position, in their declared order: cp, cpk, cpl, cpu, pp,
     # ppk, cpm, sigma_within, sigma_overall, sigma_method, mean, n, min_cpk, cpk_lower_95,
@@ -64,7 +66,7 @@ def draft(kind, inp: CheckInput) -> Draft:
     # costs about 40 ns a field): check, method, hypothesis, alternative, margin, outcome,
     # reason, estimate, standard_error, statistic, df, p_value, p_adjusted, ci_low, ci_high,
     # ci_level, critical_value, power, power_note, detectable_shift, planned_n, design, details
-    res = CheckResult(kind.name, f"{sigma}; {judge}", hyp, None, None, v.outcome, v.reason,
+    res = CheckResult(kind.name, f"{sigma}; {judge}", hyp, None, None, outcome, reason,
                       value, None, None, None, None, None, bound, None, level, None,
                       None, note, None, None, None, details)
     return Draft(result=res)

@@ -21,21 +21,28 @@ class CapabilityRule:
     def decide(self, *, cpk: float, lower_bound: float | None, min_cpk: float,
                index: str = "Cpk", judge: str = "estimate",
                confidence: float = 0.95) -> Verdict:
+        return Verdict(*self.outcome_reason(cpk, lower_bound, min_cpk, index, judge,
+                                            confidence))
+
+    def outcome_reason(self, cpk: float, lower_bound: float | None, min_cpk: float,
+                       index: str = "Cpk", judge: str = "estimate",
+                       confidence: float = 0.95) -> tuple[str, str]:
+        """The ``(outcome, reason)`` of :meth:`decide`'s Verdict, for a caller that reads only
+        the two (the capability draft: no Verdict to make and read)."""
         level = f"{fmt_percent(confidence)}%"
         lb = (f", lower {level} bound {fmt(lower_bound, 3)}" if lower_bound is not None
               else "")
         if judge == "lower_bound":
             if lower_bound is None:
-                return Verdict("HOLD", f"the lower {level} bound of {index} cannot be computed "
-                               f"(new {index} {fmt(cpk, 3)})")
+                return "HOLD", (f"the lower {level} bound of {index} cannot be computed "
+                                f"(new {index} {fmt(cpk, 3)})")
             head = f"the lower {level} bound of the new {index} ({fmt(cpk, 3)})"
             if lower_bound < min_cpk:
-                return Verdict("HOLD", f"{head}, {fmt(lower_bound, 3)}, is below "
-                               f"{fmt_often(min_cpk)}")
-            return Verdict("PASS", f"{head}, {fmt(lower_bound, 3)}, meets {fmt_often(min_cpk)}")
+                return "HOLD", f"{head}, {fmt(lower_bound, 3)}, is below {fmt_often(min_cpk)}"
+            return "PASS", f"{head}, {fmt(lower_bound, 3)}, meets {fmt_often(min_cpk)}"
         if cpk < min_cpk:
-            return Verdict("HOLD", f"new {index} {fmt(cpk, 3)} is below {fmt_often(min_cpk)}{lb}")
-        return Verdict("PASS", f"new {index} {fmt(cpk, 3)} meets {fmt_often(min_cpk)}{lb}")
+            return "HOLD", f"new {index} {fmt(cpk, 3)} is below {fmt_often(min_cpk)}{lb}"
+        return "PASS", f"new {index} {fmt(cpk, 3)} meets {fmt_often(min_cpk)}{lb}"
 
 
 CAPABILITY = CapabilityRule()

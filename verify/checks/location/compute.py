@@ -195,10 +195,20 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
     n_new, n_old = e.n_new, e.n_old
     low, high = test.low, test.high
     level = 1 - 2 * alpha
+    # the critical value critical_value(e.df, alpha, "greater") without its check of the
+    # alternative
+    crit = t_quantile(1.0 - alpha, e.df)
     # the bounds of confidence_interval(e.estimate, e.standard_error, e.df, level=level)
     # without its checks of the level (0 < 1 - 2 alpha < 1 for the spec's alpha in (0, 0.5))
-    # and the alternative, nor its Interval
-    ci_pair = two_sided_bounds(e.estimate, e.standard_error, e.df, level)
+    # and the alternative, nor its Interval: two_sided_bounds, whose quantile at
+    # 0.5 + level / 2 is the critical value's where the two probabilities are the same float
+    # (so for alpha 0.05, 0.1, 0.01, 0.025, about nine alphas in ten; another alpha takes
+    # two_sided_bounds itself)
+    if 0.5 + level / 2.0 == 1.0 - alpha:
+        est, half = e.estimate, crit * e.standard_error
+        ci_pair = (est - half, est + half)
+    else:
+        ci_pair = two_sided_bounds(e.estimate, e.standard_error, e.df, level)
     true_shift = spec.plan.true_shift
     batch = None
     if test.kind == EQUIVALENCE:
@@ -241,24 +251,24 @@ def _draft_margin(kind, inp: CheckInput, test: TestChoice, e, subject: str, noun
                     alpha=alpha, bound=bound, harmful=harmful, power=spec.plan.power,
                     ratio=ratio, **sds)
     rule = margin_rule(kind)
-    verdict = rule.decide(pvalue=pval, alpha=alpha, low=low, high=high,
-                          ci=ci_pair, unit=unit, side=ch.side)
+    side = ch.side
+    # (rule.decide(pvalue=pval, alpha=alpha, low=low, high=high, ci=ci_pair, unit=unit,
+    # side=side)'s outcome and reason, without its Verdict)
+    outcome, reason = rule.outcome_reason(pval, alpha, low, high, ci_pair, unit, side)
     note = (f"power of this test if the true {noun} is {fmt_often(true_shift)} and the sd is "
             "as observed")
     # CheckResult's fields by position (a check of every characteristic: a call by keyword
     # costs about 40 ns a field): check, method, hypothesis, alternative, margin, outcome,
     # reason, estimate, standard_error, statistic, df, p_value, p_adjusted, ci_low, ci_high,
-    # ci_level, critical_value (critical_value(e.df, alpha, "greater") without its check of
-    # the alternative), power, power_note, detectable_shift, planned_n, design, details
+    # ci_level, critical_value, power, power_note, detectable_shift, planned_n, design, details
     res = CheckResult(
-        kind.name, method, hyp, alternative, (low, high), verdict.outcome, verdict.reason,
+        kind.name, method, hyp, alternative, (low, high), outcome, reason,
         e.estimate, e.standard_error, statistic, e.df, pval, None, ci_pair[0], ci_pair[1], level,
-        t_quantile(1.0 - alpha, e.df), finite(pw), note, None,
-        size.n_new if size is not None else None, design,
+        crit, finite(pw), note, None, size.n_new if size is not None else None, design,
         LocationDetails(n_new, n_old, float(e.sd), *tost_fields))
-    harm = verdict.outcome == "HOLD" and rule.harm_shown(ci=ci_pair, low=low, high=high,
-                                                         side=ch.side)
-    return Draft(result=res, harm_shown=harm, batch=batch)
+    harm = outcome == "HOLD" and rule.harm_shown(ci=ci_pair, low=low, high=high, side=side)
+    # (by position: result, family_p, harm_shown, finish, complete, family, batch)
+    return Draft(res, None, harm, None, None, False, batch)
 
 
 def complete_batch(drafts: list[Draft]) -> None:

@@ -31,17 +31,23 @@ class MarginRule:
 
     def decide(self, *, pvalue: float, alpha: float, low: float, high: float,
                ci: tuple[float, float], unit: str, side: str) -> Verdict:
+        return Verdict(*self.outcome_reason(pvalue, alpha, low, high, ci, unit, side))
+
+    def outcome_reason(self, pvalue: float, alpha: float, low: float, high: float,
+                       ci: tuple[float, float], unit: str, side: str) -> tuple[str, str]:
+        """The ``(outcome, reason)`` of :meth:`decide`'s Verdict, for a caller that reads only
+        the two (the location draft: no Verdict to make and read)."""
         level = fmt_percent(1 - 2 * alpha)  # fmt(100 * (1 - 2 * alpha))
         lo, hi = fmt_like_pair(ci[0], ci[1])  # fmt_like(ci[0], ci[1])
         detail = f"({level}% interval {lo}..{hi}, {p_eq(pvalue)})"
         claim = self._claim(side, low, high, unit)
         if pvalue < alpha:
-            return Verdict("PASS", f"shown {claim} {detail}")
+            return "PASS", f"shown {claim} {detail}"
         beyond = ("; the whole interval lies beyond the margin"
                   if self.harm_shown(ci=ci, low=low, high=high, side=side) else "")
         if side == "two-sided":
-            return Verdict("HOLD", f"not shown {claim} {detail}{beyond}")
-        return Verdict("HOLD", f"not shown to be {claim} {detail}{beyond}")
+            return "HOLD", f"not shown {claim} {detail}{beyond}"
+        return "HOLD", f"not shown to be {claim} {detail}{beyond}"
 
     def _claim(self, side: str, low: float, high: float, unit: str) -> str:
         """What a PASS shows ("within ±0.02 mm of target"); remembered by its margin, side and

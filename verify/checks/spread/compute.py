@@ -49,6 +49,7 @@ def draft(kind, inp: CheckInput) -> Draft:
     what = "sd ratio new/old"
     desc = None  # the F-test beside a Brown-Forsythe decision, descriptive only (its
     # two-sided interval)
+    bounds = None  # the F-test's interval bounds by level, where it decides (else interval)
     try:
         if pv is not None:
             r = pitman_morgan(pv.old, pv.new, alternative="greater")
@@ -90,7 +91,8 @@ def draft(kind, inp: CheckInput) -> Draft:
             if ref.values is None:
                 raise DegenerateDataError("no old-process values")
             f = spread.f_test(ref.values, cand.values, alternative="greater")
-            details = TwoSampleSpreadDetails(df_num=f.df_num, df_den=f.df_den, F=f.statistic)
+            # (by position: df_num, df_den, F)
+            details = TwoSampleSpreadDetails(f.df_num, f.df_den, f.statistic)
             design = "two-sample"
             if conf.design_given and spec.data.pair is not None:
                 note = "; pairs ignored: the spec declares spread design: independent"
@@ -116,8 +118,11 @@ def draft(kind, inp: CheckInput) -> Draft:
                 method, stat, df, est, p = f.method, f.statistic, float(f.df_num), f.estimate, \
                     f.pvalue
 
-                def interval(level, _f=f):  # the two-sided interval on the same F
-                    return _f.confidence_interval(level, alternative="two-sided")
+                # the two-sided interval on the same F: the bounds of
+                # f.confidence_interval(level, alternative="two-sided") for complete's level,
+                # 1 - 2 alpha / m in (0, 1) (the spec's alpha is at most 0.2), without the
+                # checks of the level and alternative nor the Interval
+                bounds = f.two_sided_bounds
     except CANNOT_COMPUTE as err:
         dr = cannot_compute(kind.name, "spread test", hyp, err)
         dr.family = True
@@ -134,9 +139,13 @@ def draft(kind, inp: CheckInput) -> Draft:
     def complete(eff_alpha, family_size):
         # two-sided (1 - 2 alpha) interval: its lower end is the one-sided bound at alpha
         level = 1 - 2 * eff_alpha
-        ci = interval(level)
-        found["ci"], found["level"] = (ci.low, ci.high), level
-        out = dict(ci_low=ci.low, ci_high=finite(ci.high), ci_level=level)
+        if bounds is not None:
+            ci_pair = bounds(level)
+        else:
+            ci = interval(level)
+            ci_pair = (ci.low, ci.high)
+        found["ci"], found["level"] = ci_pair, level
+        out = dict(ci_low=ci_pair[0], ci_high=finite(ci_pair[1]), ci_level=level)
         if desc is not None:
             dci = desc.confidence_interval(level, alternative="two-sided")
             out["details"] = replace(details, sd_ratio_low_descriptive=dci.low,
@@ -148,7 +157,8 @@ def draft(kind, inp: CheckInput) -> Draft:
                              level=found["level"], method=method, adjusted=adjusted,
                              what=what, note=note)
 
-    return Draft(result=res, family_p=p, finish=finish, complete=complete, family=True)
+    # (by position: result, family_p, harm_shown, finish, complete, family)
+    return Draft(res, p, False, finish, complete, True)
 
 
 def rank_requests(kind, inp: CheckInput) -> list[tuple]:

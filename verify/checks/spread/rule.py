@@ -27,8 +27,11 @@ class SpreadRule:
                adjusted: bool = False, what: str = "sd ratio new/old",
                note: str = "") -> Verdict:
         which = "adjusted p" if adjusted else "p"
-        lo, hi = (fmt(ci[0]), fmt(ci[1])) if what == "sd ratio new/old" else fmt_like(*ci)
-        est = fmt(ratio) if what == "sd ratio new/old" else fmt_like(ratio)[0]
+        if what == "sd ratio new/old":
+            lo, hi, est = fmt(ci[0]), fmt(ci[1]), fmt(ratio)
+        else:
+            lo, hi = fmt_like(*ci)
+            est = fmt_like(ratio)[0]
         detail = (f"{what} {est}, {fmt_percent(level)}% interval "
                   f"{lo}..{hi}, {method} {p_eq(pvalue, which)}{note}")
         if pvalue < alpha:
