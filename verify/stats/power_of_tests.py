@@ -35,7 +35,14 @@ from scipy import special
 from ._checks import check_harmful, check_margins, finite, number, positive
 from .core import check_alternative, critical_value, t_cdf
 from .errors import NotApplicableError
-from .noncentral import _clip01, _expect_over_sd, _sd_ratio_log_constant, nct_cdf, nct_sf
+from .noncentral import (
+    _clip01,
+    _expect_over_sd,
+    _sd_ratio_log_constant,
+    _t_upper,
+    nct_cdf,
+    nct_sf,
+)
 from .ttests import check_design
 
 #: The target power a planning question gets when its caller names none (common practice).
@@ -340,7 +347,7 @@ def _tost_power_rule(delta, lo, hi, taus, dfs, alpha, rule, tail_rule, coarse) -
     taus = np.asarray(taus, dtype=float)
     dfs = np.asarray(dfs, dtype=float)
     h = 0.5 * dfs
-    c = special.stdtrit(dfs, 1.0 - np.asarray(alpha, dtype=float))
+    c = _t_upper(dfs, alpha)  # special.stdtrit(dfs, 1.0 - alpha), whole df remembered
     upper_z = (np.asarray(hi, dtype=float) - delta) / taus
     lower_z = (np.asarray(lo, dtype=float) - delta) / taus
     s_max = (upper_z - lower_z) / (2.0 * c)

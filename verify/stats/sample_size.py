@@ -447,6 +447,41 @@ class _TostSize(_Search):
                 f"({self.lo:g}, {self.hi:g}): equivalence cannot be shown at any sample size"
             )
 
+    @classmethod
+    def of_question(cls, q: dict) -> _TostSize:
+        """``_TostSize(q["true_shift"], q["sd"], design=q["design"], ...)`` of a question dict
+        (:func:`~verify.stats.sample_size_many.plan_tost_many`'s). Where every number is a plain
+        float (``sd_old`` also None) and passes the checks, the attributes are set directly:
+        each is the float the checks return for it (``float(v)`` of a float is ``v``). Any other
+        question runs the constructor, which raises as it does (tests/test_plan_shortcuts.py
+        holds the two together)."""
+        delta, sd, a, lo, hi = q["true_shift"], q["sd"], q["alpha"], q["low"], q["high"]
+        target, ratio, sd_old, design = q["power"], q["ratio"], q["sd_old"], q["design"]
+        if (type(delta) is float and type(sd) is float and type(a) is float
+                and type(lo) is float and type(hi) is float and type(target) is float
+                and type(ratio) is float and 0.0 < a < 0.5 and 0.0 < target < 1.0
+                and 0.0 < sd < math.inf and 0.0 < ratio < math.inf
+                and -math.inf < lo < delta < hi < math.inf):
+            if design == "welch":
+                if sd_old is None:
+                    s2 = sd
+                elif type(sd_old) is float and 0.0 < sd_old < math.inf:
+                    s2 = sd_old
+                else:
+                    s2 = _NO_GUESS
+            elif sd_old is None and (design == "pooled" or (
+                    ratio == 1.0 and design in ("one-sample", "paired"))):
+                s2 = None
+            else:
+                s2 = _NO_GUESS
+            if s2 is not _NO_GUESS:
+                setup = object.__new__(cls)
+                setup.__dict__.update(design=design, a=a, target=target, ratio=ratio, sd=sd,
+                                      sd_old=sd_old, s1=sd, delta=delta, lo=lo, hi=hi, s2=s2)
+                return setup
+        return cls(delta, sd, design=design, alpha=a, low=lo, high=hi, power=target,
+                   ratio=ratio, sd_old=sd_old)
+
     def power_at(self, n_new: int, n_old: int | None) -> float:
         return power_tost(self.delta, self.sd, n_new, n_old, design=self.design, alpha=self.a,
                           low=self.lo, high=self.hi, sd_old=self.sd_old)

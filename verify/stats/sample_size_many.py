@@ -19,7 +19,13 @@ from scipy import special
 
 from ._checks import check_margins, finite
 from .errors import NotApplicableError
-from .power_of_tests import _alpha, _plan, _tost_power_coarse, _tost_power_many
+from .noncentral import _t_upper
+from .power_of_tests import (
+    _alpha,
+    _plan,
+    _tost_power_coarse,
+    _tost_power_many,
+)
 from .sample_size import (
     _ONE,
     _POOLED,
@@ -113,7 +119,7 @@ class _Table:
         tau, df = self.tau_df(idx, ns)
         if not np.isfinite(df).all():  # t_quantile and t_cdf switch to the normal there
             return _approx_many([self.setups[i] for i in idx.tolist()], ns)
-        c = special.stdtrit(df, 1.0 - self.a[idx])
+        c = _t_upper(df, self.a[idx])  # special.stdtrit(df, 1.0 - alpha), whole df remembered
         p = special.stdtr(df, (self.hi[idx] - self.delta[idx]) / tau - c) \
             - special.stdtr(df, (self.lo[idx] - self.delta[idx]) / tau + c)
         p = np.clip(p, 0.0, 1.0)  # _clip01 of each, a NaN becoming 0 as there
@@ -127,7 +133,8 @@ class _Table:
         return np.vstack([self.delta[idx], self.lo[idx], self.hi[idx], tau, df, self.a[idx]])
 
 
-def _guesses(setups: list[_TostSize], table: _Table | None = None) -> list[int | None]:
+def _guesses(setups: list[_TostSize], table: _Table | None = None,
+             near: list[bool] | None = None) -> list[int | None]:
     """:meth:`_TostSize.guess` of every setup: the smallest n_new whose approximate power
     (:meth:`_TostSize.approx_at`) reaches the target. The approximate powers in a window around
     each setup's normal-theory start (:data:`~verify.stats.sample_size.GUESS_WINDOW`,
@@ -136,7 +143,12 @@ def _guesses(setups: list[_TostSize], table: _Table | None = None) -> list[int |
     smallest size, 2) takes it, the others search by doubling and bisection
     (:func:`_bisections`). Where the approximation rises with n, as it does wherever the tests
     have looked, both give the same size (tests hold them together); the guess only sets where
-    the walks with the exact power start, and their answers do not depend on it."""
+    the walks with the exact power start, and their answers do not depend on it.
+
+    ``near`` (a list of False, one per setup) is set True for the guesses taken from a window
+    whose target lies in the lower half of the approximation's last step (from the size below
+    the guess to the guess): where the exact power, which runs above the approximation, is
+    likely to reach the target one size lower already (only where a walk's first round looks)."""
     table = _Table(setups) if table is None else table  # (the caller's, of these setups)
     out: list[int | None] = [None] * len(setups)
     if not setups:
@@ -150,6 +162,13 @@ def _guesses(setups: list[_TostSize], table: _Table | None = None) -> list[int |
     found, first = _first_reaching(sizes, powers.reshape(sizes.shape), table.target)
     for i, j in zip(np.flatnonzero(found).tolist(), first[found].tolist(), strict=True):
         out[i] = int(sizes[i, j])
+    if near is not None:
+        grid = powers.reshape(sizes.shape)
+        rows_found = np.flatnonzero(found & (first > 0))
+        j = first[rows_found]
+        below, at = grid[rows_found, j - 1], grid[rows_found, j]
+        for i in rows_found[2.0 * (table.target[rows_found] - below) < at - below].tolist():
+            near[i] = True
     missed = np.flatnonzero(~found).tolist()
     if missed:
         for i, n in zip(missed, _bisections(table, missed), strict=True):
@@ -256,9 +275,7 @@ def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, int | None
     setups: list[tuple[int, _TostSize]] = []
     for i, q in enumerate(questions):
         try:
-            setup = _TostSize(q["true_shift"], q["sd"], design=q["design"], alpha=q["alpha"],
-                              low=q["low"], high=q["high"], power=q["power"],
-                              ratio=q["ratio"], sd_old=q["sd_old"])
+            setup = _TostSize.of_question(q)
             setups.append((i, setup))
         except (StatsError, ValueError):
             setup = None
@@ -280,19 +297,26 @@ def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, int | None
     powers: list[float | None] = [None] * len(questions)
     table = _Table([s for _, s in setups])
     walks: dict[int, tuple] = {}  # question -> (its row in the table, setup, walk, n asked)
-    for row, ((i, setup), n0) in enumerate(zip(setups, _guesses(table.setups, table), strict=True)):
+    near = [False] * len(setups)  # the guesses whose walk likely steps two sizes down
+    guesses = _guesses(table.setups, table, near)
+    ask: dict[int, list[int]] = {}  # the lot sizes each walk's next round integrates
+    for row, ((i, setup), n0) in enumerate(zip(setups, guesses, strict=True)):
         if n0 is not None:
             walk = _steps(n0, setup.target, _n_max(setup.design, setup.ratio))
             walks[i] = (row, setup, walk, next(walk))
+            ask[i] = [n0, n0 - 1, n0 - 2] if near[row] and n0 > 3 else \
+                [n0, n0 - 1] if n0 > 2 else [n0]
         sizes.append((i, setup))
     found: dict[int, tuple[int, float] | None] = {}  # (n, the value sent at n)
     own = np.array(cases, dtype=float).reshape(-1, 6).T  # the first round's leading cases
-    # the lot sizes each walk's next round integrates: the first round also takes the size below
-    # the guess, the walk's usual second step (the approximation asks for one or two more than
-    # the exact power needs), so that most walks end after one round; a walk is sent every
-    # value it asks for, from the round that integrated it (the same float either way), each
-    # on the same side of the target as the exact power (_walk_powers)
-    ask = {i: [n, n - 1] if n > 2 else [n] for i, (_, _, _, n) in walks.items()}
+    # the first round also takes the size below the guess, the walk's usual second step (the
+    # approximation asks for one or two more than the exact power needs), and where the guess
+    # is near (_guesses) the size below that, its usual third, so that the walks mostly end
+    # after one round (on the benchmark's questions all of them: a second round costs about
+    # as much as 90 more sizes in the first); a walk is sent every value it asks for, from the
+    # round that integrated it (the same float either way), each on the same side of the
+    # target as the exact power (_walk_powers). Which sizes are integrated together changes
+    # no value sent and so no step taken: the answers do not depend on it.
     known: dict[int, dict[int, float]] = {i: {} for i in walks}
     first = True
     while ask or first:

@@ -1,0 +1,141 @@
+"""Shortcuts of the TOST planning pass (``sample_size_many.plan_tost_many``) equal the plain
+routes they replace, bit for bit.
+
+``noncentral._t_upper`` remembers the t quantile ``stdtrit(df, 1 - alpha)`` of whole df per
+alpha, which the guesses' approximate powers (``sample_size_many._Table.approx``) and every
+power integral (``power_of_tests._tost_power_rule``) need; these tests hold every element to the
+direct ``scipy.special.stdtrit`` call, for whole, fractional, large, infinite and NaN df, one
+alpha or several, in whatever order the rows are first met.
+
+``sample_size._TostSize.of_question`` sets a question's validated attributes directly where its
+numbers are plain floats that pass the checks; these tests hold it to the constructor: the same
+attributes (values and types) for valid questions, the same error for every invalid one.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from scipy import special
+
+from verify.stats import noncentral, power_of_tests, sample_size
+from verify.stats.errors import StatsError
+
+
+def _same(a: np.ndarray, b: np.ndarray) -> bool:
+    return a.shape == b.shape and a.tobytes() == b.tobytes()
+
+
+@pytest.fixture
+def fresh_quantiles(monkeypatch):
+    """An empty memory of quantiles, so each test meets its df first."""
+    monkeypatch.setattr(noncentral, "_CRIT", {})
+
+
+@pytest.mark.parametrize("alpha", [0.001, 0.01, 0.05, 0.1, 1.0 / 3.0, 0.49])
+def test_whole_df_equal_direct_call(fresh_quantiles, alpha):
+    rng = np.random.default_rng(7)
+    for _ in range(3):  # the first pass fills the memory, the others read it
+        dfs = rng.integers(1, noncentral._CRIT_DF + 1, size=500).astype(float)
+        dfs[:4] = [1.0, 2.0, float(noncentral._CRIT_DF), 29.0]
+        assert _same(noncentral._t_upper(dfs, alpha), special.stdtrit(dfs, 1.0 - alpha))
+        alphas = np.full(dfs.size, alpha)
+        assert _same(noncentral._t_upper(dfs, alphas), special.stdtrit(dfs, 1.0 - alphas))
+
+
+def test_mixed_df_and_alphas_equal_direct_call(fresh_quantiles):
+    rng = np.random.default_rng(11)
+    whole = rng.integers(1, 60, size=300).astype(float)
+    frac = rng.uniform(0.5, 80.0, size=300)
+    odd = np.array([0.5, 4096.5, 4097.0, 1e5, 2e5 + 0.25, np.inf, np.nan, 0.0, -1.0])
+    for dfs in (np.concatenate([whole, frac, odd]), np.concatenate([frac, whole]),
+                np.concatenate([odd, whole]), frac, odd):
+        for alpha in (0.05, 0.025):
+            got = noncentral._t_upper(dfs, np.full(dfs.size, alpha))
+            assert _same(got, special.stdtrit(dfs, 1.0 - np.full(dfs.size, alpha)))
+        alphas = rng.choice([0.05, 0.01, 0.2], size=dfs.size)  # several alphas: plain
+        assert _same(noncentral._t_upper(dfs, alphas), special.stdtrit(dfs, 1.0 - alphas))
+    empty = np.zeros(0)
+    assert _same(noncentral._t_upper(empty, empty), special.stdtrit(empty, 1.0 - empty))
+
+
+def test_memory_is_bounded(fresh_quantiles):
+    dfs = np.arange(1.0, 50.0)
+    for k in range(noncentral._CRIT_KEEP + 5):
+        alpha = 0.01 + 0.02 * k
+        assert _same(noncentral._t_upper(dfs, alpha), special.stdtrit(dfs, 1.0 - alpha))
+    assert len(noncentral._CRIT) == noncentral._CRIT_KEEP
+
+
+def test_power_integrals_unchanged_by_the_memory(fresh_quantiles, monkeypatch):
+    """The exact and coarse integrals with remembered quantiles equal those computed with the
+    direct call throughout (a second pass reads every whole df from the memory)."""
+    rng = np.random.default_rng(3)
+    m = 400
+    dfs = np.where(rng.random(m) < 0.5, rng.integers(2, 200, size=m).astype(float),
+                   rng.uniform(2.0, 300.0, size=m))
+    taus = rng.uniform(0.05, 2.0, size=m)
+    delta = rng.uniform(-0.5, 0.5, size=m)
+    lo, hi = np.full(m, -1.0), np.full(m, 1.2)
+    alpha = np.full(m, 0.05)
+    rules = (power_of_tests._tost_power_many, power_of_tests._tost_power_coarse)
+    remembered = [[f(delta, lo, hi, taus, dfs, alpha) for f in rules] for _ in range(2)]
+    monkeypatch.setattr(power_of_tests, "_t_upper",
+                        lambda d, a: special.stdtrit(d, 1.0 - np.asarray(a, dtype=float)))
+    plain = [f(delta, lo, hi, taus, dfs, alpha) for f in rules]
+    for got in remembered:
+        assert all(_same(x, y) for x, y in zip(got, plain, strict=True))
+
+
+_VALID = {"true_shift": 0.1, "sd": 0.5, "design": "welch", "alpha": 0.05, "low": -1.0,
+          "high": 1.5, "power": 0.9, "ratio": 1.0, "sd_old": 0.7}
+
+
+def _variants():
+    """Valid questions of every design, and ones each check refuses (or that the direct route
+    leaves to the constructor: ints, numpy floats, strings)."""
+    out = []
+    for design in ("one-sample", "paired", "pooled", "welch"):
+        out.append(dict(_VALID, design=design, sd_old=None))
+        out.append(dict(_VALID, design=design))
+        out.append(dict(_VALID, design=design, ratio=0.5, sd_old=None))
+        out.append(dict(_VALID, design=design, ratio=2.0))
+    bad = {
+        "true_shift": [-1.0, 1.5, 2.0, -3.0, np.nan, np.inf, -np.inf, 0, np.float64(0.1), "0.1",
+                       None, True],
+        "sd": [0.0, -0.5, np.nan, np.inf, 1, np.float64(0.5), "x", None],
+        "design": ["two-sample", "", None, "Welch"],
+        "alpha": [0.0, 0.5, 0.6, -0.1, np.nan, np.inf, 1, np.float64(0.05), "0.05", None],
+        "low": [1.5, 2.0, 0.1, np.nan, -np.inf, -1, np.float64(-1.0), None],
+        "high": [-1.0, 0.1, np.nan, np.inf, 2, np.float64(1.5), None],
+        "power": [0.0, 1.0, 1.5, -0.2, np.nan, 1, np.float64(0.9), None],
+        "ratio": [0.0, -1.0, np.nan, np.inf, 1, 2, np.float64(1.0), None, "1"],
+        "sd_old": [0.0, -0.7, np.nan, np.inf, 1, np.float64(0.7), "x"],
+    }
+    for design in ("one-sample", "paired", "pooled", "welch"):
+        for key, values in bad.items():
+            for v in values:
+                out.append({**_VALID, "design": design, "sd_old": None, key: v})
+                out.append({**_VALID, "design": design, key: v})
+    return out
+
+
+def _made(make, q):
+    try:
+        setup = make(q)
+    except (StatsError, ValueError, TypeError) as err:
+        return type(err), str(err)
+    return {k: (type(v), repr(v)) for k, v in sorted(vars(setup).items())}
+
+
+def test_question_setups_equal_the_constructor():
+    def plain(q):
+        return sample_size._TostSize(q["true_shift"], q["sd"], design=q["design"],
+                                     alpha=q["alpha"], low=q["low"], high=q["high"],
+                                     power=q["power"], ratio=q["ratio"], sd_old=q["sd_old"])
+
+    variants = _variants()
+    made = [_made(sample_size._TostSize.of_question, q) for q in variants]
+    assert made == [_made(plain, q) for q in variants]
+    assert sum(isinstance(m, dict) for m in made) >= 16  # the valid ones were built
+    assert sum(not isinstance(m, dict) for m in made) >= 100  # and the refusals checked
