@@ -10,6 +10,11 @@ alpha or several, in whatever order the rows are first met.
 ``sample_size._TostSize.of_question`` sets a question's validated attributes directly where its
 numbers are plain floats that pass the checks; these tests hold it to the constructor: the same
 attributes (values and types) for valid questions, the same error for every invalid one.
+
+``power_of_tests._flat_pieces`` marks the pieces of the power integral on which the acceptance
+region's normal probability is 1.0 at every node, whose sums then skip it; these tests check the
+bound it relies on and hold the exact and coarse integrals to the plain route over cases where
+such pieces occur and where they do not.
 """
 
 from __future__ import annotations
@@ -139,3 +144,57 @@ def test_question_setups_equal_the_constructor():
     assert made == [_made(plain, q) for q in variants]
     assert sum(isinstance(m, dict) for m in made) >= 16  # the valid ones were built
     assert sum(not isinstance(m, dict) for m in made) >= 100  # and the refusals checked
+
+
+def test_normal_probability_is_one_beyond_the_flat_bound():
+    """What ``power_of_tests._flat_pieces`` relies on: ``ndtr`` is 1.0 from ``_NDTR_ONE`` on,
+    and at minus it so small that 1.0 minus it is 1.0."""
+    bound = power_of_tests._NDTR_ONE
+    x = np.concatenate([np.linspace(bound, 60.0, 400_001), [1e3, 1e300, np.inf],
+                        bound + np.arange(1, 1000) * np.spacing(bound)])
+    assert (special.ndtr(x) == 1.0).all()
+    assert (1.0 - special.ndtr(-x) == 1.0).all()
+    assert (special.ndtr(-x) < 2.0 ** -56).all()
+
+
+def _high_and_low_power_cases(rng: np.random.Generator, m: int):
+    """(delta, low, high, tau, df, alpha) of cases from margins a few sds of the estimate wide
+    to hundreds (so the acceptance region's probability is 1.0 on parts of S's range, or on
+    all of it), lopsided or not, shifts inside and near the margins, df 1 to 5000."""
+    df = np.where(rng.random(m) < 0.5, rng.integers(1, 60, size=m).astype(float),
+                  np.exp(rng.uniform(0.0, np.log(5000.0), size=m)))
+    tau = np.exp(rng.uniform(np.log(1e-3), np.log(1.0), size=m))
+    width = tau * np.exp(rng.uniform(np.log(2.0), np.log(400.0), size=m))
+    share = np.where(rng.random(m) < 0.5, 0.5, rng.uniform(0.05, 0.95, size=m))
+    low = -width * share
+    high = width * (1.0 - share)
+    delta = np.where(rng.random(m) < 0.3, 0.0, rng.uniform(low, high))
+    alpha = rng.choice([0.001, 0.01, 0.05, 0.1, 0.2], size=m)
+    return delta, low, high, tau, df, alpha
+
+
+@pytest.mark.parametrize("seed", [0, 1, 2])
+def test_flat_pieces_leave_every_power_unchanged(monkeypatch, seed):
+    """The exact and coarse integrals with the pieces of g = 1.0 summed without g equal the
+    plain route (every piece through g) bit for bit, and such pieces do occur."""
+    rng = np.random.default_rng(100 + seed)
+    cases = _high_and_low_power_cases(rng, 1500)
+    rules = (power_of_tests._tost_power_many, power_of_tests._tost_power_coarse)
+    flat_seen = []
+    real = power_of_tests._flat_pieces
+
+    def counted(*args):
+        flat = real(*args)
+        flat_seen.append((int(flat.sum()), flat.size))
+        return flat
+
+    monkeypatch.setattr(power_of_tests, "_flat_pieces", counted)
+    short = [f(*cases) for f in rules]
+    assert sum(n for n, _ in flat_seen) > 0.1 * sum(m for _, m in flat_seen)
+    assert any(n < m for n, m in flat_seen)  # and others go through g
+    monkeypatch.setattr(power_of_tests, "_flat_pieces",
+                        lambda rights, *rest: np.zeros(rights.size, dtype=bool))
+    plain = [f(*cases) for f in rules]
+    assert all(_same(x, y) for x, y in zip(short, plain, strict=True))
+    one = [f(*(np.asarray(v)[:1] for v in cases)) for f in rules]  # one case alone as well
+    assert all(_same(x, y[:1]) for x, y in zip(one, plain, strict=True))

@@ -35,14 +35,7 @@ from scipy import special
 from ._checks import check_harmful, check_margins, finite, number, positive
 from .core import check_alternative, critical_value, t_cdf
 from .errors import NotApplicableError
-from .noncentral import (
-    _clip01,
-    _expect_over_sd,
-    _sd_ratio_log_constant,
-    _t_upper,
-    nct_cdf,
-    nct_sf,
-)
+from .noncentral import _clip01, _expect_over_sd, _sd_ratio_log_constant, _t_upper, nct_cdf, nct_sf
 from .ttests import check_design
 
 #: The target power a planning question gets when its caller names none (common practice).
@@ -385,19 +378,48 @@ def _tost_power_rule(delta, lo, hi, taus, dfs, alpha, rule, tail_rule, coarse) -
         log_l, log_r = np.log(lefts), np.log(rights)
         half = 0.5 * (log_r - log_l)
         mid = 0.5 * (log_r + log_l)
-        # per piece: its case's constants; the nodes in blocks of pieces small enough to stay
-        # in the processor's cache (the same arithmetic element by element, in place; each
-        # piece's sum is its own row's, and np.add.at adds the pieces in order, so the block
-        # size does not change a float): about _BLOCK * GL_POINTS nodes a block
+        # per piece its case's constants, the nodes in blocks that stay in the processor's
+        # cache (_piece_sums). Each piece's sum is its own row's and np.add.at adds them in
+        # order, so neither the blocks nor which pieces are summed together change a float
         k0, hh, dm1 = k0_all[case], h[case], dfs[case] - 1.0
         cc, up, low = c[case], upper_z[case], lower_z[case]
-        block = _BLOCK * GL_POINTS // gx.size
-        for a in range(0, case.size, block):
-            b = a + block
-            out_piece = _pieces(mid[a:b], half[a:b], gx, gw, k0[a:b], hh[a:b], dm1[a:b],
-                                cc[a:b], up[a:b], low[a:b])
-            np.add.at(out, case[a:b], out_piece)
+        args = (mid, half, k0, hh, dm1, cc, up, low)
+        flat = _flat_pieces(rights, cc, up, low)  # these skip g, 1.0 at all their nodes
+        if flat.any():
+            sums, rest = np.empty(case.size), ~flat
+            sums[flat] = _piece_sums(gx, gw, *(x[flat] for x in args[:5]))
+            sums[rest] = _piece_sums(gx, gw, *(x[rest] for x in args))
+        else:
+            sums = _piece_sums(gx, gw, *args)
+        np.add.at(out, case, sums)  # each case's pieces added in order, as one by one
     return np.clip(out, 0.0, 1.0)
+
+
+#: From this argument on ``special.ndtr`` is 1.0 exactly (it rounds to 1.0 from 8.3 on), and
+#: at minus it below 1.2e-19, which subtracted from 1.0 leaves 1.0.
+_NDTR_ONE = 9.0
+
+
+def _flat_pieces(rights, cc, up, low) -> np.ndarray:
+    """Which pieces have g = ``ndtr(up - c s) - ndtr(low + c s)`` exactly 1.0 at every node:
+    both arguments are beyond :data:`_NDTR_ONE` up to the piece's right end, where they are
+    closest to 0 (a relative slack of 1e-9 for the nodes' rounding). Their sums are the
+    density's alone (``1.0 * x`` is ``x``), so they skip g: the same floats (tests hold it)."""
+    cs = cc * (rights * (1.0 + 1e-9))
+    return ((up - cs >= _NDTR_ONE + 1e-9 * np.abs(up))
+            & (low + cs <= -_NDTR_ONE - 1e-9 * np.abs(low)))
+
+
+def _piece_sums(gx, gw, mid, half, k0, hh, dm1, cc=None, up=None, low=None) -> np.ndarray:
+    """:func:`_pieces` of all pieces in blocks of about ``_BLOCK * GL_POINTS`` nodes (without
+    ``cc``, ``up``, ``low``: g is 1.0)."""
+    block = _BLOCK * GL_POINTS // gx.size
+    out = np.empty(mid.size)
+    for a in range(0, mid.size, block):
+        b = a + block
+        out[a:b] = _pieces(mid[a:b], half[a:b], gx, gw, k0[a:b], hh[a:b], dm1[a:b],
+                           *(None if x is None else x[a:b] for x in (cc, up, low)))
+    return out
 
 
 #: Pieces of the TOST power integral evaluated together: their nodes' temporaries (pieces x
@@ -405,7 +427,7 @@ def _tost_power_rule(delta, lo, hi, taus, dfs, alpha, rule, tail_rule, coarse) -
 _BLOCK = 128
 
 
-def _pieces(mid, half, gx, gw, k0, hh, dm1, cc, up, low) -> np.ndarray:
+def _pieces(mid, half, gx, gw, k0, hh, dm1, cc=None, up=None, low=None) -> np.ndarray:
     """Each piece's Gauss-Legendre sum of g(s) f(s) on the log scale t = log s: nodes
     ``mid + half * gx``, weights ``half * gw * s``, f the sd ratio's density
     (``k0 - h e (2 + e) + (df - 1) t`` in logs, e = s - 1), g the normal probability of the
@@ -423,6 +445,10 @@ def _pieces(mid, half, gx, gw, k0, hh, dm1, cc, up, low) -> np.ndarray:
     np.subtract(k0[:, col], logpdf, out=logpdf)
     t *= dm1[:, col]
     logpdf += t
+    if cc is None:  # g is 1.0 at every node (_flat_pieces): g * f * w is f * w
+        np.exp(logpdf, out=logpdf)
+        logpdf *= weights
+        return np.add.reduce(logpdf, axis=1)
     cs = nodes
     cs *= cc[:, col]
     g = np.subtract(up[:, col], cs)
