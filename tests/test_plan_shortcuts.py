@@ -15,6 +15,11 @@ attributes (values and types) for valid questions, the same error for every inva
 region's normal probability is 1.0 at every node, whose sums then skip it; these tests check the
 bound it relies on and hold the exact and coarse integrals to the plain route over cases where
 such pieces occur and where they do not.
+
+``sample_size._walk`` is the walk from a guess as a function of the powers it has been given,
+which ``plan_tost_many`` calls with the powers of sizes integrated in advance as well, and which
+``sample_size._steps`` (the generator) now steps through; these tests hold both to the generator
+they replace (kept here as the reference), ask for ask and answer for answer.
 """
 
 from __future__ import annotations
@@ -198,3 +203,75 @@ def test_flat_pieces_leave_every_power_unchanged(monkeypatch, seed):
     assert all(_same(x, y) for x, y in zip(short, plain, strict=True))
     one = [f(*(np.asarray(v)[:1] for v in cases)) for f in rules]  # one case alone as well
     assert all(_same(x, y[:1]) for x, y in zip(one, plain, strict=True))
+
+
+def _reference_steps(n0: int, target: float, n_max: int, steps: int = 12):
+    """The walk generator as it was before ``sample_size._walk`` (the reference)."""
+    n = n0
+    p = yield n0
+    if p >= target:
+        for _ in range(steps):
+            if n <= 2:
+                return n, p
+            p_prev = yield n - 1
+            if p_prev < target:
+                return n, p
+            n, p = n - 1, p_prev
+        return None
+    for _ in range(steps):
+        if n >= n_max:
+            return None
+        n, p = n + 1, (yield n + 1)
+        if p >= target:
+            return n, p
+    return None
+
+
+def _drive(walk, power):
+    asked = []
+    try:
+        n = next(walk)
+        while True:
+            asked.append(n)
+            n = walk.send(power[n])
+    except StopIteration as stop:
+        return asked, stop.value
+
+
+def _random_walk_questions(rng: np.random.Generator, m: int):
+    """(n0, target, n_max, steps, power by n): powers rising, flat, falling back, with NaNs
+    and ties at the target; guesses from 2 up, at and near n_max."""
+    out = []
+    for _ in range(m):
+        n_max = int(rng.choice([2, 3, 5, 30, 100_000]))
+        n0 = int(rng.integers(2, min(n_max, 40) + 1))
+        target = float(rng.choice([0.5, 0.8, 0.9]))
+        kind = rng.integers(4)
+        ns = np.arange(0, 60)
+        if kind == 0:  # rising through the target somewhere
+            p = 1.0 / (1.0 + np.exp(-(ns - rng.uniform(0, 50)) / rng.uniform(0.3, 5.0)))
+        elif kind == 1:  # rough: not monotone
+            p = rng.uniform(0.0, 1.0, size=ns.size)
+        elif kind == 2:  # values at the target exactly, and NaNs
+            p = rng.choice([target, np.nextafter(target, 0.0), 1.0, 0.0, np.nan], size=ns.size)
+        else:
+            p = np.full(ns.size, rng.choice([0.0, 1.0, target]))
+        steps = int(rng.choice([1, 2, 12]))
+        out.append((n0, target, n_max, steps, dict(enumerate(p.tolist()))))
+    return out
+
+
+def test_walks_step_as_the_generator_did():
+    rng = np.random.default_rng(5)
+    for n0, target, n_max, steps, power in _random_walk_questions(rng, 4000):
+        want = _drive(_reference_steps(n0, target, n_max, steps), power)
+        assert _drive(sample_size._steps(n0, target, n_max, steps), power) == want
+        # from powers of more sizes than it asks (integrated in advance): the same answer
+        asked, answer = want
+        extra = {n: power[n] for n in range(max(0, n0 - 3), n0 + 3) if n in power}
+        seen = {**extra, **{n: power[n] for n in asked}}
+        assert sample_size._walk(n0, target, n_max, seen, steps) == answer
+        # and from only part of its path: the next size it asks
+        for k in range(len(asked)):
+            part = {n: power[n] for n in asked[:k]}
+            assert sample_size._walk(n0, target, n_max, part, steps) == asked[k]

@@ -260,14 +260,32 @@ def _step_to_smallest(pw, n0: int, target: float, n_max: int, steps: int = 12):
 
 def _steps(n0: int, target: float, n_max: int, steps: int = 12):
     """:func:`_step_to_smallest` as a generator (yields each n whose power it needs, is sent
-    that power, returns its answer), so that many walks can run in step."""
-    n = n0
-    p = yield n0
+    that power, returns its answer), so that many walks can run in step; each step is
+    :func:`_walk` of the powers sent so far."""
+    seen: dict[int, float] = {}
+    while True:
+        step = _walk(n0, target, n_max, seen, steps)
+        if step is None or type(step) is tuple:  # the answer
+            return step
+        seen[step] = yield step
+
+
+def _walk(n0: int, target: float, n_max: int, seen: dict[int, float], steps: int = 12):
+    """The walk from n0 as far as the powers ``seen`` (n -> power) take it: the next n whose
+    power it needs (an int), or its answer, (n, power) or None (the guess too far off). From
+    n0 reaching the target it steps down while one fewer still reaches it (to 2 at least),
+    else up until it reaches it (to n_max at most), ``steps`` steps at most. It reads only the
+    powers on its path, so ``seen`` may hold others (those integrated in advance)."""
+    if n0 not in seen:
+        return n0
+    n, p = n0, seen[n0]
     if p >= target:
         for _ in range(steps):
             if n <= 2:
                 return n, p
-            p_prev = yield n - 1
+            if n - 1 not in seen:
+                return n - 1
+            p_prev = seen[n - 1]
             if p_prev < target:
                 return n, p
             n, p = n - 1, p_prev
@@ -275,7 +293,9 @@ def _steps(n0: int, target: float, n_max: int, steps: int = 12):
     for _ in range(steps):
         if n >= n_max:
             return None
-        n, p = n + 1, (yield n + 1)
+        if n + 1 not in seen:
+            return n + 1
+        n, p = n + 1, seen[n + 1]
         if p >= target:
             return n, p
     return None

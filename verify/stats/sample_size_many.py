@@ -20,12 +20,7 @@ from scipy import special
 from ._checks import check_margins, finite
 from .errors import NotApplicableError
 from .noncentral import _t_upper
-from .power_of_tests import (
-    _alpha,
-    _plan,
-    _tost_power_coarse,
-    _tost_power_many,
-)
+from .power_of_tests import _alpha, _plan, _tost_power_coarse, _tost_power_many
 from .sample_size import (
     _ONE,
     _POOLED,
@@ -36,8 +31,8 @@ from .sample_size import (
     _normal_starts,
     _search,
     _smallest_n,
-    _steps,
     _TostSize,
+    _walk,
     old_size,
     old_sizes,
 )
@@ -296,27 +291,27 @@ def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, int | None
     # the questions' own lot sizes join the first round's exact integration)
     powers: list[float | None] = [None] * len(questions)
     table = _Table([s for _, s in setups])
-    walks: dict[int, tuple] = {}  # question -> (its row in the table, setup, walk, n asked)
+    walks: dict[int, tuple] = {}  # question -> (its row in the table, guess, target, n_max)
     near = [False] * len(setups)  # the guesses whose walk likely steps two sizes down
     guesses = _guesses(table.setups, table, near)
     ask: dict[int, list[int]] = {}  # the lot sizes each walk's next round integrates
     for row, ((i, setup), n0) in enumerate(zip(setups, guesses, strict=True)):
         if n0 is not None:
-            walk = _steps(n0, setup.target, _n_max(setup.design, setup.ratio))
-            walks[i] = (row, setup, walk, next(walk))
+            walks[i] = (row, n0, setup.target, _n_max(setup.design, setup.ratio))
             ask[i] = [n0, n0 - 1, n0 - 2] if near[row] and n0 > 3 else \
                 [n0, n0 - 1] if n0 > 2 else [n0]
         sizes.append((i, setup))
-    found: dict[int, tuple[int, float] | None] = {}  # (n, the value sent at n)
+    found: dict[int, tuple[int, float] | None] = {}  # (n, the value at n)
     own = np.array(cases, dtype=float).reshape(-1, 6).T  # the first round's leading cases
     # the first round also takes the size below the guess, the walk's usual second step (the
     # approximation asks for one or two more than the exact power needs), and where the guess
     # is near (_guesses) the size below that, its usual third, so that the walks mostly end
     # after one round (on the benchmark's questions all of them: a second round costs about
-    # as much as 90 more sizes in the first); a walk is sent every value it asks for, from the
-    # round that integrated it (the same float either way), each on the same side of the
-    # target as the exact power (_walk_powers). Which sizes are integrated together changes
-    # no value sent and so no step taken: the answers do not depend on it.
+    # as much as 90 more sizes in the first); each walk (_walk, the plain search's _steps
+    # without its generator) reads the value of each size from the round that integrated it
+    # (the same float either way), on the same side of the target as the exact power
+    # (_walk_powers). Which sizes are integrated together changes no value a walk reads and
+    # so no step it takes: the answers do not depend on it.
     known: dict[int, dict[int, float]] = {i: {} for i in walks}
     first = True
     while ask or first:
@@ -333,15 +328,12 @@ def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, int | None
             known[i][n] = v
         nxt = {}
         for i in ask:
-            row, setup, walk, n = walks[i]
-            seen = known[i]
-            try:
-                while n in seen:
-                    n = walk.send(seen[n])
-                walks[i] = (row, setup, walk, n)
-                nxt[i] = [n]
-            except StopIteration as stop:
-                found[i] = stop.value
+            _, n0, target, n_max = walks[i]
+            step = _walk(n0, target, n_max, known[i])
+            if step is None or type(step) is tuple:  # its answer
+                found[i] = step
+            else:
+                nxt[i] = [step]
         ask = nxt
     results: list[int | None] = [None] * len(questions)
     for i, setup in sizes:
