@@ -367,6 +367,8 @@ def _tost_power_rule(delta, lo, hi, taus, dfs, alpha, rule, tail_rule, coarse) -
     owner = np.broadcast_to(np.arange(taus.size)[:, None], left.shape)
     out = np.zeros(taus.size)
     k0_all = per_case[:, ncuts]
+    # (a flat piece needs both margins beyond _NDTR_ONE sds of the estimate: cs > 0)
+    flat_cases = ((upper_z >= _NDTR_ONE) & (lower_z <= -_NDTR_ONE)).any()
     for is_tail in (False, True):
         sel = keep & (tail == is_tail)
         if not sel.any():
@@ -384,8 +386,8 @@ def _tost_power_rule(delta, lo, hi, taus, dfs, alpha, rule, tail_rule, coarse) -
         k0, hh, dm1 = k0_all[case], h[case], dfs[case] - 1.0
         cc, up, low = c[case], upper_z[case], lower_z[case]
         args = (mid, half, k0, hh, dm1, cc, up, low)
-        flat = _flat_pieces(rights, cc, up, low)  # these skip g, 1.0 at all their nodes
-        if flat.any():
+        flat = _flat_pieces(rights, cc, up, low) if flat_cases else None  # g 1.0 at all nodes
+        if flat is not None and flat.any():
             sums, rest = np.empty(case.size), ~flat
             sums[flat] = _piece_sums(gx, gw, *(x[flat] for x in args[:5]))
             sums[rest] = _piece_sums(gx, gw, *(x[rest] for x in args))
