@@ -20,6 +20,9 @@ such pieces occur and where they do not.
 which ``plan_tost_many`` calls with the powers of sizes integrated in advance as well, and which
 ``sample_size._steps`` (the generator) now steps through; these tests hold both to the generator
 they replace (kept here as the reference), ask for ask and answer for answer.
+
+``sample_size_many._Table.cases`` reads the (tau, df, t quantile) of sizes in the guesses'
+windows from there; these tests hold it to the same table without windows.
 """
 
 from __future__ import annotations
@@ -28,7 +31,7 @@ import numpy as np
 import pytest
 from scipy import special
 
-from verify.stats import noncentral, power_of_tests, sample_size
+from verify.stats import noncentral, power_of_tests, sample_size, sample_size_many
 from verify.stats.errors import StatsError
 
 
@@ -275,3 +278,41 @@ def test_walks_step_as_the_generator_did():
         for k in range(len(asked)):
             part = {n: power[n] for n in asked[:k]}
             assert sample_size._walk(n0, target, n_max, part, steps) == asked[k]
+
+
+def test_window_parts_equal_those_computed_afresh():
+    """Sizes in, next to and far from the windows (clipped at 2 and at n_max too), of every
+    design: the same columns and t quantiles as a table that computes them all."""
+    rng = np.random.default_rng(9)
+    questions = []
+    for k in range(60):
+        design = ("one-sample", "paired", "pooled", "welch")[k % 4]
+        ratio = 1.0 if design in ("one-sample", "paired") else float(rng.choice([1.0, 0.5, 3.0,
+                                                                                  1e-4]))
+        questions.append({**_VALID, "design": design, "ratio": ratio,
+                          "sd": float(rng.uniform(0.05, 2.0)),
+                          "true_shift": float(rng.uniform(-0.5, 0.5)),
+                          "power": float(rng.choice([0.5, 0.8, 0.95])),
+                          "alpha": float(rng.choice([0.05, 0.01])),
+                          "sd_old": float(rng.uniform(0.05, 2.0)) if design == "welch" else None})
+    setups = [sample_size._TostSize.of_question(q) for q in questions]
+    windowed = sample_size_many._Table(setups)
+    sample_size_many._guesses(setups, windowed)
+    assert windowed.window is not None
+    fresh = sample_size_many._Table(setups)
+    sizes = windowed.window[0]
+    rows, ns = [], []
+    for r in range(len(setups)):
+        for n in {*sizes[r].tolist(), int(sizes[r, 0]) - 1, int(sizes[r, -1]) + 1, 2, 3, 500}:
+            if n >= 2:
+                rows.append(r)
+                ns.append(n)
+    idx = np.array(rows, dtype=np.intp)
+    got_cols, got_c = windowed.cases(idx, ns)
+    want_cols, want_c = fresh.cases(idx, ns)
+    assert _same(got_cols, want_cols) and _same(got_c, want_c)
+    tau, df = fresh.tau_df(idx, ns)
+    assert _same(got_c, special.stdtrit(df, 1.0 - fresh.a[idx]))
+    empty = np.zeros(0, dtype=np.intp)
+    assert all(_same(x, y) for x, y in zip(windowed.cases(empty, []), fresh.cases(empty, []),
+                                           strict=True))

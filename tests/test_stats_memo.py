@@ -20,6 +20,7 @@ import math
 
 import numpy as np
 import pytest
+from scipy import special
 
 from verify.checks import drafting
 from verify.checks.drafting import diagnostic, not_applicable, replaced
@@ -220,12 +221,13 @@ def test_the_setup_table_gives_each_setups_own_floats():
     idx = rng.integers(0, len(setups), 300)
     ns = [int(n) for n in rng.choice([2, 3, 4, 5, 7, 8, 13, 30, 31, 200, 5001], 300)]
     tau, df = table.tau_df(idx, ns)
-    cases = table.cases(idx, ns)
+    cases, crit = table.cases(idx, ns)
     approx = table.approx(idx, ns)
     for j, (i, n) in enumerate(zip(idx.tolist(), ns, strict=True)):
         q = setups[i]
         assert (tau[j], df[j]) == q._tau_df(n, sample_size.old_size(q.design, n, q.ratio))
         assert tuple(cases[:, j].tolist()) == q.case(n)
+        assert crit[j] == float(special.stdtrit(df[j], 1.0 - q.a))
         assert approx[j] == q.approx_at(n, sample_size.old_size(q.design, n, q.ratio))
     assert {q.design for q in setups} == {"one-sample", "paired", "pooled", "welch"}
 

@@ -229,7 +229,8 @@ def power_tost(
     return _clip01(_expect_over_sd(g, df, upper=s_max, points=points))
 
 
-def _tost_power_many(delta, lo, hi, taus: np.ndarray, dfs: np.ndarray, alpha) -> np.ndarray:
+def _tost_power_many(delta, lo, hi, taus: np.ndarray, dfs: np.ndarray, alpha,
+                     crit: np.ndarray | None = None) -> np.ndarray:
     """TOST power for several (tau, df) at once by fixed Gauss-Legendre quadrature.
 
     The same integral as the adaptive route: E[P(low + c tau S < est < high - c tau S)] over
@@ -237,10 +238,10 @@ def _tost_power_many(delta, lo, hi, taus: np.ndarray, dfs: np.ndarray, alpha) ->
     arrays, one entry per case), cut at the quartiles and the 1e-9 quantiles of S
     and at the steep points ``z/c + k/c`` (k = -3, 0, 3) of the normal probabilities; a piece
     gets :data:`GL_POINTS` nodes (:data:`GL_TAIL_POINTS` in the outer 1e-9 tails), and all
-    cases are evaluated in one pass.
+    cases are evaluated in one pass (``crit``: ``stdtrit(dfs, 1 - alpha)`` if the caller has it).
     """
     return _tost_power_rule(delta, lo, hi, taus, dfs, alpha, (_GL_X, _GL_W),
-                            (_GL_TAIL_X, _GL_TAIL_W), False)
+                            (_GL_TAIL_X, _GL_TAIL_W), False, crit)
 
 
 #: The nodes per piece (and in the outer tails) of the coarse rule
@@ -260,13 +261,15 @@ _QUANTILES = ((1e-20, False), (1e-9, False), (0.25, False), (0.5, False), (0.25,
 _EXACT_CUTS, _COARSE_CUTS = 7, 10
 
 
-def _tost_power_coarse(delta, lo, hi, taus: np.ndarray, dfs: np.ndarray, alpha) -> np.ndarray:
+def _tost_power_coarse(delta, lo, hi, taus: np.ndarray, dfs: np.ndarray, alpha,
+                       crit: np.ndarray | None = None) -> np.ndarray:
     """:func:`_tost_power_many`'s integral with three more cuts (:data:`_QUANTILES`, those of
     the whole df at or below each case's: :func:`_coarse_rows`) and far fewer nodes per piece
     (:data:`COARSE_POINTS`, :data:`COARSE_TAIL_POINTS`): close to it (within
     :data:`~verify.stats.sample_size_many.DECISION_BAND` from df 2 on), not equal. Only for
-    deciding whether a power reaches a target that lies well away from it; df of at least 2."""
-    return _tost_power_rule(delta, lo, hi, taus, dfs, alpha, _COARSE, _COARSE_TAIL, True)
+    deciding whether a power reaches a target that lies well away from it; df of at least 2.
+    ``crit``: ``stdtrit(dfs, 1 - alpha)`` where the caller has it (the same floats)."""
+    return _tost_power_rule(delta, lo, hi, taus, dfs, alpha, _COARSE, _COARSE_TAIL, True, crit)
 
 
 #: The sd ratio's quantiles (:data:`_QUANTILES`) and log constant per whole df up to this,
@@ -332,7 +335,8 @@ def _coarse_rows(dfs: np.ndarray) -> np.ndarray:
     return out
 
 
-def _tost_power_rule(delta, lo, hi, taus, dfs, alpha, rule, tail_rule, coarse) -> np.ndarray:
+def _tost_power_rule(delta, lo, hi, taus, dfs, alpha, rule, tail_rule, coarse,
+                     crit=None) -> np.ndarray:
     """The TOST power integral of :func:`_tost_power_many` with the Gauss-Legendre
     (nodes, weights) ``rule`` on each piece, ``tail_rule`` on the outer 1e-9 tails; cut at the
     exact rule's seven quantiles of :data:`_QUANTILES`, or with ``coarse`` at all ten
@@ -340,7 +344,7 @@ def _tost_power_rule(delta, lo, hi, taus, dfs, alpha, rule, tail_rule, coarse) -
     taus = np.asarray(taus, dtype=float)
     dfs = np.asarray(dfs, dtype=float)
     h = 0.5 * dfs
-    c = _t_upper(dfs, alpha)  # special.stdtrit(dfs, 1.0 - alpha), whole df remembered
+    c = _t_upper(dfs, alpha) if crit is None else crit  # stdtrit(dfs, 1.0 - alpha)
     upper_z = (np.asarray(hi, dtype=float) - delta) / taus
     lower_z = (np.asarray(lo, dtype=float) - delta) / taus
     s_max = (upper_z - lower_z) / (2.0 * c)

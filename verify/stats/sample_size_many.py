@@ -79,6 +79,8 @@ class _Table:
         self.hi = np.array([q.hi for q in setups], dtype=float)
         self.a = np.array([q.a for q in setups], dtype=float)
         self.target = np.array([q.target for q in setups], dtype=float)
+        # the guesses' windows (_guesses): their sizes and (tau, df, t quantile), rows by setup
+        self.window: tuple[np.ndarray, ...] | None = None
 
     def tau_df(self, idx: np.ndarray, ns: list[int]) -> tuple[np.ndarray, np.ndarray]:
         """:meth:`_TostSize._tau_df` of setup ``idx[j]`` at n_new ``ns[j]`` (n_old by
@@ -109,23 +111,49 @@ class _Table:
             df[welch] = 1.0 / (r * r / (n1 - 1.0) + (1.0 - r) * (1.0 - r) / (n2 - 1.0))
         return tau, df
 
-    def approx(self, idx: np.ndarray, ns: list[int]) -> list[float]:
-        """:func:`_approx_many` of setups ``idx`` at ``ns``."""
+    def approx(self, idx: np.ndarray, ns: list[int], window: np.ndarray | None = None):
+        """:func:`_approx_many` of setups ``idx`` at ``ns``; with ``window`` (the sizes ``ns``
+        as rows, one per setup, ``idx`` their rows repeated) their (tau, df, t quantile) are
+        kept for :meth:`cases`."""
         tau, df = self.tau_df(idx, ns)
         if not np.isfinite(df).all():  # t_quantile and t_cdf switch to the normal there
             return _approx_many([self.setups[i] for i in idx.tolist()], ns)
         c = _t_upper(df, self.a[idx])  # special.stdtrit(df, 1.0 - alpha), whole df remembered
+        if window is not None:
+            self.window = (window, *(x.reshape(window.shape) for x in (tau, df, c)))
         p = special.stdtr(df, (self.hi[idx] - self.delta[idx]) / tau - c) \
             - special.stdtr(df, (self.lo[idx] - self.delta[idx]) / tau + c)
         p = np.clip(p, 0.0, 1.0)  # _clip01 of each, a NaN becoming 0 as there
         p[np.isnan(p)] = 0.0
         return p.tolist()
 
-    def cases(self, idx: np.ndarray, ns: list[int]) -> np.ndarray:
+    def cases(self, idx: np.ndarray, ns: list[int]) -> tuple[np.ndarray, np.ndarray]:
         """The columns (delta, low, high, tau, df, alpha) of :meth:`_TostSize.case` of setups
-        ``idx`` at ``ns``."""
-        tau, df = self.tau_df(idx, ns)
-        return np.vstack([self.delta[idx], self.lo[idx], self.hi[idx], tau, df, self.a[idx]])
+        ``idx`` at ``ns``, and their t quantiles ``stdtrit(df, 1 - alpha)``: those of sizes in
+        the guesses' windows as computed there (the same functions of the same (setup, n), so
+        the same floats), the others computed here."""
+        tau, df, c = self._window_parts(idx, ns)
+        return np.vstack([self.delta[idx], self.lo[idx], self.hi[idx], tau, df,
+                          self.a[idx]]), c
+
+    def _window_parts(self, idx: np.ndarray, ns: list[int]):
+        """(tau, df, t quantile) of setups ``idx`` at ``ns``, read from the window where it
+        holds the size (a clipped window repeats sizes: the column must hold n itself)."""
+        if self.window is None or not idx.size:
+            tau, df = self.tau_df(idx, ns)
+            return tau, df, _t_upper(df, self.a[idx])
+        sizes, w_tau, w_df, w_c = self.window
+        n = np.array(ns, dtype=np.int64)
+        col = n - sizes[idx, 0]
+        col[(col < 0) | (col >= sizes.shape[1])] = 0
+        held = sizes[idx, col] == n
+        tau, df, c = w_tau[idx, col], w_df[idx, col], w_c[idx, col]
+        if not held.all():
+            rest = ~held
+            rows = idx[rest]
+            tau[rest], df[rest] = self.tau_df(rows, n[rest].tolist())
+            c[rest] = _t_upper(df[rest], self.a[rows])
+        return tau, df, c
 
 
 def _guesses(setups: list[_TostSize], table: _Table | None = None,
@@ -153,7 +181,8 @@ def _guesses(setups: list[_TostSize], table: _Table | None = None,
                             table.s1, table.s2, table.ratio)
     n_max = np.array([_n_max(q.design, q.ratio) for q in setups], dtype=float)
     sizes = _guess_sizes(starts, n_max)
-    powers = np.array(table.approx(np.repeat(rows, sizes.shape[1]), sizes.ravel().tolist()))
+    powers = np.array(table.approx(np.repeat(rows, sizes.shape[1]), sizes.ravel().tolist(),
+                                   sizes))
     found, first = _first_reaching(sizes, powers.reshape(sizes.shape), table.target)
     for i, j in zip(np.flatnonzero(found).tolist(), first[found].tolist(), strict=True):
         out[i] = int(sizes[i, j])
@@ -219,19 +248,22 @@ COARSE_MIN_DF = 2.0
 COARSE_MIN_ALPHA = 1e-3
 
 
-def _walk_powers(cols: np.ndarray, targets: np.ndarray, exact_cols: np.ndarray | None):
+def _walk_powers(cols: np.ndarray, targets: np.ndarray, exact_cols: np.ndarray | None,
+                 crit: np.ndarray | None = None):
     """Values to send the walks for the cases ``cols`` (each the power or a stand-in on the
     same side of its case's target), and the exact powers of ``exact_cols`` (the powers at the
     questions' own lot sizes), in one exact integration with the cases the coarse rule cannot
     decide: those of df below :data:`COARSE_MIN_DF` or alpha below :data:`COARSE_MIN_ALPHA`,
     and those within :data:`DECISION_BAND` of their target. A walk compares each value only
     with its target (``power >= target``), so it takes the same steps as with the exact
-    powers, and the cases it cannot decide coarsely join the same round (no extra round)."""
+    powers, and the cases it cannot decide coarsely join the same round (no extra round).
+    ``crit``: the cases' t quantiles, where the caller has them."""
     n = cols.shape[1]
     values = np.full(n, np.nan)
     coarse = (cols[4] >= COARSE_MIN_DF) & (cols[5] >= COARSE_MIN_ALPHA)
     if coarse.any():
-        cheap = _tost_power_coarse(*cols[:, coarse])
+        cheap = _tost_power_coarse(*cols[:, coarse],
+                                   crit=None if crit is None else crit[coarse])
         values[coarse] = cheap
     # (a NaN compares as not decided)
     undecided = ~(np.abs(values - targets) > DECISION_BAND)
@@ -318,8 +350,9 @@ def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, int | None
         ids = [i for i, ns in ask.items() for _ in ns]
         ns = [n for n_list in ask.values() for n in n_list]
         rows = np.array([walks[i][0] for i in ids], dtype=np.intp)
-        values, own_values = _walk_powers(table.cases(rows, ns), table.target[rows],
-                                          own if first else None)
+        cols, crit = table.cases(rows, ns)
+        values, own_values = _walk_powers(cols, table.target[rows], own if first else None,
+                                          crit)
         if first:
             for i, v in zip(own_of, own_values, strict=True):
                 powers[i] = v
