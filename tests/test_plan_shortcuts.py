@@ -22,7 +22,9 @@ which ``plan_tost_many`` calls with the powers of sizes integrated in advance as
 they replace (kept here as the reference), ask for ask and answer for answer.
 
 ``sample_size_many._Table.cases`` reads the (tau, df, t quantile) of sizes in the guesses'
-windows from there; these tests hold it to the same table without windows.
+windows from there; these tests hold it to the same table without windows. Its ``own_cases``
+computes the cases of the questions' own lot sizes together; these tests hold them to each
+setup's ``own_case`` and the powers ``plan_tost_many`` returns to ``power_tost``'s.
 """
 
 from __future__ import annotations
@@ -316,3 +318,52 @@ def test_window_parts_equal_those_computed_afresh():
     empty = np.zeros(0, dtype=np.intp)
     assert all(_same(x, y) for x, y in zip(windowed.cases(empty, []), fresh.cases(empty, []),
                                            strict=True))
+
+
+def _own_questions(rng: np.random.Generator, m: int) -> list[dict]:
+    out = []
+    for k in range(m):
+        design = ("one-sample", "paired", "pooled", "welch")[k % 4]
+        n = int(rng.integers(2, 300))
+        n_old = None if design == "one-sample" else n if design == "paired" else \
+            int(rng.integers(2, 300))
+        out.append({**_VALID, "design": design, "n_new": n, "n_old": n_old,
+                    "ratio": 1.0 if design in ("one-sample", "paired") else 0.5,
+                    "sd": float(rng.uniform(0.05, 2.0)),
+                    "true_shift": float(rng.uniform(-1.5, 2.0)),  # some outside the margins
+                    "sd_old": float(rng.uniform(0.05, 2.0)) if design == "welch" else None})
+    return out
+
+
+def test_own_cases_together_equal_each_setups_own():
+    rng = np.random.default_rng(21)
+    questions = [q for q in _own_questions(rng, 200) if q["low"] < q["true_shift"] < q["high"]]
+    setups = [sample_size._TostSize.of_question(q) for q in questions]
+    sizes = [q.own_sizes(p["n_new"], p["n_old"]) for q, p in zip(setups, questions, strict=True)]
+    table = sample_size_many._Table(setups)
+    got = table.own_cases(np.arange(len(setups)), [a for a, _ in sizes], [b for _, b in sizes])
+    want = np.array([q.own_case(p["n_new"], p["n_old"])
+                     for q, p in zip(setups, questions, strict=True)], dtype=float).T
+    assert _same(got, want)
+    assert {q.design for q in setups} == {"one-sample", "paired", "pooled", "welch"}
+
+
+def test_own_powers_of_setups_and_of_other_questions_equal_power_tost():
+    """Questions with a setup and ones without (a shift outside the margins: a power but no
+    sample size; bad lot sizes: neither), in one pass."""
+    rng = np.random.default_rng(22)
+    questions = _own_questions(rng, 60)
+    questions[3] = {**questions[3], "n_new": 1}
+    questions[6] = {**questions[6], "n_old": None}
+    together = sample_size_many.plan_tost_many(questions)
+    kinds = set()
+    for q, (pw, _) in zip(questions, together, strict=True):
+        try:
+            want = power_of_tests.power_tost(
+                q["true_shift"], q["sd"], q["n_new"], q["n_old"], design=q["design"],
+                alpha=q["alpha"], low=q["low"], high=q["high"], sd_old=q["sd_old"])
+        except (StatsError, ValueError):
+            want = None
+        assert pw == want
+        kinds.add((want is None, q["low"] < q["true_shift"] < q["high"]))
+    assert kinds >= {(False, True), (False, False), (True, True)}

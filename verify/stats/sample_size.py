@@ -518,9 +518,15 @@ class _TostSize(_Search):
                        - t_cdf((self.lo - self.delta) / tau + c, df))
 
     def own_case(self, n_new: object, n_old: object) -> tuple:
-        """(delta, low, high, tau, df, alpha) of the power at the question's own lot sizes: the
-        count checks of :func:`~verify.stats.power_of_tests._plan` (ValueError as there), its
-        other checks made in __init__ already."""
+        """(delta, low, high, tau, df, alpha) of the power at the question's own lot sizes (those
+        of :meth:`own_sizes`)."""
+        tau, df = self._tau_df(*self.own_sizes(n_new, n_old))
+        return self.delta, self.lo, self.hi, tau, df, self.a
+
+    def own_sizes(self, n_new: object, n_old: object) -> tuple[int, int | None]:
+        """The question's own (n_new, n_old) by the count checks of
+        :func:`~verify.stats.power_of_tests._plan` (ValueError as there), its other checks made
+        in __init__ already."""
         n1 = _count(n_new, "n_new")
         if self.design in ("one-sample", "paired"):
             if n_old is not None and (self.design == "one-sample"
@@ -531,8 +537,7 @@ class _TostSize(_Search):
             raise ValueError(f"the {self.design} design needs n_old")
         else:
             n2 = _count(n_old, "n_old")
-        tau, df = self._tau_df(n1, n2)
-        return self.delta, self.lo, self.hi, tau, df, self.a
+        return n1, n2
 
     def case(self, n: int) -> tuple:
         """(delta, low, high, tau, df, alpha) of the exact power at n_new = n."""

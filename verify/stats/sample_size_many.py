@@ -82,9 +82,10 @@ class _Table:
         # the guesses' windows (_guesses): their sizes and (tau, df, t quantile), rows by setup
         self.window: tuple[np.ndarray, ...] | None = None
 
-    def tau_df(self, idx: np.ndarray, ns: list[int]) -> tuple[np.ndarray, np.ndarray]:
+    def tau_df(self, idx: np.ndarray, ns: list[int],
+               olds: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
         """:meth:`_TostSize._tau_df` of setup ``idx[j]`` at n_new ``ns[j]`` (n_old by
-        :func:`old_size`)."""
+        :func:`old_size`, or ``olds[j]`` as floats where given)."""
         n = np.array(ns, dtype=float)
         kind = self.kind[idx]
         tau, df = np.empty(n.size), np.empty(n.size)
@@ -95,13 +96,13 @@ class _Table:
         pooled = kind == _POOLED  # s1 sqrt(1/n1 + 1/n2), n1 + n2 - 2
         if pooled.any():
             n1 = n[pooled]
-            n2 = old_sizes(n1, self.ratio[idx[pooled]])
+            n2 = old_sizes(n1, self.ratio[idx[pooled]]) if olds is None else olds[pooled]
             tau[pooled] = self.s1[idx[pooled]] * np.sqrt(1.0 / n1 + 1.0 / n2)
             df[pooled] = n1 + n2 - 2.0
         welch = kind == _WELCH
         if welch.any():
             rows, n1 = idx[welch], n[welch]
-            n2 = old_sizes(n1, self.ratio[rows])
+            n2 = old_sizes(n1, self.ratio[rows]) if olds is None else olds[welch]
             a = self.s1[rows] / np.sqrt(n1)
             b = self.s2[rows] / np.sqrt(n2)
             # math.hypot and the float power of power_of_tests._tau_df, element by element
@@ -135,6 +136,13 @@ class _Table:
         tau, df, c = self._window_parts(idx, ns)
         return np.vstack([self.delta[idx], self.lo[idx], self.hi[idx], tau, df,
                           self.a[idx]]), c
+
+    def own_cases(self, idx: np.ndarray, n_new: list[int], n_old: list[int | None]):
+        """:meth:`_TostSize.own_case` of setups ``idx`` at their validated own sizes
+        (:meth:`_TostSize.own_sizes`), as columns."""
+        olds = np.array([np.nan if n is None else n for n in n_old], dtype=float)
+        tau, df = self.tau_df(idx, n_new, olds)
+        return np.vstack([self.delta[idx], self.lo[idx], self.hi[idx], tau, df, self.a[idx]])
 
     def _window_parts(self, idx: np.ndarray, ns: list[int]):
         """(tau, df, t quantile) of setups ``idx`` at ``ns``, read from the window where it
@@ -296,8 +304,11 @@ def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, int | None
     """
     from .errors import StatsError
 
-    cases: list[tuple] = []  # the powers at the questions' own lot sizes
+    cases: list[tuple | None] = []  # the powers at the questions' own lot sizes (None: a setup's)
     own_of: list[int] = []  # the question of each
+    own_rows: list[int] = []  # the setups' own lot sizes, their cases computed together
+    own_new: list[int] = []
+    own_old: list[int | None] = []
     sizes: list[tuple[int, _TostSize]] = []
     setups: list[tuple[int, _TostSize]] = []
     for i, q in enumerate(questions):
@@ -308,7 +319,11 @@ def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, int | None
             setup = None
         try:
             if setup is not None:  # the power's inputs validated with the question's
-                cases.append(setup.own_case(q["n_new"], q["n_old"]))
+                n_new, n_old = setup.own_sizes(q["n_new"], q["n_old"])
+                own_rows.append(len(setups) - 1)
+                own_new.append(n_new)
+                own_old.append(n_old)
+                cases.append(None)
             else:  # (e.g. a shift outside the margins: a power, but no sample size)
                 a = _alpha(q["alpha"], 0.5)
                 delta = finite(q["true_shift"], "true_shift")
@@ -334,7 +349,14 @@ def plan_tost_many(questions: list[dict]) -> list[tuple[float | None, int | None
                 [n0, n0 - 1] if n0 > 2 else [n0]
         sizes.append((i, setup))
     found: dict[int, tuple[int, float] | None] = {}  # (n, the value at n)
-    own = np.array(cases, dtype=float).reshape(-1, 6).T  # the first round's leading cases
+    # the first round's leading cases: the setups' (own_case, the same floats) computed together
+    own = table.own_cases(np.array(own_rows, dtype=np.intp), own_new, own_old)
+    if len(own_rows) < len(cases):  # and the others' as they came
+        mixed = np.empty((6, len(cases)))
+        by_setup = np.array([c is None for c in cases])
+        mixed[:, by_setup] = own
+        mixed[:, ~by_setup] = np.array([c for c in cases if c is not None], dtype=float).T
+        own = mixed
     # the first round also takes the size below the guess, the walk's usual second step (the
     # approximation asks for one or two more than the exact power needs), and where the guess
     # is near (_guesses) the size below that, its usual third, so that the walks mostly end
