@@ -124,8 +124,8 @@ def test_planned_n_equals_the_one_at_a_time_search(monkeypatch):
     undecided = []
     walk_powers = sample_size_many._walk_powers
 
-    def spy(cols, targets, exact_cols):
-        values, own = walk_powers(cols, targets, exact_cols)
+    def spy(cols, targets, exact_cols, crit=None):
+        values, own = walk_powers(cols, targets, exact_cols, crit)
         used = (cols[4] >= sample_size_many.COARSE_MIN_DF) & (
             cols[5] >= sample_size_many.COARSE_MIN_ALPHA)
         coarse = power_of_tests._tost_power_coarse(*cols[:, used])
@@ -158,9 +158,9 @@ def test_the_walks_take_as_many_rounds_as_with_exact_powers(monkeypatch):
     rounds = []
     walk_powers = sample_size_many._walk_powers
 
-    def counted(cols, targets, exact_cols):
+    def counted(cols, targets, exact_cols, crit=None):
         rounds[-1] += 1
-        return walk_powers(cols, targets, exact_cols)
+        return walk_powers(cols, targets, exact_cols, crit)
 
     monkeypatch.setattr(sample_size_many, "_walk_powers", counted)
     rounds.append(0)

@@ -20,6 +20,7 @@ import math
 
 import numpy as np
 import pytest
+from scipy import special
 
 from verify.checks import drafting
 from verify.checks.drafting import diagnostic, not_applicable, replaced
@@ -220,12 +221,13 @@ def test_the_setup_table_gives_each_setups_own_floats():
     idx = rng.integers(0, len(setups), 300)
     ns = [int(n) for n in rng.choice([2, 3, 4, 5, 7, 8, 13, 30, 31, 200, 5001], 300)]
     tau, df = table.tau_df(idx, ns)
-    cases = table.cases(idx, ns)
+    cases, crit = table.cases(idx, ns)
     approx = table.approx(idx, ns)
     for j, (i, n) in enumerate(zip(idx.tolist(), ns, strict=True)):
         q = setups[i]
         assert (tau[j], df[j]) == q._tau_df(n, sample_size.old_size(q.design, n, q.ratio))
         assert tuple(cases[:, j].tolist()) == q.case(n)
+        assert crit[j] == float(special.stdtrit(df[j], 1.0 - q.a))
         assert approx[j] == q.approx_at(n, sample_size.old_size(q.design, n, q.ratio))
     assert {q.design for q in setups} == {"one-sample", "paired", "pooled", "welch"}
 
@@ -283,8 +285,9 @@ def test_tost_planning_walks_up_and_down_from_any_guess(monkeypatch, offset):
             low=-0.02, high=0.02, power=0.9, ratio=1.0,
             sd_old=float(rng.uniform(0.002, 0.02)) if design == "welch" else None))
     guesses = sample_size_many._guesses
-    monkeypatch.setattr(sample_size_many, "_guesses", lambda setups, table=None: [
-        None if g is None else max(2, g + offset) for g in guesses(setups, table)])
+    # (the hints of the unmoved guesses passed on: a walk may integrate sizes it never asks)
+    monkeypatch.setattr(sample_size_many, "_guesses", lambda setups, table=None, near=None: [
+        None if g is None else max(2, g + offset) for g in guesses(setups, table, near)])
     for q, (_, n_new) in zip(questions, sample_size_many.plan_tost_many(questions), strict=True):
         assert n_new == sample_size.sample_size_tost(
             q["true_shift"], q["sd"], design=q["design"], alpha=q["alpha"], low=q["low"],

@@ -18,6 +18,7 @@ import math
 from collections.abc import Callable, Iterable
 from functools import lru_cache
 
+import numpy as np
 from scipy import special
 
 _LOG_SQRT_2PI = 0.5 * math.log(2.0 * math.pi)
@@ -137,6 +138,52 @@ def nct_cdf(x: float, df: float, nc: float) -> float:
 def nct_sf(x: float, df: float, nc: float) -> float:
     """P(T > x) for the noncentral t distribution, as P(T <= -x) with noncentrality -nc."""
     return nct_cdf(-x, df, -nc)
+
+
+#: The t quantiles ``stdtrit(df, p)`` of whole df up to :data:`_CRIT_DF`, remembered per
+#: probability p (:func:`_t_upper`): the one-sample, paired and pooled df are whole numbers and
+#: the questions of an evaluation share alpha, so the same quantile recurs in the guesses'
+#: windows and the walks' rounds. At most :data:`_CRIT_KEEP` probabilities are kept.
+_CRIT_DF = 4096
+_CRIT: dict[float, tuple[np.ndarray, np.ndarray]] = {}  # p -> (filled, quantiles by df)
+_CRIT_KEEP = 8
+
+
+def _t_upper(dfs: np.ndarray, alpha) -> np.ndarray:
+    """``special.stdtrit(dfs, 1.0 - alpha)`` element by element (``alpha`` a float or one per
+    df), whole df up to :data:`_CRIT_DF` read from :data:`_CRIT` where all share one alpha.
+    A remembered quantile is the float the same ufunc gave for the same (df, p) once before,
+    so every element equals the direct call's (tests/test_plan_shortcuts.py)."""
+    p = 1.0 - np.asarray(alpha, dtype=float)
+    if p.ndim:
+        if not p.size or p.min() != p.max():
+            return special.stdtrit(dfs, p)
+        p0 = float(p[0])
+    else:
+        p0 = float(p)
+    whole = (dfs >= 1.0) & (dfs <= _CRIT_DF) & (dfs == np.floor(dfs))
+    if not whole.any():
+        return special.stdtrit(dfs, p)
+    got = _CRIT.get(p0)
+    if got is None:
+        if len(_CRIT) >= _CRIT_KEEP:
+            return special.stdtrit(dfs, p)
+        got = _CRIT.setdefault(p0, (np.zeros(_CRIT_DF + 1, dtype=bool),
+                                    np.empty(_CRIT_DF + 1)))
+    filled, crit = got
+    every = whole.all()
+    idx = (dfs if every else dfs[whole]).astype(np.intp)
+    need = idx[~filled[idx]]
+    if need.size:  # (marked filled only once written: a second thread reads a whole row)
+        crit[need] = special.stdtrit(need.astype(float), p0)
+        filled[need] = True
+    if every:
+        return crit[idx]
+    out = np.empty(dfs.shape)
+    out[whole] = crit[idx]
+    rest = ~whole
+    out[rest] = special.stdtrit(dfs[rest], p0)
+    return out
 
 
 __all__ = ["nct_cdf", "nct_sf"]

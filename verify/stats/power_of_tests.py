@@ -35,7 +35,7 @@ from scipy import special
 from ._checks import check_harmful, check_margins, finite, number, positive
 from .core import check_alternative, critical_value, t_cdf
 from .errors import NotApplicableError
-from .noncentral import _clip01, _expect_over_sd, _sd_ratio_log_constant, nct_cdf, nct_sf
+from .noncentral import _clip01, _expect_over_sd, _sd_ratio_log_constant, _t_upper, nct_cdf, nct_sf
 from .ttests import check_design
 
 #: The target power a planning question gets when its caller names none (common practice).
@@ -229,7 +229,8 @@ def power_tost(
     return _clip01(_expect_over_sd(g, df, upper=s_max, points=points))
 
 
-def _tost_power_many(delta, lo, hi, taus: np.ndarray, dfs: np.ndarray, alpha) -> np.ndarray:
+def _tost_power_many(delta, lo, hi, taus: np.ndarray, dfs: np.ndarray, alpha,
+                     crit: np.ndarray | None = None) -> np.ndarray:
     """TOST power for several (tau, df) at once by fixed Gauss-Legendre quadrature.
 
     The same integral as the adaptive route: E[P(low + c tau S < est < high - c tau S)] over
@@ -237,10 +238,10 @@ def _tost_power_many(delta, lo, hi, taus: np.ndarray, dfs: np.ndarray, alpha) ->
     arrays, one entry per case), cut at the quartiles and the 1e-9 quantiles of S
     and at the steep points ``z/c + k/c`` (k = -3, 0, 3) of the normal probabilities; a piece
     gets :data:`GL_POINTS` nodes (:data:`GL_TAIL_POINTS` in the outer 1e-9 tails), and all
-    cases are evaluated in one pass.
+    cases are evaluated in one pass (``crit``: ``stdtrit(dfs, 1 - alpha)`` if the caller has it).
     """
     return _tost_power_rule(delta, lo, hi, taus, dfs, alpha, (_GL_X, _GL_W),
-                            (_GL_TAIL_X, _GL_TAIL_W), False)
+                            (_GL_TAIL_X, _GL_TAIL_W), False, crit)
 
 
 #: The nodes per piece (and in the outer tails) of the coarse rule
@@ -260,13 +261,15 @@ _QUANTILES = ((1e-20, False), (1e-9, False), (0.25, False), (0.5, False), (0.25,
 _EXACT_CUTS, _COARSE_CUTS = 7, 10
 
 
-def _tost_power_coarse(delta, lo, hi, taus: np.ndarray, dfs: np.ndarray, alpha) -> np.ndarray:
+def _tost_power_coarse(delta, lo, hi, taus: np.ndarray, dfs: np.ndarray, alpha,
+                       crit: np.ndarray | None = None) -> np.ndarray:
     """:func:`_tost_power_many`'s integral with three more cuts (:data:`_QUANTILES`, those of
     the whole df at or below each case's: :func:`_coarse_rows`) and far fewer nodes per piece
     (:data:`COARSE_POINTS`, :data:`COARSE_TAIL_POINTS`): close to it (within
     :data:`~verify.stats.sample_size_many.DECISION_BAND` from df 2 on), not equal. Only for
-    deciding whether a power reaches a target that lies well away from it; df of at least 2."""
-    return _tost_power_rule(delta, lo, hi, taus, dfs, alpha, _COARSE, _COARSE_TAIL, True)
+    deciding whether a power reaches a target that lies well away from it; df of at least 2.
+    ``crit``: ``stdtrit(dfs, 1 - alpha)`` where the caller has it (the same floats)."""
+    return _tost_power_rule(delta, lo, hi, taus, dfs, alpha, _COARSE, _COARSE_TAIL, True, crit)
 
 
 #: The sd ratio's quantiles (:data:`_QUANTILES`) and log constant per whole df up to this,
@@ -332,7 +335,8 @@ def _coarse_rows(dfs: np.ndarray) -> np.ndarray:
     return out
 
 
-def _tost_power_rule(delta, lo, hi, taus, dfs, alpha, rule, tail_rule, coarse) -> np.ndarray:
+def _tost_power_rule(delta, lo, hi, taus, dfs, alpha, rule, tail_rule, coarse,
+                     crit=None) -> np.ndarray:
     """The TOST power integral of :func:`_tost_power_many` with the Gauss-Legendre
     (nodes, weights) ``rule`` on each piece, ``tail_rule`` on the outer 1e-9 tails; cut at the
     exact rule's seven quantiles of :data:`_QUANTILES`, or with ``coarse`` at all ten
@@ -340,7 +344,7 @@ def _tost_power_rule(delta, lo, hi, taus, dfs, alpha, rule, tail_rule, coarse) -
     taus = np.asarray(taus, dtype=float)
     dfs = np.asarray(dfs, dtype=float)
     h = 0.5 * dfs
-    c = special.stdtrit(dfs, 1.0 - np.asarray(alpha, dtype=float))
+    c = _t_upper(dfs, alpha) if crit is None else crit  # stdtrit(dfs, 1.0 - alpha)
     upper_z = (np.asarray(hi, dtype=float) - delta) / taus
     lower_z = (np.asarray(lo, dtype=float) - delta) / taus
     s_max = (upper_z - lower_z) / (2.0 * c)
@@ -367,6 +371,8 @@ def _tost_power_rule(delta, lo, hi, taus, dfs, alpha, rule, tail_rule, coarse) -
     owner = np.broadcast_to(np.arange(taus.size)[:, None], left.shape)
     out = np.zeros(taus.size)
     k0_all = per_case[:, ncuts]
+    # (a flat piece needs both margins beyond _NDTR_ONE sds of the estimate: cs > 0)
+    flat_cases = ((upper_z >= _NDTR_ONE) & (lower_z <= -_NDTR_ONE)).any()
     for is_tail in (False, True):
         sel = keep & (tail == is_tail)
         if not sel.any():
@@ -378,19 +384,48 @@ def _tost_power_rule(delta, lo, hi, taus, dfs, alpha, rule, tail_rule, coarse) -
         log_l, log_r = np.log(lefts), np.log(rights)
         half = 0.5 * (log_r - log_l)
         mid = 0.5 * (log_r + log_l)
-        # per piece: its case's constants; the nodes in blocks of pieces small enough to stay
-        # in the processor's cache (the same arithmetic element by element, in place; each
-        # piece's sum is its own row's, and np.add.at adds the pieces in order, so the block
-        # size does not change a float): about _BLOCK * GL_POINTS nodes a block
+        # per piece its case's constants, the nodes in blocks that stay in the processor's
+        # cache (_piece_sums). Each piece's sum is its own row's and np.add.at adds them in
+        # order, so neither the blocks nor which pieces are summed together change a float
         k0, hh, dm1 = k0_all[case], h[case], dfs[case] - 1.0
         cc, up, low = c[case], upper_z[case], lower_z[case]
-        block = _BLOCK * GL_POINTS // gx.size
-        for a in range(0, case.size, block):
-            b = a + block
-            out_piece = _pieces(mid[a:b], half[a:b], gx, gw, k0[a:b], hh[a:b], dm1[a:b],
-                                cc[a:b], up[a:b], low[a:b])
-            np.add.at(out, case[a:b], out_piece)
+        args = (mid, half, k0, hh, dm1, cc, up, low)
+        flat = _flat_pieces(rights, cc, up, low) if flat_cases else None  # g 1.0 at all nodes
+        if flat is not None and flat.any():
+            sums, rest = np.empty(case.size), ~flat
+            sums[flat] = _piece_sums(gx, gw, *(x[flat] for x in args[:5]))
+            sums[rest] = _piece_sums(gx, gw, *(x[rest] for x in args))
+        else:
+            sums = _piece_sums(gx, gw, *args)
+        np.add.at(out, case, sums)  # each case's pieces added in order, as one by one
     return np.clip(out, 0.0, 1.0)
+
+
+#: From this argument on ``special.ndtr`` is 1.0 exactly (it rounds to 1.0 from 8.3 on), and
+#: at minus it below 1.2e-19, which subtracted from 1.0 leaves 1.0.
+_NDTR_ONE = 9.0
+
+
+def _flat_pieces(rights, cc, up, low) -> np.ndarray:
+    """Which pieces have g = ``ndtr(up - c s) - ndtr(low + c s)`` exactly 1.0 at every node:
+    both arguments are beyond :data:`_NDTR_ONE` up to the piece's right end, where they are
+    closest to 0 (a relative slack of 1e-9 for the nodes' rounding). Their sums are the
+    density's alone (``1.0 * x`` is ``x``), so they skip g: the same floats (tests hold it)."""
+    cs = cc * (rights * (1.0 + 1e-9))
+    return ((up - cs >= _NDTR_ONE + 1e-9 * np.abs(up))
+            & (low + cs <= -_NDTR_ONE - 1e-9 * np.abs(low)))
+
+
+def _piece_sums(gx, gw, mid, half, k0, hh, dm1, cc=None, up=None, low=None) -> np.ndarray:
+    """:func:`_pieces` of all pieces in blocks of about ``_BLOCK * GL_POINTS`` nodes (without
+    ``cc``, ``up``, ``low``: g is 1.0)."""
+    block = _BLOCK * GL_POINTS // gx.size
+    out = np.empty(mid.size)
+    for a in range(0, mid.size, block):
+        b = a + block
+        out[a:b] = _pieces(mid[a:b], half[a:b], gx, gw, k0[a:b], hh[a:b], dm1[a:b],
+                           *(None if x is None else x[a:b] for x in (cc, up, low)))
+    return out
 
 
 #: Pieces of the TOST power integral evaluated together: their nodes' temporaries (pieces x
@@ -398,7 +433,7 @@ def _tost_power_rule(delta, lo, hi, taus, dfs, alpha, rule, tail_rule, coarse) -
 _BLOCK = 128
 
 
-def _pieces(mid, half, gx, gw, k0, hh, dm1, cc, up, low) -> np.ndarray:
+def _pieces(mid, half, gx, gw, k0, hh, dm1, cc=None, up=None, low=None) -> np.ndarray:
     """Each piece's Gauss-Legendre sum of g(s) f(s) on the log scale t = log s: nodes
     ``mid + half * gx``, weights ``half * gw * s``, f the sd ratio's density
     (``k0 - h e (2 + e) + (df - 1) t`` in logs, e = s - 1), g the normal probability of the
@@ -416,6 +451,10 @@ def _pieces(mid, half, gx, gw, k0, hh, dm1, cc, up, low) -> np.ndarray:
     np.subtract(k0[:, col], logpdf, out=logpdf)
     t *= dm1[:, col]
     logpdf += t
+    if cc is None:  # g is 1.0 at every node (_flat_pieces): g * f * w is f * w
+        np.exp(logpdf, out=logpdf)
+        logpdf *= weights
+        return np.add.reduce(logpdf, axis=1)
     cs = nodes
     cs *= cc[:, col]
     g = np.subtract(up[:, col], cs)

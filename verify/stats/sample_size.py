@@ -260,14 +260,32 @@ def _step_to_smallest(pw, n0: int, target: float, n_max: int, steps: int = 12):
 
 def _steps(n0: int, target: float, n_max: int, steps: int = 12):
     """:func:`_step_to_smallest` as a generator (yields each n whose power it needs, is sent
-    that power, returns its answer), so that many walks can run in step."""
-    n = n0
-    p = yield n0
+    that power, returns its answer), so that many walks can run in step; each step is
+    :func:`_walk` of the powers sent so far."""
+    seen: dict[int, float] = {}
+    while True:
+        step = _walk(n0, target, n_max, seen, steps)
+        if step is None or type(step) is tuple:  # the answer
+            return step
+        seen[step] = yield step
+
+
+def _walk(n0: int, target: float, n_max: int, seen: dict[int, float], steps: int = 12):
+    """The walk from n0 as far as the powers ``seen`` (n -> power) take it: the next n whose
+    power it needs (an int), or its answer, (n, power) or None (the guess too far off). From
+    n0 reaching the target it steps down while one fewer still reaches it (to 2 at least),
+    else up until it reaches it (to n_max at most), ``steps`` steps at most. It reads only the
+    powers on its path, so ``seen`` may hold others (those integrated in advance)."""
+    if n0 not in seen:
+        return n0
+    n, p = n0, seen[n0]
     if p >= target:
         for _ in range(steps):
             if n <= 2:
                 return n, p
-            p_prev = yield n - 1
+            if n - 1 not in seen:
+                return n - 1
+            p_prev = seen[n - 1]
             if p_prev < target:
                 return n, p
             n, p = n - 1, p_prev
@@ -275,7 +293,9 @@ def _steps(n0: int, target: float, n_max: int, steps: int = 12):
     for _ in range(steps):
         if n >= n_max:
             return None
-        n, p = n + 1, (yield n + 1)
+        if n + 1 not in seen:
+            return n + 1
+        n, p = n + 1, seen[n + 1]
         if p >= target:
             return n, p
     return None
@@ -447,6 +467,41 @@ class _TostSize(_Search):
                 f"({self.lo:g}, {self.hi:g}): equivalence cannot be shown at any sample size"
             )
 
+    @classmethod
+    def of_question(cls, q: dict) -> _TostSize:
+        """``_TostSize(q["true_shift"], q["sd"], design=q["design"], ...)`` of a question dict
+        (:func:`~verify.stats.sample_size_many.plan_tost_many`'s). Where every number is a plain
+        float (``sd_old`` also None) and passes the checks, the attributes are set directly:
+        each is the float the checks return for it (``float(v)`` of a float is ``v``). Any other
+        question runs the constructor, which raises as it does (tests/test_plan_shortcuts.py
+        holds the two together)."""
+        delta, sd, a, lo, hi = q["true_shift"], q["sd"], q["alpha"], q["low"], q["high"]
+        target, ratio, sd_old, design = q["power"], q["ratio"], q["sd_old"], q["design"]
+        if (type(delta) is float and type(sd) is float and type(a) is float
+                and type(lo) is float and type(hi) is float and type(target) is float
+                and type(ratio) is float and 0.0 < a < 0.5 and 0.0 < target < 1.0
+                and 0.0 < sd < math.inf and 0.0 < ratio < math.inf
+                and -math.inf < lo < delta < hi < math.inf):
+            if design == "welch":
+                if sd_old is None:
+                    s2 = sd
+                elif type(sd_old) is float and 0.0 < sd_old < math.inf:
+                    s2 = sd_old
+                else:
+                    s2 = _NO_GUESS
+            elif sd_old is None and (design == "pooled" or (
+                    ratio == 1.0 and design in ("one-sample", "paired"))):
+                s2 = None
+            else:
+                s2 = _NO_GUESS
+            if s2 is not _NO_GUESS:
+                setup = object.__new__(cls)
+                setup.__dict__.update(design=design, a=a, target=target, ratio=ratio, sd=sd,
+                                      sd_old=sd_old, s1=sd, delta=delta, lo=lo, hi=hi, s2=s2)
+                return setup
+        return cls(delta, sd, design=design, alpha=a, low=lo, high=hi, power=target,
+                   ratio=ratio, sd_old=sd_old)
+
     def power_at(self, n_new: int, n_old: int | None) -> float:
         return power_tost(self.delta, self.sd, n_new, n_old, design=self.design, alpha=self.a,
                           low=self.lo, high=self.hi, sd_old=self.sd_old)
@@ -463,9 +518,15 @@ class _TostSize(_Search):
                        - t_cdf((self.lo - self.delta) / tau + c, df))
 
     def own_case(self, n_new: object, n_old: object) -> tuple:
-        """(delta, low, high, tau, df, alpha) of the power at the question's own lot sizes: the
-        count checks of :func:`~verify.stats.power_of_tests._plan` (ValueError as there), its
-        other checks made in __init__ already."""
+        """(delta, low, high, tau, df, alpha) of the power at the question's own lot sizes (those
+        of :meth:`own_sizes`)."""
+        tau, df = self._tau_df(*self.own_sizes(n_new, n_old))
+        return self.delta, self.lo, self.hi, tau, df, self.a
+
+    def own_sizes(self, n_new: object, n_old: object) -> tuple[int, int | None]:
+        """The question's own (n_new, n_old) by the count checks of
+        :func:`~verify.stats.power_of_tests._plan` (ValueError as there), its other checks made
+        in __init__ already."""
         n1 = _count(n_new, "n_new")
         if self.design in ("one-sample", "paired"):
             if n_old is not None and (self.design == "one-sample"
@@ -476,8 +537,7 @@ class _TostSize(_Search):
             raise ValueError(f"the {self.design} design needs n_old")
         else:
             n2 = _count(n_old, "n_old")
-        tau, df = self._tau_df(n1, n2)
-        return self.delta, self.lo, self.hi, tau, df, self.a
+        return n1, n2
 
     def case(self, n: int) -> tuple:
         """(delta, low, high, tau, df, alpha) of the exact power at n_new = n."""
