@@ -486,3 +486,22 @@ def test_frozen_finds_a_remembered_array_by_the_memo_as_by_its_flags(monkeypatch
     assert _memo.frozen(x) is (not x.flags.writeable and x.flags.owndata) is True
     assert not _memo.frozen(writeable) and _memo.recall("mean_sd", writeable) is None
     assert not _memo.frozen(x.tolist()) and not _memo.frozen(None)
+
+
+def test_known_is_every_topic_recall_finds(monkeypatch):
+    # the shortcut: one lookup for several topics of a sample; the plain route is recall(),
+    # topic by topic
+    monkeypatch.setattr(_memo, "_CACHE", {})
+    a, b = _memo.freeze(np.arange(3.0)), _memo.freeze(np.arange(4.0))
+    w = np.arange(3.0)
+    _memo.remember("mean_sd", a, (3, 1.0, 1.0))
+    _memo.remember("finite", a, True)
+    _memo.remember("finite", w, True)  # (writeable: never remembered)
+    assert _memo.known(b) is None and _memo.known(w) is None and _memo.known(None) is None
+    assert _memo.known(a.copy()) is None  # an equal array is another array
+    t = _memo.known(a)
+    for topic in ("mean_sd", "finite", "one_way"):
+        assert t.get(topic) == _memo.recall(topic, a)
+    assert _memo.known(a) is _memo.topics(a)  # the memo's own entry
+    _memo.forget()
+    assert _memo.known(a) is None

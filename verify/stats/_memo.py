@@ -53,6 +53,16 @@ def recall(topic: str, x: object):
     return None
 
 
+def known(x: object) -> dict[str, object] | None:
+    """Everything remembered of ``x`` by topic (the memo's own dict: read it, never change it),
+    or None when nothing is: one lookup for a reader that wants several topics of a sample,
+    ``known(x).get(topic)`` being ``recall(topic, x)``."""
+    hit = _CACHE.get(id(x))
+    if hit is not None and hit[0] is x:
+        return hit[1]
+    return None
+
+
 def remember(topic: str, x: object, value: object) -> None:
     """Remember ``value`` as the ``topic`` of ``x`` if it is a frozen array (else nothing)."""
     hit = _CACHE.get(id(x))
