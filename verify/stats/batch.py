@@ -488,8 +488,13 @@ def _signed_ranks(rows: list[tuple[np.ndarray, float]], n: int) -> None:
     estimates = [None] * len(rows)
     if n * (n + 1) // 2 <= nonparametric.HL_MAX_PAIRS:  # the Walsh averages of all n
         i, j = nonparametric._upper_pairs(n)
-        estimates = _row_medians((d[:, i] + d[:, j]) / 2.0,
-                                 row=lambda r: (d[r][i] + d[r][j]) / 2.0)
+        # (d_i + d_j) / 2.0 element by element, summed and halved in place: without the
+        # temporaries, each the size of all rows' averages (a few hundred kB), whose allocation
+        # and first touch cost several times the arithmetic
+        walsh = d[:, i]  # (fancy indexing: a new array)
+        walsh += d[:, j]
+        walsh /= 2.0
+        estimates = _row_medians(walsh, row=lambda r: (d[r][i] + d[r][j]) / 2.0)
     # all rows ranked together, each row's zeros left out (as the one-sample route drops them)
     _, flat, ranks, (groups, tied_values, tie_term) = _sorted_ranks(np.abs(units),
                                                                     skip_zeros=True)
