@@ -505,3 +505,23 @@ def test_known_is_every_topic_recall_finds(monkeypatch):
     assert _memo.known(a) is _memo.topics(a)  # the memo's own entry
     _memo.forget()
     assert _memo.known(a) is None
+
+
+def test_hold_is_freeze_with_the_array_known_to_the_memo(monkeypatch):
+    # the shortcut: a gathered sample entered in the memo when frozen; the plain route is
+    # freeze(), after which frozen() reads the flags and the first remember() enters it
+    monkeypatch.setattr(_memo, "_CACHE", {})
+    base = np.arange(6.0)
+    for x in (np.arange(4.0), base[1:4]):  # one owning its data, one view (copied)
+        held, plain = _memo.hold(x.copy() if x.base is None else x), _memo.freeze(x.copy())
+        assert held.tobytes() == plain.tobytes() and held.dtype == plain.dtype
+        assert not held.flags.writeable and held.flags.owndata
+        assert _memo.frozen(held) and _memo.frozen(plain)
+        assert _memo.known(held) == {} and _memo.known(plain) is None
+        assert _memo.recall("mean_sd", held) is None
+        _memo.remember("mean_sd", held, "H")
+        assert _memo.hold(held) is held and _memo.recall("mean_sd", held) == "H"  # kept
+    assert base.flags.writeable  # a view's base is left as it was
+    monkeypatch.setattr(_memo, "MAX_ENTRIES", 2)
+    _memo.hold(np.ones(3))  # a third array: the cap empties the memo first
+    assert len(_memo._CACHE) == 1

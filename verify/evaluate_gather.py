@@ -23,7 +23,7 @@ from .model import DiagnosticResult, Measurements, ProcessSummary
 from .spec_model import Characteristic, Spec
 from .stats import _memo, distributions
 from .stats import variance_components as vc
-from .stats._memo import freeze
+from .stats._memo import hold
 from .stats.core import mean_sd
 from .stats.limits import BeyondLimits, beyond_limits_many
 from .stats.samples import group_codes
@@ -236,11 +236,11 @@ def _stream(spec: Spec, meas: Measurements, name: str, ch: Characteristic, part_
     instead of deriving it again for each check and diagnostic)."""
     if part_spec is spec:  # analysed per part: the units are the parts (analysis_values')
         values, lots = part_values(meas, ch.name, name)
-        values = freeze(values)
+        values = hold(values)  # (frozen, and known to the memo from the start)
         return Stream(name, values, values, lots)  # (by position: name, values, parts, lots)
     units = analysis_values(meas, spec, ch.name, name)  # lot means
     parts = analysis_values(meas, part_spec, ch.name, name)
-    return Stream(name=name, values=freeze(units.values), parts=freeze(parts.values),
+    return Stream(name=name, values=hold(units.values), parts=hold(parts.values),
                   lots=tuple(parts.lots))
 
 

@@ -108,3 +108,16 @@ def freeze(x: np.ndarray) -> np.ndarray:
     # gathered sample
     x.setflags(write=False)
     return x
+
+
+def hold(x: np.ndarray) -> np.ndarray:
+    """:func:`freeze`, the frozen array entered in the memo at once (nothing remembered of it
+    yet): the batched pass that meets each gathered sample first then finds it frozen by one
+    lookup (:func:`frozen`, :func:`topics`), as its flags say it is, rather than reading its
+    flags twice (a new flags object each time) before it remembers anything of it."""
+    x = freeze(x)
+    if id(x) not in _CACHE:
+        if len(_CACHE) >= MAX_ENTRIES:
+            _CACHE.clear()
+        _CACHE[id(x)] = (x, {})
+    return x
