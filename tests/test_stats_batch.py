@@ -324,23 +324,24 @@ def test_resolution_read_off_the_rank_sums_equals_the_one_sample_route(monkeypat
     pairs.append((bad, rng.normal(0.0, 1.0, 20)))  # non-finite: the one-sample route's error
     frozen = [(_memo.freeze(a.copy()), _memo.freeze(b.copy())) for a, b in pairs]
     spare = (_memo.freeze(rng.normal(5.0, 1.0, 20)), _memo.freeze(rng.normal(5.0, 1.0, 20)))
-    answered = []
-    real = batch._answer_resolutions
+    apart = []  # the tuples whose resolution is computed apart (batch._resolution_rows)
+    real = batch._resolution_rows
 
-    def counting(rows, answer, *rest):
-        answered.extend(a for (a, _), yes in zip(rows, answer, strict=True) if yes)
-        return real(rows, answer, *rest)
+    def counting(rows, n):
+        apart.extend(rows)
+        return real(rows, n)
 
-    monkeypatch.setattr(batch, "_answer_resolutions", counting)
+    monkeypatch.setattr(batch, "_resolution_rows", counting)
     _memo.forget()
     try:
-        # every pair a rank-sum request but the spare, whose resolution is computed apart
+        # every pair a rank-sum request but the spare, whose resolution is computed apart with
+        # the rows the rank sums leave out (of one value; all zero or non-finite: those left to
+        # the one-sample route)
         batch.prefetch_ranks([("rank_sum", a, b) for a, b in frozen],
                              joined=[*frozen, spare, (frozen[0][1],)])
-        # (two rows of one value each are answered without a sort: 10.0 and 2.5)
-        assert len(answered) == 6 and all(a is not spare[0] for a in answered)
+        expected = [frozen[3][0], frozen[5][0], frozen[6][0], frozen[9][0], spare[0]]
+        assert len(apart) == 5 and all(r[0] is x for r, x in zip(apart, expected, strict=True))
         assert sum(_memo.recall("resolution", a) is not None for a, _ in frozen) == 8
-        # (the spare computed apart, with the rows the rank sums left to the one-sample route)
         assert _memo.recall("resolution", spare[0]) is not None
         for (a, b), f in zip([*pairs, spare], [*frozen, spare], strict=True):
             for tol in (None, 0.1, 3.0):
