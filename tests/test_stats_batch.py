@@ -302,6 +302,59 @@ def test_batched_resolution_equals_the_one_sample_route():
     _memo.forget()
 
 
+def test_resolution_read_off_the_rank_sums_equals_the_one_sample_route(monkeypatch):
+    # the resolution of an (old, new) pair that is also a rank-sum request comes from that
+    # request's snapped and sorted values (batch._answer_resolutions): it is the one-sample
+    # route's on the joined values, for rows of ties, of one value, of signed zeros, and for
+    # rows the rank sums leave out (non-finite, all zero: the one-sample route's own)
+    from verify.stats import nonparametric
+    from verify.stats.resolution import resolution, resolution_of
+
+    rng = np.random.default_rng(29)
+    pairs = [(np.round(rng.normal(10.0, 0.01, 20), d), np.round(rng.normal(10.0, 0.01, 20), d))
+             for d in (4, 3, 2, 1, 2)]
+    pairs.append((np.full(20, 2.5), np.full(20, 2.5)))  # one distinct value: no step
+    pairs.append((np.zeros(20), np.zeros(20)))  # all zero: left to the one-sample route
+    signed = np.round(rng.normal(0.0, 1.0, 20), 1)
+    signed[::3] = -0.0
+    pairs.append((signed, np.where(signed == 0.0, 0.0, -signed)))  # zeros of both signs
+    pairs.append((np.array([0.1, 0.2, 0.30000000000000004] * 5 + [0.3] * 5), np.full(20, 0.3)))
+    bad = rng.normal(0.0, 1.0, 20)
+    bad[3] = np.inf
+    pairs.append((bad, rng.normal(0.0, 1.0, 20)))  # non-finite: the one-sample route's error
+    frozen = [(_memo.freeze(a.copy()), _memo.freeze(b.copy())) for a, b in pairs]
+    spare = (_memo.freeze(rng.normal(5.0, 1.0, 20)), _memo.freeze(rng.normal(5.0, 1.0, 20)))
+    apart = []  # the tuples whose resolution is computed apart (batch._resolution_rows)
+    real = batch._resolution_rows
+
+    def counting(rows, n):
+        apart.extend(rows)
+        return real(rows, n)
+
+    monkeypatch.setattr(batch, "_resolution_rows", counting)
+    _memo.forget()
+    try:
+        # every pair a rank-sum request but the spare, whose resolution is computed apart with
+        # the rows the rank sums leave out (of one value; all zero or non-finite: those left to
+        # the one-sample route)
+        batch.prefetch_ranks([("rank_sum", a, b) for a, b in frozen],
+                             joined=[*frozen, spare, (frozen[0][1],)])
+        expected = [frozen[3][0], frozen[5][0], frozen[6][0], frozen[9][0], spare[0]]
+        assert len(apart) == 5 and all(r[0] is x for r, x in zip(apart, expected, strict=True))
+        assert sum(_memo.recall("resolution", a) is not None for a, _ in frozen) == 8
+        assert _memo.recall("resolution", spare[0]) is not None
+        for (a, b), f in zip([*pairs, spare], [*frozen, spare], strict=True):
+            for tol in (None, 0.1, 3.0):
+                assert _batched(resolution_of, f, tolerance=tol) == \
+                    _plain(resolution, np.concatenate([a, b]), tolerance=tol)
+        # the rank sums themselves are unchanged by it
+        for (a, b), f in zip(pairs, frozen, strict=True):
+            assert _batched(lambda pair: nonparametric.mann_whitney(*pair), f) == \
+                _plain(lambda x, b=b: nonparametric.mann_whitney(x, np.array(b, dtype=float)), a)
+    finally:
+        _memo.forget()
+
+
 @pytest.mark.parametrize("n", [3, 7, 8, 30, 90, 500])
 @pytest.mark.parametrize("alternative", ["two-sided", "less", "greater"])
 def test_grubbs_pvalues_equal_the_scalar_route(n, alternative):

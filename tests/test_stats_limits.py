@@ -123,3 +123,25 @@ def test_many_at_once_is_one_at_a_time_bit_for_bit():
     for a, b in zip(many, one, strict=True):
         assert vars(a) == vars(b)  # equal floats: the same bits (none is NaN here)
         assert [type(x) for x in vars(a).values()] == [type(x) for x in vars(b).values()]
+
+
+def test_many_at_once_reads_a_remembered_mean_and_sd_as_mean_sd_does():
+    # the batch reads each sample's remembered summary (the memo's, by one lookup) where it is
+    # known: the plain route is beyond_limits, whose mean_sd recalls the same tuple
+    from verify.stats import _memo
+    from verify.stats.core import mean_sd
+    from verify.stats.limits import beyond_limits_many
+
+    rng = np.random.default_rng(8)
+    samples = [_frozen_finite(rng.normal(10.0, 0.02, 20)) for _ in range(6)]
+    try:
+        for v in samples[::2]:
+            mean_sd(v)  # remembered for half of them: the others' computed in the batch
+        lower, upper = [9.97] * 6, [10.02] * 6
+        many = beyond_limits_many(samples, lower=lower, upper=upper, distribution=["normal"] * 6)
+        _memo.forget()
+        one = [beyond_limits(v, lower=9.97, upper=10.02) for v in samples]
+    finally:
+        _memo.forget()
+    assert [vars(a) for a in many] == [vars(b) for b in one]
+    assert sum(r.total for r in one) > 0

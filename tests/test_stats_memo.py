@@ -489,3 +489,42 @@ def test_frozen_finds_a_remembered_array_by_the_memo_as_by_its_flags(monkeypatch
     assert _memo.frozen(x) is (not x.flags.writeable and x.flags.owndata) is True
     assert not _memo.frozen(writeable) and _memo.recall("mean_sd", writeable) is None
     assert not _memo.frozen(x.tolist()) and not _memo.frozen(None)
+
+
+def test_known_is_every_topic_recall_finds(monkeypatch):
+    # the shortcut: one lookup for several topics of a sample; the plain route is recall(),
+    # topic by topic
+    monkeypatch.setattr(_memo, "_CACHE", {})
+    a, b = _memo.freeze(np.arange(3.0)), _memo.freeze(np.arange(4.0))
+    w = np.arange(3.0)
+    _memo.remember("mean_sd", a, (3, 1.0, 1.0))
+    _memo.remember("finite", a, True)
+    _memo.remember("finite", w, True)  # (writeable: never remembered)
+    assert _memo.known(b) is None and _memo.known(w) is None and _memo.known(None) is None
+    assert _memo.known(a.copy()) is None  # an equal array is another array
+    t = _memo.known(a)
+    for topic in ("mean_sd", "finite", "one_way"):
+        assert t.get(topic) == _memo.recall(topic, a)
+    assert _memo.known(a) is _memo.topics(a)  # the memo's own entry
+    _memo.forget()
+    assert _memo.known(a) is None
+
+
+def test_hold_is_freeze_with_the_array_known_to_the_memo(monkeypatch):
+    # the shortcut: a gathered sample entered in the memo when frozen; the plain route is
+    # freeze(), after which frozen() reads the flags and the first remember() enters it
+    monkeypatch.setattr(_memo, "_CACHE", {})
+    base = np.arange(6.0)
+    for x in (np.arange(4.0), base[1:4]):  # one owning its data, one view (copied)
+        held, plain = _memo.hold(x.copy() if x.base is None else x), _memo.freeze(x.copy())
+        assert held.tobytes() == plain.tobytes() and held.dtype == plain.dtype
+        assert not held.flags.writeable and held.flags.owndata
+        assert _memo.frozen(held) and _memo.frozen(plain)
+        assert _memo.known(held) == {} and _memo.known(plain) is None
+        assert _memo.recall("mean_sd", held) is None
+        _memo.remember("mean_sd", held, "H")
+        assert _memo.hold(held) is held and _memo.recall("mean_sd", held) == "H"  # kept
+    assert base.flags.writeable  # a view's base is left as it was
+    monkeypatch.setattr(_memo, "MAX_ENTRIES", 2)
+    _memo.hold(np.ones(3))  # a third array: the cap empties the memo first
+    assert len(_memo._CACHE) == 1

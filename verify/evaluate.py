@@ -69,12 +69,14 @@ def _evaluate(spec: Spec, measurements: Measurements, final: bool, run: RunInfo)
         # and the one-way analyses of their lots, which the process summaries read
         batch.prefetch([x for d in measured for st in (d.data.reference, d.data.candidate)
                         for x in (st.values, st.parts)],
-                       in_lots=[q for d in measured for q in samples_in_lots(d)],
-                       joined=[joined_parts(d) for d in measured])
+                       in_lots=[q for d in measured for q in samples_in_lots(d)])
         summarize(measured)
-        # and the rank statistics the kinds' companions will ask for (their hooks say which)
+        # and the rank statistics the kinds' companions will ask for (their hooks say which),
+        # with the resolutions of the joined parts (a rank-sum request of the same old and new
+        # parts snaps and sorts the same joined values: its sort gives the resolution too)
         batch.prefetch_ranks([q for d in measured for k in d.applicable()
-                              for q in _rank_requests(k, d.inp)])
+                              for q in _rank_requests(k, d.inp)],
+                             joined=[joined_parts(d) for d in measured])
         drafts = [draft_characteristic(spec, measurements, d) for d in gathered]
         complete_batches(drafts)
         family, excluded = adjust(drafts, spec.multiplicity, spec.alpha)

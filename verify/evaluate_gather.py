@@ -23,7 +23,7 @@ from .model import DiagnosticResult, Measurements, ProcessSummary
 from .spec_model import Characteristic, Spec
 from .stats import _memo, distributions
 from .stats import variance_components as vc
-from .stats._memo import freeze
+from .stats._memo import hold
 from .stats.core import mean_sd
 from .stats.limits import BeyondLimits, beyond_limits_many
 from .stats.samples import group_codes
@@ -77,40 +77,50 @@ def applicable(ch: Characteristic) -> list[CheckKind]:
     return list(_declared(ch)[0])
 
 
-def _applicable(ch: Characteristic, registry: tuple[CheckKind, ...]) -> list[CheckKind]:
-    measures = "pass_fail" if ch.pass_fail else "measured"
-    return [k for k in registry
-            if k.measures == measures and getattr(ch.checks, k.name, None) is not None]
+# id(registry) -> (the registry, (kind, its name, its measure, its pairs_role hook or None)
+# of each kind): what _declared reads of the registry, gathered once per registry
+_PLANS: dict[int, tuple] = {}
 
 
-def _pair_roles(ch: Characteristic, kinds: list[CheckKind]) -> frozenset[str]:
-    """The roles of the matched pairs the kinds' settings run them in (``pairs_role``: for
-    data.pair declared), none when no kind runs on pairs."""
-    roles = set()
-    for k in kinds:
-        role_of = compute_hook_fn(k, "pairs_role")
-        if role_of is not None and (r := role_of(k, getattr(ch.checks, k.name))) is not None:
-            roles.add(r)
-    return frozenset(roles)
+def _plan(registry: tuple[CheckKind, ...]) -> tuple:
+    hit = _PLANS.get(id(registry))
+    if hit is None or hit[0] is not registry:
+        if len(_PLANS) >= 8:
+            _PLANS.clear()
+        hit = _PLANS[id(registry)] = (registry, tuple(
+            (k, k.name, k.measures, compute_hook_fn(k, "pairs_role")) for k in registry))
+    return hit[1]
 
 
-# id(ch) -> (ch, the registry, _applicable(ch, registry), _pair_roles of those)
+# id(ch) -> (ch, the registry, the kinds that apply, the roles of their matched pairs)
 _DECLARED: dict[int, tuple] = {}
 
 
 def _declared(ch: Characteristic) -> tuple[tuple[CheckKind, ...], frozenset[str]]:
-    """:func:`_applicable` and :func:`_pair_roles` of ``ch``, worked out once per
-    characteristic rather than once per evaluation: both read only the characteristic (a
-    frozen spec object, held by the entry so that its id stays its) and the registry of kinds
-    (the entry's own: a registry loaded anew is looked at anew) with its hooks, which do not
-    change while verify runs (as :func:`compute_hook_fn` has it)."""
+    """The kinds of check that run for ``ch`` (those its spec declares, of its measure, in the
+    registry's order) and the roles of the matched pairs their settings run them in (each
+    kind's ``pairs_role`` hook: for data.pair declared; none when no kind runs on pairs).
+    Worked out once per characteristic rather than once per evaluation: both read only the
+    characteristic (a frozen spec object, held by the entry so that its id stays its) and the
+    registry of kinds (the entry's own: a registry loaded anew is looked at anew) with its
+    hooks, which do not change while verify runs (as :func:`compute_hook_fn` has it); each
+    kind's name, measure and hook are read once per registry (:func:`_plan`), as fresh
+    specs (a nightly run's) meet each characteristic once."""
     registry = kinds()
     hit = _DECLARED.get(id(ch))
     if hit is None or hit[0] is not ch or hit[1] is not registry:
         if len(_DECLARED) >= 4096:
             _DECLARED.clear()
-        found = _applicable(ch, registry)
-        hit = _DECLARED[id(ch)] = (ch, registry, tuple(found), _pair_roles(ch, found))
+        measures = "pass_fail" if ch.pass_fail else "measured"
+        checks = ch.checks
+        found: list[CheckKind] = []
+        roles = set()
+        for k, name, measure, role_of in _plan(registry):
+            if measure == measures and (conf := getattr(checks, name, None)) is not None:
+                found.append(k)
+                if role_of is not None and (r := role_of(k, conf)) is not None:
+                    roles.add(r)
+        hit = _DECLARED[id(ch)] = (ch, registry, tuple(found), frozenset(roles))
     return hit[2], hit[3]
 
 
@@ -226,11 +236,11 @@ def _stream(spec: Spec, meas: Measurements, name: str, ch: Characteristic, part_
     instead of deriving it again for each check and diagnostic)."""
     if part_spec is spec:  # analysed per part: the units are the parts (analysis_values')
         values, lots = part_values(meas, ch.name, name)
-        values = freeze(values)
+        values = hold(values)  # (frozen, and known to the memo from the start)
         return Stream(name, values, values, lots)  # (by position: name, values, parts, lots)
     units = analysis_values(meas, spec, ch.name, name)  # lot means
     parts = analysis_values(meas, part_spec, ch.name, name)
-    return Stream(name=name, values=freeze(units.values), parts=freeze(parts.values),
+    return Stream(name=name, values=hold(units.values), parts=hold(parts.values),
                   lots=tuple(parts.lots))
 
 

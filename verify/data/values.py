@@ -94,9 +94,15 @@ def part_values(measurements: Measurements, characteristic_name: str, process: s
     names (an unknown characteristic or process has no values)."""
     ix = _analysis_index(measurements.table)
     lo, hi = ix.groups.get((characteristic_name, process), (0, 0))
-    lots = tuple(ix.lot[lo:hi].tolist())
-    if ix.interned is not None:  # text lots: equal tuples are one object (see _Index)
-        lots = ix.interned.setdefault(lots, lots)
+    if ix.interned is None:
+        return ix.value[lo:hi].copy(), tuple(ix.lot[lo:hi].tolist())
+    # text lots: equal tuples are one object (see _Index), found by the lots' codes (one text
+    # per code: equal codes, equal texts) without making and hashing a tuple of text first
+    codes = ix.lot_codes[lo:hi]
+    key = codes.tobytes()
+    lots = ix.interned.get(key)
+    if lots is None:
+        lots = ix.interned[key] = tuple(ix.lot_names[codes].tolist())
     return ix.value[lo:hi].copy(), lots
 
 
@@ -115,22 +121,32 @@ class _Index:
     text are interchangeable (equal only if the same text); labels of other types are not
     (1, 1.0 and True are equal, their text is not), so those tuples are each their own."""
 
-    __slots__ = ("value", "lot", "order", "source_row", "groups", "interned", "_table", "_rows",
-                 "_pair", "_stream")
+    __slots__ = ("value", "lot_names", "lot_codes", "order", "source_row", "groups", "interned",
+                 "_lot", "_table", "_rows", "_pair", "_stream")
 
     def __init__(self, table: pd.DataFrame, cols: _Columns, rows: np.ndarray, groups: dict,
                  order: np.ndarray, source_row: np.ndarray) -> None:
         self._table, self._rows, self._pair, self._stream = table, rows, None, None
         self.value = cols.value[rows]
         if cols.lot_text is None:
-            self.lot = table["lot"].to_numpy(dtype=object)[rows]
-            self.interned = None
-        else:  # _text_objects' array, the rows' codes taken first (one take of objects)
-            self.lot = cols.lot_text[0][cols.lot_text[1][rows]]  # object array of str
-            self.interned = {}
+            self._lot = table["lot"].to_numpy(dtype=object)[rows]
+            self.lot_names = self.lot_codes = self.interned = None
+        else:  # text lots: each row's code into the distinct texts (lot: the texts, on demand)
+            self._lot = None
+            self.lot_names = cols.lot_text[0]  # object array of str, each text once
+            self.lot_codes = cols.lot_text[1][rows]
+            self.interned = {}  # the lots' codes as bytes -> their tuple of text
         self.order = order  # (of the rows given, in their order)
         self.source_row = source_row
         self.groups = groups  # (characteristic, process) -> (start, stop)
+
+    @property
+    def lot(self) -> np.ndarray:
+        """The lot of each measurement (object array; of str for text lots: _text_objects'
+        array, the rows' codes taken first)."""
+        if self._lot is None:
+            self._lot = self.lot_names[self.lot_codes]
+        return self._lot
 
     @property
     def pair(self) -> np.ndarray:
@@ -166,21 +182,42 @@ def _analysis_index(table: pd.DataFrame) -> _Index:
         rows = np.flatnonzero(used)
         code, order, source_row = code[rows], order[rows], source_row[rows]
     # one stable sort: by group, then production order, then source row (ties keep table order)
-    sort = np.lexsort((source_row, order, code))
+    sort = np.arange(code.size) if _in_order(code, order, source_row) \
+        else np.lexsort((source_row, order, code))
     code_sorted = code[sort]
     starts = np.flatnonzero(np.concatenate(([True], code_sorted[1:] != code_sorted[:-1]))) \
         if code_sorted.size else np.zeros(0, dtype=np.intp)
     stops = np.append(starts[1:], code_sorted.size)
-    groups = {}
-    for a, b, c in zip(starts.tolist(), stops.tolist(), code_sorted[starts].tolist(),
-                       strict=True):
-        groups[(str(char_names[c // width]), str(proc_names[c % width]))] = (a, b)
+    # (characteristic, process) -> (start, stop), in the groups' order: each name made text
+    # once, not once per group, and the pairs zipped at C speed (the same keys and slices as
+    # one (str(name), str(name)) -> (start, stop) per group)
+    first = code_sorted[starts]
+    chars = list(map(str, char_names)).__getitem__
+    procs = list(map(str, proc_names)).__getitem__
+    groups = dict(zip(zip(map(chars, (first // width).tolist()),
+                          map(procs, (first % width).tolist()), strict=True),
+                      zip(starts.tolist(), stops.tolist(), strict=True), strict=True))
     index = _Index(table, cols, sort if rows is None else rows[sort], groups, order[sort],
                    source_row[sort])
     if len(_INDEX_CACHE) >= 8:
         _INDEX_CACHE.clear()
     _INDEX_CACHE[id(table)] = (table, index)
     return index
+
+
+def _in_order(code: np.ndarray, order: np.ndarray, source_row: np.ndarray) -> bool:
+    """Whether the rows are already sorted by (code, order, source_row), each pair of
+    neighbours in order: then the stable sort, ``np.lexsort((source_row, order, code))``, is
+    the identity (equal keys keep their places), which the loading's rows, sorted by
+    characteristic in production order, usually are (a check costs a fraction of the sort)."""
+    if code.size < 2:
+        return True
+    c0, c1 = code[:-1], code[1:]
+    o0, o1 = order[:-1], order[1:]
+    # the first key rises, or stays and the second rises, or both stay and the third does not
+    # fall
+    ok = (c1 > c0) | ((c1 == c0) & ((o1 > o0) | ((o1 == o0) & (source_row[1:] >= source_row[:-1]))))
+    return bool(np.logical_and.reduce(ok))
 
 
 class _Columns(NamedTuple):

@@ -53,6 +53,16 @@ def recall(topic: str, x: object):
     return None
 
 
+def known(x: object) -> dict[str, object] | None:
+    """Everything remembered of ``x`` by topic (the memo's own dict: read it, never change it),
+    or None when nothing is: one lookup for a reader that wants several topics of a sample,
+    ``known(x).get(topic)`` being ``recall(topic, x)``."""
+    hit = _CACHE.get(id(x))
+    if hit is not None and hit[0] is x:
+        return hit[1]
+    return None
+
+
 def remember(topic: str, x: object, value: object) -> None:
     """Remember ``value`` as the ``topic`` of ``x`` if it is a frozen array (else nothing)."""
     hit = _CACHE.get(id(x))
@@ -97,4 +107,17 @@ def freeze(x: np.ndarray) -> np.ndarray:
     # the same flag cleared): called directly it costs a fraction, which matters once per
     # gathered sample
     x.setflags(write=False)
+    return x
+
+
+def hold(x: np.ndarray) -> np.ndarray:
+    """:func:`freeze`, the frozen array entered in the memo at once (nothing remembered of it
+    yet): the batched pass that meets each gathered sample first then finds it frozen by one
+    lookup (:func:`frozen`, :func:`topics`), as its flags say it is, rather than reading its
+    flags twice (a new flags object each time) before it remembers anything of it."""
+    x = freeze(x)
+    if id(x) not in _CACHE:
+        if len(_CACHE) >= MAX_ENTRIES:
+            _CACHE.clear()
+        _CACHE[id(x)] = (x, {})
     return x

@@ -167,14 +167,21 @@ def _resolution_rows(rows: list[tuple], n: int) -> None:
     x = _stack([x for parts in rows for x in parts], len(rows), n)  # each row its parts joined
     units, ok, quanta = _snapped(x)
     ok &= np.logical_and.reduce(np.isfinite(x), axis=1)
-    s = np.sort(units, axis=1)
+    _remember_steps(rows, ok.tolist(), np.sort(units, axis=1), quanta)
+
+
+def _remember_steps(rows: list[tuple], good: list[bool], s: np.ndarray, quanta: list) -> None:
+    """The resolution of each tuple of ``rows`` that is ``good`` from its joined values snapped
+    and sorted (``s``; the order of equal values changes no gap): the nonzero gaps counted and
+    the smallest taken (exact whatever the order), remembered for the tuple's first sample."""
+    n = s.shape[1]
     gaps = s[:, 1:] - s[:, :-1]
     nonzero = gaps != 0
     distinct = (np.add.reduce(nonzero, axis=1) + 1).tolist()
     smallest = np.minimum.reduce(np.where(nonzero, gaps, np.inf), axis=1).tolist()
-    for parts, good, count, step, quantum in zip(rows, ok.tolist(), distinct, smallest, quanta,
-                                                 strict=True):
-        if good:
+    for parts, yes, count, step, quantum in zip(rows, good, distinct, smallest, quanta,
+                                                strict=True):
+        if yes:
             _memo.remember("resolution", parts[0], (parts[1:], (
                 n, count, None if count < 2 else step_from_units(step, quantum))))
 
@@ -349,8 +356,9 @@ def _grubbs(memo, x, m, s, n) -> None:
 # --- rank tests ------------------------------------------------------------------------------
 
 
-def prefetch_ranks(requests) -> None:
-    """Compute and remember the rank-test statistics of many samples together.
+def prefetch_ranks(requests, joined=()) -> None:
+    """Compute and remember the rank-test statistics of many samples together, and the
+    resolutions of ``joined`` (see below).
 
     ``requests`` holds ``("signed_rank", x, target)`` (the signed-rank test of ``x - target``,
     zeros dropped: :func:`~verify.stats.nonparametric.signed_rank_about`) and
@@ -360,6 +368,9 @@ def prefetch_ranks(requests) -> None:
     read-only samples; anything else, and any row the one-sample route would treat apart
     (non-finite values, differences that are all zero, identical values, values near the
     float floor), is left to the one-sample route.
+
+    ``joined``: as :func:`prefetch`'s; a pair that is also a rank-sum request's (old, new) is
+    read off its joined values, snapped and sorted for the ranks, the others as prefetch does.
     """
     signed: dict[tuple, list] = {}
     pairs: dict[tuple, list] = {}
@@ -381,9 +392,13 @@ def prefetch_ranks(requests) -> None:
     for n, group in signed.items():
         if len(group) >= MIN_ROWS and 2 <= n <= nonparametric.EXACT_MAX_N:
             _signed_ranks(list(group.values()), n)
+    # the resolutions a rank-sum row answers: its pair, joined, read-only and not yet known
+    wanted = {(id(parts[0]), id(parts[1])) for parts in joined
+              if len(parts) == 2 and _memo.recall("resolution", parts[0]) is None}
     for (n_old, n_new), group in pairs.items():
         if len(group) >= MIN_ROWS and n_old >= 1 and n_new >= 1 and n_old + n_new <= EXACT_TIES_N:
-            _rank_sums(list(group.values()), n_old, n_new)
+            _rank_sums(list(group.values()), n_old, n_new, wanted)
+    _resolutions(joined)  # the others (those remembered above are skipped)
     for (n_old, n_new), group in spreads.items():
         if len(group) >= MIN_ROWS and n_old >= 2 and n_new >= 2:
             _brown_forsythe_sums(list(group.values()), n_old, n_new)
@@ -411,7 +426,7 @@ def _sorted_ranks(a: np.ndarray, *, skip_zeros: bool = False):
     in its row and in the rows laid end to end, its average rank (the one-sample route's float),
     and each row's tie counts: the groups of two or more equal values, the values in them, and
     sum(t^3 - t) over its groups of t equal values (an exact integer, below 2^53 for the row
-    lengths batched: :data:`EXACT_TIES_N`). The values of a group of
+    lengths batched: :data:`EXACT_TIES_N`); and the sorted values. The values of a group of
     equal ones share their average rank, so the order among them (which the one-sample route's
     stable sort fixes) changes no rank and no sum of ranks: the sort need not be stable.
 
@@ -438,7 +453,7 @@ def _sorted_ranks(a: np.ndarray, *, skip_zeros: bool = False):
     first_of_tie = tied & new_value
     ties = (np.add.reduce(first_of_tie, axis=1).tolist(), np.add.reduce(tied, axis=1).tolist(),
             np.add.reduce(np.where(first_of_tie, size**3 - size, 0), axis=1))
-    return order, flat, ranks, ties
+    return order, flat, ranks, ties, s
 
 
 def _row_medians(v: np.ndarray, *, row=None) -> list[float]:
@@ -488,11 +503,15 @@ def _signed_ranks(rows: list[tuple[np.ndarray, float]], n: int) -> None:
     estimates = [None] * len(rows)
     if n * (n + 1) // 2 <= nonparametric.HL_MAX_PAIRS:  # the Walsh averages of all n
         i, j = nonparametric._upper_pairs(n)
-        estimates = _row_medians((d[:, i] + d[:, j]) / 2.0,
-                                 row=lambda r: (d[r][i] + d[r][j]) / 2.0)
+        # (d_i + d_j) / 2.0 element by element, in place: the temporaries, each the size of all
+        # rows' averages, cost more to allocate and touch than the arithmetic
+        walsh = d[:, i]  # (fancy indexing: a new array)
+        walsh += d[:, j]
+        walsh /= 2.0
+        estimates = _row_medians(walsh, row=lambda r: (d[r][i] + d[r][j]) / 2.0)
     # all rows ranked together, each row's zeros left out (as the one-sample route drops them)
-    _, flat, ranks, (groups, tied_values, tie_term) = _sorted_ranks(np.abs(units),
-                                                                    skip_zeros=True)
+    _, flat, ranks, (groups, tied_values, tie_term), _ = _sorted_ranks(np.abs(units),
+                                                                       skip_zeros=True)
     # the ranks of the positive differences: halves far below 2^53, a sum exact in any order
     positive = units.ravel()[flat] > 0
     w_plus = np.add.reduce(np.where(positive, ranks, 0.0), axis=1).tolist()
@@ -511,19 +530,31 @@ def _signed_ranks(rows: list[tuple[np.ndarray, float]], n: int) -> None:
             est, "wilcox")))
 
 
-def _rank_sums(rows: list[tuple[np.ndarray, np.ndarray]], n_old: int, n_new: int) -> None:
+def _rank_sums(rows: list[tuple[np.ndarray, np.ndarray]], n_old: int, n_new: int,
+               wanted: set = frozenset()) -> None:
+    """nonparametric._rank_sum_core of each (old, new), and the resolution of those whose
+    ``(id(old), id(new))`` is in ``wanted``: the rows _resolution_rows would snap alike (finite,
+    the usual case, not of one value), sorted here for the ranks: :func:`_remember_steps`."""
     old = _stack([r[0] for r in rows], len(rows), n_old)
     new = _stack([r[1] for r in rows], len(rows), n_new)
     both = np.concatenate((old, new), axis=1)
-    units, ok, _ = _snapped(both)
+    units, ok, quanta = _snapped(both)
     ok &= np.logical_and.reduce(np.isfinite(both), axis=1)
     ok &= ~np.logical_and.reduce(units == units[:, :1], axis=1)  # identical: the one route
+    answer = [good and (id(a), id(b)) in wanted
+              for (a, b), good in zip(rows, ok.tolist(), strict=True)] if wanted else None
     if not ok.any():
         return
     if not ok.all():
+        flags = ok.tolist()
         old, new, units = old[ok], new[ok], units[ok]
-        rows = [r for r, good in zip(rows, ok.tolist(), strict=True) if good]
-    order, _, ranks, (groups, tied_values, tie_term) = _sorted_ranks(units)
+        rows = [r for r, good in zip(rows, flags, strict=True) if good]
+        quanta = [q for q, good in zip(quanta, flags, strict=True) if good]
+        if answer is not None:
+            answer = [yes for yes, good in zip(answer, flags, strict=True) if good]
+    order, _, ranks, (groups, tied_values, tie_term), s = _sorted_ranks(units)
+    if answer is not None and any(answer):
+        _remember_steps(rows, answer, s, quanta)
     # the new values' ranks: halves far below 2^53, a sum exact in any order
     rank_sums = np.add.reduce(np.where(order >= n_old, ranks, 0.0), axis=1)
     u_new = (rank_sums - n_new * (n_new + 1) / 2.0).tolist()

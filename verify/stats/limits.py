@@ -179,10 +179,15 @@ def beyond_limits_many(
     """
     out: list[BeyondLimits | None] = [None] * len(samples)
     by_size: dict[int, list[int]] = {}
+    summaries: dict[int, tuple] = {}  # i -> mean_sd of samples[i], where the memo holds it
     for i, v in enumerate(samples):
-        if (distribution[i] == "normal" and type(v) is np.ndarray and v.ndim == 1
-                and v.size >= 2 and _memo.recall("finite", v) is not None):
+        # what the memo knows of v, in one lookup (it knows only read-only arrays): known
+        # finite, and its mean_sd (core.mean_sd's own recall) where remembered
+        t = _memo.known(v) if distribution[i] == "normal" else None
+        if t is not None and v.ndim == 1 and v.size >= 2 and t.get("finite") is not None:
             by_size.setdefault(v.size, []).append(i)
+            if (ms := t.get("mean_sd")) is not None:
+                summaries[i] = ms
         else:
             out[i] = beyond_limits(v, lower=lower[i], upper=upper[i],
                                    distribution=distribution[i])
@@ -196,7 +201,7 @@ def beyond_limits_many(
         hi_arr = np.array([np.nan if x is None else x for x in hi], dtype=float)
         below = np.count_nonzero(stacked < lo_arr[:, None], axis=1)
         above = np.count_nonzero(stacked > hi_arr[:, None], axis=1)
-        ms = [mean_sd(samples[i]) for i in rows]
+        ms = [summaries.get(i) or mean_sd(samples[i]) for i in rows]
         m = np.array([x[1] for x in ms])
         s = np.array([x[2] for x in ms])
         # the standardised limits of every row, Phi of all of them at once: element by element
