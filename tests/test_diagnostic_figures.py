@@ -8,7 +8,6 @@ error.
 
 from __future__ import annotations
 
-import dataclasses
 import sys
 import tempfile
 from pathlib import Path
@@ -16,6 +15,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from tests.helpers_bits import field_bits
 from verify.stats import _memo, batch, nonparametric, spread
 from verify.stats.errors import StatsError
 
@@ -24,15 +24,6 @@ ALTERNATIVES = ("two-sided", "less", "greater")
 
 def _hex(values):
     return [(type(v), v.hex() if isinstance(v, float) else v) for v in values]
-
-
-def _bits(obj):
-    """Every field of a frozen result as (name, type, value), floats by their exact bits."""
-    out = []
-    for f in dataclasses.fields(obj):
-        v = getattr(obj, f.name)
-        out.append((f.name, type(v), v.hex() if isinstance(v, float) else v))
-    return out
 
 
 def _outcome(fn, *args, **kw):
@@ -235,7 +226,7 @@ def test_companions_are_their_plain_routes(monkeypatch):
                 seen["spread"] += bool(want)
             else:
                 continue
-            assert [_bits(r) for r in got] == [_bits(r) for r in want]
+            assert [field_bits(r) for r in got] == [field_bits(r) for r in want]
         return original(d)
 
     monkeypatch.setattr(evaluate_diagnostics, "companions", checked)
@@ -243,7 +234,6 @@ def test_companions_are_their_plain_routes(monkeypatch):
         spec = load_spec(path)
         evaluate(spec, load_measurements(spec))
     assert seen["location"] >= 24 and seen["spread"] >= 12
-
 
 
 @pytest.mark.parametrize("p", [0.5, 1.0, 0.999999, 5e-324, 1e-300, 0.0, -0.0, -1e-17,

@@ -15,20 +15,12 @@ import re
 import numpy as np
 import pytest
 
+from tests.helpers_bits import field_bits
 from verify.checks.drafting import Comparison, Stream
 from verify.checks.location import compute as location
 from verify.stats import _memo, equivalence, ttests
 from verify.stats.core import mean_sd, require_spread
 from verify.stats.errors import DegenerateDataError
-
-
-def _bits(obj):
-    """Every field of a frozen result as (name, type, value), floats by their exact bits."""
-    out = []
-    for f in dataclasses.fields(obj):
-        v = getattr(obj, f.name)
-        out.append((f.name, type(v), v.hex() if isinstance(v, float) else v))
-    return out
 
 
 def _pairs():
@@ -68,7 +60,7 @@ def test_two_sample_draft_effect_equals_the_plain_route(design, frozen, old, new
         with pytest.raises(DegenerateDataError, match=re.escape(str(err))):
             location._effect(design, None, data)
         return
-    assert _bits(location._effect(design, None, data)) == _bits(want)
+    assert field_bits(location._effect(design, None, data)) == field_bits(want)
     _memo.forget()
 
 
@@ -134,7 +126,7 @@ def test_tost_from_estimate_equals_its_plain_route(estimate, se, df, low, high):
                                            method="TOST (x)")
         return
     got = equivalence.tost_from_estimate(estimate, se, df, low=low, high=high, method="TOST (x)")
-    assert _bits(got) == _bits(want)
+    assert field_bits(got) == field_bits(want)
 
 
 @pytest.mark.parametrize("low, high", [
@@ -253,7 +245,7 @@ def test_f_test_reads_a_remembered_summary_as_the_plain_route_computes_it(frozen
         with pytest.raises(DegenerateDataError, match=re.escape(str(err))):
             spread.f_test(old, new, alternative="greater")
         return
-    assert _bits(spread.f_test(old, new, alternative="greater")) == _bits(want)
+    assert field_bits(spread.f_test(old, new, alternative="greater")) == field_bits(want)
     _memo.forget()
 
 
@@ -307,7 +299,7 @@ def test_two_sided_interval_equals_confidence_interval(estimate, se, df, level):
 
     got = two_sided_interval(estimate, se, df, level)
     want = confidence_interval(estimate, se, df, level=level)
-    assert _bits(got) == _bits(want)
+    assert field_bits(got) == field_bits(want)
     alpha = (1 - level) / 2
     assert t_quantile(1.0 - alpha, df).hex() == critical_value(df, alpha, "greater").hex()
 

@@ -8,7 +8,6 @@ and the comparison is bit for bit: every field's type and, for floats, its exact
 
 from __future__ import annotations
 
-import dataclasses
 import math
 import re
 import tempfile
@@ -17,17 +16,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from tests.helpers_bits import field_bits
 from verify.stats import _memo, equivalence
 from verify.stats.errors import DegenerateDataError, NotApplicableError
-
-
-def _bits(obj):
-    """Every field of a frozen result as (name, type, value), floats by their exact bits."""
-    out = []
-    for f in dataclasses.fields(obj):
-        v = getattr(obj, f.name)
-        out.append((f.name, type(v), v.hex() if isinstance(v, float) else v))
-    return out
 
 
 def _hex(values):
@@ -113,9 +104,10 @@ def test_lot_effect_with_its_lots_remembered_is_the_plain_route(values, lots):
         _memo.forget()
         return
     first, second = _memo.freeze(values.copy()), _memo.freeze(values.copy())
-    assert _bits(lot_effect(first, lots)) == _bits(want)  # the lots looked at and remembered
-    assert _bits(lot_effect(second, lots)) == _bits(want)  # remembered
-    assert _bits(lot_effect(values.copy(), lots)) == _bits(want)  # a writeable sample
+    # the lots looked at and remembered, then read back
+    assert field_bits(lot_effect(first, lots)) == field_bits(want)
+    assert field_bits(lot_effect(second, lots)) == field_bits(want)  # remembered
+    assert field_bits(lot_effect(values.copy(), lots)) == field_bits(want)  # a writeable sample
     _memo.forget()
 
 
@@ -131,7 +123,7 @@ def test_lot_effect_lots_remembered_per_layout_of_lots():
     got = (lot_effect(x, a), lot_effect(y, b))
     _memo.forget()
     want = (lot_effect(x.copy(), list(a)), lot_effect(y.copy(), list(b)))
-    assert [_bits(r) for r in got] == [_bits(r) for r in want]
+    assert [field_bits(r) for r in got] == [field_bits(r) for r in want]
     _memo.forget()
 
 
@@ -150,13 +142,13 @@ def test_resolution_of_remembered_is_the_joined_resolution(tolerance):
     for old, new in rows:
         assert _memo.recall("resolution", old) is not None
         want = resolution(np.concatenate((old, new)), tolerance=tolerance)
-        assert _bits(resolution_of((old, new), tolerance=tolerance)) == _bits(want)
+        assert field_bits(resolution_of((old, new), tolerance=tolerance)) == field_bits(want)
         # other objects than those remembered: computed, not read
         other = new.copy()
-        assert _bits(resolution_of((old, other), tolerance=tolerance)) == _bits(want)
-        assert _bits(resolution_of((old,), tolerance=tolerance)) == _bits(
+        assert field_bits(resolution_of((old, other), tolerance=tolerance)) == field_bits(want)
+        assert field_bits(resolution_of((old,), tolerance=tolerance)) == field_bits(
             resolution(old, tolerance=tolerance))
-        assert _bits(resolution_of((old, new, new), tolerance=tolerance)) == _bits(
+        assert field_bits(resolution_of((old, new, new), tolerance=tolerance)) == field_bits(
             resolution(np.concatenate((old, new, new)), tolerance=tolerance))
     _memo.forget()
 
@@ -260,7 +252,7 @@ def test_one_sample_effect_by_position_is_the_keyword_route():
     n, m, s = mean_sd(x)
     want = ttests._finish("one-sample", m - 10.0, s / math.sqrt(n), float(n - 1), n, None, s,
                           mean_new=m, sd_new=s, target=10.0)
-    assert _bits(ttests.effect("one-sample", x, target=10.0)) == _bits(want)
+    assert field_bits(ttests.effect("one-sample", x, target=10.0)) == field_bits(want)
 
 
 @pytest.mark.parametrize("frozen", [False, True])
@@ -325,5 +317,5 @@ def test_one_sample_draft_effect_equals_ttests_effect(values, target, frozen):
             location._effect("one-sample", ch, data)
         _memo.forget()
         return
-    assert _bits(location._effect("one-sample", ch, data)) == _bits(want)
+    assert field_bits(location._effect("one-sample", ch, data)) == field_bits(want)
     _memo.forget()
