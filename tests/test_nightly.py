@@ -166,6 +166,59 @@ def test_second_run_skips_everything(specs, out):
             assert based.run_id == first.run_id and based.decision == e.decision
 
 
+def test_a_result_recorded_but_never_put_in_place_is_evaluated_again(specs, out):
+    # A run killed after a spec's ledger entry was written and before its staged files were
+    # renamed into place (the next run clears the staged files) leaves an entry naming files
+    # that do not exist: deleting them after a complete run is the same state. That result
+    # cannot stand as UNCHANGED; the spec runs again and says why.
+    first, _, _ = nightly(specs, out)
+    for f in history(out, "bushing"):
+        (out / "bushing" / f).unlink()
+    (out / "bushing" / "latest.json").unlink()
+    second, lines, err = nightly(specs, out)
+    assert states(second) == {"bushing": ("RUN", "PASS"), "housing": ("UNCHANGED", "PENDING")}
+    bushing = next(line for line in lines if "bushing" in line)
+    assert "evaluated again: the files of its last result" in bushing
+    assert f"{first.run_id}-PASS.xlsx" in bushing and "not in place" in bushing
+    assert "bushing: evaluated again" in err
+    assert history(out, "bushing") == [f"{second.run_id}-PASS.{ext}" for ext in ("json", "xlsx")]
+    latest = json.loads((out / "bushing" / "latest.json").read_text(encoding="utf-8"))
+    assert latest["decision"] == "PASS" and latest["ledger"]["head"]
+    third, _, _ = nightly(specs, out)  # in place now: nothing runs
+    assert states(third) == {"bushing": ("UNCHANGED", "PASS"),
+                             "housing": ("UNCHANGED", "PENDING")}
+    with Ledger.open(out / "ledger.sqlite") as led:
+        assert led.integrity() == "ok"
+        (entry,) = [e for e in led.entries(run_id=third.run_id)
+                    if e.spec_path.endswith("bushing.yaml")]
+        assert led.entry(entry.based_on).run_id == second.run_id
+
+
+def test_a_missing_or_stale_latest_json_is_copied_again_from_the_standing_result(specs, out):
+    # killed between renaming the result into place and copying it to latest.json: the copy
+    # is missing (first spec) or still the previous result's (second spec)
+    nightly(specs, out)
+    append_lot(specs, "housing", "N3")
+    nightly(specs, out)
+    (out / "bushing" / "latest.json").unlink()
+    older, newer = sorted((out / "housing").glob("*.json"))[:2]  # run ids sort by time
+    assert older.name != "latest.json" and newer.name != "latest.json"
+    (out / "housing" / "latest.json").write_text(older.read_text(encoding="utf-8"),
+                                                 encoding="utf-8")
+    before = {n: history(out, n) for n in ("bushing", "housing")}
+    third, _, err = nightly(specs, out)
+    assert states(third) == {"bushing": ("UNCHANGED", "PASS"), "housing": ("UNCHANGED", "PASS")}
+    assert {n: history(out, n) for n in before} == before  # nothing evaluated again
+    assert "bushing: latest.json did not match its standing result" in err
+    assert "housing: latest.json did not match its standing result" in err
+    (bushing_js,) = [f for f in history(out, "bushing") if f.endswith(".json")]
+    for folder, standing in (("bushing", bushing_js), ("housing", newer.name)):
+        assert (out / folder / "latest.json").read_text(encoding="utf-8") == (
+            out / folder / standing).read_text(encoding="utf-8")
+    _, _, err = nightly(specs, out)
+    assert "latest.json" not in err  # in step again: nothing to copy
+
+
 def test_the_unchanged_path_imports_no_scipy_or_pandas(specs, out):
     nightly(specs, out)
     code = ("import sys\nfrom verify.cli_nightly import main_for_tests\n"
@@ -445,13 +498,22 @@ def test_sigkill_midway_leaves_no_partial_output_and_the_next_run_continues(tmp_
     with Ledger.open(ledger) as led:
         assert led.integrity() == "ok"
         assert led.runs() == []  # the killed run never completed
-        done = {e.spec_path for e in led.entries()}
+        entries = led.entries()
+    done = {Path(e.spec_path).stem for e in entries}
     assert 3 <= len(done) < n
+    # the kill may land between a spec's ledger entry and the renaming of its files: such a
+    # result is not in place, and the next run evaluates that spec again
+    in_place = {Path(e.spec_path).stem for e in entries
+                if Path(e.workbook_path).is_file() and Path(e.result_path).is_file()}
+    assert len(done - in_place) <= 1  # the parent puts one spec in place at a time
 
     result, _, _ = nightly(folder, out)
     ran = {r.name for r in result.rows if r.state == "RUN"}
     unchanged = {r.name for r in result.rows if r.state == "UNCHANGED"}
-    assert len(unchanged) == len(done) and len(ran) == n - len(done)
+    assert unchanged == in_place and len(ran) == n - len(in_place)
+    for r in result.rows:
+        if r.name in done - in_place:
+            assert any("evaluated again" in c for c in r.changes())
     assert result.exit_status == 0
     assert list(out.rglob("*.part*")) == []  # the next run cleared the leftovers
     for r in result.rows:

@@ -40,6 +40,7 @@ class DigestRow:
     first_result: bool = False  # no previous result to compare with
     error: str | None = None
     workbook: str | None = None
+    rerun_reason: str | None = None  # inputs unchanged, run again: why (its files were missing)
 
     def changes(self) -> list[str]:
         """What changed since the previous result, in words (empty: nothing)."""
@@ -57,7 +58,7 @@ class DigestRow:
             if self.decision != self.previous_decision:
                 out.append(f"decision {self.previous_decision} -> {self.decision}")
             if not out:
-                out.append("inputs changed, same decision")
+                out.append(self.rerun_reason or "inputs changed, same decision")
         if self.standing == "RECORD" and self.state == "RUN":
             out.append(f"decision of record locked: {self.decision}")
         elif self.record:

@@ -19,7 +19,9 @@ a worker process (:mod:`verify.isolation`) under ``--spec-timeout``; a spec whos
 grow without end or kill their worker is ``ERROR`` with the reason, and the others run. Workers
 stop when the parent dies. At start, under the lock, a run removes temporary files left by a
 killed run and moves result files that no ledger entry names into ``<out>/quarantine/<run>/``,
-saying so.
+saying so. A spec whose last result's files are not in place (killed between its entry and
+their renaming) is evaluated again instead of passing as ``UNCHANGED``, and a ``latest.json``
+out of step with the standing result is copied again from it.
 3. **locks the decision of record** of each spec version (its sha256) on the first run at which
    every process has reached ``min_n`` (with no ``min_n``: the first run), or the first run
    given ``--final``. Later runs monitor: their workbooks say "monitoring; decision of record:

@@ -145,6 +145,37 @@ def _commit(entry: Entry, outcome: Outcome, ledger_path: Path) -> str | None:
     return None
 
 
+def _missing_outputs(folder: Path, entry: Entry) -> list[str]:
+    """The files of the recorded result ``entry`` that are not in place in ``folder``.
+
+    A run killed after writing a spec's ledger entry and before renaming its staged files into
+    place leaves an entry that names files no reader can open (the next run clears the staged
+    files): that result cannot stand as UNCHANGED, the spec must be evaluated again. Looked up
+    by file name in the spec's output folder, so a moved output folder still finds its files.
+    """
+    return [Path(p).name for p in (entry.workbook_path, entry.result_path)
+            if p and not (folder / Path(p).name).is_file()]
+
+
+def _refresh_latest(folder: Path, entry: Entry) -> bool:
+    """Make ``latest.json`` a copy of the standing result ``entry`` again, where a killed run
+    left it missing or older (killed between renaming the result and copying it); True when
+    it was rewritten."""
+    from ..runner import write_text_atomic
+
+    if not entry.result_path:
+        return False
+    text = (folder / Path(entry.result_path).name).read_text(encoding="utf-8")
+    latest = folder / "latest.json"
+    try:
+        if latest.read_text(encoding="utf-8") == text:
+            return False
+    except FileNotFoundError:
+        pass
+    write_text_atomic(latest, text)
+    return True
+
+
 def _sweep_strays(ledger: Ledger, out: Path, names: Iterable[str], run_id: str) -> list[str]:
     """Move result files that no ledger entry names into ``<out>/quarantine/<run_id>/``.
 

@@ -23,7 +23,9 @@ from .history import (
     _clean_partials,
     _commit,
     _digest_path,
+    _missing_outputs,
     _output_names,
+    _refresh_latest,
     _sweep_strays,
 )
 from .record import _entry_from, _record_text, _unchanged
@@ -91,9 +93,15 @@ def _triage(ledger: Ledger, ctx: _Context, path: Path, key: str, name: str,
     record = ledger.record(key, fp.spec_sha256)
     newest = ctx.latest.get(key)
     wants_record = ctx.final and record is None  # --final locks a record: it must run
+    rerun_reason = None
     if (last_result is not None and newest is not None and newest.state != "ERROR"
             and fp.matches(last_result.fingerprint) and not wants_record):
-        return _unchanged(ctx.run_id, key, started, last_result)
+        missing = _missing_outputs(ctx.out / name, last_result)
+        if not missing:
+            return _unchanged(ctx.run_id, key, started, last_result)
+        rerun_reason = (f"evaluated again: the files of its last result ({', '.join(missing)}) "
+                        "are not in place (an interrupted run recorded it before putting them "
+                        "in place)")
     previous = ledger.latest_record(key)
     if previous is not None and previous.spec_sha256 == fp.spec_sha256:
         previous = None
@@ -103,7 +111,7 @@ def _triage(ledger: Ledger, ctx: _Context, path: Path, key: str, name: str,
         evaluate_final=ctx.final or bool(record is not None and record.final),
         fingerprint=fp, record=record, previous=previous,
         data_root=str(ctx.root) if ctx.root is not None else None,
-        max_data_mb=ctx.max_data_mb, snapshot=ctx.snapshot)
+        max_data_mb=ctx.max_data_mb, snapshot=ctx.snapshot, rerun_reason=rerun_reason)
 
 
 def _probe_jobs(specs: Sequence[Path], keys: Sequence[str], ctx: _Context) -> list:
@@ -204,7 +212,7 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
                 progress.note(problem)
             rec_text = rec.describe() if rec is not None else _record_text(
                 ledger, entry.record_id)
-            finish(_row(info[task.spec_key], entry, rec_text))
+            finish(_row(info[task.spec_key], entry, rec_text, task.rerun_reason))
 
         # One pool does both passes: every spec is fingerprinted first (light jobs, queued
         # first), and a spec that must run is queued as soon as its fingerprint is judged, so
@@ -232,6 +240,8 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
                                   probe_started[key])
                 triaged_by_key[key] = triaged
                 if isinstance(triaged, Task):
+                    if triaged.rerun_reason is not None:
+                        progress.note(f"{info[key].name}: {triaged.rerun_reason}")
                     tasks.append(triaged)
                     by_key[key] = triaged
                     task_started[key] = _utc()
@@ -245,6 +255,8 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
                     triaged = triaged_by_key[k]
                     if not isinstance(triaged, Task):
                         entry, _ = ledger.append(triaged)
+                        if entry.state == "UNCHANGED":
+                            _restore_latest(out / info[k].name, entry, progress)
                         finish(_row(info[k], entry, _record_text(ledger, entry.record_id)))
                 if tasks:
                     progress.note(f"evaluating {len(tasks)} of {len(specs)} spec(s) in "
@@ -300,7 +312,18 @@ def _host() -> str:
     return socket.gethostname()
 
 
-def _row(spec: _Spec, e: Entry, record_text: str | None):
+def _restore_latest(folder: Path, entry: Entry, progress) -> None:
+    try:
+        if _refresh_latest(folder, entry):
+            progress.note(f"{folder.name}: latest.json did not match its standing result "
+                          f"(an interrupted run); copied again from "
+                          f"{Path(entry.result_path or '').name}")
+    except OSError as exc:
+        progress.note(f"{folder.name}: latest.json could not be refreshed from its standing "
+                      f"result: {exc}")
+
+
+def _row(spec: _Spec, e: Entry, record_text: str | None, rerun_reason: str | None = None):
     from ..digest import DigestRow
 
     prev = spec.previous_result
@@ -314,4 +337,4 @@ def _row(spec: _Spec, e: Entry, record_text: str | None):
         previous_decision=prev.decision if prev is not None else None, standing=e.standing,
         record=record_text, drift=e.drift, drift_note=e.drift_note, new_lots=new_lots,
         first_result=e.state == "RUN" and prev is None, error=e.error,
-        workbook=e.workbook_path)
+        workbook=e.workbook_path, rerun_reason=rerun_reason if e.state == "RUN" else None)

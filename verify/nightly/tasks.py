@@ -35,6 +35,8 @@ class Task:
     data_root: str | None
     max_data_mb: float | None = None
     snapshot: bool = True  # keep data snapshots in <out>/snapshots (--no-snapshot: False)
+    # why a spec whose inputs did not change runs again (its last result's files are missing)
+    rerun_reason: str | None = None
 
 
 @dataclass(frozen=True)
