@@ -281,6 +281,24 @@ def _dimension(ws) -> str:
 _LINKS = "_verify_streamed_hyperlinks"
 
 
+_HEADERS: dict = {}  # a sheet's <headerFooter> element (False: none) by what it says
+_HF_ITEMS = ("oddHeader", "oddFooter", "evenHeader", "evenFooter", "firstHeader",
+             "firstFooter")
+
+
+def _header_footer_key(hf) -> tuple:
+    """Everything a sheet's ``HeaderFooter`` writes: its flags and, for each of its six items,
+    each part's text, font, size and colour."""
+    items = []
+    for name in _HF_ITEMS:
+        item = getattr(hf, name)
+        items.append(None if item is None else tuple(
+            None if part is None else (part.text, part.font, part.size, part.color)
+            for part in (item.left, item.center, item.right)))
+    return (hf.differentOddEven, hf.differentFirst, hf.scaleWithDoc, hf.alignWithMargins,
+            *items)
+
+
 def _worksheet_writer():
     """openpyxl's WorksheetWriter that also finds the hyperlinks of the cells written here.
 
@@ -294,6 +312,20 @@ def _worksheet_writer():
     from openpyxl.xml.functions import Element, SubElement
 
     class Writer(WorksheetWriter):
+        def write_header(self):
+            # openpyxl: ``if hf: send(hf.to_tree())``; the element is built once per distinct
+            # header and footer (every sheet of a workbook has the same footer, and building
+            # its text runs openpyxl's formatting of every part each time)
+            hf = self.ws.HeaderFooter
+            key = _header_footer_key(hf)
+            el = _HEADERS.get(key)
+            if el is None:
+                if len(_HEADERS) >= 1024:
+                    _HEADERS.clear()
+                el = _HEADERS[key] = hf.to_tree() if hf else False
+            if el is not False:
+                self.xf.send(el)
+
         def write_hyperlinks(self):
             self.ws._hyperlinks.extend(getattr(self.ws, _LINKS, ()))
             return super().write_hyperlinks()

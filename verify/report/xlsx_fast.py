@@ -253,6 +253,86 @@ def _in_memory_writer(worksheet_writer=None):
     from openpyxl.writer.excel import ExcelWriter
 
     class InMemory(ExcelWriter):
+        def write_data(self):
+            # openpyxl 3.1's ExcelWriter.write_data, with the styles part written by
+            # verify.report.stylesheet_xml (the same bytes, each cell format serialised once
+            # per process)
+            from openpyxl.packaging.extended import ExtendedProperties
+            from openpyxl.workbook._writer import WorkbookWriter
+            from openpyxl.writer.excel import (
+                ARC_APP,
+                ARC_CORE,
+                ARC_CUSTOM,
+                ARC_ROOT_RELS,
+                ARC_STYLE,
+                ARC_THEME,
+                ARC_WORKBOOK,
+                ARC_WORKBOOK_RELS,
+                CPROPS_TYPE,
+                theme_xml,
+                tostring,
+            )
+
+            from .stylesheet_xml import stylesheet_xml
+
+            archive = self._archive
+            archive.writestr(ARC_APP, tostring(ExtendedProperties().to_tree()))
+            archive.writestr(ARC_CORE, tostring(self.workbook.properties.to_tree()))
+            archive.writestr(ARC_THEME, self.workbook.loaded_theme or theme_xml)
+            if len(self.workbook.custom_doc_props) >= 1:
+                archive.writestr(ARC_CUSTOM,
+                                 tostring(self.workbook.custom_doc_props.to_tree()))
+
+                class CustomOverride:
+                    path = "/" + ARC_CUSTOM
+                    mime_type = CPROPS_TYPE
+
+                self.manifest.append(CustomOverride())
+            self._write_worksheets()
+            self._write_chartsheets()
+            self._write_images()
+            self._write_charts()
+            self._write_external_links()
+            archive.writestr(ARC_STYLE, stylesheet_xml(self.workbook))
+            writer = WorkbookWriter(self.workbook)
+            archive.writestr(ARC_ROOT_RELS, writer.write_root_rels())
+            archive.writestr(ARC_WORKBOOK, writer.write())
+            archive.writestr(ARC_WORKBOOK_RELS, writer.write_rels())
+            self._merge_vba()
+            self.manifest._write(archive, self.workbook)
+
+        def _write_drawing(self, drawing):
+            # a sheet's drawing of charts anchored at cells: its text depends only on each
+            # chart's anchor and size (and the rels on the charts' paths), the same in most
+            # sheets of most workbooks; serialised by openpyxl once per process and kept
+            if _plain_drawing(drawing):
+                return super()._write_drawing(drawing)
+            from openpyxl.packaging.relationship import (
+                Relationship,
+                RelationshipList,
+                get_rels_path,
+            )
+            from openpyxl.xml.functions import tostring
+
+            self._drawings.append(drawing)
+            drawing._id = len(self._drawings)
+            for chart in drawing.charts:
+                self._charts.append(chart)
+                chart._id = len(self._charts)
+            key = tuple((c.anchor.upper(), c.width, c.height) for c in drawing.charts)
+            body = _remembered(_DRAWINGS, key, lambda: tostring(drawing._write()))
+
+            def rels() -> bytes:
+                rel_list = RelationshipList()
+                for c in drawing.charts:
+                    rel_list.append(Relationship(type="chart", Target=c.path))
+                return tostring(rel_list.to_tree())
+
+            rels_text = _remembered(_DRAWING_RELS, tuple(c.path for c in drawing.charts), rels)
+            self._archive.writestr(drawing.path[1:], body)
+            self._archive.writestr(get_rels_path(drawing.path)[1:], rels_text)
+            self.manifest.append(drawing)
+
         def write_worksheet(self, ws):
             if self.workbook.write_only:
                 return super().write_worksheet(ws)
@@ -283,6 +363,27 @@ def _in_memory_writer(worksheet_writer=None):
                 self.manifest.append(chart)
 
     return InMemory
+
+
+def _plain_drawing(drawing) -> bool:
+    """Whether a drawing goes openpyxl's own way: one with images, or a chart not anchored
+    at a cell."""
+    return bool(drawing.images) or not all(isinstance(c.anchor, str) for c in drawing.charts)
+
+
+_DRAWINGS: dict[tuple, bytes] = {}  # a drawing's text by its charts' anchors and sizes
+_DRAWING_RELS: dict[tuple, bytes] = {}  # a drawing's relationships by its charts' paths
+_REMEMBER_MAX = 4096
+
+
+def _remembered(memo: dict, key, make: Callable[[], bytes]) -> bytes:
+    """``memo[key]``, made by ``make()`` on first use (the memo is emptied when full)."""
+    text = memo.get(key)
+    if text is None:
+        if len(memo) >= _REMEMBER_MAX:
+            memo.clear()
+        text = memo[key] = make()
+    return text
 
 
 def _set_level(info: zipfile.ZipInfo, level: int) -> None:
