@@ -361,6 +361,45 @@ def test_an_error_spec_is_recorded_and_the_others_results_stay_intact(specs, out
     assert states(again)["fresh"] == ("UNCHANGED", "PASS")
 
 
+def test_a_new_spec_runs_without_its_data_read_twice_and_every_entry_names_its_data(
+        specs, out):
+    # A spec with no earlier result runs whatever its data are: its fingerprint leaves the
+    # data files to the evaluation (no light reading of the spec, no hashing), and the entry
+    # names the files the evaluation read. A failed one names them too, hashed then.
+    import hashlib
+
+    from verify.nightly.fingerprints import ProbeTask, probe
+
+    spec = specs / "bushing.yaml"
+    first = probe(ProbeTask(str(spec), None, None, None))
+    assert first.error is None and first.fingerprint.data_files == ()
+    rooted = probe(ProbeTask(str(spec), None, str(specs), None))  # a data root: checked first
+    assert [d.path for d in rooted.fingerprint.data_files] == ["bushing.csv"]
+
+    def sha(path: Path) -> str:
+        return hashlib.sha256(path.read_bytes()).hexdigest()
+
+    result, _, _ = nightly(specs, out)
+    with Ledger.open(out / "ledger.sqlite") as led:
+        entries = {Path(e.spec_path).stem: e for e in led.entries(run_id=result.run_id)}
+    for name in ("bushing", "housing"):
+        (d,) = entries[name].data_files
+        assert (d.path, d.file, d.sha256) == (
+            f"{name}.csv", str(specs / f"{name}.csv"), sha(specs / f"{name}.csv"))
+    again = probe(ProbeTask(str(spec), entries["bushing"], None, None))  # known: hashed
+    assert again.fingerprint.matches(entries["bushing"].fingerprint)
+
+    (specs / "broken.csv").write_text("lot,line,bore\nO1,old,n/a\n", encoding="utf-8")
+    (specs / "broken.yaml").write_text(
+        spec.read_text(encoding="utf-8").replace("bushing.csv", "broken.csv"), encoding="utf-8")
+    result, _, _ = nightly(specs, out)
+    with Ledger.open(out / "ledger.sqlite") as led:
+        (error,) = [e for e in led.entries(run_id=result.run_id) if e.state == "ERROR"]
+    assert "broken.csv" in error.error
+    assert [(d.path, d.sha256) for d in error.data_files] == [
+        ("broken.csv", sha(specs / "broken.csv"))]
+
+
 def test_data_outside_the_data_root_is_refused(tmp_path, out):
     inside = tmp_path / "lots"
     write_spec(inside, "ok")

@@ -6,7 +6,10 @@ For each spec found (as ``verify run`` finds them), a nightly run
    characteristics table a spec names with ``characteristics_from``), and the tool
    version. When they match the spec's last result in the ledger the spec is skipped and
    recorded as ``UNCHANGED``; this path reads no data and imports neither scipy nor pandas
-   (a spec's data path comes from the ledger, or from a light YAML parse when the spec changed).
+   (a spec's data path comes from the ledger). A new or edited spec runs whatever its data
+   are, so its data files are fingerprinted by the evaluation that reads them (the entry names
+   the files it read); where a data root is given, or the evaluation fails, they are read by
+   a light YAML parse of the spec first (``fingerprints.fingerprint``, ``defer``).
 2. **runs** the others through the same evaluation as ``verify run``
    (:func:`verify.runner.prepare`) in ``--jobs`` worker processes, each importing the heavy
    libraries once, and writes ``<out>/<spec-stem>/<run id>-<DECISION>.xlsx`` and ``.json``

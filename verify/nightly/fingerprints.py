@@ -59,11 +59,19 @@ def data_paths_light(spec_path: Path, raw: bytes) -> list[tuple[str, str]]:
 
 
 def fingerprint(spec_path: Path, raw: bytes, last: Entry | None, *,
-                root: Path | None = None, max_bytes: int | None = None) -> Fingerprint:
+                root: Path | None = None, max_bytes: int | None = None,
+                defer: bool = False) -> Fingerprint:
     """The spec's input fingerprint; data paths come from ``last`` when the spec is the same.
 
     With ``root``, a data file outside it is refused (:class:`VerifyError`) before it is
     opened. Runs in a worker (:func:`probe`): hashing may meet a file that hangs.
+
+    ``defer``: where the spec text has no earlier result (a new or edited spec runs whatever
+    its data are) and no data root is to be enforced before its data are opened, the data
+    files are left to the evaluation, which records the files it read (and, where it fails,
+    :func:`verify.nightly.worker.run_task` fingerprints them then; only a spec whose worker is
+    stopped, by its time limit or a crash, is recorded without them): the light reading of the
+    spec and the hashing would only repeat what the evaluation does a moment later.
     """
     spec_sha = hashlib.sha256(raw).hexdigest()
     if _is_sql(raw):  # the data are a query's rows: fetch them and hash their canonical CSV
@@ -77,6 +85,8 @@ def fingerprint(spec_path: Path, raw: bytes, last: Entry | None, *,
         return Fingerprint(spec_sha, files, __version__)
     if last is not None and last.spec_sha256 == spec_sha and last.data_files:
         paths = [(d.path, d.file) for d in last.data_files]
+    elif defer and root is None:
+        return Fingerprint(spec_sha, (), __version__)
     else:
         paths = data_paths_light(spec_path, raw)
     if root is not None:
@@ -133,7 +143,7 @@ def probe(task: ProbeTask) -> Probe:
     try:
         fp = fingerprint(path, raw, task.last_result,
                          root=Path(task.data_root) if task.data_root else None,
-                         max_bytes=max_data_bytes(task.max_data_mb))
+                         max_bytes=max_data_bytes(task.max_data_mb), defer=True)
     except VerifyError as exc:
         return Probe(Fingerprint(hashlib.sha256(raw).hexdigest(), (), __version__),
                      exc.report())

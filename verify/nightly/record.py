@@ -50,7 +50,8 @@ def _entry_from(run_id: str, task: Task, o: Outcome) -> tuple[Entry, Record | No
     if o.error is not None:
         return Entry(run_id=run_id, spec_path=task.spec_key, tool_version=fp.tool_version,
                      started=o.started, finished=o.finished, state="ERROR",
-                     spec_sha256=fp.spec_sha256, data_files=fp.data_files, final=task.final,
+                     spec_sha256=fp.spec_sha256, data_files=o.data_files or fp.data_files,
+                     final=task.final,
                      error=o.error), None
     st = o.standing
     record = None

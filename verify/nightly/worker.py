@@ -111,7 +111,8 @@ def run_task(task: Task) -> Outcome:
             tmp_workbook=str(staged.tmp_workbook), tmp_result=str(staged.tmp_result),
             tmp_extras=tuple((str(t), str(g)) for t, g in staged.extras))
     except VerifyError as exc:
-        return Outcome(task.spec_key, started, _utc(), error=exc.report())
+        return Outcome(task.spec_key, started, _utc(), error=exc.report(),
+                       data_files=_data_files_late(task))
     except MemoryError:
         return Outcome(task.spec_key, started, _utc(), error="out of memory evaluating the spec")
     except Exception as exc:  # isolation: one spec's failure must not stop the others
@@ -120,7 +121,28 @@ def run_task(task: Task) -> Outcome:
         where = traceback.extract_tb(exc.__traceback__)[-1]
         return Outcome(task.spec_key, started, _utc(),
                        error=f"internal error ({type(exc).__name__}: {exc}) at "
-                             f"{Path(where.filename).name}:{where.lineno}; please report it")
+                             f"{Path(where.filename).name}:{where.lineno}; please report it",
+                       data_files=_data_files_late(task))
+
+
+def _data_files_late(task: Task) -> tuple[DataFile, ...]:
+    """The data files a failed spec names, hashed now, where its fingerprint left them to the
+    evaluation (:func:`~verify.nightly.fingerprints.fingerprint` with ``defer``): its ERROR
+    entry names them as an entry of the probe's own reading would. Empty where the fingerprint
+    has them, the spec changed since, or they cannot be read."""
+    from ..safe_open import MAX_SPEC_BYTES, max_data_bytes, read_regular
+    from .fingerprints import fingerprint
+
+    if task.fingerprint.data_files or task.data_root is not None:
+        return ()
+    try:
+        raw = read_regular(task.spec_path, what="spec", max_bytes=MAX_SPEC_BYTES)
+        if hashlib.sha256(raw).hexdigest() != task.fingerprint.spec_sha256:
+            return ()
+        return fingerprint(Path(task.spec_path), raw, None,
+                           max_bytes=max_data_bytes(task.max_data_mb)).data_files
+    except (VerifyError, OSError, ValueError):
+        return ()
 
 
 def _worker_run(task: Task) -> Outcome:
