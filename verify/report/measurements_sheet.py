@@ -69,15 +69,20 @@ def continuation_note(layout: MeasurementLayout, sheet: str) -> str | None:
     return text
 
 
-def add_placeholders(wb, layout: MeasurementLayout, styles: StyleBook) -> list[StreamedSheet]:
-    """Create the measurements sheet(s) with header, table and filter; return what to stream."""
+def add_placeholders(wb, layout: MeasurementLayout, styles: StyleBook,
+                     decimals: dict[str, int | None] | None = None) -> list[StreamedSheet]:
+    """Create the measurements sheet(s) with header, table and filter; return what to stream.
+
+    ``decimals``: :func:`decimals_by_characteristic` of the layout's table, where the caller
+    has it already."""
     columns = measurement_headers(layout.table)
     headers = [label for _key, label in columns]
     ncols = len(headers)
     note_column = ncols + 2
     last_col = get_column_letter(ncols)
     streamed = []
-    decimals = decimals_by_characteristic(layout.table)
+    if decimals is None:
+        decimals = decimals_by_characteristic(layout.table)
     # register every style the streamed rows use before openpyxl saves the style sheet
     for excluded in (False, True):
         styles.text(excluded)

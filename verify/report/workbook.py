@@ -140,7 +140,7 @@ def write_workbook(
         else:
             write_characteristic(ws, ev, c, decimals.get(c.name))
 
-    streamed: list[StreamedSheet] = add_placeholders(wb, layout, styles)
+    streamed: list[StreamedSheet] = add_placeholders(wb, layout, styles, decimals)
     if details is not None:
         streamed.append(details_placeholder(details, ev, styles))
 
