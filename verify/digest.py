@@ -188,12 +188,13 @@ def write_digest(path: Path, rows: Sequence[DigestRow], *, run: Sequence[tuple[s
             fill=PatternFill("solid", fgColor="D9D9D9"),
             alignment=Alignment(wrap_text=True, vertical="top"))
     drift_col = _HEADERS.index("Drift") + 1
+    # (the stamps apply a kind's styles once; one alignment object per kind, not per cell)
+    aligned = {wrap: Alignment(vertical="top", wrap_text=wrap) for wrap in (False, True)}
     for i, row in enumerate(rows, start=header_row + 1):
         values = _values(row)
         for c, (h, v) in enumerate(zip(_HEADERS, values, strict=True), start=1):
             wrap = h in WRAPPED
-            put(i, c, v, key=("row", wrap),
-                alignment=Alignment(vertical="top", wrap_text=wrap))
+            put(i, c, v, key=("row", wrap), alignment=aligned[wrap])
         key = "ERROR" if row.state == "ERROR" else row.decision
         if key in _FILL:
             fill = PatternFill("solid", fgColor=_FILL[key])
@@ -235,7 +236,28 @@ def write_digest(path: Path, rows: Sequence[DigestRow], *, run: Sequence[tuple[s
         for cell in row_cells:  # a label reads beside the top of its value
             cell.alignment = Alignment(vertical="top", wrap_text=cell.column == 2)
     page_setup(info, f"A1:B{r}", landscape=False, footer="the run")
-    wb.save(path)
+    # saved as the report workbooks are (every sheet's cells written as XML, the document's
+    # times the run's start): about half of openpyxl's own save, at the end of the run
+    from .report.sheet_xml import release, save
+
+    save(wb, [], Path(path), timestamp=_started(run))
+    release(wb)
+
+
+def _started(run: Sequence[tuple[str, str]]):
+    """The run's start as a naive UTC datetime (the zip entries' and document's time), as the
+    report workbooks take theirs; the clock where the run facts have none."""
+    import datetime as dt
+
+    text = dict(run).get("started") or ""
+    try:
+        t = dt.datetime.fromisoformat(text.strip().replace("Z", "+00:00"))
+    except ValueError:
+        t = dt.datetime.now(dt.UTC)
+    if t.tzinfo is None:
+        t = t.replace(tzinfo=dt.UTC)
+    return max(t.astimezone(dt.UTC).replace(tzinfo=None, microsecond=0),
+               dt.datetime(1980, 1, 1))
 
 
 class _Stamps:

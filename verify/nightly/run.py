@@ -222,6 +222,7 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
         with Pool(workers=jobs, timeout=spec_timeout) as pool:
             for job in _probe_jobs(specs, keys, ctx):
                 pool.submit(job)
+            _import_in_background("openpyxl")  # for the digest, while the workers work
             waiting = len(keys)
             task_started: dict[str, str] = {}
             for job, result in pool.results():
@@ -304,6 +305,22 @@ def run_nightly(spec_dirs: Sequence[str], *, out: str | os.PathLike = DEFAULT_OU
         f"ledger head {head_hash}; exit {status}")
     return NightlyResult(run_id=run_id, exit_status=status, rows=tuple(rows), digest=digest,
                          ledger=ledger_path, head=head_hash)
+
+
+def _import_in_background(name: str) -> None:
+    """Import ``name`` in a daemon thread: the digest is written after the last spec, so its
+    spreadsheet library (about 0.3 s to import) is loaded while this process only waits on
+    its workers. A failure is left for the digest's own import to report."""
+    import importlib
+    import threading
+
+    def load() -> None:
+        try:
+            importlib.import_module(name)
+        except Exception:  # noqa: BLE001 - the digest's import reports it
+            pass
+
+    threading.Thread(target=load, name=f"import-{name}", daemon=True).start()
 
 
 def _host() -> str:
