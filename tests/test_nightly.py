@@ -643,6 +643,35 @@ def test_digest_rows_stay_within_the_tallest_row(tmp_path):
     assert error in by_spec
 
 
+def test_the_digests_long_run_lines_wrap_within_the_page(tmp_path):
+    """The run's line and the ledger head (a 64-character hash and the command to check it)
+    wrap within the printed columns of the Digest sheet, and the Run sheet's wrapped values get
+    the rows their lines need: neither is cut at the page's edge nor drawn over the next row
+    (seen on the rendered pages)."""
+    from openpyxl import load_workbook
+
+    from verify.digest import PRINTED_COLUMNS
+
+    head = "e0d9a1d64c34def1bdfebaa065f48cbc0dc693d2ed242f0bfcac28b639d0ca30"
+    path = tmp_path / "digest.xlsx"
+    write_digest(path, [DigestRow("housing", "specs/housing.yaml", "RUN", decision="PASS")],
+                 run=[("run", "20261203T085123Z-9a31dbe4"),
+                      ("started", "2026-12-03T08:51:23.663247Z"),
+                      ("finished", "2026-12-03T08:51:27.418662Z"),
+                      ("ledger head", f"{head} (chain position 10; check with 'verify ledger "
+                                      f"/srv/nightly/ledger.sqlite --head {head}')")])
+    wb = load_workbook(path)
+    digest, run = wb["Digest"], wb["Run"]
+    merged = {str(r) for r in digest.merged_cells.ranges}
+    last = chr(ord("A") + PRINTED_COLUMNS - 1)
+    assert {f"A2:{last}2", f"A3:{last}3"} <= merged
+    for r in (2, 3):
+        assert digest.cell(r, 1).alignment.wrap_text
+        assert digest.row_dimensions[r].height and digest.row_dimensions[r].height > 15
+    (row,) = [c.row for c in run["A"] if c.value == "ledger head"]
+    assert run.row_dimensions[row].height and run.row_dimensions[row].height > 15
+
+
 def test_summary_lines_say_what_changed():
     row = DigestRow("housing", "s", "RUN", decision="PASS", previous_decision="PENDING",
                     standing="RECORD", new_lots=("N3", "N4"))

@@ -178,10 +178,16 @@ def write_digest(path: Path, rows: Sequence[DigestRow], *, run: Sequence[tuple[s
         return cell
 
     put(1, 1, "Nightly digest", font=shared_font(bold=True, size=14))
-    put(2, 1, "; ".join(f"{k}: {v}" for k, v in run[:3]))
+    # the run's line and the ledger head wrap within the printed columns (a long line would
+    # be cut at the page's edge)
+    top = Alignment(vertical="top", wrap_text=True)
+    put(2, 1, "; ".join(f"{k}: {v}" for k, v in run[:3]), alignment=top)
     head = dict(run).get("ledger head")
     if head:  # printed on the page, so a paper digest anchors the ledger's hash chain
-        put(3, 1, f"ledger head after this run: {head}", font=shared_font(size=9))
+        put(3, 1, f"ledger head after this run: {head}", font=shared_font(size=9),
+            alignment=top)
+    for r in (2, 3):
+        ws.merge_cells(start_row=r, start_column=1, end_row=r, end_column=PRINTED_COLUMNS)
     header_row = 4
     for c, h in enumerate(_HEADERS, start=1):
         put(header_row, c, h, font=shared_font(bold=True),
@@ -235,6 +241,7 @@ def write_digest(path: Path, rows: Sequence[DigestRow], *, run: Sequence[tuple[s
     for row_cells in info.iter_rows(min_row=1, max_row=r):
         for cell in row_cells:  # a label reads beside the top of its value
             cell.alignment = Alignment(vertical="top", wrap_text=cell.column == 2)
+    fit_rows(info)  # a wrapped value (the ledger head's line, an exit status) gets its lines
     page_setup(info, f"A1:B{r}", landscape=False, footer="the run")
     # saved as the report workbooks are (every sheet's cells written as XML, the document's
     # times the run's start): about half of openpyxl's own save, at the end of the run

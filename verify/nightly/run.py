@@ -317,7 +317,7 @@ def _import_in_background(name: str) -> None:
     def load() -> None:
         try:
             importlib.import_module(name)
-        except Exception:  # noqa: BLE001 - the digest's import reports it
+        except Exception:  # the digest's own import reports it
             pass
 
     threading.Thread(target=load, name=f"import-{name}", daemon=True).start()
