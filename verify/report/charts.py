@@ -23,10 +23,11 @@ from __future__ import annotations
 import math
 
 import numpy as np
+from openpyxl.styles.cell_style import StyleArray
 
 from ..model import CharacteristicResult, Evaluation
-from .cell_styles import row_dimension, shared_font, store, style
-from .cells import NOTE_FONT, SECTION_FONT, put
+from .cell_styles import cell_at, row_dimension, shared_font, store, style
+from .cells import NOTE_FONT, SECTION_FONT, clean_text, put
 from .chart_model import (  # noqa: F401  (chart_title, style_*: other sheets' charts)
     ScatterPlan,
     cell_range,
@@ -204,6 +205,39 @@ def _vertical_lines(xs, lo: float, hi: float) -> list:
     return pts
 
 
+class ProductionRows:
+    """The production chart's data rows (position, value, lot, process), a row at a time, as
+    ``store(x); style(store(y), fmt=fmt); put(lot); put(process)`` write them: the value's
+    style found once and copied to each fresh cell, each distinct text made safe once (a
+    chart has a row per part; ``tests/test_chart_rows.py`` holds it to those calls)."""
+
+    def __init__(self, ws, fmt):
+        self.ws, self.fmt = ws, fmt
+        self.proto = None  # the style style(fmt=fmt) gives a fresh cell
+        self.texts: dict[str, str] = {}
+
+    def write(self, r: int, col: int, x, y, lot, process) -> None:
+        ws = self.ws
+        store(ws, r, col, x)
+        cell = store(ws, r, col + 1, y)
+        if self.proto is not None and cell._style is None:
+            cell._style = StyleArray(self.proto)
+        else:
+            fresh = cell._style is None
+            style(cell, fmt=self.fmt)
+            if fresh and cell._style is not None:
+                self.proto = cell._style
+        for j, text in ((2, lot), (3, process)):
+            if type(text) is not str:
+                put(ws, r, col + j, text)
+                continue
+            safe = self.texts.get(text)
+            if safe is None:
+                safe = self.texts[text] = clean_text(text)
+            cell = cell_at(ws, r, col + j)
+            cell._value, cell.data_type = safe, "s"
+
+
 def _production_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
     blocks = []
     x0 = 0
@@ -245,13 +279,11 @@ def _production_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
     r = row0 + 2
     chart = ScatterPlan(f"{c.name} in production order: old, then new{note}", CHART_W, CHART_H)
     ys = []
+    rows = ProductionRows(ws, formats["mean"])
     for p, x, pts, lots in blocks:
         first = r
         for xi, yi, lot in zip(x.tolist(), pts.tolist(), lots.tolist(), strict=True):
-            store(ws, r, col, xi)
-            style(store(ws, r, col + 1, yi), fmt=formats["mean"])
-            put(ws, r, col + 2, lot)
-            put(ws, r, col + 3, p)
+            rows.write(r, col, xi, yi, lot, p)
             r += 1
         chart.add(
             f"{p} process",
