@@ -1,6 +1,8 @@
-"""The production chart's data rows (:class:`verify.report.charts.ProductionRows`) are the cells
-the plain calls write: ``store`` the position, ``store`` and ``style`` the value, ``put`` the lot
-and the process. A software regression check of one route against the route it replaced.
+"""The charts' data rows are the cells the plain calls write: the production chart's
+(:class:`verify.report.charts.ProductionRows`: ``store`` the position, ``store`` and ``style``
+the value, ``put`` the lot and the process) and a helper block's series (``_Block.add``: ``put``
+the name, ``store`` x, ``store`` and ``style`` y). Software regression checks of each route
+against the route it replaced.
 """
 
 from __future__ import annotations
@@ -12,7 +14,7 @@ from openpyxl import Workbook
 
 from verify.report.cell_styles import shared_font, store, style
 from verify.report.cells import put
-from verify.report.charts import ProductionRows
+from verify.report.charts import ProductionRows, _Block
 
 ROWS = [
     (1, 12.0004333333333332, "L-01", "old"),
@@ -66,3 +68,42 @@ def test_production_rows_are_the_plain_calls_cells(styled_before, fmt):
     assert list(wb_fast._number_formats) == list(wb_plain._number_formats)
     lot_cell = fast.cell(row=4, column=7)
     assert lot_cell.data_type == "s" and "\x07" not in lot_cell.value
+
+
+def _plain_add(ws, row, col, name, pts, y_fmt):
+    for x, y in pts:
+        put(ws, row, col, name)
+        if x is not None and y is not None:
+            store(ws, row, col + 1, float(x))
+            cell = store(ws, row, col + 2, float(y))
+            if y_fmt:
+                style(cell, fmt=y_fmt)
+        row += 1
+    return row
+
+
+SERIES = [
+    ("target", [(0.0, 12.0), (61.0, 12.0)], None),
+    ("lot boundaries", [(10.5, 11.9), (10.5, 12.1), (None, None), (20.5, 11.9), (20.5, 12.1)],
+     None),
+    ("old process", [(11.95, 0), (11.96, 3), (11.97, 7), (11.98, 0.0)], "0"),
+    ("new\x07process", [(11.95, 1), (11.96, 2)], "0.00"),  # made safe, once
+]
+
+
+@pytest.mark.parametrize("styled_before", [False, True])
+def test_block_rows_are_the_plain_calls_cells(styled_before):
+    wb_fast, fast = _sheet(styled_before)
+    wb_plain, plain = _sheet(styled_before)
+    block = _Block(fast, 2, 4, "Reference lines")
+    row = 4
+    put(plain, 2, 4, "Reference lines", font=shared_font(bold=True))
+    for j, h in enumerate(["Series", "x", "y"]):
+        put(plain, 3, 4 + j, h, font=shared_font(bold=True))
+    for name, pts, y_fmt in SERIES:
+        block.add(name, pts, y_fmt=y_fmt)
+        row = _plain_add(plain, row, 4, name, pts, y_fmt)
+    assert block.row == row
+    assert _cells(fast) == _cells(plain)
+    assert list(wb_fast._cell_styles) == list(wb_plain._cell_styles)
+    assert [s[0] for s in block.series] == [name for name, _p, _f in SERIES]

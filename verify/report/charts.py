@@ -180,14 +180,30 @@ class _Block:
         self.series: list[tuple[str, int, int]] = []
 
     def add(self, name: str, pts, *, y_fmt: str | None = None) -> None:
+        """Rows of ``name`` and each point, as ``put(name); store(x); style(store(y),
+        fmt=y_fmt)`` write them (the name made safe once, the y style found once and copied
+        to each fresh cell; ``tests/test_chart_rows.py``)."""
         first = self.row
+        ws, col = self.ws, self.col
+        safe = clean_text(name) if type(name) is str else None
+        proto = None
         for x, y in pts:
-            put(self.ws, self.row, self.col, name)
+            if safe is None:
+                put(ws, self.row, col, name)
+            else:
+                cell = cell_at(ws, self.row, col)
+                cell._value, cell.data_type = safe, "s"
             if x is not None and y is not None:
-                store(self.ws, self.row, self.col + 1, float(x))
-                cell = store(self.ws, self.row, self.col + 2, float(y))
+                store(ws, self.row, col + 1, float(x))
+                cell = store(ws, self.row, col + 2, float(y))
                 if y_fmt:
-                    style(cell, fmt=y_fmt)
+                    if proto is not None and cell._style is None:
+                        cell._style = StyleArray(proto)
+                    else:
+                        fresh = cell._style is None
+                        style(cell, fmt=y_fmt)
+                        if fresh:
+                            proto = cell._style
             self.row += 1
         self.series.append((name, first, self.row - 1))
 
