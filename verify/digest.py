@@ -246,25 +246,10 @@ def write_digest(path: Path, rows: Sequence[DigestRow], *, run: Sequence[tuple[s
     # saved as the report workbooks are (every sheet's cells written as XML, the document's
     # times the run's start): about half of openpyxl's own save, at the end of the run
     from .report.sheet_xml import release, save
+    from .report.xlsx_fast import zip_time
 
-    save(wb, [], Path(path), timestamp=_started(run))
+    save(wb, [], Path(path), timestamp=zip_time(dict(run).get("started") or ""))
     release(wb)
-
-
-def _started(run: Sequence[tuple[str, str]]):
-    """The run's start as a naive UTC datetime (the zip entries' and document's time), as the
-    report workbooks take theirs; the clock where the run facts have none."""
-    import datetime as dt
-
-    text = dict(run).get("started") or ""
-    try:
-        t = dt.datetime.fromisoformat(text.strip().replace("Z", "+00:00"))
-    except ValueError:
-        t = dt.datetime.now(dt.UTC)
-    if t.tzinfo is None:
-        t = t.replace(tzinfo=dt.UTC)
-    return max(t.astimezone(dt.UTC).replace(tzinfo=None, microsecond=0),
-               dt.datetime(1980, 1, 1))
 
 
 class _Stamps:

@@ -94,6 +94,25 @@ def style(cell, *, fmt=None, right=False, font=None, fill=None, align=None, bord
     cell._style = StyleArray(done)
 
 
+class FormatOnce:
+    """``style(cell, fmt=fmt)`` for a column of cells: the style found once on a fresh cell
+    and copied to each later fresh cell (a cell styled before takes ``style`` itself)."""
+
+    __slots__ = ("fmt", "proto")
+
+    def __init__(self, fmt):
+        self.fmt, self.proto = fmt, None
+
+    def apply(self, cell) -> None:
+        if self.proto is not None and cell._style is None:
+            cell._style = StyleArray(self.proto)
+            return
+        fresh = cell._style is None
+        style(cell, fmt=self.fmt)
+        if fresh and cell._style is not None:
+            self.proto = cell._style
+
+
 def _step(book: _Book, wb, kind: str, a: int, b, make) -> int:
     """The index of a derived style (``make()``, added to its list once), remembered by
     (kind, a, b): the derived value depends only on those indices."""

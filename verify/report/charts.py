@@ -23,10 +23,9 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from openpyxl.styles.cell_style import StyleArray
 
 from ..model import CharacteristicResult, Evaluation
-from .cell_styles import cell_at, row_dimension, shared_font, store, style
+from .cell_styles import FormatOnce, cell_at, row_dimension, shared_font, store
 from .cells import NOTE_FONT, SECTION_FONT, clean_text, put
 from .chart_model import (  # noqa: F401  (chart_title, style_*: other sheets' charts)
     ScatterPlan,
@@ -186,7 +185,7 @@ class _Block:
         first = self.row
         ws, col = self.ws, self.col
         safe = clean_text(name) if type(name) is str else None
-        proto = None
+        y_style = FormatOnce(y_fmt) if y_fmt else None
         for x, y in pts:
             if safe is None:
                 put(ws, self.row, col, name)
@@ -196,14 +195,8 @@ class _Block:
             if x is not None and y is not None:
                 store(ws, self.row, col + 1, float(x))
                 cell = store(ws, self.row, col + 2, float(y))
-                if y_fmt:
-                    if proto is not None and cell._style is None:
-                        cell._style = StyleArray(proto)
-                    else:
-                        fresh = cell._style is None
-                        style(cell, fmt=y_fmt)
-                        if fresh:
-                            proto = cell._style
+                if y_style is not None:
+                    y_style.apply(cell)
             self.row += 1
         self.series.append((name, first, self.row - 1))
 
@@ -228,21 +221,13 @@ class ProductionRows:
     chart has a row per part; ``tests/test_chart_rows.py`` holds it to those calls)."""
 
     def __init__(self, ws, fmt):
-        self.ws, self.fmt = ws, fmt
-        self.proto = None  # the style style(fmt=fmt) gives a fresh cell
+        self.ws, self.value_style = ws, FormatOnce(fmt)
         self.texts: dict[str, str] = {}
 
     def write(self, r: int, col: int, x, y, lot, process) -> None:
         ws = self.ws
         store(ws, r, col, x)
-        cell = store(ws, r, col + 1, y)
-        if self.proto is not None and cell._style is None:
-            cell._style = StyleArray(self.proto)
-        else:
-            fresh = cell._style is None
-            style(cell, fmt=self.fmt)
-            if fresh and cell._style is not None:
-                self.proto = cell._style
+        self.value_style.apply(store(ws, r, col + 1, y))
         for j, text in ((2, lot), (3, process)):
             if type(text) is not str:
                 put(ws, r, col + j, text)

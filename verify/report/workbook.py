@@ -28,7 +28,6 @@ from ``Evaluation.run.started``, never the clock, so the same Evaluation gives t
 
 from __future__ import annotations
 
-import datetime as dt
 from collections.abc import Iterator
 from pathlib import Path
 
@@ -55,7 +54,7 @@ from .safe_text import escape_json_for_xml, has_xml_illegal, xml_safe_evaluation
 from .sheet_xml import release, save
 from .styles import StyleBook
 from .summary import DECISION_COLOURS, write_summary
-from .xlsx_fast import StreamedSheet, t_element
+from .xlsx_fast import StreamedSheet, t_element, zip_time
 
 RECORD_SHEET = "_record"
 RECORD_CHUNK = 32_000
@@ -102,7 +101,7 @@ def write_workbook(
     ev = xml_safe_evaluation(evaluation)
     layout = measurement_layout(ev, rows_per_sheet=rows_per_sheet)
     decimals = decimals_by_characteristic(layout.table)
-    started = _timestamp(ev.run.started)
+    started = zip_time(ev.run.started)
 
     wb = Workbook()
     summary = wb.active
@@ -174,18 +173,6 @@ def write_workbook(
 
     save(wb, streamed, Path(path), timestamp=started)
     release(wb)
-
-
-def _timestamp(text: str) -> dt.datetime:
-    """The run's start as a naive UTC datetime (zip entries cannot predate 1980)."""
-    try:
-        t = dt.datetime.fromisoformat(text.strip().replace("Z", "+00:00"))
-    except ValueError:
-        t = dt.datetime(1980, 1, 1, tzinfo=dt.UTC)
-    if t.tzinfo is None:
-        t = t.replace(tzinfo=dt.UTC)
-    t = t.astimezone(dt.UTC).replace(tzinfo=None, microsecond=0)
-    return max(t, dt.datetime(1980, 1, 1))
 
 
 # --- spec text --------------------------------------------------------------------------------

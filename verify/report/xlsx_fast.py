@@ -35,6 +35,19 @@ _NS_MAIN = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
 _NS_REL = "http://schemas.openxmlformats.org/officeDocument/2006/relationships"
 _NS_PKG_REL = "http://schemas.openxmlformats.org/package/2006/relationships"
 
+def zip_time(text: str) -> dt.datetime:
+    """A run's start (ISO text) as the naive UTC datetime a saved workbook's zip entries and
+    document times take (zip entries cannot predate 1980; text that is no time gives 1980)."""
+    try:
+        t = dt.datetime.fromisoformat(text.strip().replace("Z", "+00:00"))
+    except ValueError:
+        t = dt.datetime(1980, 1, 1, tzinfo=dt.UTC)
+    if t.tzinfo is None:
+        t = t.replace(tzinfo=dt.UTC)
+    t = t.astimezone(dt.UTC).replace(tzinfo=None, microsecond=0)
+    return max(t, dt.datetime(1980, 1, 1))
+
+
 def xml_text(text: str) -> str:
     """Escape text for an XML element; replace visibly what XML cannot carry; keep CR.
 
