@@ -107,13 +107,37 @@ def used_positions(table: pd.DataFrame, used: np.ndarray) -> dict:
     hit = _POSITIONS.get(id(table))
     if hit is not None and hit[0] is table and hit[1] is used:
         return hit[2]
-    base = np.flatnonzero(used)
-    sub = table.iloc[base]
-    groups = {k: base[v] for k, v in
-              sub.groupby(["characteristic", "process"], sort=False).indices.items()}
+    groups = _groups(table, np.flatnonzero(used))
     if len(_POSITIONS) >= 8:
         _POSITIONS.clear()
     _POSITIONS[id(table)] = (table, used, groups)
+    return groups
+
+
+def _groups(table: pd.DataFrame, base: np.ndarray) -> dict:
+    """``{k: base[v] for k, v in table.iloc[base].groupby(["characteristic", "process"],
+    sort=False).indices.items()}``: the rows ``base`` (ascending positions) grouped by
+    characteristic and process, a row with either missing left out, each group's positions
+    ascending. Grouped on the two columns' codes (a pandas groupby on two text columns costs
+    about three times as much on a nightly spec's table, asked twice a workbook)."""
+    if len(base) == 0:
+        return {}
+    c_codes, c_keys = pd.factorize(table["characteristic"], sort=False)
+    p_codes, p_keys = pd.factorize(table["process"], sort=False)
+    c, p = c_codes[base], p_codes[base]
+    keep = (c >= 0) & (p >= 0)  # (a missing value's code is -1)
+    if not keep.all():
+        base, c, p = base[keep], c[keep], p[keep]
+        if len(base) == 0:
+            return {}
+    width = len(p_keys)
+    key = c.astype(np.int64) * width + p
+    order = np.argsort(key, kind="stable")  # (stable: each group's rows stay ascending)
+    cuts = np.flatnonzero(np.diff(key[order])) + 1
+    groups = {}
+    for seg in np.split(order, cuts):
+        k = int(key[seg[0]])
+        groups[(c_keys[k // width], p_keys[k % width])] = base[seg]
     return groups
 
 
@@ -154,18 +178,44 @@ def object_column(t: pd.DataFrame, name: str) -> np.ndarray:
     return hit[1]
 
 
+_PRODUCTION: dict[int, tuple] = {}
+
+
 def production_positions(t: pd.DataFrame, name: str, process: str) -> np.ndarray:
     """The positions of the used rows of one characteristic and process of the evaluation's
     table ``t`` in production order: the rows
     ``used_rows(t, ~t["excluded"], name, process).sort_values(["order", "source_row"],
-    kind="stable")`` holds, as positions (no DataFrame per question)."""
+    kind="stable")`` holds, as positions (no DataFrame per question).
+
+    Remembered per table (by identity) and per question: the charts and the recheck sheet ask
+    for each characteristic and process in turn. The array is read-only (it is shared).
+    """
+    hit = _PRODUCTION.get(id(t))
+    if hit is None or hit[0] is not t:
+        if len(_PRODUCTION) >= 8:
+            _PRODUCTION.clear()
+        hit = _PRODUCTION[id(t)] = (t, {}, [])
+    done = hit[1].get((name, process))
+    if done is None:
+        done = hit[1][(name, process)] = _production_order(t, name, process, hit[2])
+        done.flags.writeable = False
+    return done
+
+
+def _production_order(t: pd.DataFrame, name: str, process: str, keys: list) -> np.ndarray:
+    """:func:`production_positions` computed; ``keys`` keeps the table's order and source-row
+    arrays once found (when both are integer columns)."""
     pos = used_positions(t, used_flags(t, "excluded")).get((name, process))
     if pos is None or len(pos) == 0:
         return np.zeros(0, dtype=np.intp)
-    order, source = t["order"], t["source_row"]
-    if order.dtype.kind in "iu" and source.dtype.kind in "iu":
+    if not keys:
+        order, source = t["order"], t["source_row"]
+        integer = order.dtype.kind in "iu" and source.dtype.kind in "iu"
+        keys.append((order.to_numpy(), source.to_numpy()) if integer else None)
+    if keys[0] is not None:
+        order, source = keys[0]
         # np.lexsort sorts by its last key first and is stable, as the pandas sort
-        return pos[np.lexsort((source.to_numpy()[pos], order.to_numpy()[pos]))]
+        return pos[np.lexsort((source[pos], order[pos]))]
     sub = t.iloc[pos].reset_index(drop=True)
     return pos[sub.sort_values(["order", "source_row"], kind="stable").index.to_numpy()]
 

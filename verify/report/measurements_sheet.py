@@ -143,7 +143,12 @@ class _TextColumn:
     """A text column factorised once per sheet: each distinct text is escaped once."""
 
     def __init__(self, series: pd.Series, style_used: int, style_excl: int):
-        codes, uniques = pd.factorize(series.fillna("").astype(str), sort=False)
+        if isinstance(series.dtype, pd.StringDtype):
+            # text already: a missing value's code is -1, the empty cell that the text "" it
+            # would be filled with gives (the same cells, without a converted copy)
+            codes, uniques = pd.factorize(series, sort=False)
+        else:
+            codes, uniques = pd.factorize(series.fillna("").astype(str), sort=False)
         self.codes = codes
         frag_u = np.empty(len(uniques) + 1, dtype=object)
         frag_x = np.empty(len(uniques) + 1, dtype=object)

@@ -57,6 +57,12 @@ class Table:
                 f"{string_literal('=' + process)},{self.col('used')},TRUE")
 
 
+def _distinct_text(column) -> list[str]:
+    """``[str(x) for x in dict.fromkeys(column.astype(str))]``: the column's distinct values
+    as text, in order of first appearance (each distinct value converted once)."""
+    return [str(x) for x in dict.fromkeys(column.drop_duplicates().astype(str))]
+
+
 def sort_proof_table(layout: MeasurementLayout, max_rows: int) -> Table | None:
     """The table when every lookup key is safe to use and it holds at most ``max_rows`` rows,
     else None (fixed ranges are used)."""
@@ -67,10 +73,10 @@ def sort_proof_table(layout: MeasurementLayout, max_rows: int) -> Table | None:
     t = layout.table
     if len(layout.sheets) != 1 or len(t) == 0 or len(t) > max_rows:
         return None
-    names = [str(x) for x in dict.fromkeys(t["characteristic"].astype(str))]
+    names = _distinct_text(t["characteristic"])
     if not criteria_safe(names) or any(n.startswith("=") for n in names):
         return None
-    files = [str(x) for x in dict.fromkeys(t["source_file"].astype(str))]
+    files = _distinct_text(t["source_file"])
     if len(files) > 1 and not criteria_safe(files):
         return None
     used = t[t["used"]]
