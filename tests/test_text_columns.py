@@ -44,7 +44,7 @@ def test_a_missing_text_is_an_empty_cell_and_text_is_escaped():
     assert got == [' t="inlineStr" s="3"><is><t>a&amp;b</t></is></c>', ' s="3"/>', ' s="4"/>']
 
 
-@pytest.mark.parametrize("dtype", [object, "str", "string[pyarrow]"])
+@pytest.mark.parametrize("dtype", [object, "str", "string[pyarrow]", "string[python]"])
 @settings(max_examples=80, deadline=None)
 @given(values=st.lists(st.sampled_from([*TEXTS, None]), max_size=30))
 def test_distinct_text_equals_the_converted_column_deduplicated(dtype, values):

@@ -60,6 +60,10 @@ class Table:
 def _distinct_text(column) -> list[str]:
     """``[str(x) for x in dict.fromkeys(column.astype(str))]``: the column's distinct values
     as text, in order of first appearance (each distinct value converted once)."""
+    if isinstance(column.dtype, pd.StringDtype) and not column.hasnans:
+        # text without a missing value: astype(str) leaves every value as it is (a missing
+        # one would stay missing, then read "nan" beside any "nan" text: the route below)
+        return [str(x) for x in pd.unique(column.to_numpy(dtype=object))]
     return [str(x) for x in dict.fromkeys(column.drop_duplicates().astype(str))]
 
 
