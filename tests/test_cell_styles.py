@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import random
 
+import pytest
 from openpyxl import Workbook
 from openpyxl.cell.cell import MergedCell
 from openpyxl.styles import Alignment, Border, Font, PatternFill, Protection, Side
@@ -115,6 +116,26 @@ def test_merge_spreads_a_protection_and_a_box():
     # every cell of the range carries the protection; the edges carry the sides
     assert wb.active.cell(4, 4).protection.locked is False
     assert wb.active.cell(5, 4).border.bottom.style == "medium"
+
+
+def test_merged_ranges_hold_what_openpyxl_stores_and_bad_bounds_raise_its_errors():
+    wa, wb = Workbook(), Workbook()
+    for r1, c1, r2, c2 in [(1, 1, 1, 3), (4, 2, 6, 2), (1048575, 18277, 1048576, 18278)]:
+        wa.active.merge_cells(start_row=r1, start_column=c1, end_row=r2, end_column=c2)
+        merge(wb.active, r1, c1, r2, c2)
+    got = sorted((r.bounds, {k: v for k, v in vars(r).items() if k not in ("ws", "start_cell")})
+                 for r in wb.active.merged_cells.ranges)
+    expected = sorted((r.bounds, {k: v for k, v in vars(r).items()
+                                  if k not in ("ws", "start_cell")})
+                      for r in wa.active.merged_cells.ranges)
+    assert got == expected
+    for bad in [(3, 1, 2, 2), (1, 3, 2, 2), (1, 1, 1048577, 1), (1, 1, 2, 18279)]:
+        with pytest.raises(ValueError) as theirs:
+            Workbook().active.merge_cells(start_row=bad[0], start_column=bad[1],
+                                          end_row=bad[2], end_column=bad[3])
+        with pytest.raises(ValueError) as ours:
+            merge(Workbook().active, *bad)
+        assert str(ours.value) == str(theirs.value)
 
 
 def test_shared_style_objects_are_one_object_per_value():

@@ -6,7 +6,8 @@ object and pyarrow-backed text columns, with missing values and values outside t
 
 ``_groups`` replaced ``table.iloc[base].groupby(["characteristic", "process"],
 sort=False).indices`` (positions mapped back through ``base``), and ``production_positions``
-remembers its answers per table: both held here to the pandas expressions they replace.
+remembers its answers per table, and ``_beside`` sets the trace columns beside the table
+without a join: each held here to the pandas expression it replaces.
 """
 
 from __future__ import annotations
@@ -17,7 +18,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from verify.report.layout import _groups, _ranks, production_positions
+from verify.report.layout import _beside, _groups, _ranks, production_positions
 
 NAMES = ["bore", "wall", "old", "new", "Ø 12", ""]
 
@@ -75,3 +76,32 @@ def test_production_positions_equal_the_pandas_sort_and_are_shared_read_only(int
             assert got.tolist() == expected
             assert production_positions(table, name, process) is got  # remembered
             assert not got.flags.writeable
+
+
+@settings(max_examples=60, deadline=None)
+@given(n=st.integers(0, 12), shift=st.sampled_from([0, 0, 1]), dup=st.booleans(),
+       overlap=st.booleans(), text=st.lists(st.sampled_from(["a", "", None]), min_size=12,
+                                            max_size=12))
+def test_beside_equals_the_join(n, shift, dup, overlap, text):
+    table = pd.DataFrame({"value": np.arange(n, dtype=float),
+                          "lot": pd.Series(text[:n], dtype="str")})
+    trace = pd.DataFrame({"part": pd.Series(text[::-1][:n], dtype="str"),
+                          "flag": np.arange(n) % 2 == 0})
+    if shift:
+        trace.index = trace.index + shift  # another index: the join aligns by label
+    if dup and n > 1:
+        idx = list(range(n))
+        idx[-1] = 0
+        table.index = idx
+        trace.index = idx  # repeated labels: the join's own rows
+    if overlap:
+        trace = trace.rename(columns={"part": "lot"})
+        with pytest.raises(ValueError):
+            table.join(trace)
+        with pytest.raises(ValueError):
+            _beside(table, trace)
+        return
+    expected = table.join(trace)
+    got = _beside(table, trace)
+    pd.testing.assert_frame_equal(got, expected)
+    assert list(got.dtypes) == list(expected.dtypes)

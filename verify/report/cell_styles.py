@@ -34,6 +34,7 @@ RIGHT = Alignment(horizontal="right")  # an infinite bound's text, aligned as a 
 
 _BORDER, _PROTECTION, _ALIGNMENT = 2, 4, 5  # positions in a StyleArray
 _EDGES = ("top", "left", "right", "bottom")  # the order MergedCellRange.format spreads them
+_MAX_ROW, _MAX_COLUMN = 1048576, 18278  # CellRange's bounds (openpyxl 3.1)
 
 
 class _Book:
@@ -165,8 +166,15 @@ def merge(ws, start_row: int, start_column: int, end_row: int, end_column: int) 
 
     mcr = MergedCellRange.__new__(MergedCellRange)
     mcr.ws = ws
-    CellRange.__init__(mcr, min_col=start_column, min_row=start_row, max_col=end_column,
-                       max_row=end_row)
+    if (type(start_row) is int and type(end_row) is int and type(start_column) is int
+            and type(end_column) is int and 1 <= start_row <= end_row <= _MAX_ROW
+            and 1 <= start_column <= end_column <= _MAX_COLUMN):
+        # what CellRange.__init__ stores once its bounds pass its checks (these do)
+        mcr.__dict__.update(min_col=start_column, min_row=start_row, max_col=end_column,
+                            max_row=end_row, title=None)
+    else:
+        CellRange.__init__(mcr, min_col=start_column, min_row=start_row, max_col=end_column,
+                           max_row=end_row)  # openpyxl's own checks and errors
     mcr.start_cell = start
 
     # MergedCellRange._get_borders: the top-left cell takes the bottom-right cell's right and

@@ -292,6 +292,16 @@ def _sheet_order(evaluation: Evaluation, t: pd.DataFrame,
     return frame.index.to_numpy()
 
 
+def _beside(t: pd.DataFrame, more: pd.DataFrame) -> pd.DataFrame:
+    """``t.join(more)``: the columns of ``more`` beside ``t``'s, by index. Where both have the
+    same index, each label once, and no column name in common (the tidy table and its trace
+    columns), the frames are set side by side as they are (a third of the join's cost)."""
+    if (t.index.equals(more.index) and t.index.is_unique
+            and len(t.columns.intersection(more.columns)) == 0):
+        return pd.concat([t, more], axis=1)
+    return t.join(more)
+
+
 def measurement_layout(evaluation: Evaluation, *, rows_per_sheet: int = EXCEL_MAX_ROWS - 1):
     """Order the tidy table for the sheet and find the blocks the recheck formulas use.
 
@@ -301,7 +311,7 @@ def measurement_layout(evaluation: Evaluation, *, rows_per_sheet: int = EXCEL_MA
     t = evaluation.measurements.table
     trace = getattr(evaluation.measurements, "trace", None)
     if trace is not None:  # part, process as written, corrections, kept columns
-        t = t.join(trace)
+        t = _beside(t, trace)
     aligned = [_aligned_pairs(c) for c in evaluation.characteristics]  # (asked once each)
     t = t.iloc[_sheet_order(evaluation, t, aligned)].reset_index(drop=True)
     t["used"] = ~t["excluded"].astype(bool)
