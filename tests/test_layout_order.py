@@ -50,7 +50,8 @@ def test_groups_equal_the_pandas_groupby(dtype, rows):
     assert got.keys() == expected.keys()
     for k, v in expected.items():
         assert got[k].tolist() == v.tolist() and got[k].dtype == v.dtype
-        assert all(type(a) is type(b) for a, b in zip(k, next(g for g in got if g == k)))
+        same_key = next(g for g in got if g == k)
+        assert all(type(a) is type(b) for a, b in zip(k, same_key, strict=True))
 
 
 @pytest.mark.parametrize("integer", [True, False])

@@ -40,7 +40,7 @@ from ..checks import kinds
 from ..model import Evaluation
 from .layout import MeasurementLayout
 from .recheck_family import multiplicity
-from .recheck_lookup import HELPER_HEADING, TOKEN, sort_proof_table
+from .recheck_lookup import HELPER_HEADING, TOKEN, TOKEN_MARK, sort_proof_table
 from .recheck_sheet import (
     ALPHA_CELL,
     COLUMNS,
@@ -160,7 +160,8 @@ def recheck_rows(evaluation: Evaluation, layout: MeasurementLayout) -> list[list
         def number(m: re.Match) -> str:
             return str(base + int(m.group(1)))
 
-        body = [[TOKEN.sub(number, v) if isinstance(v, str) else v for v in row]
+        sub, mark = TOKEN.sub, TOKEN_MARK  # (most texts hold no token: a scan, no call)
+        body = [[sub(number, v) if isinstance(v, str) and mark in v else v for v in row]
                 for row in body]
     last = FIRST_BODY_ROW + len(body) - 1
     head: list[list] = [

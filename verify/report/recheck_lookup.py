@@ -31,11 +31,12 @@ from .recheck_sheet import Sheet, as_text
 
 HELPER_HEADING = "Values looked up from the measurements table"
 ORDER_BASE = 1  # the measurements sheet counts production order from 1 (a reader's count)
-TOKEN = re.compile(r"\u27e6(\d+)\u27e7")  # a helper row's index, numbered once the body ends
+TOKEN_MARK = "\u27e6"  # how every token starts
+TOKEN = re.compile(TOKEN_MARK + r"(\d+)\u27e7")  # a helper row's index, numbered once the body ends
 
 
 def tok(i: int) -> str:
-    return f"\u27e6{i}\u27e7"
+    return f"{TOKEN_MARK}{i}\u27e7"
 
 
 @dataclass(frozen=True)
