@@ -336,10 +336,53 @@ def _production_chart(ws, ev, c, anchor, row0, col, formats) -> tuple[int, int]:
     return col + len(header), 1
 
 
+def auto_bin_count(values: np.ndarray) -> int:
+    """``len(np.histogram_bin_edges(values, bins="auto")) - 1``: the number of bins numpy's
+    "auto" rule gives (the smaller of the Sturges width and the Freedman-Diaconis width, the
+    latter at least half the square-root rule's), computed with numpy's own operations in its
+    order (numpy 2.x ``_histograms_impl``; the quartiles as ``np.percentile``'s default linear
+    method finds them) from one sort, without the general route's checks and conversions (a
+    tenth of its cost, on every histogram). Anything but finite float64 values, two or more,
+    takes numpy's own route."""
+    n = values.size
+    if values.dtype != np.float64 or values.ndim != 1 or n < 2:
+        return len(np.histogram_bin_edges(values, bins="auto")) - 1
+    s = np.sort(values)
+    first, last = s[0], s[-1]
+    if not (np.isfinite(first) and np.isfinite(last)):
+        return len(np.histogram_bin_edges(values, bins="auto")) - 1  # numpy's own error
+    ptp = last - first
+    if ptp == 0:
+        return 1  # no width: numpy's one bin around the value
+    q75, q25 = (_linear_quantile(s, q) for q in (0.75, 0.25))
+    fd = 2.0 * (q75 - q25) * n ** (-1.0 / 3.0)
+    sturges = ptp / (np.log2(n) + 1.0)
+    fd_corrected = max(fd, ptp / np.sqrt(n) / 2)
+    width = min(fd_corrected, sturges)
+    if not width:
+        return 1
+    return int(np.ceil((last - first) / width))
+
+
+def _linear_quantile(s: np.ndarray, q: float):
+    """``np.percentile(s, 100 * q)`` of sorted finite ``s`` (n >= 2), numpy's linear method:
+    the virtual index ``(n - 1) * q``, its floor and the next, and numpy's ``_lerp``."""
+    n = s.size
+    virtual = np.float64((n - 1) * q)
+    if virtual >= n - 1:
+        return s[-1]
+    below = np.floor(virtual)
+    i = int(below)
+    a, b = s[i], s[i + 1]
+    t = virtual - below
+    diff = b - a
+    return b - diff * (1 - t) if t >= 0.5 else a + diff * t
+
+
 def _edges(values: np.ndarray, decimals: int | None) -> np.ndarray:
     lo, hi = float(values.min()), float(values.max())
     res = None if decimals is None else 10.0 ** (-decimals)
-    nb = len(np.histogram_bin_edges(values, bins="auto")) - 1
+    nb = auto_bin_count(values)
     nb = min(max(nb, 6), MAX_BINS)
     width = (hi - lo) / nb if hi > lo else (res or max(abs(lo), 1.0) * 0.01)
     start = lo
