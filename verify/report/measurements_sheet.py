@@ -92,7 +92,9 @@ def add_placeholders(wb, layout: MeasurementLayout, styles: StyleBook,
             styles.number(fixed(d), excluded)
     for i, title in enumerate(layout.sheets):
         ws = wb.create_sheet(title)
-        rows = layout.table.loc[layout.table["sheet"] == title]
+        # (one sheet holds every row: the table itself, never changed, not a masked copy)
+        rows = layout.table if len(layout.sheets) == 1 else layout.table.loc[
+            layout.table["sheet"] == title]
         n = len(rows)
         for j, label in enumerate(headers, start=1):
             put(ws, 1, j, label, font=shared_font(bold=True), align=HEADER_ALIGN)
@@ -133,9 +135,19 @@ def add_placeholders(wb, layout: MeasurementLayout, styles: StyleBook,
 
 
 def decimals_by_characteristic(table: pd.DataFrame) -> dict[str, int | None]:
+    """The decimals each characteristic's values are recorded to (``resolution_decimals`` of
+    its values, in table order), by name in order of first appearance: what iterating
+    ``table.groupby("characteristic", sort=False)["value"]`` gives, grouped on the column's
+    codes (a row without a name left out)."""
+    codes, names = pd.factorize(table["characteristic"], sort=False)
+    values = table["value"].to_numpy(dtype=float)
+    order = np.argsort(codes, kind="stable")  # each name's rows stay in table order
+    sorted_codes = codes[order]
+    cuts = np.flatnonzero(np.diff(sorted_codes)) + 1
     out = {}
-    for name, values in table.groupby("characteristic", sort=False)["value"]:
-        out[str(name)] = resolution_decimals(values.to_numpy(dtype=float))
+    for seg in np.split(order, cuts):
+        if len(seg) and codes[seg[0]] >= 0:
+            out[str(names[codes[seg[0]]])] = resolution_decimals(values[seg])
     return out
 
 
@@ -207,10 +219,14 @@ def _row_generator(rows: pd.DataFrame, styles: StyleBook, decimals: dict,
 def _chunk_columns(chunk, start, stop, keys, text_cols, value_style, styles) -> list[list]:
     used = chunk["used"].to_numpy(dtype=bool)
     # value: number format from the characteristic's resolution; NaN gives an empty cell
-    chars = chunk["characteristic"]
-    style_u = chars.map({c: _s(s[0]) for c, s in value_style.items()}).to_numpy()
-    style_x = chars.map({c: _s(s[1]) for c, s in value_style.items()}).to_numpy()
-    vstyle = np.where(used, style_u, style_x).tolist()
+    # the style of each row's characteristic (``chars.map(dict)``: a name not in the dict
+    # gives NaN), looked up once per distinct name
+    codes, names = pd.factorize(chunk["characteristic"], sort=False)
+    per_u = np.array([*(_s(value_style[c][0]) if c in value_style else np.nan for c in names),
+                      np.nan], dtype=object)
+    per_x = np.array([*(_s(value_style[c][1]) if c in value_style else np.nan for c in names),
+                      np.nan], dtype=object)  # (a missing name's code -1 takes the last)
+    vstyle = np.where(used, per_u[codes], per_x[codes]).tolist()
     values = chunk["value"].to_numpy(dtype=float)
     finite = np.isfinite(values).tolist()
     value_frag = [
