@@ -4,7 +4,9 @@
   ``tostring(write_stylesheet(wb))`` on the same workbook;
 - the drawings of charts remembered by their anchors (:mod:`verify.report.xlsx_fast`) and the
   sheets' header and footer remembered by their text (:mod:`verify.report.sheet_xml`), against
-  the same workbooks written the plain way.
+  the same workbooks written the plain way;
+- the parts openpyxl's writer hands over in memory (``xlsx_fast.openpyxl_package``), against the
+  zip archive it wrote them into before (stored, uncompressed): the same parts, in the same order.
 
 These are software regression checks (each shortcut against the route it replaces), not
 statistics checks.
@@ -167,3 +169,45 @@ def test_a_different_footer_is_not_taken_for_a_remembered_one():
     b.evenHeader.center.color = None
     b.differentFirst = True
     assert _header_footer_key(a) != _header_footer_key(b)
+
+
+@pytest.mark.parametrize("design", ["welch", "paired", "all"])
+def test_the_parts_in_memory_are_those_of_openpyxls_zip_archive(design, tmp_path, monkeypatch):
+    import io
+    import zipfile
+
+    from verify.report import sheet_xml, xlsx_fast
+
+    def zipped(wb, worksheet_writer=None) -> bytes:
+        """The route before: openpyxl's writer into a stored zip archive in memory."""
+        buf = io.BytesIO()
+        archive = zipfile.ZipFile(buf, "w", zipfile.ZIP_STORED, allowZip64=True)
+        xlsx_fast._in_memory_writer(worksheet_writer)(wb, archive).save()  # closes it
+        return buf.getvalue()
+
+    handed: list = []
+
+    def in_memory(wb, worksheet_writer=None):
+        parts = xlsx_fast.openpyxl_package(wb, worksheet_writer)
+        handed.append(parts)
+        return parts
+
+    ev = make_evaluation(design, seed=5)
+    monkeypatch.setattr(sheet_xml, "openpyxl_package", in_memory)
+    write_workbook(ev, tmp_path / "parts.xlsx")
+    monkeypatch.setattr(sheet_xml, "openpyxl_package", zipped)
+    write_workbook(ev, tmp_path / "zipped.xlsx")
+    assert isinstance(handed[0], dict) and any(n.startswith("xl/worksheets/") for n in handed[0])
+    # splice got the same parts in the same order: the same file, byte for byte
+    assert (tmp_path / "parts.xlsx").read_bytes() == (tmp_path / "zipped.xlsx").read_bytes()
+
+
+def test_a_part_written_twice_is_an_error():
+    from verify.report.xlsx_fast import _Parts
+
+    parts = _Parts()
+    parts.writestr("xl/a.xml", "<a>é</a>")
+    assert parts.parts == {"xl/a.xml": "<a>é</a>".encode()}
+    assert parts.namelist() == ["xl/a.xml"]
+    with pytest.raises(ValueError, match="twice"):
+        parts.writestr("xl/a.xml", b"<a/>")

@@ -25,7 +25,7 @@ import functools
 import io
 import re
 import zipfile
-from collections.abc import Callable, Iterable, Iterator
+from collections.abc import Callable, Iterable, Iterator, Mapping
 from dataclasses import dataclass
 from xml.etree import ElementTree as ET
 
@@ -104,10 +104,10 @@ class StreamedSheet:
     outline_rows: int = 0
 
 
-def _sheet_parts(zin: zipfile.ZipFile) -> dict[str, str]:
+def _sheet_parts(parts: Mapping[str, bytes]) -> dict[str, str]:
     """Sheet title -> part name (``xl/worksheets/sheetN.xml``) from the workbook's relations."""
-    wb = ET.fromstring(zin.read("xl/workbook.xml"))
-    rels = ET.fromstring(zin.read("xl/_rels/workbook.xml.rels"))
+    wb = ET.fromstring(parts["xl/workbook.xml"])
+    rels = ET.fromstring(parts["xl/_rels/workbook.xml.rels"])
     targets = {r.get("Id"): r.get("Target") for r in rels.iter(f"{{{_NS_PKG_REL}}}Relationship")}
     out = {}
     for sheet in wb.iter(f"{{{_NS_MAIN}}}sheet"):
@@ -169,7 +169,7 @@ def _core_properties(xml: bytes, stamp: str) -> bytes:
 
 
 def splice(
-    package: bytes,
+    package: Mapping[str, bytes] | bytes,
     streamed: Iterable[StreamedSheet],
     path,
     *,
@@ -180,8 +180,9 @@ def splice(
 
     Parameters
     ----------
-    package : bytes
-        The workbook openpyxl saved, with placeholder sheets.
+    package : mapping of part name to bytes, or bytes
+        The workbook openpyxl wrote, with placeholder sheets: its parts in the order written
+        (:func:`openpyxl_package`), or a saved package (a zip file's bytes).
     streamed : iterable of StreamedSheet
         Sheets (by title) whose rows are generated here.
     path : path-like
@@ -202,55 +203,83 @@ def splice(
         stamp.second,
     )
     w3c = stamp.strftime("%Y-%m-%dT%H:%M:%SZ")
-    with zipfile.ZipFile(io.BytesIO(package)) as zin:
-        parts = _sheet_parts(zin)
-        by_part = {}
-        for s in streamed:
-            if s.title not in parts:
-                raise KeyError(f"no placeholder sheet named {s.title!r}")
-            by_part[parts[s.title]] = s
-        with zipfile.ZipFile(path, "w", zipfile.ZIP_DEFLATED, allowZip64=True) as zout:
-            for info in zin.infolist():
-                out = zipfile.ZipInfo(info.filename, date_time=date_time)
-                out.compress_type = zipfile.ZIP_DEFLATED
-                out.external_attr = 0o600 << 16
-                data = zin.read(info.filename)
-                sheet = by_part.get(info.filename)
-                if sheet is None:
-                    if info.filename.endswith((".xml", ".rels", ".vml")):
-                        data = _guard_controls(data)
-                    if info.filename == "docProps/core.xml":
-                        data = _core_properties(data, w3c)
-                    zout.writestr(out, data, compresslevel=6)
-                    continue
-                # the placeholder's frame gets the guard too (header and footer text, ...):
-                # every sheet is streamed now, so this is where openpyxl's sheet XML passes
-                data = _DIMENSION.sub(
-                    f'<dimension ref="{sheet.dimension}"/>'.encode(), _guard_controls(data),
-                    count=1,
-                )
-                head, tail = _split_placeholder(data)
-                _set_level(out, compresslevel)
-                with zout.open(out, "w", force_zip64=True) as fh:
-                    deflate_fast(fh, compresslevel)
-                    fh.write(head)
-                    for chunk in sheet.rows():
-                        fh.write(chunk.encode("utf-8"))
-                    fh.write(tail)
+    if isinstance(package, (bytes, bytearray)):
+        with zipfile.ZipFile(io.BytesIO(package)) as zin:
+            package = {info.filename: zin.read(info.filename) for info in zin.infolist()}
+    titles = _sheet_parts(package)
+    by_part = {}
+    for s in streamed:
+        if s.title not in titles:
+            raise KeyError(f"no placeholder sheet named {s.title!r}")
+        by_part[titles[s.title]] = s
+    with zipfile.ZipFile(path, "w", zipfile.ZIP_DEFLATED, allowZip64=True) as zout:
+        for name, data in package.items():
+            out = zipfile.ZipInfo(name, date_time=date_time)
+            out.compress_type = zipfile.ZIP_DEFLATED
+            out.external_attr = 0o600 << 16
+            sheet = by_part.get(name)
+            if sheet is None:
+                if name.endswith((".xml", ".rels", ".vml")):
+                    data = _guard_controls(data)
+                if name == "docProps/core.xml":
+                    data = _core_properties(data, w3c)
+                zout.writestr(out, data, compresslevel=6)
+                continue
+            # the placeholder's frame gets the guard too (header and footer text, ...):
+            # every sheet is streamed now, so this is where openpyxl's sheet XML passes
+            data = _DIMENSION.sub(
+                f'<dimension ref="{sheet.dimension}"/>'.encode(), _guard_controls(data),
+                count=1,
+            )
+            head, tail = _split_placeholder(data)
+            _set_level(out, compresslevel)
+            with zout.open(out, "w", force_zip64=True) as fh:
+                deflate_fast(fh, compresslevel)
+                fh.write(head)
+                for chunk in sheet.rows():
+                    fh.write(chunk.encode("utf-8"))
+                fh.write(tail)
 
 
-def openpyxl_package(wb, worksheet_writer=None) -> bytes:
-    """The package openpyxl writes for ``wb``, its parts stored uncompressed.
+def openpyxl_package(wb, worksheet_writer=None) -> dict[str, bytes]:
+    """The parts openpyxl writes for ``wb``, by name in the order written.
 
-    :func:`splice` reads every part back and deflates it once into the final file; letting
-    openpyxl deflate them first (as ``Workbook.save`` does) only to inflate them again was
-    pure cost. (``Workbook.save`` also sets the modified time to the clock: splice sets both
+    :func:`splice` deflates each part once into the final file; letting openpyxl deflate them
+    first (as ``Workbook.save`` does) only to inflate them again was pure cost, and so was a
+    zip archive in memory between the two (a CRC-32 and headers per part, written, then read
+    and checked). (``Workbook.save`` also sets the modified time to the clock: splice sets both
     document times from the run's start anyway.)
     """
-    buf = io.BytesIO()
-    archive = zipfile.ZipFile(buf, "w", zipfile.ZIP_STORED, allowZip64=True)
-    _in_memory_writer(worksheet_writer)(wb, archive).save()  # closes the archive
-    return buf.getvalue()
+    archive = _Parts()
+    _in_memory_writer(worksheet_writer)(wb, archive).save()
+    return archive.parts
+
+
+class _Parts:
+    """What openpyxl's ``ExcelWriter`` uses of its zip archive (``writestr``, ``write``,
+    ``namelist``, ``close``), keeping each part's bytes in order: a text part encoded as
+    UTF-8, as ``ZipFile.writestr`` encodes it. A part written twice is an error (a zip archive
+    would hold both, and a reader take either)."""
+
+    def __init__(self) -> None:
+        self.parts: dict[str, bytes] = {}
+
+    def writestr(self, name, data, *_args, **_kwargs) -> None:
+        if isinstance(name, zipfile.ZipInfo):
+            name = name.filename
+        if name in self.parts:
+            raise ValueError(f"the workbook's writer wrote its part {name} twice")
+        self.parts[name] = data.encode("utf-8") if isinstance(data, str) else bytes(data)
+
+    def write(self, filename, arcname=None, *_args, **_kwargs) -> None:
+        with open(filename, "rb") as f:
+            self.writestr(arcname if arcname is not None else str(filename), f.read())
+
+    def namelist(self) -> list[str]:
+        return list(self.parts)
+
+    def close(self) -> None:
+        pass
 
 
 def _in_memory_writer(worksheet_writer=None):
