@@ -46,6 +46,15 @@ def test_isal_and_zlib_write_the_same_parts(tmp_path, monkeypatch):
     c = isal_zlib.compressobj(1, isal_zlib.DEFLATED, -15)
     assert raw == c.compress(fast["xl/worksheets/sheet1.xml"]) + c.flush()
     assert zlib.decompress(raw, -15) == fast["xl/worksheets/sheet1.xml"]
+    # the other parts at ISA-L's fuller level 3 (zlib's 6 without it)
+    with zipfile.ZipFile(tmp_path / "isal.xlsx") as z:
+        styles = _stored_stream(tmp_path / "isal.xlsx", z.getinfo("xl/styles.xml"))
+    c = isal_zlib.compressobj(3, isal_zlib.DEFLATED, -15)
+    assert styles == c.compress(fast["xl/styles.xml"]) + c.flush()
+    with zipfile.ZipFile(tmp_path / "zlib.xlsx") as z:
+        styles = _stored_stream(tmp_path / "zlib.xlsx", z.getinfo("xl/styles.xml"))
+    c = zlib.compressobj(6, zlib.DEFLATED, -15)
+    assert styles == c.compress(plain["xl/styles.xml"]) + c.flush()
 
 
 def _stored_stream(path, info: zipfile.ZipInfo) -> bytes:

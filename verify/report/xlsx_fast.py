@@ -223,7 +223,7 @@ def splice(
                     data = _guard_controls(data)
                 if name == "docProps/core.xml":
                     data = _core_properties(data, w3c)
-                zout.writestr(out, data, compresslevel=6)
+                _write_part(zout, out, data)
                 continue
             # the placeholder's frame gets the guard too (header and footer text, ...):
             # every sheet is streamed now, so this is where openpyxl's sheet XML passes
@@ -457,6 +457,21 @@ def deflate_fast(entry, level: int) -> None:
             or getattr(entry, "_file_size", 1) != 0:
         return
     entry._compressor = isal_zlib.compressobj(level, isal_zlib.DEFLATED, -15)
+
+
+def _write_part(zout: zipfile.ZipFile, info: zipfile.ZipInfo, data: bytes) -> None:
+    """A part other than a sheet (styles, charts, drawings, relationships: small), at the
+    fuller level of the deflate at hand: ISA-L's 3, or zlib's 6 where isal is not installed
+    (``ZipFile.writestr``'s steps; zlib's set-up per part cost more than ISA-L's whole deflate
+    of these parts, for files about one percent larger)."""
+    if _isal_zlib() is None:
+        zout.writestr(info, data, compresslevel=6)
+        return
+    _set_level(info, 3)
+    info.file_size = len(data)  # (as writestr sets it before opening the entry)
+    with zout.open(info, "w") as fh:
+        deflate_fast(fh, 3)
+        fh.write(data)
 
 
 def _set_level(info: zipfile.ZipInfo, level: int) -> None:
