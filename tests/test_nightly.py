@@ -25,7 +25,7 @@ import numpy as np
 import pytest
 
 from verify.cli_nightly import add_nightly_arguments, main_for_tests
-from verify.digest import DigestRow, Progress, summary_line, write_digest
+from verify.digest import HEADER_ROW, DigestRow, Progress, summary_line, write_digest
 from verify.ledger import Ledger
 from verify.nightly import run_nightly
 
@@ -609,18 +609,41 @@ def test_digest_workbook_has_a_row_per_spec_and_keeps_text_as_text(tmp_path):
     path = tmp_path / "digest.xlsx"
     write_digest(path, rows, run=[("run", "r2"), ("started", "s"), ("finished", "f")])
     ws = load_workbook(path)["Digest"]
-    header = [c.value for c in ws[4]]
+    header = [c.value for c in ws[HEADER_ROW]]
     assert header[:3] == ["Spec", "State", "Decision"]
-    first = {h: c for h, c in zip(header, ws[5], strict=True)}
+    first = {h: c for h, c in zip(header, ws[HEADER_ROW + 1], strict=True)}
     assert first["Spec"].value == "bushing" and first["Drift"].value == "yes"
     assert first["New lots"].value == 2
     assert first["New lot ids"].value == '=HYPERLINK("x"), +1'
     assert first["New lot ids"].data_type == "s"  # text, never a formula
-    second = {h: c.value for h, c in zip(header, ws[6], strict=True)}
+    second = {h: c.value for h, c in zip(header, ws[HEADER_ROW + 2], strict=True)}
     assert second["State"] == "ERROR" and second["Error"] == "housing.csv, row 3: bad"
     # the header row is as tall as its wrapped labels ("Previous decision" in 11 characters
     # takes two lines): spreadsheet programs do not grow rows on opening a file
-    assert ws.row_dimensions[4].height == 2 * 14.5 + 2
+    assert ws.row_dimensions[HEADER_ROW].height == 2 * 14.5 + 2
+
+
+def test_the_digest_carries_the_caution_above_its_table(tmp_path):
+    """Like every workbook, the digest says that its results support, and never replace, the
+    review and sign-off (the project's safety rule); on the first printed page, above the
+    decisions, wrapped within the printed columns."""
+    from openpyxl import load_workbook
+
+    from verify.digest import DIGEST_CAUTION, PRINTED_COLUMNS
+
+    path = tmp_path / "digest.xlsx"
+    write_digest(path, [DigestRow("housing", "specs/housing.yaml", "RUN", decision="PASS")],
+                 run=[("run", "r2"), ("started", "s"), ("finished", "f")])
+    ws = load_workbook(path)["Digest"]
+    (cell,) = [c for row in ws.iter_rows(max_row=HEADER_ROW - 1) for c in row
+               if c.value == DIGEST_CAUTION]
+    assert "never replace" in cell.value and "sign-off" in cell.value
+    assert "verify approves nothing" in cell.value
+    assert cell.alignment.wrap_text
+    last = chr(ord("A") + PRINTED_COLUMNS - 1)
+    assert f"A{cell.row}:{last}{cell.row}" in {str(r) for r in ws.merged_cells.ranges}
+    assert ws.row_dimensions[cell.row].height > 2 * 14.5  # its lines fit the row
+    assert ws.print_area == f"'Digest'!$A$1:${last}${HEADER_ROW + 1}"
 
 
 def test_digest_rows_stay_within_the_tallest_row(tmp_path):

@@ -141,6 +141,17 @@ _HEADERS = ("Spec", "State", "Decision", "Previous decision", "Standing", "Drift
             "Workbook", "Spec file")
 _WIDTHS = (24, 11, 10, 11, 13, 7, 9, 40, 40, 30, 50, 50, 40, 40)
 PRINTED_COLUMNS = 7
+HEADER_ROW = 5  # the table's column names (the title, run, ledger head and caution above)
+
+#: The caution every workbook carries, as the digest words it (its decisions are each spec's,
+#: whose workbook holds the evidence and the sign-off).
+DIGEST_CAUTION = (
+    "These statistical results support, and never replace, the engineering and quality review "
+    "and sign-off that the change-control procedure, the customer's requirements and local "
+    "regulations call for. verify approves nothing: a PASS means only that the declared "
+    "statistical criteria were met by the data each spec's workbook lists; release is decided "
+    "by the people who sign that workbook."
+)
 WRAPPED = {"Decision of record", "Drift detail", "New lot ids", "What changed", "Error"}
 
 
@@ -186,9 +197,13 @@ def write_digest(path: Path, rows: Sequence[DigestRow], *, run: Sequence[tuple[s
     if head:  # printed on the page, so a paper digest anchors the ledger's hash chain
         put(3, 1, f"ledger head after this run: {head}", font=shared_font(size=9),
             alignment=top)
-    for r in (2, 3):
+    from .report.cells import CAUTION_FILL
+
+    put(4, 1, DIGEST_CAUTION, font=shared_font(size=9, bold=True), alignment=top,
+        fill=PatternFill("solid", fgColor=CAUTION_FILL))
+    for r in (2, 3, 4):
         ws.merge_cells(start_row=r, start_column=1, end_row=r, end_column=PRINTED_COLUMNS)
-    header_row = 4
+    header_row = HEADER_ROW
     for c, h in enumerate(_HEADERS, start=1):
         put(header_row, c, h, font=shared_font(bold=True),
             fill=PatternFill("solid", fgColor="D9D9D9"),
