@@ -16,7 +16,7 @@ import zlib
 
 import pytest
 
-from tests.test_workbook import make_evaluation
+from tests.factory import make_evaluation
 from verify.report import xlsx_fast
 from verify.report.workbook import write_workbook
 
