@@ -12,6 +12,7 @@ row), then unmatched ones; otherwise production order.
 
 from __future__ import annotations
 
+from collections.abc import Iterator
 from dataclasses import dataclass
 
 import numpy as np
@@ -132,13 +133,18 @@ def _groups(table: pd.DataFrame, base: np.ndarray) -> dict:
             return {}
     width = len(p_keys)
     key = c.astype(np.int64) * width + p
-    order = np.argsort(key, kind="stable")  # (stable: each group's rows stay ascending)
-    cuts = np.flatnonzero(np.diff(key[order])) + 1
-    groups = {}
+    return {(c_keys[k // width], p_keys[k % width]): base[seg] for k, seg in code_groups(key)}
+
+
+def code_groups(codes: np.ndarray) -> Iterator[tuple[int, np.ndarray]]:
+    """``(code, positions)`` for each distinct code of ``codes`` in increasing order, each
+    group's positions ascending (a stable sort of the codes, cut where they change); a
+    negative code (pandas' -1 for a missing value) is left out."""
+    order = np.argsort(codes, kind="stable")
+    cuts = np.flatnonzero(np.diff(codes[order])) + 1
     for seg in np.split(order, cuts):
-        k = int(key[seg[0]])
-        groups[(c_keys[k // width], p_keys[k % width])] = base[seg]
-    return groups
+        if len(seg) and codes[seg[0]] >= 0:
+            yield int(codes[seg[0]]), seg
 
 
 def used_rows(table: pd.DataFrame, used: np.ndarray, name: str, process: str) -> pd.DataFrame:

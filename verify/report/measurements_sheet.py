@@ -22,7 +22,7 @@ from openpyxl.worksheet.table import Table, TableColumn, TableStyleInfo
 
 from .cell_styles import shared_font
 from .cells import MUTED, NOTE_FONT, clean_text, fixed, page_setup, put, resolution_decimals
-from .layout import MEASUREMENT_HEADERS, MeasurementLayout, measurement_headers
+from .layout import MEASUREMENT_HEADERS, MeasurementLayout, code_groups, measurement_headers
 from .styles import StyleBook
 from .xlsx_fast import StreamedSheet, row_writer, t_element
 
@@ -141,14 +141,8 @@ def decimals_by_characteristic(table: pd.DataFrame) -> dict[str, int | None]:
     codes (a row without a name left out)."""
     codes, names = pd.factorize(table["characteristic"], sort=False)
     values = table["value"].to_numpy(dtype=float)
-    order = np.argsort(codes, kind="stable")  # each name's rows stay in table order
-    sorted_codes = codes[order]
-    cuts = np.flatnonzero(np.diff(sorted_codes)) + 1
-    out = {}
-    for seg in np.split(order, cuts):
-        if len(seg) and codes[seg[0]] >= 0:
-            out[str(names[codes[seg[0]]])] = resolution_decimals(values[seg])
-    return out
+    return {str(names[code]): resolution_decimals(values[rows])
+            for code, rows in code_groups(codes)}
 
 
 class _TextColumn:
