@@ -20,16 +20,9 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+from .caution import CAUTION  # noqa: F401  (the decision's caution: Evaluation.caution)
 from .model import DECISION_ORDER
 from .stats._frozen import fast_init
-
-CAUTION = (
-    "These statistical results support, and never replace, the engineering and quality review "
-    "and sign-off that the change-control procedure, the customer's requirements and local "
-    "regulations call for. verify approves nothing: a PASS means only that the declared "
-    "statistical criteria were met by the data listed here; release is decided by the people "
-    "who sign below."
-)
 
 
 def combine(outcomes) -> str:

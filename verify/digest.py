@@ -14,6 +14,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TextIO
 
+from .caution import DIGEST_CAUTION
+
 EXIT_MEANINGS = (
     (0, "every spec PASS (or unchanged since a PASS), no drift, no error"),
     (1, "some spec HOLD, or drift from a decision of record; no error"),
@@ -143,15 +145,6 @@ _WIDTHS = (24, 11, 10, 11, 13, 7, 9, 40, 40, 30, 50, 50, 40, 40)
 PRINTED_COLUMNS = 7
 HEADER_ROW = 5  # the table's column names (the title, run, ledger head and caution above)
 
-#: The caution every workbook carries, as the digest words it (its decisions are each spec's,
-#: whose workbook holds the evidence and the sign-off).
-DIGEST_CAUTION = (
-    "These statistical results support, and never replace, the engineering and quality review "
-    "and sign-off that the change-control procedure, the customer's requirements and local "
-    "regulations call for. verify approves nothing: a PASS means only that the declared "
-    "statistical criteria were met by the data each spec's workbook lists; release is decided "
-    "by the people who sign that workbook."
-)
 WRAPPED = {"Decision of record", "Drift detail", "New lot ids", "What changed", "Error"}
 
 
