@@ -149,3 +149,23 @@ def test_a_formula_with_a_control_character_is_left_to_openpyxls_own_check():
     assert recheck_xml.Body.build([["ok", "=SUM(1,2)"]], FIRST_BODY_ROW, 6) is not None
     assert recheck_xml.Body.build([["ok", "=SUM(1,2)"], ["bad", "=A1\x01"]],
                                   FIRST_BODY_ROW, 6) is None
+
+
+@pytest.mark.parametrize("design", ["welch", "paired"])
+def test_the_helper_heading_fits_the_printed_width(tmp_path, design):
+    """The heading of the looked-up values is the last printed line of the recheck sheet (its
+    rows are folded): its text stays within the printed columns' width, where a longer one
+    was cut at the page's edge (seen on the rendered pages)."""
+    from openpyxl import load_workbook
+    from openpyxl.utils import get_column_letter
+
+    from verify.report.recheck import COLUMNS
+
+    path = tmp_path / "w.xlsx"
+    write_workbook(make_evaluation(design, seed=3), path)
+    ws = load_workbook(path)[RECHECK_SHEET]
+    (text,) = [c.value for c in ws["A"] if isinstance(c.value, str)
+               and c.value.startswith(HELPER_HEADING)]
+    width = sum(ws.column_dimensions[get_column_letter(j)].width
+                for j in range(1, len(COLUMNS) + 1))
+    assert len(text) <= width

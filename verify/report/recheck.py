@@ -151,9 +151,9 @@ def recheck_rows(evaluation: Evaluation, layout: MeasurementLayout) -> list[list
         base = FIRST_BODY_ROW + len(body) + 3  # a blank row, the heading, the column names
         body = body + [
             [],
-            [as_text(f"{HELPER_HEADING} by characteristic, process and production order (or "
-                   "pair key): the formulas above read these rows, so sorting or filtering the "
-                   "measurements table changes none of the results (grouped: expand to see)")],
+            # (one line within the printed width: a longer one was cut at the page's edge)
+            [as_text(f"{HELPER_HEADING}: the formulas above read these rows, so sorting or "
+                     "filtering that table changes no result (grouped: expand to see them)")],
             ["Looked-up value", "Value", None, None, None, None, "Lot"],
         ] + sh.helpers
 
